@@ -1,0 +1,15 @@
+package project
+
+import "errors"
+
+// Errors that storage returns, wrapped with what was being done; test with
+// errors.Is.
+var (
+	ErrNotFound  = errors.New("not found")
+	ErrDuplicate = errors.New("already exists")
+	// ErrInUse means a record cannot be deleted while others refer to it,
+	// for example a class that still has labels.
+	ErrInUse = errors.New("still in use")
+	// ErrInvalid means the caller passed a value that cannot be stored.
+	ErrInvalid = errors.New("invalid")
+)
