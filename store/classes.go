@@ -1,0 +1,229 @@
+package store
+
+import (
+	"context"
+	"database/sql"
+	"fmt"
+	"image/color"
+	"strings"
+
+	"boxwright/project"
+)
+
+const classCols = "id, name, color, hot_key"
+
+func scanClass(row interface{ Scan(...any) error }) (project.Class, error) {
+	var c project.Class
+	var hex string
+	if err := row.Scan(&c.ID, &c.Name, &hex, &c.HotKey); err != nil {
+		return c, err
+	}
+	c.Color, _ = ParseColor(hex)
+	return c, nil
+}
+
+// ParseColor reads "#rrggbb".
+func ParseColor(s string) (color.NRGBA, error) {
+	var r, g, b uint8
+	if len(s) != 7 || s[0] != '#' {
+		return color.NRGBA{}, fmt.Errorf("colour %q is not of the form #rrggbb", s)
+	}
+	if _, err := fmt.Sscanf(s, "#%02x%02x%02x", &r, &g, &b); err != nil {
+		return color.NRGBA{}, fmt.Errorf("colour %q is not of the form #rrggbb", s)
+	}
+	return color.NRGBA{r, g, b, 0xff}, nil
+}
+
+// FormatColor writes "#rrggbb".
+func FormatColor(c color.NRGBA) string { return fmt.Sprintf("#%02x%02x%02x", c.R, c.G, c.B) }
+
+func validHotKey(k string) error {
+	if k == "" {
+		return nil
+	}
+	if len(k) != 1 || !strings.ContainsAny(strings.ToLower(k), "0123456789abcdefghijklmnopqrstuvwxyz") {
+		return fmt.Errorf("hot key %q must be one digit or letter: %w", k, project.ErrInvalid)
+	}
+	return nil
+}
+
+// Classes lists the classes in display order.
+func (s *Store) Classes(ctx context.Context) ([]project.Class, error) {
+	rows, err := s.db.QueryContext(ctx, "SELECT "+classCols+" FROM classes ORDER BY position, id")
+	if err != nil {
+		return nil, fmt.Errorf("list classes: %w", err)
+	}
+	defer rows.Close()
+	var out []project.Class
+	for rows.Next() {
+		c, err := scanClass(rows)
+		if err != nil {
+			return nil, fmt.Errorf("list classes: %w", err)
+		}
+		out = append(out, c)
+	}
+	return out, rows.Err()
+}
+
+// Class reads one class.
+func (s *Store) Class(ctx context.Context, id int64) (project.Class, error) {
+	c, err := scanClass(s.db.QueryRowContext(ctx, "SELECT "+classCols+" FROM classes WHERE id = ?", id))
+	if err != nil {
+		return c, fmt.Errorf("class %d: %w", id, translate(err))
+	}
+	return c, nil
+}
+
+// ClassByName finds a class by its exact name.
+func (s *Store) ClassByName(ctx context.Context, name string) (project.Class, error) {
+	c, err := scanClass(s.db.QueryRowContext(ctx, "SELECT "+classCols+" FROM classes WHERE name = ?", name))
+	if err != nil {
+		return c, fmt.Errorf("class %q: %w", name, translate(err))
+	}
+	return c, nil
+}
+
+// AddClass stores a new class at the end of the order. A zero colour takes
+// the next palette colour; an empty hot key takes the next free digit.
+func (s *Store) AddClass(ctx context.Context, c project.Class) (project.Class, error) {
+	if err := project.ValidateName("class", c.Name); err != nil {
+		return c, fmt.Errorf("add class: %v: %w", err, project.ErrInvalid)
+	}
+	if err := validHotKey(c.HotKey); err != nil {
+		return c, fmt.Errorf("add class %q: %w", c.Name, err)
+	}
+	err := s.tx(ctx, func(tx *sql.Tx) error {
+		var n, pos int
+		if err := tx.QueryRowContext(ctx, "SELECT count(*), coalesce(max(position), -1) + 1 FROM classes").Scan(&n, &pos); err != nil {
+			return err
+		}
+		if c.Color == (color.NRGBA{}) {
+			c.Color = project.PaletteColor(n)
+		}
+		if c.HotKey == "" {
+			c.HotKey = freeDigit(ctx, tx)
+		}
+		res, err := tx.ExecContext(ctx, "INSERT INTO classes(name, color, hot_key, position) VALUES (?, ?, ?, ?)",
+			c.Name, FormatColor(c.Color), c.HotKey, pos)
+		if err != nil {
+			return translate(err)
+		}
+		c.ID, err = res.LastInsertId()
+		return err
+	})
+	if err != nil {
+		return c, fmt.Errorf("add class %q: %w", c.Name, err)
+	}
+	return c, nil
+}
+
+// freeDigit is the first of 1..9, 0 that no class uses, or "".
+func freeDigit(ctx context.Context, tx *sql.Tx) string {
+	used := map[string]bool{}
+	rows, err := tx.QueryContext(ctx, "SELECT hot_key FROM classes")
+	if err != nil {
+		return ""
+	}
+	defer rows.Close()
+	for rows.Next() {
+		var k string
+		rows.Scan(&k)
+		used[k] = true
+	}
+	for _, k := range strings.Split("1234567890", "") {
+		if !used[k] {
+			return k
+		}
+	}
+	return ""
+}
+
+// UpdateClass renames, recolours or re-keys a class; its labels keep it.
+func (s *Store) UpdateClass(ctx context.Context, c project.Class) error {
+	if err := project.ValidateName("class", c.Name); err != nil {
+		return fmt.Errorf("update class %d: %v: %w", c.ID, err, project.ErrInvalid)
+	}
+	if err := validHotKey(c.HotKey); err != nil {
+		return fmt.Errorf("update class %q: %w", c.Name, err)
+	}
+	res, err := s.db.ExecContext(ctx, "UPDATE classes SET name = ?, color = ?, hot_key = ? WHERE id = ?",
+		c.Name, FormatColor(c.Color), c.HotKey, c.ID)
+	if err != nil {
+		return fmt.Errorf("update class %q: %w", c.Name, translate(err))
+	}
+	if n, _ := res.RowsAffected(); n == 0 {
+		return fmt.Errorf("update class %d: %w", c.ID, project.ErrNotFound)
+	}
+	return nil
+}
+
+// RenameClass gives a class a new name, keeping its labels.
+func (s *Store) RenameClass(ctx context.Context, oldName, newName string) error {
+	c, err := s.ClassByName(ctx, oldName)
+	if err != nil {
+		return fmt.Errorf("rename class: %w", err)
+	}
+	c.Name = newName
+	return s.UpdateClass(ctx, c)
+}
+
+// DeleteClass removes a class. A class that has labels or suggestions is
+// refused with project.ErrInUse unless opts moves them to another class
+// (a merge) or deletes them.
+func (s *Store) DeleteClass(ctx context.Context, id int64, opts project.DeleteClassOptions) error {
+	c, err := s.Class(ctx, id)
+	if err != nil {
+		return fmt.Errorf("delete class: %w", err)
+	}
+	err = s.tx(ctx, func(tx *sql.Tx) error {
+		var labels, suggestions int
+		tx.QueryRowContext(ctx, "SELECT count(*) FROM labels WHERE class_id = ?", id).Scan(&labels)
+		tx.QueryRowContext(ctx, "SELECT count(*) FROM suggestions WHERE class_id = ?", id).Scan(&suggestions)
+		switch {
+		case opts.MoveTo != 0:
+			if opts.MoveTo == id {
+				return fmt.Errorf("cannot merge a class into itself: %w", project.ErrInvalid)
+			}
+			var exists int
+			if err := tx.QueryRowContext(ctx, "SELECT count(*) FROM classes WHERE id = ?", opts.MoveTo).Scan(&exists); err != nil || exists == 0 {
+				return fmt.Errorf("target class %d: %w", opts.MoveTo, project.ErrNotFound)
+			}
+			if _, err := tx.ExecContext(ctx, "UPDATE labels SET class_id = ?, updated_at = ? WHERE class_id = ?", opts.MoveTo, formatTime(s.now()), id); err != nil {
+				return err
+			}
+			if _, err := tx.ExecContext(ctx, "UPDATE suggestions SET class_id = ? WHERE class_id = ?", opts.MoveTo, id); err != nil {
+				return err
+			}
+		case opts.DeleteLabels:
+			if _, err := tx.ExecContext(ctx, "DELETE FROM labels WHERE class_id = ?", id); err != nil {
+				return err
+			}
+			if _, err := tx.ExecContext(ctx, "DELETE FROM suggestions WHERE class_id = ?", id); err != nil {
+				return err
+			}
+		case labels+suggestions > 0:
+			return fmt.Errorf("it has %d labels and %d suggestions; merge it into another class or delete them with it: %w",
+				labels, suggestions, project.ErrInUse)
+		}
+		_, err := tx.ExecContext(ctx, "DELETE FROM classes WHERE id = ?", id)
+		return translate(err)
+	})
+	if err != nil {
+		return fmt.Errorf("delete class %q: %w", c.Name, err)
+	}
+	return nil
+}
+
+// MergeClass moves every label and suggestion of class from into class
+// into, then deletes from.
+func (s *Store) MergeClass(ctx context.Context, from, into string) error {
+	f, err := s.ClassByName(ctx, from)
+	if err != nil {
+		return fmt.Errorf("merge: %w", err)
+	}
+	t, err := s.ClassByName(ctx, into)
+	if err != nil {
+		return fmt.Errorf("merge: %w", err)
+	}
+	return s.DeleteClass(ctx, f.ID, project.DeleteClassOptions{MoveTo: t.ID})
+}

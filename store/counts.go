@@ -1,0 +1,78 @@
+package store
+
+import (
+	"context"
+	"fmt"
+
+	"boxwright/project"
+)
+
+// Counts summarises the project: images by status, labels by class and by
+// annotator, suggestions by state. Every class and annotator appears, with
+// zero where it has no labels.
+func (s *Store) Counts(ctx context.Context) (project.Counts, error) {
+	c := project.Counts{ImagesBy: map[project.ImageStatus]int{}, Suggestions: map[project.SuggestionState]int{}}
+	for _, st := range project.ImageStatuses {
+		c.ImagesBy[st] = 0
+	}
+	for _, st := range project.SuggestionStates {
+		c.Suggestions[st] = 0
+	}
+	// One read transaction so that the figures agree with each other.
+	tx, done, err := s.readTx(ctx)
+	if err != nil {
+		return c, fmt.Errorf("count: %w", err)
+	}
+	defer done()
+	grouped := func(q string, put func(key string, n int)) error {
+		rows, err := tx.QueryContext(ctx, q)
+		if err != nil {
+			return err
+		}
+		defer rows.Close()
+		for rows.Next() {
+			var k string
+			var n int
+			if err := rows.Scan(&k, &n); err != nil {
+				return err
+			}
+			put(k, n)
+		}
+		return rows.Err()
+	}
+	named := func(q string, out *[]project.NamedCount) error {
+		rows, err := tx.QueryContext(ctx, q)
+		if err != nil {
+			return err
+		}
+		defer rows.Close()
+		for rows.Next() {
+			var nc project.NamedCount
+			if err := rows.Scan(&nc.ID, &nc.Name, &nc.Count); err != nil {
+				return err
+			}
+			*out = append(*out, nc)
+		}
+		return rows.Err()
+	}
+	steps := []error{
+		grouped("SELECT status, count(*) FROM images GROUP BY status", func(k string, n int) {
+			c.ImagesBy[project.ImageStatus(k)] = n
+			c.Images += n
+		}),
+		grouped("SELECT state, count(*) FROM suggestions GROUP BY state", func(k string, n int) {
+			c.Suggestions[project.SuggestionState(k)] = n
+		}),
+		tx.QueryRowContext(ctx, "SELECT count(*) FROM labels").Scan(&c.Labels),
+		named(`SELECT c.id, c.name, count(l.id) FROM classes c LEFT JOIN labels l ON l.class_id = c.id
+			GROUP BY c.id ORDER BY c.position, c.id`, &c.LabelsByClass),
+		named(`SELECT a.id, a.name, count(l.id) FROM annotators a LEFT JOIN labels l ON l.annotator_id = a.id
+			GROUP BY a.id ORDER BY a.name, a.id`, &c.LabelsByAnnotator),
+	}
+	for _, err := range steps {
+		if err != nil {
+			return c, fmt.Errorf("count: %w", err)
+		}
+	}
+	return c, nil
+}

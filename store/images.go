@@ -1,0 +1,106 @@
+package store
+
+import (
+	"context"
+	"fmt"
+
+	"boxwright/project"
+)
+
+const imageCols = "id, path, sha256, width, height, orientation, status, added_at"
+
+func scanImage(row interface{ Scan(...any) error }) (project.Image, error) {
+	var im project.Image
+	var status, added string
+	err := row.Scan(&im.ID, &im.Path, &im.SHA256, &im.Width, &im.Height, &im.Orientation, &status, &added)
+	im.Status = project.ImageStatus(status)
+	im.Added = parseTime(added)
+	return im, err
+}
+
+// Images lists all images by path.
+func (s *Store) Images(ctx context.Context) ([]project.Image, error) {
+	rows, err := s.db.QueryContext(ctx, "SELECT "+imageCols+" FROM images ORDER BY path, id")
+	if err != nil {
+		return nil, fmt.Errorf("list images: %w", err)
+	}
+	defer rows.Close()
+	var out []project.Image
+	for rows.Next() {
+		im, err := scanImage(rows)
+		if err != nil {
+			return nil, fmt.Errorf("list images: %w", err)
+		}
+		out = append(out, im)
+	}
+	return out, rows.Err()
+}
+
+// Image reads one image record.
+func (s *Store) Image(ctx context.Context, id int64) (project.Image, error) {
+	im, err := scanImage(s.db.QueryRowContext(ctx, "SELECT "+imageCols+" FROM images WHERE id = ?", id))
+	if err != nil {
+		return im, fmt.Errorf("image %d: %w", id, translate(err))
+	}
+	return im, nil
+}
+
+// ImageBySHA256 finds the image whose file bytes have this digest.
+func (s *Store) ImageBySHA256(ctx context.Context, sum string) (project.Image, error) {
+	im, err := scanImage(s.db.QueryRowContext(ctx, "SELECT "+imageCols+" FROM images WHERE sha256 = ?", sum))
+	if err != nil {
+		return im, fmt.Errorf("image with SHA-256 %.12s…: %w", sum, translate(err))
+	}
+	return im, nil
+}
+
+// AddImage stores an image record; a zero status becomes "new".
+func (s *Store) AddImage(ctx context.Context, im project.Image) (project.Image, error) {
+	if im.Status == "" {
+		im.Status = project.StatusNew
+	}
+	if im.Added.IsZero() {
+		im.Added = s.now()
+	}
+	if !im.Status.Valid() || im.Width <= 0 || im.Height <= 0 || im.Orientation < 1 || im.Orientation > 8 || len(im.SHA256) != 64 {
+		return im, fmt.Errorf("add image %s: status %q, size %dx%d, orientation %d, hash %q: %w",
+			im.Path, im.Status, im.Width, im.Height, im.Orientation, im.SHA256, project.ErrInvalid)
+	}
+	res, err := s.db.ExecContext(ctx, "INSERT INTO images(path, sha256, width, height, orientation, status, added_at) VALUES (?, ?, ?, ?, ?, ?, ?)",
+		im.Path, im.SHA256, im.Width, im.Height, im.Orientation, string(im.Status), formatTime(im.Added))
+	if err != nil {
+		return im, fmt.Errorf("add image %s: %w", im.Path, translate(err))
+	}
+	im.ID, _ = res.LastInsertId()
+	return im, nil
+}
+
+// SetImageStatus records how far labelling of the image has come.
+func (s *Store) SetImageStatus(ctx context.Context, id int64, st project.ImageStatus) error {
+	if !st.Valid() {
+		return fmt.Errorf("set status of image %d: unknown status %q: %w", id, st, project.ErrInvalid)
+	}
+	return s.updateOne(ctx, fmt.Sprintf("set status of image %d", id), "UPDATE images SET status = ? WHERE id = ?", string(st), id)
+}
+
+// RelinkImage records a new path for an image whose file moved.
+func (s *Store) RelinkImage(ctx context.Context, id int64, path string) error {
+	return s.updateOne(ctx, fmt.Sprintf("relink image %d", id), "UPDATE images SET path = ? WHERE id = ?", path, id)
+}
+
+// DeleteImage removes an image with its labels and suggestions.
+func (s *Store) DeleteImage(ctx context.Context, id int64) error {
+	return s.updateOne(ctx, fmt.Sprintf("delete image %d", id), "DELETE FROM images WHERE id = ?", id)
+}
+
+// updateOne runs a statement that must touch exactly one row.
+func (s *Store) updateOne(ctx context.Context, what, query string, args ...any) error {
+	res, err := s.db.ExecContext(ctx, query, args...)
+	if err != nil {
+		return fmt.Errorf("%s: %w", what, translate(err))
+	}
+	if n, _ := res.RowsAffected(); n == 0 {
+		return fmt.Errorf("%s: %w", what, project.ErrNotFound)
+	}
+	return nil
+}

@@ -1,0 +1,246 @@
+package store
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"io/fs"
+	"os"
+	"path/filepath"
+	"runtime"
+	"sort"
+	"strings"
+	"sync"
+
+	"boxwright/project"
+	"boxwright/store/imagefile"
+)
+
+// IntakeOptions tunes AddImages.
+type IntakeOptions struct {
+	// MaxPixels refuses larger images; 0 means imagefile.DefaultMaxPixels.
+	MaxPixels int64
+	// RelinkOnly looks for the files of known images and adds nothing new.
+	RelinkOnly bool
+	// Progress, when set, is called after each file with the counts so far.
+	Progress func(done, total int)
+}
+
+// IntakeFailure is one file that was skipped, with the reason.
+type IntakeFailure struct {
+	Path  string `json:"path"`
+	Error string `json:"error"`
+}
+
+// IntakeReport says what an intake did.
+type IntakeReport struct {
+	Added      int             `json:"added"`
+	Duplicates int             `json:"duplicates"`
+	Relinked   int             `json:"relinked"`
+	Failed     []IntakeFailure `json:"failed"`
+}
+
+// AddImages adds image files, and the image files found in folders
+// (recursively), to the project. A file whose bytes are already known adds
+// nothing; if the known image's file has gone missing, the image is
+// relinked to the new path with its labels. Files that cannot be read are
+// skipped, each with its reason in the report; only a cancelled context or a
+// database failure stops the intake, and every image already added stays.
+func (s *Store) AddImages(ctx context.Context, paths []string, opts IntakeOptions) (IntakeReport, error) {
+	rep := IntakeReport{Failed: []IntakeFailure{}}
+	if opts.MaxPixels == 0 {
+		opts.MaxPixels = imagefile.DefaultMaxPixels
+	}
+	files, failed := collectFiles(paths)
+	rep.Failed = append(rep.Failed, failed...)
+
+	type probed struct {
+		path string
+		info imagefile.Info
+		err  error
+	}
+	// Hashing and header reading are I/O bound; do them on a few workers
+	// and write to the database in file order from this goroutine.
+	results := make([]chan probed, len(files))
+	for i := range results {
+		results[i] = make(chan probed, 1)
+	}
+	ctx, cancel := context.WithCancel(ctx)
+	defer cancel()
+	var wg sync.WaitGroup
+	next := make(chan int)
+	for w := 0; w < max(2, runtime.NumCPU()); w++ {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			for i := range next {
+				info, err := imagefile.Probe(files[i], opts.MaxPixels)
+				results[i] <- probed{files[i], info, err}
+			}
+		}()
+	}
+	go func() {
+		defer close(next)
+		for i := range files {
+			select {
+			case next <- i:
+			case <-ctx.Done():
+				return
+			}
+		}
+	}()
+	defer wg.Wait()
+
+	for i := range files {
+		var p probed
+		select {
+		case p = <-results[i]:
+		case <-ctx.Done():
+			return rep, fmt.Errorf("adding images: %w", ctx.Err())
+		}
+		if p.err != nil {
+			rep.Failed = append(rep.Failed, IntakeFailure{p.path, p.err.Error()})
+		} else if err := s.intakeOne(ctx, p.path, p.info, opts, &rep); err != nil {
+			return rep, fmt.Errorf("adding image %s: %w", p.path, err)
+		}
+		if opts.Progress != nil {
+			opts.Progress(i+1, len(files))
+		}
+	}
+	return rep, nil
+}
+
+func (s *Store) intakeOne(ctx context.Context, path string, info imagefile.Info, opts IntakeOptions, rep *IntakeReport) error {
+	rel := s.storedPath(path)
+	known, err := s.ImageBySHA256(ctx, info.SHA256)
+	switch {
+	case err == nil:
+		if known.Path == rel {
+			rep.Duplicates++
+			return nil
+		}
+		if _, statErr := os.Stat(s.ImagePath(known)); statErr == nil {
+			rep.Duplicates++
+			return nil
+		}
+		if err := s.RelinkImage(ctx, known.ID, rel); err != nil {
+			return err
+		}
+		rep.Relinked++
+		return nil
+	case !errors.Is(err, project.ErrNotFound):
+		return err
+	case opts.RelinkOnly:
+		return nil
+	}
+	_, err = s.AddImage(ctx, project.Image{Path: rel, SHA256: info.SHA256, Width: info.Width, Height: info.Height,
+		Orientation: info.Orientation, Status: project.StatusNew})
+	if err != nil {
+		return err
+	}
+	rep.Added++
+	return nil
+}
+
+// collectFiles expands folders into the image files under them, sorted.
+// Files named explicitly are taken whatever their extension, so that a
+// wrong file gets a reason rather than silence.
+func collectFiles(paths []string) ([]string, []IntakeFailure) {
+	var files []string
+	var failed []IntakeFailure
+	seen := map[string]bool{}
+	add := func(p string) {
+		if abs, err := filepath.Abs(p); err == nil && !seen[abs] {
+			seen[abs] = true
+			files = append(files, abs)
+		}
+	}
+	for _, root := range paths {
+		st, err := os.Stat(root)
+		if err != nil {
+			failed = append(failed, IntakeFailure{root, describeStatError(err)})
+			continue
+		}
+		if !st.IsDir() {
+			add(root)
+			continue
+		}
+		var found []string
+		err = filepath.WalkDir(root, func(p string, d fs.DirEntry, err error) error {
+			if err != nil {
+				failed = append(failed, IntakeFailure{p, describeStatError(err)})
+				if d != nil && d.IsDir() {
+					return fs.SkipDir
+				}
+				return nil
+			}
+			if d.IsDir() && p != root && strings.HasPrefix(d.Name(), ".") {
+				return fs.SkipDir // hidden folders hold caches and version control
+			}
+			if d.Type().IsRegular() && imagefile.IsImageName(d.Name()) {
+				found = append(found, p)
+			}
+			return nil
+		})
+		if err != nil {
+			failed = append(failed, IntakeFailure{root, err.Error()})
+		}
+		sort.Strings(found)
+		for _, p := range found {
+			add(p)
+		}
+	}
+	return files, failed
+}
+
+func describeStatError(err error) string {
+	switch {
+	case errors.Is(err, fs.ErrNotExist):
+		return "no such file or folder"
+	case errors.Is(err, fs.ErrPermission):
+		return "permission denied"
+	}
+	return err.Error()
+}
+
+// storedPath is the path as recorded: relative to the project folder, with
+// forward slashes, when the file lies under it; absolute otherwise.
+func (s *Store) storedPath(abs string) string {
+	if rel, err := filepath.Rel(s.dir, abs); err == nil && rel != ".." && !strings.HasPrefix(rel, ".."+string(filepath.Separator)) {
+		return filepath.ToSlash(rel)
+	}
+	return filepath.ToSlash(abs)
+}
+
+// ImagePath is the image's file on this machine.
+func (s *Store) ImagePath(im project.Image) string {
+	p := filepath.FromSlash(im.Path)
+	if filepath.IsAbs(p) {
+		return p
+	}
+	return filepath.Join(s.dir, p)
+}
+
+// MissingImages lists the images whose files are not where the project
+// says.
+func (s *Store) MissingImages(ctx context.Context) ([]project.Image, error) {
+	all, err := s.Images(ctx)
+	if err != nil {
+		return nil, err
+	}
+	var missing []project.Image
+	for _, im := range all {
+		if _, err := os.Stat(s.ImagePath(im)); err != nil {
+			missing = append(missing, im)
+		}
+	}
+	return missing, nil
+}
+
+// Relink looks for the files of missing images under dir, matching them by
+// the SHA-256 of their bytes, and records their new paths. Nothing new is
+// added.
+func (s *Store) Relink(ctx context.Context, dir string, opts IntakeOptions) (IntakeReport, error) {
+	opts.RelinkOnly = true
+	return s.AddImages(ctx, []string{dir}, opts)
+}

@@ -1,0 +1,144 @@
+package store
+
+import (
+	"context"
+	"database/sql"
+	"fmt"
+	"strings"
+
+	"boxwright/project"
+)
+
+const labelCols = "id, image_id, class_id, annotator_id, x0, y0, x1, y1, origin, source, score, suggestion_id, created_at, updated_at"
+
+func scanLabel(row interface{ Scan(...any) error }) (project.Label, error) {
+	var l project.Label
+	var origin, created, updated string
+	var sug sql.NullInt64
+	err := row.Scan(&l.ID, &l.ImageID, &l.ClassID, &l.AnnotatorID, &l.Box.X0, &l.Box.Y0, &l.Box.X1, &l.Box.Y1,
+		&origin, &l.Source, &l.Score, &sug, &created, &updated)
+	l.Origin = project.Origin(origin)
+	l.SuggestionID = sug.Int64
+	l.Created, l.Updated = parseTime(created), parseTime(updated)
+	return l, err
+}
+
+// Labels lists labels matching the filter, ordered by image then id.
+func (s *Store) Labels(ctx context.Context, f project.LabelFilter) ([]project.Label, error) {
+	var where []string
+	var args []any
+	if f.ImageID != 0 {
+		where, args = append(where, "image_id = ?"), append(args, f.ImageID)
+	}
+	if f.AnnotatorID != 0 {
+		where, args = append(where, "annotator_id = ?"), append(args, f.AnnotatorID)
+	}
+	if f.ClassID != 0 {
+		where, args = append(where, "class_id = ?"), append(args, f.ClassID)
+	}
+	q := "SELECT " + labelCols + " FROM labels"
+	if len(where) > 0 {
+		q += " WHERE " + strings.Join(where, " AND ")
+	}
+	rows, err := s.db.QueryContext(ctx, q+" ORDER BY image_id, id", args...)
+	if err != nil {
+		return nil, fmt.Errorf("list labels: %w", err)
+	}
+	defer rows.Close()
+	var out []project.Label
+	for rows.Next() {
+		l, err := scanLabel(rows)
+		if err != nil {
+			return nil, fmt.Errorf("list labels: %w", err)
+		}
+		out = append(out, l)
+	}
+	return out, rows.Err()
+}
+
+// Label reads one label.
+func (s *Store) Label(ctx context.Context, id int64) (project.Label, error) {
+	l, err := scanLabel(s.db.QueryRowContext(ctx, "SELECT "+labelCols+" FROM labels WHERE id = ?", id))
+	if err != nil {
+		return l, fmt.Errorf("label %d: %w", id, translate(err))
+	}
+	return l, nil
+}
+
+func checkBox(b project.Box) error {
+	if !b.Valid() {
+		return fmt.Errorf("box %v has no area or a non-finite coordinate: %w", b, project.ErrInvalid)
+	}
+	return nil
+}
+
+// AddLabel stores a new label; a zero origin becomes "drawn".
+func (s *Store) AddLabel(ctx context.Context, l project.Label) (project.Label, error) {
+	var out project.Label
+	err := s.tx(ctx, func(tx *sql.Tx) error {
+		var err error
+		out, err = s.insertLabel(ctx, tx, l)
+		return err
+	})
+	return out, err
+}
+
+// AddLabels stores a batch of labels in one transaction: all or none.
+func (s *Store) AddLabels(ctx context.Context, ls []project.Label) error {
+	return s.tx(ctx, func(tx *sql.Tx) error {
+		for _, l := range ls {
+			if _, err := s.insertLabel(ctx, tx, l); err != nil {
+				return err
+			}
+		}
+		return nil
+	})
+}
+
+func (s *Store) insertLabel(ctx context.Context, tx *sql.Tx, l project.Label) (project.Label, error) {
+	if l.Origin == "" {
+		l.Origin = project.OriginDrawn
+	}
+	if !l.Origin.Valid() {
+		return l, fmt.Errorf("add label: unknown origin %q: %w", l.Origin, project.ErrInvalid)
+	}
+	if err := checkBox(l.Box); err != nil {
+		return l, fmt.Errorf("add label: %w", err)
+	}
+	now := s.now()
+	if l.Created.IsZero() {
+		l.Created = now
+	}
+	l.Updated = now
+	var sug any
+	if l.SuggestionID != 0 {
+		sug = l.SuggestionID
+	}
+	res, err := tx.ExecContext(ctx, "INSERT INTO labels(image_id, class_id, annotator_id, x0, y0, x1, y1, origin, source, score, suggestion_id, created_at, updated_at) VALUES (?,?,?,?,?,?,?,?,?,?,?,?,?)",
+		l.ImageID, l.ClassID, l.AnnotatorID, l.Box.X0, l.Box.Y0, l.Box.X1, l.Box.Y1, string(l.Origin), l.Source, l.Score, sug,
+		formatTime(l.Created), formatTime(l.Updated))
+	if err != nil {
+		err = translate(err)
+		if strings.Contains(err.Error(), "FOREIGN KEY") {
+			return l, fmt.Errorf("add label: image %d, class %d or annotator %d does not exist: %w", l.ImageID, l.ClassID, l.AnnotatorID, project.ErrNotFound)
+		}
+		return l, fmt.Errorf("add label: %w", err)
+	}
+	l.ID, _ = res.LastInsertId()
+	return l, nil
+}
+
+// UpdateLabel changes a label's box and class.
+func (s *Store) UpdateLabel(ctx context.Context, l project.Label) error {
+	if err := checkBox(l.Box); err != nil {
+		return fmt.Errorf("update label %d: %w", l.ID, err)
+	}
+	return s.updateOne(ctx, fmt.Sprintf("update label %d", l.ID),
+		"UPDATE labels SET class_id = ?, x0 = ?, y0 = ?, x1 = ?, y1 = ?, updated_at = ? WHERE id = ?",
+		l.ClassID, l.Box.X0, l.Box.Y0, l.Box.X1, l.Box.Y1, formatTime(s.now()), l.ID)
+}
+
+// DeleteLabel removes one label.
+func (s *Store) DeleteLabel(ctx context.Context, id int64) error {
+	return s.updateOne(ctx, fmt.Sprintf("delete label %d", id), "DELETE FROM labels WHERE id = ?", id)
+}

@@ -1,0 +1,156 @@
+package store
+
+import (
+	"context"
+	"database/sql"
+	"fmt"
+	"strings"
+
+	"boxwright/project"
+)
+
+const suggestionCols = "id, image_id, class_id, x0, y0, x1, y1, score, source, state, reviewer_id, reviewed_at, label_id, created_at"
+
+func scanSuggestion(row interface{ Scan(...any) error }) (project.Suggestion, error) {
+	var g project.Suggestion
+	var state, created string
+	var reviewer, label sql.NullInt64
+	var reviewed sql.NullString
+	err := row.Scan(&g.ID, &g.ImageID, &g.ClassID, &g.Box.X0, &g.Box.Y0, &g.Box.X1, &g.Box.Y1, &g.Score, &g.Source,
+		&state, &reviewer, &reviewed, &label, &created)
+	g.State = project.SuggestionState(state)
+	g.ReviewerID, g.LabelID = reviewer.Int64, label.Int64
+	g.Reviewed, g.Created = parseNullTime(reviewed), parseTime(created)
+	return g, err
+}
+
+// Suggestions lists suggestions matching the filter, best score first
+// within each image.
+func (s *Store) Suggestions(ctx context.Context, f project.SuggestionFilter) ([]project.Suggestion, error) {
+	var where []string
+	var args []any
+	if f.ImageID != 0 {
+		where, args = append(where, "image_id = ?"), append(args, f.ImageID)
+	}
+	if f.Source != "" {
+		where, args = append(where, "source = ?"), append(args, f.Source)
+	}
+	if f.State != "" {
+		where, args = append(where, "state = ?"), append(args, string(f.State))
+	}
+	q := "SELECT " + suggestionCols + " FROM suggestions"
+	if len(where) > 0 {
+		q += " WHERE " + strings.Join(where, " AND ")
+	}
+	rows, err := s.db.QueryContext(ctx, q+" ORDER BY image_id, score DESC, id", args...)
+	if err != nil {
+		return nil, fmt.Errorf("list suggestions: %w", err)
+	}
+	defer rows.Close()
+	var out []project.Suggestion
+	for rows.Next() {
+		g, err := scanSuggestion(rows)
+		if err != nil {
+			return nil, fmt.Errorf("list suggestions: %w", err)
+		}
+		out = append(out, g)
+	}
+	return out, rows.Err()
+}
+
+// Suggestion reads one suggestion.
+func (s *Store) Suggestion(ctx context.Context, id int64) (project.Suggestion, error) {
+	g, err := scanSuggestion(s.db.QueryRowContext(ctx, "SELECT "+suggestionCols+" FROM suggestions WHERE id = ?", id))
+	if err != nil {
+		return g, fmt.Errorf("suggestion %d: %w", id, translate(err))
+	}
+	return g, nil
+}
+
+// AddSuggestions stores new pending suggestions in one transaction.
+func (s *Store) AddSuggestions(ctx context.Context, gs []project.Suggestion) ([]int64, error) {
+	ids := make([]int64, 0, len(gs))
+	err := s.tx(ctx, func(tx *sql.Tx) error {
+		stmt, err := tx.PrepareContext(ctx, "INSERT INTO suggestions(image_id, class_id, x0, y0, x1, y1, score, source, state, created_at) VALUES (?,?,?,?,?,?,?,?,?,?)")
+		if err != nil {
+			return err
+		}
+		defer stmt.Close()
+		now := formatTime(s.now())
+		for i, g := range gs {
+			if err := checkBox(g.Box); err != nil {
+				return fmt.Errorf("suggestion %d: %w", i, err)
+			}
+			if strings.TrimSpace(g.Source) == "" {
+				return fmt.Errorf("suggestion %d: source name is empty: %w", i, project.ErrInvalid)
+			}
+			res, err := stmt.ExecContext(ctx, g.ImageID, g.ClassID, g.Box.X0, g.Box.Y0, g.Box.X1, g.Box.Y1, g.Score, g.Source,
+				string(project.SuggestionPending), now)
+			if err != nil {
+				return fmt.Errorf("suggestion %d (image %d, class %d): %w", i, g.ImageID, g.ClassID, translate(err))
+			}
+			id, _ := res.LastInsertId()
+			ids = append(ids, id)
+		}
+		return nil
+	})
+	if err != nil {
+		return nil, fmt.Errorf("add suggestions: %w", err)
+	}
+	return ids, nil
+}
+
+// DeleteSuggestion removes one suggestion; a label made from it stays.
+func (s *Store) DeleteSuggestion(ctx context.Context, id int64) error {
+	return s.updateOne(ctx, fmt.Sprintf("delete suggestion %d", id), "DELETE FROM suggestions WHERE id = ?", id)
+}
+
+// AcceptSuggestion turns a pending suggestion into a label of the reviewer
+// in one transaction. The label is "accepted" when final and classID equal
+// the suggestion's box and class, "corrected" otherwise; it keeps the
+// suggestion's source and score.
+func (s *Store) AcceptSuggestion(ctx context.Context, id, reviewerID int64, final project.Box, classID int64) (project.Label, error) {
+	var l project.Label
+	err := s.tx(ctx, func(tx *sql.Tx) error {
+		g, err := scanSuggestion(tx.QueryRowContext(ctx, "SELECT "+suggestionCols+" FROM suggestions WHERE id = ?", id))
+		if err != nil {
+			return translate(err)
+		}
+		if g.State != project.SuggestionPending {
+			return fmt.Errorf("it was already %s: %w", g.State, project.ErrInvalid)
+		}
+		state, origin := project.SuggestionAccepted, project.OriginAccepted
+		if final != g.Box || classID != g.ClassID {
+			state, origin = project.SuggestionCorrected, project.OriginCorrected
+		}
+		l, err = s.insertLabel(ctx, tx, project.Label{ImageID: g.ImageID, ClassID: classID, AnnotatorID: reviewerID, Box: final,
+			Origin: origin, Source: g.Source, Score: g.Score, SuggestionID: g.ID})
+		if err != nil {
+			return err
+		}
+		_, err = tx.ExecContext(ctx, "UPDATE suggestions SET state = ?, reviewer_id = ?, reviewed_at = ?, label_id = ? WHERE id = ?",
+			string(state), reviewerID, formatTime(s.now()), l.ID, id)
+		return translate(err)
+	})
+	if err != nil {
+		return l, fmt.Errorf("accept suggestion %d: %w", id, err)
+	}
+	return l, nil
+}
+
+// RejectSuggestion records that the reviewer turned a pending suggestion
+// down.
+func (s *Store) RejectSuggestion(ctx context.Context, id, reviewerID int64) error {
+	res, err := s.db.ExecContext(ctx, "UPDATE suggestions SET state = ?, reviewer_id = ?, reviewed_at = ? WHERE id = ? AND state = ?",
+		string(project.SuggestionRejected), reviewerID, formatTime(s.now()), id, string(project.SuggestionPending))
+	if err != nil {
+		return fmt.Errorf("reject suggestion %d: %w", id, translate(err))
+	}
+	if n, _ := res.RowsAffected(); n == 0 {
+		if _, err := s.Suggestion(ctx, id); err != nil {
+			return fmt.Errorf("reject: %w", err)
+		}
+		return fmt.Errorf("reject suggestion %d: it is no longer pending: %w", id, project.ErrInvalid)
+	}
+	return nil
+}
