@@ -1,0 +1,306 @@
+// Package imagefile reads the image files of a project: it identifies them
+// without decoding pixels, refuses files that are too large, damaged or cut
+// short, decodes them with their EXIF orientation applied and makes
+// thumbnails. JPEG, PNG, GIF, BMP, TIFF and WebP are read.
+package imagefile
+
+import (
+	"bufio"
+	"crypto/sha256"
+	"encoding/hex"
+	"errors"
+	"fmt"
+	"image"
+	"image/gif"
+	"image/jpeg"
+	"image/png"
+	"io"
+	"os"
+	"path/filepath"
+	"strings"
+
+	"golang.org/x/image/bmp"
+	"golang.org/x/image/tiff"
+	"golang.org/x/image/webp"
+)
+
+// Info describes an image file without decoding its pixels.
+type Info struct {
+	Format string // "jpeg", "png", "gif", "bmp", "tiff", "webp"
+	// Width and Height are those of the image as displayed, after EXIF
+	// orientation (orientations 5-8 swap the stored width and height).
+	Width, Height int
+	// StoredWidth and StoredHeight are those written in the file.
+	StoredWidth, StoredHeight int
+	// Orientation is the EXIF orientation 1..8; 1 when absent or unreadable.
+	Orientation int
+	SHA256      string // lower-case hex digest of the file bytes
+	Size        int64  // file size in bytes
+}
+
+// DefaultMaxPixels is the pixel count (width × height) above which callers
+// should refuse an image unless the user chose otherwise.
+const DefaultMaxPixels = 100_000_000
+
+// Errors that Probe and Decode return, wrapped with the file name and what is
+// wrong; test with errors.Is.
+var (
+	// ErrTooLarge means the image has more pixels than the caller allows.
+	ErrTooLarge = errors.New("image too large")
+	// ErrTruncated means the file ends before the image does.
+	ErrTruncated = errors.New("image file cut short")
+	// ErrNotImage means the file is not in one of the formats read here.
+	ErrNotImage = errors.New("not an image file")
+	// ErrEmpty means the file has no bytes at all.
+	ErrEmpty = errors.New("empty file")
+	// ErrUnreadable means the file is in a known format but is damaged or
+	// uses a variant of the format that cannot be decoded.
+	ErrUnreadable = errors.New("image cannot be read")
+)
+
+// Formats lists the format names that Info.Format can hold.
+var Formats = []string{"jpeg", "png", "gif", "bmp", "tiff", "webp"}
+
+// formatTitle is the name of a format as a person writes it.
+var formatTitle = map[string]string{
+	"jpeg": "JPEG", "png": "PNG", "gif": "GIF", "bmp": "BMP", "tiff": "TIFF", "webp": "WebP",
+}
+
+var imageExts = map[string]bool{
+	".jpg": true, ".jpeg": true, ".png": true, ".gif": true,
+	".bmp": true, ".tif": true, ".tiff": true, ".webp": true,
+}
+
+// IsImageName reports whether a file name has the extension of a format read
+// here (.jpg .jpeg .png .gif .bmp .tif .tiff .webp, in any case).
+func IsImageName(name string) bool {
+	return imageExts[strings.ToLower(filepath.Ext(name))]
+}
+
+// kindError carries one of the sentinel errors beside a message that already
+// says everything; errors.Is finds both the sentinel and any cause.
+type kindError struct {
+	kind error
+	err  error
+}
+
+func (e *kindError) Error() string   { return e.err.Error() }
+func (e *kindError) Unwrap() []error { return []error{e.kind, e.err} }
+
+// fail builds an error of the given kind whose message starts with the file
+// name; the format may use %w for a cause.
+func fail(name string, kind error, format string, args ...any) error {
+	return &kindError{kind: kind, err: fmt.Errorf("%s: "+format, append([]any{name}, args...)...)}
+}
+
+// Probe identifies the image file at path and hashes its bytes without
+// decoding its pixels. It refuses an image whose stored width × height
+// exceeds maxPixels (DefaultMaxPixels when maxPixels <= 0), and files that
+// are empty, not images, or cut short.
+func Probe(path string, maxPixels int64) (Info, error) {
+	f, size, err := open(path)
+	if err != nil {
+		return Info{}, err
+	}
+	defer f.Close()
+	info, err := probe(f, size, path, maxPixels)
+	if err != nil {
+		return Info{}, err
+	}
+	if info.SHA256, err = hashReader(io.NewSectionReader(f, 0, size)); err != nil {
+		return Info{}, fmt.Errorf("reading image %s: %w", path, err)
+	}
+	return info, nil
+}
+
+// Decode reads the whole image file at path and returns its pixels as
+// displayed, with the EXIF orientation applied, and its Info. It applies the
+// same checks as Probe, the pixel limit among them, before decoding.
+func Decode(path string, maxPixels int64) (image.Image, Info, error) {
+	f, size, err := open(path)
+	if err != nil {
+		return nil, Info{}, err
+	}
+	defer f.Close()
+	info, err := probe(f, size, path, maxPixels)
+	if err != nil {
+		return nil, Info{}, err
+	}
+	if info.SHA256, err = hashReader(io.NewSectionReader(f, 0, size)); err != nil {
+		return nil, Info{}, fmt.Errorf("reading image %s: %w", path, err)
+	}
+	img, err := decodePixels(io.NewSectionReader(f, 0, size), info.Format)
+	if err != nil {
+		return nil, Info{}, decodeError(path, info.Format, err)
+	}
+	if b := img.Bounds(); b.Dx() != info.StoredWidth || b.Dy() != info.StoredHeight {
+		return nil, Info{}, fail(path, ErrUnreadable, "the %s header says %d×%d pixels but the picture is %d×%d; the file is damaged",
+			formatTitle[info.Format], info.StoredWidth, info.StoredHeight, b.Dx(), b.Dy())
+	}
+	return Orient(img, info.Orientation), info, nil
+}
+
+// open opens a regular file and returns its size; folders and empty files
+// are refused.
+func open(path string) (*os.File, int64, error) {
+	f, err := os.Open(path)
+	if err != nil {
+		return nil, 0, fmt.Errorf("opening image: %w", err)
+	}
+	st, err := f.Stat()
+	if err != nil {
+		f.Close()
+		return nil, 0, fmt.Errorf("opening image: %w", err)
+	}
+	if !st.Mode().IsRegular() {
+		f.Close()
+		return nil, 0, fail(path, ErrNotImage, "is a folder or device, not an image file")
+	}
+	if st.Size() == 0 {
+		f.Close()
+		return nil, 0, fail(path, ErrEmpty, "the file is empty (0 bytes); it may not have finished copying or downloading")
+	}
+	return f, st.Size(), nil
+}
+
+// probe reads the header of an image held by r (size bytes, named name in
+// messages) and checks its pixel count and structure; it leaves SHA256
+// empty.
+func probe(r io.ReaderAt, size int64, name string, maxPixels int64) (Info, error) {
+	if size == 0 {
+		return Info{}, fail(name, ErrEmpty, "the file is empty (0 bytes); it may not have finished copying or downloading")
+	}
+	if maxPixels <= 0 {
+		maxPixels = DefaultMaxPixels
+	}
+	cfg, format, err := decodeConfig(io.NewSectionReader(r, 0, size))
+	if err != nil {
+		if !errors.Is(err, image.ErrFormat) && checkStructure(r, size, format) != nil {
+			// A decoder may call a short file damaged; the structure knows better.
+			return Info{}, fail(name, ErrTruncated, "the file ends inside its %s header; it was probably not copied or downloaded completely", formatTitle[format])
+		}
+		return Info{}, configError(name, format, err)
+	}
+	if formatTitle[format] == "" {
+		// Another package of the program may have registered more decoders.
+		return Info{}, fail(name, ErrNotImage, "is a %s image; only JPEG, PNG, GIF, BMP, TIFF and WebP files can be used", format)
+	}
+	title := formatTitle[format]
+	if cfg.Width <= 0 || cfg.Height <= 0 {
+		return Info{}, fail(name, ErrUnreadable, "the %s header gives a size of %d×%d pixels; the file is damaged", title, cfg.Width, cfg.Height)
+	}
+	if px := int64(cfg.Width) * int64(cfg.Height); px > maxPixels {
+		return Info{}, fail(name, ErrTooLarge, "%d×%d pixels (%.1f megapixels) is above the limit of %.1f megapixels",
+			cfg.Width, cfg.Height, float64(px)/1e6, float64(maxPixels)/1e6)
+	}
+	if err := checkStructure(r, size, format); err != nil {
+		return Info{}, fail(name, ErrTruncated, "the file is cut short (%w); it was probably not copied or downloaded completely", err)
+	}
+	info := Info{
+		Format:       format,
+		StoredWidth:  cfg.Width,
+		StoredHeight: cfg.Height,
+		Width:        cfg.Width,
+		Height:       cfg.Height,
+		Orientation:  orientationAt(r, size, format),
+		Size:         size,
+	}
+	if info.Orientation >= 5 {
+		info.Width, info.Height = info.Height, info.Width
+	}
+	return info, nil
+}
+
+// isTIFF reports whether a file starts with a TIFF header (TIFF 6.0,
+// section 2).
+func isTIFF(head []byte) bool {
+	return len(head) >= 4 && (string(head[:4]) == "II*\x00" || string(head[:4]) == "MM\x00*")
+}
+
+// decodeConfig reads the header of an image. TIFF goes straight to its
+// decoder with random access: through image.DecodeConfig it would get a
+// buffered reader and copy everything up to the directory, which the x/image
+// encoder writes after the pixels.
+func decodeConfig(r *io.SectionReader) (image.Config, string, error) {
+	var head [4]byte
+	n, _ := r.ReadAt(head[:], 0)
+	if isTIFF(head[:n]) {
+		cfg, err := tiff.DecodeConfig(r)
+		return cfg, "tiff", err
+	}
+	return image.DecodeConfig(bufio.NewReader(r))
+}
+
+// decodePixels decodes an image of a format probe has already identified.
+func decodePixels(r *io.SectionReader, format string) (image.Image, error) {
+	switch format {
+	case "tiff":
+		return tiff.Decode(r) // random access, see decodeConfig
+	case "jpeg":
+		return jpeg.Decode(bufio.NewReader(r))
+	case "png":
+		return png.Decode(bufio.NewReader(r))
+	case "gif":
+		return gif.Decode(bufio.NewReader(r))
+	case "bmp":
+		return bmp.Decode(bufio.NewReader(r))
+	case "webp":
+		return webp.Decode(bufio.NewReader(r))
+	}
+	return nil, fmt.Errorf("no decoder for format %q", format)
+}
+
+func isEOF(err error) bool {
+	return errors.Is(err, io.ErrUnexpectedEOF) || errors.Is(err, io.EOF)
+}
+
+func isUnsupported(err error) bool {
+	var tu tiff.UnsupportedError
+	var ju jpeg.UnsupportedError
+	var pu png.UnsupportedError
+	return errors.Is(err, bmp.ErrUnsupported) || errors.As(err, &tu) || errors.As(err, &ju) || errors.As(err, &pu)
+}
+
+// configError explains why the header of a file could not be read.
+func configError(name, format string, err error) error {
+	if errors.Is(err, image.ErrFormat) {
+		if IsImageName(name) {
+			return fail(name, ErrNotImage, "is not an image file, although its name ends in %s: its content is not JPEG, PNG, GIF, BMP, TIFF or WebP", filepath.Ext(name))
+		}
+		return fail(name, ErrNotImage, "is not an image file: its content is not JPEG, PNG, GIF, BMP, TIFF or WebP")
+	}
+	title := formatTitle[format]
+	if title == "" {
+		title = "image"
+	}
+	if isEOF(err) {
+		return fail(name, ErrTruncated, "the file ends inside its %s header; it was probably not copied or downloaded completely", title)
+	}
+	if isUnsupported(err) {
+		return fail(name, ErrUnreadable, "is a kind of %s file this program cannot read (%w); convert it to PNG or JPEG", title, err)
+	}
+	return fail(name, ErrUnreadable, "the %s header is damaged (%w)", title, err)
+}
+
+// decodeError explains why the pixels of a file could not be decoded.
+func decodeError(name, format string, err error) error {
+	title := formatTitle[format]
+	if isEOF(err) {
+		return fail(name, ErrTruncated, "the %s data ends early (%w); the file was probably not copied or downloaded completely", title, err)
+	}
+	if isUnsupported(err) {
+		return fail(name, ErrUnreadable, "is a kind of %s file this program cannot read (%w); convert it to PNG or JPEG", title, err)
+	}
+	return fail(name, ErrUnreadable, "the %s data is damaged (%w)", title, err)
+}
+
+// hashReader returns the lower-case hex SHA-256 of everything r yields,
+// reading it in blocks.
+func hashReader(r io.Reader) (string, error) {
+	h := sha256.New()
+	buf := make([]byte, 256<<10)
+	if _, err := io.CopyBuffer(h, r, buf); err != nil {
+		return "", err
+	}
+	return hex.EncodeToString(h.Sum(nil)), nil
+}
