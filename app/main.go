@@ -1,9 +1,63 @@
+// Command boxwright is a desktop workbench for building bounding-box
+// datasets for object detectors. With no arguments it opens the window;
+// with a sub-command it works headless (see usage).
 package main
 
 import (
-	_ "fyne.io/fyne/v2/app"
-	_ "github.com/mattn/go-sqlite3"
-	_ "golang.org/x/image/webp"
+	"fmt"
+	"io"
+	"os"
+
+	_ "boxwright/app/locale" // first: see the package comment
 )
 
-func main() {}
+func main() {
+	os.Exit(run(os.Args[1:], os.Stdout, os.Stderr))
+}
+
+// run dispatches a command line and returns the exit status.
+func run(args []string, stdout, stderr io.Writer) int {
+	if len(args) == 0 {
+		return runGUI("", stderr)
+	}
+	cmd, ok := commands[args[0]]
+	if !ok {
+		if args[0] == "help" || args[0] == "-h" || args[0] == "--help" {
+			fmt.Fprint(stdout, usage)
+			return 0
+		}
+		fmt.Fprintf(stderr, "boxwright: unknown command %q\n\n%s", args[0], usage)
+		return 2
+	}
+	if err := cmd(args[1:], stdout, stderr); err != nil {
+		fmt.Fprintf(stderr, "boxwright %s: %v\n", args[0], err)
+		if _, isUsage := err.(usageError); isUsage {
+			return 2
+		}
+		return 1
+	}
+	return 0
+}
+
+const usage = `Usage: boxwright [COMMAND [ARGS]]
+
+With no command, opens the window.
+
+Commands:
+  open PROJECT.boxw                     open a project in the window
+  new PROJECT.boxw                      create an empty project (never overwrites)
+  add-images PROJECT.boxw PATH...       add image files and folders (recursive)
+        [--max-megapixels N] [--json]
+  relink PROJECT.boxw FOLDER [--json]   find moved image files by their content
+  classes PROJECT.boxw list [--json]
+  classes PROJECT.boxw add NAME...
+  classes PROJECT.boxw rename OLD NEW
+  classes PROJECT.boxw merge FROM INTO  move FROM's labels to INTO, delete FROM
+  classes PROJECT.boxw delete NAME      only when it has no labels
+  info PROJECT.boxw [--json]            counts of images, labels, suggestions
+  images PROJECT.boxw [--json]          one line per image
+  demo DIR [--no-open] [--seed N]       make the invented harbour demo in DIR
+  help                                  this text
+
+Every command exits non-zero with a message on stderr when it fails.
+`

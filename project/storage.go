@@ -106,6 +106,12 @@ type Counts struct {
 	LabelsByAnnotator []NamedCount // every annotator, in name order
 }
 
+// ImageCounts are the per-image figures shown in image lists.
+type ImageCounts struct {
+	Labels  int // labels of every annotator
+	Pending int // suggestions awaiting review
+}
+
 // Store is everything the program needs from a project's storage.
 type Store interface {
 	ClassStore
@@ -114,6 +120,9 @@ type Store interface {
 	LabelStore
 	SuggestionStore
 	Counts(ctx context.Context) (Counts, error)
+	// CountsByImage has an entry for every image that has labels or
+	// pending suggestions.
+	CountsByImage(ctx context.Context) (map[int64]ImageCounts, error)
 	// Dir is the folder that relative image paths are relative to.
 	Dir() string
 	Close() error

@@ -76,3 +76,27 @@ func (s *Store) Counts(ctx context.Context) (project.Counts, error) {
 	}
 	return c, nil
 }
+
+// CountsByImage has the label and pending-suggestion counts of every image
+// that has any.
+func (s *Store) CountsByImage(ctx context.Context) (map[int64]project.ImageCounts, error) {
+	rows, err := s.db.QueryContext(ctx, `SELECT image_id, sum(n_labels), sum(n_pending) FROM (
+		SELECT image_id, count(*) AS n_labels, 0 AS n_pending FROM labels GROUP BY image_id
+		UNION ALL
+		SELECT image_id, 0, count(*) FROM suggestions WHERE state = 'pending' GROUP BY image_id)
+		GROUP BY image_id`)
+	if err != nil {
+		return nil, fmt.Errorf("count per image: %w", err)
+	}
+	defer rows.Close()
+	out := map[int64]project.ImageCounts{}
+	for rows.Next() {
+		var id int64
+		var c project.ImageCounts
+		if err := rows.Scan(&id, &c.Labels, &c.Pending); err != nil {
+			return nil, fmt.Errorf("count per image: %w", err)
+		}
+		out[id] = c
+	}
+	return out, rows.Err()
+}

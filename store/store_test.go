@@ -481,6 +481,14 @@ func TestSuggestionsReviewAndCounts(t *testing.T) {
 	if len(c.LabelsByAnnotator) != 1 || c.LabelsByAnnotator[0].Count != 1 {
 		t.Errorf("by annotator: %+v", c.LabelsByAnnotator)
 	}
+	s.AddSuggestions(bg, []project.Suggestion{{ImageID: im.ID, ClassID: kayak.ID, Box: b, Score: 0.4, Source: "other"}})
+	per, err := s.CountsByImage(bg)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(per) != 1 || per[im.ID] != (project.ImageCounts{Labels: 1, Pending: 1}) {
+		t.Errorf("per image: %+v", per)
+	}
 }
 
 // One connection writes in many short transactions while another reads and

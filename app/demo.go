@@ -1,0 +1,160 @@
+package main
+
+import (
+	"context"
+	"errors"
+	"flag"
+	"fmt"
+	"io"
+	"os"
+	"path/filepath"
+
+	"boxwright/assets/demo"
+	"boxwright/project"
+	"boxwright/store"
+)
+
+// demoProjectName is the project file that "boxwright demo DIR" writes.
+const demoProjectName = "harbour" + store.Extension
+
+// demoDefaults is the scenario the window's demo button makes.
+var demoDefaults = demo.Config{Seed: 1}
+
+func cmdDemo(args []string, stdout, stderr io.Writer) error {
+	fs := flag.NewFlagSet("demo", flag.ContinueOnError)
+	noOpen := fs.Bool("no-open", false, "")
+	seed := fs.Int64("seed", 1, "")
+	images := fs.Int("images", demo.DefaultImages, "")
+	pos, err := parse(fs, args, 1, 1, "demo DIR [--no-open] [--seed N] [--images N]")
+	if err != nil {
+		return err
+	}
+	if *images <= 0 || *images > 100000 {
+		return usageError("--images must be between 1 and 100000")
+	}
+	path := filepath.Join(pos[0], demoProjectName)
+	if _, err := os.Stat(path); err == nil {
+		fmt.Fprintf(stderr, "a demo project already exists at %s; using it (remove the folder for a fresh one)\n", path)
+	} else {
+		ctx, stop := interruptible()
+		defer stop()
+		if err := makeDemo(ctx, pos[0], demo.Config{Seed: *seed, Images: *images}, func(done, total int) {
+			fmt.Fprintf(stderr, "\rdrawing images %d / %d", done, total)
+			if done == total {
+				fmt.Fprintln(stderr)
+			}
+		}); err != nil {
+			return err
+		}
+		fmt.Fprintf(stdout, "wrote %s\n", path)
+	}
+	if *noOpen {
+		return nil
+	}
+	if code := runGUI(path, stderr); code != 0 {
+		return fmt.Errorf("the window closed with an error")
+	}
+	return nil
+}
+
+// makeDemo writes the scenario's images under dir/images and a project
+// dir/harbour.boxw holding them, both annotators' labels and the pending
+// suggestions. A failure removes the half-made project file.
+func makeDemo(ctx context.Context, dir string, cfg demo.Config, progress func(done, total int)) (err error) {
+	sc := demo.Generate(cfg)
+	imgDir := filepath.Join(dir, "images")
+	if err := os.MkdirAll(imgDir, 0o755); err != nil {
+		return fmt.Errorf("make demo folder: %w", err)
+	}
+	paths, err := sc.WriteImages(ctx, imgDir, progress)
+	if err != nil {
+		return fmt.Errorf("write demo images: %w", err)
+	}
+	path := filepath.Join(dir, demoProjectName)
+	s, err := store.Create(path)
+	if err != nil {
+		return err
+	}
+	defer func() {
+		s.Close()
+		if err != nil {
+			os.Remove(path)
+		}
+	}()
+	rep, err := s.AddImages(ctx, paths, store.IntakeOptions{})
+	if err != nil {
+		return err
+	}
+	if len(rep.Failed) > 0 {
+		return fmt.Errorf("demo image %s: %s", rep.Failed[0].Path, rep.Failed[0].Error)
+	}
+	return fillDemo(ctx, s, sc, paths)
+}
+
+// fillDemo stores the scenario's classes, labels and suggestions for the
+// images already added from paths (in frame order).
+func fillDemo(ctx context.Context, s *store.Store, sc *demo.Scenario, paths []string) error {
+	classID := map[string]int64{}
+	for _, name := range demo.Classes {
+		c, err := s.AddClass(ctx, project.Class{Name: name})
+		if err != nil {
+			return err
+		}
+		classID[name] = c.ID
+	}
+	imageID := make([]int64, len(paths))
+	all, err := s.Images(ctx)
+	if err != nil {
+		return err
+	}
+	byPath := map[string]int64{}
+	for _, im := range all {
+		byPath[filepath.Clean(s.ImagePath(im))] = im.ID
+	}
+	for i, p := range paths {
+		abs, _ := filepath.Abs(p)
+		if imageID[i] = byPath[filepath.Clean(abs)]; imageID[i] == 0 {
+			return errors.New("demo image " + p + " was not added")
+		}
+	}
+	var labels []project.Label
+	for _, a := range sc.Annotators {
+		ann, err := s.AddAnnotator(ctx, a.Name)
+		if err != nil {
+			return err
+		}
+		for f, objs := range a.Labels {
+			for _, o := range objs {
+				labels = append(labels, project.Label{ImageID: imageID[f], ClassID: classID[o.Class], AnnotatorID: ann.ID,
+					Box: o.Box, Origin: project.OriginDrawn})
+			}
+		}
+	}
+	if err := s.AddLabels(ctx, labels); err != nil {
+		return err
+	}
+	var sugs []project.Suggestion
+	for f, ss := range sc.Suggestions {
+		for _, g := range ss {
+			sugs = append(sugs, project.Suggestion{ImageID: imageID[f], ClassID: classID[g.Class], Box: g.Box, Score: g.Score, Source: sc.Source})
+		}
+	}
+	if _, err := s.AddSuggestions(ctx, sugs); err != nil {
+		return err
+	}
+	// A project in mid-course: the first half labelled and some of it
+	// checked, the rest only just begun.
+	for f, id := range imageID {
+		st := project.StatusStarted
+		switch {
+		case f < len(imageID)/4:
+			st = project.StatusReviewed
+		case f < len(imageID)/2:
+			st = project.StatusDone
+		}
+		if err := s.SetImageStatus(ctx, id, st); err != nil {
+			return err
+		}
+	}
+	return nil
+}
