@@ -14,6 +14,7 @@ import (
 	"fyne.io/fyne/v2/container"
 	"fyne.io/fyne/v2/dialog"
 	"fyne.io/fyne/v2/driver/desktop"
+	"fyne.io/fyne/v2/layout"
 	"fyne.io/fyne/v2/storage"
 	"fyne.io/fyne/v2/theme"
 	"fyne.io/fyne/v2/widget"
@@ -54,11 +55,13 @@ type ui struct {
 	perImg  map[int64]project.ImageCounts
 	classes map[int64]project.Class
 
-	list    *widget.List
-	view    *canvas.View
-	summary *widget.Label
-	status  *widget.Label
-	body    *fyne.Container // the screen shown in the window: welcome or project
+	list       *widget.List
+	view       *canvas.View
+	who        *widget.Select // whose labels the view shows
+	annotators []project.Annotator
+	summary    *widget.Label
+	status     *widget.Label
+	body       *fyne.Container // the screen shown in the window: welcome or project
 
 	selected     int
 	cancelDecode context.CancelFunc
@@ -75,6 +78,7 @@ func newUI(a fyne.App) *ui {
 	u.status.Truncation = fyne.TextTruncateEllipsis
 	u.list = widget.NewList(func() int { return len(u.images) }, u.newRow, u.updateRow)
 	u.list.OnSelected = func(i widget.ListItemID) { u.showImage(i) }
+	u.who = widget.NewSelect(nil, func(string) { u.showLabels() })
 	u.body = container.NewStack(u.welcome())
 	u.win.SetContent(u.body)
 	u.win.SetMainMenu(u.menu())
@@ -147,17 +151,18 @@ func (u *ui) welcome() fyne.CanvasObject {
 
 func (u *ui) projectScreen() fyne.CanvasObject {
 	left := container.NewBorder(u.summary, nil, nil, nil, u.list)
-	split := container.NewHSplit(left, u.view)
+	bar := container.NewHBox(widget.NewLabel("Show labels of"), u.who)
+	split := container.NewHSplit(left, container.NewBorder(bar, nil, nil, nil, u.view))
 	split.Offset = 0.24
 	return container.NewBorder(nil, u.status, nil, nil, split)
 }
 
 func (u *ui) newRow() fyne.CanvasObject {
-	name := widget.NewLabel("harbour-000.jpg")
+	name := widget.NewLabelWithStyle("harbour-000.jpg", fyne.TextAlignLeading, fyne.TextStyle{Bold: true})
 	name.Truncation = fyne.TextTruncateEllipsis
 	detail := widget.NewLabel("reviewed · 00 labels · 00 pending")
-	detail.Importance = widget.LowImportance
-	return container.NewVBox(name, detail)
+	detail.Truncation = fyne.TextTruncateEllipsis
+	return container.New(layout.NewCustomPaddedVBoxLayout(-2*theme.Padding()), name, detail)
 }
 
 func (u *ui) updateRow(i widget.ListItemID, o fyne.CanvasObject) {
@@ -237,7 +242,25 @@ func (u *ui) reload() error {
 	if err != nil {
 		return err
 	}
-	u.images, u.perImg = ims, per
+	as, err := u.st.Annotators(ctx)
+	if err != nil {
+		return err
+	}
+	u.images, u.perImg, u.annotators = ims, per, as
+	opts := []string{everyone}
+	for _, a := range as {
+		opts = append(opts, a.Name)
+	}
+	u.who.SetOptions(opts)
+	if u.who.Selected == "" || !contains(opts, u.who.Selected) {
+		// One annotator at a time by default: several people's boxes on
+		// the same objects hide each other.
+		if len(as) > 0 {
+			u.who.SetSelected(as[0].Name)
+		} else {
+			u.who.SetSelected(everyone)
+		}
+	}
 	u.classes = map[int64]project.Class{}
 	for _, c := range cs {
 		u.classes[c.ID] = c
@@ -284,17 +307,6 @@ func (u *ui) showImage(i int) {
 	ctx, cancel := context.WithCancel(context.Background())
 	u.cancelDecode = cancel
 	u.view.SetMessage("Loading " + filepath.Base(im.Path) + "…")
-	labels, err := u.st.Labels(ctx, project.LabelFilter{ImageID: im.ID})
-	if err != nil {
-		u.view.SetMessage(err.Error())
-		return
-	}
-	u.status.SetText(fmt.Sprintf("%s — %d×%d px, orientation %d, %s, %s", im.Path, im.Width, im.Height, im.Orientation, im.Status, plural(len(labels), "label")))
-	overlays := make([]canvas.Overlay, 0, len(labels))
-	for _, l := range labels {
-		c := u.classes[l.ClassID]
-		overlays = append(overlays, canvas.Overlay{Box: l.Box, Color: c.Color, Caption: c.Name})
-	}
 	path := u.st.ImagePath(im)
 	go func() {
 		img, _, err := imagefile.Decode(path, imagefile.DefaultMaxPixels)
@@ -310,13 +322,63 @@ func (u *ui) showImage(i int) {
 				u.view.SetMessage(fmt.Sprintf("Cannot show this image: %v", err))
 			} else {
 				u.view.SetImage(shown, im.Width, im.Height)
-				u.view.SetOverlays(overlays)
+				u.showLabels()
 			}
 			if u.decoded != nil {
 				u.decoded(im.ID, err)
 			}
 		})
 	}()
+}
+
+// everyone is the choice that shows all annotators' labels at once.
+const everyone = "everyone"
+
+func contains(xs []string, x string) bool {
+	for _, v := range xs {
+		if v == x {
+			return true
+		}
+	}
+	return false
+}
+
+// showLabels draws the selected image's labels of the chosen annotator
+// and updates the status line.
+func (u *ui) showLabels() {
+	if u.st == nil || u.selected < 0 || u.selected >= len(u.images) {
+		return
+	}
+	im := u.images[u.selected]
+	f := project.LabelFilter{ImageID: im.ID}
+	names := map[int64]string{}
+	for _, a := range u.annotators {
+		names[a.ID] = a.Name
+		if a.Name == u.who.Selected {
+			f.AnnotatorID = a.ID
+		}
+	}
+	labels, err := u.st.Labels(context.Background(), f)
+	if err != nil {
+		u.showError(err)
+		return
+	}
+	overlays := make([]canvas.Overlay, 0, len(labels))
+	for _, l := range labels {
+		c := u.classes[l.ClassID]
+		caption := c.Name
+		if f.AnnotatorID == 0 {
+			caption += " · " + names[l.AnnotatorID]
+		}
+		overlays = append(overlays, canvas.Overlay{Box: l.Box, Color: c.Color, Caption: caption})
+	}
+	u.view.SetOverlays(overlays)
+	whose := "everyone's"
+	if f.AnnotatorID != 0 {
+		whose = u.who.Selected + "'s"
+	}
+	u.status.SetText(fmt.Sprintf("%s — %d×%d px, orientation %d, %s — showing %s %s",
+		im.Path, im.Width, im.Height, im.Orientation, im.Status, whose, plural(len(labels), "label")))
 }
 
 // reportMissing offers to look for moved image files by their content.

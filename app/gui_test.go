@@ -1,0 +1,168 @@
+package main
+
+import (
+	"context"
+	"path/filepath"
+	"strings"
+	"testing"
+	"time"
+
+	"fyne.io/fyne/v2"
+	"fyne.io/fyne/v2/test"
+	"fyne.io/fyne/v2/widget"
+
+	"boxwright/assets/demo"
+	"boxwright/project"
+	"boxwright/store"
+)
+
+// smallDemo writes a three-image demo project and returns its path.
+func smallDemo(t *testing.T) string {
+	t.Helper()
+	dir := t.TempDir()
+	if err := makeDemo(context.Background(), dir, demo.Config{Seed: 7, Images: 3, Width: 640, Height: 480}, nil); err != nil {
+		t.Fatal(err)
+	}
+	return filepath.Join(dir, demoProjectName)
+}
+
+// waitDecoded opens the UI's next decode result or fails after a while.
+func waitDecoded(t *testing.T, ch <-chan error) {
+	t.Helper()
+	select {
+	case err := <-ch:
+		if err != nil {
+			t.Fatalf("decoding the image for display: %v", err)
+		}
+	case <-time.After(10 * time.Second):
+		t.Fatal("the image was not shown within 10 s")
+	}
+}
+
+func labelsOf(t *testing.T, path string, imageIndex int, annotator string) int {
+	t.Helper()
+	s, err := store.Open(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer s.Close()
+	ctx := context.Background()
+	ims, _ := s.Images(ctx)
+	f := project.LabelFilter{ImageID: ims[imageIndex].ID}
+	if annotator != "" {
+		a, err := s.AnnotatorByName(ctx, annotator)
+		if err != nil {
+			t.Fatal(err)
+		}
+		f.AnnotatorID = a.ID
+	}
+	ls, _ := s.Labels(ctx, f)
+	return len(ls)
+}
+
+func TestWindowShowsProjectImagesAndLabels(t *testing.T) {
+	path := smallDemo(t)
+	wantFirst := labelsOf(t, path, 0, "Ines")
+	wantAll := labelsOf(t, path, 1, "")
+	wantSecondInes := labelsOf(t, path, 1, "Ines")
+
+	a := test.NewApp()
+	defer a.Quit()
+	u := newUI(a)
+	decoded := make(chan error, 10)
+	u.decoded = func(_ int64, err error) { decoded <- err }
+	u.win.Resize(fyne.NewSize(1000, 700))
+	if err := u.openProject(path); err != nil {
+		t.Fatal(err)
+	}
+	defer u.closeProject()
+	waitDecoded(t, decoded)
+
+	if n := u.list.Length(); n != 3 {
+		t.Errorf("image list has %d rows, want 3", n)
+	}
+	if !strings.Contains(u.win.Title(), demoProjectName) {
+		t.Errorf("title %q does not name the project", u.win.Title())
+	}
+	if u.who.Selected != "Ines" {
+		t.Errorf("labels shown by default: %q, want the first annotator", u.who.Selected)
+	}
+	if got := len(u.view.Overlays()); got != wantFirst || got == 0 {
+		t.Errorf("first image shows %d boxes, want Ines's %d", got, wantFirst)
+	}
+	if !strings.Contains(u.summary.Text, "3 images") {
+		t.Errorf("summary %q", u.summary.Text)
+	}
+
+	// Next image from the keyboard, then everyone's labels.
+	u.win.Canvas().OnTypedKey()(&fyne.KeyEvent{Name: fyne.KeyPageDown})
+	waitDecoded(t, decoded)
+	if u.selected != 1 {
+		t.Fatalf("Page Down selected image %d, want 1", u.selected)
+	}
+	if got := len(u.view.Overlays()); got != wantSecondInes {
+		t.Errorf("second image shows %d boxes, want %d", got, wantSecondInes)
+	}
+	u.who.SetSelected(everyone)
+	if got := len(u.view.Overlays()); got != wantAll {
+		t.Errorf("everyone's labels: %d boxes, want %d", got, wantAll)
+	}
+	if ov := u.view.Overlays(); len(ov) > 0 && !strings.Contains(ov[0].Caption, " · ") {
+		t.Errorf("caption %q should name the annotator when everyone is shown", ov[0].Caption)
+	}
+	if !strings.Contains(u.status.Text, "640×480") {
+		t.Errorf("status line %q", u.status.Text)
+	}
+}
+
+func TestWindowReportsUnreadableImage(t *testing.T) {
+	path := smallDemo(t)
+	s, _ := store.Open(path)
+	ims, _ := s.Images(context.Background())
+	s.RelinkImage(context.Background(), ims[0].ID, "images/gone.jpg")
+	s.Close()
+
+	a := test.NewApp()
+	defer a.Quit()
+	u := newUI(a)
+	decoded := make(chan error, 10)
+	u.decoded = func(_ int64, err error) { decoded <- err }
+	if err := u.openProject(path); err != nil {
+		t.Fatal(err)
+	}
+	defer u.closeProject()
+	select {
+	case err := <-decoded:
+		if err == nil {
+			t.Fatal("a missing file decoded")
+		}
+	case <-time.After(10 * time.Second):
+		t.Fatal("no decode result")
+	}
+	if msg := u.view.Message(); !strings.Contains(msg, "Cannot show this image") {
+		t.Errorf("view message %q", msg)
+	}
+}
+
+func TestWelcomeScreenWithoutProject(t *testing.T) {
+	a := test.NewApp()
+	defer a.Quit()
+	u := newUI(a)
+	u.win.Resize(fyne.NewSize(900, 600))
+	var buttons []string
+	var walk func(o fyne.CanvasObject)
+	walk = func(o fyne.CanvasObject) {
+		if c, ok := o.(*fyne.Container); ok {
+			for _, k := range c.Objects {
+				walk(k)
+			}
+		}
+		if b, ok := o.(*widget.Button); ok {
+			buttons = append(buttons, b.Text)
+		}
+	}
+	walk(u.body)
+	if strings.Join(buttons, ",") != "Open project…,New project…,Make demo project…" {
+		t.Errorf("welcome buttons: %v", buttons)
+	}
+}
