@@ -1,0 +1,41 @@
+#!/usr/bin/env bash
+# Smoke test of the real binary: make the demo project, open it in a window
+# under Xvfb, take a screenshot and check that the window really rendered
+# (many colours, not a blank or single-colour image).
+#   .ci/smoke.sh BINARY [SCREENSHOT.png]
+set -euo pipefail
+bin=$(realpath "$1")
+shot=${2:-build/smoke.png}
+mkdir -p "$(dirname "$shot")"
+shot=$(realpath "$shot")
+work=$(mktemp -d)
+trap 'rm -rf "$work"' EXIT
+
+"$bin" demo "$work/demo" --no-open --images 4 >/dev/null 2>"$work/demo.log" || { cat "$work/demo.log"; exit 1; }
+
+cat >"$work/inside.sh" <<'INSIDE'
+set -u
+"$BIN" open "$PROJECT" >"$LOG" 2>&1 &
+pid=$!
+wid=$(timeout 60 xdotool search --sync --name 'Boxwright' | head -1)
+[ -n "$wid" ] || { echo "no window appeared"; kill $pid; exit 1; }
+ok=1
+for _ in $(seq 80); do  # wait until the image has been decoded and drawn
+  sleep 0.25
+  import -window "$wid" "$SHOT" 2>/dev/null || continue
+  [ "$(identify -format '%k' "$SHOT")" -gt 2000 ] && { ok=0; break; }
+done
+kill -TERM $pid; wait $pid  # let it close the project file cleanly
+exit $ok
+INSIDE
+status=0
+BIN=$bin PROJECT="$work/demo/harbour.boxw" SHOT=$shot LOG="$work/app.log" \
+  xvfb-run -a -s "-screen 0 1400x900x24" bash "$work/inside.sh" || status=$?
+if [ $status -ne 0 ]; then
+  echo "smoke: the window did not render the demo project"; cat "$work/app.log"; exit 1
+fi
+colours=$(identify -format '%wx%h, %k colours' "$shot")
+echo "smoke: window rendered ($colours) -> $shot"
+if grep -qi 'error' "$work/app.log"; then
+  echo "smoke: the program logged errors:"; cat "$work/app.log"; exit 1
+fi

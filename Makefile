@@ -1,0 +1,45 @@
+# Boxwright: `make run` builds and opens the demo project, `make test` runs
+# the whole test suite. Both install the Debian packages they need first.
+
+GO       ?= go
+BIN      := bin/boxwright
+DEMO_DIR ?= build/demo
+# Debian packages for cgo (SQLite, OpenGL/GLFW window) and for the window
+# smoke test under a virtual X server.
+BUILD_DEBS := gcc pkg-config libgl1-mesa-dev libx11-dev libxcursor-dev libxrandr-dev \
+              libxinerama-dev libxi-dev libxxf86vm-dev
+SMOKE_DEBS := xvfb xauth xdotool imagemagick
+
+export CGO_ENABLED := 1
+
+.PHONY: run test deps smoke-deps build vet unit smoke bench clean
+
+run: deps build
+	./$(BIN) demo $(DEMO_DIR)
+
+test: deps smoke-deps vet unit smoke
+
+build:
+	$(GO) build -o $(BIN) ./app
+
+vet:
+	@test -z "$$(gofmt -l $$(git ls-files '*.go' 2>/dev/null || find . -name '*.go'))" || { echo "gofmt would change:"; gofmt -l .; exit 1; }
+	$(GO) vet ./...
+
+unit:
+	$(GO) test ./...
+
+smoke: build
+	.ci/smoke.sh $(BIN)
+
+bench:
+	$(GO) test -run '^$$' -bench . -benchtime 5x ./store/... ./assets/...
+
+deps:
+	@.ci/debs.sh $(BUILD_DEBS)
+
+smoke-deps:
+	@.ci/debs.sh $(SMOKE_DEBS)
+
+clean:
+	rm -rf bin build
