@@ -7,6 +7,7 @@ import (
 	"io"
 	"os"
 	"path/filepath"
+	"slices"
 	"strings"
 
 	"fyne.io/fyne/v2"
@@ -252,7 +253,7 @@ func (u *ui) reload() error {
 		opts = append(opts, a.Name)
 	}
 	u.who.SetOptions(opts)
-	if u.who.Selected == "" || !contains(opts, u.who.Selected) {
+	if u.who.Selected == "" || !slices.Contains(opts, u.who.Selected) {
 		// One annotator at a time by default: several people's boxes on
 		// the same objects hide each other.
 		if len(as) > 0 {
@@ -333,15 +334,6 @@ func (u *ui) showImage(i int) {
 
 // everyone is the choice that shows all annotators' labels at once.
 const everyone = "everyone"
-
-func contains(xs []string, x string) bool {
-	for _, v := range xs {
-		if v == x {
-			return true
-		}
-	}
-	return false
-}
 
 // showLabels draws the selected image's labels of the chosen annotator
 // and updates the status line.

@@ -3,6 +3,7 @@ package project
 import (
 	"fmt"
 	"image/color"
+	"slices"
 	"strings"
 	"time"
 )
@@ -41,14 +42,7 @@ const (
 var ImageStatuses = []ImageStatus{StatusNew, StatusStarted, StatusDone, StatusReviewed, StatusSkipped}
 
 // Valid reports whether s is one of the known statuses.
-func (s ImageStatus) Valid() bool {
-	for _, k := range ImageStatuses {
-		if s == k {
-			return true
-		}
-	}
-	return false
-}
+func (s ImageStatus) Valid() bool { return slices.Contains(ImageStatuses, s) }
 
 // Image is one picture of the project. Width and Height are those of the
 // image as displayed, after its EXIF orientation is applied.
@@ -121,14 +115,7 @@ const (
 var SuggestionStates = []SuggestionState{SuggestionPending, SuggestionAccepted, SuggestionRejected, SuggestionCorrected}
 
 // Valid reports whether s is one of the known states.
-func (s SuggestionState) Valid() bool {
-	for _, k := range SuggestionStates {
-		if s == k {
-			return true
-		}
-	}
-	return false
-}
+func (s SuggestionState) Valid() bool { return slices.Contains(SuggestionStates, s) }
 
 // Suggestion is a box proposed by a model or matcher, waiting for, or
 // having had, a person's decision.
