@@ -5,19 +5,19 @@ GO       ?= go
 BIN      := bin/boxwright
 DEMO_DIR ?= build/demo
 # Debian packages for cgo (SQLite, OpenGL/GLFW window) and for the window
-# smoke test under a virtual X server.
+# smoke test under a virtual X server; shapely is the reference for the IoU check.
 BUILD_DEBS := gcc pkg-config libgl1-mesa-dev libx11-dev libxcursor-dev libxrandr-dev \
               libxinerama-dev libxi-dev libxxf86vm-dev
-SMOKE_DEBS := xvfb xauth xdotool imagemagick
+TEST_DEBS := xvfb xauth xdotool imagemagick python3-shapely
 
 export CGO_ENABLED := 1
 
-.PHONY: run test deps smoke-deps build vet unit smoke bench clean
+.PHONY: run test deps test-deps build vet unit smoke bench clean
 
 run: deps build
 	./$(BIN) demo $(DEMO_DIR)
 
-test: deps smoke-deps vet unit smoke
+test: deps test-deps vet unit smoke
 
 build:
 	$(GO) build -o $(BIN) ./app
@@ -38,8 +38,8 @@ bench:
 deps:
 	@.ci/debs.sh $(BUILD_DEBS)
 
-smoke-deps:
-	@.ci/debs.sh $(SMOKE_DEBS)
+test-deps:
+	@.ci/debs.sh $(TEST_DEBS)
 
 clean:
 	rm -rf bin build
