@@ -2,9 +2,11 @@ package main
 
 import (
 	"context"
+	"errors"
 	"fmt"
 	"image"
 	"io"
+	"io/fs"
 	"os"
 	"path/filepath"
 	"slices"
@@ -320,7 +322,12 @@ func (u *ui) showImage(i int) {
 				return // the user moved on
 			}
 			if err != nil {
-				u.view.SetMessage(fmt.Sprintf("Cannot show this image: %v", err))
+				u.status.SetText(fmt.Sprintf("%s — %d×%d px, %s", im.Path, im.Width, im.Height, im.Status))
+				if errors.Is(err, fs.ErrNotExist) {
+					u.view.SetMessage(fmt.Sprintf("Cannot show this image: %s is missing. Project ▸ Find moved images… looks for it.", filepath.Base(im.Path)))
+				} else {
+					u.view.SetMessage(fmt.Sprintf("Cannot show this image: %v", err))
+				}
 			} else {
 				u.view.SetImage(shown, im.Width, im.Height)
 				u.showLabels()
