@@ -160,3 +160,24 @@ func TestDemoCommandWritesProject(t *testing.T) {
 		t.Errorf("second demo: %d %q", code, errs)
 	}
 }
+
+func TestRelinkCommandFindsMovedImages(t *testing.T) {
+	dir := t.TempDir()
+	mustCLI(t, "demo", dir, "--no-open", "--images", "2")
+	p := filepath.Join(dir, demoProjectName)
+	moved := filepath.Join(t.TempDir(), "elsewhere")
+	if err := os.Rename(filepath.Join(dir, "images"), moved); err != nil {
+		t.Fatal(err)
+	}
+	if !strings.Contains(mustCLI(t, "info", p), "missing files: 2") {
+		t.Errorf("info does not report the missing files")
+	}
+	var rep struct {
+		Relinked     int `json:"relinked"`
+		StillMissing int `json:"still_missing"`
+	}
+	json.Unmarshal([]byte(mustCLI(t, "relink", p, moved, "--json")), &rep)
+	if rep.Relinked != 2 || rep.StillMissing != 0 {
+		t.Errorf("relink %+v", rep)
+	}
+}
