@@ -1,0 +1,326 @@
+package formats
+
+// Centre-normalised text layout: one .txt per image, one line per box,
+//
+//	class_index cx cy w h [score]
+//
+// with the centre and size relative to the image width and height (0..1),
+// plus a class-names file whose line n (from 0) names class index n. See
+// centreToBox for the convention.
+
+import (
+	"bufio"
+	"bytes"
+	"errors"
+	"fmt"
+	"io"
+	"math"
+	"strconv"
+	"strings"
+
+	"boxwright/project"
+)
+
+// centreTolerance is how far outside 0..1 a normalised value may lie and
+// still be accepted, for the rounding of other tools' output. Such values
+// are kept as written; clipping is the importer's business.
+const centreTolerance = 1e-6
+
+// centreToBox converts a centre-normalised box on an image of width W and
+// height H pixels to a continuous box:
+//
+//	X0 = (cx-w/2)*W, Y0 = (cy-h/2)*H, X1 = (cx+w/2)*W, Y1 = (cy+h/2)*H
+//
+// For example, on a 640×480 image the line "0 0.5 0.5 0.25 0.5" is
+// X0 = (0.5-0.125)*640 = 240, Y0 = (0.5-0.25)*480 = 120,
+// X1 = (0.5+0.125)*640 = 400, Y1 = (0.5+0.25)*480 = 360: Box{240,120,400,360}.
+func centreToBox(cx, cy, w, h float64, width, height int) project.Box {
+	W, H := float64(width), float64(height)
+	return project.Box{X0: (cx - w/2) * W, Y0: (cy - h/2) * H, X1: (cx + w/2) * W, Y1: (cy + h/2) * H}
+}
+
+// boxToCentre is the inverse of centreToBox:
+//
+//	cx = (X0+X1)/2/W, cy = (Y0+Y1)/2/H, w = (X1-X0)/W, h = (Y1-Y0)/H
+//
+// so Box{240,120,400,360} on a 640×480 image is cx = 640/2/640 = 0.5,
+// cy = 480/2/480 = 0.5, w = 160/640 = 0.25, h = 240/480 = 0.5.
+func boxToCentre(b project.Box, width, height int) (cx, cy, w, h float64) {
+	W, H := float64(width), float64(height)
+	return (b.X0 + b.X1) / 2 / W, (b.Y0 + b.Y1) / 2 / H, (b.X1 - b.X0) / W, (b.Y1 - b.Y0) / H
+}
+
+// lineReader yields the lines of a text file without their line endings
+// (\n or \r\n), with their 1-based numbers. A UTF-8 byte-order mark at the
+// start of the file is dropped.
+type lineReader struct {
+	r    *bufio.Reader
+	line int
+	err  error
+}
+
+func newLineReader(r io.Reader) *lineReader {
+	return &lineReader{r: bufio.NewReaderSize(r, 64<<10)}
+}
+
+// next returns the next line; ok is false at the end of the input or on a
+// read error (see err).
+func (l *lineReader) next() (s string, ok bool) {
+	if l.err != nil {
+		return "", false
+	}
+	s, err := l.r.ReadString('\n')
+	if err != nil {
+		l.err = err
+		if s == "" {
+			return "", false
+		}
+	}
+	l.line++
+	if l.line == 1 {
+		s = strings.TrimPrefix(s, "\ufeff")
+	}
+	s = strings.TrimSuffix(s, "\n")
+	s = strings.TrimSuffix(s, "\r")
+	return s, true
+}
+
+// readErr returns a positioned error for a failed read, or nil at a clean
+// end of input.
+func (l *lineReader) readErr(file string) error {
+	if l.err == nil || l.err == io.EOF {
+		return nil
+	}
+	return &PositionError{File: file, Line: l.line + 1, Msg: "reading: " + l.err.Error()}
+}
+
+// ReadClassNames reads a class-names file: one name per line, the class
+// index being the line number counted from 0. Names are trimmed of spaces
+// and a trailing \r. A blank line is an error, since it would shift the
+// index of every later class, except blank lines at the end of the file.
+// A name that appears twice is an error. Errors are *PositionError values.
+func ReadClassNames(r io.Reader, file string) ([]string, error) {
+	lr := newLineReader(r)
+	classes := []string{}
+	seen := map[string]int{} // name → line
+	firstBlank := 0          // line of the first blank line not yet followed by a name
+	for {
+		s, ok := lr.next()
+		if !ok {
+			break
+		}
+		name := strings.TrimSpace(s)
+		if name == "" {
+			if firstBlank == 0 {
+				firstBlank = lr.line
+			}
+			continue
+		}
+		if firstBlank != 0 {
+			return nil, &PositionError{File: file, Line: firstBlank,
+				Msg: "blank line between class names; class indices count lines, so it would shift every later class (remove it)"}
+		}
+		if prev, dup := seen[name]; dup {
+			return nil, &PositionError{File: file, Line: lr.line,
+				Msg: fmt.Sprintf("class name %q appears twice (also on line %d)", name, prev)}
+		}
+		seen[name] = lr.line
+		classes = append(classes, name)
+	}
+	if err := lr.readErr(file); err != nil {
+		return nil, err
+	}
+	return classes, nil
+}
+
+// WriteClassNames writes one class name per line, in index order. A name
+// that is empty, has surrounding spaces, contains a line break or repeats
+// an earlier name is an error, since the file would not read back the same.
+func WriteClassNames(w io.Writer, classes []string) error {
+	var b bytes.Buffer
+	seen := make(map[string]int, len(classes))
+	for i, c := range classes {
+		switch {
+		case c == "":
+			return fmt.Errorf("writing class names: class %d has an empty name", i)
+		case strings.TrimSpace(c) != c:
+			return fmt.Errorf("writing class names: class %d name %q has leading or trailing space", i, c)
+		case strings.ContainsAny(c, "\r\n"):
+			return fmt.Errorf("writing class names: class %d name %q contains a line break", i, c)
+		}
+		if j, dup := seen[c]; dup {
+			return fmt.Errorf("writing class names: class %d name %q repeats class %d", i, c, j)
+		}
+		seen[c] = i
+		b.WriteString(c)
+		b.WriteByte('\n')
+	}
+	if _, err := w.Write(b.Bytes()); err != nil {
+		return fmt.Errorf("writing class names: %w", err)
+	}
+	return nil
+}
+
+// centreFields names the columns of a centre-normalised text line.
+var centreFields = [6]string{"class_index", "cx", "cy", "w", "h", "score"}
+
+// ReadCentreText reads one centre-normalised text file for an image of the
+// given size in pixels. Empty lines and lines starting with # are skipped.
+// A line has five columns (class_index cx cy w h) or six, the sixth a score
+// in 0..1 (HasScore). classes are the class names by index, as read by
+// ReadClassNames. Values may lie up to 1e-6 outside 0..1; they are kept as
+// written and boxes are not clipped. Errors are *PositionError values.
+func ReadCentreText(r io.Reader, file string, width, height int, classes []string) ([]BoxRecord, error) {
+	if width <= 0 || height <= 0 {
+		return nil, &PositionError{File: file, Msg: fmt.Sprintf("image size %dx%d is not positive, so normalised coordinates cannot be converted", width, height)}
+	}
+	lr := newLineReader(r)
+	var out []BoxRecord
+	for {
+		s, ok := lr.next()
+		if !ok {
+			break
+		}
+		s = strings.TrimSpace(s)
+		if s == "" || s[0] == '#' {
+			continue
+		}
+		br, err := parseCentreLine(s, file, lr.line, width, height, classes)
+		if err != nil {
+			return nil, err
+		}
+		out = append(out, br)
+	}
+	if err := lr.readErr(file); err != nil {
+		return nil, err
+	}
+	return out, nil
+}
+
+// parseCentreLine parses one non-blank, non-comment line.
+func parseCentreLine(s, file string, line, width, height int, classes []string) (BoxRecord, error) {
+	fail := func(field, format string, args ...any) (BoxRecord, error) {
+		return BoxRecord{}, &PositionError{File: file, Line: line, Field: field, Msg: fmt.Sprintf(format, args...)}
+	}
+	cols := strings.Fields(s)
+	if len(cols) != 5 && len(cols) != 6 {
+		return fail("", "found %d columns, expected 5 (class_index cx cy w h) or 6 (with a score)", len(cols))
+	}
+	var v [6]float64
+	for i, c := range cols {
+		f, err := strconv.ParseFloat(c, 64)
+		if err != nil && !errors.Is(err, strconv.ErrRange) {
+			return fail(centreFields[i], "%q is not a number", c)
+		}
+		if err != nil || math.IsNaN(f) || math.IsInf(f, 0) {
+			return fail(centreFields[i], "%q is not a finite number", c)
+		}
+		v[i] = f
+	}
+
+	idx := v[0]
+	switch {
+	case idx != math.Trunc(idx):
+		return fail("class_index", "class index %s is not an integer", cols[0])
+	case idx < 0:
+		return fail("class_index", "class index %s is negative", cols[0])
+	case idx >= float64(len(classes)):
+		return fail("class_index", "class index %s is beyond the class-names file, which has %s", cols[0], centreClassCount(len(classes)))
+	}
+
+	for i := 1; i <= 4; i++ {
+		f := v[i]
+		if f < -centreTolerance || f > 1+centreTolerance {
+			return fail(centreFields[i], "%s %s is outside 0..1 (values are relative to the image size)", centreFields[i], cols[i])
+		}
+		if i >= 3 && f <= 0 {
+			return fail(centreFields[i], "%s %s is not greater than 0", centreFields[i], cols[i])
+		}
+	}
+	br := BoxRecord{
+		Class: classes[int(idx)],
+		Box:   centreToBox(v[1], v[2], v[3], v[4], width, height),
+		Where: fmt.Sprintf("%s:%d", file, line),
+	}
+	if !br.Box.Valid() {
+		return fail("w", "box of size %s x %s is too small to hold on a %dx%d image", cols[3], cols[4], width, height)
+	}
+	if len(cols) == 6 {
+		if v[5] < -centreTolerance || v[5] > 1+centreTolerance {
+			return fail("score", "score %s is outside 0..1", cols[5])
+		}
+		br.Score, br.HasScore = v[5], true
+	}
+	return br, nil
+}
+
+func centreClassCount(n int) string {
+	switch n {
+	case 0:
+		return "no classes"
+	case 1:
+		return "1 class (index 0)"
+	}
+	return fmt.Sprintf("%d classes (indices 0..%d)", n, n-1)
+}
+
+// WriteCentreText writes the boxes of rec as one centre-normalised text
+// file, one line per box, with numbers in the shortest form that reads back
+// to the same float64. The class index is the position of the box's class
+// in classes; a class not in classes is an error. The score column is
+// written for boxes with HasScore. The layout holds no XML flags, poses or
+// crowd marks. A box whose centre lies outside the image or that is wider
+// or higher than the image is an error, since it would not read back.
+func WriteCentreText(w io.Writer, rec ImageRecord, classes []string) error {
+	if rec.Width <= 0 || rec.Height <= 0 {
+		return fmt.Errorf("writing centre-normalised text for %s: image size %dx%d is not positive", rec.Name, rec.Width, rec.Height)
+	}
+	index := make(map[string]int, len(classes))
+	for i, c := range classes {
+		if _, dup := index[c]; dup {
+			return fmt.Errorf("writing centre-normalised text for %s: class %q appears twice in the class list", rec.Name, c)
+		}
+		index[c] = i
+	}
+	var b bytes.Buffer
+	for i, br := range rec.Boxes {
+		k, ok := index[br.Class]
+		if !ok {
+			return fmt.Errorf("writing centre-normalised text for %s: box %d has class %q, which is not in the class list", rec.Name, i, br.Class)
+		}
+		if !br.Box.Valid() {
+			return fmt.Errorf("writing centre-normalised text for %s: box %d %v is not a valid box", rec.Name, i, br.Box)
+		}
+		cx, cy, bw, bh := boxToCentre(br.Box, rec.Width, rec.Height)
+		for _, f := range [4]float64{cx, cy, bw, bh} {
+			if f < -centreTolerance || f > 1+centreTolerance {
+				return fmt.Errorf("writing centre-normalised text for %s: box %d %v has its centre outside the %dx%d image or is larger than it; clip it first", rec.Name, i, br.Box, rec.Width, rec.Height)
+			}
+		}
+		if br.HasScore && !(br.Score >= -centreTolerance && br.Score <= 1+centreTolerance) {
+			return fmt.Errorf("writing centre-normalised text for %s: box %d score %v is outside 0..1", rec.Name, i, br.Score)
+		}
+		b.WriteString(strconv.Itoa(k))
+		for _, f := range [4]float64{cx, cy, bw, bh} {
+			b.WriteByte(' ')
+			b.WriteString(centreNumber(f))
+		}
+		if br.HasScore {
+			b.WriteByte(' ')
+			b.WriteString(centreNumber(br.Score))
+		}
+		b.WriteByte('\n')
+	}
+	if _, err := w.Write(b.Bytes()); err != nil {
+		return fmt.Errorf("writing centre-normalised text for %s: %w", rec.Name, err)
+	}
+	return nil
+}
+
+// centreNumber formats v in the shortest form that parses back to v.
+func centreNumber(v float64) string {
+	if v == 0 {
+		v = 0 // no "-0"
+	}
+	return strconv.FormatFloat(v, 'g', -1, 64)
+}

@@ -1,0 +1,469 @@
+package formats
+
+// Per-image XML layout: one file per image,
+//
+//	<annotation>
+//	  <filename>a.jpg</filename>
+//	  <path>optional/dir/a.jpg</path>
+//	  <size><width>640</width><height>480</height><depth>3</depth></size>
+//	  <object>
+//	    <name>cat</name>
+//	    <pose>optional</pose>
+//	    <truncated>0</truncated>
+//	    <difficult>0</difficult>
+//	    <bndbox><xmin>1</xmin><ymin>1</ymin><xmax>10</xmax><ymax>10</ymax></bndbox>
+//	  </object>
+//	</annotation>
+//
+// with box corners as 1-based inclusive pixel indices; see xmlIndicesToBox.
+
+import (
+	"bytes"
+	"encoding/xml"
+	"errors"
+	"fmt"
+	"io"
+	"math"
+	"path"
+	"strconv"
+	"strings"
+
+	"boxwright/project"
+)
+
+// xmlIndicesToBox converts the per-image XML corners, 1-based inclusive
+// pixel indices, to a continuous box. The first pixel column is index 1 and
+// covers [0,1), so xmin=1, xmax=10 covers pixels 1..10, which is [0,10):
+//
+//	xmin=1, ymin=1, xmax=10, ymax=10  →  Box{X0: 0, Y0: 0, X1: 10, Y1: 10}
+//
+// A box with xmax == xmin is one pixel wide. Decimal indices convert the
+// same way (xmin=1.5 → X0=0.5).
+func xmlIndicesToBox(xmin, ymin, xmax, ymax float64) project.Box {
+	return project.Box{X0: xmin - 1, Y0: ymin - 1, X1: xmax, Y1: ymax}
+}
+
+// boxToXMLIndices is the inverse of xmlIndicesToBox:
+//
+//	Box{X0: 0, Y0: 0, X1: 10, Y1: 10}  →  xmin=1, ymin=1, xmax=10, ymax=10
+func boxToXMLIndices(b project.Box) (xmin, ymin, xmax, ymax float64) {
+	return b.X0 + 1, b.Y0 + 1, b.X1, b.Y1
+}
+
+// xmlNode is one element of a parsed per-image XML file, with the line its
+// start tag ends on.
+type xmlNode struct {
+	name     string
+	line     int
+	text     strings.Builder
+	children []*xmlNode
+}
+
+// child returns the only child element with the given name, or nil when
+// there is none. Two such children are an error.
+func (n *xmlNode) child(name string) (*xmlNode, error) {
+	var found *xmlNode
+	for _, c := range n.children {
+		if c.name != name {
+			continue
+		}
+		if found != nil {
+			return nil, fmt.Errorf("<%s> appears more than once (lines %d and %d)", name, found.line, c.line)
+		}
+		found = c
+	}
+	return found, nil
+}
+
+// value returns the trimmed text of the element.
+func (n *xmlNode) value() string { return strings.TrimSpace(n.text.String()) }
+
+// xmlReader turns a parsed tree into an ImageRecord, remembering the file
+// for error messages.
+type xmlReader struct {
+	file string
+}
+
+func (x *xmlReader) errf(line int, p, field, format string, args ...any) *PositionError {
+	return &PositionError{File: x.file, Line: line, Path: p, Field: field, Msg: fmt.Sprintf(format, args...)}
+}
+
+// field finds the single child element named field of parent. When it is
+// absent and required, it reports "missing" at the parent's line.
+func (x *xmlReader) field(parent *xmlNode, p, field string, required bool) (*xmlNode, error) {
+	c, err := parent.child(field)
+	if err != nil {
+		return nil, x.errf(parent.line, p, field, "%s", err.Error())
+	}
+	if c == nil && required {
+		return nil, x.errf(parent.line, p, field, "missing")
+	}
+	return c, nil
+}
+
+// number parses a required finite decimal number from the element field of
+// parent.
+func (x *xmlReader) number(parent *xmlNode, p, field string) (float64, error) {
+	c, err := x.field(parent, p, field, true)
+	if err != nil {
+		return 0, err
+	}
+	s := c.value()
+	if s == "" {
+		return 0, x.errf(c.line, p, field, "missing (the element is empty)")
+	}
+	v, err := strconv.ParseFloat(s, 64)
+	if err != nil && !errors.Is(err, strconv.ErrRange) {
+		return 0, x.errf(c.line, p, field, "%q is not a number", s)
+	}
+	if err != nil || math.IsNaN(v) || math.IsInf(v, 0) {
+		return 0, x.errf(c.line, p, field, "%q is not a finite number", s)
+	}
+	return v, nil
+}
+
+// size parses width or height (positive) or depth (non-negative) as a
+// whole number.
+func (x *xmlReader) size(parent *xmlNode, field string, positive bool) (int, error) {
+	v, err := x.number(parent, "size", field)
+	if err != nil {
+		return 0, err
+	}
+	line := parent.line
+	if c, _ := parent.child(field); c != nil {
+		line = c.line
+	}
+	const limit = 1 << 31
+	switch {
+	case v != math.Trunc(v):
+		return 0, x.errf(line, "size", field, "%s %v is not a whole number", field, v)
+	case positive && v <= 0:
+		return 0, x.errf(line, "size", field, "%s %v is not positive", field, v)
+	case v < 0:
+		return 0, x.errf(line, "size", field, "%s %v is negative", field, v)
+	case v >= limit:
+		return 0, x.errf(line, "size", field, "%s %v is larger than %d", field, v, limit-1)
+	}
+	return int(v), nil
+}
+
+// flag parses an optional 0/1 element; absent means false.
+func (x *xmlReader) flag(parent *xmlNode, p, field string) (bool, error) {
+	c, err := x.field(parent, p, field, false)
+	if err != nil || c == nil {
+		return false, err
+	}
+	switch s := c.value(); s {
+	case "0":
+		return false, nil
+	case "1":
+		return true, nil
+	default:
+		return false, x.errf(c.line, p, field, "%q is not 0 or 1", s)
+	}
+}
+
+// text returns the trimmed text of an optional element, "" when absent.
+func (x *xmlReader) text(parent *xmlNode, p, field string) (string, error) {
+	c, err := x.field(parent, p, field, false)
+	if err != nil || c == nil {
+		return "", err
+	}
+	return c.value(), nil
+}
+
+// parseXMLTree reads the whole document into a tree of elements.
+func (x *xmlReader) parseXMLTree(r io.Reader) (*xmlNode, error) {
+	d := xml.NewDecoder(r)
+	d.CharsetReader = xmlCharsetReader
+	var root *xmlNode
+	var stack []*xmlNode
+	for {
+		tok, err := d.Token()
+		if err == io.EOF {
+			break
+		}
+		if err != nil {
+			line, _ := d.InputPos()
+			var se *xml.SyntaxError
+			msg := err.Error()
+			if errors.As(err, &se) {
+				line, msg = se.Line, se.Msg
+			}
+			return nil, x.errf(line, "", "", "malformed XML: %s", msg)
+		}
+		line, _ := d.InputPos()
+		switch t := tok.(type) {
+		case xml.StartElement:
+			n := &xmlNode{name: t.Name.Local, line: line}
+			if len(stack) == 0 {
+				if root != nil {
+					return nil, x.errf(line, "", "", "malformed XML: a second root element <%s> after </%s>", n.name, root.name)
+				}
+				root = n
+			} else {
+				p := stack[len(stack)-1]
+				p.children = append(p.children, n)
+			}
+			stack = append(stack, n)
+		case xml.EndElement:
+			// The decoder checks that tags match.
+			stack = stack[:len(stack)-1]
+		case xml.CharData:
+			if len(stack) == 0 {
+				if len(bytes.TrimSpace(t)) != 0 {
+					return nil, x.errf(line, "", "", "malformed XML: text outside the root element")
+				}
+				continue
+			}
+			stack[len(stack)-1].text.Write(t)
+		}
+	}
+	if root == nil {
+		return nil, x.errf(0, "", "", "malformed XML: no root element (is the file empty?)")
+	}
+	return root, nil
+}
+
+// ReadImageXML reads one per-image XML file. file names the file in error
+// messages. The record's Name is <filename>, or the last element of <path>
+// when <filename> is empty. Boxes are not clipped to the image. Errors are
+// *PositionError values giving the line and element path (object indices
+// count from 0, like the JSON paths).
+func ReadImageXML(r io.Reader, file string) (ImageRecord, error) {
+	x := &xmlReader{file: file}
+	root, err := x.parseXMLTree(r)
+	if err != nil {
+		return ImageRecord{}, err
+	}
+	if root.name != "annotation" {
+		return ImageRecord{}, x.errf(root.line, "", "", "root element is <%s>, expected <annotation>", root.name)
+	}
+	rec := ImageRecord{Where: file}
+	if rec.Name, err = x.text(root, "", "filename"); err != nil {
+		return ImageRecord{}, err
+	}
+	if rec.Name == "" {
+		p, err := x.text(root, "", "path")
+		if err != nil {
+			return ImageRecord{}, err
+		}
+		if p = strings.ReplaceAll(p, `\`, "/"); strings.Trim(p, "/") != "" {
+			rec.Name = path.Base(p)
+		}
+	}
+	if rec.Name == "" {
+		return ImageRecord{}, x.errf(root.line, "", "filename", "missing, and there is no <path> to take the name from")
+	}
+
+	size, err := x.field(root, "", "size", true)
+	if err != nil {
+		return ImageRecord{}, err
+	}
+	if rec.Width, err = x.size(size, "width", true); err != nil {
+		return ImageRecord{}, err
+	}
+	if rec.Height, err = x.size(size, "height", true); err != nil {
+		return ImageRecord{}, err
+	}
+	depth, err := x.field(size, "size", "depth", false)
+	if err != nil {
+		return ImageRecord{}, err
+	}
+	if depth != nil && depth.value() != "" {
+		if rec.Depth, err = x.size(size, "depth", false); err != nil {
+			return ImageRecord{}, err
+		}
+	}
+
+	i := 0
+	for _, obj := range root.children {
+		if obj.name != "object" {
+			continue
+		}
+		b, err := x.object(obj, fmt.Sprintf("object[%d]", i))
+		if err != nil {
+			return ImageRecord{}, err
+		}
+		rec.Boxes = append(rec.Boxes, b)
+		i++
+	}
+	return rec, nil
+}
+
+// object reads one <object> element; p is its path such as "object[2]".
+func (x *xmlReader) object(obj *xmlNode, p string) (BoxRecord, error) {
+	br := BoxRecord{Where: x.file + ": " + p}
+	var err error
+	if br.Class, err = x.text(obj, p, "name"); err != nil {
+		return BoxRecord{}, err
+	}
+	if br.Class == "" {
+		line := obj.line
+		if c, _ := obj.child("name"); c != nil {
+			line = c.line
+		}
+		return BoxRecord{}, x.errf(line, p, "name", "missing")
+	}
+	if br.Pose, err = x.text(obj, p, "pose"); err != nil {
+		return BoxRecord{}, err
+	}
+	if br.Truncated, err = x.flag(obj, p, "truncated"); err != nil {
+		return BoxRecord{}, err
+	}
+	if br.Difficult, err = x.flag(obj, p, "difficult"); err != nil {
+		return BoxRecord{}, err
+	}
+	bb, err := x.field(obj, p, "bndbox", true)
+	if err != nil {
+		return BoxRecord{}, err
+	}
+	bp := p + ".bndbox"
+	var v [4]float64
+	for k, f := range [4]string{"xmin", "ymin", "xmax", "ymax"} {
+		if v[k], err = x.number(bb, bp, f); err != nil {
+			return BoxRecord{}, err
+		}
+	}
+	lineOf := func(f string) int {
+		if c, _ := bb.child(f); c != nil {
+			return c.line
+		}
+		return bb.line
+	}
+	if v[2] < v[0] {
+		return BoxRecord{}, x.errf(lineOf("xmax"), bp, "xmax", "xmax %v is less than xmin %v", v[2], v[0])
+	}
+	if v[3] < v[1] {
+		return BoxRecord{}, x.errf(lineOf("ymax"), bp, "ymax", "ymax %v is less than ymin %v", v[3], v[1])
+	}
+	br.Box = xmlIndicesToBox(v[0], v[1], v[2], v[3])
+	if !br.Box.Valid() {
+		// Only for magnitudes so large that adding 1 changes nothing.
+		return BoxRecord{}, x.errf(bb.line, bp, "", "coordinates %v are too large to hold a box of positive size", v)
+	}
+	return br, nil
+}
+
+// xmlCharsetReader lets the decoder read files that declare ASCII or
+// Latin-1 encodings, both common in older exports.
+func xmlCharsetReader(charset string, input io.Reader) (io.Reader, error) {
+	switch strings.ToLower(charset) {
+	case "us-ascii", "ascii", "utf8":
+		return input, nil
+	case "iso-8859-1", "iso8859-1", "latin1", "latin-1", "l1":
+		return &latin1Reader{r: input}, nil
+	}
+	return nil, fmt.Errorf("unsupported encoding %q (use UTF-8)", charset)
+}
+
+// latin1Reader converts ISO 8859-1 bytes to UTF-8.
+type latin1Reader struct {
+	r   io.Reader
+	out []byte // converted bytes; out[pos:] not yet returned
+	pos int
+	in  [512]byte
+}
+
+func (l *latin1Reader) Read(p []byte) (int, error) {
+	for l.pos == len(l.out) {
+		n, err := l.r.Read(l.in[:])
+		l.out, l.pos = l.out[:0], 0
+		for _, c := range l.in[:n] {
+			if c < 0x80 {
+				l.out = append(l.out, c)
+			} else {
+				l.out = append(l.out, 0xC0|c>>6, 0x80|c&0x3F)
+			}
+		}
+		if n == 0 && err != nil {
+			return 0, err
+		}
+	}
+	n := copy(p, l.out[l.pos:])
+	l.pos += n
+	return n, nil
+}
+
+// WriteImageXML writes rec as one per-image XML file: an XML header, then
+// the <annotation> element indented with two spaces. The output depends
+// only on rec. Depth 0 is written as 3. Coordinates are written as integers
+// when integral and as shortest decimals otherwise, so reading the file
+// back gives the same boxes. Class names, the file name and poses are read
+// back trimmed of surrounding space. Boxes less than one pixel wide or high
+// cannot be held by 1-based inclusive indices and are an error.
+func WriteImageXML(w io.Writer, rec ImageRecord) error {
+	if rec.Name == "" {
+		return errors.New("writing per-image XML: the image has no file name")
+	}
+	if rec.Width <= 0 || rec.Height <= 0 {
+		return fmt.Errorf("writing per-image XML for %s: image size %dx%d is not positive", rec.Name, rec.Width, rec.Height)
+	}
+	depth := rec.Depth
+	if depth == 0 {
+		depth = 3
+	}
+	var b bytes.Buffer
+	b.WriteString(xml.Header)
+	b.WriteString("<annotation>\n")
+	writeXMLText(&b, "  ", "filename", rec.Name)
+	b.WriteString("  <size>\n")
+	writeXMLText(&b, "    ", "width", strconv.Itoa(rec.Width))
+	writeXMLText(&b, "    ", "height", strconv.Itoa(rec.Height))
+	writeXMLText(&b, "    ", "depth", strconv.Itoa(depth))
+	b.WriteString("  </size>\n")
+	for i, br := range rec.Boxes {
+		if strings.TrimSpace(br.Class) == "" {
+			return fmt.Errorf("writing per-image XML for %s: object[%d] has no class name", rec.Name, i)
+		}
+		if !br.Box.Valid() {
+			return fmt.Errorf("writing per-image XML for %s: object[%d] box %v is not a valid box", rec.Name, i, br.Box)
+		}
+		xmin, ymin, xmax, ymax := boxToXMLIndices(br.Box)
+		if xmax < xmin || ymax < ymin {
+			return fmt.Errorf("writing per-image XML for %s: object[%d] box %v is less than one pixel wide or high, which 1-based inclusive pixel indices cannot hold", rec.Name, i, br.Box)
+		}
+		b.WriteString("  <object>\n")
+		writeXMLText(&b, "    ", "name", br.Class)
+		if br.Pose != "" {
+			writeXMLText(&b, "    ", "pose", br.Pose)
+		}
+		writeXMLText(&b, "    ", "truncated", xmlFlag(br.Truncated))
+		writeXMLText(&b, "    ", "difficult", xmlFlag(br.Difficult))
+		b.WriteString("    <bndbox>\n")
+		writeXMLText(&b, "      ", "xmin", xmlNumber(xmin))
+		writeXMLText(&b, "      ", "ymin", xmlNumber(ymin))
+		writeXMLText(&b, "      ", "xmax", xmlNumber(xmax))
+		writeXMLText(&b, "      ", "ymax", xmlNumber(ymax))
+		b.WriteString("    </bndbox>\n")
+		b.WriteString("  </object>\n")
+	}
+	b.WriteString("</annotation>\n")
+	if _, err := w.Write(b.Bytes()); err != nil {
+		return fmt.Errorf("writing per-image XML for %s: %w", rec.Name, err)
+	}
+	return nil
+}
+
+func writeXMLText(b *bytes.Buffer, indent, tag, text string) {
+	b.WriteString(indent)
+	b.WriteString("<" + tag + ">")
+	_ = xml.EscapeText(b, []byte(text)) // a bytes.Buffer does not fail
+	b.WriteString("</" + tag + ">\n")
+}
+
+func xmlFlag(v bool) string {
+	if v {
+		return "1"
+	}
+	return "0"
+}
+
+// xmlNumber writes integral values without a decimal point and others as
+// the shortest decimal that reads back to the same float64.
+func xmlNumber(v float64) string {
+	if v == 0 {
+		v = 0 // no "-0"
+	}
+	return strconv.FormatFloat(v, 'f', -1, 64)
+}
