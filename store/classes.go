@@ -93,28 +93,36 @@ func (s *Store) AddClass(ctx context.Context, c project.Class) (project.Class, e
 		return c, fmt.Errorf("add class %q: %w", c.Name, err)
 	}
 	err := s.tx(ctx, func(tx *sql.Tx) error {
-		var n, pos int
-		if err := tx.QueryRowContext(ctx, "SELECT count(*), coalesce(max(position), -1) + 1 FROM classes").Scan(&n, &pos); err != nil {
-			return err
-		}
-		if c.Color == (color.NRGBA{}) {
-			c.Color = project.PaletteColor(n)
-		}
-		if c.HotKey == "" {
-			c.HotKey = freeDigit(ctx, tx)
-		}
-		res, err := tx.ExecContext(ctx, "INSERT INTO classes(name, color, hot_key, position) VALUES (?, ?, ?, ?)",
-			c.Name, FormatColor(c.Color), c.HotKey, pos)
-		if err != nil {
-			return translate(err)
-		}
-		c.ID, err = res.LastInsertId()
+		var err error
+		c, err = insertClassTx(ctx, tx, c)
 		return err
 	})
 	if err != nil {
 		return c, fmt.Errorf("add class %q: %w", c.Name, err)
 	}
 	return c, nil
+}
+
+// insertClassTx stores c at the end of the order, giving it the next
+// palette colour and free digit key when it has none.
+func insertClassTx(ctx context.Context, tx *sql.Tx, c project.Class) (project.Class, error) {
+	var n, pos int
+	if err := tx.QueryRowContext(ctx, "SELECT count(*), coalesce(max(position), -1) + 1 FROM classes").Scan(&n, &pos); err != nil {
+		return c, err
+	}
+	if c.Color == (color.NRGBA{}) {
+		c.Color = project.PaletteColor(n)
+	}
+	if c.HotKey == "" {
+		c.HotKey = freeDigit(ctx, tx)
+	}
+	res, err := tx.ExecContext(ctx, "INSERT INTO classes(name, color, hot_key, position) VALUES (?, ?, ?, ?)",
+		c.Name, FormatColor(c.Color), c.HotKey, pos)
+	if err != nil {
+		return c, translate(err)
+	}
+	c.ID, err = res.LastInsertId()
+	return c, err
 }
 
 // freeDigit is the first of 1..9, 0 that no class uses, or "".

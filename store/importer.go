@@ -1,0 +1,221 @@
+package store
+
+import (
+	"context"
+	"database/sql"
+	"errors"
+	"fmt"
+	"path"
+	"strings"
+
+	"boxwright/project"
+	"boxwright/project/formats"
+)
+
+// ImportOptions tunes ImportDataset.
+type ImportOptions struct {
+	// Annotator owns the imported labels; added if new. Required.
+	Annotator string
+	// CreateClasses adds classes the project lacks; without it an unknown
+	// class name fails the import.
+	CreateClasses bool
+	// Strict refuses boxes that reach outside their image instead of
+	// clipping them.
+	Strict bool
+	// Source is recorded on every label (usually the imported file's name).
+	Source string
+}
+
+// ImportReport says what an import did.
+type ImportReport struct {
+	Annotator      string   `json:"annotator"`
+	Images         int      `json:"images"` // records matched to project images
+	Labels         int      `json:"labels"`
+	Clipped        int      `json:"clipped"` // boxes cut back to their image
+	ClassesCreated []string `json:"classes_created"`
+	// Unmatched are the image records that match no project image.
+	Unmatched []string `json:"unmatched"`
+}
+
+// ImageMatcher finds project images by the names interchange files use:
+// the stored relative path, a trailing part of it, or the file name alone
+// when that is unique in the project.
+type ImageMatcher struct {
+	byPath map[string]project.Image
+	byBase map[string][]project.Image
+	all    []project.Image
+}
+
+// NewImageMatcher indexes the project's images.
+func (s *Store) NewImageMatcher(ctx context.Context) (*ImageMatcher, error) {
+	ims, err := s.Images(ctx)
+	if err != nil {
+		return nil, err
+	}
+	m := &ImageMatcher{byPath: map[string]project.Image{}, byBase: map[string][]project.Image{}, all: ims}
+	for _, im := range ims {
+		m.byPath[im.Path] = im
+		b := path.Base(im.Path)
+		m.byBase[b] = append(m.byBase[b], im)
+	}
+	return m, nil
+}
+
+// Match returns the image a record name refers to. ok is false when none
+// does, or when the name is ambiguous (reason says which).
+func (m *ImageMatcher) Match(name string) (im project.Image, ok bool, reason string) {
+	name = strings.TrimPrefix(strings.ReplaceAll(name, "\\", "/"), "./")
+	if im, ok := m.byPath[name]; ok {
+		return im, true, ""
+	}
+	var hits []project.Image
+	for _, im := range m.all {
+		if strings.HasSuffix(im.Path, "/"+name) {
+			hits = append(hits, im)
+		}
+	}
+	if len(hits) == 0 {
+		hits = m.byBase[path.Base(name)]
+	}
+	switch len(hits) {
+	case 0:
+		return project.Image{}, false, "no project image has this name"
+	case 1:
+		return hits[0], true, ""
+	}
+	return project.Image{}, false, fmt.Sprintf("%d project images have this name; give the relative path", len(hits))
+}
+
+// MatchStem is Match for layouts that name images only by file stem (the
+// centre-normalised text layout's a.txt belongs to a.jpg, a.png …).
+func (m *ImageMatcher) MatchStem(rel string) (im project.Image, ok bool, reason string) {
+	rel = strings.TrimSuffix(strings.ReplaceAll(rel, "\\", "/"), path.Ext(rel))
+	var hits []project.Image
+	for _, im := range m.all {
+		p := strings.TrimSuffix(im.Path, path.Ext(im.Path))
+		if p == rel || strings.HasSuffix(p, "/"+rel) {
+			hits = append(hits, im)
+		}
+	}
+	if len(hits) == 0 {
+		base := path.Base(rel)
+		for _, im := range m.all {
+			if strings.TrimSuffix(path.Base(im.Path), path.Ext(im.Path)) == base {
+				hits = append(hits, im)
+			}
+		}
+	}
+	switch len(hits) {
+	case 0:
+		return project.Image{}, false, "no project image has this name"
+	case 1:
+		return hits[0], true, ""
+	}
+	return project.Image{}, false, fmt.Sprintf("%d project images share this name; keep the folder structure", len(hits))
+}
+
+// ImportDataset stores the dataset's boxes as labels of one annotator, in
+// one transaction: any bad record rolls everything back and the error
+// names it. Records whose image is not in the project are reported, not
+// imported; boxes reaching outside their image are clipped and counted
+// (refused when opts.Strict).
+func (s *Store) ImportDataset(ctx context.Context, ds *formats.Dataset, opts ImportOptions) (ImportReport, error) {
+	rep := ImportReport{Annotator: opts.Annotator, ClassesCreated: []string{}, Unmatched: []string{}}
+	if err := project.ValidateName("annotator", opts.Annotator); err != nil {
+		return rep, fmt.Errorf("import: %v: %w", err, project.ErrInvalid)
+	}
+	matcher, err := s.NewImageMatcher(ctx)
+	if err != nil {
+		return rep, err
+	}
+	classes, err := s.Classes(ctx)
+	if err != nil {
+		return rep, err
+	}
+	classID := map[string]int64{}
+	for _, c := range classes {
+		classID[c.Name] = c.ID
+	}
+	err = s.tx(ctx, func(tx *sql.Tx) error {
+		annID, err := ensureAnnotatorTx(ctx, tx, opts.Annotator, formatTime(s.now()))
+		if err != nil {
+			return err
+		}
+		stmt, err := tx.PrepareContext(ctx, `INSERT INTO labels(image_id, class_id, annotator_id, x0, y0, x1, y1, origin, source, score, created_at, updated_at)
+			VALUES (?,?,?,?,?,?,?,?,?,?,?,?)`)
+		if err != nil {
+			return err
+		}
+		defer stmt.Close()
+		now := formatTime(s.now())
+		for i, rec := range ds.Images {
+			if i%1000 == 0 && ctx.Err() != nil {
+				return ctx.Err()
+			}
+			im, ok, reason := matcher.Match(rec.Name)
+			if !ok {
+				rep.Unmatched = append(rep.Unmatched, fmt.Sprintf("%s (%s): %s", rec.Name, rec.Where, reason))
+				continue
+			}
+			if rec.Width > 0 && rec.Height > 0 && (rec.Width != im.Width || rec.Height != im.Height) {
+				return fmt.Errorf("%s: image %s is %d×%d in the file but %d×%d in the project; is it the same image?",
+					rec.Where, rec.Name, rec.Width, rec.Height, im.Width, im.Height)
+			}
+			rep.Images++
+			for _, b := range rec.Boxes {
+				id, ok := classID[b.Class]
+				if !ok {
+					if !opts.CreateClasses {
+						return fmt.Errorf("%s: class %q is not in the project (create missing classes, or add it first)", b.Where, b.Class)
+					}
+					if id, err = addClassTx(ctx, tx, b.Class); err != nil {
+						return fmt.Errorf("%s: %w", b.Where, err)
+					}
+					classID[b.Class] = id
+					rep.ClassesCreated = append(rep.ClassesCreated, b.Class)
+				}
+				box := b.Box.Clamp(float64(im.Width), float64(im.Height))
+				if box != b.Box {
+					if opts.Strict || box.Empty() {
+						return fmt.Errorf("%s: box %v reaches outside the %d×%d image %s", b.Where, b.Box, im.Width, im.Height, rec.Name)
+					}
+					rep.Clipped++
+				}
+				if !box.Valid() {
+					return fmt.Errorf("%s: box %v has no area", b.Where, b.Box)
+				}
+				if _, err := stmt.ExecContext(ctx, im.ID, id, annID, box.X0, box.Y0, box.X1, box.Y1, string(project.OriginImported),
+					opts.Source, b.Score, now, now); err != nil {
+					return fmt.Errorf("%s: %w", b.Where, translate(err))
+				}
+				rep.Labels++
+			}
+		}
+		return nil
+	})
+	if err != nil {
+		return ImportReport{Annotator: opts.Annotator, ClassesCreated: []string{}, Unmatched: []string{}}, fmt.Errorf("import (nothing was stored): %w", err)
+	}
+	return rep, nil
+}
+
+func ensureAnnotatorTx(ctx context.Context, tx *sql.Tx, name, now string) (int64, error) {
+	var id int64
+	err := tx.QueryRowContext(ctx, "SELECT id FROM annotators WHERE name = ?", name).Scan(&id)
+	if errors.Is(err, sql.ErrNoRows) {
+		res, err := tx.ExecContext(ctx, "INSERT INTO annotators(name, created_at) VALUES (?, ?)", name, now)
+		if err != nil {
+			return 0, translate(err)
+		}
+		return res.LastInsertId()
+	}
+	return id, err
+}
+
+func addClassTx(ctx context.Context, tx *sql.Tx, name string) (int64, error) {
+	if err := project.ValidateName("class", name); err != nil {
+		return 0, fmt.Errorf("%v: %w", err, project.ErrInvalid)
+	}
+	c, err := insertClassTx(ctx, tx, project.Class{Name: name})
+	return c.ID, err
+}

@@ -1,0 +1,110 @@
+package store
+
+import (
+	"strings"
+	"testing"
+
+	"boxwright/project"
+	"boxwright/project/formats"
+)
+
+func importFixture(t *testing.T) (*Store, project.Image, project.Image) {
+	t.Helper()
+	s := newStore(t)
+	a, _ := s.AddImage(bg, project.Image{Path: "harbour/a.jpg", SHA256: hash(0), Width: 100, Height: 80, Orientation: 1})
+	b, _ := s.AddImage(bg, project.Image{Path: "harbour/sub/b.jpg", SHA256: hash(1), Width: 50, Height: 40, Orientation: 1})
+	s.AddClass(bg, project.Class{Name: "buoy"})
+	return s, a, b
+}
+
+func rec(name string, w, h int, boxes ...formats.BoxRecord) formats.ImageRecord {
+	return formats.ImageRecord{Name: name, Width: w, Height: h, Boxes: boxes, Where: "f.json: images[" + name + "]"}
+}
+
+func bx(class string, x0, y0, x1, y1 float64, where string) formats.BoxRecord {
+	return formats.BoxRecord{Class: class, Box: project.Box{X0: x0, Y0: y0, X1: x1, Y1: y1}, Where: where}
+}
+
+func TestImportDatasetMatchesClipsAndReports(t *testing.T) {
+	s, a, b := importFixture(t)
+	ds := &formats.Dataset{Classes: []string{"buoy", "kayak"}, Images: []formats.ImageRecord{
+		rec("a.jpg", 100, 80, bx("buoy", 1, 2, 11, 12, "annotations[0]"), bx("kayak", 90, 70, 120, 90, "annotations[1]")),
+		rec("sub/b.jpg", 0, 0, bx("buoy", 0.5, 0.5, 10.25, 20, "annotations[2]")),
+		rec("missing.jpg", 10, 10, bx("buoy", 0, 0, 1, 1, "annotations[3]")),
+	}}
+	rep, err := s.ImportDataset(bg, ds, ImportOptions{Annotator: "old-team", CreateClasses: true, Source: "f.json"})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if rep.Images != 2 || rep.Labels != 3 || rep.Clipped != 1 || len(rep.ClassesCreated) != 1 || rep.ClassesCreated[0] != "kayak" ||
+		len(rep.Unmatched) != 1 || !strings.Contains(rep.Unmatched[0], "missing.jpg") {
+		t.Fatalf("report %+v", rep)
+	}
+	ann, err := s.AnnotatorByName(bg, "old-team")
+	if err != nil {
+		t.Fatal(err)
+	}
+	ls, _ := s.Labels(bg, project.LabelFilter{ImageID: a.ID, AnnotatorID: ann.ID})
+	if len(ls) != 2 || ls[1].Box != (project.Box{X0: 90, Y0: 70, X1: 100, Y1: 80}) || ls[0].Origin != project.OriginImported || ls[0].Source != "f.json" {
+		t.Errorf("labels of a.jpg: %+v", ls)
+	}
+	if ls, _ := s.Labels(bg, project.LabelFilter{ImageID: b.ID}); len(ls) != 1 || ls[0].Box.X1 != 10.25 {
+		t.Errorf("labels of b.jpg: %+v", ls)
+	}
+}
+
+func TestImportDatasetIsAllOrNothing(t *testing.T) {
+	cases := []struct {
+		name string
+		ds   *formats.Dataset
+		opts ImportOptions
+		want string
+	}{
+		{"unknown class", &formats.Dataset{Images: []formats.ImageRecord{rec("a.jpg", 100, 80, bx("buoy", 0, 0, 5, 5, "annotations[0]"), bx("yacht", 0, 0, 5, 5, "annotations[1]"))}},
+			ImportOptions{Annotator: "x"}, `annotations[1]: class "yacht" is not in the project`},
+		{"strict outside", &formats.Dataset{Images: []formats.ImageRecord{rec("a.jpg", 100, 80, bx("buoy", 0, 0, 5, 5, "annotations[0]"), bx("buoy", 95, 0, 105, 5, "annotations[1]"))}},
+			ImportOptions{Annotator: "x", Strict: true}, "annotations[1]: box [95,0,105,5] reaches outside the 100×80 image"},
+		{"entirely outside", &formats.Dataset{Images: []formats.ImageRecord{rec("a.jpg", 100, 80, bx("buoy", 0, 0, 5, 5, "a0"), bx("buoy", 200, 200, 205, 205, "a1"))}},
+			ImportOptions{Annotator: "x"}, "a1: box [200,200,205,205] reaches outside"},
+		{"size mismatch", &formats.Dataset{Images: []formats.ImageRecord{rec("a.jpg", 80, 100, bx("buoy", 0, 0, 5, 5, "a0"))}},
+			ImportOptions{Annotator: "x"}, "is 80×100 in the file but 100×80 in the project"},
+		{"no annotator", &formats.Dataset{}, ImportOptions{}, "annotator name is empty"},
+	}
+	for _, c := range cases {
+		s, _, _ := importFixture(t)
+		_, err := s.ImportDataset(bg, c.ds, c.opts)
+		if err == nil || !strings.Contains(err.Error(), c.want) {
+			t.Errorf("%s: error %v, want it to contain %q", c.name, err, c.want)
+			continue
+		}
+		cnt, _ := s.Counts(bg)
+		as, _ := s.Annotators(bg)
+		if cnt.Labels != 0 || len(as) != 0 {
+			t.Errorf("%s: a failed import left %d labels and annotators %v", c.name, cnt.Labels, as)
+		}
+	}
+}
+
+func TestImageMatcher(t *testing.T) {
+	s, a, _ := importFixture(t)
+	s.AddImage(bg, project.Image{Path: "other/a.jpg", SHA256: hash(2), Width: 100, Height: 80, Orientation: 1})
+	m, err := s.NewImageMatcher(bg)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if im, ok, _ := m.Match("harbour/a.jpg"); !ok || im.ID != a.ID {
+		t.Errorf("exact path")
+	}
+	if _, ok, reason := m.Match("a.jpg"); ok || !strings.Contains(reason, "2 project images") {
+		t.Errorf("ambiguous base name matched: %q", reason)
+	}
+	if im, ok, _ := m.Match("sub\\b.jpg"); !ok || im.Path != "harbour/sub/b.jpg" {
+		t.Errorf("path suffix with backslashes: %+v", im)
+	}
+	if im, ok, _ := m.MatchStem("sub/b.txt"); !ok || im.Path != "harbour/sub/b.jpg" {
+		t.Errorf("stem match: %+v", im)
+	}
+	if _, ok, _ := m.MatchStem("zzz.txt"); ok {
+		t.Errorf("unknown stem matched")
+	}
+}
