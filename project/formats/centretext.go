@@ -120,6 +120,10 @@ func ReadClassNames(r io.Reader, file string) ([]string, error) {
 			return nil, &PositionError{File: file, Line: firstBlank,
 				Msg: "blank line between class names; class indices count lines, so it would shift every later class (remove it)"}
 		}
+		if strings.ContainsRune(name, '\r') {
+			return nil, &PositionError{File: file, Line: lr.line,
+				Msg: "line contains a carriage return inside it; the file's lines must end with \\n or \\r\\n"}
+		}
 		if prev, dup := seen[name]; dup {
 			return nil, &PositionError{File: file, Line: lr.line,
 				Msg: fmt.Sprintf("class name %q appears twice (also on line %d)", name, prev)}

@@ -420,6 +420,9 @@ func WriteImageXML(w io.Writer, rec ImageRecord) error {
 			return fmt.Errorf("writing per-image XML for %s: object[%d] box %v is not a valid box", rec.Name, i, br.Box)
 		}
 		xmin, ymin, xmax, ymax := boxToXMLIndices(br.Box)
+		// A one-pixel box read from a file can come back with xmin a hair
+		// above xmax after the -1/+1; write such a box as one pixel.
+		xmin, ymin = snapToMax(xmin, xmax), snapToMax(ymin, ymax)
 		if xmax < xmin || ymax < ymin {
 			return fmt.Errorf("writing per-image XML for %s: object[%d] box %v is less than one pixel wide or high, which 1-based inclusive pixel indices cannot hold", rec.Name, i, br.Box)
 		}
@@ -450,6 +453,15 @@ func writeXMLText(b *bytes.Buffer, indent, tag, text string) {
 	b.WriteString("<" + tag + ">")
 	_ = xml.EscapeText(b, []byte(text)) // a bytes.Buffer does not fail
 	b.WriteString("</" + tag + ">\n")
+}
+
+// snapToMax returns hi when lo exceeds it by no more than rounding error,
+// and lo otherwise.
+func snapToMax(lo, hi float64) float64 {
+	if lo > hi && lo-hi <= 1e-9*math.Max(1, math.Abs(hi)) {
+		return hi
+	}
+	return lo
 }
 
 func xmlFlag(v bool) string {
