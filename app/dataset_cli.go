@@ -66,6 +66,38 @@ func findClassNames(src string) string {
 	return filepath.Join(dir, "classes.txt")
 }
 
+// importJob is one import, from the command line or the window.
+type importJob struct {
+	Layout                      formats.Layout
+	Src, ClassesFile, ImagesDir string
+	Annotator                   string
+	Create, Strict              bool
+}
+
+// runImport adds the images folder (if any), reads the labels and imports
+// them in one transaction.
+func runImport(ctx context.Context, s *store.Store, j importJob) (importResult, error) {
+	var res importResult
+	if j.ImagesDir != "" {
+		rep, err := s.AddImages(ctx, []string{j.ImagesDir}, store.IntakeOptions{})
+		if err != nil {
+			return res, err
+		}
+		res.ImagesAdded = &rep
+	}
+	ds, unreadable, err := loadDataset(ctx, s, j.Layout, j.Src, j.ClassesFile)
+	if err != nil {
+		return res, err
+	}
+	rep, err := s.ImportDataset(ctx, ds, store.ImportOptions{Annotator: j.Annotator, CreateClasses: j.Create, Strict: j.Strict, Source: filepath.Base(j.Src)})
+	if err != nil {
+		return res, err
+	}
+	rep.Unmatched = append(rep.Unmatched, unreadable...)
+	res.ImportReport = rep
+	return res, nil
+}
+
 func cmdImport(args []string, stdout, stderr io.Writer) error {
 	fs := flag.NewFlagSet("import", flag.ContinueOnError)
 	layout := fs.String("layout", "", "")
@@ -94,24 +126,12 @@ func cmdImport(args []string, stdout, stderr io.Writer) error {
 	defer s.Close()
 	ctx, stop := interruptible()
 	defer stop()
-	var res importResult
-	if *images != "" {
-		rep, err := s.AddImages(ctx, []string{*images}, store.IntakeOptions{})
-		if err != nil {
-			return err
-		}
-		res.ImagesAdded = &rep
-	}
-	ds, unreadable, err := loadDataset(ctx, s, formats.Layout(*layout), src, *classes)
+	res, err := runImport(ctx, s, importJob{Layout: formats.Layout(*layout), Src: src, ClassesFile: *classes, ImagesDir: *images,
+		Annotator: *annotator, Create: *create, Strict: *strict})
 	if err != nil {
 		return err
 	}
-	rep, err := s.ImportDataset(ctx, ds, store.ImportOptions{Annotator: *annotator, CreateClasses: *create, Strict: *strict, Source: filepath.Base(src)})
-	if err != nil {
-		return err
-	}
-	rep.Unmatched = append(rep.Unmatched, unreadable...)
-	res.ImportReport = rep
+	rep := res.ImportReport
 	if *asJSON {
 		return writeJSON(stdout, res)
 	}
@@ -164,19 +184,8 @@ func cmdExport(args []string, stdout, stderr io.Writer) error {
 	defer s.Close()
 	ctx, stop := interruptible()
 	defer stop()
-	a, err := s.AnnotatorByName(ctx, *annotator)
-	if err != nil {
-		return err
-	}
-	classes, imgs, err := s.ExportImages(ctx, a.ID)
-	if err != nil {
-		return err
-	}
-	if len(imgs) == 0 {
-		return fmt.Errorf("annotator %q has no labelled images to export", *annotator)
-	}
-	rep, err := formats.Export(ctx, *out, classes, imgs, formats.ExportOptions{Layout: formats.Layout(*layout), Ratios: ratios, Seed: *seed,
-		Images: formats.ImageMode(*images)})
+	rep, classes, err := runExport(ctx, s, *annotator, *out, formats.ExportOptions{Layout: formats.Layout(*layout), Ratios: ratios,
+		Seed: *seed, Images: formats.ImageMode(*images)})
 	if err != nil {
 		return err
 	}
@@ -186,6 +195,23 @@ func cmdExport(args []string, stdout, stderr io.Writer) error {
 	printExportReport(stdout, rep, classes)
 	fmt.Fprintf(stdout, "wrote %s (report in %s)\n", *out, filepath.Join(*out, "report.json"))
 	return nil
+}
+
+// runExport writes one annotator's labels as a split dataset under out.
+func runExport(ctx context.Context, s *store.Store, annotator, out string, opts formats.ExportOptions) (formats.ExportReport, []string, error) {
+	a, err := s.AnnotatorByName(ctx, annotator)
+	if err != nil {
+		return formats.ExportReport{}, nil, err
+	}
+	classes, imgs, err := s.ExportImages(ctx, a.ID)
+	if err != nil {
+		return formats.ExportReport{}, nil, err
+	}
+	if len(imgs) == 0 {
+		return formats.ExportReport{}, nil, fmt.Errorf("annotator %q has no labelled images to export", annotator)
+	}
+	rep, err := formats.Export(ctx, out, classes, imgs, opts)
+	return rep, classes, err
 }
 
 func printExportReport(w io.Writer, rep formats.ExportReport, classes []string) {

@@ -105,12 +105,16 @@ func (u *ui) menu() *fyne.MainMenu {
 		fyne.NewMenuItem("First image", func() { u.selectIndex(0) }),
 		fyne.NewMenuItem("Last image", func() { u.selectIndex(len(u.images) - 1) }),
 	)
+	data := fyne.NewMenu("Dataset",
+		fyne.NewMenuItem("Import labels…", u.askImport),
+		fyne.NewMenuItem("Export dataset…", u.askExport),
+	)
 	help := fyne.NewMenu("Help",
 		fyne.NewMenuItem("Keys and mouse", u.showKeys),
 		fyne.NewMenuItem("Cautions", u.showCautions),
 		fyne.NewMenuItem("About Boxwright", u.showAbout),
 	)
-	return fyne.NewMainMenu(file, images, help)
+	return fyne.NewMainMenu(file, images, data, help)
 }
 
 // Keys of the main window; documented in showKeys and the README.
@@ -120,6 +124,8 @@ func (u *ui) addShortcuts() {
 	c.AddShortcut(&desktop.CustomShortcut{KeyName: fyne.KeyO, Modifier: ctrl}, func(fyne.Shortcut) { u.askOpen() })
 	c.AddShortcut(&desktop.CustomShortcut{KeyName: fyne.KeyN, Modifier: ctrl}, func(fyne.Shortcut) { u.askNew() })
 	c.AddShortcut(&desktop.CustomShortcut{KeyName: fyne.KeyI, Modifier: ctrl}, func(fyne.Shortcut) { u.askAddFolder() })
+	c.AddShortcut(&desktop.CustomShortcut{KeyName: fyne.KeyL, Modifier: ctrl}, func(fyne.Shortcut) { u.askImport() })
+	c.AddShortcut(&desktop.CustomShortcut{KeyName: fyne.KeyE, Modifier: ctrl}, func(fyne.Shortcut) { u.askExport() })
 	c.SetOnTypedKey(func(e *fyne.KeyEvent) {
 		switch e.Name {
 		case fyne.KeyPageDown, fyne.KeySpace:
@@ -574,6 +580,8 @@ func (u *ui) showAbout() {
 const keysHelp = `Ctrl+O  open a project
 Ctrl+N  new project
 Ctrl+I  add an image folder
+Ctrl+L  import labels (corner/size JSON, per-image XML, centre-normalised text)
+Ctrl+E  export a dataset with a train/val/test split
 Page Down or Space  next image
 Page Up or Backspace  previous image
 Home / End  first / last image

@@ -166,3 +166,21 @@ func TestWelcomeScreenWithoutProject(t *testing.T) {
 		t.Errorf("welcome buttons: %v", buttons)
 	}
 }
+
+// The dataset dialogs' forms turn their fields into the same jobs the
+// command line runs.
+func TestImportFormBuildsJob(t *testing.T) {
+	a := test.NewApp()
+	defer a.Quit()
+	u := newUI(a)
+	form, read := u.importForm()
+	if _, err := read(); err == nil {
+		t.Errorf("an empty form was accepted")
+	}
+	src := form.Items[1].Widget.(*fyne.Container).Objects[0].(*widget.Entry)
+	src.SetText("/data/old/labels.json")
+	j, err := read()
+	if err != nil || j.Annotator != "labels" || j.Layout != "json" || j.Src != "/data/old/labels.json" {
+		t.Errorf("job %+v, %v", j, err)
+	}
+}
