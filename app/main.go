@@ -56,6 +56,12 @@ Commands:
   classes PROJECT.boxw delete NAME      only when it has no labels
   info PROJECT.boxw [--json]            counts of images, labels, suggestions
   images PROJECT.boxw [--json]          one line per image
+  import PROJECT.boxw --layout json|xml|txt [--annotator NAME] PATH
+        [--images DIR] [--classes FILE] [--create-classes] [--strict] [--json]
+                                        import labels (all or nothing)
+  export PROJECT.boxw --layout json|xml|txt --annotator NAME --out DIR
+        [--split 80/10/10] [--seed N] [--images copy|link|none] [--json]
+                                        write a split dataset
   demo DIR [--no-open] [--seed N]       make the invented harbour demo in DIR
   help                                  this text
 
