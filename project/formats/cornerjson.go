@@ -20,6 +20,7 @@ import (
 	"fmt"
 	"io"
 	"math"
+	"os"
 	"strconv"
 
 	"boxwright/project"
@@ -223,8 +224,25 @@ type cjReader struct {
 	dec  *json.Decoder
 }
 
+// estimate counts the occurrences of key in data, which bounds the number
+// of records that use it, capped to keep a hostile file from reserving
+// much.
+func estimate(data []byte, key string) int {
+	return min(bytes.Count(data, []byte(key)), len(data)/16+1)
+}
+
 func newCJReader(r io.Reader, file string) (*cjReader, error) {
-	data, err := io.ReadAll(r)
+	var buf bytes.Buffer
+	switch s := r.(type) {
+	case interface{ Len() int }: // bytes.Reader, strings.Reader, bytes.Buffer
+		buf.Grow(s.Len() + bytes.MinRead)
+	case interface{ Stat() (os.FileInfo, error) }: // os.File
+		if fi, err := s.Stat(); err == nil && fi.Mode().IsRegular() && fi.Size() > 0 && fi.Size() < 1<<32 {
+			buf.Grow(int(fi.Size()) + bytes.MinRead)
+		}
+	}
+	_, err := buf.ReadFrom(r)
+	data := buf.Bytes()
 	if err != nil {
 		return nil, &PositionError{File: file, Msg: "cannot read the file: " + err.Error()}
 	}
@@ -322,7 +340,7 @@ func (p *cjReader) array(path string, elem func(k int, start int64) error) error
 // element decodes one array element, which starts at start, into v and
 // reports a PositionError for malformed JSON, a non-object or a field of the
 // wrong type.
-func (p *cjReader) element(v any, path string, start int64) error {
+func (p *cjReader) element(v any, path func() string, start int64) error {
 	// The decoder measures type-error offsets from just after the comma.
 	raw := p.dec.InputOffset()
 	if raw < int64(len(p.data)) && p.data[raw] == ',' {
@@ -331,14 +349,14 @@ func (p *cjReader) element(v any, path string, start int64) error {
 	err := p.dec.Decode(v)
 	var ute *json.UnmarshalTypeError
 	if err != nil && !errors.As(err, &ute) {
-		return p.fail(err, path)
+		return p.fail(err, path())
 	}
 	if start < int64(len(p.data)) && p.data[start] != '{' {
-		return p.errAt(start, path, "", "must be an object, not "+kindOfByte(p.data[start]))
+		return p.errAt(start, path(), "", "must be an object, not "+kindOfByte(p.data[start]))
 	}
 	if ute != nil {
 		// Only the string fields use the decoder's own conversion.
-		return p.errAt(raw+ute.Offset, path, ute.Field, "must be a string, not "+ute.Value)
+		return p.errAt(raw+ute.Offset, path(), ute.Field, "must be a string, not "+ute.Value)
 	}
 	return nil
 }
@@ -486,10 +504,12 @@ func ReadCornerJSON(r io.Reader, file string) (*Dataset, error) {
 	if err != nil {
 		return nil, err
 	}
+	// Estimate the array sizes from the field names so that the slices
+	// grow once.
 	var (
-		imgs []cjImg
+		imgs = make([]cjImg, 0, estimate(p.data, `"file_name"`))
 		cats []cjCat
-		anns []cjAnn
+		anns = make([]cjAnn, 0, estimate(p.data, `"bbox"`))
 		seen = map[string]bool{}
 	)
 	start := p.valueStart()
@@ -520,44 +540,44 @@ func ReadCornerJSON(r io.Reader, file string) (*Dataset, error) {
 		switch key {
 		case "images":
 			err = p.array(key, func(k int, start int64) error {
-				path := "images[" + strconv.Itoa(k) + "]"
+				path := func() string { return "images[" + strconv.Itoa(k) + "]" }
 				var in cjImageIn
 				if err := p.element(&in, path, start); err != nil {
 					return err
 				}
 				if m := intField(in.ID); m != "" {
-					return p.errAt(start, path, "id", m)
+					return p.errAt(start, path(), "id", m)
 				}
 				if in.FileName == "" {
-					return p.errAt(start, path, "file_name", "is missing or empty")
+					return p.errAt(start, path(), "file_name", "is missing or empty")
 				}
 				if m := intField(in.Width); m != "" {
-					return p.errAt(start, path, "width", m)
+					return p.errAt(start, path(), "width", m)
 				}
 				if m := intField(in.Height); m != "" {
-					return p.errAt(start, path, "height", m)
+					return p.errAt(start, path(), "height", m)
 				}
 				if in.Width.v <= 0 || in.Width.v > math.MaxInt32 {
-					return p.errAt(start, path, "width", "must be a positive number of pixels, not "+strconv.FormatInt(in.Width.v, 10))
+					return p.errAt(start, path(), "width", "must be a positive number of pixels, not "+strconv.FormatInt(in.Width.v, 10))
 				}
 				if in.Height.v <= 0 || in.Height.v > math.MaxInt32 {
-					return p.errAt(start, path, "height", "must be a positive number of pixels, not "+strconv.FormatInt(in.Height.v, 10))
+					return p.errAt(start, path(), "height", "must be a positive number of pixels, not "+strconv.FormatInt(in.Height.v, 10))
 				}
 				imgs = append(imgs, cjImg{in.ID.v, in.FileName, int(in.Width.v), int(in.Height.v), start})
 				return nil
 			})
 		case "categories":
 			err = p.array(key, func(k int, start int64) error {
-				path := "categories[" + strconv.Itoa(k) + "]"
+				path := func() string { return "categories[" + strconv.Itoa(k) + "]" }
 				var in cjCategoryIn
 				if err := p.element(&in, path, start); err != nil {
 					return err
 				}
 				if m := intField(in.ID); m != "" {
-					return p.errAt(start, path, "id", m)
+					return p.errAt(start, path(), "id", m)
 				}
 				if in.Name == "" {
-					return p.errAt(start, path, "name", "is missing or empty")
+					return p.errAt(start, path(), "name", "is missing or empty")
 				}
 				cats = append(cats, cjCat{in.ID.v, in.Name, start})
 				return nil
@@ -565,32 +585,32 @@ func ReadCornerJSON(r io.Reader, file string) (*Dataset, error) {
 		case "annotations":
 			var in cjAnnotationIn
 			err = p.array(key, func(k int, start int64) error {
-				path := "annotations[" + strconv.Itoa(k) + "]"
+				path := func() string { return "annotations[" + strconv.Itoa(k) + "]" }
 				in = cjAnnotationIn{}
 				if err := p.element(&in, path, start); err != nil {
 					return err
 				}
 				if m := intField(in.ID); m != "" {
-					return p.errAt(start, path, "id", m)
+					return p.errAt(start, path(), "id", m)
 				}
 				if m := intField(in.ImageID); m != "" {
-					return p.errAt(start, path, "image_id", m)
+					return p.errAt(start, path(), "image_id", m)
 				}
 				if m := intField(in.CategoryID); m != "" {
-					return p.errAt(start, path, "category_id", m)
+					return p.errAt(start, path(), "category_id", m)
 				}
 				b, m := in.BBox.box()
 				if m != "" {
-					return p.errAt(start, path, "bbox", m)
+					return p.errAt(start, path(), "bbox", m)
 				}
 				if in.IsCrowd.bad || (in.IsCrowd.set && in.IsCrowd.v != 0 && in.IsCrowd.v != 1) {
-					return p.errAt(start, path, "iscrowd", "must be 0 or 1")
+					return p.errAt(start, path(), "iscrowd", "must be 0 or 1")
 				}
 				if in.Score.bad {
-					return p.errAt(start, path, "score", "must be a finite number")
+					return p.errAt(start, path(), "score", "must be a finite number")
 				}
 				if in.Score.set && (in.Score.v < 0 || in.Score.v > 1) {
-					return p.errAt(start, path, "score", "must be between 0 and 1, not "+fmtNum(in.Score.v))
+					return p.errAt(start, path(), "score", "must be between 0 and 1, not "+fmtNum(in.Score.v))
 				}
 				anns = append(anns, cjAnn{
 					id: in.ID.v, imageID: in.ImageID.v, catID: in.CategoryID.v,
@@ -660,33 +680,34 @@ func (p *cjReader) resolve(imgs []cjImg, cats []cjCat, anns []cjAnn) (*Dataset, 
 		ds.Images[i] = ImageRecord{Name: im.name, Width: im.width, Height: im.height, Where: w}
 	}
 
-	// Check the annotations and count boxes per image.
-	annIDs := make(map[int64]int, len(anns))
+	// Check the annotations, replace their ids by indexes and count boxes
+	// per image.
+	if k, j, dup := duplicateID(anns); dup {
+		a := anns[k]
+		return nil, p.errAt(a.start, "annotations["+strconv.Itoa(k)+"]", "id", fmt.Sprintf("duplicate annotation id %d (also annotations[%d])", a.id, j))
+	}
 	counts := make([]int, len(imgs))
-	for k, a := range anns {
-		path := "annotations[" + strconv.Itoa(k) + "]"
-		if j, dup := annIDs[a.id]; dup {
-			return nil, p.errAt(a.start, path, "id", fmt.Sprintf("duplicate annotation id %d (also annotations[%d])", a.id, j))
-		}
-		annIDs[a.id] = k
+	for k := range anns {
+		a := &anns[k]
 		ii, ok := imgIndex[a.imageID]
 		if !ok {
-			return nil, p.errAt(a.start, path, "image_id", fmt.Sprintf("unknown image %d (annotation id %d)", a.imageID, a.id))
+			return nil, p.errAt(a.start, "annotations["+strconv.Itoa(k)+"]", "image_id", fmt.Sprintf("unknown image %d (annotation id %d)", a.imageID, a.id))
 		}
-		if _, ok := catIndex[a.catID]; !ok {
-			return nil, p.errAt(a.start, path, "category_id", fmt.Sprintf("unknown category %d (annotation id %d)", a.catID, a.id))
+		ci, ok := catIndex[a.catID]
+		if !ok {
+			return nil, p.errAt(a.start, "annotations["+strconv.Itoa(k)+"]", "category_id", fmt.Sprintf("unknown category %d (annotation id %d)", a.catID, a.id))
 		}
+		a.imageID, a.catID = int64(ii), int64(ci)
 		counts[ii]++
 	}
-	annIDs = nil
 
 	// One backing array for all boxes, cut per image.
 	all := make([]BoxRecord, len(anns))
-	next := make([]int, len(imgs))
 	off := 0
 	for i, n := range counts {
-		ds.Images[i].Boxes = all[off : off : off+n]
-		next[i] = off
+		if n > 0 {
+			ds.Images[i].Boxes = all[off : off : off+n]
+		}
 		off += n
 	}
 	var aw whereList
@@ -697,19 +718,49 @@ func (p *cjReader) resolve(imgs []cjImg, cats []cjCat, anns []cjAnn) (*Dataset, 
 	}
 	wheres := aw.strings()
 	for k, a := range anns {
-		ii := imgIndex[a.imageID]
-		ds.Images[ii].Boxes = append(ds.Images[ii].Boxes, BoxRecord{
-			Class: ds.Classes[catIndex[a.catID]], Box: a.box,
+		im := &ds.Images[a.imageID]
+		im.Boxes = append(im.Boxes, BoxRecord{
+			Class: ds.Classes[a.catID], Box: a.box,
 			Score: a.score, HasScore: a.hasScore, Crowd: a.crowd,
 			Where: wheres[k],
 		})
 	}
-	for i := range ds.Images {
-		if len(ds.Images[i].Boxes) == 0 {
-			ds.Images[i].Boxes = nil
-		}
-	}
 	return ds, nil
+}
+
+// duplicateID reports the first annotation k whose id repeats that of an
+// earlier annotation j. Dense id ranges, the usual case, use a bit set.
+func duplicateID(anns []cjAnn) (k, j int, dup bool) {
+	if len(anns) == 0 {
+		return 0, 0, false
+	}
+	lo, hi := anns[0].id, anns[0].id
+	for _, a := range anns {
+		lo, hi = min(lo, a.id), max(hi, a.id)
+	}
+	if span := uint64(hi - lo); span < uint64(8*len(anns)) {
+		bits := make([]uint64, span/64+1)
+		for k, a := range anns {
+			d := uint64(a.id - lo)
+			if bits[d/64]&(1<<(d%64)) != 0 {
+				for j := range k {
+					if anns[j].id == a.id {
+						return k, j, true
+					}
+				}
+			}
+			bits[d/64] |= 1 << (d % 64)
+		}
+		return 0, 0, false
+	}
+	seen := make(map[int64]int, len(anns))
+	for k, a := range anns {
+		if j, ok := seen[a.id]; ok {
+			return k, j, true
+		}
+		seen[a.id] = k
+	}
+	return 0, 0, false
 }
 
 // ---------------------------------------------------------------------------
@@ -758,34 +809,34 @@ func ReadPredictionList(r io.Reader, file string) ([]Prediction, error) {
 		in    cjPredictionIn
 	)
 	err = p.array("", func(k int, start int64) error {
-		path := "[" + strconv.Itoa(k) + "]"
+		path := func() string { return "[" + strconv.Itoa(k) + "]" }
 		in = cjPredictionIn{}
 		if err := p.element(&in, path, start); err != nil {
 			return err
 		}
 		if in.ImageID.bad || (in.ImageID.set && in.ImageID.v <= 0) {
-			return p.errAt(start, path, "image_id", "must be a positive integer")
+			return p.errAt(start, path(), "image_id", "must be a positive integer")
 		}
 		if !in.ImageID.set && in.FileName == "" {
-			return p.errAt(start, path, "", "names no image: want image_id or file_name")
+			return p.errAt(start, path(), "", "names no image: want image_id or file_name")
 		}
 		if in.CategoryID.bad || (in.CategoryID.set && in.CategoryID.v <= 0) {
-			return p.errAt(start, path, "category_id", "must be a positive integer")
+			return p.errAt(start, path(), "category_id", "must be a positive integer")
 		}
 		if !in.CategoryID.set && in.Category == "" {
-			return p.errAt(start, path, "", "names no class: want category_id or category")
+			return p.errAt(start, path(), "", "names no class: want category_id or category")
 		}
 		b, m := in.BBox.box()
 		if m != "" {
-			return p.errAt(start, path, "bbox", m)
+			return p.errAt(start, path(), "bbox", m)
 		}
 		switch {
 		case in.Score.bad:
-			return p.errAt(start, path, "score", "must be a finite number")
+			return p.errAt(start, path(), "score", "must be a finite number")
 		case !in.Score.set:
-			return p.errAt(start, path, "score", "is missing")
+			return p.errAt(start, path(), "score", "is missing")
 		case in.Score.v < 0 || in.Score.v > 1:
-			return p.errAt(start, path, "score", "must be between 0 and 1, not "+fmtNum(in.Score.v))
+			return p.errAt(start, path(), "score", "must be between 0 and 1, not "+fmtNum(in.Score.v))
 		}
 		preds = append(preds, Prediction{
 			ImageID: in.ImageID.v, FileName: in.FileName,
