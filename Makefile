@@ -12,12 +12,12 @@ TEST_DEBS := xvfb xauth xdotool imagemagick python3-shapely
 
 export CGO_ENABLED := 1
 
-.PHONY: run test deps test-deps build vet unit smoke bench clean
+.PHONY: run test deps test-deps build vet unit fuzz smoke bench clean
 
 run: deps build
 	./$(BIN) demo $(DEMO_DIR)
 
-test: deps test-deps vet unit smoke
+test: deps test-deps vet unit fuzz smoke
 
 build:
 	$(GO) build -o $(BIN) ./app
@@ -28,6 +28,18 @@ vet:
 
 unit:
 	$(GO) test ./...
+
+# A short run of every fuzz target (they also run their seed corpora in
+# `unit`); set FUZZTIME=2m for a longer hunt.
+FUZZTIME ?= 4s
+fuzz:
+	@mkdir -p build
+	@for pkg in ./project/formats ./store/imagefile; do \
+	  for f in $$(grep -ho '^func Fuzz[A-Za-z0-9_]*' $$pkg/*_test.go | sed 's/^func //'); do \
+	    echo "fuzz $$pkg $$f"; \
+	    $(GO) test $$pkg -run '^$$' -fuzz "^$$f$$" -fuzztime $(FUZZTIME) > build/fuzz.log 2>&1 || { cat build/fuzz.log; exit 1; }; \
+	  done; \
+	done
 
 smoke: build
 	.ci/smoke.sh $(BIN)
