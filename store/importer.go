@@ -141,12 +141,8 @@ func (s *Store) ImportDataset(ctx context.Context, ds *formats.Dataset, opts Imp
 		if err != nil {
 			return err
 		}
-		stmt, err := tx.PrepareContext(ctx, `INSERT INTO labels(image_id, class_id, annotator_id, x0, y0, x1, y1, origin, source, score, created_at, updated_at)
-			VALUES (?,?,?,?,?,?,?,?,?,?,?,?)`)
-		if err != nil {
-			return err
-		}
-		defer stmt.Close()
+		ins := newLabelInserter(ctx, tx)
+		defer ins.close()
 		now := formatTime(s.now())
 		for i, rec := range ds.Images {
 			if i%1000 == 0 && ctx.Err() != nil {
@@ -184,14 +180,14 @@ func (s *Store) ImportDataset(ctx context.Context, ds *formats.Dataset, opts Imp
 				if !box.Valid() {
 					return fmt.Errorf("%s: box %v has no area", b.Where, b.Box)
 				}
-				if _, err := stmt.ExecContext(ctx, im.ID, id, annID, box.X0, box.Y0, box.X1, box.Y1, string(project.OriginImported),
+				if err := ins.add(b.Where, im.ID, id, annID, box.X0, box.Y0, box.X1, box.Y1, string(project.OriginImported),
 					opts.Source, b.Score, now, now); err != nil {
-					return fmt.Errorf("%s: %w", b.Where, translate(err))
+					return err
 				}
 				rep.Labels++
 			}
 		}
-		return nil
+		return ins.flush()
 	})
 	if err != nil {
 		return ImportReport{Annotator: opts.Annotator, ClassesCreated: []string{}, Unmatched: []string{}}, fmt.Errorf("import (nothing was stored): %w", err)
@@ -218,4 +214,75 @@ func addClassTx(ctx context.Context, tx *sql.Tx, name string) (int64, error) {
 	}
 	c, err := insertClassTx(ctx, tx, project.Class{Name: name})
 	return c.ID, err
+}
+
+// labelInserter writes labels in multi-row INSERTs: for big imports the
+// per-statement overhead, not SQLite, is what costs.
+type labelInserter struct {
+	ctx   context.Context
+	tx    *sql.Tx
+	full  *sql.Stmt
+	args  []any
+	where []string
+}
+
+const (
+	labelInsertCols = 12
+	labelBatch      = 64 // rows per statement; 768 parameters, well under SQLite's limit
+)
+
+func labelInsertSQL(rows int) string {
+	var b strings.Builder
+	b.WriteString("INSERT INTO labels(image_id, class_id, annotator_id, x0, y0, x1, y1, origin, source, score, created_at, updated_at) VALUES ")
+	for i := 0; i < rows; i++ {
+		if i > 0 {
+			b.WriteByte(',')
+		}
+		b.WriteString("(?,?,?,?,?,?,?,?,?,?,?,?)")
+	}
+	return b.String()
+}
+
+func newLabelInserter(ctx context.Context, tx *sql.Tx) *labelInserter {
+	return &labelInserter{ctx: ctx, tx: tx}
+}
+
+func (l *labelInserter) add(where string, values ...any) error {
+	l.args = append(l.args, values...)
+	l.where = append(l.where, where)
+	if len(l.where) == labelBatch {
+		return l.flush()
+	}
+	return nil
+}
+
+func (l *labelInserter) flush() error {
+	n := len(l.where)
+	if n == 0 {
+		return nil
+	}
+	var err error
+	if n == labelBatch {
+		if l.full == nil {
+			if l.full, err = l.tx.PrepareContext(l.ctx, labelInsertSQL(labelBatch)); err != nil {
+				return err
+			}
+		}
+		_, err = l.full.ExecContext(l.ctx, l.args...)
+	} else {
+		_, err = l.tx.ExecContext(l.ctx, labelInsertSQL(n), l.args...)
+	}
+	if err != nil {
+		// Name the batch's first record; the checks before insertion make a
+		// database refusal here rare.
+		return fmt.Errorf("%s (or one of the %d records after it): %w", l.where[0], n-1, translate(err))
+	}
+	l.args, l.where = l.args[:0], l.where[:0]
+	return nil
+}
+
+func (l *labelInserter) close() {
+	if l.full != nil {
+		l.full.Close()
+	}
 }
