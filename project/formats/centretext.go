@@ -98,7 +98,8 @@ func (l *lineReader) readErr(file string) error {
 // index being the line number counted from 0. Names are trimmed of spaces
 // and a trailing \r. A blank line is an error, since it would shift the
 // index of every later class, except blank lines at the end of the file.
-// A name that appears twice is an error. Errors are *PositionError values.
+// A name that appears twice or contains a carriage return or a byte-order
+// mark (U+FEFF) is an error. Errors are *PositionError values.
 func ReadClassNames(r io.Reader, file string) ([]string, error) {
 	lr := newLineReader(r)
 	classes := []string{}
@@ -124,6 +125,10 @@ func ReadClassNames(r io.Reader, file string) ([]string, error) {
 			return nil, &PositionError{File: file, Line: lr.line,
 				Msg: "line contains a carriage return inside it; the file's lines must end with \\n or \\r\\n"}
 		}
+		if strings.ContainsRune(name, '\ufeff') {
+			return nil, &PositionError{File: file, Line: lr.line,
+				Msg: "class name contains a byte-order mark (U+FEFF), which is invisible and would not read back"}
+		}
 		if prev, dup := seen[name]; dup {
 			return nil, &PositionError{File: file, Line: lr.line,
 				Msg: fmt.Sprintf("class name %q appears twice (also on line %d)", name, prev)}
@@ -138,8 +143,9 @@ func ReadClassNames(r io.Reader, file string) ([]string, error) {
 }
 
 // WriteClassNames writes one class name per line, in index order. A name
-// that is empty, has surrounding spaces, contains a line break or repeats
-// an earlier name is an error, since the file would not read back the same.
+// that is empty, has surrounding spaces, contains a line break or a
+// byte-order mark, or repeats an earlier name is an error, since the file
+// would not read back the same.
 func WriteClassNames(w io.Writer, classes []string) error {
 	var b bytes.Buffer
 	seen := make(map[string]int, len(classes))
@@ -151,6 +157,8 @@ func WriteClassNames(w io.Writer, classes []string) error {
 			return fmt.Errorf("writing class names: class %d name %q has leading or trailing space", i, c)
 		case strings.ContainsAny(c, "\r\n"):
 			return fmt.Errorf("writing class names: class %d name %q contains a line break", i, c)
+		case strings.ContainsRune(c, '\ufeff'):
+			return fmt.Errorf("writing class names: class %d name %q contains a byte-order mark (U+FEFF)", i, c)
 		}
 		if j, dup := seen[c]; dup {
 			return fmt.Errorf("writing class names: class %d name %q repeats class %d", i, c, j)
@@ -206,9 +214,10 @@ func parseCentreLine(s, file string, line, width, height int, classes []string) 
 	fail := func(field, format string, args ...any) (BoxRecord, error) {
 		return BoxRecord{}, &PositionError{File: file, Line: line, Field: field, Msg: fmt.Sprintf(format, args...)}
 	}
-	cols := strings.Fields(s)
-	if len(cols) != 5 && len(cols) != 6 {
-		return fail("", "found %d columns, expected 5 (class_index cx cy w h) or 6 (with a score)", len(cols))
+	var buf [6]string
+	cols, n := splitColumns(s, buf[:0])
+	if n != 5 && n != 6 {
+		return fail("", "found %d columns, expected 5 (class_index cx cy w h) or 6 (with a score)", n)
 	}
 	var v [6]float64
 	for i, c := range cols {
@@ -244,7 +253,7 @@ func parseCentreLine(s, file string, line, width, height int, classes []string) 
 	br := BoxRecord{
 		Class: classes[int(idx)],
 		Box:   centreToBox(v[1], v[2], v[3], v[4], width, height),
-		Where: fmt.Sprintf("%s:%d", file, line),
+		Where: file + ":" + strconv.Itoa(line),
 	}
 	if !br.Box.Valid() {
 		return fail("w", "box of size %s x %s is too small to hold on a %dx%d image", cols[3], cols[4], width, height)
@@ -256,6 +265,35 @@ func parseCentreLine(s, file string, line, width, height int, classes []string) 
 		br.Score, br.HasScore = v[5], true
 	}
 	return br, nil
+}
+
+// splitColumns splits s at runs of spaces and tabs (and other ASCII
+// white space), appending to cols up to its capacity without allocating,
+// and returns the columns and how many there are in all.
+func splitColumns(s string, cols []string) ([]string, int) {
+	n := 0
+	for i := 0; i < len(s); {
+		for i < len(s) && asciiSpace(s[i]) {
+			i++
+		}
+		if i == len(s) {
+			break
+		}
+		j := i
+		for j < len(s) && !asciiSpace(s[j]) {
+			j++
+		}
+		if len(cols) < cap(cols) {
+			cols = append(cols, s[i:j])
+		}
+		n++
+		i = j
+	}
+	return cols, n
+}
+
+func asciiSpace(c byte) bool {
+	return c == ' ' || c == '\t' || c == '\r' || c == '\n' || c == '\v' || c == '\f'
 }
 
 func centreClassCount(n int) string {

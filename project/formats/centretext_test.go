@@ -267,6 +267,7 @@ func TestReadClassNames(t *testing.T) {
 		{"\na\n", "classes.txt:1: blank line between class names"},
 		{"a\nb\r\n c\na\n", `classes.txt:4: class name "a" appears twice (also on line 1)`},
 		{"a\rb\rc\r", "classes.txt:1: line contains a carriage return"},
+		{"a\n\ufeffb\n", "classes.txt:2: class name contains a byte-order mark"},
 	} {
 		_, err := ReadClassNames(strings.NewReader(c.in), "classes.txt")
 		var pe *PositionError
