@@ -115,6 +115,10 @@ func TestCommandLineErrors(t *testing.T) {
 		{[]string{"classes", filepath.Join(dir, "none.boxw"), "list"}, 1, "no such project file"},
 		{[]string{"add-images", "--max-megapixels", "0", "a.boxw", "b"}, 2, "must be positive"},
 		{[]string{"images", "--bogus", "p.boxw"}, 2, "flag provided but not defined"},
+		{[]string{"import", "--map", "boat", "p.boxw", "f.json"}, 2, "--map wants FROM=TO"},
+		{[]string{"import", "p.boxw", "f.json"}, 2, "--layout is required"},
+		{[]string{"export", "p.boxw", "--layout", "json"}, 2, "--layout, --annotator and --out are required"},
+		{[]string{"export", "p.boxw", "--layout", "json", "--annotator", "a", "--out", "o", "--split", "80/30/10"}, 2, "--split"},
 	}
 	for _, c := range cases {
 		code, _, errs := cli(t, c.args...)

@@ -72,6 +72,7 @@ type importJob struct {
 	Src, ClassesFile, ImagesDir string
 	Annotator                   string
 	Create, Strict              bool
+	ClassMap                    map[string]string // file class name → project class name
 }
 
 // runImport adds the images folder (if any), reads the labels and imports
@@ -89,13 +90,28 @@ func runImport(ctx context.Context, s *store.Store, j importJob) (importResult, 
 	if err != nil {
 		return res, err
 	}
-	rep, err := s.ImportDataset(ctx, ds, store.ImportOptions{Annotator: j.Annotator, CreateClasses: j.Create, Strict: j.Strict, Source: filepath.Base(j.Src)})
+	rep, err := s.ImportDataset(ctx, ds, store.ImportOptions{Annotator: j.Annotator, CreateClasses: j.Create, Strict: j.Strict, Source: filepath.Base(j.Src),
+		ClassMap: j.ClassMap})
 	if err != nil {
 		return res, err
 	}
 	rep.Unmatched = append(rep.Unmatched, unreadable...)
 	res.ImportReport = rep
 	return res, nil
+}
+
+// classMapFlag collects repeated --map FROM=TO.
+type classMapFlag map[string]string
+
+func (m classMapFlag) String() string { return "" }
+
+func (m classMapFlag) Set(v string) error {
+	from, to, ok := strings.Cut(v, "=")
+	if !ok || strings.TrimSpace(from) == "" || strings.TrimSpace(to) == "" {
+		return fmt.Errorf("--map wants FROM=TO, got %q", v)
+	}
+	m[strings.TrimSpace(from)] = strings.TrimSpace(to)
+	return nil
 }
 
 func cmdImport(args []string, stdout, stderr io.Writer) error {
@@ -107,7 +123,9 @@ func cmdImport(args []string, stdout, stderr io.Writer) error {
 	strict := fs.Bool("strict", false, "")
 	create := fs.Bool("create-classes", false, "")
 	asJSON := fs.Bool("json", false, "")
-	const synopsis = "import PROJECT.boxw --layout json|xml|txt [--annotator NAME] PATH [--images DIR] [--classes FILE] [--create-classes] [--strict] [--json]"
+	classMap := classMapFlag{}
+	fs.Var(classMap, "map", "")
+	const synopsis = "import PROJECT.boxw --layout json|xml|txt [--annotator NAME] PATH [--images DIR] [--classes FILE] [--map FROM=TO]... [--create-classes] [--strict] [--json]"
 	pos, err := parse(fs, args, 2, 2, synopsis)
 	if err != nil {
 		return err
@@ -127,7 +145,7 @@ func cmdImport(args []string, stdout, stderr io.Writer) error {
 	ctx, stop := interruptible()
 	defer stop()
 	res, err := runImport(ctx, s, importJob{Layout: formats.Layout(*layout), Src: src, ClassesFile: *classes, ImagesDir: *images,
-		Annotator: *annotator, Create: *create, Strict: *strict})
+		Annotator: *annotator, Create: *create, Strict: *strict, ClassMap: classMap})
 	if err != nil {
 		return err
 	}

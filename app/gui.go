@@ -540,12 +540,25 @@ func (u *ui) intake(paths []string, relinkOnly bool) {
 // Cancel button; done runs on the Fyne goroutine when work succeeded.
 func (u *ui) runJob(title string, work func(ctx context.Context, progress func(float64)) error, done func()) {
 	ctx, cancel := context.WithCancel(context.Background())
+	// A moving bar until the job reports how far it is.
 	bar := widget.NewProgressBar()
-	d := dialog.NewCustom(title, "Cancel", container.NewVBox(widget.NewLabel(title+"…"), bar), u.win)
+	busy := widget.NewProgressBarInfinite()
+	bar.Hide()
+	d := dialog.NewCustom(title, "Cancel", container.NewVBox(widget.NewLabel(title+"…"), container.NewStack(busy, bar)), u.win)
 	d.SetOnClosed(cancel)
 	d.Show()
 	go func() {
-		err := work(ctx, func(f float64) { fyne.Do(func() { bar.SetValue(f) }) })
+		err := work(ctx, func(f float64) {
+			fyne.Do(func() {
+				if !busy.Hidden {
+					busy.Stop()
+					busy.Hide()
+					bar.Show()
+				}
+				bar.SetValue(f)
+			})
+		})
+		fyne.Do(busy.Stop)
 		fyne.Do(func() {
 			cancelled := ctx.Err() != nil
 			d.SetOnClosed(nil)

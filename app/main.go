@@ -57,7 +57,8 @@ Commands:
   info PROJECT.boxw [--json]            counts of images, labels, suggestions
   images PROJECT.boxw [--json]          one line per image
   import PROJECT.boxw --layout json|xml|txt [--annotator NAME] PATH
-        [--images DIR] [--classes FILE] [--create-classes] [--strict] [--json]
+        [--images DIR] [--classes FILE] [--map FROM=TO]... [--create-classes]
+        [--strict] [--json]
                                         import labels (all or nothing)
   export PROJECT.boxw --layout json|xml|txt --annotator NAME --out DIR
         [--split 80/10/10] [--seed N] [--images copy|link|none] [--json]

@@ -24,6 +24,9 @@ type ImportOptions struct {
 	Strict bool
 	// Source is recorded on every label (usually the imported file's name).
 	Source string
+	// ClassMap renames the file's class names to project class names
+	// before they are looked up ("boat" → "motorboat").
+	ClassMap map[string]string
 }
 
 // ImportReport says what an import did.
@@ -159,6 +162,9 @@ func (s *Store) ImportDataset(ctx context.Context, ds *formats.Dataset, opts Imp
 			}
 			rep.Images++
 			for _, b := range rec.Boxes {
+				if to, ok := opts.ClassMap[b.Class]; ok {
+					b.Class = to
+				}
 				id, ok := classID[b.Class]
 				if !ok {
 					if !opts.CreateClasses {
