@@ -85,6 +85,18 @@ func TestImportDatasetIsAllOrNothing(t *testing.T) {
 	}
 }
 
+func TestImportClassMap(t *testing.T) {
+	s, a, _ := importFixture(t)
+	ds := &formats.Dataset{Images: []formats.ImageRecord{rec("a.jpg", 100, 80, bx("float", 1, 1, 5, 5, "annotations[0]"))}}
+	if _, err := s.ImportDataset(bg, ds, ImportOptions{Annotator: "x", ClassMap: map[string]string{"float": "buoy"}}); err != nil {
+		t.Fatal(err)
+	}
+	buoy, _ := s.ClassByName(bg, "buoy")
+	if ls, _ := s.Labels(bg, project.LabelFilter{ImageID: a.ID, ClassID: buoy.ID}); len(ls) != 1 {
+		t.Errorf("mapped class: %d labels of buoy", len(ls))
+	}
+}
+
 func TestImageMatcher(t *testing.T) {
 	s, a, _ := importFixture(t)
 	s.AddImage(bg, project.Image{Path: "other/a.jpg", SHA256: hash(2), Width: 100, Height: 80, Orientation: 1})
