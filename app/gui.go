@@ -403,6 +403,15 @@ func (u *ui) reportMissing() {
 
 func (u *ui) showError(err error) { dialog.ShowError(err, u.win) }
 
+// haveProject says whether a project is open, and tells the user to open
+// one when it is not.
+func (u *ui) haveProject() bool {
+	if u.st == nil {
+		dialog.ShowInformation("No project", "Open or create a project first.", u.win)
+	}
+	return u.st != nil
+}
+
 func (u *ui) askOpen() {
 	d := dialog.NewFileOpen(func(r fyne.URIReadCloser, err error) {
 		if err != nil || r == nil {
@@ -466,8 +475,7 @@ func (u *ui) askDemo() {
 }
 
 func (u *ui) askAddFolder() {
-	if u.st == nil {
-		dialog.ShowInformation("No project", "Open or create a project first.", u.win)
+	if !u.haveProject() {
 		return
 	}
 	dialog.ShowFolderOpen(func(l fyne.ListableURI, err error) {
@@ -478,8 +486,7 @@ func (u *ui) askAddFolder() {
 }
 
 func (u *ui) askAddFile() {
-	if u.st == nil {
-		dialog.ShowInformation("No project", "Open or create a project first.", u.win)
+	if !u.haveProject() {
 		return
 	}
 	d := dialog.NewFileOpen(func(r fyne.URIReadCloser, err error) {

@@ -104,8 +104,7 @@ func (u *ui) importForm() (*widget.Form, func() (importJob, error)) {
 }
 
 func (u *ui) askImport() {
-	if u.st == nil {
-		dialog.ShowInformation("No project", "Open or create a project first.", u.win)
+	if !u.haveProject() {
 		return
 	}
 	form, read := u.importForm()
@@ -143,8 +142,7 @@ func (u *ui) askImport() {
 }
 
 func (u *ui) askExport() {
-	if u.st == nil {
-		dialog.ShowInformation("No project", "Open or create a project first.", u.win)
+	if !u.haveProject() {
 		return
 	}
 	layout := widget.NewSelect(layoutLabels(), nil)
