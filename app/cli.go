@@ -67,6 +67,17 @@ func interruptible() (context.Context, context.CancelFunc) {
 	return signal.NotifyContext(context.Background(), os.Interrupt)
 }
 
+// openCLI opens the project named on the command line with a context that
+// Ctrl-C cancels; done closes both.
+func openCLI(path string) (*store.Store, context.Context, func(), error) {
+	s, err := store.Open(path)
+	if err != nil {
+		return nil, nil, nil, err
+	}
+	ctx, stop := interruptible()
+	return s, ctx, func() { stop(); s.Close() }, nil
+}
+
 func writeJSON(w io.Writer, v any) error {
 	enc := json.NewEncoder(w)
 	enc.SetIndent("", "  ")
@@ -130,13 +141,11 @@ func cmdAddImages(args []string, stdout, stderr io.Writer) error {
 	if *mp <= 0 {
 		return usageError("--max-megapixels must be positive")
 	}
-	s, err := store.Open(pos[0])
+	s, ctx, done, err := openCLI(pos[0])
 	if err != nil {
 		return err
 	}
-	defer s.Close()
-	ctx, stop := interruptible()
-	defer stop()
+	defer done()
 	rep, err := s.AddImages(ctx, pos[1:], store.IntakeOptions{MaxPixels: int64(*mp * 1e6), Progress: progressPrinter(stderr, asJSON)})
 	if perr := printIntake(stdout, rep, *asJSON); perr != nil {
 		return perr
@@ -163,13 +172,11 @@ func cmdRelink(args []string, stdout, stderr io.Writer) error {
 	if err != nil {
 		return err
 	}
-	s, err := store.Open(pos[0])
+	s, ctx, done, err := openCLI(pos[0])
 	if err != nil {
 		return err
 	}
-	defer s.Close()
-	ctx, stop := interruptible()
-	defer stop()
+	defer done()
 	rep, err := s.Relink(ctx, pos[1], store.IntakeOptions{})
 	if err != nil {
 		return err
@@ -193,12 +200,11 @@ func cmdClasses(args []string, stdout, stderr io.Writer) error {
 	if err != nil {
 		return err
 	}
-	s, err := store.Open(pos[0])
+	s, ctx, done, err := openCLI(pos[0])
 	if err != nil {
 		return err
 	}
-	defer s.Close()
-	ctx := context.Background()
+	defer done()
 	verb, rest := pos[1], pos[2:]
 	need := func(n int) error {
 		if len(rest) != n {
@@ -326,12 +332,11 @@ func cmdInfo(args []string, stdout, stderr io.Writer) error {
 	if err != nil {
 		return err
 	}
-	s, err := store.Open(pos[0])
+	s, ctx, done, err := openCLI(pos[0])
 	if err != nil {
 		return err
 	}
-	defer s.Close()
-	ctx := context.Background()
+	defer done()
 	c, err := s.Counts(ctx)
 	if err != nil {
 		return err
@@ -387,12 +392,12 @@ func cmdImages(args []string, stdout, stderr io.Writer) error {
 	if err != nil {
 		return err
 	}
-	s, err := store.Open(pos[0])
+	s, ctx, done, err := openCLI(pos[0])
 	if err != nil {
 		return err
 	}
-	defer s.Close()
-	ims, err := s.Images(context.Background())
+	defer done()
+	ims, err := s.Images(ctx)
 	if err != nil {
 		return err
 	}

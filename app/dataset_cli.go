@@ -137,13 +137,11 @@ func cmdImport(args []string, stdout, stderr io.Writer) error {
 	if *annotator == "" {
 		*annotator = strings.TrimSuffix(filepath.Base(src), filepath.Ext(src))
 	}
-	s, err := store.Open(pos[0])
+	s, ctx, done, err := openCLI(pos[0])
 	if err != nil {
 		return err
 	}
-	defer s.Close()
-	ctx, stop := interruptible()
-	defer stop()
+	defer done()
 	res, err := runImport(ctx, s, importJob{Layout: formats.Layout(*layout), Src: src, ClassesFile: *classes, ImagesDir: *images,
 		Annotator: *annotator, Create: *create, Strict: *strict, ClassMap: classMap})
 	if err != nil {
@@ -195,13 +193,11 @@ func cmdExport(args []string, stdout, stderr io.Writer) error {
 	if err != nil {
 		return usageError("--split: " + err.Error())
 	}
-	s, err := store.Open(pos[0])
+	s, ctx, done, err := openCLI(pos[0])
 	if err != nil {
 		return err
 	}
-	defer s.Close()
-	ctx, stop := interruptible()
-	defer stop()
+	defer done()
 	rep, classes, err := runExport(ctx, s, *annotator, *out, formats.ExportOptions{Layout: formats.Layout(*layout), Ratios: ratios,
 		Seed: *seed, Images: formats.ImageMode(*images)})
 	if err != nil {
