@@ -86,7 +86,8 @@ func writeJSON(w io.Writer, v any) error {
 
 func cmdOpen(args []string, stdout, stderr io.Writer) error {
 	fs := flag.NewFlagSet("open", flag.ContinueOnError)
-	pos, err := parse(fs, args, 1, 1, "open PROJECT.boxw")
+	annotator := fs.String("annotator", "", "label as this annotator (created when new); skips the question")
+	pos, err := parse(fs, args, 1, 1, "open PROJECT.boxw [--annotator NAME]")
 	if err != nil {
 		return err
 	}
@@ -96,7 +97,12 @@ func cmdOpen(args []string, stdout, stderr io.Writer) error {
 		return err
 	}
 	s.Close()
-	if code := runGUI(pos[0], stderr); code != 0 {
+	if *annotator != "" {
+		if err := project.ValidateName("annotator", *annotator); err != nil {
+			return usageError(fmt.Sprintf("--annotator %q: %v", *annotator, err))
+		}
+	}
+	if code := runGUI(pos[0], *annotator, stderr); code != 0 {
 		return fmt.Errorf("the window closed with an error")
 	}
 	return nil

@@ -51,7 +51,7 @@ func cmdDemo(args []string, stdout, stderr io.Writer) error {
 	if *noOpen {
 		return nil
 	}
-	if code := runGUI(path, stderr); code != 0 {
+	if code := runGUI(path, "", stderr); code != 0 {
 		return fmt.Errorf("the window closed with an error")
 	}
 	return nil

@@ -2,21 +2,16 @@ package main
 
 import (
 	"context"
-	"errors"
 	"fmt"
-	"image"
 	"io"
-	"io/fs"
 	"os"
 	"path/filepath"
-	"slices"
 	"strings"
 
 	"fyne.io/fyne/v2"
 	fyneapp "fyne.io/fyne/v2/app"
 	"fyne.io/fyne/v2/container"
 	"fyne.io/fyne/v2/dialog"
-	"fyne.io/fyne/v2/driver/desktop"
 	"fyne.io/fyne/v2/layout"
 	"fyne.io/fyne/v2/storage"
 	"fyne.io/fyne/v2/theme"
@@ -25,18 +20,15 @@ import (
 	"boxwright/canvas"
 	"boxwright/project"
 	"boxwright/store"
-	"boxwright/store/imagefile"
 )
 
-// displayMaxSide bounds the copy of an image kept for showing it whole, so
-// that a 50-megapixel photo never becomes a 50-megapixel texture.
-const displayMaxSide = 2048
-
 // runGUI opens the main window, with the project at path if it is not
-// empty, and returns when the window closes.
-func runGUI(path string, stderr io.Writer) int {
+// empty, labelling as annotator (empty: the remembered name, or ask), and
+// returns when the window closes.
+func runGUI(path, annotator string, stderr io.Writer) int {
 	a := fyneapp.NewWithID("app.boxwright.desktop")
 	u := newUI(a)
+	u.annotatorFlag = annotator
 	if path != "" {
 		if err := u.openProject(path); err != nil {
 			fmt.Fprintf(stderr, "boxwright: %v\n", err)
@@ -54,34 +46,72 @@ type ui struct {
 	win fyne.Window
 
 	st      *store.Store
+	path    string
 	images  []project.Image
 	perImg  map[int64]project.ImageCounts
-	classes map[int64]project.Class
+	classes []project.Class
+	classBy map[int64]project.Class
+	// tallies: labels by image, then class or annotator (all annotators).
+	byClass     map[int64]map[int64]int
+	byAnnotator map[int64]map[int64]int
+	classTotal  map[int64]int
 
-	list       *widget.List
-	view       *canvas.View
-	who        *widget.Select // whose labels the view shows
-	annotators []project.Annotator
-	summary    *widget.Label
-	status     *widget.Label
-	body       *fyne.Container // the screen shown in the window: welcome or project
+	annotators    []project.Annotator
+	annotatorFlag string
+	me            project.Annotator // who is labelling; ID 0 until chosen
+	sess          *session
+	current       int64 // class for new boxes
 
-	selected     int
+	nav     *navigator
+	view    *canvas.View
+	bar     *classBar
+	summary *widget.Label
+	status  *widget.Label // image and pointer
+	saved   *widget.Label // quiet "saved" indicator or the write error
+	retry   *widget.Button
+	zoom    *widget.Label
+	undoBtn *widget.Button
+	redoBtn *widget.Button
+	others  *widget.Check
+	guides  *widget.Check
+	body    *fyne.Container // the screen shown in the window: welcome or project
+
+	selected int   // index into images of the image on screen, -1 none
+	imageID  int64 // its ID
+	other    []project.Label
+	cache    *imageCache
+	prefetch bool
+
+	pointer string
+
 	cancelDecode context.CancelFunc
 	// decoded, when set, receives each image the view shows (for tests).
 	decoded func(id int64, err error)
 }
 
 func newUI(a fyne.App) *ui {
-	u := &ui{app: a, win: a.NewWindow("Boxwright"), selected: -1}
+	u := &ui{app: a, win: a.NewWindow("Boxwright"), selected: -1, cache: newImageCache(), prefetch: true}
 	u.view = canvas.NewView()
 	u.summary = widget.NewLabel("")
 	u.summary.Wrapping = fyne.TextWrapWord
 	u.status = widget.NewLabel("")
 	u.status.Truncation = fyne.TextTruncateEllipsis
-	u.list = widget.NewList(func() int { return len(u.images) }, u.newRow, u.updateRow)
-	u.list.OnSelected = func(i widget.ListItemID) { u.showImage(i) }
-	u.who = widget.NewSelect(nil, func(string) { u.showLabels() })
+	u.saved = widget.NewLabel("")
+	u.retry = widget.NewButtonWithIcon("Retry saving", theme.ViewRefreshIcon(), u.flush)
+	u.retry.Hide()
+	u.zoom = widget.NewLabel("")
+	u.nav = newNavigator(u)
+	u.bar = newClassBar(u.win, func() *store.Store { return u.st }, u.classesChanged, u.pickClass)
+	u.undoBtn = widget.NewButtonWithIcon("", theme.ContentUndoIcon(), u.undo)
+	u.redoBtn = widget.NewButtonWithIcon("", theme.ContentRedoIcon(), u.redo)
+	u.others = widget.NewCheck("Other annotators", func(on bool) { u.view.SetShowReadOnly(on) })
+	u.others.SetChecked(true)
+	u.guides = widget.NewCheck("Guides", func(on bool) {
+		if u.view.Guides() != on {
+			u.view.SetGuides(on)
+		}
+	})
+	u.wireView()
 	u.body = container.NewStack(u.welcome())
 	u.win.SetContent(u.body)
 	u.win.SetMainMenu(u.menu())
@@ -98,48 +128,47 @@ func (u *ui) menu() *fyne.MainMenu {
 		fyne.NewMenuItem("Add image folder…", u.askAddFolder),
 		fyne.NewMenuItem("Add image files…", u.askAddFile),
 		fyne.NewMenuItem("Find moved images…", u.askRelink),
+		fyne.NewMenuItemSeparator(),
+		fyne.NewMenuItem("Change annotator…", u.askAnnotator),
+	)
+	edit := fyne.NewMenu("Edit",
+		fyne.NewMenuItem("Undo (Ctrl+Z)", u.undo),
+		fyne.NewMenuItem("Redo (Ctrl+Shift+Z)", u.redo),
+		fyne.NewMenuItemSeparator(),
+		fyne.NewMenuItem("Duplicate box (D)", u.duplicate),
+		fyne.NewMenuItem("Delete box (Delete)", u.deleteSelected),
+		fyne.NewMenuItem("Delete all my boxes on this image (Ctrl+Delete)", u.deleteAll),
+		fyne.NewMenuItem("Give all my boxes on this image the current class", func() { u.classAll(u.current) }),
 	)
 	images := fyne.NewMenu("Images",
-		fyne.NewMenuItem("Next image", func() { u.step(1) }),
-		fyne.NewMenuItem("Previous image", func() { u.step(-1) }),
-		fyne.NewMenuItem("First image", func() { u.selectIndex(0) }),
-		fyne.NewMenuItem("Last image", func() { u.selectIndex(len(u.images) - 1) }),
+		fyne.NewMenuItem("Next image (N)", func() { u.step(1) }),
+		fyne.NewMenuItem("Previous image (B)", func() { u.step(-1) }),
+		fyne.NewMenuItem("Next unfinished image (U)", u.nextUnfinished),
+		fyne.NewMenuItem("Mark done and go on (Enter)", func() { u.markAndGo(project.StatusDone) }),
+		fyne.NewMenuItem("Skip image (X)", func() { u.markAndGo(project.StatusSkipped) }),
+		fyne.NewMenuItem("Mark in progress", func() { u.setStatus(project.StatusStarted) }),
+		fyne.NewMenuItemSeparator(),
+		fyne.NewMenuItem("First image (Home)", func() { u.selectIndex(0) }),
+		fyne.NewMenuItem("Last image (End)", func() { u.selectIndex(len(u.images) - 1) }),
+	)
+	view := fyne.NewMenu("View",
+		fyne.NewMenuItem("Fit image to window (F)", u.view.FitToWindow),
+		fyne.NewMenuItem("Actual pixels (R)", func() { u.view.TypedRune('r') }),
+		fyne.NewMenuItem("Zoom in (+)", func() { u.view.TypedRune('+') }),
+		fyne.NewMenuItem("Zoom out (−)", func() { u.view.TypedRune('-') }),
+		fyne.NewMenuItem("Guide lines (G)", func() { u.view.TypedRune('g') }),
+		fyne.NewMenuItem("Other annotators' boxes (O)", func() { u.others.SetChecked(!u.others.Checked) }),
 	)
 	data := fyne.NewMenu("Dataset",
 		fyne.NewMenuItem("Import labels…", u.askImport),
 		fyne.NewMenuItem("Export dataset…", u.askExport),
 	)
 	help := fyne.NewMenu("Help",
-		fyne.NewMenuItem("Keys and mouse", u.showKeys),
+		fyne.NewMenuItem("Keys and mouse (H)", u.showKeys),
 		fyne.NewMenuItem("Cautions", u.showCautions),
 		fyne.NewMenuItem("About Boxwright", u.showAbout),
 	)
-	return fyne.NewMainMenu(file, images, data, help)
-}
-
-// Keys of the main window; documented in showKeys and the README.
-func (u *ui) addShortcuts() {
-	c := u.win.Canvas()
-	ctrl := fyne.KeyModifierShortcutDefault
-	c.AddShortcut(&desktop.CustomShortcut{KeyName: fyne.KeyO, Modifier: ctrl}, func(fyne.Shortcut) { u.askOpen() })
-	c.AddShortcut(&desktop.CustomShortcut{KeyName: fyne.KeyN, Modifier: ctrl}, func(fyne.Shortcut) { u.askNew() })
-	c.AddShortcut(&desktop.CustomShortcut{KeyName: fyne.KeyI, Modifier: ctrl}, func(fyne.Shortcut) { u.askAddFolder() })
-	c.AddShortcut(&desktop.CustomShortcut{KeyName: fyne.KeyL, Modifier: ctrl}, func(fyne.Shortcut) { u.askImport() })
-	c.AddShortcut(&desktop.CustomShortcut{KeyName: fyne.KeyE, Modifier: ctrl}, func(fyne.Shortcut) { u.askExport() })
-	c.SetOnTypedKey(func(e *fyne.KeyEvent) {
-		switch e.Name {
-		case fyne.KeyPageDown, fyne.KeySpace:
-			u.step(1)
-		case fyne.KeyPageUp, fyne.KeyBackspace:
-			u.step(-1)
-		case fyne.KeyHome:
-			u.selectIndex(0)
-		case fyne.KeyEnd:
-			u.selectIndex(len(u.images) - 1)
-		case fyne.KeyF1:
-			u.showKeys()
-		}
-	})
+	return fyne.NewMainMenu(file, edit, images, view, data, help)
 }
 
 func (u *ui) welcome() fyne.CanvasObject {
@@ -159,37 +188,22 @@ func (u *ui) welcome() fyne.CanvasObject {
 }
 
 func (u *ui) projectScreen() fyne.CanvasObject {
-	left := container.NewBorder(u.summary, nil, nil, nil, u.list)
-	bar := container.NewHBox(widget.NewLabel("Show labels of"), u.who)
-	split := container.NewHSplit(left, container.NewBorder(bar, nil, nil, nil, u.view))
-	split.Offset = 0.24
-	return container.NewBorder(nil, u.status, nil, nil, split)
-}
-
-func (u *ui) newRow() fyne.CanvasObject {
-	name := widget.NewLabelWithStyle("harbour-000.jpg", fyne.TextAlignLeading, fyne.TextStyle{Bold: true})
-	name.Truncation = fyne.TextTruncateEllipsis
-	detail := widget.NewLabel("reviewed · 00 labels · 00 pending")
-	detail.Truncation = fyne.TextTruncateEllipsis
-	return container.New(layout.NewCustomPaddedVBoxLayout(-2*theme.Padding()), name, detail)
-}
-
-func (u *ui) updateRow(i widget.ListItemID, o fyne.CanvasObject) {
-	if i >= len(u.images) {
-		return
-	}
-	im := u.images[i]
-	box := o.(*fyne.Container)
-	box.Objects[0].(*widget.Label).SetText(filepath.Base(im.Path))
-	box.Objects[1].(*widget.Label).SetText(rowDetail(im, u.perImg[im.ID]))
-}
-
-func rowDetail(im project.Image, c project.ImageCounts) string {
-	s := fmt.Sprintf("%s · %s", im.Status, plural(c.Labels, "label"))
-	if c.Pending > 0 {
-		s += fmt.Sprintf(" · %d pending", c.Pending)
-	}
-	return s
+	left := container.NewBorder(container.NewVBox(u.summary, u.nav.filters()), nil, nil, nil, u.nav.list)
+	tools := container.NewHBox(u.undoBtn, u.redoBtn, widget.NewSeparator(),
+		widget.NewButtonWithIcon("Fit", theme.ZoomFitIcon(), u.view.FitToWindow),
+		widget.NewButton("1:1", func() { u.view.TypedRune('r') }),
+		widget.NewButtonWithIcon("", theme.ZoomInIcon(), func() { u.view.TypedRune('+') }),
+		widget.NewButtonWithIcon("", theme.ZoomOutIcon(), func() { u.view.TypedRune('-') }),
+		u.zoom, widget.NewSeparator(), u.guides, u.others, layout.NewSpacer(),
+		widget.NewButtonWithIcon("Done, next", theme.ConfirmIcon(), func() { u.markAndGo(project.StatusDone) }),
+		widget.NewButtonWithIcon("Keys", theme.HelpIcon(), u.showKeys))
+	centre := container.NewBorder(tools, nil, nil, nil, u.view)
+	inner := container.NewHSplit(centre, u.bar.Object())
+	inner.Offset = 0.8
+	split := container.NewHSplit(left, inner)
+	split.Offset = 0.2
+	bottom := container.NewBorder(nil, nil, nil, container.NewHBox(u.saved, u.retry), u.status)
+	return container.NewBorder(nil, bottom, nil, nil, split)
 }
 
 func plural(n int, word string) string {
@@ -206,13 +220,15 @@ func (u *ui) openProject(path string) error {
 		return err
 	}
 	u.closeProject()
-	u.st = s
-	u.win.SetTitle("Boxwright — " + filepath.Base(path))
+	u.st, u.path = s, path
+	u.me, u.sess, u.current = project.Annotator{}, nil, 0
 	if err := u.reload(); err != nil {
 		return err
 	}
 	u.body.Objects = []fyne.CanvasObject{u.projectScreen()}
 	u.body.Refresh()
+	u.chooseAnnotator()
+	u.updateTitle()
 	if len(u.images) > 0 {
 		u.selectIndex(0)
 	} else {
@@ -226,10 +242,26 @@ func (u *ui) closeProject() {
 	if u.cancelDecode != nil {
 		u.cancelDecode()
 	}
+	if u.sess != nil && u.sess.Unsaved() > 0 {
+		u.sess.Flush(context.Background()) // a last try; the error was shown already
+	}
 	if u.st != nil {
 		u.st.Close()
 		u.st = nil
 	}
+	u.cache.Clear()
+	u.selected, u.imageID = -1, 0
+}
+
+func (u *ui) updateTitle() {
+	t := "Boxwright"
+	if u.path != "" {
+		t += " — " + filepath.Base(u.path)
+	}
+	if u.me.ID != 0 {
+		t += " — labelling as " + u.me.Name
+	}
+	u.win.SetTitle(t)
 }
 
 // reload reads the image list, classes and counts again.
@@ -255,135 +287,68 @@ func (u *ui) reload() error {
 	if err != nil {
 		return err
 	}
-	u.images, u.perImg, u.annotators = ims, per, as
-	opts := []string{everyone}
-	for _, a := range as {
-		opts = append(opts, a.Name)
+	tal, err := u.st.LabelTallies(ctx)
+	if err != nil {
+		return err
 	}
-	u.who.SetOptions(opts)
-	if u.who.Selected == "" || !slices.Contains(opts, u.who.Selected) {
-		// One annotator at a time by default: several people's boxes on
-		// the same objects hide each other.
-		if len(as) > 0 {
-			u.who.SetSelected(as[0].Name)
-		} else {
-			u.who.SetSelected(everyone)
+	for id, c := range per {
+		c.Labels = 0 // counted again from the tallies, which edits keep up to date
+		per[id] = c
+	}
+	u.images, u.perImg, u.annotators, u.classes = ims, per, as, cs
+	u.classBy = map[int64]project.Class{}
+	for _, c := range cs {
+		u.classBy[c.ID] = c
+	}
+	if _, ok := u.classBy[u.current]; !ok {
+		u.current = 0
+		if len(cs) > 0 {
+			u.current = cs[0].ID // with no choice made, boxes get the first class
 		}
 	}
-	u.classes = map[int64]project.Class{}
-	for _, c := range cs {
-		u.classes[c.ID] = c
+	u.byClass, u.byAnnotator, u.classTotal = map[int64]map[int64]int{}, map[int64]map[int64]int{}, map[int64]int{}
+	for _, t := range tal {
+		u.tally(t.ImageID, t.ClassID, t.AnnotatorID, t.N)
 	}
 	var parts []string
 	for _, st := range project.ImageStatuses {
 		if n := counts.ImagesBy[st]; n > 0 {
-			parts = append(parts, fmt.Sprintf("%d %s", n, st))
+			parts = append(parts, fmt.Sprintf("%d %s", n, statusWord(st)))
 		}
 	}
 	u.summary.SetText(fmt.Sprintf("%s, %s, %d pending suggestions\n%s", plural(counts.Images, "image"), plural(counts.Labels, "label"),
 		counts.Suggestions[project.SuggestionPending], strings.Join(parts, " · ")))
-	u.list.Refresh()
+	u.nav.reload()
+	u.updateClassBar()
 	return nil
 }
 
-func (u *ui) step(d int) {
-	if u.selected < 0 {
-		u.selectIndex(0)
-		return
+// tally adds n labels of a class by an annotator on an image to the
+// counts behind the class bar, the filters and the image rows.
+func (u *ui) tally(imageID, classID, annotatorID int64, n int) {
+	if u.byClass[imageID] == nil {
+		u.byClass[imageID], u.byAnnotator[imageID] = map[int64]int{}, map[int64]int{}
 	}
-	u.selectIndex(u.selected + d)
+	u.byClass[imageID][classID] += n
+	u.byAnnotator[imageID][annotatorID] += n
+	u.classTotal[classID] += n
+	c := u.perImg[imageID]
+	c.Labels += n
+	if u.perImg == nil {
+		u.perImg = map[int64]project.ImageCounts{}
+	}
+	u.perImg[imageID] = c
 }
 
-func (u *ui) selectIndex(i int) {
-	if i < 0 || i >= len(u.images) {
-		return
+// statusWord is how the screen names an image status.
+func statusWord(s project.ImageStatus) string {
+	switch s {
+	case project.StatusNew:
+		return "not started"
+	case project.StatusStarted:
+		return "in progress"
 	}
-	u.list.Select(i) // calls showImage through OnSelected
-	u.list.ScrollTo(i)
-}
-
-// showImage decodes the i-th image in the background and then shows it
-// with its labels.
-func (u *ui) showImage(i int) {
-	if i < 0 || i >= len(u.images) || u.st == nil {
-		return
-	}
-	u.selected = i
-	im := u.images[i]
-	if u.cancelDecode != nil {
-		u.cancelDecode()
-	}
-	ctx, cancel := context.WithCancel(context.Background())
-	u.cancelDecode = cancel
-	u.view.SetMessage("Loading " + filepath.Base(im.Path) + "…")
-	path := u.st.ImagePath(im)
-	go func() {
-		img, _, err := imagefile.Decode(path, imagefile.DefaultMaxPixels)
-		var shown image.Image
-		if err == nil {
-			shown = imagefile.Thumbnail(img, displayMaxSide)
-		}
-		fyne.Do(func() {
-			if ctx.Err() != nil {
-				return // the user moved on
-			}
-			if err != nil {
-				u.status.SetText(fmt.Sprintf("%s — %d×%d px, %s", im.Path, im.Width, im.Height, im.Status))
-				if errors.Is(err, fs.ErrNotExist) {
-					u.view.SetMessage(fmt.Sprintf("Cannot show this image: %s is missing. Project ▸ Find moved images… looks for it.", filepath.Base(im.Path)))
-				} else {
-					u.view.SetMessage(fmt.Sprintf("Cannot show this image: %v", err))
-				}
-			} else {
-				u.view.SetImage(shown, im.Width, im.Height)
-				u.showLabels()
-			}
-			if u.decoded != nil {
-				u.decoded(im.ID, err)
-			}
-		})
-	}()
-}
-
-// everyone is the choice that shows all annotators' labels at once.
-const everyone = "everyone"
-
-// showLabels draws the selected image's labels of the chosen annotator
-// and updates the status line.
-func (u *ui) showLabels() {
-	if u.st == nil || u.selected < 0 || u.selected >= len(u.images) {
-		return
-	}
-	im := u.images[u.selected]
-	f := project.LabelFilter{ImageID: im.ID}
-	names := map[int64]string{}
-	for _, a := range u.annotators {
-		names[a.ID] = a.Name
-		if a.Name == u.who.Selected {
-			f.AnnotatorID = a.ID
-		}
-	}
-	labels, err := u.st.Labels(context.Background(), f)
-	if err != nil {
-		u.showError(err)
-		return
-	}
-	overlays := make([]canvas.Overlay, 0, len(labels))
-	for _, l := range labels {
-		c := u.classes[l.ClassID]
-		caption := c.Name
-		if f.AnnotatorID == 0 {
-			caption += " · " + names[l.AnnotatorID]
-		}
-		overlays = append(overlays, canvas.Overlay{Box: l.Box, Color: c.Color, Caption: caption})
-	}
-	u.view.SetOverlays(overlays)
-	whose := "everyone's"
-	if f.AnnotatorID != 0 {
-		whose = u.who.Selected + "'s"
-	}
-	u.status.SetText(fmt.Sprintf("%s — %d×%d px, orientation %d, %s — showing %s %s",
-		im.Path, im.Width, im.Height, im.Orientation, im.Status, whose, plural(len(labels), "label")))
+	return string(s)
 }
 
 // reportMissing offers to look for moved image files by their content.
@@ -585,10 +550,6 @@ func (u *ui) runJob(title string, work func(ctx context.Context, progress func(f
 	}()
 }
 
-func (u *ui) showKeys() {
-	dialog.ShowInformation("Keys and mouse", keysHelp, u.win)
-}
-
 func (u *ui) showCautions() {
 	dialog.ShowInformation("Cautions", cautionLong, u.win)
 }
@@ -596,17 +557,6 @@ func (u *ui) showCautions() {
 func (u *ui) showAbout() {
 	dialog.ShowInformation("About Boxwright", "Boxwright — a workbench for bounding-box datasets.\nProjects are single SQLite files (.boxw); everything runs offline.", u.win)
 }
-
-const keysHelp = `Ctrl+O  open a project
-Ctrl+N  new project
-Ctrl+I  add an image folder
-Ctrl+L  import labels (corner/size JSON, per-image XML, centre-normalised text)
-Ctrl+E  export a dataset with a train/val/test split
-Page Down or Space  next image
-Page Up or Backspace  previous image
-Home / End  first / last image
-Up / Down in the list  move through images
-F1  this help`
 
 const cautionShort = "Images of people or vehicles can hold personal data (faces, number plates). Follow your organisation's rules and local law when storing and sharing them."
 

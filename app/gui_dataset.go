@@ -127,7 +127,8 @@ func (u *ui) askImport() {
 			if err := u.reload(); err != nil {
 				u.showError(err)
 			}
-			u.showLabels()
+			u.loadOthers()
+			u.refreshBoxes()
 			msg := fmt.Sprintf("Imported %s on %s for %s; clipped %d boxes to their image.", plural(res.Labels, "label"), plural(res.Images, "image"), res.Annotator, res.Clipped)
 			if len(res.ClassesCreated) > 0 {
 				msg += "\nNew classes: " + strings.Join(res.ClassesCreated, ", ")

@@ -12,6 +12,7 @@ import (
 	"fyne.io/fyne/v2/widget"
 
 	"boxwright/assets/demo"
+	"boxwright/canvas"
 	"boxwright/project"
 	"boxwright/store"
 )
@@ -66,9 +67,9 @@ func TestWindowShowsProjectImagesAndLabels(t *testing.T) {
 	wantAll := labelsOf(t, path, 1, "")
 	wantSecondInes := labelsOf(t, path, 1, "Ines")
 
-	a := test.NewApp()
-	defer a.Quit()
+	a := test.NewTempApp(t)
 	u := newUI(a)
+	u.annotatorFlag = "Ines"
 	decoded := make(chan error, 10)
 	u.decoded = func(_ int64, err error) { decoded <- err }
 	u.win.Resize(fyne.NewSize(1000, 700))
@@ -78,41 +79,50 @@ func TestWindowShowsProjectImagesAndLabels(t *testing.T) {
 	defer u.closeProject()
 	waitDecoded(t, decoded)
 
-	if n := u.list.Length(); n != 3 {
+	if n := u.nav.list.Length(); n != 3 {
 		t.Errorf("image list has %d rows, want 3", n)
 	}
-	if !strings.Contains(u.win.Title(), demoProjectName) {
-		t.Errorf("title %q does not name the project", u.win.Title())
+	if !strings.Contains(u.win.Title(), demoProjectName) || !strings.Contains(u.win.Title(), "Ines") {
+		t.Errorf("title %q does not name the project and the annotator", u.win.Title())
 	}
-	if u.who.Selected != "Ines" {
-		t.Errorf("labels shown by default: %q, want the first annotator", u.who.Selected)
-	}
-	if got := len(u.view.Overlays()); got != wantFirst || got == 0 {
-		t.Errorf("first image shows %d boxes, want Ines's %d", got, wantFirst)
+	if got := editable(u.view.Items()); got != wantFirst || got == 0 {
+		t.Errorf("first image shows %d editable boxes, want Ines's %d", got, wantFirst)
 	}
 	if !strings.Contains(u.summary.Text, "3 images") {
 		t.Errorf("summary %q", u.summary.Text)
 	}
 
-	// Next image from the keyboard, then everyone's labels.
+	// Next image from the keyboard; the others' boxes are a read-only layer.
 	u.win.Canvas().OnTypedKey()(&fyne.KeyEvent{Name: fyne.KeyPageDown})
 	waitDecoded(t, decoded)
 	if u.selected != 1 {
 		t.Fatalf("Page Down selected image %d, want 1", u.selected)
 	}
-	if got := len(u.view.Overlays()); got != wantSecondInes {
-		t.Errorf("second image shows %d boxes, want %d", got, wantSecondInes)
+	items := u.view.Items()
+	if got := editable(items); got != wantSecondInes {
+		t.Errorf("second image shows %d editable boxes, want %d", got, wantSecondInes)
 	}
-	u.who.SetSelected(everyone)
-	if got := len(u.view.Overlays()); got != wantAll {
-		t.Errorf("everyone's labels: %d boxes, want %d", got, wantAll)
+	if len(items) != wantAll {
+		t.Errorf("second image shows %d boxes in all, want %d", len(items), wantAll)
 	}
-	if ov := u.view.Overlays(); len(ov) > 0 && !strings.Contains(ov[0].Caption, " · ") {
-		t.Errorf("caption %q should name the annotator when everyone is shown", ov[0].Caption)
+	for _, it := range items {
+		if it.ReadOnly && !strings.Contains(it.Caption, " · Tomas") {
+			t.Errorf("read-only caption %q should name the other annotator", it.Caption)
+		}
 	}
 	if !strings.Contains(u.status.Text, "640×480") {
 		t.Errorf("status line %q", u.status.Text)
 	}
+}
+
+func editable(items []canvas.Item) int {
+	n := 0
+	for _, it := range items {
+		if !it.ReadOnly {
+			n++
+		}
+	}
+	return n
 }
 
 func TestWindowReportsUnreadableImage(t *testing.T) {
@@ -122,9 +132,9 @@ func TestWindowReportsUnreadableImage(t *testing.T) {
 	s.RelinkImage(context.Background(), ims[0].ID, "images/gone.jpg")
 	s.Close()
 
-	a := test.NewApp()
-	defer a.Quit()
+	a := test.NewTempApp(t)
 	u := newUI(a)
+	u.annotatorFlag = "Ines"
 	decoded := make(chan error, 10)
 	u.decoded = func(_ int64, err error) { decoded <- err }
 	if err := u.openProject(path); err != nil {

@@ -18,7 +18,7 @@ func main() {
 // run dispatches a command line and returns the exit status.
 func run(args []string, stdout, stderr io.Writer) int {
 	if len(args) == 0 {
-		return runGUI("", stderr)
+		return runGUI("", "", stderr)
 	}
 	cmd, ok := commands[args[0]]
 	if !ok {
@@ -44,7 +44,7 @@ const usage = `Usage: boxwright [COMMAND [ARGS]]
 With no command, opens the window.
 
 Commands:
-  open PROJECT.boxw                     open a project in the window
+  open PROJECT.boxw [--annotator NAME]  open a project in the window
   new PROJECT.boxw                      create an empty project (never overwrites)
   add-images PROJECT.boxw PATH...       add image files and folders (recursive)
         [--max-megapixels N] [--json]

@@ -46,3 +46,64 @@ func (t Transform) BoxToScreen(b project.Box) project.Box {
 	x1, y1 := t.ToScreen(b.X1, b.Y1)
 	return project.Box{X0: x0, Y0: y0, X1: x1, Y1: y1}
 }
+
+// Zoom limits of the view: 5 % to 3200 %.
+const (
+	MinScale = 0.05
+	MaxScale = 32.0
+)
+
+// ClampScale limits s to [MinScale, MaxScale].
+func ClampScale(s float64) float64 { return math.Min(MaxScale, math.Max(MinScale, s)) }
+
+// ZoomAt multiplies the scale by factor (clamped to the zoom limits) and
+// keeps the image point under the screen point (sx, sy) where it is, so a
+// wheel turn zooms around the pointer.
+func (t Transform) ZoomAt(factor, sx, sy float64) Transform {
+	return t.ScaleAt(t.Scale*factor, sx, sy)
+}
+
+// ScaleAt sets the scale (clamped) and keeps the image point under the
+// screen point (sx, sy) fixed.
+func (t Transform) ScaleAt(scale, sx, sy float64) Transform {
+	if t.Scale == 0 {
+		return t
+	}
+	x, y := t.ToImage(sx, sy)
+	s := ClampScale(scale)
+	return Transform{Scale: s, OffsetX: sx - x*s, OffsetY: sy - y*s}
+}
+
+// Pan moves the image by (dx, dy) screen units.
+func (t Transform) Pan(dx, dy float64) Transform {
+	t.OffsetX += dx
+	t.OffsetY += dy
+	return t
+}
+
+// Keep limits panning so the image cannot be lost: along an axis where it
+// is smaller than the view it is centred, otherwise it covers the view
+// (no empty margin on one side while image is hidden on the other).
+func (t Transform) Keep(imgW, imgH, viewW, viewH float64) Transform {
+	t.OffsetX = keepAxis(t.OffsetX, imgW*t.Scale, viewW)
+	t.OffsetY = keepAxis(t.OffsetY, imgH*t.Scale, viewH)
+	return t
+}
+
+func keepAxis(off, size, view float64) float64 {
+	if size <= view {
+		return (view - size) / 2
+	}
+	return math.Min(0, math.Max(view-size, off))
+}
+
+// Visible is the part of an imgW×imgH image that a viewW×viewH view
+// shows, in image coordinates; it is empty when none is.
+func (t Transform) Visible(imgW, imgH, viewW, viewH float64) project.Box {
+	if t.Scale == 0 {
+		return project.Box{}
+	}
+	x0, y0 := t.ToImage(0, 0)
+	x1, y1 := t.ToImage(viewW, viewH)
+	return project.Box{X0: x0, Y0: y0, X1: x1, Y1: y1}.Intersect(project.Box{X1: imgW, Y1: imgH})
+}

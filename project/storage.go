@@ -127,3 +127,20 @@ type Store interface {
 	Dir() string
 	Close() error
 }
+
+// LabelChange is one edit of labels that must happen as a whole: a
+// person's drag, nudge, deletion or bulk change, or the undoing of one.
+type LabelChange struct {
+	Delete []int64 // labels to remove
+	Update []Label // labels whose box or class change (by ID)
+	Insert []Label // new labels (ID ignored)
+}
+
+// Empty says whether the change does nothing.
+func (c LabelChange) Empty() bool { return len(c.Delete)+len(c.Update)+len(c.Insert) == 0 }
+
+// LabelTally counts the labels of one class by one annotator on one image.
+type LabelTally struct {
+	ImageID, ClassID, AnnotatorID int64
+	N                             int
+}

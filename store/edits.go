@@ -1,0 +1,80 @@
+package store
+
+import (
+	"context"
+	"database/sql"
+	"fmt"
+
+	"boxwright/project"
+)
+
+// ApplyLabelChange makes a person's edit in one transaction: all of it or
+// none. It returns the IDs of the inserted labels in order. An image that
+// gets its first label moves from "new" to "started".
+func (s *Store) ApplyLabelChange(ctx context.Context, c project.LabelChange) ([]int64, error) {
+	var ids []int64
+	err := s.tx(ctx, func(tx *sql.Tx) error {
+		ids = ids[:0]
+		for _, id := range c.Delete {
+			res, err := tx.ExecContext(ctx, "DELETE FROM labels WHERE id = ?", id)
+			if err != nil {
+				return fmt.Errorf("delete label %d: %w", id, translate(err))
+			}
+			if n, _ := res.RowsAffected(); n == 0 {
+				return fmt.Errorf("delete label %d: %w", id, project.ErrNotFound)
+			}
+		}
+		now := formatTime(s.now())
+		for _, l := range c.Update {
+			if err := checkBox(l.Box); err != nil {
+				return fmt.Errorf("update label %d: %w", l.ID, err)
+			}
+			res, err := tx.ExecContext(ctx, "UPDATE labels SET class_id = ?, x0 = ?, y0 = ?, x1 = ?, y1 = ?, updated_at = ? WHERE id = ?",
+				l.ClassID, l.Box.X0, l.Box.Y0, l.Box.X1, l.Box.Y1, now, l.ID)
+			if err != nil {
+				return fmt.Errorf("update label %d: %w", l.ID, translate(err))
+			}
+			if n, _ := res.RowsAffected(); n == 0 {
+				return fmt.Errorf("update label %d: %w", l.ID, project.ErrNotFound)
+			}
+		}
+		started := map[int64]bool{}
+		for _, l := range c.Insert {
+			out, err := s.insertLabel(ctx, tx, l)
+			if err != nil {
+				return err
+			}
+			ids = append(ids, out.ID)
+			if !started[l.ImageID] {
+				started[l.ImageID] = true
+				if _, err := tx.ExecContext(ctx, "UPDATE images SET status = 'started' WHERE id = ? AND status = 'new'", l.ImageID); err != nil {
+					return fmt.Errorf("mark image %d started: %w", l.ImageID, translate(err))
+				}
+			}
+		}
+		return nil
+	})
+	if err != nil {
+		return nil, err
+	}
+	return ids, nil
+}
+
+// LabelTallies counts labels by image, class and annotator: the figures
+// behind the class bar and the image filters.
+func (s *Store) LabelTallies(ctx context.Context) ([]project.LabelTally, error) {
+	rows, err := s.db.QueryContext(ctx, "SELECT image_id, class_id, annotator_id, count(*) FROM labels GROUP BY image_id, class_id, annotator_id")
+	if err != nil {
+		return nil, fmt.Errorf("count labels: %w", translate(err))
+	}
+	defer rows.Close()
+	var out []project.LabelTally
+	for rows.Next() {
+		var t project.LabelTally
+		if err := rows.Scan(&t.ImageID, &t.ClassID, &t.AnnotatorID, &t.N); err != nil {
+			return nil, fmt.Errorf("count labels: %w", err)
+		}
+		out = append(out, t)
+	}
+	return out, rows.Err()
+}

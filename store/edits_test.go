@@ -1,0 +1,52 @@
+package store
+
+import (
+	"errors"
+	"testing"
+
+	"boxwright/project"
+)
+
+func TestApplyLabelChangeIsAllOrNothing(t *testing.T) {
+	s := newStore(t)
+	im := addImage(t, s, 0)
+	c, _ := s.AddClass(bg, project.Class{Name: "buoy"})
+	a, _ := s.AddAnnotator(bg, "ana")
+	l := project.Label{ImageID: im.ID, ClassID: c.ID, AnnotatorID: a.ID, Box: project.Rect(1, 2, 30, 40)}
+
+	ids, err := s.ApplyLabelChange(bg, project.LabelChange{Insert: []project.Label{l, l}})
+	if err != nil || len(ids) != 2 {
+		t.Fatalf("insert: %v %v", ids, err)
+	}
+	if got, _ := s.Image(bg, im.ID); got.Status != project.StatusStarted {
+		t.Errorf("first label should start the image, status %s", got.Status)
+	}
+	// A change naming a missing label rolls back entirely.
+	moved := l
+	moved.ID, moved.Box = ids[0], project.Rect(5, 5, 50, 50)
+	_, err = s.ApplyLabelChange(bg, project.LabelChange{Update: []project.Label{moved}, Delete: []int64{ids[1], 999}})
+	if !errors.Is(err, project.ErrNotFound) {
+		t.Fatalf("want ErrNotFound, got %v", err)
+	}
+	all, _ := s.Labels(bg, project.LabelFilter{ImageID: im.ID})
+	if len(all) != 2 || all[0].Box != l.Box {
+		t.Fatalf("failed change left traces: %+v", all)
+	}
+	// An invalid box is refused before anything changes.
+	bad := moved
+	bad.Box = project.Box{X0: 5, Y0: 5, X1: 5, Y1: 9}
+	if _, err := s.ApplyLabelChange(bg, project.LabelChange{Update: []project.Label{bad}}); !errors.Is(err, project.ErrInvalid) {
+		t.Fatalf("want ErrInvalid, got %v", err)
+	}
+	if _, err := s.ApplyLabelChange(bg, project.LabelChange{Update: []project.Label{moved}, Delete: []int64{ids[1]}}); err != nil {
+		t.Fatal(err)
+	}
+	all, _ = s.Labels(bg, project.LabelFilter{ImageID: im.ID})
+	if len(all) != 1 || all[0].Box != moved.Box {
+		t.Fatalf("after change: %+v", all)
+	}
+	tal, err := s.LabelTallies(bg)
+	if err != nil || len(tal) != 1 || tal[0] != (project.LabelTally{ImageID: im.ID, ClassID: c.ID, AnnotatorID: a.ID, N: 1}) {
+		t.Fatalf("tallies %+v %v", tal, err)
+	}
+}
