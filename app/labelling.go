@@ -41,6 +41,12 @@ func (u *ui) wireView() {
 		}
 		u.updateStatus()
 	}
+	v.OnView = func() {
+		u.zoom.SetText(fmt.Sprintf("%.0f %%", 100*v.Transform().Scale))
+		if u.guides.Checked != v.Guides() {
+			u.guides.SetChecked(v.Guides())
+		}
+	}
 	v.OnKey = u.typedKey
 	v.OnRune = u.typedRune
 }
@@ -80,8 +86,10 @@ func (u *ui) addShortcuts() {
 			}
 		})
 	}
-	c.SetOnTypedKey(u.typedKey)
-	c.SetOnTypedRune(u.typedRune)
+	// With nothing focused the view gets the keys: it handles its own and
+	// hands the rest back to typedKey and typedRune.
+	c.SetOnTypedKey(u.view.TypedKey)
+	c.SetOnTypedRune(u.view.TypedRune)
 }
 
 // typedKey handles the keys the view leaves to the window.
@@ -127,9 +135,6 @@ func (u *ui) typedRune(r rune) {
 		u.view.TypedRune('g')
 	case r == 'h' || r == '?':
 		u.showKeys()
-	}
-	if u.guides.Checked != u.view.Guides() {
-		u.guides.SetChecked(u.view.Guides())
 	}
 }
 

@@ -59,6 +59,7 @@ func newNavigator(u *ui) *navigator {
 		if row >= 0 && row < len(n.shown) && n.shown[row] != u.selected {
 			u.showImage(n.shown[row])
 		}
+		u.win.Canvas().Focus(u.view) // keys label the image, not scroll the list
 	}
 	pick := func(string) {
 		if !n.quiet {

@@ -45,6 +45,8 @@ type View struct {
 	// OnKey and OnRune receive the keys the view does not use itself.
 	OnKey  func(*fyne.KeyEvent)
 	OnRune func(rune)
+	// OnView reports a change of zoom, pan or guides.
+	OnView func()
 
 	// Limits sets the minimum box side and pixel snapping; W and H are
 	// taken from the image.
@@ -153,7 +155,17 @@ func (v *View) Select(key int64) {
 }
 
 // SetGuides shows or hides the guide lines that follow the pointer.
-func (v *View) SetGuides(on bool) { v.guides = on; v.Refresh() }
+func (v *View) SetGuides(on bool) {
+	v.guides = on
+	v.Refresh()
+	v.viewChanged()
+}
+
+func (v *View) viewChanged() {
+	if v.OnView != nil {
+		v.OnView()
+	}
+}
 
 // Guides says whether guide lines are shown.
 func (v *View) Guides() bool { return v.guides }
@@ -185,6 +197,7 @@ func (v *View) SetTransform(t Transform) {
 	v.t, v.fit = t.Keep(v.w, v.h, float64(s.Width), float64(s.Height)), false
 	v.mu.Unlock()
 	v.Refresh()
+	v.viewChanged()
 }
 
 // FitToWindow shows the whole image, and keeps doing so when the window
@@ -195,6 +208,7 @@ func (v *View) FitToWindow() {
 	v.mu.Unlock()
 	v.refit()
 	v.Refresh()
+	v.viewChanged()
 }
 
 // ZoomBy zooms by factor around the screen point (sx, sy).
@@ -914,7 +928,9 @@ func (r *viewRenderer) Layout(size fyne.Size) {
 		ts := c.text.MinSize()
 		pad := float32(3)
 		tagY := float32(s.Y0) - ts.Height
-		if tagY < 0 {
+		if it.ReadOnly {
+			tagY = float32(s.Y1) // below the box, clear of the editable layer's tag
+		} else if tagY < 0 {
 			tagY = float32(s.Y0) // no room above: put the tag inside the box
 		}
 		c.tag.Move(fyne.NewPos(float32(s.X0), tagY))
