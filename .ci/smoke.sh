@@ -1,7 +1,8 @@
 #!/usr/bin/env bash
-# Smoke test of the real binary: make the demo project, open it in a window
-# under Xvfb, take a screenshot and check that the window really rendered
-# (many colours, not a blank or single-colour image).
+# Smoke test of the real binary: make the demo project, open its labelling
+# screen in a window under Xvfb, take a screenshot and check that the window
+# really rendered (many colours, not a blank or single-colour image), then
+# draw a box with the mouse and check that it reached the project file.
 #   .ci/smoke.sh BINARY [SCREENSHOT.png]
 set -euo pipefail
 bin=$(realpath "$1")
@@ -15,7 +16,7 @@ trap 'rm -rf "$work"' EXIT
 
 cat >"$work/inside.sh" <<'INSIDE'
 set -u
-"$BIN" open "$PROJECT" >"$LOG" 2>&1 &
+"$BIN" open "$PROJECT" --annotator smoke >"$LOG" 2>&1 &
 pid=$!
 wid=$(timeout 60 xdotool search --sync --name 'Boxwright' | head -1)
 [ -n "$wid" ] || { echo "no window appeared"; kill $pid; exit 1; }
@@ -25,6 +26,13 @@ for _ in $(seq 80); do  # wait until the image has been decoded and drawn
   import -window "$wid" "$SHOT" 2>/dev/null || continue
   [ "$(identify -format '%k' "$SHOT")" -gt 2000 ] && { ok=0; break; }
 done
+# Draw a box in the middle of the image area: press, move in steps, release.
+if [ $ok -eq 0 ]; then
+  xdotool mousemove --window "$wid" 560 330 mousedown 1
+  for i in 1 2 3 4 5 6 7 8; do xdotool mousemove --window "$wid" $((560 + 12 * i)) $((330 + 9 * i)); sleep 0.05; done
+  xdotool mouseup 1
+  sleep 1
+fi
 kill -TERM $pid; wait $pid  # let it close the project file cleanly
 exit $ok
 INSIDE
@@ -34,8 +42,12 @@ BIN=$bin PROJECT="$work/demo/harbour.boxw" SHOT=$shot LOG="$work/app.log" \
 if [ $status -ne 0 ]; then
   echo "smoke: the window did not render the demo project"; cat "$work/app.log"; exit 1
 fi
+drawn=$(/usr/bin/python3 -c 'import sqlite3,sys; c=sqlite3.connect(sys.argv[1]); print(c.execute("select count(*) from labels l join annotators a on a.id=l.annotator_id where a.name=? and l.origin=?", ("smoke","drawn")).fetchone()[0])' "$work/demo/harbour.boxw")
+if [ "$drawn" != 1 ]; then
+  echo "smoke: a box drawn with the mouse was not saved ($drawn boxes by the smoke annotator)"; cat "$work/app.log"; exit 1
+fi
 colours=$(identify -format '%wx%h, %k colours' "$shot")
-echo "smoke: window rendered ($colours) -> $shot"
+echo "smoke: window rendered ($colours), a drawn box was saved -> $shot"
 if grep -qi 'error' "$work/app.log"; then
   echo "smoke: the program logged errors:"; cat "$work/app.log"; exit 1
 fi
