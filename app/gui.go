@@ -229,6 +229,7 @@ func (u *ui) openProject(path string) error {
 	u.body.Refresh()
 	u.chooseAnnotator()
 	u.updateTitle()
+	u.updateUndo()
 	if len(u.images) > 0 {
 		u.selectIndex(0)
 	} else {

@@ -196,7 +196,11 @@ func (u *ui) setAnnotator(name string) error {
 	return nil
 }
 
-func (u *ui) askAnnotator() {
+func (u *ui) askAnnotator() { u.askAnnotatorThen(nil) }
+
+// askAnnotatorThen asks who is labelling and runs then (if not nil) once
+// a name is set, so a box drawn before the answer is not lost.
+func (u *ui) askAnnotatorThen(then func()) {
 	if u.st == nil {
 		return
 	}
@@ -216,6 +220,10 @@ func (u *ui) askAnnotator() {
 		}
 		if err := u.setAnnotator(entry.Text); err != nil {
 			u.showError(err)
+			return
+		}
+		if then != nil {
+			then()
 		}
 	}, u.win)
 	d.Resize(fyne.NewSize(460, 260))
@@ -437,7 +445,13 @@ func (u *ui) refreshBoxes() {
 }
 
 func (u *ui) createBox(b project.Box) {
-	if !u.needAnnotator() {
+	if u.sess == nil {
+		img := u.imageID
+		u.askAnnotatorThen(func() {
+			if u.imageID == img {
+				u.createBox(b)
+			}
+		})
 		return
 	}
 	if u.current == 0 {
