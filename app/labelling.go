@@ -192,6 +192,7 @@ func (u *ui) setAnnotator(name string) error {
 	}
 	u.updateTitle()
 	u.updateUndo()
+	u.loadOthers()
 	u.refreshBoxes()
 	return nil
 }
@@ -395,6 +396,9 @@ func (u *ui) prefetchAround(i int) {
 // loadOthers reads the other annotators' boxes on the image on screen.
 func (u *ui) loadOthers() {
 	u.other = nil
+	if u.st == nil || u.imageID == 0 {
+		return
+	}
 	ls, err := u.st.Labels(context.Background(), project.LabelFilter{ImageID: u.imageID})
 	if err != nil {
 		u.showError(err)
