@@ -157,6 +157,7 @@ func (u *ui) menu() *fyne.MainMenu {
 		fyne.NewMenuItem("Zoom in (+)", func() { u.view.TypedRune('+') }),
 		fyne.NewMenuItem("Zoom out (−)", func() { u.view.TypedRune('-') }),
 		fyne.NewMenuItem("Guide lines (G)", func() { u.view.TypedRune('g') }),
+		fyne.NewMenuItem("Class-name tags (T)", func() { u.view.TypedRune('t') }),
 		fyne.NewMenuItem("Other annotators' boxes (O)", func() { u.others.SetChecked(!u.others.Checked) }),
 	)
 	data := fyne.NewMenu("Dataset",

@@ -739,6 +739,7 @@ VIEW
   right-button drag, or Space held with a left drag   pan
   arrows with nothing selected   pan
   G                         guide lines through the pointer
+  T                         show or hide the class-name tags (crowded images)
   O                         show or hide other annotators' boxes (dashed)
 
 IMAGES

@@ -63,6 +63,7 @@ type View struct {
 	message   string
 	guides    bool
 	showOther bool
+	noNames   bool // class-name tags hidden to see crowded images
 
 	ptr     fyne.Position
 	ptrIn   bool
@@ -166,6 +167,16 @@ func (v *View) viewChanged() {
 		v.OnView()
 	}
 }
+
+// SetNames shows or hides the class-name tags of the boxes.
+func (v *View) SetNames(on bool) {
+	v.noNames = !on
+	v.Refresh()
+	v.viewChanged()
+}
+
+// Names says whether class-name tags are shown.
+func (v *View) Names() bool { return !v.noNames }
 
 // Guides says whether guide lines are shown.
 func (v *View) Guides() bool { return v.guides }
@@ -666,7 +677,8 @@ func (v *View) TypedKey(ev *fyne.KeyEvent) {
 }
 
 // TypedRune is part of fyne.Focusable: + and - zoom, f fits, r shows
-// actual pixels, g toggles guides, c cycles boxes under the pointer;
+// actual pixels, g toggles guides, t the name tags, c cycles boxes under
+// the pointer;
 // other characters go to OnRune.
 func (v *View) TypedRune(r rune) {
 	cx, cy := v.zoomCentre()
@@ -681,6 +693,8 @@ func (v *View) TypedRune(r rune) {
 		v.ActualPixels(cx, cy)
 	case 'g':
 		v.SetGuides(!v.guides)
+	case 't':
+		v.SetNames(v.noNames)
 	case 'c':
 		v.CycleUnderPointer()
 	case ' ':
@@ -854,7 +868,7 @@ func (r *viewRenderer) rebuild() {
 		area float64
 	}
 	var want []capItem
-	if shown {
+	if shown && !v.noNames {
 		for _, it := range v.items {
 			if it.Caption == "" || (it.ReadOnly && !v.showOther) {
 				continue
