@@ -493,13 +493,11 @@ func (v *View) MouseDown(ev *desktop.MouseEvent) {
 	v.begin(ev.Position, ev.Button == desktop.MouseButtonSecondary)
 }
 
-// MouseUp is part of desktop.Mouseable.
+// MouseUp is part of desktop.Mouseable. The desktop driver calls it
+// before DragEnd, so a primary-button drag is finished there; a secondary
+// button (pan) gets no DragEnd and ends here.
 func (v *View) MouseUp(ev *desktop.MouseEvent) {
-	if v.gesture.kind == gesturePan && !v.gesture.dragged {
-		v.gesture = gesture{}
-		return
-	}
-	if !v.gesture.dragged {
+	if ev.Button == desktop.MouseButtonSecondary || !v.gesture.dragged {
 		v.gesture = gesture{}
 	}
 }
@@ -522,7 +520,7 @@ func (v *View) Scrolled(ev *fyne.ScrollEvent) {
 	if d == 0 {
 		return
 	}
-	v.ZoomBy(math.Pow(1.25, d/10), float64(ev.Position.X), float64(ev.Position.Y))
+	v.ZoomBy(math.Pow(1.25, d/25), float64(ev.Position.X), float64(ev.Position.Y)) // the desktop driver sends 25 per wheel notch
 }
 
 // MouseIn is part of desktop.Hoverable.
