@@ -397,6 +397,7 @@ const handleRadius = 6
 
 func (v *View) begin(pos fyne.Position, secondary bool) {
 	v.gesture = gesture{pressed: true, start: pos}
+	v.ptr = pos
 	if v.w == 0 {
 		return
 	}
