@@ -117,7 +117,24 @@ func newUI(a fyne.App) *ui {
 	u.win.SetMainMenu(u.menu())
 	u.win.Resize(fyne.NewSize(1280, 820))
 	u.addShortcuts()
+	u.win.SetCloseIntercept(u.askClose)
 	return u
+}
+
+// askClose closes the window, unless edits could not be written: then it
+// tries once more and asks before dropping them.
+func (u *ui) askClose() {
+	if u.sess == nil || u.sess.Unsaved() == 0 || u.sess.Flush(context.Background()) == nil {
+		u.win.Close()
+		return
+	}
+	dialog.ShowConfirm("Edits not saved",
+		fmt.Sprintf("%s could not be written to the project file (%v).\n\nClose anyway and lose them?", plural(u.sess.Unsaved(), "edit"), u.sess.lastErr),
+		func(lose bool) {
+			if lose {
+				u.win.Close()
+			}
+		}, u.win)
 }
 
 func (u *ui) menu() *fyne.MainMenu {
