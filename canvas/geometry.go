@@ -150,9 +150,11 @@ func (bd Bounds) Span(ax, ay, bx, by float64) (b project.Box, ok bool) {
 // Move shifts b by (dx, dy) image pixels, stopping at the image edges so
 // the box keeps its size.
 func (bd Bounds) Move(b project.Box, dx, dy float64) project.Box {
-	w, h := b.Width(), b.Height()
-	x0 := bd.snap(clampF(b.X0+dx, 0, math.Max(0, bd.W-w)))
-	y0 := bd.snap(clampF(b.Y0+dy, 0, math.Max(0, bd.H-h)))
+	w, h := math.Min(b.Width(), bd.W), math.Min(b.Height(), bd.H)
+	// Snap first, clamp last: a box of fractional size snapped at the far
+	// edge must not poke past it.
+	x0 := clampF(bd.snap(b.X0+dx), 0, math.Max(0, bd.W-w))
+	y0 := clampF(bd.snap(b.Y0+dy), 0, math.Max(0, bd.H-h))
 	return project.Box{X0: x0, Y0: y0, X1: x0 + w, Y1: y0 + h}
 }
 
