@@ -164,17 +164,18 @@ func (bd Bounds) Move(b project.Box, dx, dy float64) project.Box {
 func (bd Bounds) Resize(b project.Box, h Handle, dx, dy float64) project.Box {
 	min := math.Max(bd.MinSide, 0)
 	ex, ey := h.edges()
+	// Snap first, clamp last, as in Move: the limits always hold.
 	switch ex {
 	case -1:
-		b.X0 = bd.snap(clampF(b.X0+dx, 0, b.X1-min))
+		b.X0 = clampF(bd.snap(b.X0+dx), 0, b.X1-min)
 	case 1:
-		b.X1 = bd.snap(clampF(b.X1+dx, b.X0+min, bd.W))
+		b.X1 = clampF(bd.snap(b.X1+dx), b.X0+min, bd.W)
 	}
 	switch ey {
 	case -1:
-		b.Y0 = bd.snap(clampF(b.Y0+dy, 0, b.Y1-min))
+		b.Y0 = clampF(bd.snap(b.Y0+dy), 0, b.Y1-min)
 	case 1:
-		b.Y1 = bd.snap(clampF(b.Y1+dy, b.Y0+min, bd.H))
+		b.Y1 = clampF(bd.snap(b.Y1+dy), b.Y0+min, bd.H)
 	}
 	return b
 }
