@@ -18,18 +18,32 @@ func fillRGBA(dst *image.RGBA, c color.RGBA) {
 	}
 }
 
-// blend paints c over the pixel at (x, y) of dst with c's alpha.
-func blend(dst *image.RGBA, x, y int, c color.NRGBA) {
-	if !(image.Point{x, y}.In(dst.Rect)) {
+// paintSpan paints c over the pixels x in [x0, x1) of row y (clipped to dst),
+// skipping the off parts of a dash pattern measured from phase.
+func paintSpan(dst *image.RGBA, x0, x1, y int, c color.NRGBA, dash, phase int) {
+	if y < dst.Rect.Min.Y || y >= dst.Rect.Max.Y {
 		return
 	}
-	i := dst.PixOffset(x, y)
+	x0, x1 = max(x0, dst.Rect.Min.X), min(x1, dst.Rect.Max.X)
+	if x0 >= x1 {
+		return
+	}
+	row := dst.Pix[dst.PixOffset(x0, y):dst.PixOffset(x1, y)]
 	a := uint32(c.A)
-	p := dst.Pix[i : i+4 : i+4]
-	p[0] = uint8((uint32(c.R)*a + uint32(p[0])*(255-a)) / 255)
-	p[1] = uint8((uint32(c.G)*a + uint32(p[1])*(255-a)) / 255)
-	p[2] = uint8((uint32(c.B)*a + uint32(p[2])*(255-a)) / 255)
-	p[3] = 0xff
+	for i, x := 0, x0; i < len(row); i, x = i+4, x+1 {
+		if dash > 0 && (x-phase)%(dash+dash*2/3) >= dash {
+			continue
+		}
+		p := row[i : i+4 : i+4]
+		if a == 0xff {
+			p[0], p[1], p[2], p[3] = c.R, c.G, c.B, 0xff
+			continue
+		}
+		p[0] = uint8((uint32(c.R)*a + uint32(p[0])*(255-a)) / 255)
+		p[1] = uint8((uint32(c.G)*a + uint32(p[1])*(255-a)) / 255)
+		p[2] = uint8((uint32(c.B)*a + uint32(p[2])*(255-a)) / 255)
+		p[3] = 0xff
+	}
 }
 
 // strokeBox draws the outline of the screen box b, lw pixels wide, inside
@@ -56,22 +70,20 @@ func ring(dst *image.RGBA, x0, y0, x1, y1, lw int, c color.NRGBA, dash int) {
 	if x1-x0 < 1 || y1-y0 < 1 {
 		return
 	}
-	on := func(i int) bool { return dash == 0 || i%(dash+dash*2/3) < dash }
-	// Clip the loops to the buffer so a box far off screen costs nothing.
-	cx0, cx1 := max(x0, dst.Rect.Min.X), min(x1, dst.Rect.Max.X)
-	cy0, cy1 := max(y0, dst.Rect.Min.Y), min(y1, dst.Rect.Max.Y)
+	lw = min(lw, (x1-x0+1)/2, (y1-y0+1)/2)
 	for k := 0; k < lw; k++ {
-		for x := cx0; x < cx1; x++ {
-			if on(x - x0) {
-				blend(dst, x, y0+k, c)
-				blend(dst, x, y1-1-k, c)
-			}
+		paintSpan(dst, x0, x1, y0+k, c, dash, x0)
+		if y1-1-k != y0+k {
+			paintSpan(dst, x0, x1, y1-1-k, c, dash, x0)
 		}
-		for y := max(cy0, y0+lw); y < min(cy1, y1-lw); y++ {
-			if on(y - y0) {
-				blend(dst, x0+k, y, c)
-				blend(dst, x1-1-k, y, c)
-			}
+	}
+	// The sides, clipped to the buffer's rows so a tall box off screen
+	// costs nothing.
+	for y := max(y0+lw, dst.Rect.Min.Y); y < min(y1-lw, dst.Rect.Max.Y); y++ {
+		if dash > 0 && (y-y0)%(dash+dash*2/3) >= dash {
+			continue
 		}
+		paintSpan(dst, x0, x0+lw, y, c, 0, 0)
+		paintSpan(dst, max(x1-lw, x0+lw), x1, y, c, 0, 0)
 	}
 }
