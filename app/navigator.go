@@ -184,7 +184,8 @@ func (n *navigator) newRow() fyne.CanvasObject {
 
 func (n *navigator) updateRow(row widget.ListItemID, o fyne.CanvasObject) {
 	u := n.u
-	if row >= len(n.shown) || u.st == nil {
+	st := u.st // read once: a test driver may run this beside closeProject
+	if row >= len(n.shown) || st == nil {
 		return
 	}
 	im := u.images[n.shown[row]]
@@ -197,7 +198,7 @@ func (n *navigator) updateRow(row widget.ListItemID, o fyne.CanvasObject) {
 	t, ok := n.thumbs[im.ID]
 	n.mu.Unlock()
 	if !ok {
-		n.request(im.ID, u.st.ImagePath(im))
+		n.request(im.ID, st.ImagePath(im))
 	}
 	if thumb.Image != t {
 		thumb.Image = t
@@ -264,7 +265,11 @@ func (n *navigator) thumbWorker() {
 				n.order = n.order[1:]
 			}
 			n.mu.Unlock()
-			fyne.Do(func() { n.refreshImage(j.id) })
+			fyne.Do(func() {
+				if n.u.st != nil {
+					n.refreshImage(j.id)
+				}
+			})
 		}
 	}
 }
