@@ -77,8 +77,21 @@ func (b *classBar) Object() fyne.CanvasObject { return b.obj }
 // image on screen and in the whole project (by class ID; missing = 0),
 // and marks current as the class for new boxes.
 func (b *classBar) SetData(classes []project.Class, onImage, inProject map[int64]int, current int64) {
+	same := len(classes) == len(b.rows) && len(classes) > 0
+	for i := 0; same && i < len(classes); i++ {
+		same = b.rows[i].class == classes[i]
+	}
 	b.classes = append([]project.Class(nil), classes...)
 	b.onImage, b.inProject, b.current = onImage, inProject, current
+	if same {
+		// The usual case after an edit: only counts or the current class
+		// changed, so update the rows in place (rebuilding them costs
+		// text shaping on every nudge).
+		for _, r := range b.rows {
+			r.update(onImage[r.class.ID], inProject[r.class.ID], r.class.ID == current)
+		}
+		return
+	}
 	b.rows = b.rows[:0]
 	b.list.RemoveAll()
 	if len(classes) == 0 {
@@ -492,6 +505,19 @@ func newClassRow(c project.Class, here, total int, current bool, picked func(int
 	r.counts.Truncation = fyne.TextTruncateEllipsis
 	r.ExtendBaseWidget(r)
 	return r
+}
+
+// update shows new counts and whether the row's class is current.
+func (r *classRow) update(here, total int, current bool) {
+	r.counts.SetText(fmt.Sprintf("%d here · %d total", here, total))
+	if current != r.current {
+		r.current = current
+		r.name.TextStyle = fyne.TextStyle{Bold: current}
+		r.name.Refresh()
+		r.paint()
+		r.bg.Refresh()
+		r.bar.Refresh()
+	}
 }
 
 func (r *classRow) CreateRenderer() fyne.WidgetRenderer {
