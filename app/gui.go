@@ -54,6 +54,7 @@ type ui struct {
 	// tallies: labels by image, then class or annotator (all annotators).
 	byClass     map[int64]map[int64]int
 	byAnnotator map[int64]map[int64]int
+	byPair      map[int64]map[[2]int64]int // image → (class, annotator)
 	classTotal  map[int64]int
 
 	annotators    []project.Annotator
@@ -325,7 +326,7 @@ func (u *ui) reload() error {
 			u.current = cs[0].ID // with no choice made, boxes get the first class
 		}
 	}
-	u.byClass, u.byAnnotator, u.classTotal = map[int64]map[int64]int{}, map[int64]map[int64]int{}, map[int64]int{}
+	u.byClass, u.byAnnotator, u.byPair, u.classTotal = map[int64]map[int64]int{}, map[int64]map[int64]int{}, map[int64]map[[2]int64]int{}, map[int64]int{}
 	for _, t := range tal {
 		u.tally(t.ImageID, t.ClassID, t.AnnotatorID, t.N)
 	}
@@ -346,8 +347,9 @@ func (u *ui) reload() error {
 // counts behind the class bar, the filters and the image rows.
 func (u *ui) tally(imageID, classID, annotatorID int64, n int) {
 	if u.byClass[imageID] == nil {
-		u.byClass[imageID], u.byAnnotator[imageID] = map[int64]int{}, map[int64]int{}
+		u.byClass[imageID], u.byAnnotator[imageID], u.byPair[imageID] = map[int64]int{}, map[int64]int{}, map[[2]int64]int{}
 	}
+	u.byPair[imageID][[2]int64{classID, annotatorID}] += n
 	u.byClass[imageID][classID] += n
 	u.byAnnotator[imageID][annotatorID] += n
 	u.classTotal[classID] += n

@@ -598,6 +598,14 @@ func (u *ui) recount() {
 		u.classTotal[c] += n
 	}
 	u.byClass[u.imageID] = now
+	pairs := map[[2]int64]int{}
+	for _, l := range u.other {
+		pairs[[2]int64{l.ClassID, l.AnnotatorID}]++
+	}
+	for _, l := range boxes {
+		pairs[[2]int64{l.ClassID, u.me.ID}]++
+	}
+	u.byPair[u.imageID] = pairs
 	if u.byAnnotator[u.imageID] == nil {
 		u.byAnnotator[u.imageID] = map[int64]int{}
 	}

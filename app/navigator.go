@@ -146,11 +146,19 @@ func (n *navigator) apply() {
 		if n.status.Selected != anyStatus && n.status.Selected != "" && statusWord(im.Status) != n.status.Selected {
 			continue
 		}
-		if classID != 0 && u.byClass[im.ID][classID] == 0 {
-			continue
-		}
-		if whoID != 0 && u.byAnnotator[im.ID][whoID] == 0 {
-			continue
+		switch {
+		case classID != 0 && whoID != 0: // that class by that annotator
+			if u.byPair[im.ID][[2]int64{classID, whoID}] == 0 {
+				continue
+			}
+		case classID != 0:
+			if u.byClass[im.ID][classID] == 0 {
+				continue
+			}
+		case whoID != 0:
+			if u.byAnnotator[im.ID][whoID] == 0 {
+				continue
+			}
 		}
 		n.shown = append(n.shown, i)
 	}
