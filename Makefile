@@ -5,10 +5,11 @@ GO       ?= go
 BIN      := bin/boxwright
 DEMO_DIR ?= build/demo
 # Debian packages for cgo (SQLite, OpenGL/GLFW window) and for the window
-# smoke test under a virtual X server; shapely is the reference for the IoU check.
+# smoke test under a virtual X server; shapely is the reference for the IoU check,
+# scikit-learn, statsmodels and SciPy for the agreement statistics and matching.
 BUILD_DEBS := gcc pkg-config libgl1-mesa-dev libx11-dev libxcursor-dev libxrandr-dev \
               libxinerama-dev libxi-dev libxxf86vm-dev
-TEST_DEBS := xvfb xauth xdotool imagemagick python3-shapely
+TEST_DEBS := xvfb xauth xdotool imagemagick python3-shapely python3-sklearn python3-statsmodels python3-scipy
 
 export CGO_ENABLED := 1
 

@@ -78,3 +78,30 @@ func (s *Store) LabelTallies(ctx context.Context) ([]project.LabelTally, error) 
 	}
 	return out, rows.Err()
 }
+
+// ReplaceAnnotatorLabels swaps all labels of an annotator for new ones in
+// one transaction: used for derived annotators such as the consensus,
+// which are recomputed rather than edited.
+func (s *Store) ReplaceAnnotatorLabels(ctx context.Context, annotatorID int64, labels []project.Label) error {
+	return s.tx(ctx, func(tx *sql.Tx) error {
+		if _, err := tx.ExecContext(ctx, "DELETE FROM labels WHERE annotator_id = ?", annotatorID); err != nil {
+			return fmt.Errorf("clear labels of annotator %d: %w", annotatorID, translate(err))
+		}
+		ins := newLabelInserter(ctx, tx)
+		defer ins.close()
+		now := formatTime(s.now())
+		for i, l := range labels {
+			if l.Origin == "" {
+				l.Origin = project.OriginImported
+			}
+			if err := checkBox(l.Box); err != nil {
+				return fmt.Errorf("label %d of %d: %w", i+1, len(labels), err)
+			}
+			if err := ins.add(fmt.Sprintf("label %d of %d", i+1, len(labels)), l.ImageID, l.ClassID, annotatorID,
+				l.Box.X0, l.Box.Y0, l.Box.X1, l.Box.Y1, string(l.Origin), l.Source, l.Score, now, now); err != nil {
+				return err
+			}
+		}
+		return ins.flush()
+	})
+}

@@ -50,3 +50,38 @@ func TestApplyLabelChangeIsAllOrNothing(t *testing.T) {
 		t.Fatalf("tallies %+v %v", tal, err)
 	}
 }
+
+func TestReplaceAnnotatorLabelsSwapsOnlyThatAnnotator(t *testing.T) {
+	s := newStore(t)
+	im := addImage(t, s, 0)
+	c, _ := s.AddClass(bg, project.Class{Name: "buoy"})
+	ana, _ := s.AddAnnotator(bg, "ana")
+	con, _ := s.AddAnnotator(bg, "consensus")
+	keep := project.Label{ImageID: im.ID, ClassID: c.ID, AnnotatorID: ana.ID, Box: project.Rect(1, 1, 9, 9)}
+	if _, err := s.AddLabel(bg, keep); err != nil {
+		t.Fatal(err)
+	}
+	old := keep
+	old.AnnotatorID = con.ID
+	s.AddLabel(bg, old)
+	nl := project.Label{ImageID: im.ID, ClassID: c.ID, Box: project.Rect(2, 2, 8, 8), Source: "consensus of ana"}
+	if err := s.ReplaceAnnotatorLabels(bg, con.ID, []project.Label{nl, nl}); err != nil {
+		t.Fatal(err)
+	}
+	got, _ := s.Labels(bg, project.LabelFilter{AnnotatorID: con.ID})
+	if len(got) != 2 || got[0].Box != nl.Box || got[0].Origin != project.OriginImported || got[0].Source != nl.Source {
+		t.Fatalf("consensus labels %+v", got)
+	}
+	if mine, _ := s.Labels(bg, project.LabelFilter{AnnotatorID: ana.ID}); len(mine) != 1 {
+		t.Errorf("another annotator's labels changed: %+v", mine)
+	}
+	// A bad box refuses the whole swap.
+	bad := nl
+	bad.Box = project.Box{X0: 3, Y0: 3, X1: 3, Y1: 5}
+	if err := s.ReplaceAnnotatorLabels(bg, con.ID, []project.Label{nl, bad}); err == nil {
+		t.Fatal("a bad box was accepted")
+	}
+	if got, _ := s.Labels(bg, project.LabelFilter{AnnotatorID: con.ID}); len(got) != 2 {
+		t.Errorf("a refused swap changed the labels: %d", len(got))
+	}
+}
