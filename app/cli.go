@@ -81,6 +81,7 @@ func openCLI(path string) (*store.Store, context.Context, func(), error) {
 func writeJSON(w io.Writer, v any) error {
 	enc := json.NewEncoder(w)
 	enc.SetIndent("", "  ")
+	enc.SetEscapeHTML(false) // read by people and scripts, not browsers
 	return enc.Encode(v)
 }
 

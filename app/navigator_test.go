@@ -73,10 +73,3 @@ func TestNavigatorFiltersMatchTheStore(t *testing.T) {
 	u.selectIndex(len(ims) - 1)
 	check("after selecting a hidden image", len(ims))
 }
-
-func b2i(b bool) int {
-	if b {
-		return 1
-	}
-	return 0
-}
