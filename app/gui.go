@@ -85,6 +85,10 @@ type ui struct {
 
 	pointer string
 
+	compare     *comparison // an image opened from the agreement report
+	compareBar  *fyne.Container
+	compareNote *widget.Label
+
 	cancelDecode context.CancelFunc
 	// decoded, when set, receives each image the view shows (for tests).
 	decoded func(id int64, err error)
@@ -112,6 +116,10 @@ func newUI(a fyne.App) *ui {
 			u.view.SetGuides(on)
 		}
 	})
+	u.compareNote = widget.NewLabel("")
+	u.compareNote.Wrapping = fyne.TextWrapWord
+	u.compareBar = container.NewBorder(nil, nil, nil, widget.NewButtonWithIcon("Back to labelling", theme.NavigateBackIcon(), u.stopComparing), u.compareNote)
+	u.compareBar.Hide()
 	u.wireView()
 	u.body = container.NewStack(u.welcome())
 	u.win.SetContent(u.body)
@@ -216,7 +224,7 @@ func (u *ui) projectScreen() fyne.CanvasObject {
 		u.zoom, widget.NewSeparator(), u.guides, u.others, layout.NewSpacer(),
 		widget.NewButtonWithIcon("Done, next", theme.ConfirmIcon(), func() { u.markAndGo(project.StatusDone) }),
 		widget.NewButtonWithIcon("Keys", theme.HelpIcon(), u.showKeys))
-	centre := container.NewBorder(tools, nil, nil, nil, u.view)
+	centre := container.NewBorder(container.NewVBox(tools, u.compareBar), nil, nil, nil, u.view)
 	inner := container.NewHSplit(centre, u.bar.Object())
 	inner.Offset = 0.8
 	split := container.NewHSplit(left, inner)

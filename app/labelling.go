@@ -234,10 +234,23 @@ func (u *ui) askAnnotatorThen(then func()) {
 // needAnnotator says whether edits can be made, asking for a name first
 // when nobody is labelling yet.
 func (u *ui) needAnnotator() bool {
+	if u.comparing() {
+		return false
+	}
 	if u.sess == nil {
 		u.askAnnotator()
 		return false
 	}
+	return true
+}
+
+// comparing says (and shows) that the image is open read-only from the
+// agreement report.
+func (u *ui) comparing() bool {
+	if u.compare == nil || u.compare.imageID != u.imageID {
+		return false
+	}
+	u.status.SetText("This image is open for comparison, read-only: press Back to labelling to edit.")
 	return true
 }
 
@@ -336,6 +349,10 @@ func (u *ui) showImage(i int) {
 	u.view.CancelGesture()
 	u.selected = i
 	im := u.images[i]
+	if u.compare != nil && u.compare.imageID != im.ID {
+		u.compare = nil
+		u.compareBar.Hide()
+	}
 	u.imageID = im.ID
 	if u.cancelDecode != nil {
 		u.cancelDecode()
@@ -424,6 +441,12 @@ func (u *ui) refreshBoxes() {
 	for _, a := range u.annotators {
 		names[a.ID] = a.Name
 	}
+	if c := u.compare; c != nil && c.imageID == u.imageID {
+		u.view.SetItems(c.items(u))
+		u.updateClassBar()
+		u.updateStatus()
+		return
+	}
 	var items []canvas.Item
 	for _, l := range u.other {
 		if l.AnnotatorID == u.me.ID {
@@ -449,6 +472,9 @@ func (u *ui) refreshBoxes() {
 }
 
 func (u *ui) createBox(b project.Box) {
+	if u.comparing() {
+		return
+	}
 	if u.sess == nil {
 		img := u.imageID
 		u.askAnnotatorThen(func() {
@@ -493,6 +519,9 @@ func (u *ui) deleteSelected() {
 }
 
 func (u *ui) deleteAll() {
+	if u.comparing() {
+		return
+	}
 	if keys := u.myKeys(); len(keys) > 0 {
 		u.afterEdit(u.sess.Delete(context.Background(), u.imageID, fmt.Sprintf("delete %s", plural(len(keys), "box")), keys...))
 	}
@@ -542,7 +571,7 @@ func (u *ui) undo() { u.history(true) }
 func (u *ui) redo() { u.history(false) }
 
 func (u *ui) history(back bool) {
-	if u.sess == nil {
+	if u.sess == nil || u.comparing() {
 		return
 	}
 	var img int64

@@ -47,21 +47,44 @@ func paintSpan(dst *image.RGBA, x0, x1, y int, c color.NRGBA, dash, phase int) {
 }
 
 // strokeBox draws the outline of the screen box b, lw pixels wide, inside
-// a thin dark halo so it reads on light and dark images alike; dashed
-// outlines (the read-only layer) have no halo and are drawn lighter.
-func strokeBox(dst *image.RGBA, b project.Box, lw int, c color.NRGBA, dashed bool) {
-	x0, y0 := int(math.Round(b.X0)), int(math.Round(b.Y0))
-	x1, y1 := int(math.Round(b.X1)), int(math.Round(b.Y1))
-	if x1 < dst.Rect.Min.X || y1 < dst.Rect.Min.Y || x0 >= dst.Rect.Max.X || y0 >= dst.Rect.Max.Y {
+// a thin dark halo so it reads on light and dark images alike. A dashed
+// outline (dash > 0: the read-only layer) has no halo and is drawn
+// lighter; dash < 0 is a thin solid line of that layer.
+func strokeBox(dst *image.RGBA, b project.Box, lw int, c color.NRGBA, dash int) {
+	x0, y0, x1, y1, ok := screenRect(dst, b, 0)
+	if !ok {
 		return
 	}
-	if !dashed {
+	if dash == 0 {
 		ring(dst, x0-1, y0-1, x1+1, y1+1, lw+2, color.NRGBA{0, 0, 0, 0x90}, 0)
 		ring(dst, x0, y0, x1, y1, lw, c, 0)
 		return
 	}
 	c.A = 0xd0
-	ring(dst, x0, y0, x1, y1, lw, c, 6)
+	if dash < 0 {
+		ring(dst, x0, y0, x1, y1, max(1, lw/2), c, 0)
+		return
+	}
+	ring(dst, x0, y0, x1, y1, lw, c, dash)
+}
+
+// markBox draws a white dashed ring just outside b, on a dark halo.
+func markBox(dst *image.RGBA, b project.Box, lw int) {
+	x0, y0, x1, y1, ok := screenRect(dst, b, 3+lw)
+	if !ok {
+		return
+	}
+	ring(dst, x0-1, y0-1, x1+1, y1+1, lw+2, color.NRGBA{0, 0, 0, 0xa0}, 0)
+	ring(dst, x0, y0, x1, y1, lw, color.NRGBA{0xff, 0xff, 0xff, 0xff}, 4)
+}
+
+// screenRect rounds a screen box grown by grow pixels; ok is false when
+// it misses dst entirely.
+func screenRect(dst *image.RGBA, b project.Box, grow int) (x0, y0, x1, y1 int, ok bool) {
+	x0, y0 = int(math.Round(b.X0))-grow, int(math.Round(b.Y0))-grow
+	x1, y1 = int(math.Round(b.X1))+grow, int(math.Round(b.Y1))+grow
+	ok = !(x1 < dst.Rect.Min.X || y1 < dst.Rect.Min.Y || x0 >= dst.Rect.Max.X || y0 >= dst.Rect.Max.Y)
+	return
 }
 
 // ring paints a rectangle outline of width lw inside [x0,x1)×[y0,y1),

@@ -25,6 +25,12 @@ type Item struct {
 	// ReadOnly boxes (another annotator's) are drawn as a second, dashed
 	// layer and cannot be selected or edited.
 	ReadOnly bool
+	// Dash is a read-only box's dash length in pixels (0: 6; negative: a
+	// solid thin line), so that compared annotators look different.
+	Dash int
+	// Marked boxes get a second, white outline around them: the boxes
+	// that found no partner in a comparison.
+	Marked bool
 }
 
 // View shows one image with its boxes and lets a person zoom, pan, draw,
@@ -845,13 +851,20 @@ func (r *viewRenderer) draw(w, h int) image.Image {
 			continue // drawn as objects above the raster
 		}
 		sb := dt.BoxToScreen(it.Box)
+		if it.Marked && (showOther || !it.ReadOnly) {
+			markBox(r.buf, sb, lw)
+		}
 		if it.ReadOnly {
 			if showOther {
-				strokeBox(r.buf, sb, lw, it.Color, true)
+				dash := it.Dash
+				if dash == 0 {
+					dash = 6
+				}
+				strokeBox(r.buf, sb, lw, it.Color, dash)
 			}
 			continue
 		}
-		strokeBox(r.buf, sb, lw, it.Color, false)
+		strokeBox(r.buf, sb, lw, it.Color, 0)
 	}
 	return r.buf
 }

@@ -5,20 +5,20 @@ import (
 	"testing"
 )
 
-var nan = math.NaN()
+var miss = math.NaN()
 
 // wikipediaAlpha is the example of the Wikipedia article "Krippendorff's
 // alpha": 3 coders, 15 units, missing values; units are rows here.
 func wikipediaAlpha() [][]float64 {
 	coders := [][]float64{
-		{nan, nan, nan, nan, nan, 3, 4, 1, 2, 1, 1, 3, 3, nan, 3},
-		{1, nan, 2, 1, 3, 3, 4, 3, nan, nan, nan, nan, nan, nan, nan},
-		{nan, nan, 2, 1, 3, 4, 4, nan, 2, 1, 1, 3, 3, nan, 4},
+		{miss, miss, miss, miss, miss, 3, 4, 1, 2, 1, 1, 3, 3, miss, 3},
+		{1, miss, 2, 1, 3, 3, 4, 3, miss, miss, miss, miss, miss, miss, miss},
+		{miss, miss, 2, 1, 3, 4, 4, miss, 2, 1, 1, 3, 3, miss, 4},
 	}
-	return transpose(coders)
+	return unitsFromCoders(coders)
 }
 
-func transpose(m [][]float64) [][]float64 {
+func unitsFromCoders(m [][]float64) [][]float64 {
 	out := make([][]float64, len(m[0]))
 	for u := range out {
 		out[u] = make([]float64, len(m))
@@ -42,7 +42,7 @@ func TestKrippendorffAlphaWikipedia(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
-		if !near(a.Alpha, c.want, c.tol) {
+		if !within(a.Alpha, c.want, c.tol) {
 			t.Errorf("%v α = %.7f, want %.6f", c.level, a.Alpha, c.want)
 		}
 		// Counted from the table: units 1, 2 and 14 have fewer than two
@@ -58,12 +58,12 @@ func TestKrippendorffAlpha2011(t *testing.T) {
 	// section C, 4 observers × 12 units with missing values: α nominal
 	// 0.743, ordinal 0.815, interval 0.849, ratio 0.797. // from memory
 	obs := [][]float64{
-		{1, 2, 3, 3, 2, 1, 4, 1, 2, nan, nan, nan},
-		{1, 2, 3, 3, 2, 2, 4, 1, 2, 5, nan, 3},
-		{nan, 3, 3, 3, 2, 3, 4, 2, 2, 5, 1, nan},
-		{1, 2, 3, 3, 2, 4, 4, 1, 2, 5, 1, nan},
+		{1, 2, 3, 3, 2, 1, 4, 1, 2, miss, miss, miss},
+		{1, 2, 3, 3, 2, 2, 4, 1, 2, 5, miss, 3},
+		{miss, 3, 3, 3, 2, 3, 4, 2, 2, 5, 1, miss},
+		{1, 2, 3, 3, 2, 4, 4, 1, 2, 5, 1, miss},
 	}
-	units := transpose(obs)
+	units := unitsFromCoders(obs)
 	for _, c := range []struct {
 		level Level
 		want  float64
@@ -72,7 +72,7 @@ func TestKrippendorffAlpha2011(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
-		if !near(a.Alpha, c.want, 5e-4) {
+		if !within(a.Alpha, c.want, 5e-4) {
 			t.Errorf("%v α = %.4f, want %.3f", c.level, a.Alpha, c.want)
 		}
 	}
@@ -96,24 +96,24 @@ func TestKrippendorffAlphaOrdinalUsesRanks(t *testing.T) {
 	}
 	a, _ := KrippendorffAlpha(units, Ordinal)
 	b, _ := KrippendorffAlpha(other, Ordinal)
-	if !near(a.Alpha, b.Alpha, 1e-12) {
+	if !within(a.Alpha, b.Alpha, 1e-12) {
 		t.Errorf("ordinal α %g vs relabelled %g", a.Alpha, b.Alpha)
 	}
 }
 
 func TestKrippendorffAlphaEdges(t *testing.T) {
 	// All values equal: no expected disagreement, α undefined.
-	a, err := KrippendorffAlpha([][]float64{{2, 2}, {2, 2, 2}, {2, nan}}, Interval)
+	a, err := KrippendorffAlpha([][]float64{{2, 2}, {2, 2, 2}, {2, miss}}, Interval)
 	if err != nil || !math.IsNaN(a.Alpha) || len(a.Notes) == 0 || a.Units != 2 || a.Values != 5 {
 		t.Errorf("constant: %+v, %v", a, err)
 	}
 	// Nothing pairable.
-	a, err = KrippendorffAlpha([][]float64{{1, nan}, {nan, nan}, {}}, Nominal)
+	a, err = KrippendorffAlpha([][]float64{{1, miss}, {miss, miss}, {}}, Nominal)
 	if err != nil || !math.IsNaN(a.Alpha) || len(a.Notes) == 0 || a.Units != 0 {
 		t.Errorf("unpairable: %+v, %v", a, err)
 	}
 	// Perfect agreement.
-	a, err = KrippendorffAlpha([][]float64{{1, 1}, {2, 2, nan}, {3, 3}}, Ratio)
+	a, err = KrippendorffAlpha([][]float64{{1, 1}, {2, 2, miss}, {3, 3}}, Ratio)
 	if err != nil || a.Alpha != 1 {
 		t.Errorf("perfect: %+v, %v", a, err)
 	}
@@ -148,17 +148,17 @@ func TestParseLevel(t *testing.T) {
 
 func TestPercentAgreement(t *testing.T) {
 	// Two raters: share of units on which both agree (3 of 4).
-	two := [][]float64{{1, 1}, {2, 2}, {1, 2}, {3, 3}, {nan, 1}}
-	if got := PercentAgreement(two); !near(got, 0.75, 1e-15) {
+	two := [][]float64{{1, 1}, {2, 2}, {1, 2}, {3, 3}, {miss, 1}}
+	if got := PercentAgreement(two); !within(got, 0.75, 1e-15) {
 		t.Errorf("two raters: %g, want 0.75", got)
 	}
 	// Three raters on one unit, 2 of 3 agree: ordered pairs 2 agreeing of 6;
 	// with a two-rater unit that agrees, (2 + 2)/(6 + 2) = 0.5.
 	three := [][]float64{{4, 4, 5}, {1, 1}}
-	if got := PercentAgreement(three); !near(got, 0.5, 1e-15) {
+	if got := PercentAgreement(three); !within(got, 0.5, 1e-15) {
 		t.Errorf("three raters: %g, want 0.5", got)
 	}
-	if got := PercentAgreement([][]float64{{1}, {nan, 2}}); !math.IsNaN(got) {
+	if got := PercentAgreement([][]float64{{1}, {miss, 2}}); !math.IsNaN(got) {
 		t.Errorf("nothing pairable: %g, want NaN", got)
 	}
 }

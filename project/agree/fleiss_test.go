@@ -26,13 +26,13 @@ func TestFleissKappa1971(t *testing.T) {
 		t.Errorf("subjects %d raters %d, want 30 6", f.Subjects, f.Raters)
 	}
 	// Fleiss (1971), p. 380: κ = .430; to full precision 0.4302445.
-	if !near(f.Kappa, 0.4302445, 5e-8) {
+	if !within(f.Kappa, 0.4302445, 5e-8) {
 		t.Errorf("κ = %.8f, want 0.4302445", f.Kappa)
 	}
 	// Fleiss (1971), p. 381: per-category κ_j .245 .245 .520 .471 .566.
 	want := []float64{.245, .245, .520, .471, .566}
 	for j, w := range want {
-		if !near(f.PerCategory[j], w, 5e-4) {
+		if !within(f.PerCategory[j], w, 5e-4) {
 			t.Errorf("κ_%d = %.4f, want %.3f", j+1, f.PerCategory[j], w)
 		}
 	}
@@ -49,13 +49,13 @@ func TestFleissSE0TwoCategories(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if want := math.Sqrt(2.0 / (5 * 4 * 3)); !near(f.SE0, want, 1e-12) {
+	if want := math.Sqrt(2.0 / (5 * 4 * 3)); !within(f.SE0, want, 1e-12) {
 		t.Errorf("SE0 = %.12f, want %.12f", f.SE0, want)
 	}
 	// With two categories each category against the rest is the whole
 	// question, so both κ_j equal κ.
 	for j, kj := range f.PerCategory {
-		if !near(kj, f.Kappa, 1e-12) {
+		if !within(kj, f.Kappa, 1e-12) {
 			t.Errorf("κ_%d = %g, κ = %g", j, kj, f.Kappa)
 		}
 	}

@@ -6,8 +6,8 @@ import (
 	"testing"
 )
 
-// near reports whether got is within tol of want.
-func near(got, want, tol float64) bool { return math.Abs(got-want) <= tol }
+// within reports whether got is within tol of want.
+func within(got, want, tol float64) bool { return math.Abs(got-want) <= tol }
 
 func TestCohenKappaTwoByTwo(t *testing.T) {
 	// The worked 2×2 example of the Wikipedia article "Cohen's kappa":
@@ -16,11 +16,11 @@ func TestCohenKappaTwoByTwo(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if !near(k.Po, 0.70, 1e-12) || !near(k.Pe, 0.50, 1e-12) || !near(k.Kappa, 0.40, 1e-12) || k.N != 50 {
+	if !within(k.Po, 0.70, 1e-12) || !within(k.Pe, 0.50, 1e-12) || !within(k.Kappa, 0.40, 1e-12) || k.N != 50 {
 		t.Errorf("got N %g po %g pe %g κ %g, want 50 0.70 0.50 0.40", k.N, k.Po, k.Pe, k.Kappa)
 	}
 	// statsmodels 0.13.5, cohens_kappa(...).std_kappa = 0.126996…
-	if !near(k.SE, 0.126996, 5e-7) {
+	if !within(k.SE, 0.126996, 5e-7) {
 		t.Errorf("SE = %.7f, want 0.126996", k.SE)
 	}
 }
@@ -41,7 +41,7 @@ func TestCohenKappaCohen1960(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if !near(k.Kappa, 0.4915, 5e-5) || !near(k.Po, 0.70, 1e-12) || !near(k.Pe, 0.41, 1e-12) {
+	if !within(k.Kappa, 0.4915, 5e-5) || !within(k.Po, 0.70, 1e-12) || !within(k.Pe, 0.41, 1e-12) {
 		t.Errorf("κ %.5f po %g pe %g, want 0.4915 0.70 0.41", k.Kappa, k.Po, k.Pe)
 	}
 }
@@ -66,7 +66,7 @@ func TestCohenKappaSASPrintout(t *testing.T) {
 		{"ASE0", k.SE0, 0.1484}, {"z", k.Z, 3.2626},
 	}
 	for _, c := range checks {
-		if !near(c.got, c.want, 5e-5) {
+		if !within(c.got, c.want, 5e-5) {
 			t.Errorf("%s = %.5f, want %.4f", c.name, c.got, c.want)
 		}
 	}
@@ -84,7 +84,7 @@ func TestCohenKappaSASPrintout(t *testing.T) {
 		{"ASE0", kw.SE0, 0.1426}, {"z", kw.Z, 3.2971},
 	}
 	for _, c := range wchecks {
-		if !near(c.got, c.want, 5e-5) {
+		if !within(c.got, c.want, 5e-5) {
 			t.Errorf("weighted %s = %.5f, want %.4f", c.name, c.got, c.want)
 		}
 	}
@@ -134,7 +134,7 @@ func TestWeightedKappaScaleInvariant(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if !near(a.Kappa, b.Kappa, 1e-12) || !near(a.SE, b.SE, 1e-12) || !near(a.SE0, b.SE0, 1e-12) || !near(a.Po, b.Po, 1e-12) {
+	if !within(a.Kappa, b.Kappa, 1e-12) || !within(a.SE, b.SE, 1e-12) || !within(a.SE0, b.SE0, 1e-12) || !within(a.Po, b.Po, 1e-12) {
 		t.Errorf("×1 %+v\n×7 %+v", a, b)
 	}
 	// Disagreement form, computed directly.
@@ -153,7 +153,7 @@ func TestWeightedKappaScaleInvariant(t *testing.T) {
 			den += w[i][j] * row[i] * col[j] / (n * n)
 		}
 	}
-	if !near(a.Kappa, 1-num/den, 1e-12) {
+	if !within(a.Kappa, 1-num/den, 1e-12) {
 		t.Errorf("κw %.12f, direct %.12f", a.Kappa, 1-num/den)
 	}
 	// Nil weights mean unweighted.
@@ -223,8 +223,14 @@ func TestKappaUndefined(t *testing.T) {
 			t.Errorf("%v zero weights: %+v, %v", table, kw, err)
 		}
 	}
+	// Rater A used one category only: κ is 0 whatever B does, so both
+	// variances are truly 0, not the 1e-8 that rounding would leave.
+	k, err := CohenKappa([][]float64{{0, 0}, {4, 22}})
+	if err != nil || k.Kappa != 0 || k.SE != 0 || k.SE0 != 0 || !math.IsNaN(k.Z) || len(k.Notes) == 0 {
+		t.Errorf("one-category rater: %+v, %v", k, err)
+	}
 	// Perfect agreement: κ = 1 with SE 0, not a NaN from a tiny negative variance.
-	k, err := CohenKappa([][]float64{{5, 0}, {0, 5}})
+	k, err = CohenKappa([][]float64{{5, 0}, {0, 5}})
 	if err != nil || k.Kappa != 1 || k.SE != 0 || math.IsNaN(k.Z) {
 		t.Errorf("perfect agreement: %+v, %v", k, err)
 	}

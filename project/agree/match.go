@@ -31,7 +31,7 @@ func MatchBoxes(a, b []project.Box, aClass, bClass []int64, threshold float64, c
 			if classAware && !sameClass(aClass, i, bClass, j) {
 				continue
 			}
-			if iou := ba.IoU(bb); usable(iou, threshold) {
+			if iou := overlapIoU(ba, bb); usable(iou, threshold) {
 				w[i*len(b)+j] = iou
 			}
 		}
@@ -60,4 +60,13 @@ func MatchBoxes(a, b []project.Box, aClass, bClass []int64, threshold float64, c
 // have a class and it is the same.
 func sameClass(ac []int64, i int, bc []int64, j int) bool {
 	return i < len(ac) && j < len(bc) && ac[i] == bc[j]
+}
+
+// overlapIoU is a.IoU(b), with a cheap early answer for boxes that cannot
+// overlap; most pairs on a busy image are such pairs.
+func overlapIoU(a, b project.Box) float64 {
+	if a.X1 <= b.X0 || b.X1 <= a.X0 || a.Y1 <= b.Y0 || b.Y1 <= a.Y0 {
+		return 0
+	}
+	return a.IoU(b)
 }

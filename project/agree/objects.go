@@ -39,6 +39,9 @@ func (g *group) add(annotator, i int, b project.Box, class int64, hasClass bool)
 	g.sum[2] += b.X1
 	g.sum[3] += b.Y1
 	if hasClass {
+		if g.votes == nil {
+			g.votes = map[int64]int{}
+		}
 		g.votes[class]++
 	}
 }
@@ -83,7 +86,7 @@ func GroupObjects(boxes [][]project.Box, classes [][]int64, threshold float64, c
 				if classAware && !(i < len(cs) && hasMajor[g] && cs[i] == major[g]) {
 					continue
 				}
-				if iou := b.IoU(means[g]); usable(iou, threshold) {
+				if iou := overlapIoU(b, means[g]); usable(iou, threshold) {
 					w[i*len(groups)+g] = iou
 				}
 			}
@@ -97,7 +100,7 @@ func GroupObjects(boxes [][]project.Box, classes [][]int64, threshold float64, c
 		}
 		for i, b := range bs {
 			if !joined[i] {
-				g := &group{members: map[int]int{}, votes: map[int64]int{}}
+				g := &group{members: map[int]int{}}
 				c, ok := classAt(cs, i)
 				g.add(k, i, b, c, ok)
 				groups = append(groups, g)
