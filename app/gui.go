@@ -85,7 +85,8 @@ type ui struct {
 
 	pointer string
 
-	compare     *comparison // an image opened from the agreement report
+	agree       *agreeScreen // the agreement report window, when open
+	compare     *comparison  // an image opened from the agreement report
 	compareBar  *fyne.Container
 	compareNote *widget.Label
 
@@ -189,6 +190,8 @@ func (u *ui) menu() *fyne.MainMenu {
 	data := fyne.NewMenu("Dataset",
 		fyne.NewMenuItem("Import labels…", u.askImport),
 		fyne.NewMenuItem("Export dataset…", u.askExport),
+		fyne.NewMenuItemSeparator(),
+		fyne.NewMenuItem("Annotator agreement… (Ctrl+G)", u.showAgreement),
 	)
 	help := fyne.NewMenu("Help",
 		fyne.NewMenuItem("Keys and mouse (H)", u.showKeys),

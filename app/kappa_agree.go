@@ -63,18 +63,21 @@ func loadAgreement(ctx context.Context, st *store.Store, names []string) (agreem
 	for _, im := range ims {
 		names2[im.ID] = filepath.ToSlash(im.Path)
 	}
-	var cur *agree.ImageLabels
-	err = st.EachBox(ctx, ids, func(img, ann, cls int64, b project.Box) error {
-		if cur == nil || cur.ImageID != img {
-			d.images = append(d.images, agree.ImageLabels{ImageID: img, Name: names2[img], By: make([]agree.Labels, len(names))})
-			cur = &d.images[len(d.images)-1]
+	ibs, err := st.BoxesByImage(ctx, ids)
+	if err != nil {
+		return d, err
+	}
+	d.images = make([]agree.ImageLabels, len(ibs))
+	for i, ib := range ibs {
+		im := agree.ImageLabels{ImageID: ib.ImageID, Name: names2[ib.ImageID], By: make([]agree.Labels, len(names))}
+		for _, b := range ib.Boxes {
+			l := &im.By[pos[b.AnnotatorID]]
+			l.Boxes = append(l.Boxes, b.Box)
+			l.Classes = append(l.Classes, b.ClassID)
 		}
-		l := &cur.By[pos[ann]]
-		l.Boxes = append(l.Boxes, b)
-		l.Classes = append(l.Classes, cls)
-		return ctx.Err()
-	})
-	return d, err
+		d.images[i] = im
+	}
+	return d, ctx.Err()
 }
 
 func (d agreementData) classOrder() []int64 {

@@ -63,6 +63,7 @@ func (u *ui) addShortcuts() {
 	add(fyne.KeyI, ctrl, u.askAddFolder)
 	add(fyne.KeyL, ctrl, u.askImport)
 	add(fyne.KeyE, ctrl, u.askExport)
+	add(fyne.KeyG, ctrl, u.showAgreement)
 	c.AddShortcut(&fyne.ShortcutUndo{}, func(fyne.Shortcut) { u.undo() })
 	c.AddShortcut(&fyne.ShortcutRedo{}, func(fyne.Shortcut) { u.redo() })
 	add(fyne.KeyZ, ctrl|fyne.KeyModifierShift, u.redo)
@@ -788,6 +789,6 @@ IMAGES
 
 PROJECT
   Ctrl+O open   Ctrl+N new   Ctrl+I add images   Ctrl+L import labels
-  Ctrl+E export dataset   H, ? or F1   this help
+  Ctrl+E export dataset   Ctrl+G annotator agreement   H, ? or F1   this help
 
 Every edit is saved at once; the status bar says "saved".`

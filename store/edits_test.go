@@ -85,3 +85,60 @@ func TestReplaceAnnotatorLabelsSwapsOnlyThatAnnotator(t *testing.T) {
 		t.Errorf("a refused swap changed the labels: %d", len(got))
 	}
 }
+
+func TestBoxesByImageGroupsAndFilters(t *testing.T) {
+	s := newStore(t)
+	c, _ := s.AddClass(bg, project.Class{Name: "buoy"})
+	a, _ := s.AddAnnotator(bg, "a")
+	b, _ := s.AddAnnotator(bg, "b")
+	var ims []project.Image
+	for i := 0; i < 5; i++ {
+		ims = append(ims, addImage(t, s, i))
+	}
+	// Interleaved rows, so that an image's boxes lie in several ranges.
+	var want = map[int64]int{}
+	for round := 0; round < 40; round++ {
+		im := ims[round%len(ims)]
+		ann := a.ID
+		if round%3 == 0 {
+			ann = b.ID
+		}
+		if _, err := s.AddLabel(bg, project.Label{ImageID: im.ID, ClassID: c.ID, AnnotatorID: ann, Box: project.Rect(float64(round), 0, float64(round)+5, 5)}); err != nil {
+			t.Fatal(err)
+		}
+		if ann == a.ID {
+			want[im.ID]++
+		}
+	}
+	got, err := s.BoxesByImage(bg, []int64{a.ID})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(got) != len(want) {
+		t.Fatalf("%d images, want %d", len(got), len(want))
+	}
+	for i, ib := range got {
+		if i > 0 && got[i-1].ImageID >= ib.ImageID {
+			t.Errorf("images out of order: %d after %d", ib.ImageID, got[i-1].ImageID)
+		}
+		if len(ib.Boxes) != want[ib.ImageID] {
+			t.Errorf("image %d: %d boxes, want %d", ib.ImageID, len(ib.Boxes), want[ib.ImageID])
+		}
+		for j, bx := range ib.Boxes {
+			if bx.AnnotatorID != a.ID {
+				t.Errorf("annotator %d slipped through the filter", bx.AnnotatorID)
+			}
+			if j > 0 && ib.Boxes[j-1].Box.X0 >= bx.Box.X0 {
+				t.Errorf("image %d: boxes not in stored order", ib.ImageID)
+			}
+		}
+	}
+	all, _ := s.BoxesByImage(bg, nil)
+	n := 0
+	for _, ib := range all {
+		n += len(ib.Boxes)
+	}
+	if n != 40 {
+		t.Errorf("all annotators: %d boxes, want 40", n)
+	}
+}

@@ -3,7 +3,9 @@ package agree
 import (
 	"fmt"
 	"math"
+	"runtime"
 	"sort"
+	"sync"
 
 	"boxwright/project"
 )
@@ -373,15 +375,52 @@ func Compare(images []ImageLabels, n int, opt Options, progress func(done, total
 	}
 	r := Report{Annotators: n, Options: opt, Threshold: opt.threshold()}
 	total := n*(n-1)/2 + 1
-	done := 0
+	// The pairs and the grouping into objects are independent: run them
+	// side by side on the available cores.
+	type job struct{ a, b, i int }
+	var jobs []job
 	for a := 0; a < n; a++ {
 		for b := a + 1; b < n; b++ {
-			r.Pairs = append(r.Pairs, ComparePair(images, a, b, opt))
-			done++
-			if progress != nil {
-				progress(done, total)
-			}
+			jobs = append(jobs, job{a, b, len(jobs)})
 		}
+	}
+	r.Pairs = make([]PairReport, len(jobs))
+	var groups [][]Object
+	var mu sync.Mutex
+	done := 0
+	tick := func() {
+		mu.Lock()
+		done++
+		d := done
+		mu.Unlock()
+		if progress != nil {
+			progress(d, total)
+		}
+	}
+	work := make(chan func(), len(jobs)+1)
+	for _, j := range jobs {
+		work <- func() { r.Pairs[j.i] = ComparePair(images, j.a, j.b, opt); tick() }
+	}
+	if n > 2 {
+		work <- func() { groups = groupAll(images, n, r.Threshold, opt.ClassAware); tick() }
+	}
+	close(work)
+	var wg sync.WaitGroup
+	for w := 0; w < min(runtime.GOMAXPROCS(0), len(jobs)+1); w++ {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			for f := range work {
+				f()
+			}
+		}()
+	}
+	wg.Wait()
+	if n == 2 {
+		// Two annotators: the objects are the pair's matches and leftovers,
+		// exactly what GroupObjects would find, without matching twice.
+		groups = objectsOfPair(images, r.Pairs[0])
+		tick()
 	}
 	// Objects across all annotators, their classes as ratings.
 	classIdx := map[int64]float64{}
@@ -395,14 +434,12 @@ func Compare(images []ImageLabels, n int, opt Options, progress func(done, total
 	for i, c := range order {
 		classIdx[c] = float64(i)
 	}
-	for _, im := range images {
-		boxes := make([][]project.Box, n)
+	for ii, im := range images {
 		classes := make([][]int64, n)
 		for i := 0; i < n; i++ {
-			l := labelsOf(im, i)
-			boxes[i], classes[i] = l.Boxes, l.Classes
+			classes[i] = labelsOf(im, i).Classes
 		}
-		for _, o := range GroupObjects(boxes, classes, r.Threshold, opt.ClassAware) {
+		for _, o := range groups[ii] {
 			r.Objects++
 			u := make([]float64, n)
 			cnt := make([]float64, len(order))
@@ -435,10 +472,50 @@ func Compare(images []ImageLabels, n int, opt Options, progress func(done, total
 	} else {
 		r.Alpha = Alpha{Alpha: math.NaN(), Level: Nominal, Notes: []string{err.Error()}}
 	}
-	if progress != nil {
-		progress(total, total)
-	}
 	return r, nil
+}
+
+// objectsOfPair turns a pair's matches into objects, image by image.
+func objectsOfPair(images []ImageLabels, p PairReport) [][]Object {
+	at := map[int64]int{}
+	for i, im := range images {
+		at[im.ImageID] = i
+	}
+	out := make([][]Object, len(images))
+	for _, im := range p.PerImage {
+		i, ok := at[im.ImageID]
+		if !ok {
+			continue
+		}
+		m := im.Match
+		objs := make([]Object, 0, len(m.Pairs)+len(m.OnlyA)+len(m.OnlyB))
+		for _, pr := range m.Pairs {
+			objs = append(objs, Object{Members: map[int]int{p.A: pr.A, p.B: pr.B}})
+		}
+		for _, a := range m.OnlyA {
+			objs = append(objs, Object{Members: map[int]int{p.A: a}})
+		}
+		for _, b := range m.OnlyB {
+			objs = append(objs, Object{Members: map[int]int{p.B: b}})
+		}
+		out[i] = objs
+	}
+	return out
+}
+
+// groupAll groups every image's boxes into objects.
+func groupAll(images []ImageLabels, n int, threshold float64, classAware bool) [][]Object {
+	out := make([][]Object, len(images))
+	for ii, im := range images {
+		boxes := make([][]project.Box, n)
+		classes := make([][]int64, n)
+		for i := 0; i < n; i++ {
+			l := labelsOf(im, i)
+			boxes[i], classes[i] = l.Boxes, l.Classes
+		}
+		out[ii] = GroupObjects(boxes, classes, threshold, classAware)
+	}
+	return out
 }
 
 func setOf(cs []int64) map[int64]bool {
