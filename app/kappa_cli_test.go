@@ -152,10 +152,10 @@ func TestAgreeAndConsensusCommands(t *testing.T) {
 	out := mustCLI(t, "agree", path, "--annotators", "Ines,Tomas", "--json")
 	var m struct {
 		Pairs []struct {
-			A, B                                 string
+			A, B                                  string
 			Matched, AOnly, BOnly, ABoxes, BBoxes int
-			F1                                   float64
-			Confusion                            struct {
+			F1                                    float64
+			Confusion                             struct {
 				Classes []string
 				Counts  [][]float64
 			}
@@ -201,7 +201,9 @@ func TestAgreeAndConsensusCommands(t *testing.T) {
 	}
 	out = mustCLI(t, "agree", path, "--annotators", "Ines,consensus", "--json")
 	var c struct {
-		Pairs []struct{ BBoxes int `json:"b_boxes"` }
+		Pairs []struct {
+			BBoxes int `json:"b_boxes"`
+		}
 	}
 	json.Unmarshal([]byte(out), &c)
 	if c.Pairs[0].BBoxes != p.Matched {
