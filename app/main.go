@@ -63,6 +63,14 @@ Commands:
   export PROJECT.boxw --layout json|xml|txt --annotator NAME --out DIR
         [--split 80/10/10] [--seed N] [--images copy|link|none] [--json]
                                         write a split dataset
+  agree PROJECT.boxw --annotators A,B[,C...] [--iou 0.5] [--class-aware]
+        [--worst N] [--json|--csv]      box agreement, kappa, alpha, worst images
+  consensus PROJECT.boxw --annotators A,B[,C...] [--iou 0.5] [--min K]
+        [--median]                      store the consensus as annotator "consensus"
+  kappa --table FILE.csv [--weights none|linear|quadratic|W.csv] [--json]
+  kappa --ratings FILE.csv [--level nominal|ordinal|interval|ratio]
+        [--weights W] [--categories a,b,c] [--json]
+                                        Cohen's, Fleiss' kappa, Krippendorff's alpha
   demo DIR [--no-open] [--seed N]       make the invented harbour demo in DIR
   help                                  this text
 
