@@ -954,8 +954,8 @@ func (r *viewRenderer) Layout(size fyne.Size) {
 		ts := c.text.MinSize()
 		pad := float32(3)
 		tagY := float32(s.Y0) - ts.Height
-		if it.ReadOnly {
-			tagY = float32(s.Y1) // below the box, clear of the editable layer's tag
+		if it.ReadOnly && it.Dash >= 0 {
+			tagY = float32(s.Y1) // below the box, clear of the tag of a solid-lined box
 		} else if tagY < 0 {
 			tagY = float32(s.Y0) // no room above: put the tag inside the box
 		}
