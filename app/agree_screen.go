@@ -33,6 +33,7 @@ type agreeScreen struct {
 	iou      *widget.Slider
 	iouLabel *widget.Label
 	aware    *widget.Check
+	weights  *widget.Select
 	run      *widget.Button
 	progress *widget.ProgressBar
 	pair     *widget.Select
@@ -86,6 +87,8 @@ func newAgreeScreen(u *ui) *agreeScreen {
 	s.iou.OnChanged = func(v float64) { s.iouLabel.SetText(fmt.Sprintf("IoU ≥ %.2f", v)) }
 	s.iou.SetValue(agree.DefaultThreshold)
 	s.aware = widget.NewCheck("Class-aware matching", nil)
+	s.weights = widget.NewSelect([]string{"unweighted", "linear", "quadratic"}, nil)
+	s.weights.SetSelected("unweighted")
 	s.run = widget.NewButtonWithIcon("Compare", theme.MediaPlayIcon(), s.compute)
 	s.run.Importance = widget.HighImportance
 	s.progress = widget.NewProgressBar()
@@ -109,7 +112,8 @@ func newAgreeScreen(u *ui) *agreeScreen {
 
 	controls := container.NewVBox(
 		container.NewBorder(nil, nil, widget.NewLabel("Annotators"), nil, s.who),
-		container.NewHBox(s.iouLabel, container.NewGridWrap(fyne.NewSize(220, 36), s.iou), s.aware, s.run,
+		container.NewHBox(s.iouLabel, container.NewGridWrap(fyne.NewSize(200, 36), s.iou), s.aware,
+			widget.NewLabel("Kappa weights (ordered classes)"), s.weights, s.run,
 			widget.NewButtonWithIcon("Store consensus…", theme.DocumentSaveIcon(), s.askConsensus)),
 		s.progress,
 		container.NewBorder(nil, nil, widget.NewLabel("Pair"), nil, s.pair),
@@ -174,6 +178,9 @@ func (s *agreeScreen) compute() {
 		if err == nil {
 			fyne.Do(func() { s.progress.SetValue(0.2) })
 			opt.Classes = d.classOrder()
+			if w := s.weights.Selected; w == "linear" || w == "quadratic" {
+				opt.Weights, _ = agree.DisagreementWeights(w, len(opt.Classes))
+			}
 			rep, err = agree.Compare(d.images, len(d.annotators), opt, func(done, total int) {
 				fyne.Do(func() { s.progress.SetValue(0.2 + 0.8*float64(done)/float64(total)) })
 			})
@@ -238,6 +245,9 @@ func (s *agreeScreen) showPair(i int) {
 	fmt.Fprintf(&h, "Detection F1 %s.   IoU of matched pairs: mean %s, median %s, 10th–90th percentile %s–%s.\n",
 		f4(p.F1), f4(p.IoU.Mean), f4(p.IoU.Median), f4(p.IoU.P10), f4(p.IoU.P90))
 	fmt.Fprintf(&h, "Cohen's kappa on the classes of matched pairs: %s, 95 %% CI %s, SE %s, z %s.\n", fmtKappa(p.Kappa), ci(p.Kappa.CI95), f4(p.Kappa.SE), f4(p.Kappa.Z))
+	if wk := p.WeightedKappa; wk != nil {
+		fmt.Fprintf(&h, "Weighted kappa (%s weights, classes in project order): %s, 95 %% CI %s.\n", s.weights.Selected, fmtKappa(*wk), ci(wk.CI95))
+	}
 	fmt.Fprintf(&h, "Counting unmatched boxes as \"no object\": kappa %s (biased low, see below).\n", fmtKappa(p.KappaWithNoObject))
 	if len(s.rep.Pairs) > 1 || s.rep.Fleiss != nil {
 		if s.rep.Fleiss != nil {

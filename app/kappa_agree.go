@@ -106,6 +106,7 @@ func cmdAgree(args []string, stdout, stderr io.Writer) error {
 	asJSON := fs.Bool("json", false, "print JSON")
 	asCSV := fs.Bool("csv", false, "print the table of annotator pairs as CSV")
 	worst := fs.Int("worst", 20, "how many of the most disputed images to list")
+	weights := fs.String("weights", "none", "weighted kappa for ordered classes (in class order): none, linear, quadratic or a k×k CSV of disagreement weights")
 	pos, err := parse(fs, args, 1, 1, "agree PROJECT.boxw --annotators A,B[,C…] [--iou 0.5] [--class-aware] [--json|--csv]")
 	if err != nil {
 		return err
@@ -125,7 +126,22 @@ func cmdAgree(args []string, stdout, stderr io.Writer) error {
 	if err != nil {
 		return err
 	}
-	rep, err := agree.Compare(d.images, len(d.annotators), agree.Options{Threshold: *iou, ClassAware: *aware, Classes: d.classOrder()}, nil)
+	opt := agree.Options{Threshold: *iou, ClassAware: *aware, Classes: d.classOrder()}
+	switch *weights {
+	case "none", "":
+	case "linear", "quadratic":
+		opt.Weights, _ = agree.DisagreementWeights(*weights, len(opt.Classes))
+	default:
+		w, _, err := readMatrix(*weights, "weights")
+		if err != nil {
+			return err
+		}
+		if len(w) != len(opt.Classes) {
+			return fmt.Errorf("%s: %d×%d weights for the project's %d classes (%s)", *weights, len(w), len(w), len(opt.Classes), strings.Join(d.names(opt.Classes), ", "))
+		}
+		opt.Weights = w
+	}
+	rep, err := agree.Compare(d.images, len(d.annotators), opt, nil)
 	if err != nil {
 		return err
 	}
@@ -204,6 +220,9 @@ func agreementJSON(d agreementData, rep agree.Report, worst int) map[string]any 
 			"confusion_with_no_object": map[string]any{"classes": append(d.names(p.Classes), "no object"), "counts": p.ConfusionWithNoObject},
 			"per_class":                classJSON(d, p.PerClass, true),
 		}
+		if p.WeightedKappa != nil {
+			m["weighted_kappa"] = kappaJSON(*p.WeightedKappa)
+		}
 		if !math.IsNaN(p.Kappa.Kappa) {
 			m["band"] = agree.Band(p.Kappa.Kappa)
 		}
@@ -262,6 +281,9 @@ func printAgreement(w io.Writer, d agreementData, rep agree.Report, worst int) {
 			d.annotators[p.A].Name, d.annotators[p.B].Name, p.Images, p.Matched, p.OnlyA, d.annotators[p.A].Name, p.OnlyB, d.annotators[p.B].Name, f4(p.F1))
 		fmt.Fprintf(w, "  IoU of matched pairs: mean %s, median %s, 10th percentile %s, 90th %s\n", f4(p.IoU.Mean), f4(p.IoU.Median), f4(p.IoU.P10), f4(p.IoU.P90))
 		fmt.Fprintf(w, "  Cohen's kappa on the classes of matched pairs: %s, 95 %% CI %s\n", fmtKappa(p.Kappa), ci(p.Kappa.CI95))
+		if p.WeightedKappa != nil {
+			fmt.Fprintf(w, "  weighted kappa (ordered classes): %s, 95 %% CI %s\n", fmtKappa(*p.WeightedKappa), ci(p.WeightedKappa.CI95))
+		}
 		fmt.Fprintf(w, "  counting unmatched boxes as \"no object\": %s (biased low, see notes)\n", fmtKappa(p.KappaWithNoObject))
 	}
 	if rep.Fleiss != nil {

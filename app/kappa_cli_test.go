@@ -5,6 +5,7 @@ import (
 	"math"
 	"os"
 	"path/filepath"
+	"strconv"
 	"strings"
 	"testing"
 )
@@ -184,6 +185,31 @@ func TestAgreeAndConsensusCommands(t *testing.T) {
 	}
 	if int(sum) != p.Matched || len(p.Confusion.Classes) != 4 {
 		t.Errorf("confusion holds %v pairs over %d classes, want %d over 4", sum, len(p.Confusion.Classes), p.Matched)
+	}
+	// Weighted kappa over the classes in project order: the same figure as
+	// the table calculator gives for the pair's confusion matrix.
+	wout := mustCLI(t, "agree", path, "--annotators", "Ines,Tomas", "--json", "--weights", "linear")
+	var wm struct {
+		Pairs []struct {
+			WeightedKappa map[string]any `json:"weighted_kappa"`
+		}
+	}
+	json.Unmarshal([]byte(wout), &wm)
+	var tb strings.Builder
+	for _, r := range p.Confusion.Counts {
+		var cells []string
+		for _, v := range r {
+			cells = append(cells, strconv.Itoa(int(v)))
+		}
+		tb.WriteString(strings.Join(cells, ",") + "\n")
+	}
+	tk := kappaJSONOut(t, "--table", writeFile(t, "conf.csv", tb.String()), "--weights", "linear")
+	if len(wm.Pairs) == 0 || wm.Pairs[0].WeightedKappa == nil {
+		t.Fatalf("no weighted kappa:\n%s", wout)
+	}
+	nearJSON(t, "weighted kappa of the pair", wm.Pairs[0].WeightedKappa["kappa"], tk["kappa"].(float64), 1e-12)
+	if code, _, stderr := cli(t, "agree", path, "--annotators", "Ines,Tomas", "--weights", writeFile(t, "w2.csv", "0,1\n1,0\n")); code == 0 || !strings.Contains(stderr, "4 classes") {
+		t.Errorf("weights of the wrong size: exit %d, %s", code, stderr)
 	}
 	csvOut := mustCLI(t, "agree", path, "--annotators", "Ines,Tomas", "--csv")
 	if lines := strings.Split(strings.TrimSpace(csvOut), "\n"); len(lines) != 2 || !strings.HasPrefix(lines[0], "a,b,images") {

@@ -35,6 +35,10 @@ type Options struct {
 	// Classes fixes the order of the confusion matrix; classes seen but
 	// not listed are appended in ascending ID order.
 	Classes []int64
+	// Weights, when not nil, are disagreement weights over Classes (in
+	// that order) for a weighted kappa of ordered classes; "linear" and
+	// "quadratic" come from DisagreementWeights.
+	Weights [][]float64
 }
 
 // DefaultThreshold is the usual IoU for "the same object" (common practice).
@@ -88,6 +92,7 @@ type PairReport struct {
 	Classes               []int64     // order of the confusion matrices
 	Confusion             [][]float64 // matched pairs: rows A's class, columns B's
 	Kappa                 Kappa       // Cohen's kappa on Confusion
+	WeightedKappa         *Kappa      // with Options.Weights, when given
 	ConfusionWithNoObject [][]float64 // Classes plus a last "no object" row and column
 	KappaWithNoObject     Kappa
 	PerClass              []ClassAgreement
@@ -182,6 +187,20 @@ func ComparePair(images []ImageLabels, a, b int, opt Options) PairReport {
 		r.ConfusionWithNoObject[k][idx[c]]++
 	}
 	r.Kappa = kappaOrNote(r.Confusion)
+	if opt.Weights != nil {
+		wk := Kappa{Kappa: math.NaN(), SE: math.NaN(), SE0: math.NaN(), Z: math.NaN(), Po: math.NaN(), Pe: math.NaN(), CI95: [2]float64{math.NaN(), math.NaN()}}
+		switch {
+		case len(opt.Weights) != k:
+			wk.Notes = []string{fmt.Sprintf("weights are %d×%d but %d classes were compared; list the classes the weights are for", len(opt.Weights), len(opt.Weights), k)}
+		default:
+			if got, err := WeightedKappa(r.Confusion, opt.Weights); err != nil {
+				wk.Notes = []string{err.Error()}
+			} else {
+				wk = got
+			}
+		}
+		r.WeightedKappa = &wk
+	}
 	r.KappaWithNoObject = kappaOrNote(r.ConfusionWithNoObject)
 	r.KappaWithNoObject.Notes = append(r.KappaWithNoObject.Notes, NoObjectCaveat)
 
