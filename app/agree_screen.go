@@ -169,6 +169,7 @@ func (s *agreeScreen) compute() {
 	ctx, cancel := context.WithCancel(context.Background())
 	s.cancel = cancel
 	opt := agree.Options{Threshold: s.iou.Value, ClassAware: s.aware.Checked}
+	wsel := s.weights.Selected // read widgets here, not in the goroutine
 	s.run.Disable()
 	s.progress.SetValue(0)
 	s.progress.Show()
@@ -178,7 +179,7 @@ func (s *agreeScreen) compute() {
 		if err == nil {
 			fyne.Do(func() { s.progress.SetValue(0.2) })
 			opt.Classes = d.classOrder()
-			if w := s.weights.Selected; w == "linear" || w == "quadratic" {
+			if w := wsel; w == "linear" || w == "quadratic" {
 				opt.Weights, _ = agree.DisagreementWeights(w, len(opt.Classes))
 			}
 			rep, err = agree.Compare(d.images, len(d.annotators), opt, func(done, total int) {
