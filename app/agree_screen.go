@@ -113,9 +113,9 @@ func newAgreeScreen(u *ui) *agreeScreen {
 	controls := container.NewVBox(
 		container.NewBorder(nil, nil, widget.NewLabel("Annotators"), nil, s.who),
 		container.NewHBox(s.iouLabel, container.NewGridWrap(fyne.NewSize(200, 36), s.iou), s.aware,
-			widget.NewLabel("Kappa weights (ordered classes)"), s.weights, s.run,
-			widget.NewButtonWithIcon("Store consensus…", theme.DocumentSaveIcon(), s.askConsensus)),
-		s.progress,
+			widget.NewLabel("Kappa weights (ordered classes)"), s.weights),
+		container.NewBorder(nil, nil, container.NewHBox(s.run,
+			widget.NewButtonWithIcon("Store consensus…", theme.DocumentSaveIcon(), s.askConsensus)), nil, s.progress),
 		container.NewBorder(nil, nil, widget.NewLabel("Pair"), nil, s.pair),
 	)
 	charts := container.NewGridWithColumns(2,
