@@ -85,6 +85,11 @@ type ui struct {
 
 	pointer string
 
+	suggestions         []project.Suggestion // pending, on the image on screen
+	suggestionEdits     map[int64]project.Suggestion
+	showSuggestions     *widget.Check
+	suggestionThreshold float64
+
 	agree       *agreeScreen // the agreement report window, when open
 	compare     *comparison  // an image opened from the agreement report
 	compareBar  *fyne.Container
@@ -112,6 +117,10 @@ func newUI(a fyne.App) *ui {
 	u.redoBtn = widget.NewButtonWithIcon("", theme.ContentRedoIcon(), u.redo)
 	u.others = widget.NewCheck("Other annotators", func(on bool) { u.view.SetShowReadOnly(on) })
 	u.others.SetChecked(true)
+	u.suggestionThreshold = defaultSuggestionThreshold
+	u.suggestionEdits = map[int64]project.Suggestion{}
+	u.showSuggestions = widget.NewCheck("Suggestions", func(bool) { u.refreshBoxes() })
+	u.showSuggestions.SetChecked(true)
 	u.guides = widget.NewCheck("Guides", func(on bool) {
 		if u.view.Guides() != on {
 			u.view.SetGuides(on)
@@ -193,12 +202,25 @@ func (u *ui) menu() *fyne.MainMenu {
 		fyne.NewMenuItemSeparator(),
 		fyne.NewMenuItem("Annotator agreement… (Ctrl+G)", u.showAgreement),
 	)
+	sugg := fyne.NewMenu("Suggestions",
+		fyne.NewMenuItem("Import predictions…", u.askImportSuggestions),
+		fyne.NewMenuItemSeparator(),
+		fyne.NewMenuItem("Accept selected suggestion (A)", u.acceptSuggestion),
+		fyne.NewMenuItem("Reject selected suggestion (Z)", u.rejectSuggestion),
+		fyne.NewMenuItem("Accept all on this image above the threshold (Shift+A)", u.acceptAllAbove),
+		fyne.NewMenuItem("Score threshold…", u.askSuggestionThreshold),
+		fyne.NewMenuItem("Accept or reject many…", u.askBulkReview),
+		fyne.NewMenuItemSeparator(),
+		fyne.NewMenuItem("Review one by one…", u.showReviewQueue),
+		fyne.NewMenuItem("Review as a grid of crops…", u.showCropGrid),
+		fyne.NewMenuItem("What the decisions tell us…", u.showSuggestionStats),
+	)
 	help := fyne.NewMenu("Help",
 		fyne.NewMenuItem("Keys and mouse (H)", u.showKeys),
 		fyne.NewMenuItem("Cautions", u.showCautions),
 		fyne.NewMenuItem("About Boxwright", u.showAbout),
 	)
-	return fyne.NewMainMenu(file, edit, images, view, data, help)
+	return fyne.NewMainMenu(file, edit, images, view, sugg, data, help)
 }
 
 func (u *ui) welcome() fyne.CanvasObject {
@@ -224,7 +246,7 @@ func (u *ui) projectScreen() fyne.CanvasObject {
 		widget.NewButton("1:1", func() { u.view.TypedRune('r') }),
 		widget.NewButtonWithIcon("", theme.ZoomInIcon(), func() { u.view.TypedRune('+') }),
 		widget.NewButtonWithIcon("", theme.ZoomOutIcon(), func() { u.view.TypedRune('-') }),
-		u.zoom, widget.NewSeparator(), u.guides, u.others, layout.NewSpacer(),
+		u.zoom, widget.NewSeparator(), u.guides, u.others, u.showSuggestions, layout.NewSpacer(),
 		widget.NewButtonWithIcon("Done, next", theme.ConfirmIcon(), func() { u.markAndGo(project.StatusDone) }),
 		widget.NewButtonWithIcon("Keys", theme.HelpIcon(), u.showKeys))
 	centre := container.NewBorder(container.NewVBox(tools, u.compareBar), nil, nil, nil, u.view)

@@ -31,6 +31,10 @@ func (u *ui) wireView() {
 	v := u.view
 	v.OnCreate = u.createBox
 	v.OnChange = func(key int64, b project.Box) {
+		if id, ok := suggestionOf(key); ok {
+			u.editSuggestion(id, func(g *project.Suggestion) { g.Box = b })
+			return
+		}
 		u.edit("move or resize", func(_ int64, l project.Label) project.Label { l.Box = b; return l }, key)
 	}
 	v.OnSelect = func(int64) { u.updateStatus() }
@@ -136,6 +140,12 @@ func (u *ui) typedRune(r rune) {
 		u.view.TypedRune('g')
 	case r == 'h' || r == '?':
 		u.showKeys()
+	case r == 'a':
+		u.acceptSuggestion()
+	case r == 'z':
+		u.rejectSuggestion()
+	case r == 'A':
+		u.acceptAllAbove()
 	}
 }
 
@@ -361,6 +371,7 @@ func (u *ui) showImage(i int) {
 	ctx, cancel := context.WithCancel(context.Background())
 	u.cancelDecode = cancel
 	u.loadOthers()
+	u.loadSuggestions()
 	if p := u.cache.Ready(im.ID); p != nil {
 		u.view.SetImage(p)
 		u.refreshBoxes()
@@ -467,6 +478,7 @@ func (u *ui) refreshBoxes() {
 			items = append(items, canvas.Item{Key: k, Box: l.Box, Color: c.Color, Caption: c.Name})
 		}
 	}
+	items = append(items, u.suggestionItems()...)
 	u.view.SetItems(items)
 	u.updateClassBar()
 	u.updateStatus()
@@ -514,6 +526,10 @@ func (u *ui) myKeys() []int64 {
 }
 
 func (u *ui) deleteSelected() {
+	if _, ok := u.selectedSuggestion(); ok {
+		u.rejectSuggestion()
+		return
+	}
 	if k := u.view.Selected(); k != 0 && u.needAnnotator() {
 		u.afterEdit(u.sess.Delete(context.Background(), u.imageID, "delete a box", k))
 	}
@@ -561,6 +577,10 @@ func (u *ui) pickClass(id int64) {
 		return
 	}
 	u.current = id
+	if sid, ok := suggestionOf(u.view.Selected()); ok {
+		u.editSuggestion(sid, func(g *project.Suggestion) { g.ClassID = id })
+		return
+	}
 	if k := u.view.Selected(); k != 0 {
 		u.edit("change class", func(_ int64, l project.Label) project.Label { l.ClassID = id; return l }, k)
 		return
@@ -587,6 +607,12 @@ func (u *ui) history(back bool) {
 	}
 	if img != u.imageID {
 		u.selectImageID(img)
+	}
+	before := len(u.suggestions)
+	u.loadSuggestions() // an undone or redone decision changes them
+	if c, ok := u.perImg[u.imageID]; ok || len(u.suggestions) != before {
+		c.Pending += len(u.suggestions) - before
+		u.perImg[u.imageID] = c
 	}
 	u.afterEdit(err)
 }
@@ -770,6 +796,13 @@ const keysHelp = `DRAWING AND EDITING (click the image first)
   C                         cycle through the boxes under the pointer
   Esc                       cancel a drag, or clear the selection
   Ctrl+Z                    undo      Ctrl+Shift+Z or Ctrl+Y   redo
+
+SUGGESTIONS (a model's boxes: dotted, tinted, "suggested … score")
+  click a suggestion        select it; drag it or press a number key to correct it
+  A                         accept it (as corrected when you changed it)
+  Z, Delete                 reject it
+  Shift+A                   accept every suggestion on this image above the threshold
+  Ctrl+Z                    undoes a decision like any edit
 
 VIEW
   wheel                     zoom around the pointer (5 % … 3200 %)

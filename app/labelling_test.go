@@ -71,6 +71,8 @@ func newLabFixture(t *testing.T) *labFixture {
 	u.annotatorFlag = "Ines"
 	u.decoded = func(_ int64, err error) { f.decoded <- err }
 	u.win.Resize(fyne.NewSize(1200, 800))
+	// These tests are about labels; the suggestion layer has its own.
+	u.showSuggestions.SetChecked(false)
 	if err := u.openProject(path); err != nil {
 		t.Fatal(err)
 	}

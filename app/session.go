@@ -41,10 +41,63 @@ type step struct {
 	what          string
 	image         int64
 	before, after map[int64]project.Label
+	// decisions, when set, make this a review step: suggestions accepted
+	// or rejected (undone: back to pending, their labels gone).
+	decisions []store.Decision
+	undoing   bool
 }
 
 func (s step) reversed() step {
-	return step{what: s.what, image: s.image, before: s.after, after: s.before}
+	return step{what: s.what, image: s.image, before: s.after, after: s.before, decisions: s.decisions, undoing: !s.undoing}
+}
+
+// Decide records a reviewer's decisions on suggestions as one undoable
+// step. Unlike box edits it is not queued on failure: the store refuses
+// it whole (for example when another copy decided first) and nothing
+// changes.
+func (s *session) Decide(ctx context.Context, imageID int64, what string, ds []store.Decision) error {
+	if len(ds) == 0 {
+		return nil
+	}
+	if len(s.pending) > 0 {
+		if err := s.Flush(ctx); err != nil {
+			return fmt.Errorf("earlier edits are not saved yet, so suggestions cannot be decided: %w", err)
+		}
+	}
+	st := step{what: what, image: imageID, decisions: ds}
+	if err := s.review(ctx, st); err != nil {
+		return err
+	}
+	s.undo = append(s.undo, st)
+	if len(s.undo) > historyLimit {
+		s.undo = s.undo[len(s.undo)-historyLimit:]
+	}
+	s.redo = nil
+	return nil
+}
+
+// review writes a review step (or its undoing) and forgets the boxes in
+// memory, which now differ from the file's.
+func (s *session) review(ctx context.Context, st step) error {
+	var err error
+	if st.undoing {
+		ids := make([]int64, len(st.decisions))
+		for i, d := range st.decisions {
+			ids[i] = d.SuggestionID
+		}
+		err = s.st.Undecide(ctx, ids)
+	} else {
+		_, err = s.st.Decide(ctx, s.annotator.ID, st.decisions)
+	}
+	if err != nil {
+		return fmt.Errorf("%s: %w", st.what, err)
+	}
+	for img := range s.docs {
+		if !s.hasPending(img) {
+			delete(s.docs, img)
+		}
+	}
+	return nil
 }
 
 func newSession(st *store.Store, a project.Annotator) *session {
@@ -206,7 +259,12 @@ func (s *session) Undo(ctx context.Context) (int64, error) {
 	st := s.undo[len(s.undo)-1]
 	s.undo = s.undo[:len(s.undo)-1]
 	s.redo = append(s.redo, st)
-	return st.image, s.apply(ctx, st.reversed())
+	err := s.apply(ctx, st.reversed())
+	if err != nil && st.decisions != nil { // refused whole: nothing changed
+		s.redo = s.redo[:len(s.redo)-1]
+		s.undo = append(s.undo, st)
+	}
+	return st.image, err
 }
 
 // Redo repeats the last undone edit.
@@ -217,11 +275,19 @@ func (s *session) Redo(ctx context.Context) (int64, error) {
 	st := s.redo[len(s.redo)-1]
 	s.redo = s.redo[:len(s.redo)-1]
 	s.undo = append(s.undo, st)
-	return st.image, s.apply(ctx, st)
+	err := s.apply(ctx, st)
+	if err != nil && st.decisions != nil {
+		s.undo = s.undo[:len(s.undo)-1]
+		s.redo = append(s.redo, st)
+	}
+	return st.image, err
 }
 
 // apply changes the boxes in memory and queues the write.
 func (s *session) apply(ctx context.Context, st step) error {
+	if st.decisions != nil {
+		return s.review(ctx, st)
+	}
 	doc, err := s.load(ctx, st.image)
 	if err != nil {
 		return err

@@ -110,3 +110,18 @@ func ring(dst *image.RGBA, x0, y0, x1, y1, lw int, c color.NRGBA, dash int) {
 		paintSpan(dst, max(x1-lw, x0+lw), x1, y, c, 0, 0)
 	}
 }
+
+// suggestionBox draws a model's proposal: a dotted outline on a dark
+// halo over a faint tint of its class colour, unlike any label's line.
+func suggestionBox(dst *image.RGBA, b project.Box, lw int, c color.NRGBA) {
+	x0, y0, x1, y1, ok := screenRect(dst, b, 0)
+	if !ok {
+		return
+	}
+	tint := color.NRGBA{c.R, c.G, c.B, 0x28}
+	for y := max(y0, dst.Rect.Min.Y); y < min(y1, dst.Rect.Max.Y); y++ {
+		paintSpan(dst, x0, x1, y, tint, 0, 0)
+	}
+	ring(dst, x0-1, y0-1, x1+1, y1+1, lw+2, color.NRGBA{0, 0, 0, 0x70}, 0)
+	ring(dst, x0, y0, x1, y1, lw, c, 2)
+}

@@ -31,6 +31,10 @@ type Item struct {
 	// Marked boxes get a second, white outline around them: the boxes
 	// that found no partner in a comparison.
 	Marked bool
+	// Suggestion boxes are a model's proposals: selectable and editable
+	// like the person's own, but drawn dotted with a tinted fill so that
+	// nobody takes them for labels.
+	Suggestion bool
 }
 
 // View shows one image with its boxes and lets a person zoom, pan, draw,
@@ -854,6 +858,10 @@ func (r *viewRenderer) draw(w, h int) image.Image {
 		if it.Marked && (showOther || !it.ReadOnly) {
 			markBox(r.buf, sb, lw)
 		}
+		if it.Suggestion {
+			suggestionBox(r.buf, sb, lw, it.Color)
+			continue
+		}
 		if it.ReadOnly {
 			if showOther {
 				dash := it.Dash
@@ -905,7 +913,7 @@ func (r *viewRenderer) rebuild() {
 		cp := r.caps[i]
 		cp.text.Text = c.it.Caption
 		cp.text.TextSize = theme.CaptionTextSize()
-		cp.text.TextStyle = fyne.TextStyle{Italic: c.it.ReadOnly}
+		cp.text.TextStyle = fyne.TextStyle{Italic: c.it.ReadOnly || c.it.Suggestion, Bold: c.it.Suggestion}
 		col := c.it.Color
 		if c.it.ReadOnly {
 			col.A = 0xc0

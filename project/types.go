@@ -133,6 +133,7 @@ type Suggestion struct {
 	Reviewed   time.Time
 	LabelID    int64
 	Created    time.Time
+	FinalIoU   float64 // IoU of the suggestion with the label it became; 0 until accepted or corrected
 }
 
 // ValidateName checks a class or annotator name: not blank, at most 100

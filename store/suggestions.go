@@ -9,7 +9,7 @@ import (
 	"boxwright/project"
 )
 
-const suggestionCols = "id, image_id, class_id, x0, y0, x1, y1, score, source, state, reviewer_id, reviewed_at, label_id, created_at"
+const suggestionCols = "id, image_id, class_id, x0, y0, x1, y1, score, source, state, reviewer_id, reviewed_at, label_id, created_at, final_iou"
 
 func scanSuggestion(row interface{ Scan(...any) error }) (project.Suggestion, error) {
 	var g project.Suggestion
@@ -17,7 +17,7 @@ func scanSuggestion(row interface{ Scan(...any) error }) (project.Suggestion, er
 	var reviewer, label sql.NullInt64
 	var reviewed sql.NullString
 	err := row.Scan(&g.ID, &g.ImageID, &g.ClassID, &g.Box.X0, &g.Box.Y0, &g.Box.X1, &g.Box.Y1, &g.Score, &g.Source,
-		&state, &reviewer, &reviewed, &label, &created)
+		&state, &reviewer, &reviewed, &label, &created, &g.FinalIoU)
 	g.State = project.SuggestionState(state)
 	g.ReviewerID, g.LabelID = reviewer.Int64, label.Int64
 	g.Reviewed, g.Created = parseNullTime(reviewed), parseTime(created)
@@ -128,8 +128,8 @@ func (s *Store) AcceptSuggestion(ctx context.Context, id, reviewerID int64, fina
 		if err != nil {
 			return err
 		}
-		_, err = tx.ExecContext(ctx, "UPDATE suggestions SET state = ?, reviewer_id = ?, reviewed_at = ?, label_id = ? WHERE id = ?",
-			string(state), reviewerID, formatTime(s.now()), l.ID, id)
+		_, err = tx.ExecContext(ctx, "UPDATE suggestions SET state = ?, reviewer_id = ?, reviewed_at = ?, label_id = ?, final_iou = ? WHERE id = ?",
+			string(state), reviewerID, formatTime(s.now()), l.ID, g.Box.IoU(final), id)
 		return translate(err)
 	})
 	if err != nil {
