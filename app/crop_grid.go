@@ -85,6 +85,7 @@ func (u *ui) showCropGrid() {
 	if err := g.refreshClasses(); err != nil {
 		dialog.ShowError(err, g.win)
 	}
+	g.win.Canvas().Focus(g.grid) // arrows move between crops, Space marks
 }
 
 // newCropGrid builds the window (not yet shown, no class chosen); load
@@ -484,7 +485,10 @@ func (g *cropGrid) work(ctx context.Context, gen int) {
 		if c != nil {
 			id := s.ID
 			fyne.Do(func() {
-				if c.id == id {
+				g.mu.Lock()
+				still := c.id == id // the cell may show another by now
+				g.mu.Unlock()
+				if still {
 					c.setImage(img, err)
 				}
 			})
