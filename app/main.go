@@ -63,6 +63,12 @@ Commands:
   export PROJECT.boxw --layout json|xml|txt --annotator NAME --out DIR
         [--split 80/10/10] [--seed N] [--images copy|link|none] [--json]
                                         write a split dataset
+  suggestions import PROJECT.boxw FILE --source NAME [--layout json|txt|csv]
+        [--classes FILE] [--min-score S] [--nms IOU] [--map FROM=TO]...
+        [--create-classes|--drop-unknown] [--json]
+                                        import a model's predictions for review
+  suggestions stats PROJECT.boxw [--source NAME] [--json]
+                                        what the review decisions say per source
   agree PROJECT.boxw --annotators A,B[,C...] [--iou 0.5] [--class-aware]
         [--worst N] [--json|--csv]      box agreement, kappa, alpha, worst images
   consensus PROJECT.boxw --annotators A,B[,C...] [--iou 0.5] [--min K]
