@@ -500,3 +500,39 @@ func TestReviewSurvivesReopen(t *testing.T) {
 		t.Errorf("undo after reopen: %v", err)
 	}
 }
+
+// A big import drops and rebuilds the review index; it must be back after
+// the import, and still there after one that failed half-way.
+func TestBulkImportKeepsReviewIndex(t *testing.T) {
+	s := newStore(t)
+	f := newReviewFixture(t, s)
+	gs := make([]project.Suggestion, 12000)
+	for i := range gs {
+		gs[i] = project.Suggestion{ImageID: f.im1.ID, ClassID: f.boat.ID, Box: box(0, 0, 10, 10), Score: float64(i%100) / 100}
+	}
+	hasIndex := func() bool {
+		var n int
+		s.db.QueryRow("SELECT count(*) FROM sqlite_master WHERE type = 'index' AND name = ?", reviewIndex).Scan(&n)
+		return n == 1
+	}
+	if _, err := s.ImportSuggestions(bg, "det", gs); err != nil || !hasIndex() {
+		t.Fatalf("bulk import: %v, index there: %v", err, hasIndex())
+	}
+	if n, _ := s.CountSuggestions(bg, SuggestionQuery{ClassID: f.boat.ID, MinScore: 0.9}); n != 1200 {
+		t.Errorf("count after bulk import: %d", n)
+	}
+	// A refusal by the database while inserting, after the index was dropped.
+	if _, err := s.db.Exec("CREATE TRIGGER refuse BEFORE INSERT ON suggestions WHEN NEW.score = 42 BEGIN SELECT RAISE(ABORT, 'refused'); END"); err != nil {
+		t.Fatal(err)
+	}
+	gs[11000].Score = 42
+	if _, err := s.ImportSuggestions(bg, "det", gs); err == nil || !strings.Contains(err.Error(), "suggestions 10752 to 11007") {
+		t.Fatalf("refused import: %v", err)
+	}
+	if !hasIndex() {
+		t.Errorf("failed import left the review index dropped")
+	}
+	if n, _ := s.CountSuggestions(bg, SuggestionQuery{}); n != 12000 {
+		t.Errorf("failed import changed the suggestions: %d", n)
+	}
+}
