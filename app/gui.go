@@ -115,7 +115,7 @@ func newUI(a fyne.App) *ui {
 	u.bar = newClassBar(u.win, func() *store.Store { return u.st }, u.classesChanged, u.pickClass)
 	u.undoBtn = widget.NewButtonWithIcon("", theme.ContentUndoIcon(), u.undo)
 	u.redoBtn = widget.NewButtonWithIcon("", theme.ContentRedoIcon(), u.redo)
-	u.others = widget.NewCheck("Other annotators", func(on bool) { u.view.SetShowReadOnly(on) })
+	u.others = widget.NewCheck("Others", func(on bool) { u.view.SetShowReadOnly(on) })
 	u.others.SetChecked(true)
 	u.suggestionThreshold = defaultSuggestionThreshold
 	u.suggestionEdits = map[int64]project.Suggestion{}
@@ -242,12 +242,12 @@ func (u *ui) welcome() fyne.CanvasObject {
 func (u *ui) projectScreen() fyne.CanvasObject {
 	left := container.NewBorder(container.NewVBox(u.summary, u.nav.filters()), nil, nil, nil, u.nav.list)
 	tools := container.NewHBox(u.undoBtn, u.redoBtn, widget.NewSeparator(),
-		widget.NewButtonWithIcon("Fit", theme.ZoomFitIcon(), u.view.FitToWindow),
+		widget.NewButtonWithIcon("", theme.ZoomFitIcon(), u.view.FitToWindow),
 		widget.NewButton("1:1", func() { u.view.TypedRune('r') }),
 		widget.NewButtonWithIcon("", theme.ZoomInIcon(), func() { u.view.TypedRune('+') }),
 		widget.NewButtonWithIcon("", theme.ZoomOutIcon(), func() { u.view.TypedRune('-') }),
 		u.zoom, widget.NewSeparator(), u.guides, u.others, u.showSuggestions, layout.NewSpacer(),
-		widget.NewButtonWithIcon("Done, next", theme.ConfirmIcon(), func() { u.markAndGo(project.StatusDone) }),
+		widget.NewButtonWithIcon("Done", theme.ConfirmIcon(), func() { u.markAndGo(project.StatusDone) }),
 		widget.NewButtonWithIcon("Keys", theme.HelpIcon(), u.showKeys))
 	centre := container.NewBorder(container.NewVBox(tools, u.compareBar), nil, nil, nil, u.view)
 	inner := container.NewHSplit(centre, u.bar.Object())
