@@ -211,8 +211,8 @@ func (u *ui) menu() *fyne.MainMenu {
 		fyne.NewMenuItem("Score threshold…", u.askSuggestionThreshold),
 		fyne.NewMenuItem("Accept or reject many…", u.askBulkReview),
 		fyne.NewMenuItemSeparator(),
-		fyne.NewMenuItem("Review one by one…", u.showReviewQueue),
-		fyne.NewMenuItem("Review as a grid of crops…", u.showCropGrid),
+		fyne.NewMenuItem("Review one by one… (Ctrl+R)", u.showReviewQueue),
+		fyne.NewMenuItem("Review as a grid of crops… (Ctrl+J)", u.showCropGrid),
 		fyne.NewMenuItem("What the decisions tell us…", u.showSuggestionStats),
 	)
 	help := fyne.NewMenu("Help",

@@ -68,6 +68,8 @@ func (u *ui) addShortcuts() {
 	add(fyne.KeyL, ctrl, u.askImport)
 	add(fyne.KeyE, ctrl, u.askExport)
 	add(fyne.KeyG, ctrl, u.showAgreement)
+	add(fyne.KeyR, ctrl, u.showReviewQueue)
+	add(fyne.KeyJ, ctrl, u.showCropGrid)
 	c.AddShortcut(&fyne.ShortcutUndo{}, func(fyne.Shortcut) { u.undo() })
 	c.AddShortcut(&fyne.ShortcutRedo{}, func(fyne.Shortcut) { u.redo() })
 	add(fyne.KeyZ, ctrl|fyne.KeyModifierShift, u.redo)
@@ -803,6 +805,8 @@ SUGGESTIONS (a model's boxes: dotted, tinted, "suggested … score")
   Z, Delete                 reject it
   Shift+A                   accept every suggestion on this image above the threshold
   Ctrl+Z                    undoes a decision like any edit
+  Ctrl+R                    review one by one (A accept, Z reject, S skip, U undo)
+  Ctrl+J                    review a grid of crops of one class
 
 VIEW
   wheel                     zoom around the pointer (5 % … 3200 %)
