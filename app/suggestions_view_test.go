@@ -144,3 +144,35 @@ func TestSuggestionBulkActionsAndUndo(t *testing.T) {
 		t.Errorf("after undo %d pending below 0.3, want %d", n, preview)
 	}
 }
+
+// The statistics window opens on a project with decisions and draws the
+// reliability chart.
+func TestSuggestionStatsWindow(t *testing.T) {
+	u, _ := openDemoAs(t, "Ines")
+	ctx := context.Background()
+	gs, _ := u.st.QuerySuggestions(ctx, store.SuggestionQuery{State: project.SuggestionPending, Limit: 20})
+	var ds []store.Decision
+	for i, g := range gs {
+		ds = append(ds, store.Decision{SuggestionID: g.ID, Accept: i%3 != 0})
+	}
+	if _, err := u.st.Decide(ctx, u.me.ID, ds); err != nil {
+		t.Fatal(err)
+	}
+	stats, _, err := collectReviewStats(ctx, u.st, "")
+	if err != nil || len(stats) == 0 {
+		t.Fatalf("stats %v, %v", stats, err)
+	}
+	p, err := reliabilityPlot(stats[0].Source, stats[0].bins)
+	if err != nil {
+		t.Fatal(err)
+	}
+	img, err := plotImage(p, chartW, chartH)
+	if err != nil || img.Bounds().Dx() != chartW {
+		t.Fatalf("chart %v, %v", img, err)
+	}
+	before := len(u.app.Driver().AllWindows())
+	u.showSuggestionStats()
+	if len(u.app.Driver().AllWindows()) != before+1 {
+		t.Errorf("the statistics window did not open")
+	}
+}
