@@ -18,6 +18,7 @@ import (
 	"fyne.io/fyne/v2/widget"
 	"gonum.org/v1/plot"
 	"gonum.org/v1/plot/plotter"
+	"gonum.org/v1/plot/vg"
 
 	"boxwright/suggest"
 )
@@ -299,6 +300,7 @@ func (u *ui) showSuggestionStats() {
 	right := container.NewBorder(nil, container.NewHBox(saveChart, saveBins), nil, nil, chart)
 	left := container.NewBorder(nil, saveTable, nil, nil, table.Object())
 	split := container.NewHSplit(left, right)
+	split.Offset = 0.55
 	w.SetContent(container.NewBorder(container.NewPadded(top), nil, nil, nil, split))
 	w.Resize(fyne.NewSize(1100, 640))
 	pick.SetSelectedIndex(0)
@@ -334,6 +336,14 @@ func reliabilityPlot(source string, bins []suggest.Bin) (*plot.Plot, error) {
 	lab, err := plotter.NewLabels(plotter.XYLabels{XYs: xys, Labels: labels})
 	if err == nil {
 		p.Add(lab)
+	}
+	// The share the suggested threshold promises, as a dashed guide.
+	target, err := plotter.NewLine(plotter.XYs{{X: 0, Y: keepRate}, {X: 1, Y: keepRate}})
+	if err == nil {
+		target.Dashes = []vg.Length{vg.Points(4), vg.Points(3)}
+		p.Add(target)
+		p.Legend.Add(fmt.Sprintf("%.0f %% kept", 100*keepRate), target)
+		p.Legend.Top, p.Legend.Left = false, true
 	}
 	p.Add(plotter.NewGrid())
 	return p, nil
