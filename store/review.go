@@ -54,6 +54,32 @@ func suggestionInsertSQL(n int) string {
 // invalid box or score, an unknown image or class) rolls everything back and
 // the error names its index.
 func (s *Store) ImportSuggestions(ctx context.Context, source string, gs []project.Suggestion) (SuggestionImportReport, error) {
+	return s.importSuggestions(ctx, source, nil, gs)
+}
+
+// ReplaceSuggestionsOn is ImportSuggestions limited to some images: the
+// source's pending suggestions on those images (and only there) give way
+// to gs, which must lie on them. A search of a few images, such as the
+// exemplar matcher's, uses it.
+func (s *Store) ReplaceSuggestionsOn(ctx context.Context, source string, imageIDs []int64, gs []project.Suggestion) (SuggestionImportReport, error) {
+	on := map[int64]bool{}
+	for _, id := range imageIDs {
+		on[id] = true
+	}
+	for i, g := range gs {
+		if !on[g.ImageID] {
+			return SuggestionImportReport{Source: source}, fmt.Errorf("suggestion %d is on image %d, which is not among the images replaced: %w", i, g.ImageID, project.ErrInvalid)
+		}
+	}
+	if imageIDs == nil {
+		imageIDs = []int64{}
+	}
+	return s.importSuggestions(ctx, source, imageIDs, gs)
+}
+
+// importSuggestions replaces the source's pending suggestions everywhere
+// (onImages nil) or on the given images.
+func (s *Store) importSuggestions(ctx context.Context, source string, onImages []int64, gs []project.Suggestion) (SuggestionImportReport, error) {
 	rep := SuggestionImportReport{Source: source}
 	fail := func(err error) (SuggestionImportReport, error) {
 		return SuggestionImportReport{Source: source}, fmt.Errorf("import suggestions of %q (nothing was stored): %w", source, err)
@@ -81,14 +107,35 @@ func (s *Store) ImportSuggestions(ctx context.Context, source string, gs []proje
 		if err != nil {
 			return err
 		}
-		res, err := tx.ExecContext(ctx, "DELETE FROM suggestions WHERE source = ? AND state = ?", source, string(project.SuggestionPending))
-		if err != nil {
-			return fmt.Errorf("deleting pending suggestions: %w", translate(err))
+		if onImages == nil {
+			res, err := tx.ExecContext(ctx, "DELETE FROM suggestions WHERE source = ? AND state = ?", source, string(project.SuggestionPending))
+			if err != nil {
+				return fmt.Errorf("deleting pending suggestions: %w", translate(err))
+			}
+			n, _ := res.RowsAffected()
+			rep.ReplacedPending = int(n)
+			if err := tx.QueryRowContext(ctx, "SELECT count(*) FROM suggestions WHERE source = ?", source).Scan(&rep.KeptReviewed); err != nil {
+				return fmt.Errorf("counting reviewed suggestions: %w", translate(err))
+			}
 		}
-		n, _ := res.RowsAffected()
-		rep.ReplacedPending = int(n)
-		if err := tx.QueryRowContext(ctx, "SELECT count(*) FROM suggestions WHERE source = ?", source).Scan(&rep.KeptReviewed); err != nil {
-			return fmt.Errorf("counting reviewed suggestions: %w", translate(err))
+		for start := 0; onImages != nil && start < len(onImages); start += 500 {
+			chunk := onImages[start:min(start+500, len(onImages))]
+			in := "(?" + strings.Repeat(",?", len(chunk)-1) + ")"
+			args := []any{source, string(project.SuggestionPending)}
+			for _, id := range chunk {
+				args = append(args, id)
+			}
+			res, err := tx.ExecContext(ctx, "DELETE FROM suggestions WHERE source = ? AND state = ? AND image_id IN "+in, args...)
+			if err != nil {
+				return fmt.Errorf("deleting pending suggestions: %w", translate(err))
+			}
+			n, _ := res.RowsAffected()
+			rep.ReplacedPending += int(n)
+			var kept int
+			if err := tx.QueryRowContext(ctx, "SELECT count(*) FROM suggestions WHERE source = ? AND image_id IN "+in, append([]any{source}, args[2:]...)...).Scan(&kept); err != nil {
+				return fmt.Errorf("counting reviewed suggestions: %w", translate(err))
+			}
+			rep.KeptReviewed += kept
 		}
 
 		now := formatTime(s.now())

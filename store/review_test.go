@@ -536,3 +536,27 @@ func TestBulkImportKeepsReviewIndex(t *testing.T) {
 		t.Errorf("failed import changed the suggestions: %d", n)
 	}
 }
+
+func TestReplaceSuggestionsOnTouchesOnlyThoseImages(t *testing.T) {
+	s := newStore(t)
+	a, b := addImage(t, s, 0), addImage(t, s, 1)
+	c, _ := s.AddClass(bg, project.Class{Name: "buoy"})
+	g := func(img int64, x float64) project.Suggestion {
+		return project.Suggestion{ImageID: img, ClassID: c.ID, Box: project.Rect(x, 0, x+5, 5), Score: 0.7}
+	}
+	if _, err := s.ImportSuggestions(bg, "exemplar", []project.Suggestion{g(a.ID, 0), g(a.ID, 10), g(b.ID, 0)}); err != nil {
+		t.Fatal(err)
+	}
+	rep, err := s.ReplaceSuggestionsOn(bg, "exemplar", []int64{a.ID}, []project.Suggestion{g(a.ID, 20)})
+	if err != nil || rep.ReplacedPending != 2 || rep.Added != 1 {
+		t.Fatalf("replace on image a: %+v, %v", rep, err)
+	}
+	onB, _ := s.Suggestions(bg, project.SuggestionFilter{ImageID: b.ID})
+	onA, _ := s.Suggestions(bg, project.SuggestionFilter{ImageID: a.ID})
+	if len(onB) != 1 || len(onA) != 1 || onA[0].Box.X0 != 20 {
+		t.Errorf("a: %+v, b: %+v", onA, onB)
+	}
+	if _, err := s.ReplaceSuggestionsOn(bg, "exemplar", []int64{a.ID}, []project.Suggestion{g(b.ID, 30)}); err == nil {
+		t.Errorf("a suggestion outside the replaced images was accepted")
+	}
+}
