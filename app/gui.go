@@ -90,6 +90,9 @@ type ui struct {
 	showSuggestions     *widget.Check
 	suggestionThreshold float64
 
+	similar    *similarRun // the last exemplar search, for its live threshold
+	similarWin fyne.Window
+
 	agree       *agreeScreen // the agreement report window, when open
 	compare     *comparison  // an image opened from the agreement report
 	compareBar  *fyne.Container
@@ -204,6 +207,7 @@ func (u *ui) menu() *fyne.MainMenu {
 	)
 	sugg := fyne.NewMenu("Suggestions",
 		fyne.NewMenuItem("Import predictions…", u.askImportSuggestions),
+		fyne.NewMenuItem("Find objects like the selected box… (Ctrl+F)", u.askFindSimilar),
 		fyne.NewMenuItemSeparator(),
 		fyne.NewMenuItem("Accept selected suggestion (A)", u.acceptSuggestion),
 		fyne.NewMenuItem("Reject selected suggestion (Z)", u.rejectSuggestion),
@@ -571,7 +575,14 @@ func (u *ui) runJob(title string, work func(ctx context.Context, progress func(f
 	busy := widget.NewProgressBarInfinite()
 	bar.Hide()
 	d := dialog.NewCustom(title, "Cancel", container.NewVBox(widget.NewLabel(title+"…"), container.NewStack(busy, bar)), u.win)
-	d.SetOnClosed(cancel)
+	// Closing the dialog (Cancel) cancels the job, but not once it has
+	// finished: Fyne chains closing callbacks, so this one decides.
+	finished := false
+	d.SetOnClosed(func() {
+		if !finished {
+			cancel()
+		}
+	})
 	d.Show()
 	go func() {
 		err := work(ctx, func(f float64) {
@@ -587,7 +598,7 @@ func (u *ui) runJob(title string, work func(ctx context.Context, progress func(f
 		fyne.Do(busy.Stop)
 		fyne.Do(func() {
 			cancelled := ctx.Err() != nil
-			d.SetOnClosed(nil)
+			finished = true
 			d.Hide()
 			cancel()
 			switch {

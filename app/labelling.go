@@ -69,6 +69,7 @@ func (u *ui) addShortcuts() {
 	add(fyne.KeyE, ctrl, u.askExport)
 	add(fyne.KeyG, ctrl, u.showAgreement)
 	add(fyne.KeyR, ctrl, u.showReviewQueue)
+	add(fyne.KeyF, ctrl, u.askFindSimilar)
 	add(fyne.KeyJ, ctrl, u.showCropGrid)
 	c.AddShortcut(&fyne.ShortcutUndo{}, func(fyne.Shortcut) { u.undo() })
 	c.AddShortcut(&fyne.ShortcutRedo{}, func(fyne.Shortcut) { u.redo() })
@@ -805,6 +806,7 @@ SUGGESTIONS (a model's boxes: dotted, tinted, "suggested … score")
   Z, Delete                 reject it
   Shift+A                   accept every suggestion on this image above the threshold
   Ctrl+Z                    undoes a decision like any edit
+  Ctrl+F                    find objects like the selected box (by correlation)
   Ctrl+R                    review one by one (A accept, Z reject, S skip, U undo)
   Ctrl+J                    review a grid of crops of one class
 

@@ -69,6 +69,10 @@ Commands:
                                         import a model's predictions for review
   suggestions stats PROJECT.boxw [--source NAME] [--json]
                                         what the review decisions say per source
+  similar PROJECT.boxw --image PATH --exemplar x0,y0,x1,y1 [--class NAME]
+        [--threshold 0.6] [--scales 0.8:1.25:5] [--rotations]
+        [--feature gray|gradient|color] [--save] [--json]
+                                        objects like the example in one image
   agree PROJECT.boxw --annotators A,B[,C...] [--iou 0.5] [--class-aware]
         [--worst N] [--json|--csv]      box agreement, kappa, alpha, worst images
   consensus PROJECT.boxw --annotators A,B[,C...] [--iou 0.5] [--min K]

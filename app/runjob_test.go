@@ -1,0 +1,38 @@
+package main
+
+import (
+	"context"
+	"errors"
+	"testing"
+	"time"
+
+	"fyne.io/fyne/v2/test"
+)
+
+// A background job reports progress, hands its result back once, and a
+// finished job's dialog closes without cancelling or crashing.
+func TestRunJobFinishesAndCancels(t *testing.T) {
+	u := newUI(test.NewTempApp(t))
+	done := make(chan struct{}, 1)
+	u.runJob("Testing", func(ctx context.Context, progress func(float64)) error {
+		progress(0.5)
+		return nil
+	}, func() { done <- struct{}{} })
+	select {
+	case <-done:
+	case <-time.After(10 * time.Second):
+		t.Fatal("the job's result never came back")
+	}
+	// A job that fails shows the error and does not call done.
+	called := false
+	finished := make(chan struct{})
+	u.runJob("Failing", func(ctx context.Context, progress func(float64)) error {
+		defer close(finished)
+		return errors.New("disk on fire (test)")
+	}, func() { called = true })
+	<-finished
+	time.Sleep(100 * time.Millisecond)
+	if called {
+		t.Errorf("done ran after a failed job")
+	}
+}

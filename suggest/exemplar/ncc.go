@@ -1,0 +1,491 @@
+// Package exemplar finds objects like a drawn example by normalised
+// cross-correlation.
+package exemplar
+
+import (
+	"errors"
+	"fmt"
+	"math"
+	"runtime"
+	"sync"
+	"sync/atomic"
+
+	"gonum.org/v1/gonum/dsp/fourier"
+)
+
+// nccMethod selects how Σ T'·I is computed; tests force each one.
+type nccMethod int
+
+const (
+	methodAuto nccMethod = iota
+	methodDirect
+	methodFFT
+)
+
+// NCC is the zero-mean normalised cross-correlation map of template t slid
+// over image p, as OpenCV's TM_CCOEFF_NORMED defines it:
+//
+//	out(x,y) = Σ T'·I' / sqrt(Σ T'² · Σ I'²)
+//
+// with T' = T − mean(T) and I' = I − mean of the image window under the
+// template. out is (p.W−t.W+1)×(p.H−t.H+1) and its values lie in [−1, 1];
+// where the window or the template has zero variance the value is 0, never
+// NaN. Window sums and sums of squares come from float64 integral images;
+// Σ T'·I comes from a direct sum or a tiled FFT cross-correlation, whichever
+// chooseMethod estimates cheaper. It returns an error when t is empty or
+// larger than p.
+func NCC(p, t Plane) (Plane, error) { return nccWith(p, t, methodAuto) }
+
+// NCCPlanes sums the per-channel NCC maps of several planes and divides by
+// their number (colour matching). ps[i] is matched with ts[i].
+func NCCPlanes(ps, ts []Plane) (Plane, error) {
+	if len(ps) == 0 || len(ps) != len(ts) {
+		return Plane{}, fmt.Errorf("exemplar: %d image planes for %d template planes", len(ps), len(ts))
+	}
+	var sum Plane
+	for i := range ps {
+		m, err := NCC(ps[i], ts[i])
+		if err != nil {
+			return Plane{}, fmt.Errorf("exemplar: channel %d: %w", i, err)
+		}
+		if i == 0 {
+			sum = m
+			continue
+		}
+		if m.W != sum.W || m.H != sum.H {
+			return Plane{}, fmt.Errorf("exemplar: channel %d map is %d×%d, channel 0 is %d×%d", i, m.W, m.H, sum.W, sum.H)
+		}
+		for j, v := range m.Pix {
+			sum.Pix[j] += v
+		}
+	}
+	if len(ps) > 1 {
+		k := float32(len(ps))
+		for j := range sum.Pix {
+			sum.Pix[j] /= k
+		}
+	}
+	return sum, nil
+}
+
+// errEmptyTemplate is returned for a template without samples.
+var errEmptyTemplate = errors.New("exemplar: empty template")
+
+// nccWith is NCC with the correlation method fixed.
+func nccWith(p, t Plane, m nccMethod) (Plane, error) { return nccTiles(p, t, m, 0, 0) }
+
+// nccTiles is nccWith with the FFT tile size fixed to tm×tn (rows×columns)
+// unless those are 0, so tests can reach many tile edges on small images.
+func nccTiles(p, t Plane, m nccMethod, tm, tn int) (Plane, error) {
+	if !p.valid() || !t.valid() {
+		return Plane{}, fmt.Errorf("exemplar: plane size does not match its samples (image %d×%d/%d, template %d×%d/%d)",
+			p.W, p.H, len(p.Pix), t.W, t.H, len(t.Pix))
+	}
+	if t.Empty() {
+		return Plane{}, errEmptyTemplate
+	}
+	if t.W > p.W || t.H > p.H {
+		return Plane{}, fmt.Errorf("exemplar: template %d×%d is larger than image %d×%d", t.W, t.H, p.W, p.H)
+	}
+	j := newNCCJob(p, t)
+	if j.tVar <= 0 {
+		return j.out, nil // a flat template matches nothing
+	}
+	if m == methodAuto {
+		m = chooseMethod(p.W, p.H, t.W, t.H)
+	}
+	if m == methodFFT {
+		if tm < t.H || tn < t.W {
+			tm, tn, _ = planTiles(p.W, p.H, t.W, t.H)
+		}
+		j.runFFT(tm, tn)
+	} else {
+		j.runDirect()
+	}
+	return j.out, nil
+}
+
+// nccJob holds one NCC computation.
+type nccJob struct {
+	p, t   Plane
+	ow, oh int
+	tz     []float64 // template minus its mean
+	tVar   float64   // Σ T'²
+	offset float64   // subtracted before the integral images to keep their sums small
+	out    Plane
+}
+
+func newNCCJob(p, t Plane) *nccJob {
+	j := &nccJob{p: p, t: t, ow: p.W - t.W + 1, oh: p.H - t.H + 1}
+	j.out = NewPlane(j.ow, j.oh)
+	n := float64(len(t.Pix))
+	var s float64
+	for _, v := range t.Pix {
+		s += float64(v)
+	}
+	mean := s / n
+	j.tz = make([]float64, len(t.Pix))
+	var s2, raw2 float64
+	for i, v := range t.Pix {
+		d := float64(v) - mean
+		j.tz[i] = d
+		s2 += d * d
+		raw2 += float64(v) * float64(v)
+	}
+	// Rounding leaves a flat template with a tiny non-zero Σ T'².
+	if s2 <= 1e-12*raw2 {
+		s2 = 0
+	}
+	j.tVar = s2
+	var ps float64
+	for _, v := range p.Pix {
+		ps += float64(v)
+	}
+	j.offset = ps / float64(len(p.Pix))
+	return j
+}
+
+// nccWorkers returns how many goroutines share n pieces of work.
+func nccWorkers(n int) int {
+	return max(1, min(n, runtime.GOMAXPROCS(0)))
+}
+
+// nccParallel runs f(i) for i in [0,n) on a few goroutines, each with its own
+// state from newState.
+func nccParallel[S any](n int, newState func() S, f func(s S, i int)) {
+	var next atomic.Int64
+	var wg sync.WaitGroup
+	for w := nccWorkers(n); w > 0; w-- {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			s := newState()
+			for {
+				i := int(next.Add(1) - 1)
+				if i >= n {
+					return
+				}
+				f(s, i)
+			}
+		}()
+	}
+	wg.Wait()
+}
+
+// nccNormState is the scratch space of normalise.
+type nccNormState struct {
+	s1, s2 []float64
+}
+
+// normalise turns the numerators Σ T'·I already in out over output rows
+// [y0,y1) and columns [x0,x1) into NCC scores. It builds float64 integral
+// images of the input region under those windows only, so the sums stay
+// small and each worker's region stays in cache.
+func (j *nccJob) normalise(st *nccNormState, x0, x1, y0, y1 int) {
+	tw, th := j.t.W, j.t.H
+	rw, rh := x1-x0+tw-1, y1-y0+th-1
+	iw := rw + 1
+	need := iw * (rh + 1)
+	if cap(st.s1) < need {
+		st.s1 = make([]float64, need)
+		st.s2 = make([]float64, need)
+	}
+	s1, s2 := st.s1[:need], st.s2[:need]
+	clear(s1[:iw])
+	clear(s2[:iw])
+	for y := 0; y < rh; y++ {
+		src := j.p.Pix[(y0+y)*j.p.W+x0 : (y0+y)*j.p.W+x0+rw]
+		up1, up2 := s1[y*iw:(y+1)*iw], s2[y*iw:(y+1)*iw]
+		d1, d2 := s1[(y+1)*iw:(y+2)*iw], s2[(y+1)*iw:(y+2)*iw]
+		d1[0], d2[0] = 0, 0
+		var r1, r2 float64
+		for x, v := range src {
+			d := float64(v) - j.offset
+			r1 += d
+			r2 += d * d
+			d1[x+1] = up1[x+1] + r1
+			d2[x+1] = up2[x+1] + r2
+		}
+	}
+	n := float64(tw * th)
+	// Rounding in the integral images is a few ulps of the region's total;
+	// a window whose variance is below that is flat.
+	eps := 1e-12 * s2[need-1]
+	for y := y0; y < y1; y++ {
+		a := (y - y0) * iw
+		b := (y - y0 + th) * iw
+		row := j.out.Pix[y*j.ow : (y+1)*j.ow]
+		for x := x0; x < x1; x++ {
+			c := x - x0
+			w1 := s1[b+c+tw] - s1[b+c] - s1[a+c+tw] + s1[a+c]
+			w2 := s2[b+c+tw] - s2[b+c] - s2[a+c+tw] + s2[a+c]
+			v := w2 - w1*w1/n
+			if v <= eps+1e-9*w2 {
+				row[x] = 0
+				continue
+			}
+			r := float64(row[x]) / math.Sqrt(v*j.tVar)
+			row[x] = float32(max(-1, min(1, r)))
+		}
+	}
+}
+
+// directBand is the number of output rows one direct-sum task covers.
+const directBand = 32
+
+// runDirect sums Σ T'·I at every position, one band of output rows per task.
+func (j *nccJob) runDirect() {
+	tw, th := j.t.W, j.t.H
+	bands := (j.oh + directBand - 1) / directBand
+	type state struct {
+		acc []float64
+		ns  nccNormState
+	}
+	nccParallel(bands, func() *state { return &state{acc: make([]float64, j.ow)} }, func(s *state, b int) {
+		y0, y1 := b*directBand, min(j.oh, (b+1)*directBand)
+		for y := y0; y < y1; y++ {
+			acc := s.acc
+			clear(acc)
+			for ty := 0; ty < th; ty++ {
+				base := (y + ty) * j.p.W
+				tr := j.tz[ty*tw : (ty+1)*tw]
+				i := 0
+				// Four taps per pass over acc halve its loads and stores.
+				for ; i+4 <= tw; i += 4 {
+					c0, c1, c2, c3 := tr[i], tr[i+1], tr[i+2], tr[i+3]
+					r0 := j.p.Pix[base+i : base+i+j.ow]
+					r1 := j.p.Pix[base+i+1 : base+i+1+j.ow]
+					r2 := j.p.Pix[base+i+2 : base+i+2+j.ow]
+					r3 := j.p.Pix[base+i+3 : base+i+3+j.ow]
+					for x := range acc {
+						acc[x] += c0*float64(r0[x]) + c1*float64(r1[x]) + c2*float64(r2[x]) + c3*float64(r3[x])
+					}
+				}
+				for ; i < tw; i++ {
+					c := tr[i]
+					r := j.p.Pix[base+i : base+i+j.ow]
+					for x := range acc {
+						acc[x] += c * float64(r[x])
+					}
+				}
+			}
+			row := j.out.Pix[y*j.ow : (y+1)*j.ow]
+			for x, v := range acc {
+				row[x] = float32(v)
+			}
+		}
+		j.normalise(&s.ns, 0, j.ow, y0, y1)
+	})
+}
+
+// Cost model, in nanoseconds on one core (fitted to BenchmarkNCCPaths and
+// tile-size sweeps on a 2-core x86-64 server, Go 1.26):
+//
+//	direct: costDirect · outW·outH·tw·th   (one multiply-add per tap)
+//	FFT:    per M×N tile, costFFT · M·N·log2(M·N) for the forward and
+//	        inverse transforms plus costTile · M·N for the copies, the
+//	        spectrum product and the tile's normalisation; tiles of
+//	        (M−th+1)×(N−tw+1) outputs cover the map, and with W workers the
+//	        wall time is ⌈tiles/W⌉ tiles, so one huge tile is a bad plan.
+//
+// Tiles stay below maxTileArea samples because the tile and template spectra
+// must share a core's cache; beyond that the measured cost per sample rose by
+// half. The direct path's window sums are the same work on both sides and
+// do not enter the choice.
+const (
+	costDirect  = 0.57
+	costFFT     = 3.5
+	costTile    = 15.0
+	maxTileArea = 1 << 18
+)
+
+// chooseMethod picks the cheaper way to compute Σ T'·I.
+func chooseMethod(w, h, tw, th int) nccMethod {
+	ow, oh := w-tw+1, h-th+1
+	direct := costDirect * float64(ow) * float64(oh) * float64(tw*th) / float64(nccWorkers(oh))
+	_, _, fft := planTiles(w, h, tw, th)
+	if fft < direct {
+		return methodFFT
+	}
+	return methodDirect
+}
+
+// maxTile bounds one side of an FFT tile.
+const maxTile = 1024
+
+// fftSizes lists the lengths 2^a·3^b·5^c up to maxTile, the ones the FFT
+// handles at full speed.
+var fftSizes = func() []int {
+	var s []int
+	for n := 1; n <= maxTile; n++ {
+		m := n
+		for _, f := range []int{2, 3, 5} {
+			for m%f == 0 {
+				m /= f
+			}
+		}
+		if m == 1 {
+			s = append(s, n)
+		}
+	}
+	return s
+}()
+
+// planTiles picks the FFT tile size M×N (rows×columns) for a w×h image and a
+// tw×th template by the cost model, returning the size and its cost.
+func planTiles(w, h, tw, th int) (m, n int, cost float64) {
+	ow, oh := w-tw+1, h-th+1
+	cands := func(t, full int) []int {
+		var c []int
+		for _, s := range fftSizes {
+			if s >= t {
+				c = append(c, s)
+				if s >= full {
+					break // one tile already covers the axis
+				}
+			}
+		}
+		if len(c) == 0 || c[len(c)-1] < t {
+			c = append(c, t) // template wider than maxTile: any length works
+		}
+		return c
+	}
+	cost = math.Inf(1)
+	for _, mm := range cands(th, h) {
+		ty := (oh + mm - th) / (mm - th + 1)
+		for _, nn := range cands(tw, w) {
+			if mm*nn > maxTileArea && (mm > th || nn > tw) {
+				continue
+			}
+			tx := (ow + nn - tw) / (nn - tw + 1)
+			area := float64(mm) * float64(nn)
+			w := nccWorkers(ty * tx)
+			rounds := (ty*tx + w - 1) / w
+			c := float64(rounds) * area * (costFFT*math.Log2(area) + costTile)
+			if c < cost {
+				m, n, cost = mm, nn, c
+			}
+		}
+	}
+	return m, n, cost
+}
+
+// nccFFTState is one worker's transforms and scratch space.
+type nccFFTState struct {
+	rows *fourier.FFT
+	cols *fourier.CmplxFFT
+	seq  []float64
+	coef [4][]complex128
+	spec []complex128 // column-major: spec[k*ld+r] is row r, frequency k
+	ns   nccNormState
+}
+
+// runFFT computes Σ T'·I by FFT cross-correlation in M×N tiles
+// (overlap-save): the template spectrum is computed once, and each tile's
+// circular correlation is exact for its first (M−th+1)×(N−tw+1) outputs.
+func (j *nccJob) runFFT(M, N int) {
+	tw, th := j.t.W, j.t.H
+	K := N/2 + 1
+	// Column stride: padding by one cache line keeps the transposed writes
+	// of a power-of-two M from landing in the same cache sets.
+	ld := M + 4
+	vh, vw := M-th+1, N-tw+1
+	ty, tx := (j.oh+vh-1)/vh, (j.ow+vw-1)/vw
+
+	newState := func() *nccFFTState {
+		s := &nccFFTState{
+			rows: fourier.NewFFT(N),
+			cols: fourier.NewCmplxFFT(M),
+			seq:  make([]float64, N),
+			spec: make([]complex128, K*ld),
+		}
+		for i := range s.coef {
+			s.coef[i] = make([]complex128, K)
+		}
+		return s
+	}
+
+	// Template spectrum, conjugated (correlation, not convolution) and
+	// scaled by 1/(M·N) to undo the unnormalised inverse.
+	tspec := make([]complex128, K*ld)
+	{
+		s := newState()
+		for r := 0; r < M; r++ {
+			clear(s.seq)
+			if r < th {
+				copy(s.seq, j.tz[r*tw:(r+1)*tw])
+			}
+			c := s.rows.Coefficients(s.coef[0], s.seq)
+			for k, v := range c {
+				tspec[k*ld+r] = v
+			}
+		}
+		scale := 1 / (float64(M) * float64(N))
+		col := make([]complex128, M)
+		for k := 0; k < K; k++ {
+			s.cols.Coefficients(col, tspec[k*ld:k*ld+M])
+			for r, v := range col {
+				tspec[k*ld+r] = complex(real(v)*scale, -imag(v)*scale)
+			}
+		}
+	}
+
+	nccParallel(ty*tx, newState, func(s *nccFFTState, i int) {
+		oy, ox := (i/tx)*vh, (i%tx)*vw
+		// Forward row transforms, four rows at a time so that the transposed
+		// writes fill whole cache lines.
+		for r0 := 0; r0 < M; r0 += 4 {
+			nr := min(4, M-r0)
+			for q := 0; q < nr; q++ {
+				y := oy + r0 + q
+				if y >= j.p.H {
+					clear(s.coef[q])
+					continue
+				}
+				clear(s.seq)
+				xe := min(j.p.W, ox+N)
+				src := j.p.Pix[y*j.p.W+ox : y*j.p.W+xe]
+				for x, v := range src {
+					s.seq[x] = float64(v)
+				}
+				s.rows.Coefficients(s.coef[q], s.seq)
+			}
+			for k := 0; k < K; k++ {
+				d := s.spec[k*ld+r0 : k*ld+r0+nr]
+				for q := range d {
+					d[q] = s.coef[q][k]
+				}
+			}
+		}
+		// Column transforms, product with the template spectrum, inverse.
+		for k := 0; k < K; k++ {
+			col := s.spec[k*ld : k*ld+M]
+			s.cols.Coefficients(col, col)
+			ts := tspec[k*ld : k*ld+M]
+			for r := range col {
+				col[r] *= ts[r]
+			}
+			s.cols.Sequence(col, col)
+		}
+		// Inverse row transforms of the rows that hold valid outputs.
+		yn := min(vh, j.oh-oy)
+		xn := min(vw, j.ow-ox)
+		for r0 := 0; r0 < yn; r0 += 4 {
+			nr := min(4, yn-r0)
+			for k := 0; k < K; k++ {
+				d := s.spec[k*ld+r0 : k*ld+r0+nr]
+				for q, v := range d {
+					s.coef[q][k] = v
+				}
+			}
+			for q := 0; q < nr; q++ {
+				s.rows.Sequence(s.seq, s.coef[q])
+				dst := j.out.Pix[(oy+r0+q)*j.ow+ox : (oy+r0+q)*j.ow+ox+xn]
+				for x := range dst {
+					dst[x] = float32(s.seq[x])
+				}
+			}
+		}
+		j.normalise(&s.ns, ox, ox+xn, oy, oy+yn)
+	})
+}
