@@ -6,6 +6,8 @@ import (
 	"testing"
 	"time"
 
+	"fyne.io/fyne/v2"
+	"fyne.io/fyne/v2/dialog"
 	"fyne.io/fyne/v2/test"
 )
 
@@ -34,5 +36,20 @@ func TestRunJobFinishesAndCancels(t *testing.T) {
 	time.Sleep(100 * time.Millisecond)
 	if called {
 		t.Errorf("done ran after a failed job")
+	}
+}
+
+// Keys typed while a dialog is open are the dialog's: Enter must not mark
+// the image behind it done, nor a digit change the class.
+func TestKeysDoNotReachTheImageUnderADialog(t *testing.T) {
+	u, _ := openDemoAs(t, "Ines")
+	status := u.images[u.selected].Status
+	current := u.current
+	dialog.ShowInformation("A question", "Something to read", u.win)
+	u.win.Canvas().Focus(u.view)
+	u.view.TypedKey(&fyne.KeyEvent{Name: fyne.KeyReturn})
+	u.view.TypedRune('2')
+	if u.images[u.selected].Status != status || u.current != current {
+		t.Errorf("keys went through the dialog: status %s → %s, class %d → %d", status, u.images[u.selected].Status, current, u.current)
 	}
 }

@@ -645,6 +645,9 @@ func (v *View) step() float64 {
 // pan when none is selected), Tab cycles through boxes, Escape cancels a
 // drag or clears the selection; other keys go to OnKey.
 func (v *View) TypedKey(ev *fyne.KeyEvent) {
+	if v.underDialog() {
+		return
+	}
 	dx, dy := 0.0, 0.0
 	switch ev.Name {
 	case fyne.KeyLeft:
@@ -690,6 +693,9 @@ func (v *View) TypedKey(ev *fyne.KeyEvent) {
 // the pointer;
 // other characters go to OnRune.
 func (v *View) TypedRune(r rune) {
+	if v.underDialog() {
+		return
+	}
 	cx, cy := v.zoomCentre()
 	switch r {
 	case '+', '=':
@@ -712,6 +718,14 @@ func (v *View) TypedRune(r rune) {
 			v.OnRune(r)
 		}
 	}
+}
+
+// underDialog says whether a dialog or pop-up covers the window: keys
+// typed then are meant for it, never for the image (Enter would mark the
+// image done behind a dialog).
+func (v *View) underDialog() bool {
+	c := fyne.CurrentApp().Driver().CanvasForObject(v)
+	return c != nil && c.Overlays().Top() != nil
 }
 
 // zoomCentre is the pointer when it is over the view, else the middle.
