@@ -218,6 +218,7 @@ func (u *ui) menu() *fyne.MainMenu {
 		fyne.NewMenuItem("Review one by one… (Ctrl+R)", u.showReviewQueue),
 		fyne.NewMenuItem("Review as a grid of crops… (Ctrl+J)", u.showCropGrid),
 		fyne.NewMenuItem("What the decisions tell us…", u.showSuggestionStats),
+		fyne.NewMenuItem("Evaluate the model against ground truth…", u.showEvaluation),
 	)
 	help := fyne.NewMenu("Help",
 		fyne.NewMenuItem("Keys and mouse (H)", u.showKeys),

@@ -528,3 +528,21 @@ func (s *Store) ReviewRows(ctx context.Context, source string) ([]ReviewRow, err
 	}
 	return out, nil
 }
+
+// SuggestionSources lists the sources of the project's suggestions.
+func (s *Store) SuggestionSources(ctx context.Context) ([]string, error) {
+	rows, err := s.db.QueryContext(ctx, "SELECT DISTINCT source FROM suggestions ORDER BY source")
+	if err != nil {
+		return nil, fmt.Errorf("list suggestion sources: %w", translate(err))
+	}
+	defer rows.Close()
+	var out []string
+	for rows.Next() {
+		var src string
+		if err := rows.Scan(&src); err != nil {
+			return nil, fmt.Errorf("list suggestion sources: %w", err)
+		}
+		out = append(out, src)
+	}
+	return out, rows.Err()
+}
