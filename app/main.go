@@ -73,6 +73,10 @@ Commands:
         [--threshold 0.6] [--scales 0.8:1.25:5] [--rotations]
         [--feature gray|gradient|color] [--save] [--json]
                                         objects like the example in one image
+  eval PROJECT.boxw --truth ANNOTATOR (--source NAME | --predictions FILE)
+        [--protocol voc|coco] [--iou 0.5] [--interpolation all|11|101]
+        [--plus-one] [--threshold 0.5] [--json]
+                                        score a model against ground truth
   agree PROJECT.boxw --annotators A,B[,C...] [--iou 0.5] [--class-aware]
         [--worst N] [--json|--csv]      box agreement, kappa, alpha, worst images
   consensus PROJECT.boxw --annotators A,B[,C...] [--iou 0.5] [--min K]
