@@ -11,6 +11,9 @@ mkdir -p "$(dirname "$shot")"
 shot=$(realpath "$shot")
 work=$(mktemp -d)
 trap 'rm -rf "$work"' EXIT
+# A settings folder of its own, so that other Boxwright windows on this
+# machine (or their half-written preferences) cannot disturb the test.
+export XDG_CONFIG_HOME="$work/config"
 
 "$bin" demo "$work/demo" --no-open --images 4 >/dev/null 2>"$work/demo.log" || { cat "$work/demo.log"; exit 1; }
 

@@ -59,9 +59,11 @@ type ui struct {
 
 	annotators    []project.Annotator
 	annotatorFlag string
-	me            project.Annotator // who is labelling; ID 0 until chosen
-	sess          *session
-	current       int64 // class for new boxes
+	// annotatorFromFlag is set while the command line's name is applied.
+	annotatorFromFlag bool
+	me                project.Annotator // who is labelling; ID 0 until chosen
+	sess              *session
+	current           int64 // class for new boxes
 
 	nav     *navigator
 	view    *canvas.View

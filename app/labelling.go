@@ -167,11 +167,14 @@ func (u *ui) classByKey(r rune) (project.Class, bool) {
 // remembered one, or (when neither) asks.
 func (u *ui) chooseAnnotator() {
 	name := u.annotatorFlag
+	u.annotatorFromFlag = name != ""
 	if name == "" {
 		name = u.app.Preferences().String(annotatorPref)
 	}
 	if name != "" {
-		if err := u.setAnnotator(name); err == nil {
+		err := u.setAnnotator(name)
+		u.annotatorFromFlag = false // a later change in the window is remembered
+		if err == nil {
 			return
 		} else {
 			u.showError(err)
@@ -200,7 +203,13 @@ func (u *ui) setAnnotator(name string) error {
 		return err
 	}
 	u.me, u.sess = a, newSession(u.st, a)
-	u.app.Preferences().SetString(annotatorPref, name)
+	// Remember a name the person chose in the window, not one given on the
+	// command line for a single run, and write only what changed: the
+	// toolkit's watcher of the preferences file can catch a first write
+	// half-done and complain.
+	if !u.annotatorFromFlag && u.app.Preferences().String(annotatorPref) != name {
+		u.app.Preferences().SetString(annotatorPref, name)
+	}
 	if as, err := u.st.Annotators(context.Background()); err == nil {
 		u.annotators = as
 	}

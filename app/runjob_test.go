@@ -53,3 +53,18 @@ func TestKeysDoNotReachTheImageUnderADialog(t *testing.T) {
 		t.Errorf("keys went through the dialog: status %s → %s, class %d → %d", status, u.images[u.selected].Status, current, u.current)
 	}
 }
+
+// A name from the command line is for that run; one chosen in the window
+// is remembered.
+func TestAnnotatorFromTheCommandLineIsNotRemembered(t *testing.T) {
+	u, _ := openDemoAs(t, "Ines")
+	if got := u.app.Preferences().String(annotatorPref); got != "" {
+		t.Errorf("the command line's name was remembered: %q", got)
+	}
+	if err := u.setAnnotator("Tomas"); err != nil {
+		t.Fatal(err)
+	}
+	if got := u.app.Preferences().String(annotatorPref); got != "Tomas" {
+		t.Errorf("a name chosen in the window was not remembered: %q", got)
+	}
+}
