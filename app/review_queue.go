@@ -425,6 +425,7 @@ func (q *reviewQueue) decide(g project.Suggestion, d store.Decision, what string
 		return
 	}
 	q.decided[g.ID] = true
+	u.suggestionsChanged()
 	q.history = append(q.history, reviewStep{g, what})
 	q.counts[what]++
 	q.dirty = true
@@ -456,6 +457,7 @@ func (q *reviewQueue) undo() {
 		return
 	}
 	q.history = q.history[:len(q.history)-1]
+	q.u.suggestionsChanged()
 	q.dirty = true
 	q.othersFor = 0
 	delete(q.decided, g.ID)

@@ -386,3 +386,12 @@ func sortedKeys(m map[int64]project.Label) []int64 {
 	slices.Sort(ks)
 	return ks
 }
+
+// forget drops the boxes of an image from memory (they changed in the
+// file, for example by a review elsewhere) unless edits of it still wait
+// to be written.
+func (s *session) forget(imageID int64) {
+	if !s.hasPending(imageID) {
+		delete(s.docs, imageID)
+	}
+}

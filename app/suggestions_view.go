@@ -296,3 +296,24 @@ func (u *ui) bulkReview(q store.SuggestionQuery, accept bool) error {
 	u.afterReview(len(ds), nil)
 	return nil
 }
+
+// suggestionsChanged brings the main window up to date after decisions
+// made in a review window: the suggestions and labels of the image on
+// screen (its counts follow on the next reload).
+func (u *ui) suggestionsChanged() {
+	if u.st == nil || u.imageID == 0 {
+		return
+	}
+	if u.sess != nil {
+		u.sess.forget(u.imageID)
+	}
+	before := len(u.suggestions)
+	u.loadSuggestions()
+	if c, ok := u.perImg[u.imageID]; ok || len(u.suggestions) != before {
+		c.Pending += len(u.suggestions) - before
+		u.perImg[u.imageID] = c
+	}
+	u.loadOthers()
+	u.recount()
+	u.refreshBoxes()
+}

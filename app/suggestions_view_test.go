@@ -176,3 +176,35 @@ func TestSuggestionStatsWindow(t *testing.T) {
 		t.Errorf("the statistics window did not open")
 	}
 }
+
+// A decision in the review window shows in the main window at once.
+func TestReviewWindowDecisionsReachTheMainWindow(t *testing.T) {
+	u, _ := openDemoAs(t, "Ines")
+	q := newReviewQueue(u)
+	if err := q.load(); err != nil {
+		t.Fatal(err)
+	}
+	// Review the first pending suggestion of the image on screen.
+	var target project.Suggestion
+	for {
+		g, ok := q.current()
+		if !ok {
+			t.Fatal("no suggestion of the image on screen in the queue")
+		}
+		if g.ImageID == u.imageID {
+			target = g
+			break
+		}
+		q.skip()
+	}
+	before := len(u.suggestions)
+	q.reject()
+	if len(u.suggestions) != before-1 {
+		t.Errorf("main window shows %d pending, want %d", len(u.suggestions), before-1)
+	}
+	for _, g := range u.suggestions {
+		if g.ID == target.ID {
+			t.Errorf("the rejected suggestion is still shown")
+		}
+	}
+}
