@@ -72,12 +72,14 @@ type ui struct {
 	status  *widget.Label // image and pointer
 	saved   *widget.Label // quiet "saved" indicator or the write error
 	retry   *widget.Button
-	zoom    *widget.Label
-	undoBtn *widget.Button
-	redoBtn *widget.Button
-	others  *widget.Check
-	guides  *widget.Check
-	body    *fyne.Container // the screen shown in the window: welcome or project
+	// retrying is set while a quiet retry of unwritten edits is scheduled.
+	retrying bool
+	zoom     *widget.Label
+	undoBtn  *widget.Button
+	redoBtn  *widget.Button
+	others   *widget.Check
+	guides   *widget.Check
+	body     *fyne.Container // the screen shown in the window: welcome or project
 
 	selected int   // index into images of the image on screen, -1 none
 	imageID  int64 // its ID
@@ -305,6 +307,7 @@ func (u *ui) closeProject() {
 	if u.sess != nil && u.sess.Unsaved() > 0 {
 		u.sess.Flush(context.Background()) // a last try; the error was shown already
 	}
+	u.sess = nil
 	if u.st != nil {
 		u.st.Close()
 		u.st = nil

@@ -5,6 +5,7 @@ import (
 	"database/sql"
 	"strings"
 	"testing"
+	"time"
 
 	"fyne.io/fyne/v2"
 	"fyne.io/fyne/v2/test"
@@ -87,5 +88,44 @@ func TestSaveFailureKeepsTheEditAndRetries(t *testing.T) {
 	}
 	if !found {
 		t.Errorf("the retried box is not in the project")
+	}
+}
+
+// Unwritten edits are tried again by themselves once writing works.
+func TestSaveFailureRetriesByItself(t *testing.T) {
+	old := retryEvery
+	retryEvery = 50 * time.Millisecond
+	defer func() { retryEvery = old }()
+	path := smallDemo(t)
+	u := newUI(test.NewTempApp(t))
+	u.annotatorFlag = "Ines"
+	decoded := make(chan error, 10)
+	u.decoded = func(_ int64, err error) { decoded <- err }
+	u.win.Resize(fyne.NewSize(1200, 800))
+	if err := u.openProject(path); err != nil {
+		t.Fatal(err)
+	}
+	defer u.closeProject()
+	waitDecoded(t, decoded)
+	db, err := sql.Open("sqlite3", path+"?_busy_timeout=5000")
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer db.Close()
+	db.Exec("CREATE TRIGGER refuse BEFORE INSERT ON labels BEGIN SELECT RAISE(ABORT, 'database or disk is full (test)'); END")
+	u.createBox(project.Rect(5, 5, 25, 25))
+	if u.sess.Unsaved() != 1 {
+		t.Fatalf("unsaved %d, want 1", u.sess.Unsaved())
+	}
+	time.Sleep(200 * time.Millisecond) // a few quiet retries fail
+	db.Exec("DROP TRIGGER refuse")
+	for i := 0; u.sess.Unsaved() > 0; i++ {
+		if i == 100 {
+			t.Fatal("the edit was not written by the quiet retries")
+		}
+		time.Sleep(50 * time.Millisecond)
+	}
+	if !strings.Contains(u.saved.Text, "saved") || strings.Contains(u.saved.Text, "NOT") {
+		t.Errorf("indicator %q after the retry", u.saved.Text)
 	}
 }
