@@ -635,4 +635,6 @@ const cautionLong = `Personal data: images of people or vehicles can hold person
 
 Agreement figures: the verbal bands shown beside agreement figures are conventions from the literature, not acceptance criteria.
 
+Model figures and suggestions: average precision and suggested score thresholds describe this model on these images as labelled here, not performance elsewhere. Suggestions accepted in bulk carry the model's mistakes into the ground truth; review samples of them.
+
 Safety: datasets for safety-relevant detectors need the validation that their field's standards require; Boxwright's figures do not replace it.`
