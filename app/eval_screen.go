@@ -11,7 +11,6 @@ import (
 	fcanvas "fyne.io/fyne/v2/canvas"
 	"fyne.io/fyne/v2/container"
 	"fyne.io/fyne/v2/dialog"
-	"fyne.io/fyne/v2/storage"
 	"fyne.io/fyne/v2/theme"
 	"fyne.io/fyne/v2/widget"
 	"gonum.org/v1/plot"
@@ -345,36 +344,7 @@ func (s *evalScreen) openCell(row int) {
 }
 
 func (s *evalScreen) savePlot(p *plot.Plot, name string) {
-	if p == nil {
-		dialog.ShowInformation("Nothing to save", "Press Evaluate first.", s.win)
-		return
-	}
-	d := dialog.NewFileSave(func(w fyne.URIWriteCloser, err error) {
-		if err != nil || w == nil {
-			return
-		}
-		path := w.URI().Path()
-		w.Close()
-		if err := savePlotPNG(p, chartW*2, chartH*2, path); err != nil {
-			dialog.ShowError(fmt.Errorf("saving the chart to %s: %w", path, err), s.win)
-		}
-	}, s.win)
-	d.SetFileName(name)
-	d.SetFilter(storage.NewExtensionFileFilter([]string{".png"}))
-	d.Show()
+	askSavePlot(s.win, p, name, "Press Evaluate first.")
 }
 
-func (s *evalScreen) saveCSV(t *sortTable, name string) {
-	d := dialog.NewFileSave(func(w fyne.URIWriteCloser, err error) {
-		if err != nil || w == nil {
-			return
-		}
-		defer w.Close()
-		if err := t.WriteCSV(w); err != nil {
-			dialog.ShowError(fmt.Errorf("saving the table: %w", err), s.win)
-		}
-	}, s.win)
-	d.SetFileName(name)
-	d.SetFilter(storage.NewExtensionFileFilter([]string{".csv"}))
-	d.Show()
-}
+func (s *evalScreen) saveCSV(t *sortTable, name string) { askSaveCSV(s.win, t, name) }

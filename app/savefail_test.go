@@ -7,8 +7,6 @@ import (
 	"testing"
 	"time"
 
-	"fyne.io/fyne/v2"
-	"fyne.io/fyne/v2/test"
 	_ "github.com/mattn/go-sqlite3"
 
 	"boxwright/project"
@@ -18,17 +16,7 @@ import (
 // A write the disk refuses is reported, the box stays on screen and in the
 // undo history, and it reaches the file once writing works again.
 func TestSaveFailureKeepsTheEditAndRetries(t *testing.T) {
-	path := smallDemo(t)
-	u := newUI(test.NewTempApp(t))
-	u.annotatorFlag = "Ines"
-	decoded := make(chan error, 10)
-	u.decoded = func(_ int64, err error) { decoded <- err }
-	u.win.Resize(fyne.NewSize(1200, 800))
-	if err := u.openProject(path); err != nil {
-		t.Fatal(err)
-	}
-	defer u.closeProject()
-	waitDecoded(t, decoded)
+	u, path := openDemoAs(t, "Ines")
 
 	// A second connection makes every label insert fail, as a full disk
 	// would.
@@ -96,17 +84,7 @@ func TestSaveFailureRetriesByItself(t *testing.T) {
 	old := retryEvery
 	retryEvery = 50 * time.Millisecond
 	defer func() { retryEvery = old }()
-	path := smallDemo(t)
-	u := newUI(test.NewTempApp(t))
-	u.annotatorFlag = "Ines"
-	decoded := make(chan error, 10)
-	u.decoded = func(_ int64, err error) { decoded <- err }
-	u.win.Resize(fyne.NewSize(1200, 800))
-	if err := u.openProject(path); err != nil {
-		t.Fatal(err)
-	}
-	defer u.closeProject()
-	waitDecoded(t, decoded)
+	u, path := openDemoAs(t, "Ines")
 	db, err := sql.Open("sqlite3", path+"?_busy_timeout=5000")
 	if err != nil {
 		t.Fatal(err)

@@ -251,18 +251,7 @@ func (u *ui) showSuggestionStats() {
 		if plotNow == nil {
 			return
 		}
-		d := dialog.NewFileSave(func(wc fyne.URIWriteCloser, err error) {
-			if err != nil || wc == nil {
-				return
-			}
-			p := wc.URI().Path()
-			wc.Close()
-			if err := savePlotPNG(plotNow, chartW*2, chartH*2, p); err != nil {
-				dialog.ShowError(err, w)
-			}
-		}, w)
-		d.SetFileName("reliability.png")
-		d.Show()
+		askSavePlot(w, plotNow, "reliability.png", "Pick a source first.")
 	})
 	saveBins := widget.NewButtonWithIcon("Save bins as CSV…", theme.DocumentSaveIcon(), func() {
 		bt := newSortTable([]string{"score_from", "score_to", "decided", "kept", "kept_rate"}, nil)
@@ -271,31 +260,9 @@ func (u *ui) showSuggestionStats() {
 			rows = append(rows, []string{csvNum(b.Lo), csvNum(b.Hi), strconv.Itoa(b.Decided), strconv.Itoa(b.Kept), csvNum(b.Rate)})
 		}
 		bt.SetRows(rows, nil)
-		d := dialog.NewFileSave(func(wc fyne.URIWriteCloser, err error) {
-			if err != nil || wc == nil {
-				return
-			}
-			defer wc.Close()
-			if err := bt.WriteCSV(wc); err != nil {
-				dialog.ShowError(err, w)
-			}
-		}, w)
-		d.SetFileName("reliability.csv")
-		d.Show()
+		askSaveCSV(w, bt, "reliability.csv")
 	})
-	saveTable := widget.NewButtonWithIcon("Save table as CSV…", theme.DocumentSaveIcon(), func() {
-		d := dialog.NewFileSave(func(wc fyne.URIWriteCloser, err error) {
-			if err != nil || wc == nil {
-				return
-			}
-			defer wc.Close()
-			if err := table.WriteCSV(wc); err != nil {
-				dialog.ShowError(err, w)
-			}
-		}, w)
-		d.SetFileName("decisions.csv")
-		d.Show()
-	})
+	saveTable := widget.NewButtonWithIcon("Save table as CSV…", theme.DocumentSaveIcon(), func() { askSaveCSV(w, table, "decisions.csv") })
 	top := container.NewVBox(container.NewBorder(nil, nil, widget.NewLabel("Source"), nil, pick), summary)
 	right := container.NewBorder(nil, container.NewHBox(saveChart, saveBins), nil, nil, chart)
 	left := container.NewBorder(nil, saveTable, nil, nil, table.Object())
