@@ -302,7 +302,7 @@ func colourName(c color.NRGBA) string {
 	if n, ok := paletteNames[c]; ok {
 		return n
 	}
-	return store.FormatColor(c)
+	return project.FormatColor(c)
 }
 
 func (b *classBar) showColour() {

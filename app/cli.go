@@ -126,7 +126,7 @@ func cmdNew(args []string, stdout, stderr io.Writer) error {
 	return s.Close()
 }
 
-func printIntake(stdout io.Writer, rep store.IntakeReport, asJSON bool) error {
+func printIntake(stdout io.Writer, rep project.IntakeReport, asJSON bool) error {
 	if asJSON {
 		return writeJSON(stdout, rep)
 	}
@@ -153,7 +153,7 @@ func cmdAddImages(args []string, stdout, stderr io.Writer) error {
 		return err
 	}
 	defer done()
-	rep, err := s.AddImages(ctx, pos[1:], store.IntakeOptions{MaxPixels: int64(*mp * 1e6), Progress: progressPrinter(stderr, asJSON)})
+	rep, err := s.AddImages(ctx, pos[1:], project.IntakeOptions{MaxPixels: int64(*mp * 1e6), Progress: progressPrinter(stderr, asJSON)})
 	if perr := printIntake(stdout, rep, *asJSON); perr != nil {
 		return perr
 	}
@@ -184,7 +184,7 @@ func cmdRelink(args []string, stdout, stderr io.Writer) error {
 		return err
 	}
 	defer done()
-	rep, err := s.Relink(ctx, pos[1], store.IntakeOptions{})
+	rep, err := s.Relink(ctx, pos[1], project.IntakeOptions{})
 	if err != nil {
 		return err
 	}
@@ -234,7 +234,7 @@ func cmdClasses(args []string, stdout, stderr io.Writer) error {
 			if err != nil {
 				return err
 			}
-			fmt.Fprintf(stdout, "added class %q (key %s, colour %s)\n", c.Name, c.HotKey, store.FormatColor(c.Color))
+			fmt.Fprintf(stdout, "added class %q (key %s, colour %s)\n", c.Name, c.HotKey, project.FormatColor(c.Color))
 		}
 	case "rename":
 		if err := need(2); err != nil {
@@ -294,7 +294,7 @@ func listClasses(ctx context.Context, s *store.Store, stdout io.Writer, asJSON b
 	}
 	rows := []row{}
 	for _, c := range cs {
-		rows = append(rows, row{c.Name, store.FormatColor(c.Color), c.HotKey, n[c.ID]})
+		rows = append(rows, row{c.Name, project.FormatColor(c.Color), c.HotKey, n[c.ID]})
 	}
 	if asJSON {
 		return writeJSON(stdout, rows)

@@ -146,7 +146,7 @@ func (g *cropGrid) report(err error) {
 // the chosen one, or the busiest when none is chosen.
 func (g *cropGrid) refreshClasses() error {
 	ctx := context.Background()
-	all, err := g.u.st.QuerySuggestions(ctx, store.SuggestionQuery{State: project.SuggestionPending})
+	all, err := g.u.st.QuerySuggestions(ctx, project.SuggestionQuery{State: project.SuggestionPending})
 	if err != nil {
 		return fmt.Errorf("read pending suggestions: %w", err)
 	}
@@ -210,7 +210,7 @@ func (g *cropGrid) reload() error {
 	if g.u.st == nil || g.classID == 0 {
 		return nil
 	}
-	q := store.SuggestionQuery{ClassID: g.classID, State: project.SuggestionPending}
+	q := project.SuggestionQuery{ClassID: g.classID, State: project.SuggestionPending}
 	if s := g.sourceSel.Selected; s != "" && s != reviewAllSources {
 		q.Source = s
 	}
@@ -336,10 +336,10 @@ var errCropNoReviewer = errors.New("choose who is reviewing first")
 // acceptRest accepts every unmarked suggestion of the list as it is, in
 // one transaction; the marked ones stay pending.
 func (g *cropGrid) acceptRest() error {
-	var ds []store.Decision
+	var ds []project.Decision
 	for _, s := range g.items {
 		if !g.marked[s.ID] {
-			ds = append(ds, store.Decision{SuggestionID: s.ID, Accept: true})
+			ds = append(ds, project.Decision{SuggestionID: s.ID, Accept: true})
 		}
 	}
 	return g.decide(ds, false)
@@ -347,10 +347,10 @@ func (g *cropGrid) acceptRest() error {
 
 // rejectMarked rejects the marked suggestions in one transaction.
 func (g *cropGrid) rejectMarked() error {
-	var ds []store.Decision
+	var ds []project.Decision
 	for _, s := range g.items {
 		if g.marked[s.ID] {
-			ds = append(ds, store.Decision{SuggestionID: s.ID})
+			ds = append(ds, project.Decision{SuggestionID: s.ID})
 		}
 	}
 	return g.decide(ds, true)
@@ -358,7 +358,7 @@ func (g *cropGrid) rejectMarked() error {
 
 // decide stores decisions in one transaction, then reads the list, the
 // counts and the main window again.
-func (g *cropGrid) decide(ds []store.Decision, rejecting bool) error {
+func (g *cropGrid) decide(ds []project.Decision, rejecting bool) error {
 	u := g.u
 	if len(ds) == 0 {
 		return nil

@@ -16,7 +16,6 @@ import (
 	"boxwright/assets/demo"
 	"boxwright/canvas"
 	"boxwright/project"
-	"boxwright/store"
 )
 
 // countingLoader makes plain grey crops and counts the calls.
@@ -193,7 +192,7 @@ func TestCropGridMarksAndDecides(t *testing.T) {
 	if len(g.items) != 1 || g.items[0].ID != keep.ID {
 		t.Errorf("after accept-rest the grid lists %d", len(g.items))
 	}
-	n, _ := u.st.CountSuggestions(ctx, store.SuggestionQuery{ClassID: class, State: project.SuggestionAccepted})
+	n, _ := u.st.CountSuggestions(ctx, project.SuggestionQuery{ClassID: class, State: project.SuggestionAccepted})
 	if n != len(items)-2 {
 		t.Errorf("%d accepted, want %d", n, len(items)-2)
 	}
@@ -202,7 +201,7 @@ func TestCropGridMarksAndDecides(t *testing.T) {
 	if err := g.undoLast(); err != nil {
 		t.Fatal(err)
 	}
-	if n, _ := u.st.CountSuggestions(ctx, store.SuggestionQuery{ClassID: class}); n != len(items)-1 {
+	if n, _ := u.st.CountSuggestions(ctx, project.SuggestionQuery{ClassID: class}); n != len(items)-1 {
 		t.Errorf("after undo %d pending, want %d", n, len(items)-1)
 	}
 }

@@ -10,6 +10,7 @@ import (
 	"strings"
 	"text/tabwriter"
 
+	"boxwright/project"
 	"boxwright/project/formats"
 	"boxwright/store"
 )
@@ -21,8 +22,8 @@ func init() {
 
 // importResult is what "boxwright import --json" prints.
 type importResult struct {
-	store.ImportReport
-	ImagesAdded *store.IntakeReport `json:"images_added,omitempty"`
+	project.ImportReport
+	ImagesAdded *project.IntakeReport `json:"images_added,omitempty"`
 }
 
 // loadDataset reads PATH in the given layout; the text layout needs the
@@ -39,10 +40,11 @@ func loadDataset(ctx context.Context, s *store.Store, layout formats.Layout, src
 		if classesFile == "" {
 			classesFile = findClassNames(src)
 		}
-		m, err := s.NewImageMatcher(ctx)
+		ims, err := s.Images(ctx)
 		if err != nil {
 			return nil, nil, err
 		}
+		m := project.NewImageMatcher(ims)
 		return formats.LoadCentreTextFolder(src, classesFile, func(rel string) (string, int, int, bool, string) {
 			im, ok, reason := m.MatchStem(rel)
 			return im.Path, im.Width, im.Height, ok, reason
@@ -80,7 +82,7 @@ type importJob struct {
 func runImport(ctx context.Context, s *store.Store, j importJob) (importResult, error) {
 	var res importResult
 	if j.ImagesDir != "" {
-		rep, err := s.AddImages(ctx, []string{j.ImagesDir}, store.IntakeOptions{})
+		rep, err := s.AddImages(ctx, []string{j.ImagesDir}, project.IntakeOptions{})
 		if err != nil {
 			return res, err
 		}
@@ -90,7 +92,7 @@ func runImport(ctx context.Context, s *store.Store, j importJob) (importResult, 
 	if err != nil {
 		return res, err
 	}
-	rep, err := s.ImportDataset(ctx, ds, store.ImportOptions{Annotator: j.Annotator, CreateClasses: j.Create, Strict: j.Strict, Source: filepath.Base(j.Src),
+	rep, err := s.ImportDataset(ctx, ds, project.ImportOptions{Annotator: j.Annotator, CreateClasses: j.Create, Strict: j.Strict, Source: filepath.Base(j.Src),
 		ClassMap: j.ClassMap})
 	if err != nil {
 		return res, err

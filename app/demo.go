@@ -81,7 +81,7 @@ func makeDemo(ctx context.Context, dir string, cfg demo.Config, progress func(do
 			os.Remove(path)
 		}
 	}()
-	rep, err := s.AddImages(ctx, paths, store.IntakeOptions{})
+	rep, err := s.AddImages(ctx, paths, project.IntakeOptions{})
 	if err != nil {
 		return err
 	}

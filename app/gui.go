@@ -543,14 +543,14 @@ func (u *ui) askRelink() {
 // shows the summary.
 func (u *ui) intake(paths []string, relinkOnly bool) {
 	st := u.st
-	var rep store.IntakeReport
+	var rep project.IntakeReport
 	title := "Adding images"
 	if relinkOnly {
 		title = "Looking for moved images"
 	}
 	u.runJob(title, func(ctx context.Context, progress func(float64)) error {
 		var err error
-		rep, err = st.AddImages(ctx, paths, store.IntakeOptions{RelinkOnly: relinkOnly,
+		rep, err = st.AddImages(ctx, paths, project.IntakeOptions{RelinkOnly: relinkOnly,
 			Progress: func(done, total int) { progress(float64(done) / float64(total)) }})
 		return err
 	}, func() {

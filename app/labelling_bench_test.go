@@ -71,7 +71,7 @@ func BenchmarkNextImage12MP(b *testing.B) {
 	if err != nil {
 		b.Fatal(err)
 	}
-	rep, err := st.AddImages(context.Background(), []string{imgDir}, store.IntakeOptions{})
+	rep, err := st.AddImages(context.Background(), []string{imgDir}, project.IntakeOptions{})
 	st.Close()
 	if err != nil || rep.Added != n {
 		b.Fatalf("adding the images: %+v, %v", rep, err)

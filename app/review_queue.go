@@ -19,7 +19,6 @@ import (
 
 	"boxwright/canvas"
 	"boxwright/project"
-	"boxwright/store"
 )
 
 // The orders the review queue offers.
@@ -211,7 +210,7 @@ func (q *reviewQueue) load() error {
 		return errors.New("no project is open")
 	}
 	ctx := context.Background()
-	sq := store.SuggestionQuery{State: project.SuggestionPending}
+	sq := project.SuggestionQuery{State: project.SuggestionPending}
 	if s := q.source.Selected; s != "" && s != reviewAllSources {
 		sq.Source = s
 	}
@@ -239,7 +238,7 @@ func (q *reviewQueue) load() error {
 
 // loadSources offers every source that has pending suggestions.
 func (q *reviewQueue) loadSources(ctx context.Context) error {
-	all, err := q.u.st.QuerySuggestions(ctx, store.SuggestionQuery{State: project.SuggestionPending})
+	all, err := q.u.st.QuerySuggestions(ctx, project.SuggestionQuery{State: project.SuggestionPending})
 	if err != nil {
 		return fmt.Errorf("read the suggestion sources: %w", err)
 	}
@@ -370,7 +369,7 @@ func (q *reviewQueue) accept() {
 	if !ok {
 		return
 	}
-	d := store.Decision{SuggestionID: g.ID, Accept: true}
+	d := project.Decision{SuggestionID: g.ID, Accept: true}
 	if q.box != g.Box {
 		d.Box = q.box
 	}
@@ -387,7 +386,7 @@ func (q *reviewQueue) accept() {
 // reject records that the current suggestion is wrong.
 func (q *reviewQueue) reject() {
 	if g, ok := q.current(); ok {
-		q.decide(g, store.Decision{SuggestionID: g.ID}, "rejected")
+		q.decide(g, project.Decision{SuggestionID: g.ID}, "rejected")
 	}
 }
 
@@ -400,7 +399,7 @@ func (q *reviewQueue) skip() {
 	q.advance()
 }
 
-func (q *reviewQueue) decide(g project.Suggestion, d store.Decision, what string) {
+func (q *reviewQueue) decide(g project.Suggestion, d project.Decision, what string) {
 	u := q.u
 	if u.me.ID == 0 {
 		u.askAnnotator()
@@ -415,7 +414,7 @@ func (q *reviewQueue) decide(g project.Suggestion, d store.Decision, what string
 			return
 		}
 	}
-	if _, err := u.st.Decide(ctx, u.me.ID, []store.Decision{d}); err != nil {
+	if _, err := u.st.Decide(ctx, u.me.ID, []project.Decision{d}); err != nil {
 		dialog.ShowError(err, q.win)
 		// Decided elsewhere (another window or reviewer): move past it.
 		if now, rerr := u.st.Suggestion(ctx, g.ID); rerr == nil && now.State != project.SuggestionPending {

@@ -69,7 +69,7 @@ func state(t testing.TB, u *ui, id int64) project.SuggestionState {
 
 func pendingIDs(t *testing.T, u *ui) []project.Suggestion {
 	t.Helper()
-	gs, err := u.st.QuerySuggestions(context.Background(), store.SuggestionQuery{})
+	gs, err := u.st.QuerySuggestions(context.Background(), project.SuggestionQuery{})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -306,7 +306,7 @@ func BenchmarkReviewQueueNext(b *testing.B) {
 		b.Fatal(err)
 	}
 	ctx := context.Background()
-	rep, err := st.AddImages(ctx, []string{imgDir}, store.IntakeOptions{})
+	rep, err := st.AddImages(ctx, []string{imgDir}, project.IntakeOptions{})
 	if err != nil || rep.Added != n {
 		b.Fatalf("adding the images: %+v, %v", rep, err)
 	}

@@ -43,7 +43,7 @@ type step struct {
 	before, after map[int64]project.Label
 	// decisions, when set, make this a review step: suggestions accepted
 	// or rejected (undone: back to pending, their labels gone).
-	decisions []store.Decision
+	decisions []project.Decision
 	undoing   bool
 }
 
@@ -55,7 +55,7 @@ func (s step) reversed() step {
 // step. Unlike box edits it is not queued on failure: the store refuses
 // it whole (for example when another copy decided first) and nothing
 // changes.
-func (s *session) Decide(ctx context.Context, imageID int64, what string, ds []store.Decision) error {
+func (s *session) Decide(ctx context.Context, imageID int64, what string, ds []project.Decision) error {
 	if len(ds) == 0 {
 		return nil
 	}

@@ -92,10 +92,11 @@ func cmdSimilar(args []string, stdout, stderr io.Writer) error {
 		return err
 	}
 	defer done()
-	m, err := st.NewImageMatcher(ctx)
+	ims, err := st.Images(ctx)
 	if err != nil {
 		return err
 	}
+	m := project.NewImageMatcher(ims)
 	im, ok, reason := m.Match(*imgName)
 	if !ok {
 		return fmt.Errorf("--image %q: %s", *imgName, reason)

@@ -44,7 +44,7 @@ type suggestionJob struct {
 
 // suggestionResult is what an import did.
 type suggestionResult struct {
-	store.SuggestionImportReport
+	project.SuggestionImportReport
 	Read           int      `json:"read"`
 	BelowScore     int      `json:"below_min_score"`
 	Suppressed     int      `json:"suppressed_by_nms"`

@@ -58,7 +58,7 @@ func TestSuggestionsImportRules(t *testing.T) {
 	s, _ := store.Open(path)
 	gs, _ := s.Suggestions(context.Background(), project.SuggestionFilter{Source: "det-v7", State: project.SuggestionPending})
 	a, _ := s.EnsureAnnotator(context.Background(), "Ines")
-	if _, err := s.Decide(context.Background(), a.ID, []store.Decision{{SuggestionID: gs[0].ID, Accept: false}}); err != nil {
+	if _, err := s.Decide(context.Background(), a.ID, []project.Decision{{SuggestionID: gs[0].ID, Accept: false}}); err != nil {
 		t.Fatal(err)
 	}
 	s.Close()
@@ -104,7 +104,7 @@ func TestSuggestionsStatsCountsDecisionsOnly(t *testing.T) {
 	gs, _ := s.Suggestions(ctx, project.SuggestionFilter{Source: "det-v7"})
 	a, _ := s.EnsureAnnotator(ctx, "Ines")
 	// Accept two, correct one, reject one; the other four stay pending.
-	ds := []store.Decision{{SuggestionID: gs[0].ID, Accept: true}, {SuggestionID: gs[1].ID, Accept: true},
+	ds := []project.Decision{{SuggestionID: gs[0].ID, Accept: true}, {SuggestionID: gs[1].ID, Accept: true},
 		{SuggestionID: gs[2].ID, Accept: true, Box: gs[2].Box.Translate(0, 0).Intersect(project.Rect(0, 0, gs[2].Box.X1, (gs[2].Box.Y0+gs[2].Box.Y1)/2)), ClassID: gs[2].ClassID},
 		{SuggestionID: gs[3].ID, Accept: false}}
 	if _, err := s.Decide(ctx, a.ID, ds); err != nil {

@@ -12,7 +12,6 @@ import (
 
 	"boxwright/canvas"
 	"boxwright/project"
-	"boxwright/store"
 )
 
 // Suggestions share the view with labels; their keys lie far below the
@@ -98,8 +97,8 @@ func (u *ui) selectedSuggestion() (project.Suggestion, bool) {
 }
 
 // decisionFor is the decision to accept g as it stands now.
-func decisionFor(g project.Suggestion, accept bool) store.Decision {
-	d := store.Decision{SuggestionID: g.ID, Accept: accept}
+func decisionFor(g project.Suggestion, accept bool) project.Decision {
+	d := project.Decision{SuggestionID: g.ID, Accept: accept}
 	if accept {
 		d.Box, d.ClassID = g.Box, g.ClassID
 	}
@@ -108,13 +107,13 @@ func decisionFor(g project.Suggestion, accept bool) store.Decision {
 
 func (u *ui) acceptSuggestion() {
 	if g, ok := u.selectedSuggestion(); ok && u.needAnnotator() {
-		u.review("accept a suggestion", []store.Decision{decisionFor(g, true)})
+		u.review("accept a suggestion", []project.Decision{decisionFor(g, true)})
 	}
 }
 
 func (u *ui) rejectSuggestion() {
 	if g, ok := u.selectedSuggestion(); ok && u.needAnnotator() {
-		u.review("reject a suggestion", []store.Decision{decisionFor(g, false)})
+		u.review("reject a suggestion", []project.Decision{decisionFor(g, false)})
 	}
 }
 
@@ -124,7 +123,7 @@ func (u *ui) acceptAllAbove() {
 	if !u.needAnnotator() {
 		return
 	}
-	var ds []store.Decision
+	var ds []project.Decision
 	for _, g := range u.suggestions {
 		g, _ = u.suggestion(g.ID)
 		if g.Score >= u.suggestionThreshold {
@@ -139,7 +138,7 @@ func (u *ui) acceptAllAbove() {
 }
 
 // review stores decisions as one undoable step and redraws.
-func (u *ui) review(what string, ds []store.Decision) {
+func (u *ui) review(what string, ds []project.Decision) {
 	err := u.sess.Decide(context.Background(), u.imageID, what, ds)
 	u.afterReview(len(ds), err)
 }
@@ -199,12 +198,12 @@ func (u *ui) askBulkReview() {
 	scope := widget.NewRadioGroup([]string{"this image", "the whole project"}, nil)
 	scope.SetSelected("the whole project")
 	preview := widget.NewLabel("")
-	query := func() (store.SuggestionQuery, error) {
+	query := func() (project.SuggestionQuery, error) {
 		v, err := strconv.ParseFloat(strings.TrimSpace(score.Text), 64)
 		if err != nil || v < 0 || v > 1 {
-			return store.SuggestionQuery{}, fmt.Errorf("the score must be a number from 0 to 1")
+			return project.SuggestionQuery{}, fmt.Errorf("the score must be a number from 0 to 1")
 		}
-		q := store.SuggestionQuery{State: project.SuggestionPending}
+		q := project.SuggestionQuery{State: project.SuggestionPending}
 		if action.Selected == "accept those scoring at least" {
 			q.MinScore = v
 		} else {
@@ -268,12 +267,12 @@ func (u *ui) askBulkReview() {
 }
 
 // bulkReview decides every suggestion the query selects, as one step.
-func (u *ui) bulkReview(q store.SuggestionQuery, accept bool) error {
+func (u *ui) bulkReview(q project.SuggestionQuery, accept bool) error {
 	gs, err := u.st.QuerySuggestions(context.Background(), q)
 	if err != nil {
 		return err
 	}
-	ds := make([]store.Decision, len(gs))
+	ds := make([]project.Decision, len(gs))
 	for i, g := range gs {
 		if e, ok := u.suggestionEdits[g.ID]; ok {
 			g = e

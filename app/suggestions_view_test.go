@@ -8,7 +8,6 @@ import (
 	"fyne.io/fyne/v2/test"
 
 	"boxwright/project"
-	"boxwright/store"
 )
 
 func openDemoAs(t *testing.T, who string) (*ui, string) {
@@ -116,9 +115,9 @@ func TestSuggestionBulkActionsAndUndo(t *testing.T) {
 			want++
 		}
 	}
-	before, _ := u.st.CountSuggestions(ctx, store.SuggestionQuery{ImageID: u.imageID, State: project.SuggestionAccepted})
+	before, _ := u.st.CountSuggestions(ctx, project.SuggestionQuery{ImageID: u.imageID, State: project.SuggestionAccepted})
 	u.view.TypedRune('A')
-	after, _ := u.st.CountSuggestions(ctx, store.SuggestionQuery{ImageID: u.imageID, State: project.SuggestionAccepted})
+	after, _ := u.st.CountSuggestions(ctx, project.SuggestionQuery{ImageID: u.imageID, State: project.SuggestionAccepted})
 	if after-before != want {
 		t.Errorf("Shift+A accepted %d, want the %d scoring ≥ 0.8", after-before, want)
 	}
@@ -127,7 +126,7 @@ func TestSuggestionBulkActionsAndUndo(t *testing.T) {
 			t.Errorf("suggestion %d scoring %.2f is still shown as pending", g.ID, g.Score)
 		}
 	}
-	q := store.SuggestionQuery{MaxScore: 0.3, State: project.SuggestionPending}
+	q := project.SuggestionQuery{MaxScore: 0.3, State: project.SuggestionPending}
 	preview, err := u.st.CountSuggestions(ctx, q)
 	if err != nil || preview == 0 {
 		t.Fatalf("preview %d, %v", preview, err)
@@ -135,7 +134,7 @@ func TestSuggestionBulkActionsAndUndo(t *testing.T) {
 	if err := u.bulkReview(q, false); err != nil {
 		t.Fatal(err)
 	}
-	rejected, _ := u.st.CountSuggestions(ctx, store.SuggestionQuery{MaxScore: 0.3, State: project.SuggestionRejected})
+	rejected, _ := u.st.CountSuggestions(ctx, project.SuggestionQuery{MaxScore: 0.3, State: project.SuggestionRejected})
 	if rejected != preview {
 		t.Errorf("rejected %d, preview said %d", rejected, preview)
 	}
@@ -150,10 +149,10 @@ func TestSuggestionBulkActionsAndUndo(t *testing.T) {
 func TestSuggestionStatsWindow(t *testing.T) {
 	u, _ := openDemoAs(t, "Ines")
 	ctx := context.Background()
-	gs, _ := u.st.QuerySuggestions(ctx, store.SuggestionQuery{State: project.SuggestionPending, Limit: 20})
-	var ds []store.Decision
+	gs, _ := u.st.QuerySuggestions(ctx, project.SuggestionQuery{State: project.SuggestionPending, Limit: 20})
+	var ds []project.Decision
 	for i, g := range gs {
-		ds = append(ds, store.Decision{SuggestionID: g.ID, Accept: i%3 != 0})
+		ds = append(ds, project.Decision{SuggestionID: g.ID, Accept: i%3 != 0})
 	}
 	if _, err := u.st.Decide(ctx, u.me.ID, ds); err != nil {
 		t.Fatal(err)

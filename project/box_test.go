@@ -80,3 +80,28 @@ func TestBoxValid(t *testing.T) {
 		t.Errorf("IoU of empty boxes should be 0")
 	}
 }
+
+// The accept rule of review: a suggestion accepted unchanged is "accepted",
+// one whose box or class changed is "corrected" (our own rule, shared by
+// every backend).
+func TestDecisionFinal(t *testing.T) {
+	g := Suggestion{ID: 1, ClassID: 3, Box: Box{X0: 1, Y0: 2, X1: 11, Y1: 12}}
+	cases := []struct {
+		d      Decision
+		box    Box
+		class  int64
+		state  SuggestionState
+		origin Origin
+	}{
+		{Decision{Accept: true}, g.Box, 3, SuggestionAccepted, OriginAccepted},
+		{Decision{Accept: true, Box: g.Box, ClassID: 3}, g.Box, 3, SuggestionAccepted, OriginAccepted},
+		{Decision{Accept: true, ClassID: 4}, g.Box, 4, SuggestionCorrected, OriginCorrected},
+		{Decision{Accept: true, Box: Box{X0: 1, Y0: 2, X1: 12, Y1: 12}}, Box{X0: 1, Y0: 2, X1: 12, Y1: 12}, 3, SuggestionCorrected, OriginCorrected},
+	}
+	for i, c := range cases {
+		box, class, state, origin := c.d.Final(g)
+		if box != c.box || class != c.class || state != c.state || origin != c.origin {
+			t.Errorf("case %d: got %v %d %s %s", i, box, class, state, origin)
+		}
+	}
+}

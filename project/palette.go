@@ -1,6 +1,9 @@
 package project
 
-import "image/color"
+import (
+	"fmt"
+	"image/color"
+)
 
 // Palette is the sequence of class colours given to new classes in order.
 // It is the eight-colour set of Okabe & Ito ("Color Universal Design", 2008),
@@ -25,3 +28,18 @@ func PaletteColor(i int) color.NRGBA {
 	}
 	return Palette[i%len(Palette)]
 }
+
+// ParseColor reads "#rrggbb".
+func ParseColor(s string) (color.NRGBA, error) {
+	var r, g, b uint8
+	if len(s) != 7 || s[0] != '#' {
+		return color.NRGBA{}, fmt.Errorf("colour %q is not of the form #rrggbb", s)
+	}
+	if _, err := fmt.Sscanf(s, "#%02x%02x%02x", &r, &g, &b); err != nil {
+		return color.NRGBA{}, fmt.Errorf("colour %q is not of the form #rrggbb", s)
+	}
+	return color.NRGBA{r, g, b, 0xff}, nil
+}
+
+// FormatColor writes "#rrggbb".
+func FormatColor(c color.NRGBA) string { return fmt.Sprintf("#%02x%02x%02x", c.R, c.G, c.B) }

@@ -13,6 +13,12 @@ type DeleteClassOptions struct {
 	DeleteLabels bool
 }
 
+// The storage interfaces below are what the program above the storage
+// backend uses, split by role so that a screen or command can say which part
+// it needs; Store is all of them. Each backend (the SQLite file; later a
+// database server) implements Store, and nothing above the backends knows
+// which one it has. Methods list only what a caller above the backend needs.
+
 // ClassStore keeps the project's classes.
 type ClassStore interface {
 	Classes(ctx context.Context) ([]Class, error)
@@ -23,6 +29,11 @@ type ClassStore interface {
 	AddClass(ctx context.Context, c Class) (Class, error)
 	// UpdateClass renames, recolours or re-keys a class; labels keep it.
 	UpdateClass(ctx context.Context, c Class) error
+	// RenameClass gives the class named oldName a new name.
+	RenameClass(ctx context.Context, oldName, newName string) error
+	// MergeClass moves every label and suggestion of class from into class
+	// into, then deletes from.
+	MergeClass(ctx context.Context, from, into string) error
 	// DeleteClass removes a class as opts say.
 	DeleteClass(ctx context.Context, id int64, opts DeleteClassOptions) error
 }
@@ -30,25 +41,27 @@ type ClassStore interface {
 // AnnotatorStore keeps the people whose labels are compared.
 type AnnotatorStore interface {
 	Annotators(ctx context.Context) ([]Annotator, error)
-	Annotator(ctx context.Context, id int64) (Annotator, error)
 	AnnotatorByName(ctx context.Context, name string) (Annotator, error)
 	AddAnnotator(ctx context.Context, name string) (Annotator, error)
-	RenameAnnotator(ctx context.Context, id int64, name string) error
-	// DeleteAnnotator refuses with ErrInUse while the annotator has labels.
-	DeleteAnnotator(ctx context.Context, id int64) error
+	// EnsureAnnotator returns the annotator of that name, adding it if new.
+	EnsureAnnotator(ctx context.Context, name string) (Annotator, error)
 }
 
-// ImageStore keeps the project's images.
+// ImageStore keeps the project's images and finds their files.
 type ImageStore interface {
 	Images(ctx context.Context) ([]Image, error)
 	Image(ctx context.Context, id int64) (Image, error)
-	ImageBySHA256(ctx context.Context, sum string) (Image, error)
-	AddImage(ctx context.Context, im Image) (Image, error)
 	SetImageStatus(ctx context.Context, id int64, s ImageStatus) error
-	// RelinkImage records a new path for an image whose file moved.
-	RelinkImage(ctx context.Context, id int64, path string) error
-	// DeleteImage removes the image with its labels and suggestions.
-	DeleteImage(ctx context.Context, id int64) error
+	// AddImages adds files and the image files in folders (recursively);
+	// unreadable files are skipped with their reason in the report.
+	AddImages(ctx context.Context, paths []string, opts IntakeOptions) (IntakeReport, error)
+	// Relink finds the files of missing images under dir by content.
+	Relink(ctx context.Context, dir string, opts IntakeOptions) (IntakeReport, error)
+	// MissingImages lists the images whose files are not where the
+	// project says.
+	MissingImages(ctx context.Context) ([]Image, error)
+	// ImagePath is the image's file on this machine.
+	ImagePath(im Image) string
 }
 
 // LabelFilter selects labels; zero fields select everything.
@@ -61,11 +74,19 @@ type LabelFilter struct {
 // LabelStore keeps the labels.
 type LabelStore interface {
 	Labels(ctx context.Context, f LabelFilter) ([]Label, error)
-	Label(ctx context.Context, id int64) (Label, error)
-	AddLabel(ctx context.Context, l Label) (Label, error)
-	// UpdateLabel changes a label's box and class.
-	UpdateLabel(ctx context.Context, l Label) error
-	DeleteLabel(ctx context.Context, id int64) error
+	// ApplyLabelChange makes one edit all or nothing and returns the IDs
+	// of the inserted labels in order.
+	ApplyLabelChange(ctx context.Context, c LabelChange) ([]int64, error)
+	// AddLabels stores a batch of labels all or nothing.
+	AddLabels(ctx context.Context, ls []Label) error
+	// ReplaceAnnotatorLabels swaps all labels of an annotator for new
+	// ones all or nothing (derived annotators such as the consensus).
+	ReplaceAnnotatorLabels(ctx context.Context, annotatorID int64, labels []Label) error
+	// LabelTallies counts labels by image, class and annotator.
+	LabelTallies(ctx context.Context) ([]LabelTally, error)
+	// BoxesByImage reads the boxes of the given annotators (all when none
+	// are given), grouped by image in image order.
+	BoxesByImage(ctx context.Context, annotatorIDs []int64) ([]ImageBoxes, error)
 }
 
 // SuggestionFilter selects suggestions; zero fields select everything.
@@ -81,12 +102,24 @@ type SuggestionStore interface {
 	Suggestion(ctx context.Context, id int64) (Suggestion, error)
 	// AddSuggestions stores a batch all-or-nothing, returning their IDs.
 	AddSuggestions(ctx context.Context, s []Suggestion) ([]int64, error)
-	DeleteSuggestion(ctx context.Context, id int64) error
-	// AcceptSuggestion turns a pending suggestion into a label of the
-	// reviewer, with the given final box and class; the label is
-	// "accepted" when they equal the suggestion's and "corrected" otherwise.
-	AcceptSuggestion(ctx context.Context, id, reviewerID int64, final Box, classID int64) (Label, error)
-	RejectSuggestion(ctx context.Context, id, reviewerID int64) error
+	// ImportSuggestions replaces a source's pending suggestions with gs,
+	// leaving decided ones alone, all or nothing.
+	ImportSuggestions(ctx context.Context, source string, gs []Suggestion) (SuggestionImportReport, error)
+	// ReplaceSuggestionsOn is ImportSuggestions limited to some images.
+	ReplaceSuggestionsOn(ctx context.Context, source string, imageIDs []int64, gs []Suggestion) (SuggestionImportReport, error)
+	CountSuggestions(ctx context.Context, q SuggestionQuery) (int, error)
+	// QuerySuggestions lists what q selects, best score first.
+	QuerySuggestions(ctx context.Context, q SuggestionQuery) ([]Suggestion, error)
+	// Decide applies one reviewer's decisions all or nothing (the rule is
+	// Decision.Final) and returns the new label IDs by suggestion ID.
+	Decide(ctx context.Context, reviewerID int64, ds []Decision) (map[int64]int64, error)
+	// Undecide returns decided suggestions to pending and deletes the
+	// labels made from them, all or nothing.
+	Undecide(ctx context.Context, suggestionIDs []int64) error
+	// ReviewRows lists every suggestion of a source ("" for all) as the
+	// review statistics read them.
+	ReviewRows(ctx context.Context, source string) ([]ReviewRow, error)
+	SuggestionSources(ctx context.Context) ([]string, error)
 }
 
 // NamedCount is a count that belongs to a class or an annotator.
@@ -123,6 +156,10 @@ type Store interface {
 	// CountsByImage has an entry for every image that has labels or
 	// pending suggestions.
 	CountsByImage(ctx context.Context) (map[int64]ImageCounts, error)
+	// SchemaVersion is the schema version of the open project.
+	SchemaVersion(ctx context.Context) (int, error)
+	// Path names the project (the file of a file-based project).
+	Path() string
 	// Dir is the folder that relative image paths are relative to.
 	Dir() string
 	Close() error

@@ -18,24 +18,9 @@ func scanClass(row interface{ Scan(...any) error }) (project.Class, error) {
 	if err := row.Scan(&c.ID, &c.Name, &hex, &c.HotKey); err != nil {
 		return c, err
 	}
-	c.Color, _ = ParseColor(hex)
+	c.Color, _ = project.ParseColor(hex)
 	return c, nil
 }
-
-// ParseColor reads "#rrggbb".
-func ParseColor(s string) (color.NRGBA, error) {
-	var r, g, b uint8
-	if len(s) != 7 || s[0] != '#' {
-		return color.NRGBA{}, fmt.Errorf("colour %q is not of the form #rrggbb", s)
-	}
-	if _, err := fmt.Sscanf(s, "#%02x%02x%02x", &r, &g, &b); err != nil {
-		return color.NRGBA{}, fmt.Errorf("colour %q is not of the form #rrggbb", s)
-	}
-	return color.NRGBA{r, g, b, 0xff}, nil
-}
-
-// FormatColor writes "#rrggbb".
-func FormatColor(c color.NRGBA) string { return fmt.Sprintf("#%02x%02x%02x", c.R, c.G, c.B) }
 
 func validHotKey(k string) error {
 	if k == "" {
@@ -117,7 +102,7 @@ func insertClassTx(ctx context.Context, tx *sql.Tx, c project.Class) (project.Cl
 		c.HotKey = freeDigit(ctx, tx)
 	}
 	res, err := tx.ExecContext(ctx, "INSERT INTO classes(name, color, hot_key, position) VALUES (?, ?, ?, ?)",
-		c.Name, FormatColor(c.Color), c.HotKey, pos)
+		c.Name, project.FormatColor(c.Color), c.HotKey, pos)
 	if err != nil {
 		return c, translate(err)
 	}
@@ -155,7 +140,7 @@ func (s *Store) UpdateClass(ctx context.Context, c project.Class) error {
 		return fmt.Errorf("update class %q: %w", c.Name, err)
 	}
 	res, err := s.db.ExecContext(ctx, "UPDATE classes SET name = ?, color = ?, hot_key = ? WHERE id = ?",
-		c.Name, FormatColor(c.Color), c.HotKey, c.ID)
+		c.Name, project.FormatColor(c.Color), c.HotKey, c.ID)
 	if err != nil {
 		return fmt.Errorf("update class %q: %w", c.Name, translate(err))
 	}

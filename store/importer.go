@@ -5,132 +5,27 @@ import (
 	"database/sql"
 	"errors"
 	"fmt"
-	"path"
 	"strings"
 
 	"boxwright/project"
 	"boxwright/project/formats"
 )
 
-// ImportOptions tunes ImportDataset.
-type ImportOptions struct {
-	// Annotator owns the imported labels; added if new. Required.
-	Annotator string
-	// CreateClasses adds classes the project lacks; without it an unknown
-	// class name fails the import.
-	CreateClasses bool
-	// Strict refuses boxes that reach outside their image instead of
-	// clipping them.
-	Strict bool
-	// Source is recorded on every label (usually the imported file's name).
-	Source string
-	// ClassMap renames the file's class names to project class names
-	// before they are looked up ("boat" → "motorboat").
-	ClassMap map[string]string
-}
-
-// ImportReport says what an import did.
-type ImportReport struct {
-	Annotator      string   `json:"annotator"`
-	Images         int      `json:"images"` // records matched to project images
-	Labels         int      `json:"labels"`
-	Clipped        int      `json:"clipped"` // boxes cut back to their image
-	ClassesCreated []string `json:"classes_created"`
-	// Unmatched are the image records that match no project image.
-	Unmatched []string `json:"unmatched"`
-}
-
-// ImageMatcher finds project images by the names interchange files use:
-// the stored relative path, a trailing part of it, or the file name alone
-// when that is unique in the project.
-type ImageMatcher struct {
-	byPath map[string]project.Image
-	byBase map[string][]project.Image
-	all    []project.Image
-}
-
-// NewImageMatcher indexes the project's images.
-func (s *Store) NewImageMatcher(ctx context.Context) (*ImageMatcher, error) {
-	ims, err := s.Images(ctx)
-	if err != nil {
-		return nil, err
-	}
-	m := &ImageMatcher{byPath: map[string]project.Image{}, byBase: map[string][]project.Image{}, all: ims}
-	for _, im := range ims {
-		m.byPath[im.Path] = im
-		b := path.Base(im.Path)
-		m.byBase[b] = append(m.byBase[b], im)
-	}
-	return m, nil
-}
-
-// Match returns the image a record name refers to. ok is false when none
-// does, or when the name is ambiguous (reason says which).
-func (m *ImageMatcher) Match(name string) (im project.Image, ok bool, reason string) {
-	name = strings.TrimPrefix(strings.ReplaceAll(name, "\\", "/"), "./")
-	if im, ok := m.byPath[name]; ok {
-		return im, true, ""
-	}
-	var hits []project.Image
-	for _, im := range m.all {
-		if strings.HasSuffix(im.Path, "/"+name) {
-			hits = append(hits, im)
-		}
-	}
-	if len(hits) == 0 {
-		hits = m.byBase[path.Base(name)]
-	}
-	switch len(hits) {
-	case 0:
-		return project.Image{}, false, "no project image has this name"
-	case 1:
-		return hits[0], true, ""
-	}
-	return project.Image{}, false, fmt.Sprintf("%d project images have this name; give the relative path", len(hits))
-}
-
-// MatchStem is Match for layouts that name images only by file stem (the
-// centre-normalised text layout's a.txt belongs to a.jpg, a.png …).
-func (m *ImageMatcher) MatchStem(rel string) (im project.Image, ok bool, reason string) {
-	rel = strings.TrimSuffix(strings.ReplaceAll(rel, "\\", "/"), path.Ext(rel))
-	var hits []project.Image
-	for _, im := range m.all {
-		p := strings.TrimSuffix(im.Path, path.Ext(im.Path))
-		if p == rel || strings.HasSuffix(p, "/"+rel) {
-			hits = append(hits, im)
-		}
-	}
-	if len(hits) == 0 {
-		base := path.Base(rel)
-		for _, im := range m.all {
-			if strings.TrimSuffix(path.Base(im.Path), path.Ext(im.Path)) == base {
-				hits = append(hits, im)
-			}
-		}
-	}
-	switch len(hits) {
-	case 0:
-		return project.Image{}, false, "no project image has this name"
-	case 1:
-		return hits[0], true, ""
-	}
-	return project.Image{}, false, fmt.Sprintf("%d project images share this name; keep the folder structure", len(hits))
-}
-
 // ImportDataset stores the dataset's boxes as labels of one annotator, in
 // one transaction: any bad record rolls everything back and the error
 // names it. Records whose image is not in the project are reported, not
 // imported; boxes reaching outside their image are clipped and counted
 // (refused when opts.Strict).
-func (s *Store) ImportDataset(ctx context.Context, ds *formats.Dataset, opts ImportOptions) (ImportReport, error) {
-	rep := ImportReport{Annotator: opts.Annotator, ClassesCreated: []string{}, Unmatched: []string{}}
+func (s *Store) ImportDataset(ctx context.Context, ds *formats.Dataset, opts project.ImportOptions) (project.ImportReport, error) {
+	rep := project.ImportReport{Annotator: opts.Annotator, ClassesCreated: []string{}, Unmatched: []string{}}
 	if err := project.ValidateName("annotator", opts.Annotator); err != nil {
 		return rep, fmt.Errorf("import: %v: %w", err, project.ErrInvalid)
 	}
-	matcher, err := s.NewImageMatcher(ctx)
+	ims, err := s.Images(ctx)
 	if err != nil {
 		return rep, err
 	}
+	matcher := project.NewImageMatcher(ims)
 	classes, err := s.Classes(ctx)
 	if err != nil {
 		return rep, err
@@ -196,7 +91,7 @@ func (s *Store) ImportDataset(ctx context.Context, ds *formats.Dataset, opts Imp
 		return ins.flush()
 	})
 	if err != nil {
-		return ImportReport{Annotator: opts.Annotator, ClassesCreated: []string{}, Unmatched: []string{}}, fmt.Errorf("import (nothing was stored): %w", err)
+		return project.ImportReport{Annotator: opts.Annotator, ClassesCreated: []string{}, Unmatched: []string{}}, fmt.Errorf("import (nothing was stored): %w", err)
 	}
 	return rep, nil
 }

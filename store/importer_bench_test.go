@@ -55,7 +55,7 @@ func BenchmarkImportCornerJSON200k(b *testing.B) {
 		if err != nil {
 			b.Fatal(err)
 		}
-		rep, err := s.ImportDataset(ctx, got, ImportOptions{Annotator: "bench", CreateClasses: true})
+		rep, err := s.ImportDataset(ctx, got, project.ImportOptions{Annotator: "bench", CreateClasses: true})
 		if err != nil || rep.Labels != 200000 {
 			b.Fatalf("import: %d labels, %v", rep.Labels, err)
 		}

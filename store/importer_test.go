@@ -32,7 +32,7 @@ func TestImportDatasetMatchesClipsAndReports(t *testing.T) {
 		rec("sub/b.jpg", 0, 0, bx("buoy", 0.5, 0.5, 10.25, 20, "annotations[2]")),
 		rec("missing.jpg", 10, 10, bx("buoy", 0, 0, 1, 1, "annotations[3]")),
 	}}
-	rep, err := s.ImportDataset(bg, ds, ImportOptions{Annotator: "old-team", CreateClasses: true, Source: "f.json"})
+	rep, err := s.ImportDataset(bg, ds, project.ImportOptions{Annotator: "old-team", CreateClasses: true, Source: "f.json"})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -57,18 +57,18 @@ func TestImportDatasetIsAllOrNothing(t *testing.T) {
 	cases := []struct {
 		name string
 		ds   *formats.Dataset
-		opts ImportOptions
+		opts project.ImportOptions
 		want string
 	}{
 		{"unknown class", &formats.Dataset{Images: []formats.ImageRecord{rec("a.jpg", 100, 80, bx("buoy", 0, 0, 5, 5, "annotations[0]"), bx("yacht", 0, 0, 5, 5, "annotations[1]"))}},
-			ImportOptions{Annotator: "x"}, `annotations[1]: class "yacht" is not in the project`},
+			project.ImportOptions{Annotator: "x"}, `annotations[1]: class "yacht" is not in the project`},
 		{"strict outside", &formats.Dataset{Images: []formats.ImageRecord{rec("a.jpg", 100, 80, bx("buoy", 0, 0, 5, 5, "annotations[0]"), bx("buoy", 95, 0, 105, 5, "annotations[1]"))}},
-			ImportOptions{Annotator: "x", Strict: true}, "annotations[1]: box [95,0,105,5] reaches outside the 100×80 image"},
+			project.ImportOptions{Annotator: "x", Strict: true}, "annotations[1]: box [95,0,105,5] reaches outside the 100×80 image"},
 		{"entirely outside", &formats.Dataset{Images: []formats.ImageRecord{rec("a.jpg", 100, 80, bx("buoy", 0, 0, 5, 5, "a0"), bx("buoy", 200, 200, 205, 205, "a1"))}},
-			ImportOptions{Annotator: "x"}, "a1: box [200,200,205,205] reaches outside"},
+			project.ImportOptions{Annotator: "x"}, "a1: box [200,200,205,205] reaches outside"},
 		{"size mismatch", &formats.Dataset{Images: []formats.ImageRecord{rec("a.jpg", 80, 100, bx("buoy", 0, 0, 5, 5, "a0"))}},
-			ImportOptions{Annotator: "x"}, "is 80×100 in the file but 100×80 in the project"},
-		{"no annotator", &formats.Dataset{}, ImportOptions{}, "annotator name is empty"},
+			project.ImportOptions{Annotator: "x"}, "is 80×100 in the file but 100×80 in the project"},
+		{"no annotator", &formats.Dataset{}, project.ImportOptions{}, "annotator name is empty"},
 	}
 	for _, c := range cases {
 		s, _, _ := importFixture(t)
@@ -88,7 +88,7 @@ func TestImportDatasetIsAllOrNothing(t *testing.T) {
 func TestImportClassMap(t *testing.T) {
 	s, a, _ := importFixture(t)
 	ds := &formats.Dataset{Images: []formats.ImageRecord{rec("a.jpg", 100, 80, bx("float", 1, 1, 5, 5, "annotations[0]"))}}
-	if _, err := s.ImportDataset(bg, ds, ImportOptions{Annotator: "x", ClassMap: map[string]string{"float": "buoy"}}); err != nil {
+	if _, err := s.ImportDataset(bg, ds, project.ImportOptions{Annotator: "x", ClassMap: map[string]string{"float": "buoy"}}); err != nil {
 		t.Fatal(err)
 	}
 	buoy, _ := s.ClassByName(bg, "buoy")
@@ -100,10 +100,11 @@ func TestImportClassMap(t *testing.T) {
 func TestImageMatcher(t *testing.T) {
 	s, a, _ := importFixture(t)
 	s.AddImage(bg, project.Image{Path: "other/a.jpg", SHA256: hash(2), Width: 100, Height: 80, Orientation: 1})
-	m, err := s.NewImageMatcher(bg)
+	ims, err := s.Images(bg)
 	if err != nil {
 		t.Fatal(err)
 	}
+	m := project.NewImageMatcher(ims)
 	if im, ok, _ := m.Match("harbour/a.jpg"); !ok || im.ID != a.ID {
 		t.Errorf("exact path")
 	}

@@ -16,38 +16,14 @@ import (
 	"boxwright/store/imagefile"
 )
 
-// IntakeOptions tunes AddImages.
-type IntakeOptions struct {
-	// MaxPixels refuses larger images; 0 means imagefile.DefaultMaxPixels.
-	MaxPixels int64
-	// RelinkOnly looks for the files of known images and adds nothing new.
-	RelinkOnly bool
-	// Progress, when set, is called after each file with the counts so far.
-	Progress func(done, total int)
-}
-
-// IntakeFailure is one file that was skipped, with the reason.
-type IntakeFailure struct {
-	Path  string `json:"path"`
-	Error string `json:"error"`
-}
-
-// IntakeReport says what an intake did.
-type IntakeReport struct {
-	Added      int             `json:"added"`
-	Duplicates int             `json:"duplicates"`
-	Relinked   int             `json:"relinked"`
-	Failed     []IntakeFailure `json:"failed"`
-}
-
 // AddImages adds image files, and the image files found in folders
 // (recursively), to the project. A file whose bytes are already known adds
 // nothing; if the known image's file has gone missing, the image is
 // relinked to the new path with its labels. Files that cannot be read are
 // skipped, each with its reason in the report; only a cancelled context or a
 // database failure stops the intake, and every image already added stays.
-func (s *Store) AddImages(ctx context.Context, paths []string, opts IntakeOptions) (IntakeReport, error) {
-	rep := IntakeReport{Failed: []IntakeFailure{}}
+func (s *Store) AddImages(ctx context.Context, paths []string, opts project.IntakeOptions) (project.IntakeReport, error) {
+	rep := project.IntakeReport{Failed: []project.IntakeFailure{}}
 	if opts.MaxPixels == 0 {
 		opts.MaxPixels = imagefile.DefaultMaxPixels
 	}
@@ -99,7 +75,7 @@ func (s *Store) AddImages(ctx context.Context, paths []string, opts IntakeOption
 			return rep, fmt.Errorf("adding images: %w", ctx.Err())
 		}
 		if p.err != nil {
-			rep.Failed = append(rep.Failed, IntakeFailure{p.path, p.err.Error()})
+			rep.Failed = append(rep.Failed, project.IntakeFailure{Path: p.path, Error: p.err.Error()})
 		} else if err := s.intakeOne(ctx, p.path, p.info, opts, &rep); err != nil {
 			return rep, fmt.Errorf("adding image %s: %w", p.path, err)
 		}
@@ -110,7 +86,7 @@ func (s *Store) AddImages(ctx context.Context, paths []string, opts IntakeOption
 	return rep, nil
 }
 
-func (s *Store) intakeOne(ctx context.Context, path string, info imagefile.Info, opts IntakeOptions, rep *IntakeReport) error {
+func (s *Store) intakeOne(ctx context.Context, path string, info imagefile.Info, opts project.IntakeOptions, rep *project.IntakeReport) error {
 	rel := s.storedPath(path)
 	known, err := s.ImageBySHA256(ctx, info.SHA256)
 	switch {
@@ -145,9 +121,9 @@ func (s *Store) intakeOne(ctx context.Context, path string, info imagefile.Info,
 // collectFiles expands folders into the image files under them, sorted.
 // Files named explicitly are taken whatever their extension, so that a
 // wrong file gets a reason rather than silence.
-func collectFiles(paths []string) ([]string, []IntakeFailure) {
+func collectFiles(paths []string) ([]string, []project.IntakeFailure) {
 	var files []string
-	var failed []IntakeFailure
+	var failed []project.IntakeFailure
 	seen := map[string]bool{}
 	add := func(p string) {
 		if abs, err := filepath.Abs(p); err == nil && !seen[abs] {
@@ -158,7 +134,7 @@ func collectFiles(paths []string) ([]string, []IntakeFailure) {
 	for _, root := range paths {
 		st, err := os.Stat(root)
 		if err != nil {
-			failed = append(failed, IntakeFailure{root, describeStatError(err)})
+			failed = append(failed, project.IntakeFailure{Path: root, Error: describeStatError(err)})
 			continue
 		}
 		if !st.IsDir() {
@@ -168,7 +144,7 @@ func collectFiles(paths []string) ([]string, []IntakeFailure) {
 		var found []string
 		err = filepath.WalkDir(root, func(p string, d fs.DirEntry, err error) error {
 			if err != nil {
-				failed = append(failed, IntakeFailure{p, describeStatError(err)})
+				failed = append(failed, project.IntakeFailure{Path: p, Error: describeStatError(err)})
 				if d != nil && d.IsDir() {
 					return fs.SkipDir
 				}
@@ -183,7 +159,7 @@ func collectFiles(paths []string) ([]string, []IntakeFailure) {
 			return nil
 		})
 		if err != nil {
-			failed = append(failed, IntakeFailure{root, err.Error()})
+			failed = append(failed, project.IntakeFailure{Path: root, Error: err.Error()})
 		}
 		sort.Strings(found)
 		for _, p := range found {
@@ -240,7 +216,7 @@ func (s *Store) MissingImages(ctx context.Context) ([]project.Image, error) {
 // Relink looks for the files of missing images under dir, matching them by
 // the SHA-256 of their bytes, and records their new paths. Nothing new is
 // added.
-func (s *Store) Relink(ctx context.Context, dir string, opts IntakeOptions) (IntakeReport, error) {
+func (s *Store) Relink(ctx context.Context, dir string, opts project.IntakeOptions) (project.IntakeReport, error) {
 	opts.RelinkOnly = true
 	return s.AddImages(ctx, []string{dir}, opts)
 }

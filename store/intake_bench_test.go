@@ -6,6 +6,7 @@ import (
 	"testing"
 
 	"boxwright/assets/demo"
+	"boxwright/project"
 )
 
 // BenchmarkIntake1000 adds 1,000 generated 1280×960 JPEGs (about 0.3 MB
@@ -25,7 +26,7 @@ func BenchmarkIntake1000(b *testing.B) {
 			b.Fatal(err)
 		}
 		b.StartTimer()
-		rep, err := s.AddImages(context.Background(), []string{dir}, IntakeOptions{})
+		rep, err := s.AddImages(context.Background(), []string{dir}, project.IntakeOptions{})
 		if err != nil || rep.Added != 1000 {
 			b.Fatalf("intake: %+v %v", rep, err)
 		}

@@ -112,7 +112,7 @@ func TestIntakeFolderMixedFiles(t *testing.T) {
 	write(t, filepath.Join(dir, "readme.txt"), []byte("ignored: not an image name"))
 	write(t, filepath.Join(dir, ".cache", "hidden.jpg"), jpegBytes(t, 8, 8, 5))
 
-	rep, err := s.AddImages(bg, []string{dir, filepath.Join(root, "nowhere")}, IntakeOptions{})
+	rep, err := s.AddImages(bg, []string{dir, filepath.Join(root, "nowhere")}, project.IntakeOptions{})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -149,13 +149,13 @@ func TestIntakeFolderMixedFiles(t *testing.T) {
 	}
 
 	// The same folder again adds nothing.
-	rep, err = s.AddImages(bg, []string{dir}, IntakeOptions{})
+	rep, err = s.AddImages(bg, []string{dir}, project.IntakeOptions{})
 	if err != nil || rep.Added != 0 || rep.Duplicates != 3 {
 		t.Errorf("second intake: %+v %v", rep, err)
 	}
 	// A copy of a known file elsewhere is a duplicate while the original exists.
 	copyPath := write(t, filepath.Join(t.TempDir(), "copy.jpg"), good)
-	rep, _ = s.AddImages(bg, []string{copyPath}, IntakeOptions{})
+	rep, _ = s.AddImages(bg, []string{copyPath}, project.IntakeOptions{})
 	if rep.Duplicates != 1 || rep.Added != 0 {
 		t.Errorf("copy of a known file: %+v", rep)
 	}
@@ -169,7 +169,7 @@ func TestIntakeRelinksMovedFilesKeepingLabels(t *testing.T) {
 	}
 	defer s.Close()
 	orig := write(t, filepath.Join(root, "in", "boat.jpg"), jpegBytes(t, 40, 30, 9))
-	if rep, err := s.AddImages(bg, []string{orig}, IntakeOptions{}); err != nil || rep.Added != 1 {
+	if rep, err := s.AddImages(bg, []string{orig}, project.IntakeOptions{}); err != nil || rep.Added != 1 {
 		t.Fatal(rep, err)
 	}
 	ims, _ := s.Images(bg)
@@ -187,7 +187,7 @@ func TestIntakeRelinksMovedFilesKeepingLabels(t *testing.T) {
 		t.Fatalf("missing after move: %v", missing)
 	}
 	write(t, filepath.Join(outside, "new.jpg"), jpegBytes(t, 40, 30, 10))
-	rep, err := s.Relink(bg, outside, IntakeOptions{})
+	rep, err := s.Relink(bg, outside, project.IntakeOptions{})
 	if err != nil || rep.Relinked != 1 || rep.Added != 0 {
 		t.Fatalf("relink: %+v %v", rep, err)
 	}
@@ -203,7 +203,7 @@ func TestIntakeRelinksMovedFilesKeepingLabels(t *testing.T) {
 	}
 	// An ordinary intake also relinks, and adds the unknown file.
 	os.Rename(moved, filepath.Join(root, "back.jpg"))
-	rep, _ = s.AddImages(bg, []string{root}, IntakeOptions{})
+	rep, _ = s.AddImages(bg, []string{root}, project.IntakeOptions{})
 	if rep.Relinked != 1 {
 		t.Errorf("intake over a moved file: %+v", rep)
 	}
@@ -215,11 +215,11 @@ func TestIntakeRelinksMovedFilesKeepingLabels(t *testing.T) {
 func TestIntakePixelLimitIsSettable(t *testing.T) {
 	s := newStore(t)
 	p := write(t, filepath.Join(t.TempDir(), "wide.jpg"), jpegBytes(t, 200, 100, 1))
-	rep, err := s.AddImages(bg, []string{p}, IntakeOptions{MaxPixels: 10_000})
+	rep, err := s.AddImages(bg, []string{p}, project.IntakeOptions{MaxPixels: 10_000})
 	if err != nil || rep.Added != 0 || len(rep.Failed) != 1 || !strings.Contains(rep.Failed[0].Error, "200×100") {
 		t.Errorf("limit 10000 px: %+v %v", rep, err)
 	}
-	if rep, _ := s.AddImages(bg, []string{p}, IntakeOptions{MaxPixels: 20_000}); rep.Added != 1 {
+	if rep, _ := s.AddImages(bg, []string{p}, project.IntakeOptions{MaxPixels: 20_000}); rep.Added != 1 {
 		t.Errorf("limit 20000 px: %+v", rep)
 	}
 }
@@ -231,7 +231,7 @@ func TestIntakeStopsOnCancelKeepingWhatWasAdded(t *testing.T) {
 		write(t, filepath.Join(dir, "im"+string(rune('a'+i))+".jpg"), jpegBytes(t, 16, 16, uint8(i)))
 	}
 	ctx, cancel := withCancel()
-	rep, err := s.AddImages(ctx, []string{dir}, IntakeOptions{Progress: func(done, total int) {
+	rep, err := s.AddImages(ctx, []string{dir}, project.IntakeOptions{Progress: func(done, total int) {
 		if done == 5 {
 			cancel()
 		}

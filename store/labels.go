@@ -146,23 +146,11 @@ func (s *Store) DeleteLabel(ctx context.Context, id int64) error {
 	return s.updateOne(ctx, fmt.Sprintf("delete label %d", id), "DELETE FROM labels WHERE id = ?", id)
 }
 
-// BoxRow is one box as agreement and evaluation read it.
-type BoxRow struct {
-	AnnotatorID, ClassID int64
-	Box                  project.Box
-}
-
-// ImageBoxes are the boxes on one image.
-type ImageBoxes struct {
-	ImageID int64
-	Boxes   []BoxRow
-}
-
 // BoxesByImage reads the boxes of the given annotators (all when none are
 // given), grouped by image in image order, each image's boxes in the order
 // they were stored. Only what agreement and evaluation need is read, in
 // parallel over ranges of rows, so that a million boxes stay quick.
-func (s *Store) BoxesByImage(ctx context.Context, annotatorIDs []int64) ([]ImageBoxes, error) {
+func (s *Store) BoxesByImage(ctx context.Context, annotatorIDs []int64) ([]project.ImageBoxes, error) {
 	var lo, hi sql.NullInt64
 	if err := s.db.QueryRowContext(ctx, "SELECT min(id), max(id) FROM labels").Scan(&lo, &hi); err != nil {
 		return nil, fmt.Errorf("read boxes: %w", translate(err))
@@ -172,7 +160,7 @@ func (s *Store) BoxesByImage(ctx context.Context, annotatorIDs []int64) ([]Image
 	}
 	parts := min(runtime.NumCPU(), 8)
 	span := (hi.Int64 - lo.Int64 + int64(parts)) / int64(parts)
-	out := make([][]ImageBoxes, parts)
+	out := make([][]project.ImageBoxes, parts)
 	errs := make([]error, parts)
 	var wg sync.WaitGroup
 	for p := 0; p < parts; p++ {
@@ -186,7 +174,7 @@ func (s *Store) BoxesByImage(ctx context.Context, annotatorIDs []int64) ([]Image
 	wg.Wait()
 	// An image's rows may lie in more than one range: merge by image.
 	at := map[int64]int{}
-	var all []ImageBoxes
+	var all []project.ImageBoxes
 	for p := range out {
 		if errs[p] != nil {
 			return nil, errs[p]
@@ -204,7 +192,7 @@ func (s *Store) BoxesByImage(ctx context.Context, annotatorIDs []int64) ([]Image
 	return all, nil
 }
 
-func (s *Store) boxesIn(ctx context.Context, annotatorIDs []int64, from, to int64) ([]ImageBoxes, error) {
+func (s *Store) boxesIn(ctx context.Context, annotatorIDs []int64, from, to int64) ([]project.ImageBoxes, error) {
 	// A range of rows read in table order: sequential reads beat an index
 	// lookup per row at this size ("+annotator_id" keeps the annotator
 	// index out of it).
@@ -221,15 +209,15 @@ func (s *Store) boxesIn(ctx context.Context, annotatorIDs []int64, from, to int6
 		return nil, fmt.Errorf("read boxes: %w", translate(err))
 	}
 	defer rows.Close()
-	var out []ImageBoxes
+	var out []project.ImageBoxes
 	for rows.Next() {
 		var img int64
-		var b BoxRow
+		var b project.BoxRow
 		if err := rows.Scan(&img, &b.AnnotatorID, &b.ClassID, &b.Box.X0, &b.Box.Y0, &b.Box.X1, &b.Box.Y1); err != nil {
 			return nil, fmt.Errorf("read boxes: %w", err)
 		}
 		if len(out) == 0 || out[len(out)-1].ImageID != img {
-			out = append(out, ImageBoxes{ImageID: img})
+			out = append(out, project.ImageBoxes{ImageID: img})
 		}
 		last := &out[len(out)-1]
 		last.Boxes = append(last.Boxes, b)

@@ -12,14 +12,6 @@ import (
 	"boxwright/project"
 )
 
-// SuggestionImportReport says what an import of suggestions did.
-type SuggestionImportReport struct {
-	Source          string `json:"source"`
-	Added           int    `json:"added"`
-	ReplacedPending int    `json:"replaced_pending"` // pending suggestions of the source deleted first
-	KeptReviewed    int    `json:"kept_reviewed"`    // decided suggestions of the source left as they were
-}
-
 // suggestionBatch is the number of rows per multi-row INSERT: 7 bound values
 // a row, 1,794 parameters, well under SQLite's limit of 32,766.
 const suggestionBatch = 256
@@ -53,7 +45,7 @@ func suggestionInsertSQL(n int) string {
 // may be empty (it takes source) or equal to source. Any bad suggestion (an
 // invalid box or score, an unknown image or class) rolls everything back and
 // the error names its index.
-func (s *Store) ImportSuggestions(ctx context.Context, source string, gs []project.Suggestion) (SuggestionImportReport, error) {
+func (s *Store) ImportSuggestions(ctx context.Context, source string, gs []project.Suggestion) (project.SuggestionImportReport, error) {
 	return s.importSuggestions(ctx, source, nil, gs)
 }
 
@@ -61,14 +53,14 @@ func (s *Store) ImportSuggestions(ctx context.Context, source string, gs []proje
 // source's pending suggestions on those images (and only there) give way
 // to gs, which must lie on them. A search of a few images, such as the
 // exemplar matcher's, uses it.
-func (s *Store) ReplaceSuggestionsOn(ctx context.Context, source string, imageIDs []int64, gs []project.Suggestion) (SuggestionImportReport, error) {
+func (s *Store) ReplaceSuggestionsOn(ctx context.Context, source string, imageIDs []int64, gs []project.Suggestion) (project.SuggestionImportReport, error) {
 	on := map[int64]bool{}
 	for _, id := range imageIDs {
 		on[id] = true
 	}
 	for i, g := range gs {
 		if !on[g.ImageID] {
-			return SuggestionImportReport{Source: source}, fmt.Errorf("suggestion %d is on image %d, which is not among the images replaced: %w", i, g.ImageID, project.ErrInvalid)
+			return project.SuggestionImportReport{Source: source}, fmt.Errorf("suggestion %d is on image %d, which is not among the images replaced: %w", i, g.ImageID, project.ErrInvalid)
 		}
 	}
 	if imageIDs == nil {
@@ -79,10 +71,10 @@ func (s *Store) ReplaceSuggestionsOn(ctx context.Context, source string, imageID
 
 // importSuggestions replaces the source's pending suggestions everywhere
 // (onImages nil) or on the given images.
-func (s *Store) importSuggestions(ctx context.Context, source string, onImages []int64, gs []project.Suggestion) (SuggestionImportReport, error) {
-	rep := SuggestionImportReport{Source: source}
-	fail := func(err error) (SuggestionImportReport, error) {
-		return SuggestionImportReport{Source: source}, fmt.Errorf("import suggestions of %q (nothing was stored): %w", source, err)
+func (s *Store) importSuggestions(ctx context.Context, source string, onImages []int64, gs []project.Suggestion) (project.SuggestionImportReport, error) {
+	rep := project.SuggestionImportReport{Source: source}
+	fail := func(err error) (project.SuggestionImportReport, error) {
+		return project.SuggestionImportReport{Source: source}, fmt.Errorf("import suggestions of %q (nothing was stored): %w", source, err)
 	}
 	if strings.TrimSpace(source) == "" || source != strings.TrimSpace(source) {
 		return fail(fmt.Errorf("source name %q is empty or starts or ends with a space: %w", source, project.ErrInvalid))
@@ -253,22 +245,7 @@ func idSet(ctx context.Context, tx *sql.Tx, query string) (map[int64]bool, error
 	return set, rows.Err()
 }
 
-// SuggestionQuery selects suggestions for bulk actions and review queues.
-// Zero fields select everything, except State, which defaults to pending.
-type SuggestionQuery struct {
-	Source  string
-	ImageID int64
-	ClassID int64
-	// MinScore is inclusive and MaxScore exclusive; a zero bound is no
-	// bound, so that suggestions with negative scores are not lost to it.
-	MinScore, MaxScore float64
-	State              project.SuggestionState
-	// Limit caps what QuerySuggestions returns (a queue needs only its
-	// head); 0 is no limit. CountSuggestions ignores it.
-	Limit int
-}
-
-func (q SuggestionQuery) where() (string, []any, error) {
+func suggestionWhere(q project.SuggestionQuery) (string, []any, error) {
 	state := q.State
 	if state == "" {
 		state = project.SuggestionPending
@@ -300,8 +277,8 @@ func (q SuggestionQuery) where() (string, []any, error) {
 
 // CountSuggestions counts the suggestions a query selects: the preview of a
 // bulk action.
-func (s *Store) CountSuggestions(ctx context.Context, q SuggestionQuery) (int, error) {
-	where, args, err := q.where()
+func (s *Store) CountSuggestions(ctx context.Context, q project.SuggestionQuery) (int, error) {
+	where, args, err := suggestionWhere(q)
 	if err != nil {
 		return 0, fmt.Errorf("count suggestions: %w", err)
 	}
@@ -314,8 +291,8 @@ func (s *Store) CountSuggestions(ctx context.Context, q SuggestionQuery) (int, e
 
 // QuerySuggestions lists the suggestions a query selects, best score first,
 // ties in the order they were stored.
-func (s *Store) QuerySuggestions(ctx context.Context, q SuggestionQuery) ([]project.Suggestion, error) {
-	where, args, err := q.where()
+func (s *Store) QuerySuggestions(ctx context.Context, q project.SuggestionQuery) ([]project.Suggestion, error) {
+	where, args, err := suggestionWhere(q)
 	if err != nil {
 		return nil, fmt.Errorf("query suggestions: %w", err)
 	}
@@ -342,16 +319,6 @@ func (s *Store) QuerySuggestions(ctx context.Context, q SuggestionQuery) ([]proj
 	return out, nil
 }
 
-// Decision is one person's verdict on a pending suggestion.
-type Decision struct {
-	SuggestionID int64
-	Accept       bool
-	// Box and ClassID are the final box and class of an accepted
-	// suggestion; a zero Box or ClassID keeps the suggestion's own.
-	Box     project.Box
-	ClassID int64
-}
-
 // Decide applies one reviewer's decisions in one transaction, whether a bulk
 // action or a single key press. An accepted suggestion becomes a label of the
 // reviewer, with origin accepted, or corrected when the box or class
@@ -360,7 +327,7 @@ type Decision struct {
 // no longer pending (or is decided twice in ds) fails the whole call with an
 // error naming it, so that two reviewers never decide one silently twice.
 // It returns the new label IDs by suggestion ID.
-func (s *Store) Decide(ctx context.Context, reviewerID int64, ds []Decision) (map[int64]int64, error) {
+func (s *Store) Decide(ctx context.Context, reviewerID int64, ds []project.Decision) (map[int64]int64, error) {
 	made := make(map[int64]int64)
 	err := s.tx(ctx, func(tx *sql.Tx) error {
 		var exists int
@@ -403,19 +370,9 @@ func (s *Store) Decide(ctx context.Context, reviewerID int64, ds []Decision) (ma
 				}
 				continue
 			}
-			box, class := d.Box, d.ClassID
-			if box == (project.Box{}) {
-				box = g.Box
-			}
-			if class == 0 {
-				class = g.ClassID
-			}
+			box, class, state, origin := d.Final(g)
 			if err := checkBox(box); err != nil {
 				return fmt.Errorf("accept suggestion %d: %w", g.ID, err)
-			}
-			state, origin := project.SuggestionAccepted, project.OriginAccepted
-			if box != g.Box || class != g.ClassID {
-				state, origin = project.SuggestionCorrected, project.OriginCorrected
 			}
 			res, err := addLabel.ExecContext(ctx, g.ImageID, class, reviewerID, box.X0, box.Y0, box.X1, box.Y1,
 				string(origin), g.Source, g.Score, g.ID, now, now)
@@ -492,18 +449,9 @@ func (s *Store) Undecide(ctx context.Context, suggestionIDs []int64) error {
 	return nil
 }
 
-// ReviewRow is one suggestion as the review statistics read it.
-type ReviewRow struct {
-	Source   string
-	ClassID  int64
-	Score    float64
-	State    project.SuggestionState
-	FinalIoU float64
-}
-
 // ReviewRows lists every suggestion of a source ("" for all sources) with
 // what the review statistics need, in the order they were stored.
-func (s *Store) ReviewRows(ctx context.Context, source string) ([]ReviewRow, error) {
+func (s *Store) ReviewRows(ctx context.Context, source string) ([]project.ReviewRow, error) {
 	q, args := "SELECT source, class_id, score, state, final_iou FROM suggestions", []any{}
 	if source != "" {
 		q, args = q+" WHERE source = ?", append(args, source)
@@ -513,9 +461,9 @@ func (s *Store) ReviewRows(ctx context.Context, source string) ([]ReviewRow, err
 		return nil, fmt.Errorf("read review decisions: %w", translate(err))
 	}
 	defer rows.Close()
-	var out []ReviewRow
+	var out []project.ReviewRow
 	for rows.Next() {
-		var r ReviewRow
+		var r project.ReviewRow
 		var state string
 		if err := rows.Scan(&r.Source, &r.ClassID, &r.Score, &state, &r.FinalIoU); err != nil {
 			return nil, fmt.Errorf("read review decisions: %w", err)

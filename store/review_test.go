@@ -39,7 +39,7 @@ func newReviewFixture(t *testing.T, s *Store) reviewFixture {
 
 func box(x0, y0, x1, y1 float64) project.Box { return project.Box{X0: x0, Y0: y0, X1: x1, Y1: y1} }
 
-func mustQuery(t *testing.T, s *Store, q SuggestionQuery) []project.Suggestion {
+func mustQuery(t *testing.T, s *Store, q project.SuggestionQuery) []project.Suggestion {
 	t.Helper()
 	gs, err := s.QuerySuggestions(bg, q)
 	if err != nil {
@@ -103,7 +103,7 @@ func TestMigrationFromSchema1KeepsSuggestions(t *testing.T) {
 	if err != nil || g.State != project.SuggestionRejected || g.ReviewerID != 1 || g.FinalIoU != 0 || g.Box != box(0, 0, 10, 10) {
 		t.Errorf("old rejected suggestion: %+v %v", g, err)
 	}
-	made, err := s.Decide(bg, 1, []Decision{{SuggestionID: 2, Accept: true}})
+	made, err := s.Decide(bg, 1, []project.Decision{{SuggestionID: 2, Accept: true}})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -121,18 +121,18 @@ func TestImportSuggestionsReplacesOnlyPending(t *testing.T) {
 		{ImageID: f.im2.ID, ClassID: f.boat.ID, Box: box(5, 5, 15, 25), Score: 0.3},
 	}
 	rep, err := s.ImportSuggestions(bg, "det", first)
-	if err != nil || rep != (SuggestionImportReport{Source: "det", Added: 3}) {
+	if err != nil || rep != (project.SuggestionImportReport{Source: "det", Added: 3}) {
 		t.Fatalf("first import: %+v %v", rep, err)
 	}
 	if _, err := s.ImportSuggestions(bg, "other", first[:1]); err != nil {
 		t.Fatal(err)
 	}
-	gs := mustQuery(t, s, SuggestionQuery{Source: "det"})
+	gs := mustQuery(t, s, project.SuggestionQuery{Source: "det"})
 	if len(gs) != 3 || gs[0].Score != 0.9 || gs[0].Source != "det" || gs[0].State != project.SuggestionPending {
 		t.Fatalf("after import: %+v", gs)
 	}
 	// Decide two of them, then import again: those two stay, the third is replaced.
-	if _, err := s.Decide(bg, f.rev.ID, []Decision{{SuggestionID: gs[0].ID, Accept: true}, {SuggestionID: gs[1].ID}}); err != nil {
+	if _, err := s.Decide(bg, f.rev.ID, []project.Decision{{SuggestionID: gs[0].ID, Accept: true}, {SuggestionID: gs[1].ID}}); err != nil {
 		t.Fatal(err)
 	}
 	second := []project.Suggestion{
@@ -140,13 +140,13 @@ func TestImportSuggestionsReplacesOnlyPending(t *testing.T) {
 		{ImageID: f.im2.ID, ClassID: f.kayak.ID, Box: box(3, 3, 4, 4), Score: 0.45},
 	}
 	rep, err = s.ImportSuggestions(bg, "det", second)
-	if err != nil || rep != (SuggestionImportReport{Source: "det", Added: 2, ReplacedPending: 1, KeptReviewed: 2}) {
+	if err != nil || rep != (project.SuggestionImportReport{Source: "det", Added: 2, ReplacedPending: 1, KeptReviewed: 2}) {
 		t.Fatalf("re-import: %+v %v", rep, err)
 	}
-	if n, _ := s.CountSuggestions(bg, SuggestionQuery{Source: "det"}); n != 2 {
+	if n, _ := s.CountSuggestions(bg, project.SuggestionQuery{Source: "det"}); n != 2 {
 		t.Errorf("pending after re-import: %d, want 2", n)
 	}
-	if n, _ := s.CountSuggestions(bg, SuggestionQuery{Source: "other"}); n != 1 {
+	if n, _ := s.CountSuggestions(bg, project.SuggestionQuery{Source: "other"}); n != 1 {
 		t.Errorf("another source's pending suggestion was touched: %d", n)
 	}
 	if g, _ := s.Suggestion(bg, gs[0].ID); g.State != project.SuggestionAccepted || g.LabelID == 0 {
@@ -201,7 +201,7 @@ func TestImportSuggestionsAllOrNothing(t *testing.T) {
 	if _, err := s.ImportSuggestions(bg, " ", nil); !errors.Is(err, project.ErrInvalid) {
 		t.Errorf("blank source: %v", err)
 	}
-	if gs := mustQuery(t, s, SuggestionQuery{}); len(gs) != 1 || gs[0].Box != good.Box {
+	if gs := mustQuery(t, s, project.SuggestionQuery{}); len(gs) != 1 || gs[0].Box != good.Box {
 		t.Errorf("failed imports changed the suggestions: %+v", gs)
 	}
 }
@@ -219,9 +219,9 @@ func TestDecideRecordsVerdicts(t *testing.T) {
 	if _, err := s.ImportSuggestions(bg, "det", gs); err != nil {
 		t.Fatal(err)
 	}
-	q := mustQuery(t, s, SuggestionQuery{})
+	q := mustQuery(t, s, project.SuggestionQuery{})
 	acc, cor, recls, rej := q[0].ID, q[1].ID, q[2].ID, q[3].ID
-	made, err := s.Decide(bg, f.rev.ID, []Decision{
+	made, err := s.Decide(bg, f.rev.ID, []project.Decision{
 		{SuggestionID: acc, Accept: true},
 		{SuggestionID: cor, Accept: true, Box: box(0, 0, 10, 5)},
 		{SuggestionID: recls, Accept: true, ClassID: f.kayak.ID},
@@ -264,7 +264,7 @@ func TestDecideRecordsVerdicts(t *testing.T) {
 	if err != nil || len(rows) != 4 {
 		t.Fatalf("review rows: %+v %v", rows, err)
 	}
-	if rows[1] != (ReviewRow{Source: "det", ClassID: f.boat.ID, Score: 0.8, State: project.SuggestionCorrected, FinalIoU: 0.5}) {
+	if rows[1] != (project.ReviewRow{Source: "det", ClassID: f.boat.ID, Score: 0.8, State: project.SuggestionCorrected, FinalIoU: 0.5}) {
 		t.Errorf("review row: %+v", rows[1])
 	}
 	if rows, _ := s.ReviewRows(bg, "nobody"); len(rows) != 0 {
@@ -280,7 +280,7 @@ func TestAcceptSuggestionRecordsFinalIoU(t *testing.T) {
 		t.Fatal(err)
 	}
 	// [0,0,10,10] against [5,0,15,10]: overlap 50, union 150, IoU 1/3.
-	if _, err := s.AcceptSuggestion(bg, ids[0], f.rev.ID, box(5, 0, 15, 10), f.boat.ID); err != nil {
+	if _, err := acceptOne(s, ids[0], f.rev.ID, box(5, 0, 15, 10), f.boat.ID); err != nil {
 		t.Fatal(err)
 	}
 	if g, _ := s.Suggestion(bg, ids[0]); math.Abs(g.FinalIoU-1.0/3) > 1e-12 {
@@ -299,13 +299,13 @@ func TestDecideRefusesDecidedSuggestions(t *testing.T) {
 	if _, err := s.ImportSuggestions(bg, "det", gs); err != nil {
 		t.Fatal(err)
 	}
-	q := mustQuery(t, s, SuggestionQuery{})
+	q := mustQuery(t, s, project.SuggestionQuery{})
 	a, b := q[0].ID, q[1].ID
-	if _, err := s.Decide(bg, other.ID, []Decision{{SuggestionID: a}}); err != nil {
+	if _, err := s.Decide(bg, other.ID, []project.Decision{{SuggestionID: a}}); err != nil {
 		t.Fatal(err)
 	}
-	before := mustQuery(t, s, SuggestionQuery{State: project.SuggestionRejected})
-	for name, ds := range map[string][]Decision{
+	before := mustQuery(t, s, project.SuggestionQuery{State: project.SuggestionRejected})
+	for name, ds := range map[string][]project.Decision{
 		"decided by someone else": {{SuggestionID: b, Accept: true}, {SuggestionID: a, Accept: true}},
 		"twice in one call":       {{SuggestionID: b, Accept: true}, {SuggestionID: b}},
 		"missing":                 {{SuggestionID: b}, {SuggestionID: 999}},
@@ -327,13 +327,13 @@ func TestDecideRefusesDecidedSuggestions(t *testing.T) {
 			t.Errorf("%s: %v", name, err)
 		}
 	}
-	if _, err := s.Decide(bg, 999, []Decision{{SuggestionID: b}}); !errors.Is(err, project.ErrNotFound) {
+	if _, err := s.Decide(bg, 999, []project.Decision{{SuggestionID: b}}); !errors.Is(err, project.ErrNotFound) {
 		t.Errorf("unknown reviewer: %v", err)
 	}
 	if g, _ := s.Suggestion(bg, b); g.State != project.SuggestionPending || g.ReviewerID != 0 || !g.Reviewed.IsZero() {
 		t.Errorf("failed calls changed suggestion %d: %+v", b, g)
 	}
-	if after := mustQuery(t, s, SuggestionQuery{State: project.SuggestionRejected}); len(after) != 1 || after[0] != before[0] || after[0].ReviewerID != other.ID {
+	if after := mustQuery(t, s, project.SuggestionQuery{State: project.SuggestionRejected}); len(after) != 1 || after[0] != before[0] || after[0].ReviewerID != other.ID {
 		t.Errorf("failed calls changed the decided suggestion: %+v", after)
 	}
 	if ls, _ := s.Labels(bg, project.LabelFilter{}); len(ls) != 0 {
@@ -354,9 +354,9 @@ func TestUndecideRestoresPending(t *testing.T) {
 	if _, err := s.ImportSuggestions(bg, "det", gs); err != nil {
 		t.Fatal(err)
 	}
-	q := mustQuery(t, s, SuggestionQuery{})
+	q := mustQuery(t, s, project.SuggestionQuery{})
 	a, b, c := q[0].ID, q[1].ID, q[2].ID
-	made, err := s.Decide(bg, f.rev.ID, []Decision{{SuggestionID: a, Accept: true}, {SuggestionID: b, Accept: true, Box: box(1, 1, 20, 10)}, {SuggestionID: c}})
+	made, err := s.Decide(bg, f.rev.ID, []project.Decision{{SuggestionID: a, Accept: true}, {SuggestionID: b, Accept: true, Box: box(1, 1, 20, 10)}, {SuggestionID: c}})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -388,7 +388,7 @@ func TestUndecideRestoresPending(t *testing.T) {
 		t.Errorf("undo of a pending suggestion: %v", err)
 	}
 	// Decided again after the undo, as if never decided.
-	if _, err := s.Decide(bg, f.rev.ID, []Decision{{SuggestionID: a}}); err != nil {
+	if _, err := s.Decide(bg, f.rev.ID, []project.Decision{{SuggestionID: a}}); err != nil {
 		t.Errorf("deciding again after undo: %v", err)
 	}
 }
@@ -411,19 +411,19 @@ func TestQuerySuggestionsFilters(t *testing.T) {
 	}
 	cases := []struct {
 		name   string
-		q      SuggestionQuery
+		q      project.SuggestionQuery
 		scores []float64
 	}{
-		{"everything pending", SuggestionQuery{}, []float64{0.9, 0.7, 0.5, 0.5, 0.3, -1.5}},
-		{"min inclusive", SuggestionQuery{MinScore: 0.5}, []float64{0.9, 0.7, 0.5, 0.5}},
-		{"max exclusive", SuggestionQuery{MinScore: 0.3, MaxScore: 0.7}, []float64{0.5, 0.5, 0.3}},
-		{"zero bounds are no bounds", SuggestionQuery{MaxScore: 0}, []float64{0.9, 0.7, 0.5, 0.5, 0.3, -1.5}},
-		{"class", SuggestionQuery{ClassID: f.kayak.ID}, []float64{0.7, 0.3, -1.5}},
-		{"image", SuggestionQuery{ImageID: f.im1.ID}, []float64{0.9, 0.7, 0.5}},
-		{"source", SuggestionQuery{Source: "exemplar"}, []float64{0.7}},
-		{"all together", SuggestionQuery{Source: "det", ImageID: f.im2.ID, ClassID: f.boat.ID, MinScore: 0.5, MaxScore: 0.6}, []float64{0.5}},
-		{"limit", SuggestionQuery{Limit: 2}, []float64{0.9, 0.7}},
-		{"rejected", SuggestionQuery{State: project.SuggestionRejected}, nil},
+		{"everything pending", project.SuggestionQuery{}, []float64{0.9, 0.7, 0.5, 0.5, 0.3, -1.5}},
+		{"min inclusive", project.SuggestionQuery{MinScore: 0.5}, []float64{0.9, 0.7, 0.5, 0.5}},
+		{"max exclusive", project.SuggestionQuery{MinScore: 0.3, MaxScore: 0.7}, []float64{0.5, 0.5, 0.3}},
+		{"zero bounds are no bounds", project.SuggestionQuery{MaxScore: 0}, []float64{0.9, 0.7, 0.5, 0.5, 0.3, -1.5}},
+		{"class", project.SuggestionQuery{ClassID: f.kayak.ID}, []float64{0.7, 0.3, -1.5}},
+		{"image", project.SuggestionQuery{ImageID: f.im1.ID}, []float64{0.9, 0.7, 0.5}},
+		{"source", project.SuggestionQuery{Source: "exemplar"}, []float64{0.7}},
+		{"all together", project.SuggestionQuery{Source: "det", ImageID: f.im2.ID, ClassID: f.boat.ID, MinScore: 0.5, MaxScore: 0.6}, []float64{0.5}},
+		{"limit", project.SuggestionQuery{Limit: 2}, []float64{0.9, 0.7}},
+		{"rejected", project.SuggestionQuery{State: project.SuggestionRejected}, nil},
 	}
 	for _, c := range cases {
 		gs := mustQuery(t, s, c.q)
@@ -443,17 +443,17 @@ func TestQuerySuggestionsFilters(t *testing.T) {
 			t.Errorf("%s: count %d %v, want %d", c.name, n, err, want)
 		}
 	}
-	top := mustQuery(t, s, SuggestionQuery{Limit: 1})[0]
-	if _, err := s.Decide(bg, f.rev.ID, []Decision{{SuggestionID: top.ID}}); err != nil {
+	top := mustQuery(t, s, project.SuggestionQuery{Limit: 1})[0]
+	if _, err := s.Decide(bg, f.rev.ID, []project.Decision{{SuggestionID: top.ID}}); err != nil {
 		t.Fatal(err)
 	}
-	if n, _ := s.CountSuggestions(bg, SuggestionQuery{}); n != 5 {
+	if n, _ := s.CountSuggestions(bg, project.SuggestionQuery{}); n != 5 {
 		t.Errorf("pending after a decision: %d", n)
 	}
-	if gs := mustQuery(t, s, SuggestionQuery{State: project.SuggestionRejected}); len(gs) != 1 || gs[0].ID != top.ID {
+	if gs := mustQuery(t, s, project.SuggestionQuery{State: project.SuggestionRejected}); len(gs) != 1 || gs[0].ID != top.ID {
 		t.Errorf("rejected: %+v", gs)
 	}
-	if _, err := s.CountSuggestions(bg, SuggestionQuery{State: "maybe"}); !errors.Is(err, project.ErrInvalid) {
+	if _, err := s.CountSuggestions(bg, project.SuggestionQuery{State: "maybe"}); !errors.Is(err, project.ErrInvalid) {
 		t.Errorf("unknown state: %v", err)
 	}
 }
@@ -473,12 +473,12 @@ func TestReviewSurvivesReopen(t *testing.T) {
 	if _, err := s.ImportSuggestions(bg, "det", gs); err != nil {
 		t.Fatal(err)
 	}
-	q := mustQuery(t, s, SuggestionQuery{})
-	made, err := s.Decide(bg, f.rev.ID, []Decision{{SuggestionID: q[0].ID, Accept: true, Box: box(0, 0, 10, 5)}, {SuggestionID: q[1].ID}})
+	q := mustQuery(t, s, project.SuggestionQuery{})
+	made, err := s.Decide(bg, f.rev.ID, []project.Decision{{SuggestionID: q[0].ID, Accept: true, Box: box(0, 0, 10, 5)}, {SuggestionID: q[1].ID}})
 	if err != nil {
 		t.Fatal(err)
 	}
-	want := mustQuery(t, s, SuggestionQuery{State: project.SuggestionCorrected})
+	want := mustQuery(t, s, project.SuggestionQuery{State: project.SuggestionCorrected})
 	s.Close()
 
 	s, err = Open(path)
@@ -486,14 +486,14 @@ func TestReviewSurvivesReopen(t *testing.T) {
 		t.Fatal(err)
 	}
 	defer s.Close()
-	got := mustQuery(t, s, SuggestionQuery{State: project.SuggestionCorrected})
+	got := mustQuery(t, s, project.SuggestionQuery{State: project.SuggestionCorrected})
 	if len(got) != 1 || got[0] != want[0] || got[0].FinalIoU != 0.5 || got[0].LabelID != made[q[0].ID] {
 		t.Errorf("corrected after reopen: %+v, want %+v", got, want)
 	}
-	if n, _ := s.CountSuggestions(bg, SuggestionQuery{State: project.SuggestionRejected}); n != 1 {
+	if n, _ := s.CountSuggestions(bg, project.SuggestionQuery{State: project.SuggestionRejected}); n != 1 {
 		t.Errorf("rejected after reopen: %d", n)
 	}
-	if n, _ := s.CountSuggestions(bg, SuggestionQuery{}); n != 1 {
+	if n, _ := s.CountSuggestions(bg, project.SuggestionQuery{}); n != 1 {
 		t.Errorf("pending after reopen: %d", n)
 	}
 	if err := s.Undecide(bg, []int64{q[0].ID}); err != nil {
@@ -518,7 +518,7 @@ func TestBulkImportKeepsReviewIndex(t *testing.T) {
 	if _, err := s.ImportSuggestions(bg, "det", gs); err != nil || !hasIndex() {
 		t.Fatalf("bulk import: %v, index there: %v", err, hasIndex())
 	}
-	if n, _ := s.CountSuggestions(bg, SuggestionQuery{ClassID: f.boat.ID, MinScore: 0.9}); n != 1200 {
+	if n, _ := s.CountSuggestions(bg, project.SuggestionQuery{ClassID: f.boat.ID, MinScore: 0.9}); n != 1200 {
 		t.Errorf("count after bulk import: %d", n)
 	}
 	// A refusal by the database while inserting, after the index was dropped.
@@ -532,7 +532,7 @@ func TestBulkImportKeepsReviewIndex(t *testing.T) {
 	if !hasIndex() {
 		t.Errorf("failed import left the review index dropped")
 	}
-	if n, _ := s.CountSuggestions(bg, SuggestionQuery{}); n != 12000 {
+	if n, _ := s.CountSuggestions(bg, project.SuggestionQuery{}); n != 12000 {
 		t.Errorf("failed import changed the suggestions: %d", n)
 	}
 }

@@ -421,7 +421,7 @@ func TestSuggestionsReviewAndCounts(t *testing.T) {
 	if gs, _ := s.Suggestions(bg, project.SuggestionFilter{}); len(gs) != 3 {
 		t.Errorf("bad batch left %d suggestions, want 3", len(gs))
 	}
-	l, err := s.AcceptSuggestion(bg, ids[0], rev.ID, b, boat.ID)
+	l, err := acceptOne(s, ids[0], rev.ID, b, boat.ID)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -429,20 +429,20 @@ func TestSuggestionsReviewAndCounts(t *testing.T) {
 		t.Errorf("accepted label: %+v", l)
 	}
 	corrected := b.Translate(101, 1)
-	l2, err := s.AcceptSuggestion(bg, ids[1], rev.ID, corrected, boat.ID)
+	l2, err := acceptOne(s, ids[1], rev.ID, corrected, boat.ID)
 	if err != nil || l2.Origin != project.OriginCorrected || l2.Box != corrected {
 		t.Errorf("corrected: %+v %v", l2, err)
 	}
-	if err := s.RejectSuggestion(bg, ids[2], rev.ID); err != nil {
+	if err := rejectOne(s, ids[2], rev.ID); err != nil {
 		t.Fatal(err)
 	}
-	if _, err := s.AcceptSuggestion(bg, ids[2], rev.ID, b, boat.ID); !errors.Is(err, project.ErrInvalid) {
+	if _, err := acceptOne(s, ids[2], rev.ID, b, boat.ID); !errors.Is(err, project.ErrInvalid) {
 		t.Errorf("accepting a rejected suggestion: %v", err)
 	}
-	if err := s.RejectSuggestion(bg, ids[0], rev.ID); !errors.Is(err, project.ErrInvalid) {
+	if err := rejectOne(s, ids[0], rev.ID); !errors.Is(err, project.ErrInvalid) {
 		t.Errorf("rejecting an accepted suggestion: %v", err)
 	}
-	if err := s.RejectSuggestion(bg, 999, rev.ID); !errors.Is(err, project.ErrNotFound) {
+	if err := rejectOne(s, 999, rev.ID); !errors.Is(err, project.ErrNotFound) {
 		t.Errorf("rejecting a missing suggestion: %v", err)
 	}
 	g, _ := s.Suggestion(bg, ids[1])
@@ -552,4 +552,20 @@ func TestTwoConnectionsOnOneFile(t *testing.T) {
 	if c, _ := r.Counts(bg); c.Labels != 2*n {
 		t.Errorf("labels stored: %d, want %d", c.Labels, 2*n)
 	}
+}
+
+// acceptOne accepts one suggestion with a final box and class through
+// Decide and reads back the label it made.
+func acceptOne(s *Store, id, reviewerID int64, final project.Box, classID int64) (project.Label, error) {
+	made, err := s.Decide(bg, reviewerID, []project.Decision{{SuggestionID: id, Accept: true, Box: final, ClassID: classID}})
+	if err != nil {
+		return project.Label{}, err
+	}
+	return s.Label(bg, made[id])
+}
+
+// rejectOne rejects one suggestion through Decide.
+func rejectOne(s *Store, id, reviewerID int64) error {
+	_, err := s.Decide(bg, reviewerID, []project.Decision{{SuggestionID: id}})
+	return err
 }
