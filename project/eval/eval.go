@@ -37,6 +37,7 @@
 package eval
 
 import (
+	"cmp"
 	"errors"
 	"fmt"
 	"math"
@@ -444,16 +445,9 @@ func rankByScore(preds []Prediction) []int {
 	for i := range order {
 		order[i] = i
 	}
-	slices.SortStableFunc(order, func(a, b int) int {
-		sa, sb := preds[a].Score, preds[b].Score
-		switch {
-		case sa > sb:
-			return -1
-		case sa < sb:
-			return 1
-		}
-		return 0
-	})
+	// Scores are finite (checkInputs), so cmp.Compare's NaN order never
+	// applies.
+	slices.SortStableFunc(order, func(a, b int) int { return cmp.Compare(preds[b].Score, preds[a].Score) })
 	return order
 }
 

@@ -1,6 +1,7 @@
 package eval
 
 import (
+	"cmp"
 	"math"
 	"slices"
 )
@@ -118,15 +119,7 @@ func summarize(res *Result, p pool) {
 		res.MAP, res.AP50, res.AP75, res.AP50_95 = math.NaN(), math.NaN(), math.NaN(), math.NaN()
 	}
 	res.Precision, res.Recall, res.F1 = prf(p.tp, p.fp, p.n)
-	slices.SortStableFunc(p.list, func(a, b scored) int {
-		switch {
-		case a.score > b.score:
-			return -1
-		case a.score < b.score:
-			return 1
-		}
-		return 0
-	})
+	slices.SortStableFunc(p.list, func(a, b scored) int { return cmp.Compare(b.score, a.score) })
 	res.BestF1, res.BestF1Threshold = bestF1(p.list, p.n)
 }
 
