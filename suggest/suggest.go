@@ -1,4 +1,9 @@
-// Package suggest proposes boxes: prediction files now, the exemplar matcher and a trained detector later.
+// Package suggest proposes boxes for people to review. It holds the
+// Suggester interface and its prediction-file source (FileSource), the
+// filtering of raw proposals by score and non-maximum suppression, and the
+// statistics of review decisions (counts per source and class, reliability,
+// a suggested score threshold). The exemplar matcher, another Suggester,
+// lives in the sub-package exemplar; a trained detector will come later.
 package suggest
 
 import (

@@ -1,6 +1,7 @@
 package demo
 
 import (
+	"cmp"
 	"context"
 	"crypto/sha256"
 	"errors"
@@ -290,7 +291,7 @@ func TestSuggestions(t *testing.T) {
 	var trueScore, alarmScore float64
 	for i, f := range s.Frames {
 		sg := s.Suggestions[i]
-		if !slices.IsSortedFunc(sg, func(a, b Scored) int { return -cmpFloat(a.Score, b.Score) }) {
+		if !slices.IsSortedFunc(sg, func(a, b Scored) int { return cmp.Compare(b.Score, a.Score) }) {
 			t.Errorf("%s: suggestions not best first", f.Name)
 		}
 		labels := make([]Object, len(sg))
@@ -334,16 +335,6 @@ func TestSuggestions(t *testing.T) {
 	if trueScore < 0.6 || trueScore-alarmScore < 0.3 {
 		t.Errorf("mean score of true detections %.2f against false alarms %.2f", trueScore, alarmScore)
 	}
-}
-
-func cmpFloat(a, b float64) int {
-	switch {
-	case a < b:
-		return -1
-	case a > b:
-		return 1
-	}
-	return 0
 }
 
 // Large objects get higher scores than small ones.

@@ -1,6 +1,7 @@
 package agree
 
 import (
+	"cmp"
 	"fmt"
 	"math"
 	"runtime"
@@ -165,7 +166,7 @@ func ComparePair(images []ImageLabels, a, b int, opt Options) PairReport {
 		if x.Errors != y.Errors {
 			return x.Errors > y.Errors
 		}
-		return lessNaNFirst(x.MeanIoU, y.MeanIoU)
+		return cmp.Less(x.MeanIoU, y.MeanIoU) // NaN (no matched pair) first
 	})
 
 	r.Classes = classOrder(opt.Classes, seen)
@@ -307,16 +308,6 @@ func classOrder(given []int64, seen map[int64]bool) []int64 {
 	}
 	sort.Slice(extra, func(i, j int) bool { return extra[i] < extra[j] })
 	return append(out, extra...)
-}
-
-func lessNaNFirst(a, b float64) bool {
-	if math.IsNaN(a) {
-		return !math.IsNaN(b)
-	}
-	if math.IsNaN(b) {
-		return false
-	}
-	return a < b
 }
 
 // summarise gives mean, median, 10th and 90th percentiles and the
@@ -584,7 +575,7 @@ func (r Report) Worst(limit int) []WorstImage {
 		if out[i].Errors != out[j].Errors {
 			return out[i].Errors > out[j].Errors
 		}
-		return lessNaNFirst(out[i].F1, out[j].F1)
+		return cmp.Less(out[i].F1, out[j].F1) // NaN first
 	})
 	if limit > 0 && len(out) > limit {
 		out = out[:limit]

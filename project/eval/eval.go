@@ -37,6 +37,7 @@
 package eval
 
 import (
+	"cmp"
 	"errors"
 	"fmt"
 	"math"
@@ -328,314 +329,48 @@ type Result struct {
 	TruthMatched []bool
 }
 
-// Prediction outcomes at one threshold.
-const (
-	outFP      int8 = iota // counted, not matched
-	outTP                  // counted, matched
-	outIgnored             // not counted
-)
-
-// group is the truths and predictions of one class on one image.
-type group struct {
-	truths []int // input indices; COCO: not-ignored truths first
-	preds  []int // input indices in score order (stable)
-	ious   []float64
-}
-
 // Evaluate matches preds to truths under opt and computes the figures. It
 // fails on an unknown protocol or interpolation, thresholds outside (0,1],
 // invalid boxes and non-finite scores.
 func Evaluate(truths []Truth, preds []Prediction, opt Options) (Result, error) {
-	first, main, err := thresholds(opt)
+	first, main, err := checkInputs(truths, preds, opt)
 	if err != nil {
 		return Result{}, err
 	}
+	e := newEvaluation(truths, preds, opt)
+	e.groupByImageClass()
+	outs := e.matchAll(first, main)
+	res := e.predictionResults(outs)
+	var p pool
+	res.Classes, p = e.classResults(outs)
+	summarize(&res, p)
+	return res, nil
+}
+
+// checkInputs rejects bad options, boxes and scores, and returns the IoU
+// thresholds.
+func checkInputs(truths []Truth, preds []Prediction, opt Options) (first float64, main []float64, err error) {
+	first, main, err = thresholds(opt)
+	if err != nil {
+		return 0, nil, err
+	}
 	if opt.Interpolation < AllPoint || opt.Interpolation > Step {
-		return Result{}, fmt.Errorf("eval: unknown interpolation %d", int(opt.Interpolation))
+		return 0, nil, fmt.Errorf("eval: unknown interpolation %d", int(opt.Interpolation))
 	}
 	for i, t := range truths {
 		if !t.Box.Valid() {
-			return Result{}, fmt.Errorf("eval: truth %d (ref %d): invalid box %v", i, t.Ref, t.Box)
+			return 0, nil, fmt.Errorf("eval: truth %d (ref %d): invalid box %v", i, t.Ref, t.Box)
 		}
 	}
 	for i, p := range preds {
 		if !p.Box.Valid() {
-			return Result{}, fmt.Errorf("eval: prediction %d (ref %d): invalid box %v", i, p.Ref, p.Box)
+			return 0, nil, fmt.Errorf("eval: prediction %d (ref %d): invalid box %v", i, p.Ref, p.Box)
 		}
 		if math.IsNaN(p.Score) || math.IsInf(p.Score, 0) {
-			return Result{}, fmt.Errorf("eval: prediction %d (ref %d): score %v is not finite", i, p.Ref, p.Score)
+			return 0, nil, fmt.Errorf("eval: prediction %d (ref %d): score %v is not finite", i, p.Ref, p.Score)
 		}
 	}
-	coco := opt.Protocol == COCO
-
-	// Ignored truths: difficult (and crowd) under VOC; crowd, difficult or
-	// outside the area range under COCO.
-	truthIg := make([]bool, len(truths))
-	for i, t := range truths {
-		truthIg[i] = t.Difficult || t.Crowd || (coco && !opt.AreaRange.contains(area(t.Box, opt.PlusOne)))
-	}
-
-	// Rank all predictions once; groups inherit the order.
-	order := make([]int, len(preds))
-	for i := range order {
-		order[i] = i
-	}
-	slices.SortStableFunc(order, func(a, b int) int {
-		sa, sb := preds[a].Score, preds[b].Score
-		switch {
-		case sa > sb:
-			return -1
-		case sa < sb:
-			return 1
-		}
-		return 0
-	})
-
-	dropped := make([]bool, len(preds))
-	if coco {
-		maxDet := opt.MaxDetections
-		if maxDet == 0 {
-			maxDet = 100
-		}
-		if maxDet > 0 {
-			perImage := make(map[int64]int)
-			for _, i := range order {
-				n := perImage[preds[i].ImageID]
-				if n >= maxDet {
-					dropped[i] = true
-				}
-				perImage[preds[i].ImageID] = n + 1
-			}
-		}
-	}
-
-	type key struct{ image, class int64 }
-	groups := make(map[key]*group)
-	classTruths := make(map[int64]int)
-	classPreds := make(map[int64][]int) // input indices in score order
-	get := func(k key) *group {
-		g := groups[k]
-		if g == nil {
-			g = &group{}
-			groups[k] = g
-		}
-		return g
-	}
-	for i, t := range truths {
-		g := get(key{t.ImageID, t.ClassID})
-		g.truths = append(g.truths, i)
-		if !truthIg[i] {
-			classTruths[t.ClassID]++
-		} else if _, ok := classTruths[t.ClassID]; !ok {
-			classTruths[t.ClassID] = 0
-		}
-	}
-	for _, i := range order {
-		p := preds[i]
-		classPreds[p.ClassID] = append(classPreds[p.ClassID], i)
-		if dropped[i] {
-			continue
-		}
-		g := get(key{p.ImageID, p.ClassID})
-		g.preds = append(g.preds, i)
-	}
-	// Fixed group order keeps the work deterministic.
-	keys := make([]key, 0, len(groups))
-	for k, g := range groups {
-		if coco {
-			slices.SortStableFunc(g.truths, func(a, b int) int {
-				return boolInt(truthIg[a]) - boolInt(truthIg[b])
-			})
-		}
-		g.ious = make([]float64, len(g.preds)*len(g.truths))
-		for pi, p := range g.preds {
-			pb := preds[p].Box
-			for ti, t := range g.truths {
-				tb := truths[t].Box
-				if coco && truths[t].Crowd {
-					// Crowd overlap is the share of the prediction inside it.
-					inter := intersection(pb, tb, opt.PlusOne)
-					if inter > 0 {
-						g.ious[pi*len(g.truths)+ti] = inter / area(pb, opt.PlusOne)
-					}
-				} else {
-					g.ious[pi*len(g.truths)+ti] = IoU(pb, tb, opt.PlusOne)
-				}
-			}
-		}
-		keys = append(keys, k)
-	}
-	slices.SortFunc(keys, func(a, b key) int {
-		if a.image != b.image {
-			return cmpInt64(a.image, b.image)
-		}
-		return cmpInt64(a.class, b.class)
-	})
-	gs := make([]*group, len(keys))
-	for i, k := range keys {
-		gs[i] = groups[k]
-	}
-
-	// Outcomes per threshold, computed once per distinct value.
-	outcomes := make(map[float64][]int8)
-	var match []int
-	run := func(thr float64) []int8 {
-		if o, ok := outcomes[thr]; ok {
-			return o
-		}
-		o := make([]int8, len(preds))
-		var m []int
-		if thr == first {
-			m = make([]int, len(preds))
-			for i := range m {
-				m[i] = -1
-			}
-		}
-		for _, g := range gs {
-			if coco {
-				matchCOCO(g, thr, o, m, truths, preds, truthIg, opt)
-			} else {
-				matchVOC(g, thr, o, m, truthIg)
-			}
-		}
-		for i := range preds {
-			if dropped[i] {
-				o[i] = outIgnored
-			}
-		}
-		if m != nil {
-			match = m
-		}
-		outcomes[thr] = o
-		return o
-	}
-	firstOut := run(first)
-	mainOut := make([][]int8, len(main))
-	for i, t := range main {
-		mainOut[i] = run(t)
-	}
-	out50, out75 := run(0.5), run(0.75)
-	cocoT := COCOThresholds()
-	cocoOut := make([][]int8, len(cocoT))
-	for i, t := range cocoT {
-		cocoOut[i] = run(t)
-	}
-
-	classIDs := make([]int64, 0, len(classTruths)+len(classPreds))
-	for c := range classTruths {
-		classIDs = append(classIDs, c)
-	}
-	for c := range classPreds {
-		if _, ok := classTruths[c]; !ok {
-			classIDs = append(classIDs, c)
-		}
-	}
-	slices.Sort(classIDs)
-
-	res := Result{
-		PredMatch:    match,
-		PredTP:       make([]bool, len(preds)),
-		PredIgnored:  make([]bool, len(preds)),
-		TruthMatched: make([]bool, len(truths)),
-	}
-	for i, o := range firstOut {
-		res.PredTP[i] = o == outTP
-		res.PredIgnored[i] = o == outIgnored
-		if match[i] >= 0 {
-			res.TruthMatched[match[i]] = true
-		}
-	}
-
-	var tp []bool
-	apAt := func(ranked []int, o []int8, n int) float64 {
-		tp = tp[:0]
-		for _, i := range ranked {
-			if o[i] != outIgnored {
-				tp = append(tp, o[i] == outTP)
-			}
-		}
-		return AveragePrecision(tp, n, opt.Interpolation)
-	}
-	meanAP := func(ranked []int, outs [][]int8, n int) float64 {
-		s := 0.0
-		for _, o := range outs {
-			s += apAt(ranked, o, n)
-		}
-		return s / float64(len(outs))
-	}
-
-	var pooled []scored
-	var sums [4]float64
-	var nWith int
-	var poolTP, poolFP, poolN int
-	for _, c := range classIDs {
-		ranked := classPreds[c]
-		n := classTruths[c]
-		cr := ClassResult{ClassID: c, Truths: n, Predictions: len(ranked)}
-		cr.AP = meanAP(ranked, mainOut, n)
-		cr.AP50 = apAt(ranked, out50, n)
-		cr.AP75 = apAt(ranked, out75, n)
-		cr.AP50_95 = meanAP(ranked, cocoOut, n)
-
-		var list []scored
-		tpAt, fpAt := 0, 0
-		for _, i := range ranked {
-			switch firstOut[i] {
-			case outIgnored:
-				continue
-			case outTP:
-				cr.TP++
-			default:
-				cr.FP++
-			}
-			isTP := firstOut[i] == outTP
-			list = append(list, scored{preds[i].Score, isTP})
-			cr.Curve = append(cr.Curve, Point{
-				Recall:    ratio(cr.TP, n),
-				Precision: ratio(cr.TP, cr.TP+cr.FP),
-				Score:     preds[i].Score,
-			})
-			if preds[i].Score >= opt.ScoreThreshold {
-				if isTP {
-					tpAt++
-				} else {
-					fpAt++
-				}
-			}
-		}
-		cr.Precision, cr.Recall, cr.F1 = prf(tpAt, fpAt, n)
-		cr.BestF1, cr.BestF1Threshold = bestF1(list, n)
-		poolTP += tpAt
-		poolFP += fpAt
-		poolN += n
-		pooled = append(pooled, list...)
-		if n > 0 {
-			nWith++
-			sums[0] += cr.AP
-			sums[1] += cr.AP50
-			sums[2] += cr.AP75
-			sums[3] += cr.AP50_95
-		}
-		res.Classes = append(res.Classes, cr)
-	}
-	if nWith > 0 {
-		k := float64(nWith)
-		res.MAP, res.AP50, res.AP75, res.AP50_95 = sums[0]/k, sums[1]/k, sums[2]/k, sums[3]/k
-	} else {
-		res.MAP, res.AP50, res.AP75, res.AP50_95 = math.NaN(), math.NaN(), math.NaN(), math.NaN()
-	}
-	res.Precision, res.Recall, res.F1 = prf(poolTP, poolFP, poolN)
-	slices.SortStableFunc(pooled, func(a, b scored) int {
-		switch {
-		case a.score > b.score:
-			return -1
-		case a.score < b.score:
-			return 1
-		}
-		return 0
-	})
-	res.BestF1, res.BestF1Threshold = bestF1(pooled, poolN)
-	return res, nil
+	return first, main, nil
 }
 
 // thresholds returns the first IoU threshold (the one behind TP/FP, the
@@ -667,145 +402,108 @@ func thresholds(opt Options) (first float64, main []float64, err error) {
 	return main[0], main, nil
 }
 
-// matchVOC labels the group's predictions at one threshold. m, when not
-// nil, receives the matched truth of each prediction.
-func matchVOC(g *group, thr float64, o []int8, m []int, truthIg []bool) {
-	nt := len(g.truths)
-	var taken []bool
-	if nt > 0 {
-		taken = make([]bool, nt)
+// evaluation is the state that Evaluate's stages share.
+type evaluation struct {
+	truths  []Truth
+	preds   []Prediction
+	opt     Options
+	coco    bool
+	truthIg []bool // truths that do not count
+	order   []int  // prediction indices by descending score, stable
+	dropped []bool // COCO predictions beyond MaxDetections on their image
+
+	// Set by groupByImageClass.
+	groups      []*group        // by image, then class
+	classTruths map[int64]int   // counted truths, for every class with truths
+	classPreds  map[int64][]int // input indices in score order
+}
+
+// newEvaluation runs the stages that need no grouping: ignored truths,
+// the score ranking and the MaxDetections cut.
+func newEvaluation(truths []Truth, preds []Prediction, opt Options) *evaluation {
+	e := &evaluation{truths: truths, preds: preds, opt: opt, coco: opt.Protocol == COCO}
+	e.truthIg = e.ignoredTruths()
+	e.order = rankByScore(preds)
+	e.dropped = e.overMaxDetections()
+	return e
+}
+
+// ignoredTruths marks difficult (and crowd) truths under VOC; crowd,
+// difficult or outside the area range under COCO.
+func (e *evaluation) ignoredTruths() []bool {
+	truthIg := make([]bool, len(e.truths))
+	for i, t := range e.truths {
+		truthIg[i] = t.Difficult || t.Crowd || (e.coco && !e.opt.AreaRange.contains(area(t.Box, e.opt.PlusOne)))
 	}
-	for pi, p := range g.preds {
-		best, bi := -1.0, -1
-		for ti := 0; ti < nt; ti++ {
-			if v := g.ious[pi*nt+ti]; v > best {
-				best, bi = v, ti
+	return truthIg
+}
+
+// rankByScore ranks all predictions once; groups and classes inherit the
+// order.
+func rankByScore(preds []Prediction) []int {
+	order := make([]int, len(preds))
+	for i := range order {
+		order[i] = i
+	}
+	// Scores are finite (checkInputs), so cmp.Compare's NaN order never
+	// applies.
+	slices.SortStableFunc(order, func(a, b int) int { return cmp.Compare(preds[b].Score, preds[a].Score) })
+	return order
+}
+
+// overMaxDetections marks, under COCO, the predictions that rank beyond
+// MaxDetections on their image.
+func (e *evaluation) overMaxDetections() []bool {
+	dropped := make([]bool, len(e.preds))
+	if e.coco {
+		maxDet := e.opt.MaxDetections
+		if maxDet == 0 {
+			maxDet = 100
+		}
+		if maxDet > 0 {
+			perImage := make(map[int64]int)
+			for _, i := range e.order {
+				n := perImage[e.preds[i].ImageID]
+				if n >= maxDet {
+					dropped[i] = true
+				}
+				perImage[e.preds[i].ImageID] = n + 1
 			}
 		}
-		if bi < 0 || best < thr {
-			o[p] = outFP
-			continue
-		}
-		t := g.truths[bi]
-		switch {
-		case truthIg[t]:
-			o[p] = outIgnored
-		case taken[bi]:
-			o[p] = outFP // duplicate
-			continue
-		default:
-			o[p] = outTP
-			taken[bi] = true
-		}
-		if m != nil {
-			m[p] = t
-		}
 	}
+	return dropped
 }
 
-// matchCOCO labels the group's predictions at one threshold; g.truths are
-// sorted with the not-ignored ones first.
-func matchCOCO(g *group, thr float64, o []int8, m []int, truths []Truth, preds []Prediction, truthIg []bool, opt Options) {
-	nt := len(g.truths)
-	var taken []bool
-	if nt > 0 {
-		taken = make([]bool, nt)
+// predictionResults starts the result with the per-prediction and
+// per-truth figures at the first threshold.
+func (e *evaluation) predictionResults(outs outcomes) Result {
+	res := Result{
+		PredMatch:    outs.match,
+		PredTP:       make([]bool, len(e.preds)),
+		PredIgnored:  make([]bool, len(e.preds)),
+		TruthMatched: make([]bool, len(e.truths)),
 	}
-	for pi, p := range g.preds {
-		best, bi := thr, -1
-		for ti := 0; ti < nt; ti++ {
-			t := g.truths[ti]
-			if taken[ti] && !truths[t].Crowd {
-				continue
-			}
-			// Once a counted truth is found, ignored ones (sorted last)
-			// cannot replace it.
-			if bi >= 0 && !truthIg[g.truths[bi]] && truthIg[t] {
-				break
-			}
-			v := g.ious[pi*nt+ti]
-			if v < best || (bi >= 0 && v == best) {
-				continue
-			}
-			best, bi = v, ti
-		}
-		if bi < 0 {
-			if opt.AreaRange.contains(area(preds[p].Box, opt.PlusOne)) {
-				o[p] = outFP
-			} else {
-				o[p] = outIgnored
-			}
-			continue
-		}
-		t := g.truths[bi]
-		taken[bi] = true
-		if truthIg[t] {
-			o[p] = outIgnored
-		} else {
-			o[p] = outTP
-		}
-		if m != nil {
-			m[p] = t
+	for i, o := range outs.first {
+		res.PredTP[i] = o == outTP
+		res.PredIgnored[i] = o == outIgnored
+		if outs.match[i] >= 0 {
+			res.TruthMatched[outs.match[i]] = true
 		}
 	}
+	return res
 }
 
-// scored is one counted prediction for the F1 search.
-type scored struct {
-	score float64
-	tp    bool
-}
-
-// bestF1 scans score thresholds down a ranked list. A cut is only taken
-// where the score changes, since a threshold cannot split tied scores.
-func bestF1(list []scored, n int) (f1, threshold float64) {
-	tp, fp := 0, 0
-	for i, s := range list {
-		if s.tp {
-			tp++
-		} else {
-			fp++
-		}
-		if i+1 < len(list) && list[i+1].score == s.score {
-			continue
-		}
-		if _, _, f := prf(tp, fp, n); f > f1 {
-			f1, threshold = f, s.score
+// classIDs lists every class that has truths or predictions, ascending.
+func (e *evaluation) classIDs() []int64 {
+	ids := make([]int64, 0, len(e.classTruths)+len(e.classPreds))
+	for c := range e.classTruths {
+		ids = append(ids, c)
+	}
+	for c := range e.classPreds {
+		if _, ok := e.classTruths[c]; !ok {
+			ids = append(ids, c)
 		}
 	}
-	return f1, threshold
-}
-
-// prf returns precision, recall and F1 from counts.
-func prf(tp, fp, n int) (p, r, f float64) {
-	p, r = ratio(tp, tp+fp), ratio(tp, n)
-	if p+r > 0 {
-		f = 2 * p * r / (p + r)
-	}
-	return p, r, f
-}
-
-// ratio is a/b, or 0 when b is 0.
-func ratio(a, b int) float64 {
-	if b == 0 {
-		return 0
-	}
-	return float64(a) / float64(b)
-}
-
-func boolInt(b bool) int {
-	if b {
-		return 1
-	}
-	return 0
-}
-
-func cmpInt64(a, b int64) int {
-	switch {
-	case a < b:
-		return -1
-	case a > b:
-		return 1
-	}
-	return 0
+	slices.Sort(ids)
+	return ids
 }

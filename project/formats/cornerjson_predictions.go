@@ -1,0 +1,101 @@
+package formats
+
+import (
+	"bytes"
+	"io"
+	"strconv"
+
+	"boxwright/project"
+)
+
+// Prediction is one record of a corner/size JSON prediction list: a box a
+// model proposed for an image, with its class and score. The image is named
+// by ImageID or by FileName, the class by CategoryID or by Category; the
+// importer resolves them against the project.
+type Prediction struct {
+	ImageID    int64  // 0 when FileName is used
+	FileName   string // "" when ImageID is used
+	CategoryID int64  // 0 when Category (a name) is used
+	Category   string // "" when CategoryID is used
+	Box        project.Box
+	Score      float64 // in [0,1]
+	Where      string  // position for messages, e.g. "preds.json: [17]"
+}
+
+type cjPredictionIn struct {
+	ImageID    jsonInt   `json:"image_id"`
+	FileName   string    `json:"file_name"`
+	CategoryID jsonInt   `json:"category_id"`
+	Category   string    `json:"category"`
+	BBox       jsonBBox  `json:"bbox"`
+	Score      jsonFloat `json:"score"`
+}
+
+// ReadPredictionList reads a corner/size JSON prediction list: a JSON array
+// of objects {image_id | file_name, category_id | category,
+// bbox: [x, y, width, height], score}. Ids, when given, must be positive
+// (0 means "not given" in Prediction). Scores must be finite and within
+// [0,1]. Boxes are not clipped. Every error is a *PositionError whose Path
+// is the record's index, such as "[17]".
+func ReadPredictionList(r io.Reader, file string) ([]Prediction, error) {
+	p, err := newCJReader(r, file)
+	if err != nil {
+		return nil, err
+	}
+	if len(bytes.TrimSpace(p.data)) == 0 {
+		return nil, p.errAt(0, "", "", "the file is empty; want a JSON array of predictions")
+	}
+	var (
+		preds []Prediction
+		wl    whereList
+		in    cjPredictionIn
+	)
+	err = p.array("", func(k int, start int64) error {
+		path := func() string { return "[" + strconv.Itoa(k) + "]" }
+		in = cjPredictionIn{}
+		if err := p.element(&in, path, start); err != nil {
+			return err
+		}
+		if in.ImageID.bad || (in.ImageID.set && in.ImageID.v <= 0) {
+			return p.errAt(start, path(), "image_id", "must be a positive integer")
+		}
+		if !in.ImageID.set && in.FileName == "" {
+			return p.errAt(start, path(), "", "names no image: want image_id or file_name")
+		}
+		if in.CategoryID.bad || (in.CategoryID.set && in.CategoryID.v <= 0) {
+			return p.errAt(start, path(), "category_id", "must be a positive integer")
+		}
+		if !in.CategoryID.set && in.Category == "" {
+			return p.errAt(start, path(), "", "names no class: want category_id or category")
+		}
+		b, m := in.BBox.box()
+		if m != "" {
+			return p.errAt(start, path(), "bbox", m)
+		}
+		switch {
+		case in.Score.bad:
+			return p.errAt(start, path(), "score", "must be a finite number")
+		case !in.Score.set:
+			return p.errAt(start, path(), "score", "is missing")
+		case in.Score.v < 0 || in.Score.v > 1:
+			return p.errAt(start, path(), "score", "must be between 0 and 1, not "+fmtNum(in.Score.v))
+		}
+		preds = append(preds, Prediction{
+			ImageID: in.ImageID.v, FileName: in.FileName,
+			CategoryID: in.CategoryID.v, Category: in.Category,
+			Box: b, Score: in.Score.v,
+		})
+		wl.add(p.file+": [", k)
+		return nil
+	})
+	if err != nil {
+		return nil, err
+	}
+	if err := p.end(); err != nil {
+		return nil, err
+	}
+	for i, w := range wl.strings() {
+		preds[i].Where = w
+	}
+	return preds, nil
+}
