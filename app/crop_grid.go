@@ -1,6 +1,7 @@
 package main
 
 import (
+	"cmp"
 	"container/list"
 	"context"
 	"errors"
@@ -219,9 +220,13 @@ func (g *cropGrid) reload() error {
 		return fmt.Errorf("read the suggestions of class %s: %w", g.u.classBy[g.classID].Name, err)
 	}
 	if g.ascending.Checked {
-		slices.SortStableFunc(gs, func(a, b project.Suggestion) int { return cmpThen(cmpFloat(a.Score, b.Score), cmpInt(a.ID, b.ID)) })
+		slices.SortStableFunc(gs, func(a, b project.Suggestion) int {
+			return cmp.Or(cmp.Compare(a.Score, b.Score), cmp.Compare(a.ID, b.ID))
+		})
 	} else {
-		slices.SortStableFunc(gs, func(a, b project.Suggestion) int { return cmpThen(cmpFloat(b.Score, a.Score), cmpInt(a.ID, b.ID)) })
+		slices.SortStableFunc(gs, func(a, b project.Suggestion) int {
+			return cmp.Or(cmp.Compare(b.Score, a.Score), cmp.Compare(a.ID, b.ID))
+		})
 	}
 	images := make(map[int64]project.Image, len(g.u.images))
 	for _, im := range g.u.images {

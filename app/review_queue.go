@@ -1,6 +1,7 @@
 package main
 
 import (
+	"cmp"
 	"context"
 	"errors"
 	"fmt"
@@ -264,38 +265,17 @@ func (q *reviewQueue) sortItems() {
 	switch q.order.Selected {
 	case orderHighestScore:
 		slices.SortStableFunc(q.items, func(a, b project.Suggestion) int {
-			return cmpThen(cmpFloat(b.Score, a.Score), cmpInt(a.ID, b.ID))
+			return cmp.Or(cmp.Compare(b.Score, a.Score), cmp.Compare(a.ID, b.ID))
 		})
 	case orderByImage:
 		slices.SortStableFunc(q.items, func(a, b project.Suggestion) int {
-			return cmpThen(cmpInt(a.ImageID, b.ImageID), cmpFloat(b.Score, a.Score), cmpInt(a.ID, b.ID))
+			return cmp.Or(cmp.Compare(a.ImageID, b.ImageID), cmp.Compare(b.Score, a.Score), cmp.Compare(a.ID, b.ID))
 		})
 	default:
 		slices.SortStableFunc(q.items, func(a, b project.Suggestion) int {
-			return cmpThen(cmpFloat(math.Abs(a.Score-thr), math.Abs(b.Score-thr)), cmpInt(a.ID, b.ID))
+			return cmp.Or(cmp.Compare(math.Abs(a.Score-thr), math.Abs(b.Score-thr)), cmp.Compare(a.ID, b.ID))
 		})
 	}
-}
-
-func cmpFloat(a, b float64) int {
-	switch {
-	case a < b:
-		return -1
-	case a > b:
-		return 1
-	}
-	return 0
-}
-
-func cmpInt(a, b int64) int { return cmpFloat(float64(a), float64(b)) }
-
-func cmpThen(cs ...int) int {
-	for _, c := range cs {
-		if c != 0 {
-			return c
-		}
-	}
-	return 0
 }
 
 // reorder sorts the undecided rest of the queue again and starts at its

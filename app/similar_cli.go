@@ -20,9 +20,6 @@ func init() {
 	commands["similar"] = cmdSimilar
 }
 
-// exemplarSource is the source name of the exemplar matcher's suggestions.
-const exemplarSource = "exemplar"
-
 // parseCorners reads "x0,y0,x1,y1".
 func parseCorners(s string) (project.Box, error) {
 	parts := strings.Split(s, ",")
@@ -137,7 +134,7 @@ func cmdSimilar(args []string, stdout, stderr io.Writer) error {
 		fmt.Fprintf(stdout, "  %.3f  [%.0f,%.0f,%.0f,%.0f]  scale %.2f  rotation %d°\n", mt.Score, mt.Box.X0, mt.Box.Y0, mt.Box.X1, mt.Box.Y1, mt.Scale, mt.Rotation)
 	}
 	if *save {
-		fmt.Fprintf(stdout, "stored as pending suggestions of source %q\n", exemplarSource)
+		fmt.Fprintf(stdout, "stored as pending suggestions of source %q\n", exemplar.Source)
 	}
 	return nil
 }
@@ -150,10 +147,10 @@ func storeExemplarMatches(ctx context.Context, st *store.Store, classID int64, b
 	for id, ms := range byImage {
 		ids = append(ids, id)
 		for _, m := range ms {
-			gs = append(gs, project.Suggestion{ImageID: id, ClassID: classID, Box: m.Box, Score: clampScore(m.Score), Source: exemplarSource, State: project.SuggestionPending})
+			gs = append(gs, project.Suggestion{ImageID: id, ClassID: classID, Box: m.Box, Score: clampScore(m.Score), Source: exemplar.Source, State: project.SuggestionPending})
 		}
 	}
-	_, err := st.ReplaceSuggestionsOn(ctx, exemplarSource, ids, gs)
+	_, err := st.ReplaceSuggestionsOn(ctx, exemplar.Source, ids, gs)
 	return err
 }
 

@@ -162,10 +162,10 @@ func (u *ui) applySimilarThreshold(threshold float64) (int, error) {
 	var gs []project.Suggestion
 	for _, p := range run.found {
 		if p.Score >= threshold {
-			gs = append(gs, project.Suggestion{ImageID: p.ImageID, ClassID: run.classID, Box: p.Box, Score: clampScore(p.Score), Source: exemplarSource, State: project.SuggestionPending})
+			gs = append(gs, project.Suggestion{ImageID: p.ImageID, ClassID: run.classID, Box: p.Box, Score: clampScore(p.Score), Source: exemplar.Source, State: project.SuggestionPending})
 		}
 	}
-	if _, err := u.st.ReplaceSuggestionsOn(context.Background(), exemplarSource, run.images, gs); err != nil {
+	if _, err := u.st.ReplaceSuggestionsOn(context.Background(), exemplar.Source, run.images, gs); err != nil {
 		return 0, err
 	}
 	before := len(u.suggestions)
@@ -187,7 +187,7 @@ func (u *ui) showSimilarPanel(threshold float64, n int) {
 	w := u.app.NewWindow("Boxwright — similar objects")
 	count := widget.NewLabel("")
 	say := func(n int, t float64) {
-		count.SetText(fmt.Sprintf("%s at NCC ≥ %.2f on %s, pending review as source %q.", plural(n, "suggestion"), t, plural(len(u.similar.images), "image"), exemplarSource))
+		count.SetText(fmt.Sprintf("%s at NCC ≥ %.2f on %s, pending review as source %q.", plural(n, "suggestion"), t, plural(len(u.similar.images), "image"), exemplar.Source))
 	}
 	say(n, threshold)
 	s := widget.NewSlider(similarFloor, 0.95)

@@ -61,7 +61,7 @@ func TestSimilarCommandFindsAndSaves(t *testing.T) {
 	}
 	mustCLI(t, "similar", path, "--image", im.Path, "--exemplar", corners, "--threshold", "0.5", "--class", "sailboat", "--save")
 	s, _ := store.Open(path)
-	gs, _ := s.Suggestions(context.Background(), project.SuggestionFilter{Source: exemplarSource})
+	gs, _ := s.Suggestions(context.Background(), project.SuggestionFilter{Source: exemplar.Source})
 	s.Close()
 	if len(gs) != len(m.Matches) {
 		t.Errorf("%d suggestions stored for %d matches", len(gs), len(m.Matches))
@@ -106,7 +106,7 @@ func TestFindSimilarInTheWindow(t *testing.T) {
 	if err != nil || high > n {
 		t.Errorf("threshold 0.9 kept %d of %d (%v)", high, n, err)
 	}
-	gs, _ := u.st.Suggestions(context.Background(), project.SuggestionFilter{Source: exemplarSource, ImageID: im.ID})
+	gs, _ := u.st.Suggestions(context.Background(), project.SuggestionFilter{Source: exemplar.Source, ImageID: im.ID})
 	if len(gs) != high {
 		t.Errorf("%d stored after raising the threshold, want %d", len(gs), high)
 	}

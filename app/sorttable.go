@@ -1,6 +1,7 @@
 package main
 
 import (
+	"cmp"
 	"encoding/csv"
 	"fmt"
 	"io"
@@ -224,11 +225,11 @@ func (t *sortTable) resort() {
 			}
 			return -1
 		case !na:
-			d = compareFloat(ka, kb)
+			d = cmp.Compare(ka, kb)
 		default:
 			if d = compareText(t.cell(a, c), t.cell(b, c)); d == 0 {
 				// Cells that differ only in letter case still get a fixed order.
-				d = compareStrings(t.cell(a, c), t.cell(b, c))
+				d = cmp.Compare(t.cell(a, c), t.cell(b, c))
 			}
 		}
 		if t.desc {
@@ -236,26 +237,6 @@ func (t *sortTable) resort() {
 		}
 		return d
 	})
-}
-
-func compareFloat(a, b float64) int {
-	switch {
-	case a < b:
-		return -1
-	case a > b:
-		return 1
-	}
-	return 0
-}
-
-func compareStrings(a, b string) int {
-	switch {
-	case a < b:
-		return -1
-	case a > b:
-		return 1
-	}
-	return 0
 }
 
 // compareText orders text ignoring letter case and with runs of digits
@@ -274,11 +255,11 @@ func compareText(a, b string) int {
 		}
 		la, lb := unicode.ToLower(ra), unicode.ToLower(rb)
 		if la != lb {
-			return compareFloat(float64(la), float64(lb))
+			return cmp.Compare(la, lb)
 		}
 		a, b = a[sa:], b[sb:]
 	}
-	return compareFloat(float64(len(a)), float64(len(b)))
+	return cmp.Compare(len(a), len(b))
 }
 
 func isDigit(r rune) bool { return r >= '0' && r <= '9' }
@@ -301,9 +282,9 @@ func compareDigits(a, b string) int {
 	}
 	ta, tb := trim(a), trim(b)
 	if len(ta) != len(tb) {
-		return compareFloat(float64(len(ta)), float64(len(tb)))
+		return cmp.Compare(len(ta), len(tb))
 	}
-	return compareStrings(ta, tb)
+	return cmp.Compare(ta, tb)
 }
 
 // fitColumns sizes each column without a fixed width to its header and the
