@@ -1,92 +1,20 @@
 // Command boxwright is a desktop workbench for building bounding-box
 // datasets for object detectors. With no arguments it opens the window;
-// with a sub-command it works headless (see usage).
+// with a sub-command it works headless (see boxwright help).
+//
+// This package only wires the command line (package cli) to the window
+// (package gui); everything else lives in the packages below it.
 package main
 
 import (
-	"fmt"
-	"io"
 	"os"
 
-	_ "boxwright/app/locale" // first: see the package comment
+	_ "boxwright/app/locale" // before the GUI toolkit initialises: see the package comment
+
+	"boxwright/app/cli"
+	"boxwright/app/gui"
 )
 
 func main() {
-	os.Exit(run(os.Args[1:], os.Stdout, os.Stderr))
+	os.Exit(cli.Run(os.Args[1:], os.Stdout, os.Stderr, gui.Run))
 }
-
-// run dispatches a command line and returns the exit status.
-func run(args []string, stdout, stderr io.Writer) int {
-	if len(args) == 0 {
-		return runGUI("", "", stderr)
-	}
-	cmd, ok := commands[args[0]]
-	if !ok {
-		if args[0] == "help" || args[0] == "-h" || args[0] == "--help" {
-			fmt.Fprint(stdout, usage)
-			return 0
-		}
-		fmt.Fprintf(stderr, "boxwright: unknown command %q\n\n%s", args[0], usage)
-		return 2
-	}
-	if err := cmd(args[1:], stdout, stderr); err != nil {
-		fmt.Fprintf(stderr, "boxwright %s: %v\n", args[0], err)
-		if _, isUsage := err.(usageError); isUsage {
-			return 2
-		}
-		return 1
-	}
-	return 0
-}
-
-const usage = `Usage: boxwright [COMMAND [ARGS]]
-
-With no command, opens the window.
-
-Commands:
-  open PROJECT.boxw [--annotator NAME]  open a project in the window
-  new PROJECT.boxw                      create an empty project (never overwrites)
-  add-images PROJECT.boxw PATH...       add image files and folders (recursive)
-        [--max-megapixels N] [--json]
-  relink PROJECT.boxw FOLDER [--json]   find moved image files by their content
-  classes PROJECT.boxw list [--json]
-  classes PROJECT.boxw add NAME...
-  classes PROJECT.boxw rename OLD NEW
-  classes PROJECT.boxw merge FROM INTO  move FROM's labels to INTO, delete FROM
-  classes PROJECT.boxw delete NAME      only when it has no labels
-  info PROJECT.boxw [--json]            counts of images, labels, suggestions
-  images PROJECT.boxw [--json]          one line per image
-  import PROJECT.boxw --layout json|xml|txt [--annotator NAME] PATH
-        [--images DIR] [--classes FILE] [--map FROM=TO]... [--create-classes]
-        [--strict] [--json]
-                                        import labels (all or nothing)
-  export PROJECT.boxw --layout json|xml|txt --annotator NAME --out DIR
-        [--split 80/10/10] [--seed N] [--images copy|link|none] [--json]
-                                        write a split dataset
-  suggestions import PROJECT.boxw FILE --source NAME [--layout json|txt|csv]
-        [--classes FILE] [--min-score S] [--nms IOU] [--map FROM=TO]...
-        [--create-classes|--drop-unknown] [--json]
-                                        import a model's predictions for review
-  suggestions stats PROJECT.boxw [--source NAME] [--json]
-                                        what the review decisions say per source
-  similar PROJECT.boxw --image PATH --exemplar x0,y0,x1,y1 [--class NAME]
-        [--threshold 0.6] [--scales 0.8:1.25:5] [--rotations]
-        [--feature gray|gradient|color] [--save] [--json]
-                                        objects like the example in one image
-  eval PROJECT.boxw --truth ANNOTATOR (--source NAME | --predictions FILE)
-        [--protocol voc|coco] [--iou 0.5] [--interpolation all|11|101]
-        [--plus-one] [--threshold 0.5] [--json]
-                                        score a model against ground truth
-  agree PROJECT.boxw --annotators A,B[,C...] [--iou 0.5] [--class-aware]
-        [--worst N] [--json|--csv]      box agreement, kappa, alpha, worst images
-  consensus PROJECT.boxw --annotators A,B[,C...] [--iou 0.5] [--min K]
-        [--median]                      store the consensus as annotator "consensus"
-  kappa --table FILE.csv [--weights none|linear|quadratic|W.csv] [--json]
-  kappa --ratings FILE.csv [--level nominal|ordinal|interval|ratio]
-        [--weights W] [--categories a,b,c] [--json]
-                                        Cohen's, Fleiss' kappa, Krippendorff's alpha
-  demo DIR [--no-open] [--seed N]       make the invented harbour demo in DIR
-  help                                  this text
-
-Every command exits non-zero with a message on stderr when it fails.
-`

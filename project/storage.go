@@ -74,6 +74,7 @@ type LabelFilter struct {
 // LabelStore keeps the labels.
 type LabelStore interface {
 	Labels(ctx context.Context, f LabelFilter) ([]Label, error)
+	Label(ctx context.Context, id int64) (Label, error)
 	// ApplyLabelChange makes one edit all or nothing and returns the IDs
 	// of the inserted labels in order.
 	ApplyLabelChange(ctx context.Context, c LabelChange) ([]int64, error)

@@ -1,0 +1,186 @@
+package cli
+
+import (
+	"context"
+	"encoding/json"
+	"flag"
+	"fmt"
+	"io"
+	"os"
+	"os/signal"
+
+	"boxwright/app/backend"
+)
+
+// usageError marks a wrongly typed command line (exit status 2).
+type usageError string
+
+func (e usageError) Error() string { return string(e) }
+
+// command runs one sub-command with the arguments after its name.
+type command func(args []string, stdout, stderr io.Writer) error
+
+// Window opens the main window on a project (an empty path shows the
+// welcome screen), labelling as annotator when that is not empty, and
+// returns the program's exit status when the window closes.
+type Window func(path, annotator string, stderr io.Writer) int
+
+// commands is the one table of sub-commands. Those that open the window
+// (open, and demo unless --no-open) get it from the caller, so that this
+// package needs no GUI toolkit.
+func commands(window Window) map[string]command {
+	return map[string]command{
+		"open":        func(args []string, stdout, stderr io.Writer) error { return cmdOpen(args, stderr, window) },
+		"new":         cmdNew,
+		"add-images":  cmdAddImages,
+		"relink":      cmdRelink,
+		"classes":     cmdClasses,
+		"info":        cmdInfo,
+		"images":      cmdImages,
+		"import":      cmdImport,
+		"export":      cmdExport,
+		"suggestions": cmdSuggestions,
+		"similar":     cmdSimilar,
+		"eval":        cmdEval,
+		"agree":       cmdAgree,
+		"consensus":   cmdConsensus,
+		"kappa":       cmdKappa,
+		"demo":        func(args []string, stdout, stderr io.Writer) error { return cmdDemo(args, stdout, stderr, window) },
+	}
+}
+
+// parse reads flags wherever they stand among the positional arguments and
+// checks the number of positionals.
+func parse(fs *flag.FlagSet, args []string, minPos, maxPos int, synopsis string) ([]string, error) {
+	fs.SetOutput(io.Discard)
+	var pos []string
+	for {
+		if err := fs.Parse(args); err != nil {
+			return nil, usageError(fmt.Sprintf("%v\nusage: boxwright %s", err, synopsis))
+		}
+		args = fs.Args()
+		if len(args) == 0 {
+			break
+		}
+		pos = append(pos, args[0])
+		args = args[1:]
+	}
+	if len(pos) < minPos || (maxPos >= 0 && len(pos) > maxPos) {
+		return nil, usageError("usage: boxwright " + synopsis)
+	}
+	return pos, nil
+}
+
+// interruptible is a context cancelled by Ctrl-C, so that long jobs stop
+// cleanly and keep what they already saved.
+func interruptible() (context.Context, context.CancelFunc) {
+	return signal.NotifyContext(context.Background(), os.Interrupt)
+}
+
+// openCLI opens the project named on the command line with a context that
+// Ctrl-C cancels; done closes both.
+func openCLI(path string) (backend.Project, context.Context, func(), error) {
+	s, err := backend.Open(path)
+	if err != nil {
+		return nil, nil, nil, err
+	}
+	ctx, stop := interruptible()
+	return s, ctx, func() { stop(); s.Close() }, nil
+}
+
+func writeJSON(w io.Writer, v any) error {
+	enc := json.NewEncoder(w)
+	enc.SetIndent("", "  ")
+	enc.SetEscapeHTML(false) // read by people and scripts, not browsers
+	return enc.Encode(v)
+}
+
+// progressPrinter reports long intakes on stderr, every 100 files.
+func progressPrinter(stderr io.Writer, quiet *bool) func(done, total int) {
+	return func(done, total int) {
+		if !*quiet && total >= 200 && (done%100 == 0 || done == total) {
+			fmt.Fprintf(stderr, "\r%d / %d files", done, total)
+			if done == total {
+				fmt.Fprintln(stderr)
+			}
+		}
+	}
+}
+
+// Run dispatches a command line and returns the exit status: 0 on
+// success, 1 when the command failed, 2 for a mistyped command line. With
+// no arguments it opens the window.
+func Run(args []string, stdout, stderr io.Writer, window Window) int {
+	if len(args) == 0 {
+		return window("", "", stderr)
+	}
+	cmd, ok := commands(window)[args[0]]
+	if !ok {
+		if args[0] == "help" || args[0] == "-h" || args[0] == "--help" {
+			fmt.Fprint(stdout, usage)
+			return 0
+		}
+		fmt.Fprintf(stderr, "boxwright: unknown command %q\n\n%s", args[0], usage)
+		return 2
+	}
+	if err := cmd(args[1:], stdout, stderr); err != nil {
+		fmt.Fprintf(stderr, "boxwright %s: %v\n", args[0], err)
+		if _, isUsage := err.(usageError); isUsage {
+			return 2
+		}
+		return 1
+	}
+	return 0
+}
+
+const usage = `Usage: boxwright [COMMAND [ARGS]]
+
+With no command, opens the window.
+
+Commands:
+  open PROJECT.boxw [--annotator NAME]  open a project in the window
+  new PROJECT.boxw                      create an empty project (never overwrites)
+  add-images PROJECT.boxw PATH...       add image files and folders (recursive)
+        [--max-megapixels N] [--json]
+  relink PROJECT.boxw FOLDER [--json]   find moved image files by their content
+  classes PROJECT.boxw list [--json]
+  classes PROJECT.boxw add NAME...
+  classes PROJECT.boxw rename OLD NEW
+  classes PROJECT.boxw merge FROM INTO  move FROM's labels to INTO, delete FROM
+  classes PROJECT.boxw delete NAME      only when it has no labels
+  info PROJECT.boxw [--json]            counts of images, labels, suggestions
+  images PROJECT.boxw [--json]          one line per image
+  import PROJECT.boxw --layout json|xml|txt [--annotator NAME] PATH
+        [--images DIR] [--classes FILE] [--map FROM=TO]... [--create-classes]
+        [--strict] [--json]
+                                        import labels (all or nothing)
+  export PROJECT.boxw --layout json|xml|txt --annotator NAME --out DIR
+        [--split 80/10/10] [--seed N] [--images copy|link|none] [--json]
+                                        write a split dataset
+  suggestions import PROJECT.boxw FILE --source NAME [--layout json|txt|csv]
+        [--classes FILE] [--min-score S] [--nms IOU] [--map FROM=TO]...
+        [--create-classes|--drop-unknown] [--json]
+                                        import a model's predictions for review
+  suggestions stats PROJECT.boxw [--source NAME] [--json]
+                                        what the review decisions say per source
+  similar PROJECT.boxw --image PATH --exemplar x0,y0,x1,y1 [--class NAME]
+        [--threshold 0.6] [--scales 0.8:1.25:5] [--rotations]
+        [--feature gray|gradient|color] [--save] [--json]
+                                        objects like the example in one image
+  eval PROJECT.boxw --truth ANNOTATOR (--source NAME | --predictions FILE)
+        [--protocol voc|coco] [--iou 0.5] [--interpolation all|11|101]
+        [--plus-one] [--threshold 0.5] [--json]
+                                        score a model against ground truth
+  agree PROJECT.boxw --annotators A,B[,C...] [--iou 0.5] [--class-aware]
+        [--worst N] [--json|--csv]      box agreement, kappa, alpha, worst images
+  consensus PROJECT.boxw --annotators A,B[,C...] [--iou 0.5] [--min K]
+        [--median]                      store the consensus as annotator "consensus"
+  kappa --table FILE.csv [--weights none|linear|quadratic|W.csv] [--json]
+  kappa --ratings FILE.csv [--level nominal|ordinal|interval|ratio]
+        [--weights W] [--categories a,b,c] [--json]
+                                        Cohen's, Fleiss' kappa, Krippendorff's alpha
+  demo DIR [--no-open] [--seed N]       make the invented harbour demo in DIR
+  help                                  this text
+
+Every command exits non-zero with a message on stderr when it fails.
+`

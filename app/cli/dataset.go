@@ -1,0 +1,126 @@
+package cli
+
+import (
+	"flag"
+	"fmt"
+	"io"
+	"path/filepath"
+	"strings"
+
+	"boxwright/app/ops"
+	"boxwright/project/formats"
+)
+
+// classMapFlag collects repeated --map FROM=TO.
+type classMapFlag map[string]string
+
+func (m classMapFlag) String() string { return "" }
+
+func (m classMapFlag) Set(v string) error {
+	from, to, ok := strings.Cut(v, "=")
+	if !ok || strings.TrimSpace(from) == "" || strings.TrimSpace(to) == "" {
+		return fmt.Errorf("--map wants FROM=TO, got %q", v)
+	}
+	m[strings.TrimSpace(from)] = strings.TrimSpace(to)
+	return nil
+}
+
+func cmdImport(args []string, stdout, stderr io.Writer) error {
+	fs := flag.NewFlagSet("import", flag.ContinueOnError)
+	layout := fs.String("layout", "", "")
+	annotator := fs.String("annotator", "", "")
+	images := fs.String("images", "", "")
+	classes := fs.String("classes", "", "")
+	strict := fs.Bool("strict", false, "")
+	create := fs.Bool("create-classes", false, "")
+	asJSON := fs.Bool("json", false, "")
+	classMap := classMapFlag{}
+	fs.Var(classMap, "map", "")
+	const synopsis = "import PROJECT.boxw --layout json|xml|txt [--annotator NAME] PATH [--images DIR] [--classes FILE] [--map FROM=TO]... [--create-classes] [--strict] [--json]"
+	pos, err := parse(fs, args, 2, 2, synopsis)
+	if err != nil {
+		return err
+	}
+	if *layout == "" {
+		return usageError("--layout is required\nusage: boxwright " + synopsis)
+	}
+	if !ops.KnownLayout(formats.Layout(*layout)) {
+		return usageError(ops.UnknownLayout(formats.Layout(*layout)).Error())
+	}
+	src := pos[1]
+	if *annotator == "" {
+		*annotator = strings.TrimSuffix(filepath.Base(src), filepath.Ext(src))
+	}
+	s, ctx, done, err := openCLI(pos[0])
+	if err != nil {
+		return err
+	}
+	defer done()
+	res, err := ops.RunImport(ctx, s, ops.ImportJob{Layout: formats.Layout(*layout), Src: src, ClassesFile: *classes, ImagesDir: *images,
+		Annotator: *annotator, Create: *create, Strict: *strict, ClassMap: classMap})
+	if err != nil {
+		return err
+	}
+	rep := res.ImportReport
+	if *asJSON {
+		return writeJSON(stdout, res)
+	}
+	if res.ImagesAdded != nil {
+		fmt.Fprintf(stdout, "images: added %d, already known %d, relinked %d, skipped %d\n", res.ImagesAdded.Added,
+			res.ImagesAdded.Duplicates, res.ImagesAdded.Relinked, len(res.ImagesAdded.Failed))
+	}
+	fmt.Fprintf(stdout, "imported %d labels on %d images for annotator %q; clipped %d boxes to their image\n", rep.Labels, rep.Images, rep.Annotator, rep.Clipped)
+	if len(rep.ClassesCreated) > 0 {
+		fmt.Fprintf(stdout, "created classes: %s\n", strings.Join(rep.ClassesCreated, ", "))
+	}
+	if len(rep.Unmatched) > 0 {
+		fmt.Fprintf(stdout, "%d records match no project image (add the images with --images DIR):\n", len(rep.Unmatched))
+		for i, u := range rep.Unmatched {
+			if i == 20 {
+				fmt.Fprintf(stdout, "  … and %d more (see --json)\n", len(rep.Unmatched)-20)
+				break
+			}
+			fmt.Fprintf(stdout, "  %s\n", u)
+		}
+	}
+	return nil
+}
+
+func cmdExport(args []string, stdout, stderr io.Writer) error {
+	fs := flag.NewFlagSet("export", flag.ContinueOnError)
+	layout := fs.String("layout", "", "")
+	annotator := fs.String("annotator", "", "")
+	out := fs.String("out", "", "")
+	split := fs.String("split", "80/10/10", "")
+	seed := fs.Int64("seed", 1, "")
+	images := fs.String("images", "copy", "")
+	asJSON := fs.Bool("json", false, "")
+	const synopsis = "export PROJECT.boxw --layout json|xml|txt --annotator NAME --out DIR [--split 80/10/10] [--seed N] [--images copy|link|none] [--json]"
+	pos, err := parse(fs, args, 1, 1, synopsis)
+	if err != nil {
+		return err
+	}
+	if *layout == "" || *annotator == "" || *out == "" {
+		return usageError("--layout, --annotator and --out are required\nusage: boxwright " + synopsis)
+	}
+	ratios, err := formats.ParseRatios(*split)
+	if err != nil {
+		return usageError("--split: " + err.Error())
+	}
+	s, ctx, done, err := openCLI(pos[0])
+	if err != nil {
+		return err
+	}
+	defer done()
+	rep, classes, err := ops.RunExport(ctx, s, *annotator, *out, formats.ExportOptions{Layout: formats.Layout(*layout), Ratios: ratios,
+		Seed: *seed, Images: formats.ImageMode(*images)})
+	if err != nil {
+		return err
+	}
+	if *asJSON {
+		return writeJSON(stdout, rep)
+	}
+	ops.PrintExportReport(stdout, rep, classes)
+	fmt.Fprintf(stdout, "wrote %s (report in %s)\n", *out, filepath.Join(*out, "report.json"))
+	return nil
+}

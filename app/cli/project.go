@@ -1,0 +1,341 @@
+package cli
+
+import (
+	"context"
+	"errors"
+	"flag"
+	"fmt"
+	"io"
+	"strings"
+	"text/tabwriter"
+
+	"boxwright/app/backend"
+	"boxwright/project"
+	"boxwright/store/imagefile"
+)
+
+func cmdOpen(args []string, stderr io.Writer, window Window) error {
+	fs := flag.NewFlagSet("open", flag.ContinueOnError)
+	annotator := fs.String("annotator", "", "label as this annotator (created when new); skips the question")
+	pos, err := parse(fs, args, 1, 1, "open PROJECT.boxw [--annotator NAME]")
+	if err != nil {
+		return err
+	}
+	// Fail here, with a plain message, rather than in an empty window.
+	s, err := backend.Open(pos[0])
+	if err != nil {
+		return err
+	}
+	s.Close()
+	if *annotator != "" {
+		if err := project.ValidateName("annotator", *annotator); err != nil {
+			return usageError(fmt.Sprintf("--annotator %q: %v", *annotator, err))
+		}
+	}
+	if code := window(pos[0], *annotator, stderr); code != 0 {
+		return fmt.Errorf("the window closed with an error")
+	}
+	return nil
+}
+
+func cmdNew(args []string, stdout, stderr io.Writer) error {
+	fs := flag.NewFlagSet("new", flag.ContinueOnError)
+	pos, err := parse(fs, args, 1, 1, "new PROJECT.boxw")
+	if err != nil {
+		return err
+	}
+	if !strings.HasSuffix(pos[0], backend.Extension) {
+		return fmt.Errorf("project file %s should end in %s", pos[0], backend.Extension)
+	}
+	s, err := backend.Create(pos[0])
+	if err != nil {
+		return err
+	}
+	fmt.Fprintf(stdout, "created %s\n", pos[0])
+	return s.Close()
+}
+
+func printIntake(stdout io.Writer, rep project.IntakeReport, asJSON bool) error {
+	if asJSON {
+		return writeJSON(stdout, rep)
+	}
+	fmt.Fprintf(stdout, "added %d, duplicates %d, relinked %d, failed %d\n", rep.Added, rep.Duplicates, rep.Relinked, len(rep.Failed))
+	for _, f := range rep.Failed {
+		fmt.Fprintf(stdout, "  skipped %s: %s\n", f.Path, f.Error)
+	}
+	return nil
+}
+
+func cmdAddImages(args []string, stdout, stderr io.Writer) error {
+	fs := flag.NewFlagSet("add-images", flag.ContinueOnError)
+	asJSON := fs.Bool("json", false, "")
+	mp := fs.Float64("max-megapixels", float64(imagefile.DefaultMaxPixels)/1e6, "")
+	pos, err := parse(fs, args, 2, -1, "add-images PROJECT.boxw PATH... [--max-megapixels N] [--json]")
+	if err != nil {
+		return err
+	}
+	if *mp <= 0 {
+		return usageError("--max-megapixels must be positive")
+	}
+	s, ctx, done, err := openCLI(pos[0])
+	if err != nil {
+		return err
+	}
+	defer done()
+	rep, err := s.AddImages(ctx, pos[1:], project.IntakeOptions{MaxPixels: int64(*mp * 1e6), Progress: progressPrinter(stderr, asJSON)})
+	if perr := printIntake(stdout, rep, *asJSON); perr != nil {
+		return perr
+	}
+	return err
+}
+
+func cmdRelink(args []string, stdout, stderr io.Writer) error {
+	fs := flag.NewFlagSet("relink", flag.ContinueOnError)
+	asJSON := fs.Bool("json", false, "")
+	pos, err := parse(fs, args, 2, 2, "relink PROJECT.boxw FOLDER [--json]")
+	if err != nil {
+		return err
+	}
+	s, ctx, done, err := openCLI(pos[0])
+	if err != nil {
+		return err
+	}
+	defer done()
+	rep, err := s.Relink(ctx, pos[1], project.IntakeOptions{})
+	if err != nil {
+		return err
+	}
+	missing, err := s.MissingImages(ctx)
+	if err != nil {
+		return err
+	}
+	if *asJSON {
+		return writeJSON(stdout, map[string]any{"relinked": rep.Relinked, "still_missing": len(missing), "failed": rep.Failed})
+	}
+	fmt.Fprintf(stdout, "relinked %d, still missing %d\n", rep.Relinked, len(missing))
+	return nil
+}
+
+func cmdClasses(args []string, stdout, stderr io.Writer) error {
+	fs := flag.NewFlagSet("classes", flag.ContinueOnError)
+	asJSON := fs.Bool("json", false, "")
+	const synopsis = "classes PROJECT.boxw list|add NAME...|rename OLD NEW|merge FROM INTO|delete NAME"
+	pos, err := parse(fs, args, 2, -1, synopsis)
+	if err != nil {
+		return err
+	}
+	s, ctx, done, err := openCLI(pos[0])
+	if err != nil {
+		return err
+	}
+	defer done()
+	verb, rest := pos[1], pos[2:]
+	need := func(n int) error {
+		if len(rest) != n {
+			return usageError("usage: boxwright " + synopsis)
+		}
+		return nil
+	}
+	switch verb {
+	case "list":
+		if err := need(0); err != nil {
+			return err
+		}
+		return listClasses(ctx, s, stdout, *asJSON)
+	case "add":
+		if len(rest) == 0 {
+			return usageError("usage: boxwright classes PROJECT.boxw add NAME...")
+		}
+		for _, name := range rest {
+			c, err := s.AddClass(ctx, project.Class{Name: name})
+			if err != nil {
+				return err
+			}
+			fmt.Fprintf(stdout, "added class %q (key %s, colour %s)\n", c.Name, c.HotKey, project.FormatColor(c.Color))
+		}
+	case "rename":
+		if err := need(2); err != nil {
+			return err
+		}
+		if err := s.RenameClass(ctx, rest[0], rest[1]); err != nil {
+			return err
+		}
+		fmt.Fprintf(stdout, "renamed class %q to %q; its labels kept it\n", rest[0], rest[1])
+	case "merge":
+		if err := need(2); err != nil {
+			return err
+		}
+		if err := s.MergeClass(ctx, rest[0], rest[1]); err != nil {
+			return err
+		}
+		fmt.Fprintf(stdout, "merged class %q into %q\n", rest[0], rest[1])
+	case "delete":
+		if err := need(1); err != nil {
+			return err
+		}
+		c, err := s.ClassByName(ctx, rest[0])
+		if err != nil {
+			return err
+		}
+		if err := s.DeleteClass(ctx, c.ID, project.DeleteClassOptions{}); err != nil {
+			if errors.Is(err, project.ErrInUse) {
+				return fmt.Errorf("%w (use: boxwright classes %s merge %q OTHER)", err, pos[0], rest[0])
+			}
+			return err
+		}
+		fmt.Fprintf(stdout, "deleted class %q\n", rest[0])
+	default:
+		return usageError(fmt.Sprintf("unknown classes action %q\nusage: boxwright %s", verb, synopsis))
+	}
+	return nil
+}
+
+func listClasses(ctx context.Context, s backend.Project, stdout io.Writer, asJSON bool) error {
+	cs, err := s.Classes(ctx)
+	if err != nil {
+		return err
+	}
+	counts, err := s.Counts(ctx)
+	if err != nil {
+		return err
+	}
+	n := map[int64]int{}
+	for _, c := range counts.LabelsByClass {
+		n[c.ID] = c.Count
+	}
+	type row struct {
+		Name   string `json:"name"`
+		Color  string `json:"color"`
+		Key    string `json:"key"`
+		Labels int    `json:"labels"`
+	}
+	rows := []row{}
+	for _, c := range cs {
+		rows = append(rows, row{c.Name, project.FormatColor(c.Color), c.HotKey, n[c.ID]})
+	}
+	if asJSON {
+		return writeJSON(stdout, rows)
+	}
+	tw := tabwriter.NewWriter(stdout, 0, 4, 2, ' ', 0)
+	fmt.Fprintln(tw, "KEY\tCLASS\tCOLOUR\tLABELS")
+	for _, r := range rows {
+		fmt.Fprintf(tw, "%s\t%s\t%s\t%d\n", r.Key, r.Name, r.Color, r.Labels)
+	}
+	return tw.Flush()
+}
+
+// infoReport is the JSON shape of "boxwright info".
+type infoReport struct {
+	Images         int                             `json:"images"`
+	Classes        []namedCount                    `json:"classes"`
+	Annotators     []namedCount                    `json:"annotators"`
+	Labels         int                             `json:"labels"`
+	Suggestions    map[project.SuggestionState]int `json:"suggestions"`
+	ImagesByStatus map[project.ImageStatus]int     `json:"images_by_status"`
+	MissingFiles   int                             `json:"missing_files"`
+	SchemaVersion  int                             `json:"schema_version"`
+}
+
+type namedCount struct {
+	Name   string `json:"name"`
+	Labels int    `json:"labels"`
+}
+
+func named(ns []project.NamedCount) []namedCount {
+	out := []namedCount{}
+	for _, n := range ns {
+		out = append(out, namedCount{n.Name, n.Count})
+	}
+	return out
+}
+
+func cmdInfo(args []string, stdout, stderr io.Writer) error {
+	fs := flag.NewFlagSet("info", flag.ContinueOnError)
+	asJSON := fs.Bool("json", false, "")
+	pos, err := parse(fs, args, 1, 1, "info PROJECT.boxw [--json]")
+	if err != nil {
+		return err
+	}
+	s, ctx, done, err := openCLI(pos[0])
+	if err != nil {
+		return err
+	}
+	defer done()
+	c, err := s.Counts(ctx)
+	if err != nil {
+		return err
+	}
+	missing, err := s.MissingImages(ctx)
+	if err != nil {
+		return err
+	}
+	version, _ := s.SchemaVersion(ctx)
+	r := infoReport{Images: c.Images, Classes: named(c.LabelsByClass), Annotators: named(c.LabelsByAnnotator), Labels: c.Labels,
+		Suggestions: c.Suggestions, ImagesByStatus: c.ImagesBy, MissingFiles: len(missing), SchemaVersion: version}
+	if *asJSON {
+		return writeJSON(stdout, r)
+	}
+	fmt.Fprintf(stdout, "%s\n", s.Path())
+	fmt.Fprintf(stdout, "images: %d", r.Images)
+	for _, st := range project.ImageStatuses {
+		fmt.Fprintf(stdout, ", %s %d", st, r.ImagesByStatus[st])
+	}
+	fmt.Fprintln(stdout)
+	if r.MissingFiles > 0 {
+		fmt.Fprintf(stdout, "missing files: %d (find them with: boxwright relink %s FOLDER)\n", r.MissingFiles, pos[0])
+	}
+	fmt.Fprintf(stdout, "labels: %d\n", r.Labels)
+	for _, n := range r.Classes {
+		fmt.Fprintf(stdout, "  class %-20s %d\n", n.Name, n.Labels)
+	}
+	for _, n := range r.Annotators {
+		fmt.Fprintf(stdout, "  annotator %-16s %d\n", n.Name, n.Labels)
+	}
+	fmt.Fprintf(stdout, "suggestions:")
+	for _, st := range project.SuggestionStates {
+		fmt.Fprintf(stdout, " %s %d", st, r.Suggestions[st])
+	}
+	fmt.Fprintln(stdout)
+	return nil
+}
+
+type imageRecord struct {
+	ID          int64  `json:"id"`
+	Path        string `json:"path"`
+	Width       int    `json:"width"`
+	Height      int    `json:"height"`
+	Orientation int    `json:"orientation"`
+	SHA256      string `json:"sha256"`
+	Status      string `json:"status"`
+}
+
+func cmdImages(args []string, stdout, stderr io.Writer) error {
+	fs := flag.NewFlagSet("images", flag.ContinueOnError)
+	asJSON := fs.Bool("json", false, "")
+	pos, err := parse(fs, args, 1, 1, "images PROJECT.boxw [--json]")
+	if err != nil {
+		return err
+	}
+	s, ctx, done, err := openCLI(pos[0])
+	if err != nil {
+		return err
+	}
+	defer done()
+	ims, err := s.Images(ctx)
+	if err != nil {
+		return err
+	}
+	recs := []imageRecord{}
+	for _, im := range ims {
+		recs = append(recs, imageRecord{im.ID, im.Path, im.Width, im.Height, im.Orientation, im.SHA256, string(im.Status)})
+	}
+	if *asJSON {
+		return writeJSON(stdout, recs)
+	}
+	tw := tabwriter.NewWriter(stdout, 0, 4, 2, ' ', 0)
+	fmt.Fprintln(tw, "ID\tSTATUS\tSIZE\tORIENT\tSHA-256\tPATH")
+	for _, r := range recs {
+		fmt.Fprintf(tw, "%d\t%s\t%dx%d\t%d\t%.12s\t%s\n", r.ID, r.Status, r.Width, r.Height, r.Orientation, r.SHA256, r.Path)
+	}
+	return tw.Flush()
+}

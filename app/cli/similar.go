@@ -1,0 +1,126 @@
+package cli
+
+import (
+	"flag"
+	"fmt"
+	"io"
+	"strconv"
+	"strings"
+
+	"boxwright/app/ops"
+	"boxwright/project"
+	"boxwright/suggest/exemplar"
+)
+
+// parseCorners reads "x0,y0,x1,y1".
+func parseCorners(s string) (project.Box, error) {
+	parts := strings.Split(s, ",")
+	if len(parts) != 4 {
+		return project.Box{}, fmt.Errorf("--exemplar wants x0,y0,x1,y1, got %q", s)
+	}
+	var v [4]float64
+	for i, p := range parts {
+		f, err := strconv.ParseFloat(strings.TrimSpace(p), 64)
+		if err != nil {
+			return project.Box{}, fmt.Errorf("--exemplar: %q is not a number", p)
+		}
+		v[i] = f
+	}
+	b := project.Rect(v[0], v[1], v[2], v[3])
+	if !b.Valid() {
+		return b, fmt.Errorf("--exemplar %s has no area (x1 must exceed x0 and y1 y0)", s)
+	}
+	return b, nil
+}
+
+func cmdSimilar(args []string, stdout, stderr io.Writer) error {
+	fs := flag.NewFlagSet("similar", flag.ContinueOnError)
+	imgName := fs.String("image", "", "the project image to search (its path or file name)")
+	ex := fs.String("exemplar", "", "the example box x0,y0,x1,y1 in image pixels")
+	className := fs.String("class", "", "the class of the example (needed with --save)")
+	threshold := fs.Float64("threshold", 0.6, "lowest normalised cross-correlation of a match")
+	scales := fs.String("scales", "0.8:1.25:5", "scales FROM:TO:STEPS (geometric)")
+	rotations := fs.Bool("rotations", false, "also try the example turned by 90°, 180° and 270°")
+	feature := fs.String("feature", "gray", "gray, gradient (robust to lighting) or color")
+	save := fs.Bool("save", false, "store the matches as pending suggestions of source \"exemplar\"")
+	asJSON := fs.Bool("json", false, "print JSON")
+	const synopsis = "similar PROJECT.boxw --image PATH --exemplar x0,y0,x1,y1 [--class NAME] [--threshold 0.6] [--scales 0.8:1.25:5] [--rotations] [--feature gray|gradient|color] [--save] [--json]"
+	pos, err := parse(fs, args, 1, 1, synopsis)
+	if err != nil {
+		return err
+	}
+	if *imgName == "" || *ex == "" {
+		return usageError("--image and --exemplar are required\nusage: boxwright " + synopsis)
+	}
+	box, err := parseCorners(*ex)
+	if err != nil {
+		return usageError(err.Error())
+	}
+	if *threshold <= -1 || *threshold > 1 {
+		return usageError(fmt.Sprintf("--threshold %g: give a number in (-1, 1]", *threshold))
+	}
+	sc, err := exemplar.ParseScales(*scales)
+	if err != nil {
+		return usageError(err.Error())
+	}
+	feat, err := exemplar.ParseFeature(*feature)
+	if err != nil {
+		return usageError(err.Error())
+	}
+	if *save && *className == "" {
+		return usageError("--save needs --class: suggestions belong to a class")
+	}
+	st, ctx, done, err := openCLI(pos[0])
+	if err != nil {
+		return err
+	}
+	defer done()
+	ims, err := st.Images(ctx)
+	if err != nil {
+		return err
+	}
+	m := project.NewImageMatcher(ims)
+	im, ok, reason := m.Match(*imgName)
+	if !ok {
+		return fmt.Errorf("--image %q: %s", *imgName, reason)
+	}
+	if box.X1 > float64(im.Width) || box.Y1 > float64(im.Height) || box.X0 < 0 || box.Y0 < 0 {
+		return fmt.Errorf("--exemplar %v lies outside %s (%d×%d px)", box, im.Path, im.Width, im.Height)
+	}
+	var class project.Class
+	if *className != "" {
+		if class, err = st.ClassByName(ctx, *className); err != nil {
+			return fmt.Errorf("--class %q: %w", *className, err)
+		}
+	}
+	img, err := ops.DecodeProjectImage(st, im)
+	if err != nil {
+		return err
+	}
+	opt := exemplar.Options{Threshold: *threshold, Scales: sc, Rotations: *rotations, Feature: feat}
+	matches, err := exemplar.Search(ctx, img, []project.Box{box}, opt)
+	if err != nil {
+		return err
+	}
+	if *save {
+		if err := ops.StoreExemplarMatches(ctx, st, class.ID, map[int64][]exemplar.Match{im.ID: matches}); err != nil {
+			return err
+		}
+	}
+	if *asJSON {
+		out := []map[string]any{}
+		for _, mt := range matches {
+			out = append(out, map[string]any{"x0": mt.Box.X0, "y0": mt.Box.Y0, "x1": mt.Box.X1, "y1": mt.Box.Y1,
+				"score": mt.Score, "scale": mt.Scale, "rotation": mt.Rotation})
+		}
+		return writeJSON(stdout, map[string]any{"image": im.Path, "exemplar": []float64{box.X0, box.Y0, box.X1, box.Y1}, "matches": out, "saved": *save})
+	}
+	fmt.Fprintf(stdout, "%s in %s at NCC ≥ %.2f\n", ops.Plural(len(matches), "match"), im.Path, *threshold)
+	for _, mt := range matches {
+		fmt.Fprintf(stdout, "  %.3f  [%.0f,%.0f,%.0f,%.0f]  scale %.2f  rotation %d°\n", mt.Score, mt.Box.X0, mt.Box.Y0, mt.Box.X1, mt.Box.Y1, mt.Scale, mt.Rotation)
+	}
+	if *save {
+		fmt.Fprintf(stdout, "stored as pending suggestions of source %q\n", exemplar.Source)
+	}
+	return nil
+}

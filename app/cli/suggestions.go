@@ -1,0 +1,125 @@
+package cli
+
+import (
+	"flag"
+	"fmt"
+	"io"
+	"math"
+	"strings"
+
+	"boxwright/app/ops"
+	"boxwright/suggest"
+)
+
+func cmdSuggestions(args []string, stdout, stderr io.Writer) error {
+	const synopsis = "suggestions import PROJECT.boxw FILE --source NAME [--layout json|txt|csv] [--classes FILE] [--min-score S] [--nms IOU] [--map FROM=TO]... [--create-classes|--drop-unknown] [--json]\n       boxwright suggestions stats PROJECT.boxw [--source NAME] [--json]"
+	if len(args) == 0 {
+		return usageError("usage: boxwright " + synopsis)
+	}
+	switch args[0] {
+	case "import":
+		return cmdSuggestionsImport(args[1:], stdout, stderr, synopsis)
+	case "stats":
+		return cmdSuggestionsStats(args[1:], stdout, synopsis)
+	}
+	return usageError(fmt.Sprintf("unknown suggestions command %q\nusage: boxwright %s", args[0], synopsis))
+}
+
+func cmdSuggestionsImport(args []string, stdout, stderr io.Writer, synopsis string) error {
+	fs := flag.NewFlagSet("suggestions import", flag.ContinueOnError)
+	source := fs.String("source", "", "")
+	layout := fs.String("layout", "", "")
+	classes := fs.String("classes", "", "")
+	minScore := fs.Float64("min-score", 0, "")
+	nms := fs.Float64("nms", 0, "")
+	create := fs.Bool("create-classes", false, "")
+	drop := fs.Bool("drop-unknown", false, "")
+	asJSON := fs.Bool("json", false, "")
+	classMap := classMapFlag{}
+	fs.Var(classMap, "map", "")
+	pos, err := parse(fs, args, 2, 2, synopsis)
+	if err != nil {
+		return err
+	}
+	if *source == "" {
+		return usageError("--source NAME is required: every suggestion records where it came from\nusage: boxwright " + synopsis)
+	}
+	if *create && *drop {
+		return usageError("choose --create-classes or --drop-unknown, not both")
+	}
+	if *minScore < 0 || *minScore > 1 || *nms < 0 || *nms > 1 || math.IsNaN(*minScore) || math.IsNaN(*nms) {
+		return usageError("--min-score and --nms take numbers from 0 to 1")
+	}
+	lay := suggest.Layout(*layout)
+	if *layout == "" {
+		lay = ops.LayoutFromPath(pos[1])
+	} else if lay, err = suggest.ParseLayout(*layout); err != nil {
+		return usageError(err.Error())
+	}
+	st, ctx, done, err := openCLI(pos[0])
+	if err != nil {
+		return err
+	}
+	defer done()
+	res, err := ops.RunSuggestionImport(ctx, st, ops.SuggestionJob{Source: *source, Path: pos[1], ClassesFile: *classes, Layout: lay,
+		Filter: suggest.Filter{MinScore: *minScore, NMS: *nms}, Unknown: ops.UnknownClassRule{Map: classMap, Create: *create, Drop: *drop}}, nil)
+	if err != nil {
+		return err
+	}
+	if *asJSON {
+		return writeJSON(stdout, res)
+	}
+	fmt.Fprintf(stdout, "source %s: read %d, below the minimum score %d, suppressed by NMS %d, unknown class dropped %d, clipped to their image %d\n",
+		res.Source, res.Read, res.BelowScore, res.Suppressed, res.Dropped, res.Clipped)
+	fmt.Fprintf(stdout, "added %d pending suggestions; replaced %d still pending from an earlier import; kept %d already reviewed\n", res.Added, res.ReplacedPending, res.KeptReviewed)
+	if len(res.ClassesCreated) > 0 {
+		fmt.Fprintf(stdout, "new classes: %s\n", strings.Join(res.ClassesCreated, ", "))
+	}
+	return nil
+}
+
+func cmdSuggestionsStats(args []string, stdout io.Writer, synopsis string) error {
+	fs := flag.NewFlagSet("suggestions stats", flag.ContinueOnError)
+	source := fs.String("source", "", "")
+	asJSON := fs.Bool("json", false, "")
+	pos, err := parse(fs, args, 1, 1, synopsis)
+	if err != nil {
+		return err
+	}
+	st, ctx, done, err := openCLI(pos[0])
+	if err != nil {
+		return err
+	}
+	defer done()
+	stats, names, err := ops.CollectReviewStats(ctx, st, *source)
+	if err != nil {
+		return err
+	}
+	if *asJSON {
+		if stats == nil {
+			stats = []ops.ReviewStats{}
+		}
+		return writeJSON(stdout, map[string]any{"sources": stats, "note": "Pending suggestions are never counted as right or wrong."})
+	}
+	if len(stats) == 0 {
+		fmt.Fprintln(stdout, "no suggestions in this project")
+		return nil
+	}
+	for _, s := range stats {
+		fmt.Fprintf(stdout, "%s\n  class             in  accepted  corrected  rejected  pending  mean IoU of corrections\n", s.Source)
+		for _, c := range s.Summary {
+			fmt.Fprintf(stdout, "  %-14s %6d %9d %10d %9d %8d  %s\n", names[c.ClassID], c.In, c.Accepted, c.Corrected, c.Rejected, c.Pending, ops.F4(c.MeanCorrectedIoU))
+		}
+		fmt.Fprintln(stdout, "  score bin    decided  kept")
+		for _, b := range s.Reliability {
+			fmt.Fprintf(stdout, "  %.1f–%.1f %9d  %s\n", b.Lo, b.Hi, b.Decided, ops.Pct(b.Rate))
+		}
+		if s.Suggested.OK {
+			fmt.Fprintf(stdout, "  at or above score %.3f, %s of %d decided suggestions were kept (target %.0f %%)\n", s.Suggested.Score, ops.Pct(s.Suggested.Rate), s.Suggested.N, 100*ops.KeepRate)
+		} else {
+			fmt.Fprintf(stdout, "  no score threshold keeps %.0f %% yet (%d decisions)\n", 100*ops.KeepRate, s.Suggested.N)
+		}
+	}
+	fmt.Fprintln(stdout, "Pending suggestions are never counted as right or wrong.")
+	return nil
+}

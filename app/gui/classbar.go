@@ -1,0 +1,596 @@
+package gui
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"image/color"
+
+	"fyne.io/fyne/v2"
+	"fyne.io/fyne/v2/canvas"
+	"fyne.io/fyne/v2/container"
+	"fyne.io/fyne/v2/dialog"
+	"fyne.io/fyne/v2/driver/desktop"
+	"fyne.io/fyne/v2/theme"
+	"fyne.io/fyne/v2/widget"
+
+	"boxwright/app/backend"
+	"boxwright/app/ops"
+	"boxwright/project"
+)
+
+// classBarMinWidth keeps names and counts readable beside a wide image.
+const classBarMinWidth = 220
+
+// classBar is the panel of classes beside the image.
+type classBar struct {
+	win     fyne.Window
+	store   func() backend.Project
+	changed func()
+	picked  func(classID int64)
+
+	classes   []project.Class
+	onImage   map[int64]int
+	inProject map[int64]int
+	current   int64
+
+	rows    []*classRow
+	list    *fyne.Container
+	empty   *widget.Label
+	buttons []*widget.Button // acting on the current class
+	obj     fyne.CanvasObject
+}
+
+// newClassBar makes the panel. store returns the open project's store (nil
+// when none is open). changed is called after any class was added, renamed,
+// recoloured, merged or deleted (the window reloads its data). picked is
+// called when the person clicks a class row (it becomes the class for new
+// boxes / is given to the selected box).
+func newClassBar(win fyne.Window, store func() backend.Project, changed func(), picked func(classID int64)) *classBar {
+	b := &classBar{win: win, store: store, changed: changed, picked: picked}
+	b.list = container.NewVBox()
+	b.empty = widget.NewLabel("No classes yet. Add one to start drawing boxes.")
+	b.empty.Wrapping = fyne.TextWrapWord
+	b.list.Add(b.empty)
+
+	add := widget.NewButtonWithIcon("Add…", theme.ContentAddIcon(), b.showAdd)
+	rename := widget.NewButtonWithIcon("Rename…", theme.DocumentCreateIcon(), b.showRename)
+	colour := widget.NewButtonWithIcon("Colour…", theme.ColorPaletteIcon(), b.showColour)
+	merge := widget.NewButtonWithIcon("Merge…", theme.MoveDownIcon(), b.showMerge)
+	del := widget.NewButtonWithIcon("Delete…", theme.DeleteIcon(), b.showDelete)
+	b.buttons = []*widget.Button{rename, colour, merge, del}
+	for _, bt := range b.buttons {
+		bt.Disable()
+	}
+
+	title := widget.NewLabelWithStyle("Classes", fyne.TextAlignLeading, fyne.TextStyle{Bold: true})
+	tools := container.NewGridWithColumns(2, add, rename, colour, merge, del)
+	width := canvas.NewRectangle(color.Transparent)
+	width.SetMinSize(fyne.NewSize(classBarMinWidth, 0))
+	b.obj = container.NewStack(width, container.NewBorder(title, tools, nil, nil, container.NewVScroll(b.list)))
+	return b
+}
+
+// Object is the panel to put in the window.
+func (b *classBar) Object() fyne.CanvasObject { return b.obj }
+
+// SetData shows classes (in the given order) with their count on the
+// image on screen and in the whole project (by class ID; missing = 0),
+// and marks current as the class for new boxes.
+func (b *classBar) SetData(classes []project.Class, onImage, inProject map[int64]int, current int64) {
+	same := len(classes) == len(b.rows) && len(classes) > 0
+	for i := 0; same && i < len(classes); i++ {
+		same = b.rows[i].class == classes[i]
+	}
+	b.classes = append([]project.Class(nil), classes...)
+	b.onImage, b.inProject, b.current = onImage, inProject, current
+	if same {
+		// The usual case after an edit: only counts or the current class
+		// changed, so update the rows in place (rebuilding them costs
+		// text shaping on every nudge).
+		for _, r := range b.rows {
+			r.update(onImage[r.class.ID], inProject[r.class.ID], r.class.ID == current)
+		}
+		return
+	}
+	b.rows = b.rows[:0]
+	b.list.RemoveAll()
+	if len(classes) == 0 {
+		b.list.Add(b.empty)
+	}
+	for _, c := range b.classes {
+		r := newClassRow(c, onImage[c.ID], inProject[c.ID], c.ID == current, b.picked)
+		b.rows = append(b.rows, r)
+		b.list.Add(r)
+	}
+	for _, bt := range b.buttons {
+		if _, ok := b.currentClass(); ok {
+			bt.Enable()
+		} else {
+			bt.Disable()
+		}
+	}
+	b.list.Refresh()
+}
+
+// currentClass is the class the buttons act on: the current one, or the
+// first when the current one is not among those shown.
+func (b *classBar) currentClass() (project.Class, bool) {
+	for _, c := range b.classes {
+		if c.ID == b.current {
+			return c, true
+		}
+	}
+	if len(b.classes) > 0 {
+		return b.classes[0], true
+	}
+	return project.Class{}, false
+}
+
+func (b *classBar) open() (backend.Project, error) {
+	var st backend.Project
+	if b.store != nil {
+		st = b.store()
+	}
+	if st == nil {
+		return nil, errors.New("no project is open")
+	}
+	return st, nil
+}
+
+func (b *classBar) done() {
+	if b.changed != nil {
+		b.changed()
+	}
+}
+
+// add stores a new class; the store gives it a palette colour and a free key.
+func (b *classBar) add(name string) error {
+	if err := project.ValidateName("class", name); err != nil {
+		return fmt.Errorf("%v: %w", err, project.ErrInvalid)
+	}
+	st, err := b.open()
+	if err != nil {
+		return err
+	}
+	if _, err := st.AddClass(context.Background(), project.Class{Name: name}); err != nil {
+		return err
+	}
+	b.done()
+	return nil
+}
+
+func (b *classBar) rename(id int64, name string) error {
+	if err := project.ValidateName("class", name); err != nil {
+		return fmt.Errorf("%v: %w", err, project.ErrInvalid)
+	}
+	st, err := b.open()
+	if err != nil {
+		return err
+	}
+	ctx := context.Background()
+	c, err := st.Class(ctx, id)
+	if err != nil {
+		return err
+	}
+	if c.Name == name {
+		return nil
+	}
+	c.Name = name
+	if err := st.UpdateClass(ctx, c); err != nil {
+		return err
+	}
+	b.done()
+	return nil
+}
+
+func (b *classBar) recolour(id int64, col color.NRGBA) error {
+	st, err := b.open()
+	if err != nil {
+		return err
+	}
+	ctx := context.Background()
+	c, err := st.Class(ctx, id)
+	if err != nil {
+		return err
+	}
+	col.A = 0xff // boxes are drawn opaque; the store keeps #rrggbb only
+	c.Color = col
+	if err := st.UpdateClass(ctx, c); err != nil {
+		return err
+	}
+	b.done()
+	return nil
+}
+
+// merge moves every label and suggestion of fromID into intoID and removes fromID.
+func (b *classBar) merge(fromID, intoID int64) error {
+	if fromID == intoID {
+		return fmt.Errorf("a class cannot be merged into itself: %w", project.ErrInvalid)
+	}
+	st, err := b.open()
+	if err != nil {
+		return err
+	}
+	ctx := context.Background()
+	from, err := st.Class(ctx, fromID)
+	if err != nil {
+		return err
+	}
+	into, err := st.Class(ctx, intoID)
+	if err != nil {
+		return err
+	}
+	if err := st.MergeClass(ctx, from.Name, into.Name); err != nil {
+		return err
+	}
+	b.done()
+	return nil
+}
+
+func (b *classBar) remove(id int64, opts project.DeleteClassOptions) error {
+	st, err := b.open()
+	if err != nil {
+		return err
+	}
+	if err := st.DeleteClass(context.Background(), id, opts); err != nil {
+		return err
+	}
+	b.done()
+	return nil
+}
+
+// fail tells the person what went wrong, in words they can act on.
+func (b *classBar) fail(what string, err error) {
+	if errors.Is(err, project.ErrDuplicate) {
+		err = fmt.Errorf("%s: a class with that name already exists; choose another name: %w", what, err)
+	} else {
+		err = fmt.Errorf("%s: %w", what, err)
+	}
+	dialog.ShowError(err, b.win)
+}
+
+// nameDialog asks for a class name; the confirm button stays off while the
+// name would be refused.
+func (b *classBar) nameDialog(title, confirm, initial string, ok func(name string)) {
+	e := widget.NewEntry()
+	e.SetText(initial)
+	e.Validator = func(s string) error { return project.ValidateName("class", s) }
+	d := dialog.NewForm(title, confirm, "Cancel", []*widget.FormItem{widget.NewFormItem("Name", e)}, func(yes bool) {
+		if yes {
+			ok(e.Text)
+		}
+	}, b.win)
+	e.OnSubmitted = func(string) { d.Submit() }
+	d.Resize(fyne.NewSize(360, d.MinSize().Height))
+	d.Show()
+	b.win.Canvas().Focus(e)
+}
+
+func (b *classBar) showAdd() {
+	b.nameDialog("Add class", "Add", "", func(name string) {
+		if err := b.add(name); err != nil {
+			b.fail(fmt.Sprintf("Could not add class %q", name), err)
+		}
+	})
+}
+
+func (b *classBar) showRename() {
+	c, ok := b.currentClass()
+	if !ok {
+		return
+	}
+	b.nameDialog(fmt.Sprintf("Rename class %q", c.Name), "Rename", c.Name, func(name string) {
+		if err := b.rename(c.ID, name); err != nil {
+			b.fail(fmt.Sprintf("Could not rename class %q to %q", c.Name, name), err)
+		}
+	})
+}
+
+// paletteNames lets the colour buttons say their colour in words, not only show it.
+var paletteNames = map[color.NRGBA]string{
+	{0xE6, 0x9F, 0x00, 0xFF}: "orange",
+	{0x56, 0xB4, 0xE9, 0xFF}: "sky blue",
+	{0x00, 0x9E, 0x73, 0xFF}: "bluish green",
+	{0xF0, 0xE4, 0x42, 0xFF}: "yellow",
+	{0x00, 0x72, 0xB2, 0xFF}: "blue",
+	{0xD5, 0x5E, 0x00, 0xFF}: "vermilion",
+	{0xCC, 0x79, 0xA7, 0xFF}: "reddish purple",
+	{0xDD, 0xDD, 0xDD, 0xFF}: "light grey",
+}
+
+func colourName(c color.NRGBA) string {
+	if n, ok := paletteNames[c]; ok {
+		return n
+	}
+	return project.FormatColor(c)
+}
+
+func (b *classBar) showColour() {
+	c, ok := b.currentClass()
+	if !ok {
+		return
+	}
+	var d dialog.Dialog
+	set := func(col color.NRGBA) {
+		if d != nil {
+			d.Hide()
+		}
+		if err := b.recolour(c.ID, col); err != nil {
+			b.fail(fmt.Sprintf("Could not change the colour of class %q", c.Name), err)
+		}
+	}
+	hint := widget.NewLabel("These colours stay distinct for most kinds of colour blindness.")
+	hint.Wrapping = fyne.TextWrapWord
+	grid := container.NewGridWithColumns(2)
+	for _, p := range project.Palette {
+		bt := widget.NewButton(colourName(p), func() { set(p) })
+		bt.Alignment = widget.ButtonAlignLeading
+		if p == c.Color {
+			bt.Importance = widget.HighImportance
+		}
+		grid.Add(container.NewBorder(nil, nil, newSwatch(p), nil, bt))
+	}
+	other := widget.NewButtonWithIcon("Any colour…", theme.ColorChromaticIcon(), func() {
+		d.Hide()
+		pick := dialog.NewColorPicker(fmt.Sprintf("Colour of %q", c.Name), "Pick any colour for the boxes of this class.", func(col color.Color) {
+			if err := b.recolour(c.ID, color.NRGBAModel.Convert(col).(color.NRGBA)); err != nil {
+				b.fail(fmt.Sprintf("Could not change the colour of class %q", c.Name), err)
+			}
+		}, b.win)
+		pick.Advanced = true
+		pick.SetColor(c.Color)
+		pick.Show()
+	})
+	d = dialog.NewCustom(fmt.Sprintf("Colour of %q", c.Name), "Cancel", container.NewVBox(hint, grid, other), b.win)
+	d.Resize(fyne.NewSize(420, d.MinSize().Height))
+	d.Show()
+}
+
+// others lists the classes other than id, as Select options with their IDs.
+func (b *classBar) others(id int64) ([]string, map[string]int64) {
+	var names []string
+	ids := map[string]int64{}
+	for _, c := range b.classes {
+		if c.ID != id {
+			names = append(names, c.Name)
+			ids[c.Name] = c.ID
+		}
+	}
+	return names, ids
+}
+
+func (b *classBar) showMerge() {
+	c, ok := b.currentClass()
+	if !ok {
+		return
+	}
+	names, ids := b.others(c.ID)
+	if len(names) == 0 {
+		dialog.ShowInformation("Merge class", "There is no other class to merge into. Add one first.", b.win)
+		return
+	}
+	into := widget.NewSelect(names, nil)
+	into.SetSelectedIndex(0)
+	d := dialog.NewForm(fmt.Sprintf("Merge class %q", c.Name), "Next…", "Cancel",
+		[]*widget.FormItem{widget.NewFormItem("Into", into)}, func(yes bool) {
+			if !yes || into.Selected == "" {
+				return
+			}
+			target, n := ids[into.Selected], b.inProject[c.ID]
+			msg := fmt.Sprintf("%s of %q will become %q, then %q is removed.\nSuggestions move with them.",
+				ops.Plural(n, "label"), c.Name, into.Selected, c.Name)
+			dialog.ShowConfirm("Merge classes", msg, func(yes bool) {
+				if !yes {
+					return
+				}
+				if err := b.merge(c.ID, target); err != nil {
+					b.fail(fmt.Sprintf("Could not merge class %q into %q", c.Name, into.Selected), err)
+				}
+			}, b.win)
+		}, b.win)
+	d.Resize(fyne.NewSize(360, d.MinSize().Height))
+	d.Show()
+}
+
+func (b *classBar) showDelete() {
+	c, ok := b.currentClass()
+	if !ok {
+		return
+	}
+	failed := func(err error) { b.fail(fmt.Sprintf("Could not delete class %q", c.Name), err) }
+	n := b.inProject[c.ID]
+	if n == 0 {
+		dialog.ShowConfirm("Delete class", fmt.Sprintf("Delete class %q? It has no labels.", c.Name), func(yes bool) {
+			if yes {
+				if err := b.remove(c.ID, project.DeleteClassOptions{}); err != nil {
+					failed(err)
+				}
+			}
+		}, b.win)
+		return
+	}
+	const moveOpt, dropOpt = "Move them to another class", "Delete them too"
+	names, ids := b.others(c.ID)
+	opts := []string{moveOpt, dropOpt}
+	if len(names) == 0 {
+		opts = opts[1:]
+	}
+	choice := widget.NewRadioGroup(opts, nil)
+	choice.Required = true
+	choice.SetSelected(opts[0])
+	target := widget.NewSelect(names, nil)
+	if len(names) > 0 {
+		target.SetSelectedIndex(0)
+	}
+	choice.OnChanged = func(s string) {
+		if s == moveOpt {
+			target.Enable()
+		} else {
+			target.Disable()
+		}
+	}
+	form := widget.NewForm(widget.NewFormItem("Its labels", choice))
+	if len(names) > 0 {
+		form.Append("Move to", target)
+	}
+	intro := widget.NewLabel(fmt.Sprintf("Class %q has %s in this project. What should happen to them?", c.Name, ops.Plural(n, "label")))
+	intro.Wrapping = fyne.TextWrapWord
+	d := dialog.NewCustomConfirm(fmt.Sprintf("Delete class %q", c.Name), "Delete class", "Cancel", container.NewVBox(intro, form), func(yes bool) {
+		if !yes {
+			return
+		}
+		if choice.Selected == moveOpt && target.Selected != "" {
+			if err := b.remove(c.ID, project.DeleteClassOptions{MoveTo: ids[target.Selected]}); err != nil {
+				failed(err)
+			}
+			return
+		}
+		if choice.Selected != dropOpt {
+			return
+		}
+		msg := fmt.Sprintf("This deletes class %q and its %s (and any suggestions of it).\nThis cannot be undone.",
+			c.Name, ops.Plural(n, "label"))
+		dialog.ShowConfirm("Delete class and labels", msg, func(yes bool) {
+			if yes {
+				if err := b.remove(c.ID, project.DeleteClassOptions{DeleteLabels: true}); err != nil {
+					failed(err)
+				}
+			}
+		}, b.win)
+	}, b.win)
+	d.Resize(fyne.NewSize(420, d.MinSize().Height))
+	d.Show()
+}
+
+func newSwatch(c color.NRGBA) *canvas.Rectangle {
+	r := canvas.NewRectangle(c)
+	// An outline keeps pale colours visible on a light theme.
+	r.StrokeColor = theme.Color(theme.ColorNameInputBorder)
+	r.StrokeWidth = 1
+	r.CornerRadius = theme.Size(theme.SizeNameInputRadius) / 2
+	s := theme.IconInlineSize()
+	r.SetMinSize(fyne.NewSize(s, s))
+	return r
+}
+
+// classRow is one class in the bar; tapping it picks the class.
+type classRow struct {
+	widget.BaseWidget
+	class   project.Class
+	current bool
+	picked  func(int64)
+
+	bg, bar *canvas.Rectangle
+	key     *widget.Label
+	name    *widget.Label
+	counts  *widget.Label
+	hovered bool
+}
+
+func newClassRow(c project.Class, here, total int, current bool, picked func(int64)) *classRow {
+	r := &classRow{class: c, current: current, picked: picked}
+	r.bg = canvas.NewRectangle(color.Transparent)
+	r.bg.CornerRadius = theme.Size(theme.SizeNameSelectionRadius)
+	r.bar = canvas.NewRectangle(color.Transparent)
+	r.bar.SetMinSize(fyne.NewSize(theme.Padding(), 0))
+	key := c.HotKey
+	if key == "" {
+		key = " " // keeps the names of all rows aligned
+	}
+	r.key = widget.NewLabelWithStyle(key, fyne.TextAlignCenter, fyne.TextStyle{Monospace: true})
+	r.name = widget.NewLabelWithStyle(c.Name, fyne.TextAlignLeading, fyne.TextStyle{Bold: current})
+	r.name.Truncation = fyne.TextTruncateEllipsis
+	r.counts = widget.NewLabel(fmt.Sprintf("%d here · %d total", here, total))
+	r.counts.SizeName = theme.SizeNameCaptionText
+	r.counts.Truncation = fyne.TextTruncateEllipsis
+	r.ExtendBaseWidget(r)
+	return r
+}
+
+// update shows new counts and whether the row's class is current.
+func (r *classRow) update(here, total int, current bool) {
+	r.counts.SetText(fmt.Sprintf("%d here · %d total", here, total))
+	if current != r.current {
+		r.current = current
+		r.name.TextStyle = fyne.TextStyle{Bold: current}
+		r.name.Refresh()
+		r.paint()
+		r.bg.Refresh()
+		r.bar.Refresh()
+	}
+}
+
+func (r *classRow) CreateRenderer() fyne.WidgetRenderer {
+	sw := newSwatch(r.class.Color)
+	left := container.NewHBox(r.bar, container.NewCenter(sw), r.key)
+	// Name and counts sit close together so that a row reads as one item.
+	text := container.New(tightVBox{}, r.name, r.counts)
+	r.paint()
+	return widget.NewSimpleRenderer(container.NewStack(r.bg, container.NewBorder(nil, nil, left, nil, text)))
+}
+
+func (r *classRow) paint() {
+	switch {
+	case r.current:
+		r.bg.FillColor = theme.Color(theme.ColorNameSelection)
+		r.bar.FillColor = theme.Color(theme.ColorNamePrimary)
+	case r.hovered:
+		r.bg.FillColor = theme.Color(theme.ColorNameHover)
+		r.bar.FillColor = color.Transparent
+	default:
+		r.bg.FillColor = color.Transparent
+		r.bar.FillColor = color.Transparent
+	}
+}
+
+// Refresh follows theme changes.
+func (r *classRow) Refresh() {
+	r.paint()
+	r.bg.Refresh()
+	r.bar.Refresh()
+	r.BaseWidget.Refresh()
+}
+
+// Tapped picks the row's class.
+func (r *classRow) Tapped(*fyne.PointEvent) {
+	if r.picked != nil {
+		r.picked(r.class.ID)
+	}
+}
+
+// MouseIn shows which row a click would pick.
+func (r *classRow) MouseIn(*desktop.MouseEvent) { r.hovered = true; r.Refresh() }
+
+// MouseMoved is needed to receive hover events.
+func (r *classRow) MouseMoved(*desktop.MouseEvent) {}
+
+// MouseOut ends the hover highlight.
+func (r *classRow) MouseOut() { r.hovered = false; r.Refresh() }
+
+// tightVBox stacks its objects with no gap: the labels bring their own padding.
+type tightVBox struct{}
+
+func (tightVBox) MinSize(objs []fyne.CanvasObject) fyne.Size {
+	var s fyne.Size
+	for _, o := range objs {
+		m := o.MinSize()
+		s.Width = max(s.Width, m.Width)
+		s.Height += m.Height
+	}
+	// Overlap the labels' inner padding so the two lines read as one.
+	if len(objs) > 1 {
+		s.Height -= theme.Padding() * float32(len(objs)-1)
+	}
+	return s
+}
+
+func (tightVBox) Layout(objs []fyne.CanvasObject, size fyne.Size) {
+	y := float32(0)
+	for _, o := range objs {
+		h := o.MinSize().Height
+		o.Move(fyne.NewPos(0, y))
+		o.Resize(fyne.NewSize(size.Width, h))
+		y += h - theme.Padding()
+	}
+}

@@ -1,0 +1,52 @@
+package gui
+
+import (
+	"strings"
+	"testing"
+	"time"
+)
+
+// The evaluation window scores the demo detector against Ines's labels,
+// draws its charts, lists the boxes behind a confusion cell and opens one
+// in the main window.
+func TestEvaluationScreen(t *testing.T) {
+	u, _ := openDemoAs(t, "Ines")
+	s := newEvalScreen(u)
+	s.truth.SetSelected("Ines")
+	if s.source.Selected == "" {
+		t.Fatal("no source offered")
+	}
+	done := make(chan error, 1)
+	s.done = func(err error) { done <- err }
+	s.compute()
+	select {
+	case err := <-done:
+		if err != nil {
+			t.Fatal(err)
+		}
+	case <-time.After(20 * time.Second):
+		t.Fatal("the evaluation did not finish")
+	}
+	if !strings.Contains(s.headline.Text, "mAP") || s.prImg.Image == nil || s.confImg.Image == nil {
+		t.Fatalf("headline %q, charts %v %v", s.headline.Text, s.prImg.Image != nil, s.confImg.Image != nil)
+	}
+	// The diagonal cell of the first class: true positives with both boxes.
+	s.cellRow.SetSelectedIndex(0)
+	s.cellCol.SetSelectedIndex(0)
+	if len(s.cell) == 0 {
+		t.Fatalf("no boxes behind the first diagonal cell")
+	}
+	s.openCell(0)
+	if u.compare == nil || u.compareBar.Hidden {
+		t.Fatalf("the pair was not opened in the main window")
+	}
+	marked := 0
+	for _, it := range u.view.Items() {
+		if it.Marked {
+			marked++
+		}
+	}
+	if marked != 2 {
+		t.Errorf("%d boxes ringed, want the pair's 2", marked)
+	}
+}

@@ -1,0 +1,634 @@
+package gui
+
+import (
+	"context"
+	"fmt"
+	"io"
+	"os"
+	"path/filepath"
+	"strings"
+
+	"fyne.io/fyne/v2"
+	fyneapp "fyne.io/fyne/v2/app"
+	"fyne.io/fyne/v2/container"
+	"fyne.io/fyne/v2/dialog"
+	"fyne.io/fyne/v2/layout"
+	"fyne.io/fyne/v2/storage"
+	"fyne.io/fyne/v2/theme"
+	"fyne.io/fyne/v2/widget"
+
+	"boxwright/app/backend"
+	"boxwright/app/ops"
+	"boxwright/canvas"
+	"boxwright/project"
+)
+
+// Run opens the main window, with the project at path if it is not
+// empty, labelling as annotator (empty: the remembered name, or ask), and
+// returns when the window closes.
+func Run(path, annotator string, stderr io.Writer) int {
+	a := fyneapp.NewWithID("app.boxwright.desktop")
+	u := newUI(a)
+	u.annotatorFlag = annotator
+	if path != "" {
+		if err := u.openProject(path); err != nil {
+			fmt.Fprintf(stderr, "boxwright: %v\n", err)
+			return 1
+		}
+	}
+	u.win.ShowAndRun()
+	u.closeProject()
+	return 0
+}
+
+// ui is the main window and the open project.
+type ui struct {
+	app fyne.App
+	win fyne.Window
+
+	st      backend.Project
+	path    string
+	images  []project.Image
+	perImg  map[int64]project.ImageCounts
+	classes []project.Class
+	classBy map[int64]project.Class
+	// tallies: labels by image, then class or annotator (all annotators).
+	byClass     map[int64]map[int64]int
+	byAnnotator map[int64]map[int64]int
+	byPair      map[int64]map[[2]int64]int // image → (class, annotator)
+	classTotal  map[int64]int
+
+	annotators    []project.Annotator
+	annotatorFlag string
+	// annotatorFromFlag is set while the command line's name is applied.
+	annotatorFromFlag bool
+	me                project.Annotator // who is labelling; ID 0 until chosen
+	sess              *ops.Session
+	current           int64 // class for new boxes
+
+	nav     *navigator
+	view    *canvas.View
+	bar     *classBar
+	summary *widget.Label
+	status  *widget.Label // image and pointer
+	saved   *widget.Label // quiet "saved" indicator or the write error
+	retry   *widget.Button
+	// retrying is set while a quiet retry of unwritten edits is scheduled.
+	retrying bool
+	zoom     *widget.Label
+	undoBtn  *widget.Button
+	redoBtn  *widget.Button
+	others   *widget.Check
+	guides   *widget.Check
+	body     *fyne.Container // the screen shown in the window: welcome or project
+
+	selected int   // index into images of the image on screen, -1 none
+	imageID  int64 // its ID
+	other    []project.Label
+	cache    *imageCache
+	prefetch bool
+
+	pointer string
+
+	suggestions         []project.Suggestion // pending, on the image on screen
+	suggestionEdits     map[int64]project.Suggestion
+	showSuggestions     *widget.Check
+	suggestionThreshold float64
+
+	similar    *similarRun // the last exemplar search, for its live threshold
+	similarWin fyne.Window
+
+	agree       *agreeScreen // the agreement report window, when open
+	compare     *comparison  // an image opened from the agreement report
+	compareBar  *fyne.Container
+	compareNote *widget.Label
+
+	cancelDecode context.CancelFunc
+	// decoded, when set, receives each image the view shows (for tests).
+	decoded func(id int64, err error)
+}
+
+func newUI(a fyne.App) *ui {
+	u := &ui{app: a, win: a.NewWindow("Boxwright"), selected: -1, cache: newImageCache(), prefetch: true}
+	u.view = canvas.NewView()
+	u.summary = widget.NewLabel("")
+	u.summary.Wrapping = fyne.TextWrapWord
+	u.status = widget.NewLabel("")
+	u.status.Truncation = fyne.TextTruncateEllipsis
+	u.saved = widget.NewLabel("")
+	u.retry = widget.NewButtonWithIcon("Retry saving", theme.ViewRefreshIcon(), u.flush)
+	u.retry.Hide()
+	u.zoom = widget.NewLabel("")
+	u.nav = newNavigator(u)
+	u.bar = newClassBar(u.win, func() backend.Project { return u.st }, u.classesChanged, u.pickClass)
+	u.undoBtn = widget.NewButtonWithIcon("", theme.ContentUndoIcon(), u.undo)
+	u.redoBtn = widget.NewButtonWithIcon("", theme.ContentRedoIcon(), u.redo)
+	u.others = widget.NewCheck("Others", func(on bool) { u.view.SetShowReadOnly(on) })
+	u.others.SetChecked(true)
+	u.suggestionThreshold = defaultSuggestionThreshold
+	u.suggestionEdits = map[int64]project.Suggestion{}
+	u.showSuggestions = widget.NewCheck("Suggestions", func(bool) { u.refreshBoxes() })
+	u.showSuggestions.SetChecked(true)
+	u.guides = widget.NewCheck("Guides", func(on bool) {
+		if u.view.Guides() != on {
+			u.view.SetGuides(on)
+		}
+	})
+	u.compareNote = widget.NewLabel("")
+	u.compareNote.Wrapping = fyne.TextWrapWord
+	u.compareBar = container.NewBorder(nil, nil, nil, widget.NewButtonWithIcon("Back to labelling", theme.NavigateBackIcon(), u.stopComparing), u.compareNote)
+	u.compareBar.Hide()
+	u.wireView()
+	u.body = container.NewStack(u.welcome())
+	u.win.SetContent(u.body)
+	u.win.SetMainMenu(u.menu())
+	u.win.Resize(fyne.NewSize(1280, 820))
+	u.addShortcuts()
+	u.win.SetCloseIntercept(u.askClose)
+	return u
+}
+
+// askClose closes the window, unless edits could not be written: then it
+// tries once more and asks before dropping them.
+func (u *ui) askClose() {
+	if u.sess == nil || u.sess.Unsaved() == 0 || u.sess.Flush(context.Background()) == nil {
+		u.win.Close()
+		return
+	}
+	dialog.ShowConfirm("Edits not saved",
+		fmt.Sprintf("%s could not be written to the project file (%v).\n\nClose anyway and lose them?", ops.Plural(u.sess.Unsaved(), "edit"), u.sess.LastErr),
+		func(lose bool) {
+			if lose {
+				u.win.Close()
+			}
+		}, u.win)
+}
+
+func (u *ui) menu() *fyne.MainMenu {
+	file := fyne.NewMenu("Project",
+		fyne.NewMenuItem("New project…", u.askNew),
+		fyne.NewMenuItem("Open project…", u.askOpen),
+		fyne.NewMenuItemSeparator(),
+		fyne.NewMenuItem("Add image folder…", u.askAddFolder),
+		fyne.NewMenuItem("Add image files…", u.askAddFile),
+		fyne.NewMenuItem("Find moved images…", u.askRelink),
+		fyne.NewMenuItemSeparator(),
+		fyne.NewMenuItem("Change annotator…", u.askAnnotator),
+	)
+	edit := fyne.NewMenu("Edit",
+		fyne.NewMenuItem("Undo (Ctrl+Z)", u.undo),
+		fyne.NewMenuItem("Redo (Ctrl+Shift+Z)", u.redo),
+		fyne.NewMenuItemSeparator(),
+		fyne.NewMenuItem("Duplicate box (D)", u.duplicate),
+		fyne.NewMenuItem("Delete box (Delete)", u.deleteSelected),
+		fyne.NewMenuItem("Delete all my boxes on this image (Ctrl+Delete)", u.deleteAll),
+		fyne.NewMenuItem("Give all my boxes on this image the current class", func() { u.classAll(u.current) }),
+	)
+	images := fyne.NewMenu("Images",
+		fyne.NewMenuItem("Next image (N)", func() { u.step(1) }),
+		fyne.NewMenuItem("Previous image (B)", func() { u.step(-1) }),
+		fyne.NewMenuItem("Next unfinished image (U)", u.nextUnfinished),
+		fyne.NewMenuItem("Mark done and go on (Enter)", func() { u.markAndGo(project.StatusDone) }),
+		fyne.NewMenuItem("Skip image (X)", func() { u.markAndGo(project.StatusSkipped) }),
+		fyne.NewMenuItem("Mark in progress", func() { u.setStatus(project.StatusStarted) }),
+		fyne.NewMenuItemSeparator(),
+		fyne.NewMenuItem("First image (Home)", func() { u.selectIndex(0) }),
+		fyne.NewMenuItem("Last image (End)", func() { u.selectIndex(len(u.images) - 1) }),
+	)
+	view := fyne.NewMenu("View",
+		fyne.NewMenuItem("Fit image to window (F)", u.view.FitToWindow),
+		fyne.NewMenuItem("Actual pixels (R)", func() { u.view.TypedRune('r') }),
+		fyne.NewMenuItem("Zoom in (+)", func() { u.view.TypedRune('+') }),
+		fyne.NewMenuItem("Zoom out (−)", func() { u.view.TypedRune('-') }),
+		fyne.NewMenuItem("Guide lines (G)", func() { u.view.TypedRune('g') }),
+		fyne.NewMenuItem("Class-name tags (T)", func() { u.view.TypedRune('t') }),
+		fyne.NewMenuItem("Other annotators' boxes (O)", func() { u.others.SetChecked(!u.others.Checked) }),
+	)
+	data := fyne.NewMenu("Dataset",
+		fyne.NewMenuItem("Import labels…", u.askImport),
+		fyne.NewMenuItem("Export dataset…", u.askExport),
+		fyne.NewMenuItemSeparator(),
+		fyne.NewMenuItem("Annotator agreement… (Ctrl+G)", u.showAgreement),
+	)
+	sugg := fyne.NewMenu("Suggestions",
+		fyne.NewMenuItem("Import predictions…", u.askImportSuggestions),
+		fyne.NewMenuItem("Find objects like the selected box… (Ctrl+F)", u.askFindSimilar),
+		fyne.NewMenuItemSeparator(),
+		fyne.NewMenuItem("Accept selected suggestion (A)", u.acceptSuggestion),
+		fyne.NewMenuItem("Reject selected suggestion (Z)", u.rejectSuggestion),
+		fyne.NewMenuItem("Accept all on this image above the threshold (Shift+A)", u.acceptAllAbove),
+		fyne.NewMenuItem("Score threshold…", u.askSuggestionThreshold),
+		fyne.NewMenuItem("Accept or reject many…", u.askBulkReview),
+		fyne.NewMenuItemSeparator(),
+		fyne.NewMenuItem("Review one by one… (Ctrl+R)", u.showReviewQueue),
+		fyne.NewMenuItem("Review as a grid of crops… (Ctrl+J)", u.showCropGrid),
+		fyne.NewMenuItem("What the decisions tell us…", u.showSuggestionStats),
+		fyne.NewMenuItem("Evaluate the model against ground truth…", u.showEvaluation),
+	)
+	help := fyne.NewMenu("Help",
+		fyne.NewMenuItem("Keys and mouse (H)", u.showKeys),
+		fyne.NewMenuItem("Cautions", u.showCautions),
+		fyne.NewMenuItem("About Boxwright", u.showAbout),
+	)
+	return fyne.NewMainMenu(file, edit, images, view, sugg, data, help)
+}
+
+func (u *ui) welcome() fyne.CanvasObject {
+	title := widget.NewLabelWithStyle("Boxwright", fyne.TextAlignCenter, fyne.TextStyle{Bold: true})
+	intro := widget.NewLabel("Draw and check bounding boxes for object-detector datasets.\nOpen a project file (.boxw), start a new one, or try the invented harbour demo.")
+	intro.Alignment = fyne.TextAlignCenter
+	buttons := container.NewHBox(
+		widget.NewButtonWithIcon("Open project…", theme.FolderOpenIcon(), u.askOpen),
+		widget.NewButtonWithIcon("New project…", theme.DocumentCreateIcon(), u.askNew),
+		widget.NewButtonWithIcon("Make demo project…", theme.MediaPhotoIcon(), u.askDemo),
+	)
+	caution := widget.NewLabel(cautionShort)
+	caution.Wrapping = fyne.TextWrapWord
+	caution.Alignment = fyne.TextAlignCenter
+	return container.NewCenter(container.NewVBox(title, intro, container.NewCenter(buttons), widget.NewSeparator(),
+		container.NewGridWrap(fyne.NewSize(640, 120), caution)))
+}
+
+func (u *ui) projectScreen() fyne.CanvasObject {
+	left := container.NewBorder(container.NewVBox(u.summary, u.nav.filters()), nil, nil, nil, u.nav.list)
+	tools := container.NewHBox(u.undoBtn, u.redoBtn, widget.NewSeparator(),
+		widget.NewButtonWithIcon("", theme.ZoomFitIcon(), u.view.FitToWindow),
+		widget.NewButton("1:1", func() { u.view.TypedRune('r') }),
+		widget.NewButtonWithIcon("", theme.ZoomInIcon(), func() { u.view.TypedRune('+') }),
+		widget.NewButtonWithIcon("", theme.ZoomOutIcon(), func() { u.view.TypedRune('-') }),
+		u.zoom, widget.NewSeparator(), u.guides, u.others, u.showSuggestions, layout.NewSpacer(),
+		widget.NewButtonWithIcon("Done", theme.ConfirmIcon(), func() { u.markAndGo(project.StatusDone) }),
+		widget.NewButtonWithIcon("Keys", theme.HelpIcon(), u.showKeys))
+	centre := container.NewBorder(container.NewVBox(tools, u.compareBar), nil, nil, nil, u.view)
+	inner := container.NewHSplit(centre, u.bar.Object())
+	inner.Offset = 0.8
+	split := container.NewHSplit(left, inner)
+	split.Offset = 0.2
+	bottom := container.NewBorder(nil, nil, nil, container.NewHBox(u.saved, u.retry), u.status)
+	return container.NewBorder(nil, bottom, nil, nil, split)
+}
+
+// openProject closes any open project and shows the one at path.
+func (u *ui) openProject(path string) error {
+	s, err := backend.Open(path)
+	if err != nil {
+		return err
+	}
+	u.closeProject()
+	u.st, u.path = s, path
+	u.me, u.sess, u.current = project.Annotator{}, nil, 0
+	if err := u.reload(); err != nil {
+		return err
+	}
+	u.body.Objects = []fyne.CanvasObject{u.projectScreen()}
+	u.body.Refresh()
+	u.chooseAnnotator()
+	u.updateTitle()
+	u.updateUndo()
+	if len(u.images) > 0 {
+		u.selectIndex(0)
+	} else {
+		u.view.SetMessage("This project has no images yet: Project ▸ Add image folder… (Ctrl+I)")
+	}
+	u.reportMissing()
+	return nil
+}
+
+func (u *ui) closeProject() {
+	if u.cancelDecode != nil {
+		u.cancelDecode()
+	}
+	if u.sess != nil && u.sess.Unsaved() > 0 {
+		u.sess.Flush(context.Background()) // a last try; the error was shown already
+	}
+	u.sess = nil
+	if u.st != nil {
+		u.st.Close()
+		u.st = nil
+	}
+	u.cache.Clear()
+	u.selected, u.imageID = -1, 0
+}
+
+func (u *ui) updateTitle() {
+	t := "Boxwright"
+	if u.path != "" {
+		t += " — " + filepath.Base(u.path)
+	}
+	if u.me.ID != 0 {
+		t += " — labelling as " + u.me.Name
+	}
+	u.win.SetTitle(t)
+}
+
+// reload reads the image list, classes and counts again.
+func (u *ui) reload() error {
+	ctx := context.Background()
+	ims, err := u.st.Images(ctx)
+	if err != nil {
+		return err
+	}
+	per, err := u.st.CountsByImage(ctx)
+	if err != nil {
+		return err
+	}
+	cs, err := u.st.Classes(ctx)
+	if err != nil {
+		return err
+	}
+	counts, err := u.st.Counts(ctx)
+	if err != nil {
+		return err
+	}
+	as, err := u.st.Annotators(ctx)
+	if err != nil {
+		return err
+	}
+	tal, err := u.st.LabelTallies(ctx)
+	if err != nil {
+		return err
+	}
+	for id, c := range per {
+		c.Labels = 0 // counted again from the tallies, which edits keep up to date
+		per[id] = c
+	}
+	u.images, u.perImg, u.annotators, u.classes = ims, per, as, cs
+	u.classBy = map[int64]project.Class{}
+	for _, c := range cs {
+		u.classBy[c.ID] = c
+	}
+	if _, ok := u.classBy[u.current]; !ok {
+		u.current = 0
+		if len(cs) > 0 {
+			u.current = cs[0].ID // with no choice made, boxes get the first class
+		}
+	}
+	u.byClass, u.byAnnotator, u.byPair, u.classTotal = map[int64]map[int64]int{}, map[int64]map[int64]int{}, map[int64]map[[2]int64]int{}, map[int64]int{}
+	for _, t := range tal {
+		u.tally(t.ImageID, t.ClassID, t.AnnotatorID, t.N)
+	}
+	var parts []string
+	for _, st := range project.ImageStatuses {
+		if n := counts.ImagesBy[st]; n > 0 {
+			parts = append(parts, fmt.Sprintf("%d %s", n, statusWord(st)))
+		}
+	}
+	u.summary.SetText(fmt.Sprintf("%s, %s, %d pending suggestions\n%s", ops.Plural(counts.Images, "image"), ops.Plural(counts.Labels, "label"),
+		counts.Suggestions[project.SuggestionPending], strings.Join(parts, " · ")))
+	u.nav.reload()
+	u.updateClassBar()
+	return nil
+}
+
+// tally adds n labels of a class by an annotator on an image to the
+// counts behind the class bar, the filters and the image rows.
+func (u *ui) tally(imageID, classID, annotatorID int64, n int) {
+	if u.byClass[imageID] == nil {
+		u.byClass[imageID], u.byAnnotator[imageID], u.byPair[imageID] = map[int64]int{}, map[int64]int{}, map[[2]int64]int{}
+	}
+	u.byPair[imageID][[2]int64{classID, annotatorID}] += n
+	u.byClass[imageID][classID] += n
+	u.byAnnotator[imageID][annotatorID] += n
+	u.classTotal[classID] += n
+	c := u.perImg[imageID]
+	c.Labels += n
+	if u.perImg == nil {
+		u.perImg = map[int64]project.ImageCounts{}
+	}
+	u.perImg[imageID] = c
+}
+
+// statusWord is how the screen names an image status.
+func statusWord(s project.ImageStatus) string {
+	switch s {
+	case project.StatusNew:
+		return "not started"
+	case project.StatusStarted:
+		return "in progress"
+	}
+	return string(s)
+}
+
+// reportMissing offers to look for moved image files by their content.
+func (u *ui) reportMissing() {
+	missing, err := u.st.MissingImages(context.Background())
+	if err != nil || len(missing) == 0 {
+		return
+	}
+	msg := fmt.Sprintf("%s of this project cannot be found where the project expects them (for example %s).\n\nLook for them in a folder? Files are matched by their content, so renamed files are found too.",
+		ops.Plural(len(missing), "image file"), missing[0].Path)
+	dialog.ShowConfirm("Images missing", msg, func(ok bool) {
+		if ok {
+			u.askRelink()
+		}
+	}, u.win)
+}
+
+func (u *ui) showError(err error) { dialog.ShowError(err, u.win) }
+
+// haveProject says whether a project is open, and tells the user to open
+// one when it is not.
+func (u *ui) haveProject() bool {
+	if u.st == nil {
+		dialog.ShowInformation("No project", "Open or create a project first.", u.win)
+	}
+	return u.st != nil
+}
+
+func (u *ui) askOpen() {
+	d := dialog.NewFileOpen(func(r fyne.URIReadCloser, err error) {
+		if err != nil || r == nil {
+			return
+		}
+		r.Close()
+		if err := u.openProject(r.URI().Path()); err != nil {
+			u.showError(err)
+		}
+	}, u.win)
+	d.SetFilter(storage.NewExtensionFileFilter([]string{backend.Extension}))
+	d.Show()
+}
+
+func (u *ui) askNew() {
+	d := dialog.NewFileSave(func(w fyne.URIWriteCloser, err error) {
+		if err != nil || w == nil {
+			return
+		}
+		path := w.URI().Path()
+		w.Close()
+		os.Remove(path) // the dialog made an empty file; Create refuses to overwrite
+		if !strings.HasSuffix(path, backend.Extension) {
+			path += backend.Extension
+		}
+		s, err := backend.Create(path)
+		if err != nil {
+			u.showError(err)
+			return
+		}
+		s.Close()
+		if err := u.openProject(path); err != nil {
+			u.showError(err)
+		}
+	}, u.win)
+	d.SetFileName("project" + backend.Extension)
+	d.Show()
+}
+
+func (u *ui) askDemo() {
+	dialog.ShowFolderOpen(func(l fyne.ListableURI, err error) {
+		if err != nil || l == nil {
+			return
+		}
+		dir := filepath.Join(l.Path(), "boxwright-demo")
+		path := filepath.Join(dir, ops.DemoProjectName)
+		if _, err := os.Stat(path); err == nil {
+			if err := u.openProject(path); err != nil {
+				u.showError(err)
+			}
+			return
+		}
+		u.runJob("Making the demo project", func(ctx context.Context, progress func(float64)) error {
+			return ops.MakeDemo(ctx, dir, ops.DemoDefaults, func(done, total int) { progress(float64(done) / float64(total)) })
+		}, func() {
+			if err := u.openProject(path); err != nil {
+				u.showError(err)
+			}
+		})
+	}, u.win)
+}
+
+func (u *ui) askAddFolder() {
+	if !u.haveProject() {
+		return
+	}
+	dialog.ShowFolderOpen(func(l fyne.ListableURI, err error) {
+		if err == nil && l != nil {
+			u.intake([]string{l.Path()}, false)
+		}
+	}, u.win)
+}
+
+func (u *ui) askAddFile() {
+	if !u.haveProject() {
+		return
+	}
+	d := dialog.NewFileOpen(func(r fyne.URIReadCloser, err error) {
+		if err == nil && r != nil {
+			r.Close()
+			u.intake([]string{r.URI().Path()}, false)
+		}
+	}, u.win)
+	d.SetFilter(storage.NewExtensionFileFilter([]string{".jpg", ".jpeg", ".png", ".gif", ".bmp", ".tif", ".tiff", ".webp"}))
+	d.Show()
+}
+
+func (u *ui) askRelink() {
+	if u.st == nil {
+		return
+	}
+	dialog.ShowFolderOpen(func(l fyne.ListableURI, err error) {
+		if err == nil && l != nil {
+			u.intake([]string{l.Path()}, true)
+		}
+	}, u.win)
+}
+
+// intake adds (or, with relinkOnly, finds) images as a background job and
+// shows the summary.
+func (u *ui) intake(paths []string, relinkOnly bool) {
+	st := u.st
+	var rep project.IntakeReport
+	title := "Adding images"
+	if relinkOnly {
+		title = "Looking for moved images"
+	}
+	u.runJob(title, func(ctx context.Context, progress func(float64)) error {
+		var err error
+		rep, err = st.AddImages(ctx, paths, project.IntakeOptions{RelinkOnly: relinkOnly,
+			Progress: func(done, total int) { progress(float64(done) / float64(total)) }})
+		return err
+	}, func() {
+		if err := u.reload(); err != nil {
+			u.showError(err)
+		}
+		if u.selected < 0 && len(u.images) > 0 {
+			u.selectIndex(0)
+		}
+		msg := fmt.Sprintf("Added %d, already known %d, relinked %d, skipped %d.", rep.Added, rep.Duplicates, rep.Relinked, len(rep.Failed))
+		for i, f := range rep.Failed {
+			if i == 10 {
+				msg += fmt.Sprintf("\n… and %d more", len(rep.Failed)-10)
+				break
+			}
+			msg += fmt.Sprintf("\n• %s: %s", filepath.Base(f.Path), f.Error)
+		}
+		dialog.ShowInformation(title, msg, u.win)
+	})
+}
+
+// runJob runs work in the background behind a progress dialog with a
+// Cancel button; done runs on the Fyne goroutine when work succeeded.
+func (u *ui) runJob(title string, work func(ctx context.Context, progress func(float64)) error, done func()) {
+	ctx, cancel := context.WithCancel(context.Background())
+	// A moving bar until the job reports how far it is.
+	bar := widget.NewProgressBar()
+	busy := widget.NewProgressBarInfinite()
+	bar.Hide()
+	d := dialog.NewCustom(title, "Cancel", container.NewVBox(widget.NewLabel(title+"…"), container.NewStack(busy, bar)), u.win)
+	// Closing the dialog (Cancel) cancels the job, but not once it has
+	// finished: Fyne chains closing callbacks, so this one decides.
+	finished := false
+	d.SetOnClosed(func() {
+		if !finished {
+			cancel()
+		}
+	})
+	d.Show()
+	go func() {
+		err := work(ctx, func(f float64) {
+			fyne.Do(func() {
+				if !busy.Hidden {
+					busy.Stop()
+					busy.Hide()
+					bar.Show()
+				}
+				bar.SetValue(f)
+			})
+		})
+		fyne.Do(busy.Stop)
+		fyne.Do(func() {
+			cancelled := ctx.Err() != nil
+			finished = true
+			d.Hide()
+			cancel()
+			switch {
+			case err != nil && !cancelled:
+				u.showError(err)
+			case cancelled:
+				if err := u.reload(); err == nil && u.st != nil {
+					dialog.ShowInformation(title, "Cancelled. Everything finished before the cancel is kept.", u.win)
+				}
+			default:
+				done()
+			}
+		})
+	}()
+}
+
+func (u *ui) showCautions() {
+	dialog.ShowInformation("Cautions", cautionLong, u.win)
+}
+
+func (u *ui) showAbout() {
+	dialog.ShowInformation("About Boxwright", "Boxwright — a workbench for bounding-box datasets.\nProjects are single SQLite files (.boxw); everything runs offline.", u.win)
+}
+
+const cautionShort = "Images of people or vehicles can hold personal data (faces, number plates). Follow your organisation's rules and local law when storing and sharing them."
+
+const cautionLong = `Personal data: images of people or vehicles can hold personal data (faces, number plates) that data-protection law governs. Follow your organisation's rules and local law on storing and sharing them.
+
+Agreement figures: the verbal bands shown beside agreement figures are conventions from the literature, not acceptance criteria.
+
+Model figures and suggestions: average precision and suggested score thresholds describe this model on these images as labelled here, not performance elsewhere. Suggestions accepted in bulk carry the model's mistakes into the ground truth; review samples of them.
+
+Safety: datasets for safety-relevant detectors need the validation that their field's standards require; Boxwright's figures do not replace it.`

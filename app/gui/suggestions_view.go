@@ -1,0 +1,319 @@
+package gui
+
+import (
+	"context"
+	"fmt"
+	"strconv"
+	"strings"
+
+	"fyne.io/fyne/v2"
+	"fyne.io/fyne/v2/dialog"
+	"fyne.io/fyne/v2/widget"
+
+	"boxwright/app/ops"
+	"boxwright/canvas"
+	"boxwright/project"
+)
+
+// Suggestions share the view with labels; their keys lie far below the
+// negative keys of other annotators' labels.
+const suggestionKeyBase = int64(1) << 40
+
+func suggestionKey(id int64) int64 { return -suggestionKeyBase - id }
+
+func suggestionOf(key int64) (int64, bool) {
+	if key <= -suggestionKeyBase {
+		return -key - suggestionKeyBase, true
+	}
+	return 0, false
+}
+
+// defaultSuggestionThreshold is the score above which "accept all on this
+// image" takes suggestions until the person sets another.
+const defaultSuggestionThreshold = 0.5
+
+// loadSuggestions reads the pending suggestions of the image on screen.
+func (u *ui) loadSuggestions() {
+	u.suggestions, u.suggestionEdits = nil, map[int64]project.Suggestion{}
+	if u.st == nil || u.imageID == 0 {
+		return
+	}
+	gs, err := u.st.Suggestions(context.Background(), project.SuggestionFilter{ImageID: u.imageID, State: project.SuggestionPending})
+	if err != nil {
+		u.showError(err)
+		return
+	}
+	u.suggestions = gs
+}
+
+// suggestion is a pending suggestion as the person has edited it so far.
+func (u *ui) suggestion(id int64) (project.Suggestion, bool) {
+	if g, ok := u.suggestionEdits[id]; ok {
+		return g, true
+	}
+	for _, g := range u.suggestions {
+		if g.ID == id {
+			return g, true
+		}
+	}
+	return project.Suggestion{}, false
+}
+
+// suggestionItems are the pending suggestions as view items.
+func (u *ui) suggestionItems() []canvas.Item {
+	if !u.showSuggestions.Checked {
+		return nil
+	}
+	var out []canvas.Item
+	for _, g := range u.suggestions {
+		g, _ = u.suggestion(g.ID)
+		c := u.classBy[g.ClassID]
+		caption := fmt.Sprintf("suggested %s %.2f", c.Name, g.Score)
+		if _, edited := u.suggestionEdits[g.ID]; edited {
+			caption += " (edited)"
+		}
+		out = append(out, canvas.Item{Key: suggestionKey(g.ID), Box: g.Box, Color: c.Color, Caption: caption, Suggestion: true})
+	}
+	return out
+}
+
+// editSuggestion keeps a change to a suggestion's box or class in memory
+// until it is accepted (then as a corrected label) or rejected.
+func (u *ui) editSuggestion(id int64, f func(*project.Suggestion)) {
+	g, ok := u.suggestion(id)
+	if !ok {
+		return
+	}
+	f(&g)
+	u.suggestionEdits[id] = g
+	u.refreshBoxes()
+}
+
+func (u *ui) selectedSuggestion() (project.Suggestion, bool) {
+	id, ok := suggestionOf(u.view.Selected())
+	if !ok {
+		return project.Suggestion{}, false
+	}
+	return u.suggestion(id)
+}
+
+// decisionFor is the decision to accept g as it stands now.
+func decisionFor(g project.Suggestion, accept bool) project.Decision {
+	d := project.Decision{SuggestionID: g.ID, Accept: accept}
+	if accept {
+		d.Box, d.ClassID = g.Box, g.ClassID
+	}
+	return d
+}
+
+func (u *ui) acceptSuggestion() {
+	if g, ok := u.selectedSuggestion(); ok && u.needAnnotator() {
+		u.review("accept a suggestion", []project.Decision{decisionFor(g, true)})
+	}
+}
+
+func (u *ui) rejectSuggestion() {
+	if g, ok := u.selectedSuggestion(); ok && u.needAnnotator() {
+		u.review("reject a suggestion", []project.Decision{decisionFor(g, false)})
+	}
+}
+
+// acceptAllAbove accepts every pending suggestion on the image with a
+// score at or above the threshold.
+func (u *ui) acceptAllAbove() {
+	if !u.needAnnotator() {
+		return
+	}
+	var ds []project.Decision
+	for _, g := range u.suggestions {
+		g, _ = u.suggestion(g.ID)
+		if g.Score >= u.suggestionThreshold {
+			ds = append(ds, decisionFor(g, true))
+		}
+	}
+	if len(ds) == 0 {
+		u.status.SetText(fmt.Sprintf("No pending suggestion on this image scores %.2f or more.", u.suggestionThreshold))
+		return
+	}
+	u.review(fmt.Sprintf("accept %s scoring ≥ %.2f", ops.Plural(len(ds), "suggestion"), u.suggestionThreshold), ds)
+}
+
+// review stores decisions as one undoable step and redraws.
+func (u *ui) review(what string, ds []project.Decision) {
+	err := u.sess.Decide(context.Background(), u.imageID, what, ds)
+	u.afterReview(len(ds), err)
+}
+
+func (u *ui) afterReview(n int, err error) {
+	if err != nil {
+		dialog.ShowError(err, u.win)
+	}
+	before := len(u.suggestions)
+	u.loadSuggestions()
+	c := u.perImg[u.imageID]
+	c.Pending += len(u.suggestions) - before
+	if c.Pending < 0 {
+		c.Pending = 0
+	}
+	u.perImg[u.imageID] = c
+	u.afterEdit(nil)
+	if err == nil {
+		u.status.SetText(fmt.Sprintf("Decided %s; Ctrl+Z undoes it.", ops.Plural(n, "suggestion")))
+	}
+}
+
+// askSuggestionThreshold sets the score used by "accept all on this image".
+func (u *ui) askSuggestionThreshold() {
+	e := widget.NewEntry()
+	e.SetText(strconv.FormatFloat(u.suggestionThreshold, 'g', 3, 64))
+	dialog.ShowForm("Suggestion score threshold", "Set", "Cancel", []*widget.FormItem{
+		widget.NewFormItem("Accept all on an image (Shift+A) takes scores ≥", e)}, func(ok bool) {
+		if !ok {
+			return
+		}
+		v, err := strconv.ParseFloat(strings.TrimSpace(e.Text), 64)
+		if err != nil || v < 0 || v > 1 {
+			dialog.ShowError(fmt.Errorf("the threshold must be a number from 0 to 1, not %q", e.Text), u.win)
+			return
+		}
+		u.suggestionThreshold = v
+	}, u.win)
+}
+
+// askBulkReview accepts or rejects many suggestions at once, after
+// saying how many it touches.
+func (u *ui) askBulkReview() {
+	if !u.haveProject() || !u.needAnnotator() {
+		return
+	}
+	classes := []string{"every class"}
+	for _, c := range u.classes {
+		classes = append(classes, c.Name)
+	}
+	action := widget.NewRadioGroup([]string{"accept those scoring at least", "reject those scoring below"}, nil)
+	action.SetSelected("accept those scoring at least")
+	score := widget.NewEntry()
+	score.SetText(strconv.FormatFloat(u.suggestionThreshold, 'g', 3, 64))
+	class := widget.NewSelect(classes, nil)
+	class.SetSelected("every class")
+	scope := widget.NewRadioGroup([]string{"this image", "the whole project"}, nil)
+	scope.SetSelected("the whole project")
+	preview := widget.NewLabel("")
+	query := func() (project.SuggestionQuery, error) {
+		v, err := strconv.ParseFloat(strings.TrimSpace(score.Text), 64)
+		if err != nil || v < 0 || v > 1 {
+			return project.SuggestionQuery{}, fmt.Errorf("the score must be a number from 0 to 1")
+		}
+		q := project.SuggestionQuery{State: project.SuggestionPending}
+		if action.Selected == "accept those scoring at least" {
+			q.MinScore = v
+		} else {
+			q.MaxScore = v
+			if v == 0 {
+				q.MaxScore = -1 // below 0: nothing
+			}
+		}
+		for _, c := range u.classes {
+			if c.Name == class.Selected {
+				q.ClassID = c.ID
+			}
+		}
+		if scope.Selected == "this image" {
+			q.ImageID = u.imageID
+		}
+		return q, nil
+	}
+	update := func() {
+		q, err := query()
+		if err != nil {
+			preview.SetText(err.Error())
+			return
+		}
+		if q.MaxScore < 0 {
+			preview.SetText("This touches no suggestion.")
+			return
+		}
+		n, err := u.st.CountSuggestions(context.Background(), q)
+		if err != nil {
+			preview.SetText(err.Error())
+			return
+		}
+		preview.SetText(fmt.Sprintf("This touches %s (pending ones only). Ctrl+Z undoes it.", ops.Plural(n, "suggestion")))
+	}
+	action.OnChanged = func(string) { update() }
+	score.OnChanged = func(string) { update() }
+	class.OnChanged = func(string) { update() }
+	scope.OnChanged = func(string) { update() }
+	update()
+	d := dialog.NewForm("Accept or reject many suggestions", "Do it", "Cancel", []*widget.FormItem{
+		widget.NewFormItem("Action", action), widget.NewFormItem("Score", score), widget.NewFormItem("Class", class),
+		widget.NewFormItem("Where", scope), widget.NewFormItem("", preview)}, func(ok bool) {
+		if !ok {
+			return
+		}
+		q, err := query()
+		if err != nil {
+			u.showError(err)
+			return
+		}
+		if q.MaxScore < 0 {
+			return
+		}
+		if err := u.bulkReview(q, action.Selected == "accept those scoring at least"); err != nil {
+			u.showError(err)
+		}
+	}, u.win)
+	d.Resize(fyne.NewSize(520, 380))
+	d.Show()
+}
+
+// bulkReview decides every suggestion the query selects, as one step.
+func (u *ui) bulkReview(q project.SuggestionQuery, accept bool) error {
+	gs, err := u.st.QuerySuggestions(context.Background(), q)
+	if err != nil {
+		return err
+	}
+	ds := make([]project.Decision, len(gs))
+	for i, g := range gs {
+		if e, ok := u.suggestionEdits[g.ID]; ok {
+			g = e
+		}
+		ds[i] = decisionFor(g, accept)
+	}
+	verb := "reject"
+	if accept {
+		verb = "accept"
+	}
+	err = u.sess.Decide(context.Background(), u.imageID, fmt.Sprintf("%s %s", verb, ops.Plural(len(ds), "suggestion")), ds)
+	if err != nil {
+		return err
+	}
+	if q.ImageID == 0 {
+		if err := u.reload(); err != nil {
+			return err
+		}
+	}
+	u.afterReview(len(ds), nil)
+	return nil
+}
+
+// suggestionsChanged brings the main window up to date after decisions
+// made in a review window: the suggestions and labels of the image on
+// screen (its counts follow on the next reload).
+func (u *ui) suggestionsChanged() {
+	if u.st == nil || u.imageID == 0 {
+		return
+	}
+	if u.sess != nil {
+		u.sess.Forget(u.imageID)
+	}
+	before := len(u.suggestions)
+	u.loadSuggestions()
+	if c, ok := u.perImg[u.imageID]; ok || len(u.suggestions) != before {
+		c.Pending += len(u.suggestions) - before
+		u.perImg[u.imageID] = c
+	}
+	u.loadOthers()
+	u.recount()
+	u.refreshBoxes()
+}

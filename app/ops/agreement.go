@@ -1,0 +1,159 @@
+package ops
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"path/filepath"
+	"strings"
+
+	"boxwright/app/backend"
+	"boxwright/project"
+	"boxwright/project/agree"
+)
+
+// consensusName is the derived annotator that holds the consensus.
+const ConsensusName = "consensus"
+
+// agreementData is what a comparison reads from a project.
+type AgreementData struct {
+	Annotators []project.Annotator
+	classes    []project.Class
+	className  map[int64]string
+	Images     []agree.ImageLabels
+}
+
+// loadAgreement reads the boxes of the named annotators, grouped by image.
+func LoadAgreement(ctx context.Context, st backend.Project, names []string) (AgreementData, error) {
+	var d AgreementData
+	if len(names) < 2 {
+		return d, errNoAnnotators
+	}
+	pos := map[int64]int{}
+	var ids []int64
+	for i, n := range names {
+		a, err := st.AnnotatorByName(ctx, n)
+		if err != nil {
+			return d, fmt.Errorf("annotator %q: %w", n, err)
+		}
+		if _, dup := pos[a.ID]; dup {
+			return d, fmt.Errorf("annotator %q is named twice", n)
+		}
+		pos[a.ID] = i
+		ids = append(ids, a.ID)
+		d.Annotators = append(d.Annotators, a)
+	}
+	cs, err := st.Classes(ctx)
+	if err != nil {
+		return d, err
+	}
+	d.classes, d.className = cs, map[int64]string{}
+	for _, c := range cs {
+		d.className[c.ID] = c.Name
+	}
+	ims, err := st.Images(ctx)
+	if err != nil {
+		return d, err
+	}
+	names2 := map[int64]string{}
+	for _, im := range ims {
+		names2[im.ID] = filepath.ToSlash(im.Path)
+	}
+	ibs, err := st.BoxesByImage(ctx, ids)
+	if err != nil {
+		return d, err
+	}
+	d.Images = make([]agree.ImageLabels, len(ibs))
+	for i, ib := range ibs {
+		im := agree.ImageLabels{ImageID: ib.ImageID, Name: names2[ib.ImageID], By: make([]agree.Labels, len(names))}
+		for _, b := range ib.Boxes {
+			l := &im.By[pos[b.AnnotatorID]]
+			l.Boxes = append(l.Boxes, b.Box)
+			l.Classes = append(l.Classes, b.ClassID)
+		}
+		d.Images[i] = im
+	}
+	return d, ctx.Err()
+}
+
+func (d AgreementData) ClassOrder() []int64 {
+	var out []int64
+	for _, c := range d.classes {
+		out = append(out, c.ID)
+	}
+	return out
+}
+
+func (d AgreementData) Name(class int64) string {
+	if n, ok := d.className[class]; ok {
+		return n
+	}
+	return fmt.Sprintf("class %d", class)
+}
+
+func (d AgreementData) Names(classes []int64) []string {
+	out := make([]string, len(classes))
+	for i, c := range classes {
+		out[i] = d.Name(c)
+	}
+	return out
+}
+
+// consensusLabels derives the consensus of the loaded annotators: per
+// image, objects seen by at least minSupport of them.
+func consensusLabels(d AgreementData, threshold float64, minSupport int, median bool) ([]project.Label, int) {
+	n := len(d.Annotators)
+	var out []project.Label
+	ties := 0
+	var who []string
+	for _, a := range d.Annotators {
+		who = append(who, a.Name)
+	}
+	support := minSupport
+	if support <= 0 {
+		support = n/2 + 1
+	}
+	how := "mean"
+	if median {
+		how = "median"
+	}
+	source := fmt.Sprintf("consensus of %s (IoU ≥ %.2f, seen by ≥ %d, %s box)", strings.Join(who, ", "), threshold, support, how)
+	for _, im := range d.Images {
+		boxes := make([][]project.Box, n)
+		classes := make([][]int64, n)
+		for i := 0; i < n; i++ {
+			l := im.By[i]
+			boxes[i], classes[i] = l.Boxes, l.Classes
+		}
+		objs := agree.GroupObjects(boxes, classes, threshold, false)
+		for _, c := range agree.Consensus(objs, boxes, classes, n, minSupport, median) {
+			src := source
+			if c.Tie {
+				ties++
+				src += "; class vote tied: review"
+			}
+			out = append(out, project.Label{ImageID: im.ImageID, ClassID: c.Class, Box: c.Box, Origin: project.OriginImported,
+				Source: src, Score: float64(c.Support) / float64(n)})
+		}
+	}
+	return out, ties
+}
+
+// storeConsensus recomputes the consensus annotator's labels.
+func StoreConsensus(ctx context.Context, st backend.Project, names []string, iou float64, minSupport int, median bool) (int, int, error) {
+	d, err := LoadAgreement(ctx, st, names)
+	if err != nil {
+		return 0, 0, err
+	}
+	labels, ties := consensusLabels(d, iou, minSupport, median)
+	a, err := st.EnsureAnnotator(ctx, ConsensusName)
+	if err != nil {
+		return 0, 0, err
+	}
+	if err := st.ReplaceAnnotatorLabels(ctx, a.ID, labels); err != nil {
+		return 0, 0, fmt.Errorf("store the consensus: %w", err)
+	}
+	return len(labels), ties, nil
+}
+
+var errNoAnnotators = errors.New("give the annotators to compare: --annotators A,B[,C…]")

@@ -1,0 +1,280 @@
+package ops
+
+import (
+	"bytes"
+	"errors"
+	"fmt"
+	"image"
+	"image/color"
+	"image/png"
+	"math"
+	"os"
+	"strconv"
+
+	"gonum.org/v1/plot"
+	"gonum.org/v1/plot/palette"
+	"gonum.org/v1/plot/plotter"
+	"gonum.org/v1/plot/vg"
+	"gonum.org/v1/plot/vg/draw"
+	"gonum.org/v1/plot/vg/vgimg"
+)
+
+// chartDPI is the resolution charts are rendered at, so that w×h pixels on
+// screen and in a saved PNG are the same picture.
+const chartDPI = 96
+
+// The heat-map ramp: one hue, light to dark, so that order is readable
+// without telling colours apart (and in greyscale print).
+var (
+	rampLight = color.RGBA{0xf7, 0xfb, 0xff, 0xff}
+	rampDark  = color.RGBA{0x08, 0x30, 0x6b, 0xff}
+)
+
+// blueRamp is a palette.Palette of n colours from rampLight to rampDark.
+type blueRamp struct{ n int }
+
+// Colors implements palette.Palette.
+func (r blueRamp) Colors() []color.Color {
+	n := max(r.n, 2)
+	cs := make([]color.Color, n)
+	for i := range cs {
+		cs[i] = rampColor(float64(i) / float64(n-1))
+	}
+	return cs
+}
+
+var _ palette.Palette = blueRamp{}
+
+// rampColor returns the ramp colour at t in [0,1] (0 lightest, 1 darkest);
+// t outside the range is clamped.
+func rampColor(t float64) color.RGBA {
+	if math.IsNaN(t) || t < 0 {
+		t = 0
+	}
+	t = min(t, 1)
+	mix := func(a, b uint8) uint8 {
+		return uint8(math.Round(float64(a) + t*(float64(b)-float64(a))))
+	}
+	return color.RGBA{mix(rampLight.R, rampDark.R), mix(rampLight.G, rampDark.G), mix(rampLight.B, rampDark.B), 0xff}
+}
+
+// relativeLuminance is the WCAG 2 relative luminance of c, 0 (black) to 1 (white).
+func relativeLuminance(c color.Color) float64 {
+	r, g, b, _ := c.RGBA()
+	lin := func(v uint32) float64 {
+		s := float64(v) / 0xffff
+		if s <= 0.04045 {
+			return s / 12.92
+		}
+		return math.Pow((s+0.055)/1.055, 2.4)
+	}
+	return 0.2126*lin(r) + 0.7152*lin(g) + 0.0722*lin(b)
+}
+
+// cellTextColor picks the text colour with the better contrast on bg.
+// 0.179 is where black and white text have equal WCAG 2 contrast (derived:
+// (L+0.05)/0.05 = 1.05/(L+0.05)).
+func cellTextColor(bg color.Color) color.Color {
+	if relativeLuminance(bg) > 0.179 {
+		return color.Black
+	}
+	return color.White
+}
+
+// matrixGrid adapts a counts matrix to plotter.GridXYZ with row 0 drawn at
+// the top: grid row r (counted from the bottom) is matrix row n-1-r.
+type matrixGrid struct{ counts [][]float64 }
+
+func (g matrixGrid) Dims() (c, r int)   { return len(g.counts[0]), len(g.counts) }
+func (g matrixGrid) X(c int) float64    { return float64(c) }
+func (g matrixGrid) Y(r int) float64    { return float64(r) }
+func (g matrixGrid) Z(c, r int) float64 { return g.counts[len(g.counts)-1-r][c] }
+
+// formatCount writes whole numbers without decimals and fractions (a
+// normalised matrix) with two.
+func formatCount(v float64) string {
+	if v == math.Trunc(v) && math.Abs(v) < 1e15 {
+		return strconv.FormatFloat(v, 'f', 0, 64)
+	}
+	return strconv.FormatFloat(v, 'f', 2, 64)
+}
+
+// confusionPlot draws a confusion matrix as a heat map with the count
+// written in each cell, rowNames down the y axis (first row at the top) and
+// colNames along the x axis. counts must have len(rowNames) rows of
+// len(colNames) finite, non-negative values.
+func ConfusionPlot(title, rowLabel, colLabel string, rowNames, colNames []string, counts [][]float64) (*plot.Plot, error) {
+	if len(rowNames) == 0 || len(colNames) == 0 {
+		return nil, errors.New("confusion matrix: no rows or no columns")
+	}
+	if len(counts) != len(rowNames) {
+		return nil, fmt.Errorf("confusion matrix: %d rows of counts for %d row names", len(counts), len(rowNames))
+	}
+	hi := 0.0
+	for i, row := range counts {
+		if len(row) != len(colNames) {
+			return nil, fmt.Errorf("confusion matrix: row %d (%s) has %d counts for %d columns", i, rowNames[i], len(row), len(colNames))
+		}
+		for j, v := range row {
+			if math.IsNaN(v) || math.IsInf(v, 0) || v < 0 {
+				return nil, fmt.Errorf("confusion matrix: count at row %s, column %s is %v", rowNames[i], colNames[j], v)
+			}
+			hi = max(hi, v)
+		}
+	}
+
+	p := plot.New()
+	p.Title.Text = title
+	p.Y.Label.Text = rowLabel
+	p.X.Label.Text = colLabel
+
+	grid := matrixGrid{counts}
+	hm := plotter.NewHeatMap(grid, blueRamp{256})
+	hm.Min = 0
+	// An all-zero matrix would make the palette scale infinite; any positive
+	// Max keeps every cell at the light end.
+	hm.Max = max(hi, 1)
+	p.Add(hm)
+
+	n := len(rowNames)
+	var pts plotter.XYs
+	var labels []string
+	for i, row := range counts {
+		for j, v := range row {
+			pts = append(pts, plotter.XY{X: float64(j), Y: float64(n - 1 - i)})
+			labels = append(labels, formatCount(v))
+		}
+	}
+	cells, err := plotter.NewLabels(plotter.XYLabels{XYs: pts, Labels: labels})
+	if err != nil {
+		return nil, fmt.Errorf("confusion matrix: cell labels: %w", err)
+	}
+	k := 0
+	for _, row := range counts {
+		for _, v := range row {
+			st := &cells.TextStyle[k]
+			st.XAlign = draw.XCenter
+			st.YAlign = draw.YCenter
+			st.Color = cellTextColor(rampColor(v / hm.Max))
+			k++
+		}
+	}
+	p.Add(cells)
+
+	yt := make(plot.ConstantTicks, n)
+	for i, name := range rowNames {
+		yt[i] = plot.Tick{Value: float64(n - 1 - i), Label: name}
+	}
+	xt := make(plot.ConstantTicks, len(colNames))
+	long := false
+	for j, name := range colNames {
+		xt[j] = plot.Tick{Value: float64(j), Label: name}
+		long = long || len([]rune(name)) > 6
+	}
+	p.Y.Tick.Marker = yt
+	p.X.Tick.Marker = xt
+	if long {
+		// Slanted names overlap less when there are many classes.
+		p.X.Tick.Label.Rotation = math.Pi / 4
+		p.X.Tick.Label.XAlign = draw.XRight
+		p.X.Tick.Label.YAlign = draw.YCenter
+	}
+	p.X.Min, p.X.Max = -0.5, float64(len(colNames))-0.5
+	p.Y.Min, p.Y.Max = -0.5, float64(n)-0.5
+	return p, nil
+}
+
+// iouHistogramPlot draws the IoU histogram of matched pairs: bins[i] counts
+// pairs with IoU in [i/n, (i+1)/n). A dashed vertical line marks threshold.
+func IoUHistogramPlot(title string, bins []int, threshold float64) (*plot.Plot, error) {
+	if len(bins) == 0 {
+		return nil, errors.New("IoU histogram: no bins")
+	}
+	if math.IsNaN(threshold) || threshold < 0 || threshold > 1 {
+		return nil, fmt.Errorf("IoU histogram: threshold %v is outside 0..1", threshold)
+	}
+	w := 1 / float64(len(bins))
+	hb := make([]plotter.HistogramBin, len(bins))
+	top := 0
+	for i, c := range bins {
+		if c < 0 {
+			return nil, fmt.Errorf("IoU histogram: bin %d has a negative count %d", i, c)
+		}
+		hb[i] = plotter.HistogramBin{Min: float64(i) * w, Max: float64(i+1) * w, Weight: float64(c)}
+		top = max(top, c)
+	}
+
+	p := plot.New()
+	p.Title.Text = title
+	p.X.Label.Text = "IoU"
+	p.Y.Label.Text = "pairs"
+
+	h := &plotter.Histogram{Bins: hb, Width: w, FillColor: rampColor(0.6), LineStyle: plotter.DefaultLineStyle}
+	h.LineStyle.Color = rampDark
+	p.Add(h)
+
+	// Headroom above the tallest bar for the threshold's label.
+	yMax := float64(max(top, 1)) * 1.12
+	line, err := plotter.NewLine(plotter.XYs{{X: threshold, Y: 0}, {X: threshold, Y: yMax}})
+	if err != nil {
+		return nil, fmt.Errorf("IoU histogram: threshold line: %w", err)
+	}
+	line.Color = color.RGBA{0x20, 0x20, 0x20, 0xff}
+	line.Width = vg.Points(1.5)
+	line.Dashes = []vg.Length{vg.Points(5), vg.Points(3)}
+	p.Add(line)
+
+	lbl, err := plotter.NewLabels(plotter.XYLabels{
+		XYs:    plotter.XYs{{X: threshold, Y: yMax}},
+		Labels: []string{"threshold " + strconv.FormatFloat(threshold, 'f', -1, 64)},
+	})
+	if err != nil {
+		return nil, fmt.Errorf("IoU histogram: threshold label: %w", err)
+	}
+	lbl.TextStyle[0].YAlign = draw.YTop
+	if threshold > 0.7 {
+		// Keep the label inside the plot near the right edge.
+		lbl.TextStyle[0].XAlign = draw.XRight
+		lbl.Offset = vg.Point{X: -vg.Points(3)}
+	} else {
+		lbl.Offset = vg.Point{X: vg.Points(3)}
+	}
+	p.Add(lbl)
+
+	p.X.Min, p.X.Max = 0, 1
+	p.Y.Min, p.Y.Max = 0, yMax
+	return p, nil
+}
+
+// plotImage renders p to a w×h pixel image at chartDPI.
+func PlotImage(p *plot.Plot, w, h int) (image.Image, error) {
+	if p == nil {
+		return nil, errors.New("render chart: no plot")
+	}
+	if w <= 0 || h <= 0 {
+		return nil, fmt.Errorf("render chart: size %d×%d is not positive", w, h)
+	}
+	// Handing vgimg the image fixes the pixel size exactly; from a length in
+	// inches it would round.
+	img := image.NewRGBA(image.Rect(0, 0, w, h))
+	c := vgimg.NewWith(vgimg.UseImage(img), vgimg.UseDPI(chartDPI))
+	p.Draw(draw.New(c))
+	return c.Image(), nil
+}
+
+// savePlotPNG writes p to path as a w×h pixel PNG.
+func SavePlotPNG(p *plot.Plot, w, h int, path string) error {
+	img, err := PlotImage(p, w, h)
+	if err != nil {
+		return fmt.Errorf("save chart %s: %w", path, err)
+	}
+	var buf bytes.Buffer
+	if err := png.Encode(&buf, img); err != nil {
+		return fmt.Errorf("save chart %s: %w", path, err)
+	}
+	// Encode before touching the file so an encoding failure leaves none.
+	if err := os.WriteFile(path, buf.Bytes(), 0o644); err != nil {
+		return fmt.Errorf("save chart %s: %w", path, err)
+	}
+	return nil
+}

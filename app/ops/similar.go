@@ -1,0 +1,38 @@
+package ops
+
+import (
+	"context"
+	"image"
+
+	"boxwright/app/backend"
+	"boxwright/project"
+	"boxwright/store/imagefile"
+	"boxwright/suggest"
+	"boxwright/suggest/exemplar"
+)
+
+// decodeProjectImage decodes an image of the project as displayed.
+func DecodeProjectImage(st backend.Project, im project.Image) (image.Image, error) {
+	img, _, err := imagefile.Decode(st.ImagePath(im), imagefile.DefaultMaxPixels)
+	return img, err
+}
+
+// storeExemplarMatches replaces the exemplar's pending suggestions on the
+// searched images by the matches.
+func StoreExemplarMatches(ctx context.Context, st backend.Project, classID int64, byImage map[int64][]exemplar.Match) error {
+	var ids []int64
+	var gs []project.Suggestion
+	for id, ms := range byImage {
+		ids = append(ids, id)
+		for _, m := range ms {
+			gs = append(gs, project.Suggestion{ImageID: id, ClassID: classID, Box: m.Box, Score: ClampScore(m.Score), Source: exemplar.Source, State: project.SuggestionPending})
+		}
+	}
+	_, err := st.ReplaceSuggestionsOn(ctx, exemplar.Source, ids, gs)
+	return err
+}
+
+// clampScore keeps a correlation in the 0..1 a suggestion score takes.
+func ClampScore(v float64) float64 { return max(0, min(1, v)) }
+
+var _ suggest.Suggester = (*exemplar.Matcher)(nil)

@@ -1,0 +1,241 @@
+package ops
+
+import (
+	"context"
+	"fmt"
+	"math"
+	"path/filepath"
+	"sort"
+	"strings"
+
+	"boxwright/app/backend"
+	"boxwright/project"
+	"boxwright/suggest"
+)
+
+// Rules for classes a prediction file names that the project lacks.
+type UnknownClassRule struct {
+	Map    map[string]string // file's name → project class name
+	Create bool              // create every unknown class
+	Drop   bool              // drop the boxes of every unknown class
+	// Per-name choices, as the import dialog asks them.
+	CreateNames, DropNames map[string]bool
+}
+
+func (r UnknownClassRule) creates(name string) bool { return r.Create || r.CreateNames[name] }
+func (r UnknownClassRule) drops(name string) bool   { return r.Drop || r.DropNames[name] }
+
+// suggestionJob is one import of a prediction file.
+type SuggestionJob struct {
+	Source, Path, ClassesFile string
+	Layout                    suggest.Layout
+	Filter                    suggest.Filter
+	Unknown                   UnknownClassRule
+	// probe, when set, receives the unknown class names and stops the
+	// import before anything is stored (the dialog asks about them).
+	Probe func(map[string]int)
+}
+
+// suggestionResult is what an import did.
+type SuggestionResult struct {
+	project.SuggestionImportReport
+	Read           int      `json:"read"`
+	BelowScore     int      `json:"below_min_score"`
+	Suppressed     int      `json:"suppressed_by_nms"`
+	Dropped        int      `json:"dropped_unknown_class"`
+	Clipped        int      `json:"clipped_to_image"`
+	ClassesCreated []string `json:"classes_created"`
+}
+
+// unknownClasses lists the class names proposals use that the project
+// lacks, with how many proposals use each.
+func unknownClasses(ps []suggest.Proposal) map[string]int {
+	out := map[string]int{}
+	for _, p := range ps {
+		if p.ClassID == 0 {
+			out[p.ClassName]++
+		}
+	}
+	return out
+}
+
+// runSuggestionImport reads, filters and stores a prediction file: all or
+// nothing, and an unknown class without a rule for it stops the import.
+func RunSuggestionImport(ctx context.Context, st backend.Project, j SuggestionJob, progress func(done, total int)) (SuggestionResult, error) {
+	var res SuggestionResult
+	if strings.TrimSpace(j.Source) == "" {
+		return res, fmt.Errorf("give the suggestions a source name (for example the model's name and version)")
+	}
+	ims, err := st.Images(ctx)
+	if err != nil {
+		return res, err
+	}
+	classes, err := st.Classes(ctx)
+	if err != nil {
+		return res, err
+	}
+	sizes := map[string][2]int{}
+	for _, im := range ims {
+		sizes[filepath.Base(im.Path)] = [2]int{im.Width, im.Height}
+		sizes[filepath.ToSlash(im.Path)] = [2]int{im.Width, im.Height}
+	}
+	src := &suggest.FileSource{Source: j.Source, Layout: j.Layout, Path: j.Path, ClassesFile: j.ClassesFile,
+		ImageSize: func(name string) (int, int, bool) {
+			s, ok := sizes[filepath.ToSlash(name)]
+			if !ok {
+				s, ok = sizes[filepath.Base(name)]
+			}
+			return s[0], s[1], ok
+		}}
+	ps, err := src.Suggest(ctx, ims, classes, progress)
+	if err != nil {
+		return res, err
+	}
+	res.Read, res.Clipped = len(ps), src.Clipped()
+	if j.Probe != nil {
+		j.Probe(unknownClasses(ps))
+		return res, nil
+	}
+	byName := map[string]int64{}
+	for _, c := range classes {
+		byName[c.Name] = c.ID
+	}
+	// Unknown classes: map, then create or drop, else stop.
+	unknown := unknownClasses(ps)
+	var missing []string
+	for name, n := range unknown {
+		if to, ok := j.Unknown.Map[name]; ok {
+			if _, known := byName[to]; !known && !j.Unknown.creates(to) {
+				return res, fmt.Errorf("--map %s=%s: the project has no class %q (add it, or use --create-classes)", name, to, to)
+			}
+			continue
+		}
+		if !j.Unknown.creates(name) && !j.Unknown.drops(name) {
+			missing = append(missing, fmt.Sprintf("%q (%d boxes)", name, n))
+		}
+	}
+	if len(missing) > 0 {
+		sort.Strings(missing)
+		return res, fmt.Errorf("the file names classes the project does not have: %s; map them (--map NAME=CLASS), create them (--create-classes) or drop their boxes (--drop-unknown); nothing was imported", strings.Join(missing, ", "))
+	}
+	kept := ps[:0:0]
+	var toCreate []string
+	for _, p := range ps {
+		if p.ClassID == 0 {
+			name := p.ClassName
+			if to, ok := j.Unknown.Map[name]; ok {
+				name = to
+			}
+			if id, ok := byName[name]; ok {
+				p.ClassID = id
+			} else if j.Unknown.creates(name) {
+				// A stand-in ID until the class is created, once the file has
+				// passed every check; NMS still keeps classes apart.
+				toCreate = append(toCreate, name)
+				byName[name] = -int64(len(toCreate))
+				p.ClassID = byName[name]
+			} else {
+				res.Dropped++
+				continue
+			}
+		}
+		kept = append(kept, p)
+	}
+	kept, res.BelowScore, res.Suppressed = j.Filter.Apply(kept)
+	created := map[int64]int64{}
+	for i, name := range toCreate {
+		c, err := st.AddClass(ctx, project.Class{Name: name})
+		if err != nil {
+			return res, fmt.Errorf("create class %q: %w", name, err)
+		}
+		created[-int64(i+1)] = c.ID
+		res.ClassesCreated = append(res.ClassesCreated, name)
+	}
+	gs := make([]project.Suggestion, 0, len(kept))
+	for _, p := range kept {
+		id := p.ClassID
+		if id < 0 {
+			id = created[id]
+		}
+		gs = append(gs, project.Suggestion{ImageID: p.ImageID, ClassID: id, Box: p.Box, Score: p.Score, Source: j.Source, State: project.SuggestionPending})
+	}
+	rep, err := st.ImportSuggestions(ctx, j.Source, gs)
+	if err != nil {
+		return res, err
+	}
+	res.SuggestionImportReport = rep
+	return res, nil
+}
+
+func LayoutFromPath(p string) suggest.Layout {
+	switch strings.ToLower(filepath.Ext(p)) {
+	case ".json":
+		return "json"
+	case ".csv":
+		return "csv"
+	}
+	return "txt"
+}
+
+// reviewStats is what "suggestions stats" reports for one source.
+type ReviewStats struct {
+	Source      string           `json:"source"`
+	Classes     []map[string]any `json:"classes"`
+	Bins        []map[string]any `json:"reliability"`
+	Threshold   map[string]any   `json:"suggested_threshold"`
+	Summary     []suggest.SourceClassStats
+	Reliability []suggest.Bin
+	Suggested   suggest.Threshold
+}
+
+// reliabilityBins is the number of score bins of the reliability chart.
+const reliabilityBins = 10
+
+// keepRate is the share of kept suggestions the threshold promises.
+const KeepRate = 0.95
+
+func CollectReviewStats(ctx context.Context, st backend.Project, source string) ([]ReviewStats, map[int64]string, error) {
+	rows, err := st.ReviewRows(ctx, source)
+	if err != nil {
+		return nil, nil, err
+	}
+	cs, err := st.Classes(ctx)
+	if err != nil {
+		return nil, nil, err
+	}
+	names := map[int64]string{}
+	for _, c := range cs {
+		names[c.ID] = c.Name
+	}
+	bySource := map[string][]suggest.Decision{}
+	var order []string
+	for _, r := range rows {
+		if _, ok := bySource[r.Source]; !ok {
+			order = append(order, r.Source)
+		}
+		iou := math.NaN()
+		if r.State == project.SuggestionAccepted || r.State == project.SuggestionCorrected {
+			iou = r.FinalIoU
+		}
+		bySource[r.Source] = append(bySource[r.Source], suggest.Decision{Source: r.Source, ClassID: r.ClassID, Score: r.Score, State: r.State, IoU: iou})
+	}
+	sort.Strings(order)
+	var out []ReviewStats
+	for _, src := range order {
+		ds := bySource[src]
+		rs := ReviewStats{Source: src, Summary: suggest.Summarise(ds), Reliability: suggest.Reliability(ds, reliabilityBins), Suggested: suggest.SuggestThreshold(ds, KeepRate)}
+		for _, c := range rs.Summary {
+			rs.Classes = append(rs.Classes, map[string]any{"class": names[c.ClassID], "in": c.In, "accepted": c.Accepted, "corrected": c.Corrected,
+				"rejected": c.Rejected, "pending": c.Pending, "mean_corrected_iou": Num(c.MeanCorrectedIoU)})
+		}
+		for _, b := range rs.Reliability {
+			rs.Bins = append(rs.Bins, map[string]any{"from": b.Lo, "to": b.Hi, "decided": b.Decided, "kept": b.Kept, "kept_rate": Num(b.Rate)})
+		}
+		rs.Threshold = map[string]any{"score": nil, "kept_rate": nil, "decisions": rs.Suggested.N, "target": KeepRate}
+		if rs.Suggested.OK {
+			rs.Threshold["score"], rs.Threshold["kept_rate"] = rs.Suggested.Score, rs.Suggested.Rate
+		}
+		out = append(out, rs)
+	}
+	return out, names, nil
+}
