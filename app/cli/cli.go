@@ -1,3 +1,10 @@
+// Package cli is Boxwright's command line. Run dispatches through the one
+// table in commands; each family of commands has its own file (project.go:
+// new, open, add-images, relink, classes, info, images; dataset.go: import,
+// export; suggestions.go; similar.go; eval.go; agree.go: agree, consensus;
+// kappa.go; demo.go). A command parses its flags with parse, does its work
+// through package ops, and prints text or JSON; the window is handed in by
+// main, so this package needs no GUI toolkit.
 package cli
 
 import (

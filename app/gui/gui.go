@@ -1,3 +1,9 @@
+// Package gui is Boxwright's window: the ui type (gui.go: the window,
+// menus, opening projects, background jobs) and one file per screen or
+// widget (labelling.go, navigator.go, classbar.go, classrow.go,
+// suggestions_view.go, review_queue.go, crop_grid.go, agree_screen.go,
+// eval_screen.go, similar.go, dataset.go, suggestions.go, sorttable.go).
+// Work that is not about the screen goes through package ops.
 package gui
 
 import (

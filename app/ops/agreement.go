@@ -12,10 +12,10 @@ import (
 	"boxwright/project/agree"
 )
 
-// consensusName is the derived annotator that holds the consensus.
+// ConsensusName is the derived annotator that holds the consensus.
 const ConsensusName = "consensus"
 
-// agreementData is what a comparison reads from a project.
+// AgreementData is what a comparison reads from a project.
 type AgreementData struct {
 	Annotators []project.Annotator
 	classes    []project.Class
@@ -23,7 +23,7 @@ type AgreementData struct {
 	Images     []agree.ImageLabels
 }
 
-// loadAgreement reads the boxes of the named annotators, grouped by image.
+// LoadAgreement reads the boxes of the named annotators, grouped by image.
 func LoadAgreement(ctx context.Context, st backend.Project, names []string) (AgreementData, error) {
 	var d AgreementData
 	if len(names) < 2 {
@@ -76,6 +76,7 @@ func LoadAgreement(ctx context.Context, st backend.Project, names []string) (Agr
 	return d, ctx.Err()
 }
 
+// ClassOrder is the project's class IDs in display order.
 func (d AgreementData) ClassOrder() []int64 {
 	var out []int64
 	for _, c := range d.classes {
@@ -84,6 +85,7 @@ func (d AgreementData) ClassOrder() []int64 {
 	return out
 }
 
+// Name is a class's name, or "class N" for one the project no longer has.
 func (d AgreementData) Name(class int64) string {
 	if n, ok := d.className[class]; ok {
 		return n
@@ -91,6 +93,7 @@ func (d AgreementData) Name(class int64) string {
 	return fmt.Sprintf("class %d", class)
 }
 
+// Names are the names of classes, in the order given.
 func (d AgreementData) Names(classes []int64) []string {
 	out := make([]string, len(classes))
 	for i, c := range classes {
@@ -139,7 +142,7 @@ func consensusLabels(d AgreementData, threshold float64, minSupport int, median 
 	return out, ties
 }
 
-// storeConsensus recomputes the consensus annotator's labels.
+// StoreConsensus recomputes the consensus annotator's labels.
 func StoreConsensus(ctx context.Context, st backend.Project, names []string, iou float64, minSupport int, median bool) (int, int, error) {
 	d, err := LoadAgreement(ctx, st, names)
 	if err != nil {

@@ -99,7 +99,7 @@ func formatCount(v float64) string {
 	return strconv.FormatFloat(v, 'f', 2, 64)
 }
 
-// confusionPlot draws a confusion matrix as a heat map with the count
+// ConfusionPlot draws a confusion matrix as a heat map with the count
 // written in each cell, rowNames down the y axis (first row at the top) and
 // colNames along the x axis. counts must have len(rowNames) rows of
 // len(colNames) finite, non-negative values.
@@ -184,7 +184,7 @@ func ConfusionPlot(title, rowLabel, colLabel string, rowNames, colNames []string
 	return p, nil
 }
 
-// iouHistogramPlot draws the IoU histogram of matched pairs: bins[i] counts
+// IoUHistogramPlot draws the IoU histogram of matched pairs: bins[i] counts
 // pairs with IoU in [i/n, (i+1)/n). A dashed vertical line marks threshold.
 func IoUHistogramPlot(title string, bins []int, threshold float64) (*plot.Plot, error) {
 	if len(bins) == 0 {
@@ -246,7 +246,7 @@ func IoUHistogramPlot(title string, bins []int, threshold float64) (*plot.Plot, 
 	return p, nil
 }
 
-// plotImage renders p to a w×h pixel image at chartDPI.
+// PlotImage renders p to a w×h pixel image at chartDPI.
 func PlotImage(p *plot.Plot, w, h int) (image.Image, error) {
 	if p == nil {
 		return nil, errors.New("render chart: no plot")
@@ -262,7 +262,7 @@ func PlotImage(p *plot.Plot, w, h int) (image.Image, error) {
 	return c.Image(), nil
 }
 
-// savePlotPNG writes p to path as a w×h pixel PNG.
+// SavePlotPNG writes p to path as a w×h pixel PNG.
 func SavePlotPNG(p *plot.Plot, w, h int, path string) error {
 	img, err := PlotImage(p, w, h)
 	if err != nil {

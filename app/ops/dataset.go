@@ -13,7 +13,7 @@ import (
 	"boxwright/project/formats"
 )
 
-// importResult is what "boxwright import --json" prints.
+// ImportResult is what "boxwright import --json" prints.
 type ImportResult struct {
 	project.ImportReport
 	ImagesAdded *project.IntakeReport `json:"images_added,omitempty"`
@@ -71,7 +71,7 @@ func findClassNames(src string) string {
 	return filepath.Join(dir, "classes.txt")
 }
 
-// importJob is one import, from the command line or the window.
+// ImportJob is one import, from the command line or the window.
 type ImportJob struct {
 	Layout                      formats.Layout
 	Src, ClassesFile, ImagesDir string
@@ -80,7 +80,7 @@ type ImportJob struct {
 	ClassMap                    map[string]string // file class name → project class name
 }
 
-// runImport adds the images folder (if any), reads the labels and imports
+// RunImport adds the images folder (if any), reads the labels and imports
 // them in one transaction.
 func RunImport(ctx context.Context, s backend.Project, j ImportJob) (ImportResult, error) {
 	var res ImportResult
@@ -105,7 +105,7 @@ func RunImport(ctx context.Context, s backend.Project, j ImportJob) (ImportResul
 	return res, nil
 }
 
-// runExport writes one annotator's labels as a split dataset under out.
+// RunExport writes one annotator's labels as a split dataset under out.
 func RunExport(ctx context.Context, s backend.Project, annotator, out string, opts formats.ExportOptions) (formats.ExportReport, []string, error) {
 	a, err := s.AnnotatorByName(ctx, annotator)
 	if err != nil {
@@ -122,6 +122,8 @@ func RunExport(ctx context.Context, s backend.Project, annotator, out string, op
 	return rep, classes, err
 }
 
+// PrintExportReport writes the counts of an export per split and class as
+// a table.
 func PrintExportReport(w io.Writer, rep formats.ExportReport, classes []string) {
 	tw := tabwriter.NewWriter(w, 0, 4, 2, ' ', tabwriter.AlignRight)
 	fmt.Fprint(tw, "split\timages\tboxes\t")

@@ -12,13 +12,13 @@ import (
 	"boxwright/project"
 )
 
-// demoProjectName is the project file that "boxwright demo DIR" writes.
+// DemoProjectName is the project file that "boxwright demo DIR" writes.
 const DemoProjectName = "harbour" + backend.Extension
 
-// demoDefaults is the scenario the window's demo button makes.
+// DemoDefaults is the scenario the window's demo button makes.
 var DemoDefaults = demo.Config{Seed: 1}
 
-// makeDemo writes the scenario's images under dir/images and a project
+// MakeDemo writes the scenario's images under dir/images and a project
 // dir/harbour.boxw holding them, both annotators' labels and the pending
 // suggestions. A failure removes the half-made project file.
 func MakeDemo(ctx context.Context, dir string, cfg demo.Config, progress func(done, total int)) (err error) {

@@ -12,7 +12,7 @@ import (
 	"boxwright/suggest"
 )
 
-// evalData is what an evaluation reads from a project.
+// EvalData is what an evaluation reads from a project.
 type EvalData struct {
 	TruthName  string
 	Source     string
@@ -25,7 +25,7 @@ type EvalData struct {
 	SkippedOff int // predictions on images the ground truth does not cover
 }
 
-// evalJob says what to score against what.
+// EvalJob says what to score against what.
 type EvalJob struct {
 	Truth       string
 	Source      string // suggestions of this source, or
@@ -33,7 +33,7 @@ type EvalJob struct {
 	Layout      suggest.Layout
 }
 
-// loadEval reads the ground truth and the predictions. Only images the
+// LoadEval reads the ground truth and the predictions. Only images the
 // ground-truth annotator covered count: those with their labels, or marked
 // done or reviewed (checked and empty); predictions elsewhere are left out
 // and counted, since nobody said what is there.
@@ -113,6 +113,7 @@ func LoadEval(ctx context.Context, st backend.Project, j EvalJob) (EvalData, err
 	return d, nil
 }
 
+// ClassIDs is the project's class IDs in display order.
 func (d EvalData) ClassIDs() []int64 {
 	out := make([]int64, len(d.classes))
 	for i, c := range d.classes {
@@ -121,7 +122,7 @@ func (d EvalData) ClassIDs() []int64 {
 	return out
 }
 
-// evalOptions checks and fills the scoring options.
+// EvalOptions checks and fills the scoring options.
 func EvalOptions(protocol string, iou float64, interp string, plusOne bool, threshold float64) (eval.Options, error) {
 	var opt eval.Options
 	p, err := eval.ParseProtocol(protocol)
@@ -144,6 +145,7 @@ func EvalOptions(protocol string, iou float64, interp string, plusOne bool, thre
 	return opt, nil
 }
 
+// InterpName is the name reports give an interpolation.
 func InterpName(i eval.Interpolation) string {
 	switch i {
 	case eval.ElevenPoint:
@@ -156,6 +158,7 @@ func InterpName(i eval.Interpolation) string {
 	return "all-point"
 }
 
+// ProtocolName is the name reports give a matching protocol.
 func ProtocolName(p eval.Protocol) string {
 	if p == eval.COCO {
 		return "COCO-style"

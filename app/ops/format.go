@@ -8,6 +8,7 @@ import (
 	"boxwright/project/agree"
 )
 
+// Plural is "1 word" or "n words".
 func Plural(n int, word string) string {
 	if n == 1 {
 		return "1 " + word
@@ -15,6 +16,7 @@ func Plural(n int, word string) string {
 	return fmt.Sprintf("%d %ss", n, word)
 }
 
+// CSVNum is a figure for a CSV cell: empty when undefined.
 func CSVNum(x float64) string {
 	if math.IsNaN(x) || math.IsInf(x, 0) {
 		return ""
@@ -22,7 +24,7 @@ func CSVNum(x float64) string {
 	return strconv.FormatFloat(x, 'g', 10, 64)
 }
 
-// num is a figure for JSON: null when undefined.
+// Num is a figure for JSON: null when undefined.
 func Num(x float64) any {
 	if math.IsNaN(x) || math.IsInf(x, 0) {
 		return nil
@@ -30,6 +32,7 @@ func Num(x float64) any {
 	return x
 }
 
+// Interval is a confidence interval for JSON: null when undefined.
 func Interval(ci [2]float64) any {
 	if math.IsNaN(ci[0]) || math.IsNaN(ci[1]) {
 		return nil
@@ -37,7 +40,7 @@ func Interval(ci [2]float64) any {
 	return []float64{ci[0], ci[1]}
 }
 
-// fmtKappa is a kappa with its verbal band, never the band alone.
+// FormatKappa is a kappa with its verbal band, never the band alone.
 func FormatKappa(k agree.Kappa) string {
 	if math.IsNaN(k.Kappa) {
 		return "undefined"
@@ -45,6 +48,7 @@ func FormatKappa(k agree.Kappa) string {
 	return fmt.Sprintf("%.4f (%s, Landis & Koch 1977)", k.Kappa, agree.Band(k.Kappa))
 }
 
+// F4 is a figure with four decimals for people: a dash when undefined.
 func F4(x float64) string {
 	if math.IsNaN(x) {
 		return "—"
@@ -52,6 +56,7 @@ func F4(x float64) string {
 	return fmt.Sprintf("%.4f", x)
 }
 
+// Pct is a share as a percentage with one decimal: a dash when undefined.
 func Pct(x float64) string {
 	if math.IsNaN(x) {
 		return "—"
@@ -59,6 +64,7 @@ func Pct(x float64) string {
 	return fmt.Sprintf("%.1f %%", 100*x)
 }
 
+// CI is a confidence interval for people: a dash when undefined.
 func CI(c [2]float64) string {
 	if math.IsNaN(c[0]) {
 		return "—"

@@ -13,7 +13,7 @@ import (
 // at least 200).
 const historyLimit = 1000
 
-// session is one person's labelling on the open project: their boxes on
+// Session is one person's labelling on the open project: their boxes on
 // the images they touched, the undo history, and the writes to the store.
 //
 // Boxes have session keys that stay the same while undo and redo delete
@@ -100,6 +100,8 @@ func (s *Session) review(ctx context.Context, st step) error {
 	return nil
 }
 
+// NewSession starts annotator a's labelling session on st with an empty
+// undo history.
 func NewSession(st backend.Project, a project.Annotator) *Session {
 	return &Session{st: st, annotator: a, keyOf: map[int64]int64{}, rowOf: map[int64]int64{}, docs: map[int64]map[int64]project.Label{}}
 }
@@ -240,10 +242,13 @@ func (s *Session) do(ctx context.Context, st step) error {
 
 // CanUndo and CanRedo name the edit that Undo or Redo would reverse or
 // repeat ("" when none).
-// undoDepth is the number of edits that can be undone.
+// UndoDepth is the number of edits that can be undone.
 func (s *Session) UndoDepth() int { return len(s.undo) }
 
+// CanUndo names the edit that Undo would undo ("" when none).
 func (s *Session) CanUndo() string { return lastWhat(s.undo) }
+
+// CanRedo names the edit that Redo would redo ("" when none).
 func (s *Session) CanRedo() string { return lastWhat(s.redo) }
 
 func lastWhat(h []step) string {
@@ -381,6 +386,7 @@ func (s *Session) write(ctx context.Context, st step) error {
 	return nil
 }
 
+// SortedKeys are the keys of a session's boxes in increasing order.
 func SortedKeys(m map[int64]project.Label) []int64 {
 	ks := make([]int64, 0, len(m))
 	for k := range m {
@@ -390,7 +396,7 @@ func SortedKeys(m map[int64]project.Label) []int64 {
 	return ks
 }
 
-// forget drops the boxes of an image from memory (they changed in the
+// Forget drops the boxes of an image from memory (they changed in the
 // file, for example by a review elsewhere) unless edits of it still wait
 // to be written.
 func (s *Session) Forget(imageID int64) {

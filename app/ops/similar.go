@@ -11,13 +11,13 @@ import (
 	"boxwright/suggest/exemplar"
 )
 
-// decodeProjectImage decodes an image of the project as displayed.
+// DecodeProjectImage decodes an image of the project as displayed.
 func DecodeProjectImage(st backend.Project, im project.Image) (image.Image, error) {
 	img, _, err := imagefile.Decode(st.ImagePath(im), imagefile.DefaultMaxPixels)
 	return img, err
 }
 
-// storeExemplarMatches replaces the exemplar's pending suggestions on the
+// StoreExemplarMatches replaces the exemplar's pending suggestions on the
 // searched images by the matches.
 func StoreExemplarMatches(ctx context.Context, st backend.Project, classID int64, byImage map[int64][]exemplar.Match) error {
 	var ids []int64
@@ -32,7 +32,7 @@ func StoreExemplarMatches(ctx context.Context, st backend.Project, classID int64
 	return err
 }
 
-// clampScore keeps a correlation in the 0..1 a suggestion score takes.
+// ClampScore keeps a correlation in the 0..1 a suggestion score takes.
 func ClampScore(v float64) float64 { return max(0, min(1, v)) }
 
 var _ suggest.Suggester = (*exemplar.Matcher)(nil)

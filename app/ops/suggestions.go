@@ -25,18 +25,18 @@ type UnknownClassRule struct {
 func (r UnknownClassRule) creates(name string) bool { return r.Create || r.CreateNames[name] }
 func (r UnknownClassRule) drops(name string) bool   { return r.Drop || r.DropNames[name] }
 
-// suggestionJob is one import of a prediction file.
+// SuggestionJob is one import of a prediction file.
 type SuggestionJob struct {
 	Source, Path, ClassesFile string
 	Layout                    suggest.Layout
 	Filter                    suggest.Filter
 	Unknown                   UnknownClassRule
-	// probe, when set, receives the unknown class names and stops the
+	// Probe, when set, receives the unknown class names and stops the
 	// import before anything is stored (the dialog asks about them).
 	Probe func(map[string]int)
 }
 
-// suggestionResult is what an import did.
+// SuggestionResult is what an import did.
 type SuggestionResult struct {
 	project.SuggestionImportReport
 	Read           int      `json:"read"`
@@ -59,7 +59,7 @@ func unknownClasses(ps []suggest.Proposal) map[string]int {
 	return out
 }
 
-// runSuggestionImport reads, filters and stores a prediction file: all or
+// RunSuggestionImport reads, filters and stores a prediction file: all or
 // nothing, and an unknown class without a rule for it stops the import.
 func RunSuggestionImport(ctx context.Context, st backend.Project, j SuggestionJob, progress func(done, total int)) (SuggestionResult, error) {
 	var res SuggestionResult
@@ -167,6 +167,7 @@ func RunSuggestionImport(ctx context.Context, st backend.Project, j SuggestionJo
 	return res, nil
 }
 
+// LayoutFromPath guesses a prediction file's layout from its extension.
 func LayoutFromPath(p string) suggest.Layout {
 	switch strings.ToLower(filepath.Ext(p)) {
 	case ".json":
@@ -177,23 +178,25 @@ func LayoutFromPath(p string) suggest.Layout {
 	return "txt"
 }
 
-// reviewStats is what "suggestions stats" reports for one source.
+// ReviewStats is what "suggestions stats" reports for one source.
 type ReviewStats struct {
-	Source      string           `json:"source"`
-	Classes     []map[string]any `json:"classes"`
-	Bins        []map[string]any `json:"reliability"`
-	Threshold   map[string]any   `json:"suggested_threshold"`
-	Summary     []suggest.SourceClassStats
-	Reliability []suggest.Bin
-	Suggested   suggest.Threshold
+	Source      string                     `json:"source"`
+	Classes     []map[string]any           `json:"classes"`
+	Bins        []map[string]any           `json:"reliability"`
+	Threshold   map[string]any             `json:"suggested_threshold"`
+	Summary     []suggest.SourceClassStats `json:"-"`
+	Reliability []suggest.Bin              `json:"-"`
+	Suggested   suggest.Threshold          `json:"-"`
 }
 
 // reliabilityBins is the number of score bins of the reliability chart.
 const reliabilityBins = 10
 
-// keepRate is the share of kept suggestions the threshold promises.
+// KeepRate is the share of kept suggestions the threshold promises.
 const KeepRate = 0.95
 
+// CollectReviewStats reads the review decisions of a source ("" for all)
+// and summarises them per source and class, with the class names.
 func CollectReviewStats(ctx context.Context, st backend.Project, source string) ([]ReviewStats, map[int64]string, error) {
 	rows, err := st.ReviewRows(ctx, source)
 	if err != nil {
