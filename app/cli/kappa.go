@@ -2,13 +2,12 @@ package cli
 
 import (
 	"encoding/csv"
+	"errors"
 	"flag"
 	"fmt"
 	"io"
 	"math"
 	"os"
-	"sort"
-	"strconv"
 	"strings"
 
 	"boxwright/app/ops"
@@ -149,89 +148,6 @@ func readCSV(path string) ([][]string, error) {
 	return rows, nil
 }
 
-func isNumber(s string) bool {
-	_, err := strconv.ParseFloat(strings.TrimSpace(s), 64)
-	return err == nil
-}
-
-// readMatrix reads a square matrix of numbers with an optional header row
-// and an optional first column of names.
-func readMatrix(path, what string) ([][]float64, []string, error) {
-	rows, err := readCSV(path)
-	if err != nil {
-		return nil, nil, err
-	}
-	header := false
-	for _, c := range rows[0] {
-		if strings.TrimSpace(c) != "" && !isNumber(c) {
-			header = true
-		}
-	}
-	var names []string
-	if header {
-		names = rows[0]
-		rows = rows[1:]
-	}
-	nameCol := false
-	for _, r := range rows {
-		if len(r) > 0 && !isNumber(r[0]) {
-			nameCol = true
-		}
-	}
-	if header && len(names) > 0 && (nameCol || strings.TrimSpace(names[0]) == "") {
-		names = names[1:]
-	}
-	var m [][]float64
-	var rowNames []string
-	for i, r := range rows {
-		line := i + 1
-		if header {
-			line++
-		}
-		if nameCol {
-			rowNames = append(rowNames, strings.TrimSpace(r[0]))
-			r = r[1:]
-		}
-		var vals []float64
-		for j, c := range r {
-			v, err := strconv.ParseFloat(strings.TrimSpace(c), 64)
-			if err != nil || math.IsNaN(v) || math.IsInf(v, 0) {
-				return nil, nil, fmt.Errorf("%s, line %d, column %d: %q is not a number (%s)", path, line, j+1+b2i(nameCol), c, what)
-			}
-			vals = append(vals, v)
-		}
-		m = append(m, vals)
-	}
-	k := len(m)
-	for i, r := range m {
-		if len(r) != k {
-			return nil, nil, fmt.Errorf("%s: the %s must be square: %d rows but row %d has %d values", path, what, k, i+1, len(r))
-		}
-	}
-	if k == 0 {
-		return nil, nil, fmt.Errorf("%s: no rows of numbers", path)
-	}
-	switch {
-	case rowNames != nil:
-		names = rowNames // rater A's categories name the rows
-	case len(names) != k:
-		names = nil
-	}
-	if names == nil {
-		for i := 1; i <= k; i++ {
-			names = append(names, strconv.Itoa(i))
-		}
-	}
-	return m, names, nil
-}
-
-func b2i(b bool) int {
-	if b {
-		return 1
-	}
-	return 0
-}
-
 func weightsFor(spec string, k int) ([][]float64, string, error) {
 	switch spec {
 	case "", "none":
@@ -261,12 +177,7 @@ func kappaOfTable(path, weightSpec string) (kappaResult, error) {
 	} else if w, res.weights, err = weightsFor(weightSpec, len(t)); err != nil {
 		return res, usageError(err.Error())
 	}
-	var k agree.Kappa
-	if w == nil {
-		k, err = agree.CohenKappa(t)
-	} else {
-		k, err = agree.WeightedKappa(t, w)
-	}
+	k, err := agree.TableKappa(t, w)
 	if err != nil {
 		return res, fmt.Errorf("%s: %w", path, err)
 	}
@@ -274,6 +185,29 @@ func kappaOfTable(path, weightSpec string) (kappaResult, error) {
 	return res, nil
 }
 
+// readMatrix reads a square matrix of numbers from a CSV file.
+func readMatrix(path, what string) ([][]float64, []string, error) {
+	rows, err := readCSV(path)
+	if err != nil {
+		return nil, nil, err
+	}
+	m, names, err := agree.ParseMatrix(rows, what)
+	return m, names, located(path, err)
+}
+
+// located puts the file name in front of a table error.
+func located(path string, err error) error {
+	if err == nil {
+		return nil
+	}
+	var ie *agree.InputError
+	if errors.As(err, &ie) && ie.Line > 0 {
+		return fmt.Errorf("%s, %w", path, err)
+	}
+	return fmt.Errorf("%s: %w", path, err)
+}
+
+// kappaOfRatings compares the raters of a CSV file of ratings.
 func kappaOfRatings(path, weightSpec, levelName, catList string) (kappaResult, error) {
 	level, err := agree.ParseLevel(levelName)
 	if err != nil {
@@ -283,140 +217,29 @@ func kappaOfRatings(path, weightSpec, levelName, catList string) (kappaResult, e
 	if err != nil {
 		return kappaResult{}, err
 	}
-	raters := rows[0]
-	if len(raters) < 2 {
-		return kappaResult{}, fmt.Errorf("%s, line 1: the header must name at least two raters", path)
+	r, err := agree.ParseRatings(rows)
+	if err != nil {
+		return kappaResult{}, located(path, err)
 	}
-	var data [][]string
-	for i, r := range rows[1:] {
-		if len(r) > len(raters) {
-			return kappaResult{}, fmt.Errorf("%s, line %d: %d values for %d raters", path, i+2, len(r), len(raters))
-		}
-		cells := make([]string, len(raters))
-		for j := range r {
-			cells[j] = strings.TrimSpace(r[j])
-		}
-		data = append(data, cells)
-	}
-	// Categories: as given, or the sorted values seen.
-	var cats []string
+	opt := agree.RatingsOptions{Level: level, Weights: weightSpec}
 	if catList != "" {
 		for _, c := range strings.Split(catList, ",") {
-			cats = append(cats, strings.TrimSpace(c))
-		}
-	} else {
-		seen := map[string]bool{}
-		numeric := true
-		for _, r := range data {
-			for _, c := range r {
-				if c != "" && !seen[c] {
-					seen[c] = true
-					numeric = numeric && isNumber(c)
-				}
-			}
-		}
-		for c := range seen {
-			cats = append(cats, c)
-		}
-		sort.Slice(cats, func(i, j int) bool {
-			if numeric {
-				a, _ := strconv.ParseFloat(cats[i], 64)
-				b, _ := strconv.ParseFloat(cats[j], 64)
-				return a < b
-			}
-			return cats[i] < cats[j]
-		})
-	}
-	idx := map[string]int{}
-	for i, c := range cats {
-		if _, dup := idx[c]; dup {
-			return kappaResult{}, usageError(fmt.Sprintf("--categories names %q twice", c))
-		}
-		idx[c] = i
-	}
-	res := kappaResult{categories: cats, raters: len(raters), units: len(data), weights: "none"}
-	if len(data) == 0 {
-		return res, fmt.Errorf("%s: no units after the header", path)
-	}
-	// Values for alpha: category positions for nominal and ordinal, the
-	// numbers themselves for interval and ratio.
-	units := make([][]float64, len(data))
-	complete := true
-	for i, r := range data {
-		units[i] = make([]float64, len(raters))
-		for j, c := range r {
-			if c == "" {
-				units[i][j] = math.NaN()
-				complete = false
-				continue
-			}
-			p, ok := idx[c]
-			if !ok {
-				return res, fmt.Errorf("%s, line %d, rater %q: %q is not one of the categories %s", path, i+2, raters[j], c, strings.Join(cats, ","))
-			}
-			if level == agree.Interval || level == agree.Ratio {
-				v, err := strconv.ParseFloat(c, 64)
-				if err != nil {
-					return res, fmt.Errorf("%s, line %d, rater %q: %q is not a number, which the %s level needs", path, i+2, raters[j], c, level)
-				}
-				units[i][j] = v
-			} else {
-				units[i][j] = float64(p)
-			}
+			opt.Categories = append(opt.Categories, strings.TrimSpace(c))
 		}
 	}
-	// For ordinal alpha the values must order as the categories do.
-	a, err := agree.KrippendorffAlpha(units, level)
+	if len(r.Raters) == 2 {
+		if _, _, err := weightsFor(weightSpec, 2); err != nil {
+			return kappaResult{}, usageError(err.Error())
+		}
+	}
+	rep, err := agree.CompareRatings(r, opt)
+	if errors.Is(err, agree.ErrDuplicateCategory) {
+		return kappaResult{}, usageError(fmt.Sprintf("--categories names %s twice", strings.TrimSuffix(err.Error(), ": "+agree.ErrDuplicateCategory.Error())))
+	}
+	res := kappaResult{categories: rep.Categories, raters: rep.Raters, units: rep.Units, weights: rep.Weights,
+		cohen: rep.Cohen, fleiss: rep.Fleiss, alpha: rep.Alpha, percent: rep.Percent, notes: rep.Notes}
 	if err != nil {
-		res.notes = append(res.notes, "Krippendorff's alpha: "+err.Error())
-	} else {
-		res.alpha = &a
-	}
-	res.percent = agree.PercentAgreement(units)
-	if len(raters) == 2 {
-		t := make([][]float64, len(cats))
-		for i := range t {
-			t[i] = make([]float64, len(cats))
-		}
-		for _, r := range data {
-			if r[0] != "" && r[1] != "" {
-				t[idx[r[0]]][idx[r[1]]]++
-			}
-		}
-		w, name, err := weightsFor(weightSpec, len(cats))
-		if err != nil {
-			return res, usageError(err.Error())
-		}
-		res.weights = name
-		var k agree.Kappa
-		if w == nil {
-			k, err = agree.CohenKappa(t)
-		} else {
-			k, err = agree.WeightedKappa(t, w)
-		}
-		if err != nil {
-			res.notes = append(res.notes, "Cohen's kappa: "+err.Error())
-		} else {
-			res.cohen = &k
-		}
-	} else if weightSpec != "none" && weightSpec != "" {
-		res.notes = append(res.notes, "--weights applies to Cohen's kappa, which needs exactly two raters")
-	}
-	if complete {
-		counts := make([][]float64, len(data))
-		for i, r := range data {
-			counts[i] = make([]float64, len(cats))
-			for _, c := range r {
-				counts[i][idx[c]]++
-			}
-		}
-		if f, err := agree.FleissKappa(counts); err == nil {
-			res.fleiss = &f
-		} else {
-			res.notes = append(res.notes, "Fleiss' kappa: "+err.Error())
-		}
-	} else {
-		res.notes = append(res.notes, "Fleiss' kappa needs every unit rated by every rater; with missing ratings only Krippendorff's alpha is given")
+		return res, located(path, err)
 	}
 	return res, nil
 }

@@ -5,7 +5,6 @@ import (
 	"errors"
 	"fmt"
 	"path/filepath"
-	"strings"
 
 	"boxwright/app/backend"
 	"boxwright/project"
@@ -102,53 +101,17 @@ func (d AgreementData) Names(classes []int64) []string {
 	return out
 }
 
-// consensusLabels derives the consensus of the loaded annotators: per
-// image, objects seen by at least minSupport of them.
-func consensusLabels(d AgreementData, threshold float64, minSupport int, median bool) ([]project.Label, int) {
-	n := len(d.Annotators)
-	var out []project.Label
-	ties := 0
-	var who []string
-	for _, a := range d.Annotators {
-		who = append(who, a.Name)
-	}
-	support := minSupport
-	if support <= 0 {
-		support = n/2 + 1
-	}
-	how := "mean"
-	if median {
-		how = "median"
-	}
-	source := fmt.Sprintf("consensus of %s (IoU ≥ %.2f, seen by ≥ %d, %s box)", strings.Join(who, ", "), threshold, support, how)
-	for _, im := range d.Images {
-		boxes := make([][]project.Box, n)
-		classes := make([][]int64, n)
-		for i := 0; i < n; i++ {
-			l := im.By[i]
-			boxes[i], classes[i] = l.Boxes, l.Classes
-		}
-		objs := agree.GroupObjects(boxes, classes, threshold, false)
-		for _, c := range agree.Consensus(objs, boxes, classes, n, minSupport, median) {
-			src := source
-			if c.Tie {
-				ties++
-				src += "; class vote tied: review"
-			}
-			out = append(out, project.Label{ImageID: im.ImageID, ClassID: c.Class, Box: c.Box, Origin: project.OriginImported,
-				Source: src, Score: float64(c.Support) / float64(n)})
-		}
-	}
-	return out, ties
-}
-
 // StoreConsensus recomputes the consensus annotator's labels.
 func StoreConsensus(ctx context.Context, st backend.Project, names []string, iou float64, minSupport int, median bool) (int, int, error) {
 	d, err := LoadAgreement(ctx, st, names)
 	if err != nil {
 		return 0, 0, err
 	}
-	labels, ties := consensusLabels(d, iou, minSupport, median)
+	who := make([]string, len(d.Annotators))
+	for i, a := range d.Annotators {
+		who[i] = a.Name
+	}
+	labels, ties := agree.ConsensusLabels(d.Images, who, agree.ConsensusOptions{Threshold: iou, MinSupport: minSupport, Median: median})
 	a, err := st.EnsureAnnotator(ctx, ConsensusName)
 	if err != nil {
 		return 0, 0, err

@@ -159,7 +159,7 @@ type ConsensusBox struct {
 // follow the order of the objects.
 func Consensus(objects []Object, boxes [][]project.Box, classes [][]int64, n, minSupport int, median bool) []ConsensusBox {
 	if minSupport <= 0 {
-		minSupport = n/2 + 1
+		minSupport = MajoritySupport(n)
 	}
 	var out []ConsensusBox
 	var coord [4][]float64
