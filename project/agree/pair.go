@@ -1,0 +1,309 @@
+package agree
+
+import (
+	"cmp"
+	"fmt"
+	"math"
+	"sort"
+)
+
+// HistogramBins is the number of equal IoU bins over [0, 1].
+const HistogramBins = 20
+
+// IoUSummary describes the IoU of matched pairs.
+type IoUSummary struct {
+	N                      int
+	Mean, Median, P10, P90 float64 // NaN when N = 0
+	// Histogram[i] counts pairs with IoU in [i/20, (i+1)/20); the last bin
+	// includes 1.
+	Histogram [HistogramBins]int
+}
+
+// ClassAgreement is the agreement on one class.
+type ClassAgreement struct {
+	Class int64
+	// A and B are the boxes of this class each annotator drew; Agreed the
+	// matched pairs where both chose it; Confused the matched pairs where
+	// exactly one did; OnlyA and OnlyB its unmatched boxes.
+	A, B, Agreed, Confused, OnlyA, OnlyB int
+	// F1 = 2·Agreed / (A + B).
+	F1      float64
+	MeanIoU float64 // of the Agreed pairs
+	// Kappa is this class against the rest, on the matched pairs.
+	Kappa Kappa
+}
+
+// ImageAgreement is the agreement on one image.
+type ImageAgreement struct {
+	ImageID                     int64
+	Name                        string
+	A, B, Matched, OnlyA, OnlyB int
+	ClassDisagreements          int // matched pairs of different classes
+	F1, MeanIoU                 float64
+	Errors                      int // OnlyA + OnlyB + ClassDisagreements: the ranking key
+	Match                       ImageMatch
+}
+
+// PairReport is the agreement of two annotators over all images.
+type PairReport struct {
+	A, B                  int // annotator indices
+	Images                int // images where at least one of them drew a box
+	NA, NB                int
+	Matched, OnlyA, OnlyB int
+	F1                    float64 // 2·Matched / (NA + NB)
+	IoU                   IoUSummary
+	Classes               []int64     // order of the confusion matrices
+	Confusion             [][]float64 // matched pairs: rows A's class, columns B's
+	Kappa                 Kappa       // Cohen's kappa on Confusion
+	WeightedKappa         *Kappa      // with Options.Weights, when given
+	ConfusionWithNoObject [][]float64 // Classes plus a last "no object" row and column
+	KappaWithNoObject     Kappa
+	PerClass              []ClassAgreement
+	PerImage              []ImageAgreement // worst first
+}
+
+// NoObjectCaveat explains the kappa that counts unmatched boxes.
+const NoObjectCaveat = "Unmatched boxes are counted as a \"no object\" answer of the other annotator. The no-object/no-object cell cannot be observed (nobody draws a box around nothing), so it is zero and this kappa is biased low; read it beside the detection F1, not instead of it."
+
+// ComparePair matches annotators a and b on every image and sums up.
+func ComparePair(images []ImageLabels, a, b int, opt Options) PairReport {
+	r := PairReport{A: a, B: b}
+	var ious []float64
+	type pairClass struct{ ca, cb int64 }
+	var pairs []pairClass
+	var unA, unB []int64
+	seen := map[int64]bool{}
+	for _, im := range images {
+		la, lb := labelsOf(im, a), labelsOf(im, b)
+		if len(la.Boxes)+len(lb.Boxes) == 0 {
+			continue
+		}
+		r.Images++
+		m := MatchBoxes(la.Boxes, lb.Boxes, la.Classes, lb.Classes, opt.threshold(), opt.ClassAware)
+		ia := ImageAgreement{ImageID: im.ImageID, Name: im.Name, A: len(la.Boxes), B: len(lb.Boxes),
+			Matched: len(m.Pairs), OnlyA: len(m.OnlyA), OnlyB: len(m.OnlyB), Match: m}
+		sum := 0.0
+		for _, p := range m.Pairs {
+			ca, cb := la.Classes[p.A], lb.Classes[p.B]
+			pairs = append(pairs, pairClass{ca, cb})
+			seen[ca], seen[cb] = true, true
+			ious = append(ious, p.IoU)
+			sum += p.IoU
+			if ca != cb {
+				ia.ClassDisagreements++
+			}
+		}
+		for _, i := range m.OnlyA {
+			unA = append(unA, la.Classes[i])
+			seen[la.Classes[i]] = true
+		}
+		for _, j := range m.OnlyB {
+			unB = append(unB, lb.Classes[j])
+			seen[lb.Classes[j]] = true
+		}
+		ia.F1 = f1(ia.Matched, ia.A, ia.B)
+		ia.MeanIoU = math.NaN()
+		if ia.Matched > 0 {
+			ia.MeanIoU = sum / float64(ia.Matched)
+		}
+		ia.Errors = ia.OnlyA + ia.OnlyB + ia.ClassDisagreements
+		r.PerImage = append(r.PerImage, ia)
+		r.NA += ia.A
+		r.NB += ia.B
+		r.Matched += ia.Matched
+		r.OnlyA += ia.OnlyA
+		r.OnlyB += ia.OnlyB
+	}
+	r.F1 = f1(r.Matched, r.NA, r.NB)
+	r.IoU = summarise(ious)
+	sort.SliceStable(r.PerImage, func(i, j int) bool {
+		x, y := r.PerImage[i], r.PerImage[j]
+		if x.Errors != y.Errors {
+			return x.Errors > y.Errors
+		}
+		return cmp.Less(x.MeanIoU, y.MeanIoU) // NaN (no matched pair) first
+	})
+
+	r.Classes = classOrder(opt.Classes, seen)
+	idx := map[int64]int{}
+	for i, c := range r.Classes {
+		idx[c] = i
+	}
+	k := len(r.Classes)
+	r.Confusion = square(k)
+	r.ConfusionWithNoObject = square(k + 1)
+	for _, p := range pairs {
+		r.Confusion[idx[p.ca]][idx[p.cb]]++
+		r.ConfusionWithNoObject[idx[p.ca]][idx[p.cb]]++
+	}
+	for _, c := range unA {
+		r.ConfusionWithNoObject[idx[c]][k]++
+	}
+	for _, c := range unB {
+		r.ConfusionWithNoObject[k][idx[c]]++
+	}
+	r.Kappa = kappaOrNote(r.Confusion)
+	if opt.Weights != nil {
+		wk := Kappa{Kappa: math.NaN(), SE: math.NaN(), SE0: math.NaN(), Z: math.NaN(), Po: math.NaN(), Pe: math.NaN(), CI95: [2]float64{math.NaN(), math.NaN()}}
+		switch {
+		case len(opt.Weights) != k:
+			wk.Notes = []string{fmt.Sprintf("weights are %d×%d but %d classes were compared; list the classes the weights are for", len(opt.Weights), len(opt.Weights), k)}
+		default:
+			if got, err := WeightedKappa(r.Confusion, opt.Weights); err != nil {
+				wk.Notes = []string{err.Error()}
+			} else {
+				wk = got
+			}
+		}
+		r.WeightedKappa = &wk
+	}
+	r.KappaWithNoObject = kappaOrNote(r.ConfusionWithNoObject)
+	r.KappaWithNoObject.Notes = append(r.KappaWithNoObject.Notes, NoObjectCaveat)
+
+	for ci, c := range r.Classes {
+		ca := ClassAgreement{Class: c}
+		var iouSum float64
+		for pi, p := range pairs {
+			inA, inB := p.ca == c, p.cb == c
+			switch {
+			case inA && inB:
+				ca.Agreed++
+				iouSum += ious[pi]
+			case inA || inB:
+				ca.Confused++
+			}
+			if inA {
+				ca.A++
+			}
+			if inB {
+				ca.B++
+			}
+		}
+		for _, x := range unA {
+			if x == c {
+				ca.A++
+				ca.OnlyA++
+			}
+		}
+		for _, x := range unB {
+			if x == c {
+				ca.B++
+				ca.OnlyB++
+			}
+		}
+		ca.F1 = f1(ca.Agreed, ca.A, ca.B)
+		ca.MeanIoU = math.NaN()
+		if ca.Agreed > 0 {
+			ca.MeanIoU = iouSum / float64(ca.Agreed)
+		}
+		// One class against the rest: collapse the confusion matrix.
+		t := [][]float64{{0, 0}, {0, 0}}
+		for i := 0; i < k; i++ {
+			for j := 0; j < k; j++ {
+				t[b2i(i != ci)][b2i(j != ci)] += r.Confusion[i][j]
+			}
+		}
+		ca.Kappa = kappaOrNote(t)
+		r.PerClass = append(r.PerClass, ca)
+	}
+	return r
+}
+
+func labelsOf(im ImageLabels, i int) Labels {
+	if i < len(im.By) {
+		return im.By[i]
+	}
+	return Labels{}
+}
+
+func b2i(b bool) int {
+	if b {
+		return 1
+	}
+	return 0
+}
+
+// kappaOrNote is CohenKappa, or an undefined kappa with the reason when
+// the table cannot give one (no pairs at all).
+func kappaOrNote(t [][]float64) Kappa {
+	k, err := CohenKappa(t)
+	if err != nil {
+		nan := math.NaN()
+		return Kappa{Kappa: nan, SE: nan, SE0: nan, Z: nan, Po: nan, Pe: nan, CI95: [2]float64{nan, nan}, Notes: []string{err.Error()}}
+	}
+	return k
+}
+
+func f1(matched, na, nb int) float64 {
+	if na+nb == 0 {
+		return math.NaN()
+	}
+	return 2 * float64(matched) / float64(na+nb)
+}
+
+func square(k int) [][]float64 {
+	m := make([][]float64, k)
+	for i := range m {
+		m[i] = make([]float64, k)
+	}
+	return m
+}
+
+func classOrder(given []int64, seen map[int64]bool) []int64 {
+	out := append([]int64(nil), given...)
+	listed := map[int64]bool{}
+	for _, c := range given {
+		listed[c] = true
+	}
+	var extra []int64
+	for c := range seen {
+		if !listed[c] {
+			extra = append(extra, c)
+		}
+	}
+	sort.Slice(extra, func(i, j int) bool { return extra[i] < extra[j] })
+	return append(out, extra...)
+}
+
+// summarise gives mean, median, 10th and 90th percentiles and the
+// histogram. Percentiles interpolate linearly between order statistics:
+// definition 7 of Hyndman & Fan (1996), the default of R and NumPy.
+func summarise(v []float64) IoUSummary {
+	s := IoUSummary{N: len(v), Mean: math.NaN(), Median: math.NaN(), P10: math.NaN(), P90: math.NaN()}
+	if len(v) == 0 {
+		return s
+	}
+	x := append([]float64(nil), v...)
+	sort.Float64s(x)
+	sum := 0.0
+	for _, e := range x {
+		sum += e
+		b := int(e * HistogramBins)
+		if b >= HistogramBins {
+			b = HistogramBins - 1
+		}
+		if b < 0 {
+			b = 0
+		}
+		s.Histogram[b]++
+	}
+	s.Mean = sum / float64(len(x))
+	s.Median, s.P10, s.P90 = Quantile(x, 0.5), Quantile(x, 0.1), Quantile(x, 0.9)
+	return s
+}
+
+// Quantile is the p-quantile of sorted values by linear interpolation
+// (Hyndman & Fan 1996, definition 7).
+func Quantile(sorted []float64, p float64) float64 {
+	n := len(sorted)
+	if n == 0 {
+		return math.NaN()
+	}
+	h := float64(n-1) * p
+	lo := math.Floor(h)
+	i := int(lo)
+	if i >= n-1 {
+		return sorted[n-1]
+	}
+	return sorted[i] + (h-lo)*(sorted[i+1]-sorted[i])
+}
