@@ -14,20 +14,20 @@ import (
 	"boxwright/project/formats"
 )
 
-// Layout names the layout of a prediction file.
-type Layout string
+// PredictionLayout names the layout of a prediction file.
+type PredictionLayout string
 
 // The prediction layouts, by the names the command line uses.
 const (
-	LayoutJSON Layout = "json" // corner/size JSON prediction list
-	LayoutText Layout = "txt"  // centre-normalised text folder with a score column and a class-names file
-	LayoutCSV  Layout = "csv"  // prediction CSV: image,class,x0,y0,x1,y1,score
+	PredictionJSON PredictionLayout = "json" // corner/size JSON prediction list
+	PredictionText PredictionLayout = "txt"  // centre-normalised text folder with a score column and a class-names file
+	PredictionCSV  PredictionLayout = "csv"  // prediction CSV: image,class,x0,y0,x1,y1,score
 )
 
-// ParseLayout reads a layout name, ignoring case and surrounding space.
-func ParseLayout(s string) (Layout, error) {
-	switch l := Layout(strings.ToLower(strings.TrimSpace(s))); l {
-	case LayoutJSON, LayoutText, LayoutCSV:
+// ParsePredictionLayout reads a layout name, ignoring case and surrounding space.
+func ParsePredictionLayout(s string) (PredictionLayout, error) {
+	switch l := PredictionLayout(strings.ToLower(strings.TrimSpace(s))); l {
+	case PredictionJSON, PredictionText, PredictionCSV:
 		return l, nil
 	}
 	return "", fmt.Errorf("unknown prediction layout %q; want json, txt or csv", s)
@@ -39,7 +39,7 @@ func ParseLayout(s string) (Layout, error) {
 // FileSource is not safe for concurrent use.
 type FileSource struct {
 	Source string // the source name; default the file's base name without extension
-	Layout Layout
+	Layout PredictionLayout
 	Path   string // the file (json, csv) or the folder or single file (txt)
 	// ClassesFile is the class-names file of the txt layout; default
 	// classes.txt in Path (a folder) or beside it (a file).
@@ -95,9 +95,9 @@ func (f *FileSource) Suggest(ctx context.Context, images []project.Image, classe
 		err  error
 	)
 	switch f.Layout {
-	case LayoutJSON, LayoutCSV:
+	case PredictionJSON, PredictionCSV:
 		recs, err = f.readFile()
-	case LayoutText:
+	case PredictionText:
 		recs, err = f.readText(ctx, images, progress)
 	default:
 		return nil, fmt.Errorf("reading predictions from %s: unknown layout %q; want json, txt or csv", f.Path, f.Layout)
@@ -122,7 +122,7 @@ func (f *FileSource) Suggest(ctx context.Context, images []project.Image, classe
 			if err := ctx.Err(); err != nil {
 				return nil, err
 			}
-			if f.Layout != LayoutText && len(recs) > 0 {
+			if f.Layout != PredictionText && len(recs) > 0 {
 				progress(i*total/len(recs), total)
 			}
 		}
@@ -189,7 +189,7 @@ func (f *FileSource) readFile() ([]record, error) {
 		return nil, fmt.Errorf("reading predictions: %s is a folder; the %s layout is one file", f.Path, f.Layout)
 	}
 	var preds []formats.Prediction
-	if f.Layout == LayoutJSON {
+	if f.Layout == PredictionJSON {
 		preds, err = formats.ReadPredictionList(fh, filepath.Base(f.Path))
 	} else {
 		preds, err = formats.ReadPredictionCSV(fh, filepath.Base(f.Path))

@@ -35,13 +35,13 @@ func writeFile(t *testing.T, dir, name, data string) string {
 }
 
 func TestParseLayout(t *testing.T) {
-	for in, want := range map[string]Layout{"json": LayoutJSON, " TXT ": LayoutText, "csv": LayoutCSV} {
-		if got, err := ParseLayout(in); err != nil || got != want {
-			t.Errorf("ParseLayout(%q) = %q, %v", in, got, err)
+	for in, want := range map[string]PredictionLayout{"json": PredictionJSON, " TXT ": PredictionText, "csv": PredictionCSV} {
+		if got, err := ParsePredictionLayout(in); err != nil || got != want {
+			t.Errorf("ParsePredictionLayout(%q) = %q, %v", in, got, err)
 		}
 	}
-	if _, err := ParseLayout("xml"); err == nil || !strings.Contains(err.Error(), "json, txt or csv") {
-		t.Errorf("ParseLayout(xml) error = %v", err)
+	if _, err := ParsePredictionLayout("xml"); err == nil || !strings.Contains(err.Error(), "json, txt or csv") {
+		t.Errorf("ParsePredictionLayout(xml) error = %v", err)
 	}
 }
 
@@ -55,7 +55,7 @@ func TestFileSourceJSON(t *testing.T) {
  {"file_name": "d.png", "category": "dog", "bbox": [-10, 10, 20, 20], "score": 1},
  {"file_name": "elsewhere\\sub\\d.png", "category": "cat", "bbox": [1, 1, 1, 1], "score": 0}
 ]`)
-	f := &FileSource{Layout: LayoutJSON, Path: p}
+	f := &FileSource{Layout: PredictionJSON, Path: p}
 	var last [2]int
 	got, err := f.Suggest(context.Background(), testImages, testClasses, func(d, n int) { last = [2]int{d, n} })
 	if err != nil {
@@ -107,7 +107,7 @@ func TestFileSourceErrors(t *testing.T) {
 	}
 	for _, c := range cases {
 		p := writeFile(t, dir, "p.json", c.data)
-		got, err := (&FileSource{Layout: LayoutJSON, Path: p}).Suggest(context.Background(), testImages, testClasses, nil)
+		got, err := (&FileSource{Layout: PredictionJSON, Path: p}).Suggest(context.Background(), testImages, testClasses, nil)
 		if err == nil || !strings.Contains(err.Error(), c.msg) {
 			t.Errorf("%s: error %v, want %q", c.name, err, c.msg)
 		}
@@ -120,7 +120,7 @@ func TestFileSourceErrors(t *testing.T) {
 func TestFileSourceCSV(t *testing.T) {
 	dir := t.TempDir()
 	p := writeFile(t, dir, "preds.csv", "image,class,x0,y0,x1,y1,score\nimgs/a.jpg,cat,10,20,40,60,0.9\ny/c.jpg,fox,1,2,3,4,0.1\n")
-	f := &FileSource{Source: "csv-model", Layout: LayoutCSV, Path: p}
+	f := &FileSource{Source: "csv-model", Layout: PredictionCSV, Path: p}
 	got, err := f.Suggest(context.Background(), testImages, testClasses, nil)
 	if err != nil {
 		t.Fatal(err)
@@ -133,11 +133,11 @@ func TestFileSourceCSV(t *testing.T) {
 		t.Errorf("got %+v, want %+v", got, want)
 	}
 	bad := writeFile(t, dir, "bad.csv", "image,class,x0,y0,x1,y1,score\nimgs/a.jpg,cat,10,20,40,60,0.9\nq.jpg,cat,1,2,3,4,0.1\n")
-	if _, err := (&FileSource{Layout: LayoutCSV, Path: bad}).Suggest(context.Background(), testImages, testClasses, nil); err == nil ||
+	if _, err := (&FileSource{Layout: PredictionCSV, Path: bad}).Suggest(context.Background(), testImages, testClasses, nil); err == nil ||
 		!strings.Contains(err.Error(), `bad.csv:3: image "q.jpg" is not in the project`) {
 		t.Errorf("error = %v", err)
 	}
-	if _, err := (&FileSource{Layout: LayoutCSV, Path: dir}).Suggest(context.Background(), testImages, testClasses, nil); err == nil {
+	if _, err := (&FileSource{Layout: PredictionCSV, Path: dir}).Suggest(context.Background(), testImages, testClasses, nil); err == nil {
 		t.Error("a folder was read as a CSV file")
 	}
 }
@@ -151,7 +151,7 @@ func TestFileSourceText(t *testing.T) {
 	writeFile(t, dir, "imgs/a.txt", "0 0.5 0.5 0.25 0.5 0.75\n2 0.5 0.5 0.25 0.5 0.5\n")
 	// 200x100: cx 0.95 w 0.2 spans 170..210, clipped to 200.
 	writeFile(t, dir, "sub/d.txt", "1 0.95 0.5 0.2 0.2 1\n")
-	f := &FileSource{Layout: LayoutText, Path: dir}
+	f := &FileSource{Layout: PredictionText, Path: dir}
 	var calls int
 	got, err := f.Suggest(context.Background(), testImages, testClasses, func(d, n int) { calls++ })
 	if err != nil {
@@ -184,13 +184,13 @@ func TestFileSourceText(t *testing.T) {
 	}
 
 	writeFile(t, dir, "none/q.txt", "0 0.5 0.5 0.1 0.1 0.5\n")
-	if _, err := (&FileSource{Layout: LayoutText, Path: dir}).Suggest(context.Background(), testImages, testClasses, nil); err == nil ||
+	if _, err := (&FileSource{Layout: PredictionText, Path: dir}).Suggest(context.Background(), testImages, testClasses, nil); err == nil ||
 		!strings.Contains(err.Error(), "none/q.txt: has no image in the project") {
 		t.Errorf("unmatched label file: %v", err)
 	}
 	os.Remove(filepath.Join(dir, "none", "q.txt"))
 	writeFile(t, dir, "imgs/a.txt", "0 0.5 0.5 0.25 0.5 0.75\n0 0.5 0.5 0.25 0.5\n")
-	if _, err := (&FileSource{Layout: LayoutText, Path: dir}).Suggest(context.Background(), testImages, testClasses, nil); err == nil ||
+	if _, err := (&FileSource{Layout: PredictionText, Path: dir}).Suggest(context.Background(), testImages, testClasses, nil); err == nil ||
 		!strings.Contains(err.Error(), "imgs/a.txt:2: score: ") {
 		t.Errorf("line without score: %v", err)
 	}
@@ -209,7 +209,7 @@ func TestFileSourceCancelled(t *testing.T) {
 	writeFile(t, dir, "imgs/a.txt", "0 0.5 0.5 0.25 0.5 0.75\n")
 	ctx, cancel := context.WithCancel(context.Background())
 	cancel()
-	for _, f := range []*FileSource{{Layout: LayoutCSV, Path: p}, {Layout: LayoutText, Path: dir}} {
+	for _, f := range []*FileSource{{Layout: PredictionCSV, Path: p}, {Layout: PredictionText, Path: dir}} {
 		got, err := f.Suggest(ctx, testImages, testClasses, nil)
 		if !errors.Is(err, context.Canceled) || got != nil {
 			t.Errorf("%s: %v, %v; want context.Canceled", f.Layout, got, err)

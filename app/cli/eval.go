@@ -44,7 +44,7 @@ func cmdEval(args []string, stdout, stderr io.Writer) error {
 	if *preds != "" {
 		j.Layout = ops.LayoutFromPath(*preds)
 		if *layout != "" {
-			if j.Layout, err = suggest.ParseLayout(*layout); err != nil {
+			if j.Layout, err = suggest.ParsePredictionLayout(*layout); err != nil {
 				return usageError(err.Error())
 			}
 		}

@@ -269,7 +269,10 @@ func cmdInfo(args []string, stdout, stderr io.Writer) error {
 	if err != nil {
 		return err
 	}
-	version, _ := s.SchemaVersion(ctx)
+	version, err := s.SchemaVersion(ctx)
+	if err != nil {
+		return err
+	}
 	r := infoReport{Images: c.Images, Classes: named(c.LabelsByClass), Annotators: named(c.LabelsByAnnotator), Labels: c.Labels,
 		Suggestions: c.Suggestions, ImagesByStatus: c.ImagesBy, MissingFiles: len(missing), SchemaVersion: version}
 	if *asJSON {

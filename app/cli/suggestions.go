@@ -50,10 +50,10 @@ func cmdSuggestionsImport(args []string, stdout, stderr io.Writer, synopsis stri
 	if *minScore < 0 || *minScore > 1 || *nms < 0 || *nms > 1 || math.IsNaN(*minScore) || math.IsNaN(*nms) {
 		return usageError("--min-score and --nms take numbers from 0 to 1")
 	}
-	lay := suggest.Layout(*layout)
+	lay := suggest.PredictionLayout(*layout)
 	if *layout == "" {
 		lay = ops.LayoutFromPath(pos[1])
-	} else if lay, err = suggest.ParseLayout(*layout); err != nil {
+	} else if lay, err = suggest.ParsePredictionLayout(*layout); err != nil {
 		return usageError(err.Error())
 	}
 	st, ctx, done, err := openCLI(pos[0])

@@ -74,7 +74,10 @@ func newEvalScreen(u *ui) *evalScreen {
 	if s.truth.Selected == "" && len(names) > 0 {
 		s.truth.SetSelected(names[0])
 	}
-	sources, _ := u.st.SuggestionSources(context.Background())
+	sources, err := u.st.SuggestionSources(context.Background())
+	if err != nil {
+		u.showError(fmt.Errorf("evaluation: reading the suggestion sources: %w", err))
+	}
 	s.source = widget.NewSelect(sources, nil)
 	if len(sources) > 0 {
 		s.source.SetSelected(sources[0])

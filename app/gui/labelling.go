@@ -621,12 +621,7 @@ func (u *ui) history(back bool) {
 	if img != u.imageID {
 		u.selectImageID(img)
 	}
-	before := len(u.suggestions)
-	u.loadSuggestions() // an undone or redone decision changes them
-	if c, ok := u.perImg[u.imageID]; ok || len(u.suggestions) != before {
-		c.Pending += len(u.suggestions) - before
-		u.perImg[u.imageID] = c
-	}
+	u.reloadSuggestions() // an undone or redone decision changes them
 	u.afterEdit(err)
 }
 
@@ -651,6 +646,8 @@ func (u *ui) recount() {
 	}
 	boxes, err := u.sess.Boxes(context.Background(), u.imageID)
 	if err != nil {
+		// The counts would go stale silently; say so instead.
+		u.showError(fmt.Errorf("counting the boxes on this image: %w", err))
 		return
 	}
 	now := map[int64]int{}

@@ -36,7 +36,11 @@ func (u *ui) askFindSimilar() {
 		return
 	}
 	key := u.view.Selected()
-	boxes, _ := u.sess.Boxes(context.Background(), u.imageID)
+	boxes, err := u.sess.Boxes(context.Background(), u.imageID)
+	if err != nil {
+		u.showError(fmt.Errorf("find similar objects: reading your boxes on this image: %w", err))
+		return
+	}
 	sel, ok := boxes[key]
 	if !ok {
 		dialog.ShowInformation("Find similar objects", "Select one of your boxes first: it is the example the search looks for.", u.win)
@@ -124,13 +128,13 @@ func (u *ui) findSimilar(classID int64, ex []project.Box, exImg image.Image, ims
 			}
 			return ops.DecodeProjectImage(st, im)
 		},
-		Existing: func(imageID int64) []project.Box {
-			ls, _ := st.Labels(context.Background(), project.LabelFilter{ImageID: imageID, ClassID: classID})
+		Existing: func(imageID int64) ([]project.Box, error) {
+			ls, err := st.Labels(context.Background(), project.LabelFilter{ImageID: imageID, ClassID: classID})
 			var out []project.Box
 			for _, l := range ls {
 				out = append(out, l.Box)
 			}
-			return out
+			return out, err
 		}}
 	classes := u.classes
 	var found []suggest.Proposal
@@ -169,12 +173,7 @@ func (u *ui) applySimilarThreshold(threshold float64) (int, error) {
 	if _, err := u.st.ReplaceSuggestionsOn(context.Background(), exemplar.Source, run.images, gs); err != nil {
 		return 0, err
 	}
-	before := len(u.suggestions)
-	u.loadSuggestions()
-	if c, ok := u.perImg[u.imageID]; ok || len(u.suggestions) != before {
-		c.Pending += len(u.suggestions) - before
-		u.perImg[u.imageID] = c
-	}
+	u.reloadSuggestions()
 	u.refreshBoxes()
 	return len(gs), nil
 }

@@ -91,7 +91,7 @@ func (u *ui) suggestionForm(path, source, layout, minScore string, useNMS bool, 
 	if layout == "from the file name" {
 		j.Layout = ops.LayoutFromPath(path)
 	} else {
-		l, err := suggest.ParseLayout(layout)
+		l, err := suggest.ParsePredictionLayout(layout)
 		if err != nil {
 			return j, err
 		}

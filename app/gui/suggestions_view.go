@@ -46,6 +46,20 @@ func (u *ui) loadSuggestions() {
 	u.suggestions = gs
 }
 
+// reloadSuggestions reads the pending suggestions of the image on screen
+// again and moves the image list's pending count by the change, never
+// below zero. Every change of suggestions on screen goes through it.
+func (u *ui) reloadSuggestions() {
+	before := len(u.suggestions)
+	u.loadSuggestions()
+	c, ok := u.perImg[u.imageID]
+	if !ok && len(u.suggestions) == before {
+		return
+	}
+	c.Pending = max(0, c.Pending+len(u.suggestions)-before)
+	u.perImg[u.imageID] = c
+}
+
 // suggestion is a pending suggestion as the person has edited it so far.
 func (u *ui) suggestion(id int64) (project.Suggestion, bool) {
 	if g, ok := u.suggestionEdits[id]; ok {
@@ -148,14 +162,7 @@ func (u *ui) afterReview(n int, err error) {
 	if err != nil {
 		dialog.ShowError(err, u.win)
 	}
-	before := len(u.suggestions)
-	u.loadSuggestions()
-	c := u.perImg[u.imageID]
-	c.Pending += len(u.suggestions) - before
-	if c.Pending < 0 {
-		c.Pending = 0
-	}
-	u.perImg[u.imageID] = c
+	u.reloadSuggestions()
 	u.afterEdit(nil)
 	if err == nil {
 		u.status.SetText(fmt.Sprintf("Decided %s; Ctrl+Z undoes it.", ops.Plural(n, "suggestion")))
@@ -307,12 +314,7 @@ func (u *ui) suggestionsChanged() {
 	if u.sess != nil {
 		u.sess.Forget(u.imageID)
 	}
-	before := len(u.suggestions)
-	u.loadSuggestions()
-	if c, ok := u.perImg[u.imageID]; ok || len(u.suggestions) != before {
-		c.Pending += len(u.suggestions) - before
-		u.perImg[u.imageID] = c
-	}
+	u.reloadSuggestions()
 	u.loadOthers()
 	u.recount()
 	u.refreshBoxes()

@@ -2,10 +2,14 @@ package gui
 
 import (
 	"context"
+	"fmt"
+	"slices"
+	"strings"
 	"testing"
 
 	"fyne.io/fyne/v2"
 	"fyne.io/fyne/v2/test"
+	"fyne.io/fyne/v2/widget"
 
 	"boxwright/app/internal/testkit"
 	"boxwright/app/ops"
@@ -207,5 +211,48 @@ func TestReviewWindowDecisionsReachTheMainWindow(t *testing.T) {
 		if g.ID == target.ID {
 			t.Errorf("the rejected suggestion is still shown")
 		}
+	}
+}
+
+// navigatorDetail is the second line of the image list's row for the image
+// on screen, as the list draws it.
+func navigatorDetail(t *testing.T, u *ui) string {
+	t.Helper()
+	i := slices.IndexFunc(u.images, func(im project.Image) bool { return im.ID == u.imageID })
+	row := u.nav.rowOf(i)
+	if row < 0 {
+		t.Fatal("the image on screen is not in the list")
+	}
+	o := u.nav.newRow()
+	u.nav.updateRow(row, o)
+	return o.(*fyne.Container).Objects[0].(*fyne.Container).Objects[1].(*widget.Label).Text
+}
+
+// The image list's pending count follows every decision on the image on
+// screen: accepting one, rejecting the rest (never below zero) and undoing.
+func TestNavigatorPendingCountFollowsDecisions(t *testing.T) {
+	u, _ := openDemoAs(t, "Ines")
+	n := len(u.suggestions)
+	if n < 2 {
+		t.Fatalf("the demo's first image has %d pending suggestions; the test needs 2", n)
+	}
+	if got, want := navigatorDetail(t, u), fmt.Sprintf("%d pending", n); !strings.Contains(got, want) {
+		t.Fatalf("before any decision the row says %q, want %q", got, want)
+	}
+	u.view.Select(suggestionKey(u.suggestions[0].ID))
+	u.view.TypedRune('a')
+	if got, want := navigatorDetail(t, u), fmt.Sprintf("%d pending", n-1); !strings.Contains(got, want) {
+		t.Errorf("after accepting one the row says %q, want %q", got, want)
+	}
+	for len(u.suggestions) > 0 {
+		u.view.Select(suggestionKey(u.suggestions[0].ID))
+		u.view.TypedRune('z')
+	}
+	if got := navigatorDetail(t, u); strings.Contains(got, "pending") || u.perImg[u.imageID].Pending != 0 {
+		t.Errorf("after deciding all the row says %q (count %d)", got, u.perImg[u.imageID].Pending)
+	}
+	u.undo()
+	if got := navigatorDetail(t, u); !strings.Contains(got, "1 pending") {
+		t.Errorf("after undoing the last rejection the row says %q", got)
 	}
 }

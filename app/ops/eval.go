@@ -30,7 +30,7 @@ type EvalJob struct {
 	Truth       string
 	Source      string // suggestions of this source, or
 	Predictions string // a prediction file
-	Layout      suggest.Layout
+	Layout      suggest.PredictionLayout
 }
 
 // LoadEval reads the ground truth and the predictions. Only images the

@@ -28,7 +28,7 @@ func (r UnknownClassRule) drops(name string) bool   { return r.Drop || r.DropNam
 // SuggestionJob is one import of a prediction file.
 type SuggestionJob struct {
 	Source, Path, ClassesFile string
-	Layout                    suggest.Layout
+	Layout                    suggest.PredictionLayout
 	Filter                    suggest.Filter
 	Unknown                   UnknownClassRule
 	// Probe, when set, receives the unknown class names and stops the
@@ -168,14 +168,14 @@ func RunSuggestionImport(ctx context.Context, st backend.Project, j SuggestionJo
 }
 
 // LayoutFromPath guesses a prediction file's layout from its extension.
-func LayoutFromPath(p string) suggest.Layout {
+func LayoutFromPath(p string) suggest.PredictionLayout {
 	switch strings.ToLower(filepath.Ext(p)) {
 	case ".json":
-		return "json"
+		return suggest.PredictionJSON
 	case ".csv":
-		return "csv"
+		return suggest.PredictionCSV
 	}
-	return "txt"
+	return suggest.PredictionText
 }
 
 // ReviewStats is what "suggestions stats" reports for one source.

@@ -28,7 +28,7 @@ type Matcher struct {
 	Load func(ctx context.Context, im project.Image) (image.Image, error)
 	// Existing returns the labels of this class already on an image; no
 	// proposal overlapping one (IoU > 0.3) is made. Nil means none.
-	Existing func(imageID int64) []project.Box
+	Existing func(imageID int64) ([]project.Box, error)
 }
 
 // Name returns "exemplar".
@@ -95,7 +95,10 @@ func (m *Matcher) Suggest(ctx context.Context, images []project.Image, classes [
 		}
 		var existing []project.Box
 		if m.Existing != nil {
-			existing = m.Existing(im.ID)
+			// Without them, places already labelled would be proposed again.
+			if existing, err = m.Existing(im.ID); err != nil {
+				return nil, fmt.Errorf("exemplar matcher: reading the labels on image %d (%s): %w", im.ID, im.Path, err)
+			}
 		}
 		for _, mt := range matches {
 			if overlapsAny(mt.Box, existing, existingIoU) {

@@ -375,11 +375,11 @@ func matcherScene() (*Matcher, []project.Image) {
 			}
 			return img2, nil
 		},
-		Existing: func(id int64) []project.Box {
+		Existing: func(id int64) ([]project.Box, error) {
 			if id == 2 {
-				return []project.Box{box(151, 201, 24, 20)} // already labelled, a pixel off
+				return []project.Box{box(151, 201, 24, 20)}, nil // already labelled, a pixel off
 			}
-			return nil
+			return nil, nil
 		},
 	}
 	return m, []project.Image{{ID: 1, Path: "one.png"}, {ID: 2, Path: "two.png"}}
@@ -455,5 +455,16 @@ func TestMatcherErrors(t *testing.T) {
 	m.ClassID = 0
 	if _, err := m.Suggest(context.Background(), images[:1], nil, nil); err == nil {
 		t.Error("no class: no error")
+	}
+}
+
+// A failed read of the labels already there stops the search with an error
+// that names the image, instead of proposing labelled places again.
+func TestMatcherSuggestStopsWhenExistingFails(t *testing.T) {
+	m, images := matcherScene()
+	m.Existing = func(id int64) ([]project.Box, error) { return nil, errors.New("disk I/O error") }
+	_, err := m.Suggest(context.Background(), images, []project.Class{{ID: 9, Name: "crate"}}, nil)
+	if err == nil || !strings.Contains(err.Error(), "disk I/O error") || !strings.Contains(err.Error(), "reading the labels on image") {
+		t.Errorf("error %v", err)
 	}
 }
