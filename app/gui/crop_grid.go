@@ -2,20 +2,15 @@ package gui
 
 import (
 	"cmp"
-	"container/list"
 	"context"
 	"errors"
 	"fmt"
 	"image"
-	"image/color"
-	"image/draw"
-	"math"
 	"slices"
 	"strings"
 	"sync"
 
 	"fyne.io/fyne/v2"
-	fcanvas "fyne.io/fyne/v2/canvas"
 	"fyne.io/fyne/v2/container"
 	"fyne.io/fyne/v2/dialog"
 	"fyne.io/fyne/v2/layout"
@@ -24,9 +19,7 @@ import (
 
 	"boxwright/app/backend"
 	"boxwright/app/ops"
-	"boxwright/canvas"
 	"boxwright/project"
-	"boxwright/store/imagefile"
 )
 
 // cropLoader makes the small picture of one suggestion for the crop grid.
@@ -517,167 +510,4 @@ func (g *cropGrid) cropFromImage(ctx context.Context, s project.Suggestion) (ima
 		return nil, err
 	}
 	return cropOf(p, s.Box, cropSide, g.u.classBy[s.ClassID].Color), nil
-}
-
-// cropOf cuts the box with a margin out of the pyramid, at most side
-// pixels along its longer edge, with the box outlined. The result owns
-// its pixels, so a cached crop does not hold the whole image.
-func cropOf(p *canvas.Pyramid, b project.Box, side int, col color.NRGBA) *image.RGBA {
-	w, h := p.Size()
-	r := cropRegion(b, float64(w), float64(h))
-	scale := float64(side) / math.Max(r.Width(), r.Height())
-	lvl := p.Level(p.LevelFor(scale))
-	f := float64(lvl.Rect.Dx()) / float64(w)
-	ir := image.Rect(int(math.Floor(r.X0*f)), int(math.Floor(r.Y0*f)), int(math.Ceil(r.X1*f)), int(math.Ceil(r.Y1*f))).Intersect(lvl.Rect)
-	if ir.Empty() {
-		return image.NewRGBA(image.Rect(0, 0, 1, 1))
-	}
-	t := imagefile.Thumbnail(lvl.SubImage(ir), side)
-	out := image.NewRGBA(image.Rect(0, 0, t.Bounds().Dx(), t.Bounds().Dy()))
-	draw.Draw(out, out.Rect, t, t.Bounds().Min, draw.Src)
-	// The box in crop pixels: a dark line outside a coloured one, so it
-	// shows on light and dark images alike.
-	sx, sy := float64(out.Rect.Dx())/r.Width(), float64(out.Rect.Dy())/r.Height()
-	bx := image.Rect(int((b.X0-r.X0)*sx), int((b.Y0-r.Y0)*sy), int(math.Ceil((b.X1-r.X0)*sx)), int(math.Ceil((b.Y1-r.Y0)*sy)))
-	outline(out, bx.Inset(-1), color.NRGBA{0, 0, 0, 0xff})
-	col.A = 0xff
-	outline(out, bx, col)
-	return out
-}
-
-// cropRegion is a square around the box, a fifth of its longer side
-// larger on each side (at least 24 px), moved and cut to lie on the image.
-func cropRegion(b project.Box, w, h float64) project.Box {
-	n := math.Max(1.4*math.Max(b.Width(), b.Height()), 24)
-	cx, cy := b.Center()
-	axis := func(c, max float64) (float64, float64) {
-		m := math.Min(n, max)
-		a := math.Min(math.Max(c-m/2, 0), max-m)
-		return a, a + m
-	}
-	x0, x1 := axis(cx, w)
-	y0, y1 := axis(cy, h)
-	return project.Box{X0: x0, Y0: y0, X1: x1, Y1: y1}
-}
-
-func outline(dst *image.RGBA, r image.Rectangle, c color.NRGBA) {
-	r = r.Canon()
-	for x := r.Min.X; x < r.Max.X; x++ {
-		setIn(dst, x, r.Min.Y, c)
-		setIn(dst, x, r.Max.Y-1, c)
-	}
-	for y := r.Min.Y; y < r.Max.Y; y++ {
-		setIn(dst, r.Min.X, y, c)
-		setIn(dst, r.Max.X-1, y, c)
-	}
-}
-
-func setIn(dst *image.RGBA, x, y int, c color.NRGBA) {
-	if (image.Point{x, y}).In(dst.Rect) {
-		dst.Set(x, y, c)
-	}
-}
-
-// cropCache keeps the most recently used crops by suggestion ID.
-type cropCache struct {
-	max   int
-	order *list.List // front: most recent; values are *cropEntry
-	by    map[int64]*list.Element
-}
-
-type cropEntry struct {
-	id  int64
-	img image.Image
-}
-
-func newCropCache(max int) *cropCache {
-	return &cropCache{max: max, order: list.New(), by: map[int64]*list.Element{}}
-}
-
-func (c *cropCache) get(id int64) image.Image {
-	if e, ok := c.by[id]; ok {
-		c.order.MoveToFront(e)
-		return e.Value.(*cropEntry).img
-	}
-	return nil
-}
-
-func (c *cropCache) put(id int64, img image.Image) {
-	if e, ok := c.by[id]; ok {
-		e.Value.(*cropEntry).img = img
-		c.order.MoveToFront(e)
-		return
-	}
-	c.by[id] = c.order.PushFront(&cropEntry{id, img})
-	for c.order.Len() > c.max {
-		old := c.order.Back()
-		c.order.Remove(old)
-		delete(c.by, old.Value.(*cropEntry).id)
-	}
-}
-
-func (c *cropCache) len() int { return c.order.Len() }
-
-// cropCell is one cell of the grid: the crop, its score, and, when
-// marked wrong, a dark veil with a cross (no reliance on red).
-type cropCell struct {
-	widget.BaseWidget
-	id    int64 // the suggestion shown; 0 none
-	img   *fcanvas.Image
-	veil  *fcanvas.Rectangle
-	cross *fcanvas.Text
-	score *fcanvas.Text
-	note  *fcanvas.Text
-}
-
-func newCropCell() *cropCell {
-	c := &cropCell{img: fcanvas.NewImageFromImage(nil), veil: fcanvas.NewRectangle(color.NRGBA{0x10, 0x10, 0x18, 0xc8}),
-		cross: fcanvas.NewText("× wrong", color.White), score: fcanvas.NewText("", theme.Color(theme.ColorNameForeground)),
-		note: fcanvas.NewText("", theme.Color(theme.ColorNamePlaceHolder))}
-	c.img.FillMode = fcanvas.ImageFillContain
-	c.img.ScaleMode = fcanvas.ImageScaleFastest
-	c.img.SetMinSize(fyne.NewSize(cropSide, cropSide))
-	c.cross.TextSize = 22
-	c.cross.TextStyle = fyne.TextStyle{Bold: true}
-	c.cross.Alignment = fyne.TextAlignCenter
-	c.score.Alignment = fyne.TextAlignCenter
-	c.note.Alignment = fyne.TextAlignCenter
-	c.veil.Hide()
-	c.cross.Hide()
-	c.ExtendBaseWidget(c)
-	return c
-}
-
-func (c *cropCell) CreateRenderer() fyne.WidgetRenderer {
-	bg := fcanvas.NewRectangle(color.NRGBA{0x30, 0x30, 0x30, 0xff})
-	pic := container.NewStack(bg, container.NewCenter(c.note), c.img, c.veil, container.NewCenter(c.cross))
-	return widget.NewSimpleRenderer(container.NewBorder(nil, c.score, nil, nil, pic))
-}
-
-// show sets the cell's content; a nil image shows a placeholder until
-// the crop arrives.
-func (c *cropCell) show(img image.Image, score string, marked bool) {
-	c.score.Text = score
-	c.score.Refresh()
-	c.setImage(img, nil)
-	if marked {
-		c.veil.Show()
-		c.cross.Show()
-	} else {
-		c.veil.Hide()
-		c.cross.Hide()
-	}
-}
-
-func (c *cropCell) setImage(img image.Image, err error) {
-	c.note.Text = ""
-	switch {
-	case err != nil:
-		c.note.Text = "no picture"
-	case img == nil:
-		c.note.Text = "…"
-	}
-	c.note.Refresh()
-	c.img.Image = img
-	c.img.Refresh()
 }

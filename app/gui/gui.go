@@ -1,16 +1,22 @@
-// Package gui is Boxwright's window: the ui type (gui.go: the window,
-// menus, opening projects, background jobs) and one file per screen or
-// widget (labelling.go, navigator.go, classbar.go, classrow.go,
-// suggestions_view.go, review_queue.go, crop_grid.go, agree_screen.go,
-// eval_screen.go, similar.go, dataset.go, suggestions.go, sorttable.go).
-// Work that is not about the screen goes through package ops.
+// Package gui is Boxwright's window. gui.go holds the ui type (the window,
+// its menus, opening and reloading a project); the rest is one file per
+// concern: project_dialogs.go (open, new, demo, add images, relink),
+// jobs.go (background jobs with progress), cautions.go; the labelling
+// screen in labelling.go (edits), keys.go, navigation.go, annotator.go,
+// saving.go, navigator.go (image list), classbar.go and classrow.go,
+// prefetch.go, suggestions_view.go; the review screens review_queue.go
+// with review_view.go, and crop_grid.go with crop_cell.go, crop_cache.go
+// and crop_image.go; the report screens agree_screen.go, compare_view.go,
+// eval_screen.go and suggestions.go; similar.go (find similar objects),
+// dataset.go (import and export dialogs), sorttable.go and
+// save_dialogs.go. Work that is not about the screen goes through package
+// ops.
 package gui
 
 import (
 	"context"
 	"fmt"
 	"io"
-	"os"
 	"path/filepath"
 	"strings"
 
@@ -19,7 +25,6 @@ import (
 	"fyne.io/fyne/v2/container"
 	"fyne.io/fyne/v2/dialog"
 	"fyne.io/fyne/v2/layout"
-	"fyne.io/fyne/v2/storage"
 	"fyne.io/fyne/v2/theme"
 	"fyne.io/fyne/v2/widget"
 
@@ -415,21 +420,6 @@ func statusWord(s project.ImageStatus) string {
 	return string(s)
 }
 
-// reportMissing offers to look for moved image files by their content.
-func (u *ui) reportMissing() {
-	missing, err := u.st.MissingImages(context.Background())
-	if err != nil || len(missing) == 0 {
-		return
-	}
-	msg := fmt.Sprintf("%s of this project cannot be found where the project expects them (for example %s).\n\nLook for them in a folder? Files are matched by their content, so renamed files are found too.",
-		ops.Plural(len(missing), "image file"), missing[0].Path)
-	dialog.ShowConfirm("Images missing", msg, func(ok bool) {
-		if ok {
-			u.askRelink()
-		}
-	}, u.win)
-}
-
 func (u *ui) showError(err error) { dialog.ShowError(err, u.win) }
 
 // haveProject says whether a project is open, and tells the user to open
@@ -440,201 +430,3 @@ func (u *ui) haveProject() bool {
 	}
 	return u.st != nil
 }
-
-func (u *ui) askOpen() {
-	d := dialog.NewFileOpen(func(r fyne.URIReadCloser, err error) {
-		if err != nil || r == nil {
-			return
-		}
-		r.Close()
-		if err := u.openProject(r.URI().Path()); err != nil {
-			u.showError(err)
-		}
-	}, u.win)
-	d.SetFilter(storage.NewExtensionFileFilter([]string{backend.Extension}))
-	d.Show()
-}
-
-func (u *ui) askNew() {
-	d := dialog.NewFileSave(func(w fyne.URIWriteCloser, err error) {
-		if err != nil || w == nil {
-			return
-		}
-		path := w.URI().Path()
-		w.Close()
-		os.Remove(path) // the dialog made an empty file; Create refuses to overwrite
-		if !strings.HasSuffix(path, backend.Extension) {
-			path += backend.Extension
-		}
-		s, err := backend.Create(path)
-		if err != nil {
-			u.showError(err)
-			return
-		}
-		s.Close()
-		if err := u.openProject(path); err != nil {
-			u.showError(err)
-		}
-	}, u.win)
-	d.SetFileName("project" + backend.Extension)
-	d.Show()
-}
-
-func (u *ui) askDemo() {
-	dialog.ShowFolderOpen(func(l fyne.ListableURI, err error) {
-		if err != nil || l == nil {
-			return
-		}
-		dir := filepath.Join(l.Path(), "boxwright-demo")
-		path := filepath.Join(dir, ops.DemoProjectName)
-		if _, err := os.Stat(path); err == nil {
-			if err := u.openProject(path); err != nil {
-				u.showError(err)
-			}
-			return
-		}
-		u.runJob("Making the demo project", func(ctx context.Context, progress func(float64)) error {
-			return ops.MakeDemo(ctx, dir, ops.DemoDefaults, func(done, total int) { progress(float64(done) / float64(total)) })
-		}, func() {
-			if err := u.openProject(path); err != nil {
-				u.showError(err)
-			}
-		})
-	}, u.win)
-}
-
-func (u *ui) askAddFolder() {
-	if !u.haveProject() {
-		return
-	}
-	dialog.ShowFolderOpen(func(l fyne.ListableURI, err error) {
-		if err == nil && l != nil {
-			u.intake([]string{l.Path()}, false)
-		}
-	}, u.win)
-}
-
-func (u *ui) askAddFile() {
-	if !u.haveProject() {
-		return
-	}
-	d := dialog.NewFileOpen(func(r fyne.URIReadCloser, err error) {
-		if err == nil && r != nil {
-			r.Close()
-			u.intake([]string{r.URI().Path()}, false)
-		}
-	}, u.win)
-	d.SetFilter(storage.NewExtensionFileFilter([]string{".jpg", ".jpeg", ".png", ".gif", ".bmp", ".tif", ".tiff", ".webp"}))
-	d.Show()
-}
-
-func (u *ui) askRelink() {
-	if u.st == nil {
-		return
-	}
-	dialog.ShowFolderOpen(func(l fyne.ListableURI, err error) {
-		if err == nil && l != nil {
-			u.intake([]string{l.Path()}, true)
-		}
-	}, u.win)
-}
-
-// intake adds (or, with relinkOnly, finds) images as a background job and
-// shows the summary.
-func (u *ui) intake(paths []string, relinkOnly bool) {
-	st := u.st
-	var rep project.IntakeReport
-	title := "Adding images"
-	if relinkOnly {
-		title = "Looking for moved images"
-	}
-	u.runJob(title, func(ctx context.Context, progress func(float64)) error {
-		var err error
-		rep, err = st.AddImages(ctx, paths, project.IntakeOptions{RelinkOnly: relinkOnly,
-			Progress: func(done, total int) { progress(float64(done) / float64(total)) }})
-		return err
-	}, func() {
-		if err := u.reload(); err != nil {
-			u.showError(err)
-		}
-		if u.selected < 0 && len(u.images) > 0 {
-			u.selectIndex(0)
-		}
-		msg := fmt.Sprintf("Added %d, already known %d, relinked %d, skipped %d.", rep.Added, rep.Duplicates, rep.Relinked, len(rep.Failed))
-		for i, f := range rep.Failed {
-			if i == 10 {
-				msg += fmt.Sprintf("\n… and %d more", len(rep.Failed)-10)
-				break
-			}
-			msg += fmt.Sprintf("\n• %s: %s", filepath.Base(f.Path), f.Error)
-		}
-		dialog.ShowInformation(title, msg, u.win)
-	})
-}
-
-// runJob runs work in the background behind a progress dialog with a
-// Cancel button; done runs on the Fyne goroutine when work succeeded.
-func (u *ui) runJob(title string, work func(ctx context.Context, progress func(float64)) error, done func()) {
-	ctx, cancel := context.WithCancel(context.Background())
-	// A moving bar until the job reports how far it is.
-	bar := widget.NewProgressBar()
-	busy := widget.NewProgressBarInfinite()
-	bar.Hide()
-	d := dialog.NewCustom(title, "Cancel", container.NewVBox(widget.NewLabel(title+"…"), container.NewStack(busy, bar)), u.win)
-	// Closing the dialog (Cancel) cancels the job, but not once it has
-	// finished: Fyne chains closing callbacks, so this one decides.
-	finished := false
-	d.SetOnClosed(func() {
-		if !finished {
-			cancel()
-		}
-	})
-	d.Show()
-	go func() {
-		err := work(ctx, func(f float64) {
-			fyne.Do(func() {
-				if !busy.Hidden {
-					busy.Stop()
-					busy.Hide()
-					bar.Show()
-				}
-				bar.SetValue(f)
-			})
-		})
-		fyne.Do(busy.Stop)
-		fyne.Do(func() {
-			cancelled := ctx.Err() != nil
-			finished = true
-			d.Hide()
-			cancel()
-			switch {
-			case err != nil && !cancelled:
-				u.showError(err)
-			case cancelled:
-				if err := u.reload(); err == nil && u.st != nil {
-					dialog.ShowInformation(title, "Cancelled. Everything finished before the cancel is kept.", u.win)
-				}
-			default:
-				done()
-			}
-		})
-	}()
-}
-
-func (u *ui) showCautions() {
-	dialog.ShowInformation("Cautions", cautionLong, u.win)
-}
-
-func (u *ui) showAbout() {
-	dialog.ShowInformation("About Boxwright", "Boxwright — a workbench for bounding-box datasets.\nProjects are single SQLite files (.boxw); everything runs offline.", u.win)
-}
-
-const cautionShort = "Images of people or vehicles can hold personal data (faces, number plates). Follow your organisation's rules and local law when storing and sharing them."
-
-const cautionLong = `Personal data: images of people or vehicles can hold personal data (faces, number plates) that data-protection law governs. Follow your organisation's rules and local law on storing and sharing them.
-
-Agreement figures: the verbal bands shown beside agreement figures are conventions from the literature, not acceptance criteria.
-
-Model figures and suggestions: average precision and suggested score thresholds describe this model on these images as labelled here, not performance elsewhere. Suggestions accepted in bulk carry the model's mistakes into the ground truth; review samples of them.
-
-Safety: datasets for safety-relevant detectors need the validation that their field's standards require; Boxwright's figures do not replace it.`
