@@ -1,0 +1,56 @@
+package cli
+
+// usage is the help text; keep it in step with the commands table and the
+// README.
+const usage = `Usage: boxwright [COMMAND [ARGS]]
+
+With no command, opens the window.
+
+Commands:
+  open PROJECT.boxw [--annotator NAME]  open a project in the window
+  new PROJECT.boxw                      create an empty project (never overwrites)
+  add-images PROJECT.boxw PATH...       add image files and folders (recursive)
+        [--max-megapixels N] [--json]
+  relink PROJECT.boxw FOLDER [--json]   find moved image files by their content
+  classes PROJECT.boxw list [--json]
+  classes PROJECT.boxw add NAME...
+  classes PROJECT.boxw rename OLD NEW
+  classes PROJECT.boxw merge FROM INTO  move FROM's labels to INTO, delete FROM
+  classes PROJECT.boxw delete NAME      only when it has no labels
+  info PROJECT.boxw [--json]            counts of images, labels, suggestions
+  images PROJECT.boxw [--json]          one line per image
+  import PROJECT.boxw --layout json|xml|txt [--annotator NAME] PATH
+        [--images DIR] [--classes FILE] [--map FROM=TO]... [--create-classes]
+        [--strict] [--json]
+                                        import labels (all or nothing)
+  export PROJECT.boxw --layout json|xml|txt --annotator NAME --out DIR
+        [--split 80/10/10] [--seed N] [--images copy|link|none] [--json]
+                                        write a split dataset
+  suggestions import PROJECT.boxw FILE --source NAME [--layout json|txt|csv]
+        [--classes FILE] [--min-score S] [--nms IOU] [--map FROM=TO]...
+        [--create-classes|--drop-unknown] [--json]
+                                        import a model's predictions for review
+  suggestions stats PROJECT.boxw [--source NAME] [--json]
+                                        what the review decisions say per source
+  similar PROJECT.boxw --image PATH --exemplar x0,y0,x1,y1 [--class NAME]
+        [--threshold 0.6] [--scales 0.8:1.25:5] [--rotations]
+        [--feature gray|gradient|color] [--save] [--json]
+                                        objects like the example in one image
+  eval PROJECT.boxw --truth ANNOTATOR (--source NAME | --predictions FILE)
+        [--protocol voc|coco] [--iou 0.5] [--interpolation all|11|101]
+        [--plus-one] [--threshold 0.5] [--json]
+                                        score a model against ground truth
+  agree PROJECT.boxw --annotators A,B[,C...] [--iou 0.5] [--class-aware]
+        [--worst N] [--json|--csv]      box agreement, kappa, alpha, worst images
+  consensus PROJECT.boxw --annotators A,B[,C...] [--iou 0.5] [--min K]
+        [--median]                      store the consensus as annotator "consensus"
+  kappa --table FILE.csv [--weights none|linear|quadratic|W.csv] [--json]
+  kappa --ratings FILE.csv [--level nominal|ordinal|interval|ratio]
+        [--weights W] [--categories a,b,c] [--json]
+                                        Cohen's, Fleiss' kappa, Krippendorff's alpha
+  demo DIR [--no-open] [--seed N]       make the invented harbour demo in DIR
+  help                                  this text
+
+Every command exits non-zero with a message on stderr when it fails.
+`
+
