@@ -139,4 +139,3 @@ func Run(args []string, stdout, stderr io.Writer, window Window) int {
 	}
 	return 0
 }
-

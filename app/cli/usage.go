@@ -53,4 +53,3 @@ Commands:
 
 Every command exits non-zero with a message on stderr when it fails.
 `
-
