@@ -153,6 +153,7 @@ type Store interface {
 	ImageStore
 	LabelStore
 	SuggestionStore
+	ModelStore
 	Counts(ctx context.Context) (Counts, error)
 	// CountsByImage has an entry for every image that has labels or
 	// pending suggestions.

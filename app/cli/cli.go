@@ -52,6 +52,7 @@ func commands(window Window) map[string]command {
 		"agree":       cmdAgree,
 		"consensus":   cmdConsensus,
 		"kappa":       cmdKappa,
+		"models":      cmdModels,
 		"demo":        func(args []string, stdout, stderr io.Writer) error { return cmdDemo(args, stdout, stderr, window) },
 	}
 }

@@ -48,6 +48,7 @@ Commands:
   kappa --ratings FILE.csv [--level nominal|ordinal|interval|ratio]
         [--weights W] [--categories a,b,c] [--json]
                                         Cohen's, Fleiss' kappa, Krippendorff's alpha
+  models PROJECT.boxw [--json]          the detectors trained in this project
   demo DIR [--no-open] [--seed N]       make the invented harbour demo in DIR
   help                                  this text
 
