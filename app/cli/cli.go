@@ -53,6 +53,8 @@ func commands(window Window) map[string]command {
 		"consensus":   cmdConsensus,
 		"kappa":       cmdKappa,
 		"models":      cmdModels,
+		"train":       cmdTrain,
+		"detect":      cmdDetect,
 		"demo":        func(args []string, stdout, stderr io.Writer) error { return cmdDemo(args, stdout, stderr, window) },
 	}
 }

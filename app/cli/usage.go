@@ -48,6 +48,12 @@ Commands:
   kappa --ratings FILE.csv [--level nominal|ordinal|interval|ratio]
         [--weights W] [--categories a,b,c] [--json]
                                         Cohen's, Fleiss' kappa, Krippendorff's alpha
+  train PROJECT.boxw --annotator NAME [--classes a,b] [--minutes M | --epochs N]
+        [--validation 0.2] [--seed S] [--threads N] [--rotations] [--continue]
+        [--json]                        train a detector on the project's labels
+  detect PROJECT.boxw [--model NAME] [--images unlabelled|all] [--min-score S]
+        [--nms IOU] [--source NAME] [--save] [--json]
+                                        run the current (or named) model
   models PROJECT.boxw [--json]          the detectors trained in this project
   demo DIR [--no-open] [--seed N]       make the invented harbour demo in DIR
   help                                  this text

@@ -106,7 +106,8 @@ type ui struct {
 	showSuggestions     *widget.Check
 	suggestionThreshold float64
 
-	similar    *similarRun // the last exemplar search, for its live threshold
+	similar    *similarRun  // the last exemplar search, for its live threshold
+	training   *trainScreen // the training window, while it is open
 	similarWin fyne.Window
 
 	agree       *agreeScreen // the agreement report window, when open
@@ -224,6 +225,7 @@ func (u *ui) menu() *fyne.MainMenu {
 	sugg := fyne.NewMenu("Suggestions",
 		fyne.NewMenuItem("Import predictions…", u.askImportSuggestions),
 		fyne.NewMenuItem("Find objects like the selected box… (Ctrl+F)", u.askFindSimilar),
+		fyne.NewMenuItem("Train a detector on this project… (Ctrl+T)", u.showTraining),
 		fyne.NewMenuItemSeparator(),
 		fyne.NewMenuItem("Accept selected suggestion (A)", u.acceptSuggestion),
 		fyne.NewMenuItem("Reject selected suggestion (Z)", u.rejectSuggestion),

@@ -26,6 +26,7 @@ func (u *ui) addShortcuts() {
 	add(fyne.KeyR, ctrl, u.showReviewQueue)
 	add(fyne.KeyF, ctrl, u.askFindSimilar)
 	add(fyne.KeyJ, ctrl, u.showCropGrid)
+	add(fyne.KeyT, ctrl, u.showTraining)
 	c.AddShortcut(&fyne.ShortcutUndo{}, func(fyne.Shortcut) { u.undo() })
 	c.AddShortcut(&fyne.ShortcutRedo{}, func(fyne.Shortcut) { u.redo() })
 	add(fyne.KeyZ, ctrl|fyne.KeyModifierShift, u.redo)
@@ -148,6 +149,7 @@ SUGGESTIONS (a model's boxes: dotted, tinted, "suggested … score")
   Ctrl+F                    find objects like the selected box (by correlation)
   Ctrl+R                    review one by one (A accept, Z reject, S skip, U undo)
   Ctrl+J                    review a grid of crops of one class
+  Ctrl+T                    train a detector on this project (a window of its own)
 
 VIEW
   wheel                     zoom around the pointer (5 % … 3200 %)

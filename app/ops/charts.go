@@ -11,6 +11,8 @@ import (
 	"os"
 	"strconv"
 
+	"boxwright/project"
+
 	"gonum.org/v1/plot"
 	"gonum.org/v1/plot/palette"
 	"gonum.org/v1/plot/plotter"
@@ -277,4 +279,38 @@ func SavePlotPNG(p *plot.Plot, w, h int, path string) error {
 		return fmt.Errorf("save chart %s: %w", path, err)
 	}
 	return nil
+}
+
+// LearningCurvePlots draws a training run's loss and validation AP50 per
+// epoch, as two charts (their scales differ).
+func LearningCurvePlots(epochs []project.Epoch) (loss, ap *plot.Plot, err error) {
+	loss, ap = plot.New(), plot.New()
+	loss.Title.Text, ap.Title.Text = "Training loss", "Validation AP50"
+	loss.X.Label.Text, ap.X.Label.Text = "epoch", "epoch"
+	loss.Y.Label.Text, ap.Y.Label.Text = "loss", "AP50"
+	loss.Y.Min, ap.Y.Min, ap.Y.Max = 0, 0, 1
+	var ls, as plotter.XYs
+	for _, e := range epochs {
+		if !math.IsNaN(e.Loss) && !math.IsInf(e.Loss, 0) {
+			ls = append(ls, plotter.XY{X: float64(e.Epoch), Y: e.Loss})
+		}
+		if !math.IsNaN(e.ValAP50) {
+			as = append(as, plotter.XY{X: float64(e.Epoch), Y: e.ValAP50})
+		}
+	}
+	for _, c := range []struct {
+		p   *plot.Plot
+		xys plotter.XYs
+	}{{loss, ls}, {ap, as}} {
+		c.p.Add(plotter.NewGrid())
+		if len(c.xys) == 0 {
+			continue
+		}
+		line, points, err := plotter.NewLinePoints(c.xys)
+		if err != nil {
+			return nil, nil, err
+		}
+		c.p.Add(line, points)
+	}
+	return loss, ap, nil
 }

@@ -1,0 +1,174 @@
+package cli
+
+import (
+	"flag"
+	"fmt"
+	"io"
+	"math"
+	"strings"
+	"time"
+
+	"boxwright/app/ops"
+	"boxwright/project"
+	"boxwright/suggest/detector/nn"
+)
+
+func cmdTrain(args []string, stdout, stderr io.Writer) error {
+	fs := flag.NewFlagSet("train", flag.ContinueOnError)
+	annotator := fs.String("annotator", "", "learn this annotator's labels (for example consensus)")
+	classes := fs.String("classes", "", "the classes to learn, comma-separated (default: every class with enough boxes)")
+	minutes := fs.Float64("minutes", 0, "stop after this many minutes (the epoch under way finishes)")
+	epochs := fs.Int("epochs", 0, "stop after this many epochs")
+	validation := fs.Float64("validation", 0.2, "share of the images held out for validation")
+	seed := fs.Uint64("seed", 1, "seed of the split, the initial weights and the augmentation")
+	threads := fs.Int("threads", 0, "threads for the arithmetic (0: every core)")
+	turns := fs.Bool("rotations", false, "the objects' orientation does not matter: also learn from quarter turns")
+	cont := fs.Bool("continue", false, "train the current model further when it has the same classes")
+	asJSON := fs.Bool("json", false, "print JSON")
+	const synopsis = "train PROJECT.boxw --annotator NAME [--classes a,b] [--minutes M | --epochs N] [--validation 0.2] [--seed S] [--threads N] [--rotations] [--continue] [--json]"
+	pos, err := parse(fs, args, 1, 1, synopsis)
+	if err != nil {
+		return err
+	}
+	switch {
+	case *annotator == "":
+		return usageError("--annotator is required: a model learns one annotator's labels\nusage: boxwright " + synopsis)
+	case *minutes <= 0 && *epochs <= 0:
+		return usageError("give --minutes or --epochs\nusage: boxwright " + synopsis)
+	case *minutes < 0 || math.IsNaN(*minutes) || math.IsInf(*minutes, 0) || *minutes > 7*24*60:
+		return usageError(fmt.Sprintf("--minutes %g: give a number of minutes above 0", *minutes))
+	case *epochs < 0 || *epochs > 100000:
+		return usageError(fmt.Sprintf("--epochs %d: give a number from 1 to 100000", *epochs))
+	case *validation < 0 || *validation > 0.9 || math.IsNaN(*validation):
+		return usageError(fmt.Sprintf("--validation %g: give a share from 0 to 0.9", *validation))
+	case *threads < 0 || *threads > 1024:
+		return usageError(fmt.Sprintf("--threads %d: give a number from 0 (every core) to 1024", *threads))
+	}
+	nn.SetThreads(*threads)
+	s, ctx, done, err := openCLI(pos[0])
+	if err != nil {
+		return err
+	}
+	defer done()
+	j := ops.TrainJob{Annotator: *annotator, Epochs: *epochs, Budget: time.Duration(*minutes * float64(time.Minute)),
+		Validation: *validation, Seed: *seed, QuarterTurns: *turns, Continue: *cont}
+	if *classes != "" {
+		j.Classes = splitNames(*classes)
+	}
+	if !*asJSON {
+		j.Epoch = func(e project.Epoch) {
+			fmt.Fprintf(stdout, "epoch %3d  loss %.4f  val AP50 %s  %.0f s\n", e.Epoch, e.Loss, ops.F4(e.ValAP50), e.Seconds)
+		}
+	}
+	rep, err := ops.Train(ctx, s, j)
+	for _, f := range rep.Failed {
+		fmt.Fprintf(stderr, "skipped image %s\n", f)
+	}
+	if err != nil {
+		return err
+	}
+	if *asJSON {
+		var es []map[string]any
+		for _, e := range rep.Model.Epochs {
+			es = append(es, map[string]any{"epoch": e.Epoch, "loss": ops.Num(e.Loss), "val_ap50": ops.Num(e.ValAP50), "seconds": e.Seconds})
+		}
+		return writeJSON(stdout, map[string]any{"model": rep.Model.Name, "epochs": es, "val_ap50": ops.Num(rep.Model.ValAP50),
+			"train_images": rep.TrainImages, "val_images": rep.ValImages, "classes": rep.Model.Classes, "input_size": rep.Model.InputSize,
+			"skipped_classes": nonNil(rep.Skipped), "failed_images": nonNil(rep.Failed), "continued": rep.Continued, "cache_bytes": rep.CacheBytes})
+	}
+	for _, sk := range rep.Skipped {
+		fmt.Fprintf(stdout, "class left out: %s\n", sk)
+	}
+	verb := "stored"
+	if rep.Continued {
+		verb = "trained further and stored"
+	}
+	fmt.Fprintf(stdout, "%s model %s (current): classes %s, input %d px, %d training and %d validation images, val AP50 %s, images cached %.0f MB\n",
+		verb, rep.Model.Name, strings.Join(rep.Model.Classes, ", "), rep.Model.InputSize, rep.TrainImages, rep.ValImages, ops.F4(rep.Model.ValAP50), float64(rep.CacheBytes)/1e6)
+	fmt.Fprintln(stdout, "A model trained on a few dozen images is a labelling aid, not a validated detector: review what it suggests.")
+	return nil
+}
+
+func nonNil(s []string) []string {
+	if s == nil {
+		return []string{}
+	}
+	return s
+}
+
+func cmdDetect(args []string, stdout, stderr io.Writer) error {
+	fs := flag.NewFlagSet("detect", flag.ContinueOnError)
+	model := fs.String("model", "", "the model to run (default: the current one)")
+	which := fs.String("images", "unlabelled", "unlabelled (images without labels, not skipped) or all")
+	minScore := fs.Float64("min-score", 0.3, "keep detections scoring at least this")
+	nms := fs.Float64("nms", 0.5, "IoU of per-class non-maximum suppression (0: none)")
+	source := fs.String("source", "", "source name of the suggestions (default: the model's name)")
+	save := fs.Bool("save", false, "store the detections as pending suggestions")
+	threads := fs.Int("threads", 0, "threads for the arithmetic (0: every core)")
+	asJSON := fs.Bool("json", false, "print JSON")
+	const synopsis = "detect PROJECT.boxw [--model NAME] [--images unlabelled|all] [--min-score S] [--nms IOU] [--source NAME] [--save] [--json]"
+	pos, err := parse(fs, args, 1, 1, synopsis)
+	if err != nil {
+		return err
+	}
+	switch {
+	case *which != "unlabelled" && *which != "all":
+		return usageError(fmt.Sprintf("--images %q: use unlabelled or all", *which))
+	case *minScore < 0 || *minScore > 1 || math.IsNaN(*minScore):
+		return usageError(fmt.Sprintf("--min-score %g: give a number from 0 to 1", *minScore))
+	case *nms < 0 || *nms > 1 || math.IsNaN(*nms):
+		return usageError(fmt.Sprintf("--nms %g: give a number from 0 (none) to 1", *nms))
+	case *threads < 0 || *threads > 1024:
+		return usageError(fmt.Sprintf("--threads %d: give a number from 0 (every core) to 1024", *threads))
+	}
+	if *source != "" {
+		if err := project.ValidateName("source", *source); err != nil {
+			return usageError("--source: " + err.Error())
+		}
+	}
+	nn.SetThreads(*threads)
+	s, ctx, done, err := openCLI(pos[0])
+	if err != nil {
+		return err
+	}
+	defer done()
+	rep, err := ops.Detect(ctx, s, ops.DetectJob{Model: *model, All: *which == "all", MinScore: *minScore, NMS: *nms, Source: *source, Save: *save})
+	for _, f := range rep.Failed {
+		fmt.Fprintf(stderr, "skipped image %s\n", f)
+	}
+	if err != nil {
+		return err
+	}
+	names := map[int64]string{}
+	paths := map[int64]string{}
+	if cs, err := s.Classes(ctx); err == nil {
+		for _, c := range cs {
+			names[c.ID] = c.Name
+		}
+	}
+	if ims, err := s.Images(ctx); err == nil {
+		for _, im := range ims {
+			paths[im.ID] = im.Path
+		}
+	}
+	if *asJSON {
+		ds := []map[string]any{}
+		for _, d := range rep.Detections {
+			ds = append(ds, map[string]any{"image": paths[d.ImageID], "class": names[d.ClassID], "x0": d.Box.X0, "y0": d.Box.Y0, "x1": d.Box.X1, "y1": d.Box.Y1, "score": d.Score})
+		}
+		out := map[string]any{"model": rep.Model, "source": rep.Source, "images": rep.Images, "detections": ds, "saved": *save}
+		if *save {
+			out["replaced_pending"] = rep.Saved.ReplacedPending
+		}
+		return writeJSON(stdout, out)
+	}
+	for _, d := range rep.Detections {
+		fmt.Fprintf(stdout, "%s\t%s\t%.1f,%.1f,%.1f,%.1f\t%.3f\n", paths[d.ImageID], names[d.ClassID], d.Box.X0, d.Box.Y0, d.Box.X1, d.Box.Y1, d.Score)
+	}
+	fmt.Fprintf(stdout, "model %s: %d detections on %d images", rep.Model, len(rep.Detections), rep.Images)
+	if *save {
+		fmt.Fprintf(stdout, ", stored as pending suggestions of source %q", rep.Source)
+	}
+	fmt.Fprintln(stdout)
+	return nil
+}

@@ -1,0 +1,290 @@
+package ops
+
+import (
+	"context"
+	"fmt"
+	"image"
+	"math"
+	"strings"
+	"time"
+
+	"boxwright/app/backend"
+	"boxwright/project"
+	"boxwright/suggest/detector"
+)
+
+// TrainJob says what a training run learns from and for how long.
+type TrainJob struct {
+	// Annotator whose labels are learned (for example "consensus").
+	Annotator string
+	// Classes to learn; empty: every class with enough boxes.
+	Classes    []string
+	Epochs     int
+	Budget     time.Duration
+	Validation float64
+	Seed       uint64
+	// QuarterTurns adds the four quarter turns to the augmentation, for
+	// imagery whose orientation does not matter.
+	QuarterTurns bool
+	// Continue trains further from the current model when its classes
+	// match, instead of from scratch.
+	Continue bool
+	// Epoch, when set, is called after each epoch.
+	Epoch func(project.Epoch)
+	// Gate, when set, is called before each batch: it blocks while
+	// training is paused.
+	Gate func(ctx context.Context) error
+}
+
+// TrainReport is what a training run did.
+type TrainReport struct {
+	Model       project.Model
+	TrainImages int
+	ValImages   int
+	Skipped     []string // classes left out, with the reason
+	Failed      []string // images that could not be read
+	CacheBytes  int
+	Continued   bool
+}
+
+// TrainingCandidates reads every image of the project with the named
+// annotator's labels.
+func TrainingCandidates(ctx context.Context, st backend.Project, annotator string) ([]detector.Candidate, []project.Class, error) {
+	a, err := st.AnnotatorByName(ctx, annotator)
+	if err != nil {
+		return nil, nil, fmt.Errorf("annotator %q: %w", annotator, err)
+	}
+	ims, err := st.Images(ctx)
+	if err != nil {
+		return nil, nil, err
+	}
+	classes, err := st.Classes(ctx)
+	if err != nil {
+		return nil, nil, err
+	}
+	ls, err := st.Labels(ctx, project.LabelFilter{AnnotatorID: a.ID})
+	if err != nil {
+		return nil, nil, err
+	}
+	by := map[int64][]project.Label{}
+	for _, l := range ls {
+		by[l.ImageID] = append(by[l.ImageID], l)
+	}
+	var out []detector.Candidate
+	for _, im := range ims {
+		done := im.Status == project.StatusDone || im.Status == project.StatusReviewed
+		out = append(out, detector.Candidate{Image: im, Labels: by[im.ID], Done: done})
+	}
+	return out, classes, nil
+}
+
+// Train trains a detector on the project's labels and stores it as the
+// current model. Nothing is stored when it fails or is cancelled.
+func Train(ctx context.Context, st backend.Project, j TrainJob) (TrainReport, error) {
+	var rep TrainReport
+	cands, classes, err := TrainingCandidates(ctx, st, j.Annotator)
+	if err != nil {
+		return rep, err
+	}
+	ts, err := detector.Prepare(cands, classes, detector.DataOptions{Classes: j.Classes, Validation: j.Validation, Seed: j.Seed})
+	if err != nil {
+		return rep, err
+	}
+	rep.TrainImages, rep.ValImages, rep.Skipped = len(ts.Train), len(ts.Val), ts.Skipped
+	aug := detector.DefaultAugment
+	aug.QuarterTurns = j.QuarterTurns
+	opt := detector.TrainOptions{Epochs: j.Epochs, Budget: j.Budget, Seed: j.Seed, Augment: aug, Epoch: j.Epoch, Gate: j.Gate,
+		Load: func(ctx context.Context, im project.Image) (image.Image, error) { return DecodeProjectImage(st, im) }}
+	var from project.Model
+	if j.Continue {
+		cur, err := st.CurrentModel(ctx)
+		if err == nil {
+			m, derr := detector.DecodeModel(cur)
+			if derr != nil {
+				return rep, derr
+			}
+			if sameNames(m.Classes, ts.Classes) {
+				opt.From, opt.InputSize, from, rep.Continued = m, m.InputSize, cur, true
+			}
+		}
+	}
+	res, err := detector.Train(ctx, ts, opt)
+	rep.Failed = res.Failed
+	rep.CacheBytes = res.CacheBytes
+	if err != nil {
+		return rep, err
+	}
+	blob, err := detector.EncodeModel(res.Model)
+	if err != nil {
+		return rep, err
+	}
+	last := math.NaN()
+	if n := len(res.Epochs); n > 0 {
+		last = res.Epochs[n-1].ValAP50
+	}
+	m := project.Model{Architecture: detector.Architecture, Classes: ts.Classes, InputSize: res.Model.InputSize, Seed: j.Seed,
+		TrainedOn: fmt.Sprintf("labels of %s: %d training and %d validation images, classes %s", j.Annotator, len(ts.Train), len(ts.Val), strings.Join(ts.Classes, ", ")),
+		Epochs:    res.Epochs, ValAP50: last, Weights: blob, Current: true}
+	if rep.Continued {
+		m.ID, m.Name, m.Current = from.ID, from.Name, from.Current
+		m.Epochs = append(append([]project.Epoch{}, from.Epochs...), shiftEpochs(res.Epochs, from.Epochs)...)
+		if err := st.UpdateModel(ctx, m); err != nil {
+			return rep, err
+		}
+		rep.Model = m
+		return rep, nil
+	}
+	stored, err := st.AddModel(ctx, m)
+	if err != nil {
+		return rep, err
+	}
+	rep.Model = stored
+	return rep, nil
+}
+
+// shiftEpochs numbers and times a continued run's epochs after the
+// earlier ones.
+func shiftEpochs(es, before []project.Epoch) []project.Epoch {
+	if len(before) == 0 {
+		return es
+	}
+	last := before[len(before)-1]
+	out := make([]project.Epoch, len(es))
+	for i, e := range es {
+		e.Epoch += last.Epoch
+		e.Seconds += last.Seconds
+		out[i] = e
+	}
+	return out
+}
+
+func sameNames(a, b []string) bool {
+	if len(a) != len(b) {
+		return false
+	}
+	for i := range a {
+		if a[i] != b[i] {
+			return false
+		}
+	}
+	return true
+}
+
+// DetectJob says where a model looks for objects.
+type DetectJob struct {
+	// Model by name; empty: the current one.
+	Model string
+	// Images to run on; nil: every image without labels and not skipped
+	// (Unlabelled) or every image (All).
+	Images   []project.Image
+	All      bool
+	MinScore float64
+	// NMS is the IoU of per-class non-maximum suppression (0: none).
+	NMS float64
+	// Source of the suggestions; empty: the model's name.
+	Source string
+	// Save stores the detections as pending suggestions, replacing the
+	// source's pending ones on those images.
+	Save     bool
+	Progress func(done, total int)
+}
+
+// DetectReport is what a detection run found.
+type DetectReport struct {
+	Model      string
+	Source     string
+	Images     int
+	Detections []project.Suggestion
+	Failed     []string
+	Saved      project.SuggestionImportReport
+}
+
+// LoadModel reads a stored model (the current one when name is empty) and
+// checks that the project still has its classes.
+func LoadModel(ctx context.Context, st backend.Project, name string) (project.Model, *detector.Model, []int64, error) {
+	var pm project.Model
+	var err error
+	if name == "" {
+		pm, err = st.CurrentModel(ctx)
+		if err != nil {
+			return pm, nil, nil, fmt.Errorf("no current model: train one first (boxwright train): %w", err)
+		}
+	} else if pm, err = st.Model(ctx, name); err != nil {
+		return pm, nil, nil, err
+	}
+	m, err := detector.DecodeModel(pm)
+	if err != nil {
+		return pm, nil, nil, err
+	}
+	ids := make([]int64, len(pm.Classes))
+	var missing []string
+	for i, c := range pm.Classes {
+		cl, err := st.ClassByName(ctx, c)
+		if err != nil {
+			missing = append(missing, c)
+			continue
+		}
+		ids[i] = cl.ID
+	}
+	if len(missing) > 0 {
+		return pm, nil, nil, fmt.Errorf("model %q predicts classes the project no longer has (%s): retrain it on the current classes: %w",
+			pm.Name, strings.Join(missing, ", "), project.ErrInvalid)
+	}
+	return pm, m, ids, nil
+}
+
+// Detect runs a stored model on images and, with Save, stores what it
+// finds as pending suggestions of its source.
+func Detect(ctx context.Context, st backend.Project, j DetectJob) (DetectReport, error) {
+	var rep DetectReport
+	pm, m, ids, err := LoadModel(ctx, st, j.Model)
+	if err != nil {
+		return rep, err
+	}
+	rep.Model, rep.Source = pm.Name, j.Source
+	if rep.Source == "" {
+		rep.Source = pm.Name
+	}
+	ims := j.Images
+	if ims == nil {
+		all, err := st.Images(ctx)
+		if err != nil {
+			return rep, err
+		}
+		counts, err := st.CountsByImage(ctx)
+		if err != nil {
+			return rep, err
+		}
+		for _, im := range all {
+			if j.All || (im.Status != project.StatusSkipped && counts[im.ID].Labels == 0) {
+				ims = append(ims, im)
+			}
+		}
+	}
+	var onImages []int64
+	for i, im := range ims {
+		if err := ctx.Err(); err != nil {
+			return rep, err
+		}
+		img, err := DecodeProjectImage(st, im)
+		if err != nil {
+			rep.Failed = append(rep.Failed, fmt.Sprintf("%s: %v", im.Path, err))
+			continue
+		}
+		onImages = append(onImages, im.ID)
+		for _, d := range m.DetectImage(img, 100, j.MinScore, j.NMS) {
+			rep.Detections = append(rep.Detections, project.Suggestion{ImageID: im.ID, ClassID: ids[d.Class], Box: d.Box,
+				Score: ClampScore(d.Score), Source: rep.Source, State: project.SuggestionPending})
+		}
+		if j.Progress != nil {
+			j.Progress(i+1, len(ims))
+		}
+	}
+	rep.Images = len(onImages)
+	if j.Save && len(onImages) > 0 {
+		if rep.Saved, err = st.ReplaceSuggestionsOn(ctx, rep.Source, onImages, rep.Detections); err != nil {
+			return rep, err
+		}
+	}
+	return rep, nil
+}
