@@ -7,6 +7,8 @@ import "math"
 // WeightDecay·w to each gradient (L2 regularisation, PyTorch's
 // weight_decay) except for parameters marked NoDecay.
 type Adam[T Float] struct {
+	// LR is the learning rate, Beta1 and Beta2 the moments' decay rates,
+	// Eps the denominator's floor, WeightDecay the L2 coefficient.
 	LR, Beta1, Beta2, Eps, WeightDecay float64
 
 	step  int

@@ -10,7 +10,10 @@ import (
 // by Momentum towards each batch's mean and unbiased variance, while the
 // batch itself is normalised with the biased variance.
 type BatchNorm2D[T Float] struct {
-	C             int
+	// C is the number of channels.
+	C int
+	// Momentum is the running estimates' update rate, Eps the variance
+	// floor added before the square root.
 	Momentum, Eps float64
 	// Gamma and Beta are the learnt scale and shift.
 	Gamma, Beta *Param[T]
@@ -19,7 +22,6 @@ type BatchNorm2D[T Float] struct {
 
 	xhat   *Tensor[T]
 	invStd []float64
-	train  bool
 }
 
 // NewBatchNorm2D returns batch normalisation over c channels with gamma 1,
@@ -65,8 +67,12 @@ func (l *BatchNorm2D[T]) Forward(x *Tensor[T], train bool) *Tensor[T] {
 		panic(fmt.Sprintf("nn.BatchNorm2D %s: training needs more than one value per channel", l.Gamma.Name))
 	}
 	y := Like(x)
-	xhat := Like(x)
-	l.invStd = make([]float64, l.C)
+	l.xhat = nil
+	var xhat *Tensor[T]
+	if train {
+		xhat = Like(x)
+		l.invStd = make([]float64, l.C)
+	}
 	for c := range l.C {
 		var mean, variance float64
 		if train {
@@ -92,25 +98,29 @@ func (l *BatchNorm2D[T]) Forward(x *Tensor[T], train bool) *Tensor[T] {
 			mean, variance = float64(l.RunningMean.W[c]), float64(l.RunningVar.W[c])
 		}
 		inv := 1 / math.Sqrt(variance+l.Eps)
-		l.invStd[c] = inv
 		g, b := float64(l.Gamma.W[c]), float64(l.Beta.W[c])
 		for n := range x.N {
-			src, xh, dst := x.Plane(n, c), xhat.Plane(n, c), y.Plane(n, c)
+			src, dst := x.Plane(n, c), y.Plane(n, c)
 			for i, v := range src {
-				h := (float64(v) - mean) * inv
-				xh[i] = T(h)
-				dst[i] = T(g*h + b)
+				dst[i] = T(g*(float64(v)-mean)*inv + b)
 			}
+			if train {
+				xh := xhat.Plane(n, c)
+				for i, v := range src {
+					xh[i] = T((float64(v) - mean) * inv)
+				}
+			}
+		}
+		if train {
+			l.invStd[c] = inv
 		}
 	}
 	l.xhat = xhat
-	l.train = train
 	return y
 }
 
-// Backward adds dgamma = Σdy·x̂ and dbeta = Σdy and returns dx. In training
-// mode the batch statistics depend on x, giving
-// dx = γ/σ·(dy − mean(dy) − x̂·mean(dy·x̂)); in eval mode dx = γ/σ·dy.
+// Backward adds dgamma = Σdy·x̂ and dbeta = Σdy and returns dx; the batch
+// statistics depend on x, giving dx = γ/σ·(dy − mean(dy) − x̂·mean(dy·x̂)).
 func (l *BatchNorm2D[T]) Backward(dy *Tensor[T]) *Tensor[T] {
 	mustForward("BatchNorm2D.Backward", l.xhat)
 	mustSameShape("BatchNorm2D.Backward", dy, l.xhat)
@@ -129,9 +139,6 @@ func (l *BatchNorm2D[T]) Backward(dy *Tensor[T]) *Tensor[T] {
 		l.Beta.G[c] += T(sdy)
 		k := float64(l.Gamma.W[c]) * l.invStd[c]
 		mdy, mdyx := sdy/cnt, sdyx/cnt
-		if !l.train {
-			mdy, mdyx = 0, 0
-		}
 		for n := range dy.N {
 			xh, src, dst := l.xhat.Plane(n, c), dy.Plane(n, c), dx.Plane(n, c)
 			for i, v := range src {

@@ -9,6 +9,8 @@ import (
 // Conv2D is a 2-D convolution (cross-correlation, as in PyTorch) with a
 // square kernel, the same stride and zero padding on both axes.
 type Conv2D[T Float] struct {
+	// In and Out are the channel counts, K the kernel size, Stride and Pad
+	// the stride and zero padding on each side.
 	In, Out, K, Stride, Pad int
 	// Weight is Out×In×K×K; Bias is nil without a bias.
 	Weight, Bias *Param[T]
@@ -68,7 +70,10 @@ func (l *Conv2D[T]) Forward(x *Tensor[T], train bool) *Tensor[T] {
 	if ho <= 0 || wo <= 0 {
 		panic(fmt.Sprintf("nn.Conv2D %s: input %dx%d is smaller than the kernel", l.Weight.Name, x.H, x.W))
 	}
-	l.x = x
+	l.x = nil
+	if train {
+		l.x = x
+	}
 	y := Zeros[T](x.N, l.Out, ho, wo)
 	kk := l.In * l.K * l.K
 	hw := ho * wo

@@ -232,11 +232,11 @@ func ceilDiv(a, b int) int { return (a + b - 1) / b }
 
 func roundUp(a, b int) int { return ceilDiv(a, b) * b }
 
-// Packing buffers are pooled per element type: a conv layer calls Gemm
-// once per image and per pass.
+// Scratch buffers are pooled per element type: a conv layer calls Gemm
+// once per image and per pass. Named float types share poolOther, where a
+// buffer of the wrong type is just not reused.
 var (
-	pool32 sync.Pool
-	pool64 sync.Pool
+	pool32, pool64, poolOther sync.Pool
 )
 
 func getBuf[T Float](n int) *[]T {
@@ -253,14 +253,11 @@ func putBuf[T Float](b *[]T) { poolFor[T]().Put(b) }
 
 func poolFor[T Float]() *sync.Pool {
 	var z T
-	if _, ok := any(z).(float32); ok {
-		return &pool32
-	}
 	switch any(z).(type) {
+	case float32:
+		return &pool32
 	case float64:
 		return &pool64
 	}
-	// A named float type: sizes decide, since *[]T differs from *[]float32
-	// the Get type assertion just misses and a fresh buffer is made.
-	return &pool64
+	return &poolOther
 }

@@ -122,17 +122,22 @@ func TestBatchNorm2DGradients(t *testing.T) {
 		l.Beta.W[i] = r.Float64() - 0.5
 	}
 	checkLayer(t, "BatchNorm2D train", l, randTensor(r, 2, 3, 4, 5), r)
+}
 
-	// Eval mode: the running statistics are constants.
-	x := randTensor(r, 2, 3, 4, 5)
-	dy := randTensor(r, 2, 3, 4, 5)
-	l.Forward(x, false)
-	clear(l.Gamma.G)
-	clear(l.Beta.G)
-	dx := l.Backward(dy)
-	loss := func() float64 { return dot(dy.Data, l.Forward(x, false).Data) }
-	checkGrad(t, "BatchNorm2D eval dx", dx.Data, x.Data, loss)
-	checkGrad(t, "BatchNorm2D eval dgamma", l.Gamma.G, l.Gamma.W, loss)
+// TestEvalKeepsNothing: inference must not hold activations between calls.
+// Source: this package's Layer contract.
+func TestEvalKeepsNothing(t *testing.T) {
+	r := rand.New(rand.NewPCG(10, 8))
+	conv := NewConv2D[float64]("c", 2, 2, 3, 1, 1, true, r)
+	bn := NewBatchNorm2D[float64]("bn", 2)
+	relu, sig, up := &ReLU[float64]{}, &Sigmoid[float64]{}, &Upsample2x[float64]{}
+	m := NewSequential[float64](conv, bn, relu, sig, up)
+	x := randTensor(r, 1, 2, 4, 4)
+	m.Forward(x, true)
+	m.Forward(x, false)
+	if conv.x != nil || bn.xhat != nil || relu.y != nil || sig.y != nil || up.x != nil {
+		t.Error("an eval Forward kept tensors for a Backward that cannot come")
+	}
 }
 
 func TestActivationGradients(t *testing.T) {

@@ -6,9 +6,13 @@ import "fmt"
 // gradient that Backward adds to (nil for buffers such as running
 // statistics, which no optimiser touches).
 type Param[T Float] struct {
-	Name  string
+	// Name identifies the array in saved blobs, e.g. "stem.weight".
+	Name string
+	// Shape is the array's shape, row-major; W (and G) hold as many values
+	// as its product.
 	Shape []int
-	W, G  []T
+	// W holds the values, G the gradient.
+	W, G []T
 	// NoDecay exempts the parameter from weight decay; the layers set it on
 	// biases and batch-norm scales, as is usual.
 	NoDecay bool
@@ -26,10 +30,12 @@ func newParam[T Float](name string, grad bool, shape ...int) *Param[T] {
 	return p
 }
 
-// Layer is one step of a network. Forward keeps what Backward needs, so a
-// layer instance appears once in a graph and each Forward is followed by at
-// most one Backward. Backward returns the gradient with respect to the
-// input of the last Forward and adds the parameter gradients to their G.
+// Layer is one step of a network. Forward with train set keeps what
+// Backward needs (until Backward), so a layer instance appears once in a
+// graph and each training Forward is followed by at most one Backward;
+// Forward with train unset keeps nothing, so inference holds no memory
+// between calls. Backward returns the gradient with respect to the input
+// of the last Forward and adds the parameter gradients to their G.
 type Layer[T Float] interface {
 	Forward(x *Tensor[T], train bool) *Tensor[T]
 	Backward(dy *Tensor[T]) *Tensor[T]
@@ -44,6 +50,7 @@ type Buffered[T Float] interface {
 
 // Sequential runs layers one after another.
 type Sequential[T Float] struct {
+	// Layers run first to last.
 	Layers []Layer[T]
 }
 
@@ -91,6 +98,6 @@ func (s *Sequential[T]) Buffers() []*Param[T] {
 
 func mustForward(layer string, x any) {
 	if x == nil {
-		panic(fmt.Sprintf("nn.%s: Backward before Forward", layer))
+		panic(fmt.Sprintf("nn.%s: no training Forward to go back through", layer))
 	}
 }

@@ -14,7 +14,10 @@ func (l *ReLU[T]) Forward(x *Tensor[T], train bool) *Tensor[T] {
 	for i, v := range x.Data {
 		y.Data[i] = max(v, 0)
 	}
-	l.y = y
+	l.y = nil
+	if train {
+		l.y = y
+	}
 	return y
 }
 
@@ -45,7 +48,10 @@ func (l *Sigmoid[T]) Forward(x *Tensor[T], train bool) *Tensor[T] {
 	for i, v := range x.Data {
 		y.Data[i] = sigmoid(v)
 	}
-	l.y = y
+	l.y = nil
+	if train {
+		l.y = y
+	}
 	return y
 }
 
@@ -94,7 +100,10 @@ func (l *Upsample2x[T]) Forward(x *Tensor[T], train bool) *Tensor[T] {
 			}
 		}
 	}
-	l.x = x
+	l.x = nil
+	if train {
+		l.x = x
+	}
 	return y
 }
 

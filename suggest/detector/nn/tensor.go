@@ -9,8 +9,10 @@ type Float interface{ ~float32 | ~float64 }
 // Tensor is a dense 4-D array in NCHW order (batch, channel, row, column);
 // element (n, c, h, w) is Data[((n*C+c)*H+h)*W+w].
 type Tensor[T Float] struct {
+	// N, C, H, W are the batch size, channels, height and width.
 	N, C, H, W int
-	Data       []T
+	// Data holds the elements, N·C·H·W of them.
+	Data []T
 }
 
 // New wraps data as an n×c×h×w tensor without copying. It panics if the
