@@ -7,10 +7,10 @@ DEMO_DIR ?= build/demo
 # Debian packages for cgo (SQLite, OpenGL/GLFW window) and for the window
 # smoke test under a virtual X server; shapely is the reference for the IoU check,
 # scikit-learn, statsmodels and SciPy for the agreement statistics and matching,
-# OpenCV for non-maximum suppression.
+# OpenCV for non-maximum suppression, PyTorch for the detector's layer checks.
 BUILD_DEBS := gcc pkg-config libgl1-mesa-dev libx11-dev libxcursor-dev libxrandr-dev \
               libxinerama-dev libxi-dev libxxf86vm-dev
-TEST_DEBS := xvfb xauth xdotool imagemagick python3-shapely python3-sklearn python3-statsmodels python3-scipy python3-opencv
+TEST_DEBS := xvfb xauth xdotool imagemagick python3-shapely python3-sklearn python3-statsmodels python3-scipy python3-opencv python3-torch
 
 export CGO_ENABLED := 1
 

@@ -1,0 +1,151 @@
+package nn
+
+import (
+	"fmt"
+	"math"
+)
+
+// BatchNorm2D normalises each channel over the batch and the image (Ioffe
+// & Szegedy 2015), with PyTorch's conventions: the running estimates move
+// by Momentum towards each batch's mean and unbiased variance, while the
+// batch itself is normalised with the biased variance.
+type BatchNorm2D[T Float] struct {
+	// C is the number of channels.
+	C int
+	// Momentum is the running estimates' update rate, Eps the variance
+	// floor added before the square root.
+	Momentum, Eps float64
+	// Gamma and Beta are the learnt scale and shift.
+	Gamma, Beta *Param[T]
+	// RunningMean and RunningVar are the estimates used in eval mode.
+	RunningMean, RunningVar *Param[T]
+
+	xhat   *Tensor[T]
+	invStd []float64
+}
+
+// NewBatchNorm2D returns batch normalisation over c channels with gamma 1,
+// beta 0, running mean 0, running variance 1, momentum 0.1 and eps 1e-5 (as
+// PyTorch). Parameter names are name+".weight", ".bias", ".running_mean"
+// and ".running_var".
+func NewBatchNorm2D[T Float](name string, c int) *BatchNorm2D[T] {
+	if c <= 0 {
+		panic(fmt.Sprintf("nn.NewBatchNorm2D %s: %d channels", name, c))
+	}
+	l := &BatchNorm2D[T]{C: c, Momentum: 0.1, Eps: 1e-5}
+	l.Gamma = newParam[T](name+".weight", true, c)
+	l.Beta = newParam[T](name+".bias", true, c)
+	l.Gamma.NoDecay, l.Beta.NoDecay = true, true
+	l.RunningMean = newParam[T](name+".running_mean", false, c)
+	l.RunningVar = newParam[T](name+".running_var", false, c)
+	for i := range c {
+		l.Gamma.W[i] = 1
+		l.RunningVar.W[i] = 1
+	}
+	return l
+}
+
+// Params returns gamma and beta.
+func (l *BatchNorm2D[T]) Params() []*Param[T] { return []*Param[T]{l.Gamma, l.Beta} }
+
+// Buffers returns the running mean and variance.
+func (l *BatchNorm2D[T]) Buffers() []*Param[T] {
+	return []*Param[T]{l.RunningMean, l.RunningVar}
+}
+
+// Forward normalises with the batch statistics and updates the running
+// ones when train is set, and with the running statistics otherwise.
+// Sums run in float64 so that float32 statistics over large maps stay
+// accurate.
+func (l *BatchNorm2D[T]) Forward(x *Tensor[T], train bool) *Tensor[T] {
+	if x.C != l.C {
+		panic(fmt.Sprintf("nn.BatchNorm2D %s: input has %d channels, want %d", l.Gamma.Name, x.C, l.C))
+	}
+	hw := x.H * x.W
+	cnt := x.N * hw
+	if train && cnt < 2 {
+		panic(fmt.Sprintf("nn.BatchNorm2D %s: training needs more than one value per channel", l.Gamma.Name))
+	}
+	y := Like(x)
+	l.xhat = nil
+	var xhat *Tensor[T]
+	if train {
+		xhat = Like(x)
+		l.invStd = make([]float64, l.C)
+	}
+	for c := range l.C {
+		var mean, variance float64
+		if train {
+			var s float64
+			for n := range x.N {
+				for _, v := range x.Plane(n, c) {
+					s += float64(v)
+				}
+			}
+			mean = s / float64(cnt)
+			var ss float64
+			for n := range x.N {
+				for _, v := range x.Plane(n, c) {
+					d := float64(v) - mean
+					ss += d * d
+				}
+			}
+			variance = ss / float64(cnt)
+			m := l.Momentum
+			l.RunningMean.W[c] = T((1-m)*float64(l.RunningMean.W[c]) + m*mean)
+			l.RunningVar.W[c] = T((1-m)*float64(l.RunningVar.W[c]) + m*ss/float64(cnt-1))
+		} else {
+			mean, variance = float64(l.RunningMean.W[c]), float64(l.RunningVar.W[c])
+		}
+		inv := 1 / math.Sqrt(variance+l.Eps)
+		g, b := float64(l.Gamma.W[c]), float64(l.Beta.W[c])
+		for n := range x.N {
+			src, dst := x.Plane(n, c), y.Plane(n, c)
+			for i, v := range src {
+				dst[i] = T(g*(float64(v)-mean)*inv + b)
+			}
+			if train {
+				xh := xhat.Plane(n, c)
+				for i, v := range src {
+					xh[i] = T((float64(v) - mean) * inv)
+				}
+			}
+		}
+		if train {
+			l.invStd[c] = inv
+		}
+	}
+	l.xhat = xhat
+	return y
+}
+
+// Backward adds dgamma = Σdy·x̂ and dbeta = Σdy and returns dx; the batch
+// statistics depend on x, giving dx = γ/σ·(dy − mean(dy) − x̂·mean(dy·x̂)).
+func (l *BatchNorm2D[T]) Backward(dy *Tensor[T]) *Tensor[T] {
+	mustForward("BatchNorm2D.Backward", l.xhat)
+	mustSameShape("BatchNorm2D.Backward", dy, l.xhat)
+	dx := Like(dy)
+	cnt := float64(dy.N * dy.H * dy.W)
+	for c := range l.C {
+		var sdy, sdyx float64
+		for n := range dy.N {
+			xh := l.xhat.Plane(n, c)
+			for i, v := range dy.Plane(n, c) {
+				sdy += float64(v)
+				sdyx += float64(v) * float64(xh[i])
+			}
+		}
+		l.Gamma.G[c] += T(sdyx)
+		l.Beta.G[c] += T(sdy)
+		k := float64(l.Gamma.W[c]) * l.invStd[c]
+		mdy, mdyx := sdy/cnt, sdyx/cnt
+		for n := range dy.N {
+			xh, src, dst := l.xhat.Plane(n, c), dy.Plane(n, c), dx.Plane(n, c)
+			for i, v := range src {
+				dst[i] = T(k * (float64(v) - mdy - float64(xh[i])*mdyx))
+			}
+		}
+	}
+	l.xhat = nil
+	return dx
+}

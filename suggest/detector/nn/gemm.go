@@ -1,0 +1,263 @@
+package nn
+
+import (
+	"runtime"
+	"sync"
+	"sync/atomic"
+)
+
+// Blocking of the GEMM (after Goto & van de Geijn): a kc×nc panel of B is
+// packed once and shared, mc×kc blocks of A are packed per goroutine, and a
+// mr×nr register tile of C is accumulated over kc steps. kc is fixed so
+// that the order of the sums never depends on the thread count. The 2×4
+// tile is the largest that Go keeps in the 16 SSE registers without
+// spilling much; 4×4 measured slower here.
+const (
+	gemmMR = 2
+	gemmNR = 4
+	gemmKC = 256
+	gemmMC = 64
+	gemmNC = 2048
+)
+
+var threads atomic.Int32
+
+// SetThreads sets how many goroutines Gemm uses; n <= 0 restores the
+// default, runtime.GOMAXPROCS(0). Results are bit-identical whatever the
+// setting, so this only trades speed for CPU.
+func SetThreads(n int) { threads.Store(int32(max(n, 0))) }
+
+// Threads returns how many goroutines Gemm uses.
+func Threads() int {
+	if n := int(threads.Load()); n > 0 {
+		return n
+	}
+	return runtime.GOMAXPROCS(0)
+}
+
+// Gemm computes C = alpha·op(A)·op(B) + beta·C on row-major matrices, as
+// the BLAS routine of that name: op(A) is m×k, op(B) is k×n, C is m×n with
+// row stride ldc. With transA, a holds A as k×m (so op(A) = Aᵀ), likewise
+// for transB; lda and ldb are the row strides of a and b as stored. With
+// beta = 0, C is overwritten (NaNs in it do not survive).
+//
+// Rows of C are shared among Threads() goroutines; each element is
+// computed by one goroutine, summing over k in the same order whatever the
+// thread count, so the result does not depend on it.
+func Gemm[T Float](transA, transB bool, m, n, k int, alpha T, a []T, lda int, b []T, ldb int, beta T, c []T, ldc int) {
+	if m == 0 || n == 0 {
+		return
+	}
+	checkGemm(transA, m, k, len(a), lda, "A")
+	checkGemm(transB, k, n, len(b), ldb, "B")
+	checkGemm(false, m, n, len(c), ldc, "C")
+	if beta != 1 {
+		for i := range m {
+			row := c[i*ldc : i*ldc+n]
+			if beta == 0 {
+				clear(row)
+			} else {
+				for j := range row {
+					row[j] *= beta
+				}
+			}
+		}
+	}
+	if k == 0 || alpha == 0 {
+		return
+	}
+	nt := Threads()
+	// Blocks of rows small enough that every goroutine gets some, but whole
+	// register tiles; the block size does not change any sum's order.
+	mc := min(gemmMC/gemmMR, ceilDiv(ceilDiv(m, nt), gemmMR)) * gemmMR
+	nblk := ceilDiv(m, mc)
+	nt = min(nt, nblk)
+
+	bp := getBuf[T](gemmKC * roundUp(min(n, gemmNC), gemmNR))
+	defer putBuf(bp)
+	aps := make([]*[]T, nt)
+	for t := range aps {
+		aps[t] = getBuf[T](mc * gemmKC)
+		defer putBuf(aps[t])
+	}
+	for jc := 0; jc < n; jc += gemmNC {
+		nc := min(gemmNC, n-jc)
+		for pc := 0; pc < k; pc += gemmKC {
+			kc := min(gemmKC, k-pc)
+			packB(transB, b, ldb, pc, jc, kc, nc, *bp)
+			block := func(t, ib int) {
+				ic := ib * mc
+				mb := min(mc, m-ic)
+				packA(transA, a, lda, ic, pc, mb, kc, *aps[t])
+				macroKernel(mb, nc, kc, alpha, *aps[t], *bp, c[ic*ldc+jc:], ldc)
+			}
+			if nt == 1 {
+				for ib := range nblk {
+					block(0, ib)
+				}
+				continue
+			}
+			var next atomic.Int32
+			var wg sync.WaitGroup
+			for t := range nt {
+				wg.Go(func() {
+					for {
+						ib := int(next.Add(1)) - 1
+						if ib >= nblk {
+							return
+						}
+						block(t, ib)
+					}
+				})
+			}
+			wg.Wait()
+		}
+	}
+}
+
+func checkGemm(trans bool, rows, cols, n, ld int, name string) {
+	if trans {
+		rows, cols = cols, rows
+	}
+	if rows == 0 || cols == 0 {
+		return
+	}
+	if ld < cols || n < (rows-1)*ld+cols {
+		panic("nn.Gemm: " + name + " is too short for its shape and stride")
+	}
+}
+
+// packA copies rows ic..ic+mb, columns pc..pc+kc of op(A) into strips of
+// gemmMR rows, k-major, padding the last strip with zeros.
+func packA[T Float](trans bool, a []T, lda, ic, pc, mb, kc int, dst []T) {
+	d := 0
+	for i0 := 0; i0 < mb; i0 += gemmMR {
+		r := min(gemmMR, mb-i0)
+		for p := range kc {
+			for i := range gemmMR {
+				var v T
+				if i < r {
+					if trans {
+						v = a[(pc+p)*lda+ic+i0+i]
+					} else {
+						v = a[(ic+i0+i)*lda+pc+p]
+					}
+				}
+				dst[d] = v
+				d++
+			}
+		}
+	}
+}
+
+// packB copies rows pc..pc+kc, columns jc..jc+nc of op(B) into strips of
+// gemmNR columns, k-major, padding the last strip with zeros.
+func packB[T Float](trans bool, b []T, ldb, pc, jc, kc, nc int, dst []T) {
+	d := 0
+	for j0 := 0; j0 < nc; j0 += gemmNR {
+		r := min(gemmNR, nc-j0)
+		for p := range kc {
+			if !trans && r == gemmNR {
+				row := b[(pc+p)*ldb+jc+j0:]
+				dst[d], dst[d+1], dst[d+2], dst[d+3] = row[0], row[1], row[2], row[3]
+				d += gemmNR
+				continue
+			}
+			for j := range gemmNR {
+				var v T
+				if j < r {
+					if trans {
+						v = b[(jc+j0+j)*ldb+pc+p]
+					} else {
+						v = b[(pc+p)*ldb+jc+j0+j]
+					}
+				}
+				dst[d] = v
+				d++
+			}
+		}
+	}
+}
+
+// macroKernel adds alpha·Ap·Bp to the mb×nc block of C at c. Padded tiles
+// go through the same kernel as full ones, so every element of C is summed
+// by the same instructions.
+func macroKernel[T Float](mb, nc, kc int, alpha T, ap, bp []T, c []T, ldc int) {
+	var tile [gemmMR * gemmNR]T
+	for j0 := 0; j0 < nc; j0 += gemmNR {
+		bs := bp[j0*kc : (j0+gemmNR)*kc]
+		nr := min(gemmNR, nc-j0)
+		for i0 := 0; i0 < mb; i0 += gemmMR {
+			as := ap[i0*kc : (i0+gemmMR)*kc]
+			microKernel(kc, as, bs, &tile)
+			mr := min(gemmMR, mb-i0)
+			for i := range mr {
+				row := c[(i0+i)*ldc+j0 : (i0+i)*ldc+j0+nr]
+				for j := range row {
+					row[j] += alpha * tile[i*gemmNR+j]
+				}
+			}
+		}
+	}
+}
+
+// microKernel sums a gemmMR×gemmNR tile over kc steps in registers.
+func microKernel[T Float](kc int, a, b []T, out *[gemmMR * gemmNR]T) {
+	var c00, c01, c02, c03 T
+	var c10, c11, c12, c13 T
+	a = a[:kc*gemmMR]
+	b = b[:kc*gemmNR]
+	for len(a) >= 2 && len(b) >= 4 {
+		b0, b1, b2, b3 := b[0], b[1], b[2], b[3]
+		a0 := a[0]
+		c00 += a0 * b0
+		c01 += a0 * b1
+		c02 += a0 * b2
+		c03 += a0 * b3
+		a1 := a[1]
+		c10 += a1 * b0
+		c11 += a1 * b1
+		c12 += a1 * b2
+		c13 += a1 * b3
+		a = a[2:]
+		b = b[4:]
+	}
+	*out = [gemmMR * gemmNR]T{
+		c00, c01, c02, c03,
+		c10, c11, c12, c13,
+	}
+}
+
+func ceilDiv(a, b int) int { return (a + b - 1) / b }
+
+func roundUp(a, b int) int { return ceilDiv(a, b) * b }
+
+// Scratch buffers are pooled per element type: a conv layer calls Gemm
+// once per image and per pass. Named float types share poolOther, where a
+// buffer of the wrong type is just not reused.
+var (
+	pool32, pool64, poolOther sync.Pool
+)
+
+func getBuf[T Float](n int) *[]T {
+	p := poolFor[T]()
+	if v, ok := p.Get().(*[]T); ok && cap(*v) >= n {
+		*v = (*v)[:n]
+		return v
+	}
+	s := make([]T, n)
+	return &s
+}
+
+func putBuf[T Float](b *[]T) { poolFor[T]().Put(b) }
+
+func poolFor[T Float]() *sync.Pool {
+	var z T
+	switch any(z).(type) {
+	case float32:
+		return &pool32
+	case float64:
+		return &pool64
+	}
+	return &poolOther
+}
