@@ -239,3 +239,29 @@ func TestMaskedL1Gradient(t *testing.T) {
 	_, g := MaskedL1(p, q, mask)
 	checkGrad(t, "MaskedL1", g.Data, p.Data, func() float64 { l, _ := MaskedL1(p, q, mask); return l })
 }
+
+// TestConv2DInit: Kaiming-normal weights have std sqrt(2/fan_in) and repeat
+// for the same seed. Source: He et al. 2015, "Delving Deep into
+// Rectifiers" (PyTorch's kaiming_normal_ with its defaults).
+func TestConv2DInit(t *testing.T) {
+	a := NewConv2D[float64]("c", 64, 64, 3, 1, 1, true, rand.New(rand.NewPCG(4, 4)))
+	b := NewConv2D[float64]("c", 64, 64, 3, 1, 1, true, rand.New(rand.NewPCG(4, 4)))
+	var s, ss float64
+	for i, v := range a.Weight.W {
+		if v != b.Weight.W[i] {
+			t.Fatal("same seed, different weights")
+		}
+		s += v
+		ss += v * v
+	}
+	n := float64(len(a.Weight.W))
+	std, want := math.Sqrt(ss/n-(s/n)*(s/n)), math.Sqrt(2.0/(64*9))
+	if math.Abs(std/want-1) > 0.02 || math.Abs(s/n) > 3*want/math.Sqrt(n) {
+		t.Errorf("weights: mean %.4g, std %.4g, want 0 and %.4g", s/n, std, want)
+	}
+	for _, v := range a.Bias.W {
+		if v != 0 {
+			t.Fatal("bias does not start at zero")
+		}
+	}
+}
