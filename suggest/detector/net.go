@@ -59,6 +59,8 @@ func NewNet(classes int, seed uint64) *Net {
 		offs:  newConv("offset", 32, 2, 1, 1, 0, true, r),
 	}
 	setBias(n.heat, heatBias)
+	// Nothing needs the gradient of the image itself.
+	n.e1.Layers[0].(*nn.Conv2D[float32]).SkipInputGrad = true
 	return n
 }
 
