@@ -13,7 +13,9 @@ func newConv(name string, in, out, k, stride, pad int, bias bool, r *rand.Rand) 
 	return nn.NewConv2D[float32](name, in, out, k, stride, pad, bias, r)
 }
 
-func newBatchNorm(name string, c int) *nn.BatchNorm2D[float32] { return nn.NewBatchNorm2D[float32](name, c) }
+func newBatchNorm(name string, c int) *nn.BatchNorm2D[float32] {
+	return nn.NewBatchNorm2D[float32](name, c)
+}
 
 func newReLU() *nn.ReLU[float32] { return &nn.ReLU[float32]{} }
 
