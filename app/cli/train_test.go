@@ -73,4 +73,8 @@ func TestTrainDetectModels(t *testing.T) {
 	if info.Suggestions["pending"] < len(det.Detections) {
 		t.Errorf("pending suggestions %d after saving %d detections", info.Suggestions["pending"], len(det.Detections))
 	}
+	mustCLI(t, "classes", path, "rename", "sailboat", "yacht")
+	if code, _, errs := cli(t, "detect", path); code != 1 || !strings.Contains(errs, "no longer has (sailboat)") || !strings.Contains(errs, "retrain") {
+		t.Errorf("detect after a class was renamed: exit %d, %q", code, errs)
+	}
 }

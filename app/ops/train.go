@@ -237,7 +237,7 @@ func LoadModel(ctx context.Context, st backend.Project, name string) (project.Mo
 // finds as pending suggestions of its source.
 func Detect(ctx context.Context, st backend.Project, j DetectJob) (DetectReport, error) {
 	var rep DetectReport
-	pm, m, ids, err := LoadModel(ctx, st, j.Model)
+	pm, m, _, err := LoadModel(ctx, st, j.Model)
 	if err != nil {
 		return rep, err
 	}
@@ -261,24 +261,27 @@ func Detect(ctx context.Context, st backend.Project, j DetectJob) (DetectReport,
 			}
 		}
 	}
+	classes, err := st.Classes(ctx)
+	if err != nil {
+		return rep, err
+	}
+	sg := &detector.Suggester{Model: m, Source: rep.Source, MinScore: j.MinScore, NMS: j.NMS,
+		Load: func(ctx context.Context, im project.Image) (image.Image, error) { return DecodeProjectImage(st, im) }}
+	ps, err := sg.Suggest(ctx, ims, classes, j.Progress)
 	var onImages []int64
-	for i, im := range ims {
-		if err := ctx.Err(); err != nil {
-			return rep, err
+	for _, im := range ims {
+		if why, bad := sg.Failed[im.ID]; bad {
+			rep.Failed = append(rep.Failed, why)
+		} else {
+			onImages = append(onImages, im.ID)
 		}
-		img, err := DecodeProjectImage(st, im)
-		if err != nil {
-			rep.Failed = append(rep.Failed, fmt.Sprintf("%s: %v", im.Path, err))
-			continue
-		}
-		onImages = append(onImages, im.ID)
-		for _, d := range m.DetectImage(img, 100, j.MinScore, j.NMS) {
-			rep.Detections = append(rep.Detections, project.Suggestion{ImageID: im.ID, ClassID: ids[d.Class], Box: d.Box,
-				Score: ClampScore(d.Score), Source: rep.Source, State: project.SuggestionPending})
-		}
-		if j.Progress != nil {
-			j.Progress(i+1, len(ims))
-		}
+	}
+	if err != nil {
+		return rep, err
+	}
+	for _, p := range ps {
+		rep.Detections = append(rep.Detections, project.Suggestion{ImageID: p.ImageID, ClassID: p.ClassID, Box: p.Box,
+			Score: ClampScore(p.Score), Source: rep.Source, State: project.SuggestionPending})
 	}
 	rep.Images = len(onImages)
 	if j.Save && len(onImages) > 0 {
