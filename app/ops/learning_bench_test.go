@@ -51,7 +51,9 @@ func BenchmarkDemoLearning(b *testing.B) {
 		start := time.Now()
 		res, err := detector.Train(ctx, ts, detector.TrainOptions{Budget: time.Duration(minutes * float64(time.Minute)), Seed: 1,
 			Augment: detector.DefaultAugment, Load: load,
-			Epoch: func(e project.Epoch) { b.Logf("epoch %d loss %.4f val AP50 %.3f %.0f s", e.Epoch, e.Loss, e.ValAP50, e.Seconds) }})
+			Epoch: func(e project.Epoch) {
+				b.Logf("epoch %d loss %.4f val AP50 %.3f %.0f s", e.Epoch, e.Loss, e.ValAP50, e.Seconds)
+			}})
 		if err != nil {
 			b.Fatal(err)
 		}
