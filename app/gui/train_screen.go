@@ -131,6 +131,7 @@ func newTrainScreen(u *ui) *trainScreen {
 	caution.Wrapping = fyne.TextWrapWord
 	caution.TextStyle.Italic = true
 	s.updateButtons()
+	s.showCurve() // empty axes say what will appear
 	top := container.NewVBox(form, s.rotations, s.cont,
 		container.NewHBox(s.start, s.pause, s.cancel, s.suggest), s.status, caution)
 	charts := container.NewGridWithColumns(2, s.lossImg, s.apImg)
@@ -321,11 +322,11 @@ func (s *trainScreen) showCurve() {
 		return
 	}
 	s.lossPlot, s.apPlot = lp, ap
-	if img, err := ops.PlotImage(lp, chartW/2, chartH); err == nil {
+	if img, err := ops.PlotImage(lp, 480, 320); err == nil {
 		s.lossImg.Image = img
 		s.lossImg.Refresh()
 	}
-	if img, err := ops.PlotImage(ap, chartW/2, chartH); err == nil {
+	if img, err := ops.PlotImage(ap, 480, 320); err == nil {
 		s.apImg.Image = img
 		s.apImg.Refresh()
 	}

@@ -289,6 +289,7 @@ func LearningCurvePlots(epochs []project.Epoch) (loss, ap *plot.Plot, err error)
 	loss.X.Label.Text, ap.X.Label.Text = "epoch", "epoch"
 	loss.Y.Label.Text, ap.Y.Label.Text = "loss", "AP50"
 	loss.Y.Min, ap.Y.Min, ap.Y.Max = 0, 0, 1
+	loss.X.Min, ap.X.Min = 1, 1 // epochs count from 1
 	var ls, as plotter.XYs
 	for _, e := range epochs {
 		if !math.IsNaN(e.Loss) && !math.IsInf(e.Loss, 0) {
