@@ -8,14 +8,16 @@ import (
 
 // Blocking of the float32 assembly path. The 6×16 tile keeps 12 YMM
 // accumulators plus two B rows and a broadcast in the 16 YMM registers; a
-// kc×16 strip of B (16 KiB) stays in L1 while the mc×kc block of A (96
-// KiB) is streamed from L2. kc is fixed, as in the generic path, so the
-// order of the sums never depends on the thread count.
+// kc×16 strip of B (24 KiB) stays in L1 while the mc×kc block of A (180
+// KiB) is streamed from L2. kc = 384 takes the common k = 288 (3×3×32) in
+// one block; block sizes were chosen by BenchmarkGemm32, which is noisy on
+// a shared machine. kc is fixed, as in the generic path, so the order of
+// the sums never depends on the thread count.
 const (
 	gemm32MR = 6
 	gemm32NR = 16
-	gemm32KC = 256
-	gemm32MC = 96
+	gemm32KC = 384
+	gemm32MC = 120
 	gemm32NC = 4096
 )
 
@@ -114,6 +116,27 @@ func packA32(trans bool, a []float32, lda, ic, pc, mb, kc int, dst []float32) {
 // gemm32NR columns, k-major, padding the last strip with zeros.
 func packB32(trans bool, b []float32, ldb, pc, jc, kc, nc int, dst []float32) {
 	const nr = gemm32NR
+	if !trans {
+		// Strip by strip: the reads walk down 64-byte pieces of kc rows,
+		// the writes are sequential; fixed-size copies inline.
+		full := nc / nr * nr
+		for j0 := 0; j0 < full; j0 += nr {
+			s := dst[j0*kc : (j0+nr)*kc]
+			src := b[pc*ldb+jc+j0:]
+			for p := range kc {
+				*(*[nr]float32)(s[p*nr:]) = *(*[nr]float32)(src[p*ldb:])
+			}
+		}
+		if full < nc {
+			s := dst[full*kc : (full+nr)*kc]
+			for p := range kc {
+				d := s[p*nr : p*nr+nr]
+				copy(d, b[(pc+p)*ldb+jc+full:(pc+p)*ldb+jc+nc])
+				clear(d[nc-full:])
+			}
+		}
+		return
+	}
 	for j0 := 0; j0 < nc; j0 += nr {
 		r := min(nr, nc-j0)
 		s := dst[j0*kc : (j0+nr)*kc]
