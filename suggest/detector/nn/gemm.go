@@ -4,6 +4,7 @@ import (
 	"runtime"
 	"sync"
 	"sync/atomic"
+	"unsafe"
 )
 
 // Blocking of the GEMM (after Goto & van de Geijn): a kc×nc panel of B is
@@ -43,7 +44,10 @@ func Threads() int {
 //
 // Rows of C are shared among Threads() goroutines; each element is
 // computed by one goroutine, summing over k in the same order whatever the
-// thread count, so the result does not depend on it.
+// thread count, so the result does not depend on it. On amd64 CPUs with
+// AVX2 and FMA, float32 products take an assembly path (see gemm32) whose
+// fused multiply-adds round differently from the pure-Go kernel, so the
+// two paths may differ in the last bits; each is deterministic.
 func Gemm[T Float](transA, transB bool, m, n, k int, alpha T, a []T, lda int, b []T, ldb int, beta T, c []T, ldc int) {
 	if m == 0 || n == 0 {
 		return
@@ -64,6 +68,11 @@ func Gemm[T Float](transA, transB bool, m, n, k int, alpha T, a []T, lda int, b 
 		}
 	}
 	if k == 0 || alpha == 0 {
+		return
+	}
+	// Size 4 means an underlying float32, which has float32's layout.
+	if useAsm32 && unsafe.Sizeof(alpha) == 4 {
+		gemm32(transA, transB, m, n, k, *(*float32)(unsafe.Pointer(&alpha)), asF32(a), lda, asF32(b), ldb, asF32(c), ldc)
 		return
 	}
 	nt := Threads()

@@ -1,0 +1,122 @@
+//go:build amd64 && !purego
+
+#include "textflag.h"
+
+// One k step of the 6×16 tile: two 8-wide loads of the packed B row, then
+// for each of the 6 packed A values a broadcast and two FMAs. Y14 and Y15
+// alternate so that a broadcast need not wait for the FMAs before it.
+#define KSTEP(aoff, boff) \
+	VMOVUPS boff(DI), Y12 \
+	VMOVUPS boff+32(DI), Y13 \
+	VBROADCASTSS aoff+0(SI), Y14 \
+	VFMADD231PS Y12, Y14, Y0 \
+	VFMADD231PS Y13, Y14, Y1 \
+	VBROADCASTSS aoff+4(SI), Y15 \
+	VFMADD231PS Y12, Y15, Y2 \
+	VFMADD231PS Y13, Y15, Y3 \
+	VBROADCASTSS aoff+8(SI), Y14 \
+	VFMADD231PS Y12, Y14, Y4 \
+	VFMADD231PS Y13, Y14, Y5 \
+	VBROADCASTSS aoff+12(SI), Y15 \
+	VFMADD231PS Y12, Y15, Y6 \
+	VFMADD231PS Y13, Y15, Y7 \
+	VBROADCASTSS aoff+16(SI), Y14 \
+	VFMADD231PS Y12, Y14, Y8 \
+	VFMADD231PS Y13, Y14, Y9 \
+	VBROADCASTSS aoff+20(SI), Y15 \
+	VFMADD231PS Y12, Y15, Y10 \
+	VFMADD231PS Y13, Y15, Y11
+
+// func kern6x16(kc int, a, b, c *float32, ldc int, alpha float32)
+//
+// C[0:6, 0:16] += alpha · Σ_p a[p*6+i]·b[p*16+j], C with row stride ldc
+// (in elements); a and b are packed k-major strips of kc steps.
+TEXT ·kern6x16(SB), NOSPLIT, $0-44
+	MOVQ kc+0(FP), CX
+	MOVQ a+8(FP), SI
+	MOVQ b+16(FP), DI
+	MOVQ c+24(FP), DX
+	MOVQ ldc+32(FP), R8
+	VXORPS Y0, Y0, Y0
+	VXORPS Y1, Y1, Y1
+	VXORPS Y2, Y2, Y2
+	VXORPS Y3, Y3, Y3
+	VXORPS Y4, Y4, Y4
+	VXORPS Y5, Y5, Y5
+	VXORPS Y6, Y6, Y6
+	VXORPS Y7, Y7, Y7
+	VXORPS Y8, Y8, Y8
+	VXORPS Y9, Y9, Y9
+	VXORPS Y10, Y10, Y10
+	VXORPS Y11, Y11, Y11
+	MOVQ CX, BX
+	SHRQ $2, BX
+	JZ tail
+
+loop4:
+	KSTEP(0, 0)
+	KSTEP(24, 64)
+	KSTEP(48, 128)
+	KSTEP(72, 192)
+	ADDQ $96, SI
+	ADDQ $256, DI
+	DECQ BX
+	JNZ loop4
+
+tail:
+	ANDQ $3, CX
+	JZ store
+
+loop1:
+	KSTEP(0, 0)
+	ADDQ $24, SI
+	ADDQ $64, DI
+	DECQ CX
+	JNZ loop1
+
+store:
+	VBROADCASTSS alpha+40(FP), Y14
+	SHLQ $2, R8
+	VMOVUPS (DX), Y12
+	VFMADD231PS Y14, Y0, Y12
+	VMOVUPS Y12, (DX)
+	VMOVUPS 32(DX), Y12
+	VFMADD231PS Y14, Y1, Y12
+	VMOVUPS Y12, 32(DX)
+	ADDQ R8, DX
+	VMOVUPS (DX), Y12
+	VFMADD231PS Y14, Y2, Y12
+	VMOVUPS Y12, (DX)
+	VMOVUPS 32(DX), Y12
+	VFMADD231PS Y14, Y3, Y12
+	VMOVUPS Y12, 32(DX)
+	ADDQ R8, DX
+	VMOVUPS (DX), Y12
+	VFMADD231PS Y14, Y4, Y12
+	VMOVUPS Y12, (DX)
+	VMOVUPS 32(DX), Y12
+	VFMADD231PS Y14, Y5, Y12
+	VMOVUPS Y12, 32(DX)
+	ADDQ R8, DX
+	VMOVUPS (DX), Y12
+	VFMADD231PS Y14, Y6, Y12
+	VMOVUPS Y12, (DX)
+	VMOVUPS 32(DX), Y12
+	VFMADD231PS Y14, Y7, Y12
+	VMOVUPS Y12, 32(DX)
+	ADDQ R8, DX
+	VMOVUPS (DX), Y12
+	VFMADD231PS Y14, Y8, Y12
+	VMOVUPS Y12, (DX)
+	VMOVUPS 32(DX), Y12
+	VFMADD231PS Y14, Y9, Y12
+	VMOVUPS Y12, 32(DX)
+	ADDQ R8, DX
+	VMOVUPS (DX), Y12
+	VFMADD231PS Y14, Y10, Y12
+	VMOVUPS Y12, (DX)
+	VMOVUPS 32(DX), Y12
+	VFMADD231PS Y14, Y11, Y12
+	VMOVUPS Y12, 32(DX)
+	VZEROUPPER
+	RET

@@ -1,0 +1,193 @@
+package nn
+
+import (
+	"sync"
+	"sync/atomic"
+	"unsafe"
+)
+
+// Blocking of the float32 assembly path. The 6×16 tile keeps 12 YMM
+// accumulators plus two B rows and a broadcast in the 16 YMM registers; a
+// kc×16 strip of B (24 KiB) stays in L1 while the mc×kc block of A (180
+// KiB) is streamed from L2. kc = 384 takes the common k = 288 (3×3×32) in
+// one block; block sizes were chosen by BenchmarkGemm32, which is noisy on
+// a shared machine. kc is fixed, as in the generic path, so the order of
+// the sums never depends on the thread count.
+const (
+	gemm32MR = 6
+	gemm32NR = 16
+	gemm32KC = 384
+	gemm32MC = 120
+	gemm32NC = 4096
+)
+
+// asF32 reinterprets a slice of a type whose underlying type is float32.
+func asF32[T Float](s []T) []float32 {
+	return unsafe.Slice((*float32)(unsafe.Pointer(unsafe.SliceData(s))), len(s))
+}
+
+// gemm32 adds alpha·op(A)·op(B) to C with the assembly kernel; Gemm has
+// checked the shapes, scaled C by beta and ruled out k = 0 and alpha = 0.
+// The kernel sums with FMA, so results may differ in the last bits from
+// the pure-Go path, but not with the thread count: each element is still
+// summed by one goroutine in a fixed order.
+func gemm32(transA, transB bool, m, n, k int, alpha float32, a []float32, lda int, b []float32, ldb int, c []float32, ldc int) {
+	nt := Threads()
+	mc := min(gemm32MC/gemm32MR, ceilDiv(ceilDiv(m, nt), gemm32MR)) * gemm32MR
+	nblk := ceilDiv(m, mc)
+	nt = min(nt, nblk)
+
+	bp := getBuf[float32](gemm32KC * roundUp(min(n, gemm32NC), gemm32NR))
+	defer putBuf(bp)
+	aps := make([]*[]float32, nt)
+	for t := range aps {
+		aps[t] = getBuf[float32](mc * gemm32KC)
+		defer putBuf(aps[t])
+	}
+	for jc := 0; jc < n; jc += gemm32NC {
+		nc := min(gemm32NC, n-jc)
+		for pc := 0; pc < k; pc += gemm32KC {
+			kc := min(gemm32KC, k-pc)
+			packB32(transB, b, ldb, pc, jc, kc, nc, *bp)
+			block := func(t, ib int) {
+				ic := ib * mc
+				mb := min(mc, m-ic)
+				packA32(transA, a, lda, ic, pc, mb, kc, *aps[t])
+				macroKernel32(mb, nc, kc, alpha, *aps[t], *bp, c[ic*ldc+jc:], ldc)
+			}
+			if nt == 1 {
+				for ib := range nblk {
+					block(0, ib)
+				}
+				continue
+			}
+			var next atomic.Int32
+			var wg sync.WaitGroup
+			for t := range nt {
+				wg.Go(func() {
+					for {
+						ib := int(next.Add(1)) - 1
+						if ib >= nblk {
+							return
+						}
+						block(t, ib)
+					}
+				})
+			}
+			wg.Wait()
+		}
+	}
+}
+
+// packA32 copies rows ic..ic+mb, columns pc..pc+kc of op(A) into strips of
+// gemm32MR rows, k-major, padding the last strip with zeros. The loops run
+// along the stored rows so that the reads are sequential.
+func packA32(trans bool, a []float32, lda, ic, pc, mb, kc int, dst []float32) {
+	const mr = gemm32MR
+	for i0 := 0; i0 < mb; i0 += mr {
+		r := min(mr, mb-i0)
+		s := dst[i0*kc : (i0+mr)*kc]
+		if trans {
+			for p := range kc {
+				row := a[(pc+p)*lda+ic+i0:]
+				d := s[p*mr : p*mr+mr]
+				for i := range r {
+					d[i] = row[i]
+				}
+				clear(d[r:])
+			}
+			continue
+		}
+		for i := range r {
+			row := a[(ic+i0+i)*lda+pc : (ic+i0+i)*lda+pc+kc]
+			for p, v := range row {
+				s[p*mr+i] = v
+			}
+		}
+		for i := r; i < mr; i++ {
+			for p := range kc {
+				s[p*mr+i] = 0
+			}
+		}
+	}
+}
+
+// packB32 copies rows pc..pc+kc, columns jc..jc+nc of op(B) into strips of
+// gemm32NR columns, k-major, padding the last strip with zeros.
+func packB32(trans bool, b []float32, ldb, pc, jc, kc, nc int, dst []float32) {
+	const nr = gemm32NR
+	if !trans {
+		// Strip by strip: the reads walk down 64-byte pieces of kc rows,
+		// the writes are sequential; fixed-size copies inline.
+		full := nc / nr * nr
+		for j0 := 0; j0 < full; j0 += nr {
+			s := dst[j0*kc : (j0+nr)*kc]
+			src := b[pc*ldb+jc+j0:]
+			for p := range kc {
+				*(*[nr]float32)(s[p*nr:]) = *(*[nr]float32)(src[p*ldb:])
+			}
+		}
+		if full < nc {
+			s := dst[full*kc : (full+nr)*kc]
+			for p := range kc {
+				d := s[p*nr : p*nr+nr]
+				copy(d, b[(pc+p)*ldb+jc+full:(pc+p)*ldb+jc+nc])
+				clear(d[nc-full:])
+			}
+		}
+		return
+	}
+	for j0 := 0; j0 < nc; j0 += nr {
+		r := min(nr, nc-j0)
+		s := dst[j0*kc : (j0+nr)*kc]
+		if trans {
+			for j := range r {
+				row := b[(jc+j0+j)*ldb+pc : (jc+j0+j)*ldb+pc+kc]
+				for p, v := range row {
+					s[p*nr+j] = v
+				}
+			}
+			for j := r; j < nr; j++ {
+				for p := range kc {
+					s[p*nr+j] = 0
+				}
+			}
+			continue
+		}
+		for p := range kc {
+			row := b[(pc+p)*ldb+jc+j0:]
+			d := s[p*nr : p*nr+nr]
+			copy(d, row[:r])
+			clear(d[r:])
+		}
+	}
+}
+
+// macroKernel32 adds alpha·Ap·Bp to the mb×nc block of C at c. An edge
+// tile is copied into a full 6×16 buffer and back, so it goes through the
+// same instructions as a full tile.
+func macroKernel32(mb, nc, kc int, alpha float32, ap, bp, c []float32, ldc int) {
+	const mr, nr = gemm32MR, gemm32NR
+	var tile [mr * nr]float32
+	for j0 := 0; j0 < nc; j0 += nr {
+		bs := bp[j0*kc : (j0+nr)*kc]
+		w := min(nr, nc-j0)
+		for i0 := 0; i0 < mb; i0 += mr {
+			as := ap[i0*kc : (i0+mr)*kc]
+			h := min(mr, mb-i0)
+			if h == mr && w == nr {
+				// The kernel does not check bounds; this does.
+				_ = c[(i0+mr-1)*ldc+j0+nr-1]
+				kern6x16(kc, &as[0], &bs[0], &c[i0*ldc+j0], ldc, alpha)
+				continue
+			}
+			for i := range h {
+				copy(tile[i*nr:i*nr+w], c[(i0+i)*ldc+j0:])
+			}
+			kern6x16(kc, &as[0], &bs[0], &tile[0], nr, alpha)
+			for i := range h {
+				copy(c[(i0+i)*ldc+j0:(i0+i)*ldc+j0+w], tile[i*nr:])
+			}
+		}
+	}
+}
