@@ -41,7 +41,8 @@ func modelJSON(m project.Model) modelRecord {
 func cmdModels(args []string, stdout, stderr io.Writer) error {
 	fs := flag.NewFlagSet("models", flag.ContinueOnError)
 	asJSON := fs.Bool("json", false, "")
-	pos, err := parse(fs, args, 1, 1, "models PROJECT.boxw [--json]")
+	use := fs.String("use", "", "make this model the current one first")
+	pos, err := parse(fs, args, 1, 1, "models PROJECT.boxw [--use NAME] [--json]")
 	if err != nil {
 		return err
 	}
@@ -50,6 +51,11 @@ func cmdModels(args []string, stdout, stderr io.Writer) error {
 		return err
 	}
 	defer done()
+	if *use != "" {
+		if err := s.SetCurrentModel(ctx, *use); err != nil {
+			return err
+		}
+	}
 	ms, err := s.Models(ctx)
 	if err != nil {
 		return err

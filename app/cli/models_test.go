@@ -39,6 +39,9 @@ func TestModelsCommandListsStoredModels(t *testing.T) {
 	if out := mustCLI(t, "models", p); !strings.Contains(out, "trained-1") || !strings.Contains(out, "384 px") {
 		t.Errorf("models: %q", out)
 	}
+	if code, _, errs := cli(t, "models", p, "--use", "nope"); code != 1 || !strings.Contains(errs, "nope") {
+		t.Errorf("--use of an unknown model: exit %d, %q", code, errs)
+	}
 	if code, _, _ := cli(t, "models"); code != 2 {
 		t.Errorf("models without a project: exit %d, want 2", code)
 	}

@@ -54,7 +54,8 @@ Commands:
   detect PROJECT.boxw [--model NAME] [--images unlabelled|all] [--min-score S]
         [--nms IOU] [--source NAME] [--save] [--json]
                                         run the current (or named) model
-  models PROJECT.boxw [--json]          the detectors trained in this project
+  models PROJECT.boxw [--use NAME] [--json]
+                                        the detectors trained here (--use: make current)
   demo DIR [--no-open] [--seed N]       make the invented harbour demo in DIR
   help                                  this text
 

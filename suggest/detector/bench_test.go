@@ -1,6 +1,7 @@
 package detector
 
 import (
+	"image"
 	"math/rand/v2"
 	"testing"
 
@@ -28,5 +29,20 @@ func BenchmarkTrainStep(b *testing.B) {
 	for i := 0; i < b.N; i++ {
 		samples := []Sample{benchSample(384, 288), benchSample(384, 288), benchSample(384, 288), benchSample(384, 288)}
 		step(net, samples, 4)
+	}
+}
+
+// BenchmarkDetectImage is inference on one 1280×960 image at the largest
+// input size (640 px), decoding and NMS included.
+func BenchmarkDetectImage(b *testing.B) {
+	m := &Model{Net: NewNet(4, 1), Classes: []string{"a", "b", "c", "d"}, InputSize: 640}
+	img := image.NewRGBA(image.Rect(0, 0, 1280, 960))
+	r := rand.New(rand.NewPCG(2, 2))
+	for i := range img.Pix {
+		img.Pix[i] = uint8(r.IntN(256))
+	}
+	b.ResetTimer()
+	for i := 0; i < b.N; i++ {
+		m.DetectImage(img, 100, 0.3, 0.5)
 	}
 }
