@@ -42,11 +42,16 @@ type Augment struct {
 	// Brightness and Contrast change the pixel values by up to ± these
 	// shares.
 	Brightness, Contrast float64
+	// Crop trains on a random Crop×Crop window of the scaled image (a
+	// multiple of 32; 0: the whole frame). The network is fully
+	// convolutional, so it still sees whole frames at inference, while a
+	// step costs a fraction of a frame and many more steps fit a budget.
+	Crop int
 }
 
 // DefaultAugment suits top-down imagery: flips both ways, mild scale
 // and light changes (our choice; the quarter turns are the user's).
-var DefaultAugment = Augment{FlipH: true, FlipV: true, Scale: 1.25, Brightness: 0.15, Contrast: 0.2}
+var DefaultAugment = Augment{FlipH: true, FlipV: true, Scale: 1.25, Brightness: 0.15, Contrast: 0.2, Crop: 256}
 
 // Sample is one image prepared for the network: planes of float32 in CHW
 // order, normalised, and the boxes in input pixels.
@@ -87,6 +92,9 @@ func PrepareImage(img image.Image, boxes []project.Box, classes []int, long int)
 func AugmentImage(img image.Image, boxes []project.Box, classes []int, long int, a Augment, r *rand.Rand) Sample {
 	b := img.Bounds()
 	fw, fh, scale := Frame(b.Dx(), b.Dy(), long)
+	if a.Crop > 0 {
+		fw, fh = min(fw, roundUp(a.Crop, pad)), min(fh, roundUp(a.Crop, pad))
+	}
 	if a.QuarterTurns {
 		fw, fh = max(fw, fh), max(fw, fh)
 	}

@@ -28,7 +28,9 @@ type TrainOptions struct {
 	Epochs int
 	Budget time.Duration
 	Seed   uint64
-	// Batch is the number of images per step (default 4).
+	// Batch is the number of images per step (default 2: the budget buys
+	// steps, and the loss falls with the number of steps more than with
+	// their size).
 	Batch int
 	// LR is Adam's learning rate (default 2e-3), lowered by a cosine over
 	// the run when Epochs is known.
@@ -88,7 +90,7 @@ func Train(ctx context.Context, ts TrainingSet, opt TrainOptions) (Result, error
 	}
 	batch := opt.Batch
 	if batch <= 0 {
-		batch = 4
+		batch = 2
 	}
 	lr := opt.LR
 	if lr <= 0 {
@@ -128,9 +130,9 @@ func Train(ctx context.Context, ts TrainingSet, opt TrainOptions) (Result, error
 		order[i] = i
 	}
 	for epoch := 1; ; epoch++ {
-		if opt.Epochs > 0 {
-			// Cosine decay to a tenth over the planned epochs.
-			f := float64(epoch-1) / float64(opt.Epochs)
+		// Cosine decay to a tenth over the planned epochs or, with only a
+		// budget, over the time.
+		if f, ok := progressOf(opt, epoch, time.Since(start)); ok {
 			adam.LR = lr * (0.1 + 0.9*0.5*(1+math.Cos(math.Pi*f)))
 		}
 		r.Shuffle(len(order), func(i, j int) { order[i], order[j] = order[j], order[i] })
@@ -171,6 +173,18 @@ func Train(ctx context.Context, ts TrainingSet, opt TrainOptions) (Result, error
 	}
 	res.Model = &Model{Net: net, Classes: ts.Classes, InputSize: long}
 	return res, nil
+}
+
+// progressOf is how far through its plan a run is, 0 to 1: by epochs when
+// they are set, else by the budget.
+func progressOf(opt TrainOptions, epoch int, elapsed time.Duration) (float64, bool) {
+	switch {
+	case opt.Epochs > 0:
+		return float64(epoch-1) / float64(opt.Epochs), true
+	case opt.Budget > 0:
+		return min(1, elapsed.Seconds()/opt.Budget.Seconds()), true
+	}
+	return 0, false
 }
 
 func sameStrings(a, b []string) bool {
