@@ -5,6 +5,7 @@ import (
 	"errors"
 	"fmt"
 	"math"
+	"slices"
 	"strconv"
 	"strings"
 	"sync"
@@ -82,9 +83,9 @@ func newTrainScreen(u *ui) *trainScreen {
 	}
 	s.annotator = widget.NewSelect(names, nil)
 	switch {
-	case u.me.Name != "" && contains(names, u.me.Name):
+	case u.me.Name != "" && slices.Contains(names, u.me.Name):
 		s.annotator.SetSelected(u.me.Name)
-	case contains(names, ops.ConsensusName):
+	case slices.Contains(names, ops.ConsensusName):
 		s.annotator.SetSelected(ops.ConsensusName)
 	case len(names) > 0:
 		s.annotator.SetSelected(names[0])
@@ -141,15 +142,6 @@ func newTrainScreen(u *ui) *trainScreen {
 	return s
 }
 
-func contains(list []string, s string) bool {
-	for _, x := range list {
-		if x == s {
-			return true
-		}
-	}
-	return false
-}
-
 func (s *trainScreen) updateButtons() {
 	s.mu.Lock()
 	running, paused := s.running, s.paused
@@ -193,7 +185,7 @@ func (s *trainScreen) job() (ops.TrainJob, error) {
 	}
 	// The window's classes keep the project's order.
 	for _, c := range s.u.classes {
-		if contains(s.classes.Selected, c.Name) {
+		if slices.Contains(s.classes.Selected, c.Name) {
 			j.Classes = append(j.Classes, c.Name)
 		}
 	}

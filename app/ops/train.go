@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"image"
 	"math"
+	"slices"
 	"strings"
 	"time"
 
@@ -103,7 +104,7 @@ func Train(ctx context.Context, st backend.Project, j TrainJob) (TrainReport, er
 			if derr != nil {
 				return rep, derr
 			}
-			if sameNames(m.Classes, ts.Classes) {
+			if slices.Equal(m.Classes, ts.Classes) {
 				opt.From, opt.InputSize, from, rep.Continued = m, m.InputSize, cur, true
 			}
 		}
@@ -156,18 +157,6 @@ func shiftEpochs(es, before []project.Epoch) []project.Epoch {
 		out[i] = e
 	}
 	return out
-}
-
-func sameNames(a, b []string) bool {
-	if len(a) != len(b) {
-		return false
-	}
-	for i := range a {
-		if a[i] != b[i] {
-			return false
-		}
-	}
-	return true
 }
 
 // DetectJob says where a model looks for objects.

@@ -7,6 +7,7 @@ import (
 	"image"
 	"math"
 	"math/rand/v2"
+	"slices"
 	"time"
 
 	"golang.org/x/image/draw"
@@ -102,7 +103,7 @@ func Train(ctx context.Context, ts TrainingSet, opt TrainOptions) (Result, error
 	}
 	var net *Net
 	if opt.From != nil {
-		if opt.From.InputSize != long || !sameStrings(opt.From.Classes, ts.Classes) {
+		if opt.From.InputSize != long || !slices.Equal(opt.From.Classes, ts.Classes) {
 			return res, fmt.Errorf("train: the model to continue predicts %v at %d px, this run %v at %d px: %w", opt.From.Classes, opt.From.InputSize, ts.Classes, long, project.ErrInvalid)
 		}
 		net = opt.From.Net
@@ -185,18 +186,6 @@ func progressOf(opt TrainOptions, epoch int, elapsed time.Duration) (float64, bo
 		return min(1, elapsed.Seconds()/opt.Budget.Seconds()), true
 	}
 	return 0, false
-}
-
-func sameStrings(a, b []string) bool {
-	if len(a) != len(b) {
-		return false
-	}
-	for i := range a {
-		if a[i] != b[i] {
-			return false
-		}
-	}
-	return true
 }
 
 // loadCache reads and downscales the examples' images to long·Scale (the
