@@ -42,6 +42,7 @@ type trainScreen struct {
 	pause      *widget.Button
 	cancel     *widget.Button
 	suggest    *widget.Button
+	where      *widget.Select
 	status     *widget.Label
 	lossImg    *fcanvas.Image
 	apImg      *fcanvas.Image
@@ -107,7 +108,9 @@ func newTrainScreen(u *ui) *trainScreen {
 	s.start.Importance = widget.HighImportance
 	s.pause = widget.NewButtonWithIcon("Pause", theme.MediaPauseIcon(), s.togglePause)
 	s.cancel = widget.NewButtonWithIcon("Cancel", theme.CancelIcon(), s.stopRun)
-	s.suggest = widget.NewButtonWithIcon("Suggest on unlabelled images", theme.SearchIcon(), s.suggestUnlabelled)
+	s.suggest = widget.NewButtonWithIcon("Suggest with the current model", theme.SearchIcon(), s.suggestUnlabelled)
+	s.where = widget.NewSelect([]string{whereUnlabelled, whereThis, whereNext, whereAll}, nil)
+	s.where.SetSelected(whereUnlabelled)
 	s.status = widget.NewLabel("Learns the chosen annotator's boxes. Labelling goes on in the main window while it trains.")
 	s.status.Wrapping = fyne.TextWrapWord
 	s.lossImg = &fcanvas.Image{FillMode: fcanvas.ImageFillContain}
@@ -134,7 +137,8 @@ func newTrainScreen(u *ui) *trainScreen {
 	s.updateButtons()
 	s.showCurve() // empty axes say what will appear
 	top := container.NewVBox(form, s.rotations, s.cont,
-		container.NewHBox(s.start, s.pause, s.cancel, s.suggest), s.status, caution)
+		container.NewHBox(s.start, s.pause, s.cancel),
+		container.NewBorder(nil, nil, container.NewHBox(s.suggest, widget.NewLabel("on")), nil, s.where), s.status, caution)
 	charts := container.NewGridWithColumns(2, s.lossImg, s.apImg)
 	bottom := container.NewHBox(saveLoss, saveAP, saveCSV)
 	s.win.SetContent(container.NewBorder(top, bottom, nil, nil, container.NewVSplit(charts, s.epochs.Object())))
@@ -324,15 +328,48 @@ func (s *trainScreen) showCurve() {
 	}
 }
 
-// suggestUnlabelled runs the current model on the images without labels and
-// stores what it finds as pending suggestions of the model's name.
+// Where the current model may look.
+const (
+	whereUnlabelled = "the images without labels"
+	whereThis       = "this image"
+	whereNext       = "the next 10 images"
+	whereAll        = "every image"
+	nextImages      = 10
+)
+
+// targets are the images a choice of s.where names; nil means the images
+// without labels (ops.Detect's own default).
+func (s *trainScreen) targets(choice string) []project.Image {
+	u := s.u
+	switch choice {
+	case whereThis:
+		if u.selected >= 0 && u.selected < len(u.images) {
+			return []project.Image{u.images[u.selected]}
+		}
+		return []project.Image{}
+	case whereNext:
+		from := max(u.selected+1, 0)
+		return append([]project.Image{}, u.images[min(from, len(u.images)):min(from+nextImages, len(u.images))]...)
+	case whereAll:
+		return append([]project.Image{}, u.images...)
+	}
+	return nil
+}
+
+// suggestUnlabelled runs the current model on the chosen images and stores
+// what it finds as pending suggestions of the model's name.
 func (s *trainScreen) suggestUnlabelled() {
 	u := s.u
 	st := u.st
+	ims := s.targets(s.where.Selected)
+	if ims != nil && len(ims) == 0 {
+		dialog.ShowInformation("Suggest with the current model", "There is no image there to look at.", s.win)
+		return
+	}
 	var rep ops.DetectReport
 	u.runJob("Suggesting with the current model", func(ctx context.Context, progress func(float64)) error {
 		var err error
-		rep, err = ops.Detect(ctx, st, ops.DetectJob{MinScore: 0.3, NMS: 0.5, Save: true,
+		rep, err = ops.Detect(ctx, st, ops.DetectJob{Images: ims, MinScore: 0.3, NMS: 0.5, Save: true,
 			Progress: func(done, total int) { progress(float64(done) / float64(total)) }})
 		return err
 	}, func() {

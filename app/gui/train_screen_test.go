@@ -68,6 +68,22 @@ func TestTrainingWindow(t *testing.T) {
 		t.Error("a cancelled paused run went on")
 	}
 	s.running = false
+
+	// Where the model looks: this image, the next ten, all, or (nil) the
+	// unlabelled ones.
+	u.selectIndex(1)
+	if got := s.targets(whereThis); len(got) != 1 || got[0].ID != u.images[1].ID {
+		t.Errorf("this image: %+v", got)
+	}
+	if got := s.targets(whereNext); len(got) != len(u.images)-2 || (len(got) > 0 && got[0].ID != u.images[2].ID) {
+		t.Errorf("next images: %d from %+v", len(got), got)
+	}
+	if got := s.targets(whereAll); len(got) != len(u.images) {
+		t.Errorf("all: %d", len(got))
+	}
+	if got := s.targets(whereUnlabelled); got != nil {
+		t.Errorf("unlabelled: %+v", got)
+	}
 	s.win.Close()
 	if u.training != nil {
 		t.Error("closing the window did not forget it")
