@@ -75,30 +75,49 @@ func Gemm[T Float](transA, transB bool, m, n, k int, alpha T, a []T, lda int, b 
 		gemm32(transA, transB, m, n, k, *(*float32)(unsafe.Pointer(&alpha)), asF32(a), lda, asF32(b), ldb, asF32(c), ldc)
 		return
 	}
+	blocked(pureGoPlan[T](), transA, transB, m, n, k, alpha, a, lda, b, ldb, c, ldc)
+}
+
+// gemmPlan is one blocking of the driver: the register tile and block
+// sizes, and the packing and kernel routines made for them.
+type gemmPlan[T Float] struct {
+	mr, nr, kc, mc, nc int
+	packA              func(trans bool, a []T, lda, ic, pc, mb, kc int, dst []T)
+	packB              func(trans bool, b []T, ldb, pc, jc, kc, nc int, dst []T)
+	kernel             func(mb, nc, kc int, alpha T, ap, bp []T, c []T, ldc int)
+}
+
+func pureGoPlan[T Float]() gemmPlan[T] {
+	return gemmPlan[T]{gemmMR, gemmNR, gemmKC, gemmMC, gemmNC, packA[T], packB[T], macroKernel[T]}
+}
+
+// blocked adds alpha·op(A)·op(B) to C in the plan's blocks; Gemm has
+// checked the shapes, scaled C by beta and ruled out k = 0 and alpha = 0.
+func blocked[T Float](p gemmPlan[T], transA, transB bool, m, n, k int, alpha T, a []T, lda int, b []T, ldb int, c []T, ldc int) {
 	nt := Threads()
 	// Blocks of rows small enough that every goroutine gets some, but whole
 	// register tiles; the block size does not change any sum's order.
-	mc := min(gemmMC/gemmMR, ceilDiv(ceilDiv(m, nt), gemmMR)) * gemmMR
+	mc := min(p.mc/p.mr, ceilDiv(ceilDiv(m, nt), p.mr)) * p.mr
 	nblk := ceilDiv(m, mc)
 	nt = min(nt, nblk)
 
-	bp := getBuf[T](gemmKC * roundUp(min(n, gemmNC), gemmNR))
+	bp := getBuf[T](p.kc * roundUp(min(n, p.nc), p.nr))
 	defer putBuf(bp)
 	aps := make([]*[]T, nt)
 	for t := range aps {
-		aps[t] = getBuf[T](mc * gemmKC)
+		aps[t] = getBuf[T](mc * p.kc)
 		defer putBuf(aps[t])
 	}
-	for jc := 0; jc < n; jc += gemmNC {
-		nc := min(gemmNC, n-jc)
-		for pc := 0; pc < k; pc += gemmKC {
-			kc := min(gemmKC, k-pc)
-			packB(transB, b, ldb, pc, jc, kc, nc, *bp)
+	for jc := 0; jc < n; jc += p.nc {
+		nc := min(p.nc, n-jc)
+		for pc := 0; pc < k; pc += p.kc {
+			kc := min(p.kc, k-pc)
+			p.packB(transB, b, ldb, pc, jc, kc, nc, *bp)
 			block := func(t, ib int) {
 				ic := ib * mc
 				mb := min(mc, m-ic)
-				packA(transA, a, lda, ic, pc, mb, kc, *aps[t])
-				macroKernel(mb, nc, kc, alpha, *aps[t], *bp, c[ic*ldc+jc:], ldc)
+				p.packA(transA, a, lda, ic, pc, mb, kc, *aps[t])
+				p.kernel(mb, nc, kc, alpha, *aps[t], *bp, c[ic*ldc+jc:], ldc)
 			}
 			if nt == 1 {
 				for ib := range nblk {

@@ -1,8 +1,6 @@
 package nn
 
 import (
-	"sync"
-	"sync/atomic"
 	"unsafe"
 )
 
@@ -32,51 +30,8 @@ func asF32[T Float](s []T) []float32 {
 // the pure-Go path, but not with the thread count: each element is still
 // summed by one goroutine in a fixed order.
 func gemm32(transA, transB bool, m, n, k int, alpha float32, a []float32, lda int, b []float32, ldb int, c []float32, ldc int) {
-	nt := Threads()
-	mc := min(gemm32MC/gemm32MR, ceilDiv(ceilDiv(m, nt), gemm32MR)) * gemm32MR
-	nblk := ceilDiv(m, mc)
-	nt = min(nt, nblk)
-
-	bp := getBuf[float32](gemm32KC * roundUp(min(n, gemm32NC), gemm32NR))
-	defer putBuf(bp)
-	aps := make([]*[]float32, nt)
-	for t := range aps {
-		aps[t] = getBuf[float32](mc * gemm32KC)
-		defer putBuf(aps[t])
-	}
-	for jc := 0; jc < n; jc += gemm32NC {
-		nc := min(gemm32NC, n-jc)
-		for pc := 0; pc < k; pc += gemm32KC {
-			kc := min(gemm32KC, k-pc)
-			packB32(transB, b, ldb, pc, jc, kc, nc, *bp)
-			block := func(t, ib int) {
-				ic := ib * mc
-				mb := min(mc, m-ic)
-				packA32(transA, a, lda, ic, pc, mb, kc, *aps[t])
-				macroKernel32(mb, nc, kc, alpha, *aps[t], *bp, c[ic*ldc+jc:], ldc)
-			}
-			if nt == 1 {
-				for ib := range nblk {
-					block(0, ib)
-				}
-				continue
-			}
-			var next atomic.Int32
-			var wg sync.WaitGroup
-			for t := range nt {
-				wg.Go(func() {
-					for {
-						ib := int(next.Add(1)) - 1
-						if ib >= nblk {
-							return
-						}
-						block(t, ib)
-					}
-				})
-			}
-			wg.Wait()
-		}
-	}
+	blocked(gemmPlan[float32]{gemm32MR, gemm32NR, gemm32KC, gemm32MC, gemm32NC, packA32, packB32, macroKernel32},
+		transA, transB, m, n, k, alpha, a, lda, b, ldb, c, ldc)
 }
 
 // packA32 copies rows ic..ic+mb, columns pc..pc+kc of op(A) into strips of
