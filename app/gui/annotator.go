@@ -82,10 +82,7 @@ func (u *ui) askAnnotatorThen(then func()) {
 	if u.st == nil {
 		return
 	}
-	var names []string
-	for _, a := range u.annotators {
-		names = append(names, a.Name)
-	}
+	names := u.annotatorNames()
 	entry := widget.NewSelectEntry(names)
 	entry.SetPlaceHolder("your name, e.g. Ines")
 	entry.SetText(u.me.Name)
@@ -119,4 +116,13 @@ func (u *ui) needAnnotator() bool {
 		return false
 	}
 	return true
+}
+
+// annotatorNames are the project's annotators' names, in name order.
+func (u *ui) annotatorNames() []string {
+	names := make([]string, 0, len(u.annotators))
+	for _, a := range u.annotators {
+		names = append(names, a.Name)
+	}
+	return names
 }

@@ -149,10 +149,7 @@ func (u *ui) askExport() {
 	}
 	layout := widget.NewSelect(layoutLabels(), nil)
 	layout.SetSelected(layoutChoices[0].label)
-	var names []string
-	for _, a := range u.annotators {
-		names = append(names, a.Name)
-	}
+	names := u.annotatorNames()
 	who := widget.NewSelect(names, nil)
 	if len(names) > 0 {
 		who.SetSelected(names[0])

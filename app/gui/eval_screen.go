@@ -61,10 +61,7 @@ func (u *ui) showEvaluation() {
 
 func newEvalScreen(u *ui) *evalScreen {
 	s := &evalScreen{u: u, win: u.app.NewWindow("Boxwright — model evaluation")}
-	var names []string
-	for _, a := range u.annotators {
-		names = append(names, a.Name)
-	}
+	names := u.annotatorNames()
 	s.truth = widget.NewSelect(names, nil)
 	for _, n := range names {
 		if n == ops.ConsensusName {

@@ -78,10 +78,7 @@ func (u *ui) showTraining() {
 
 func newTrainScreen(u *ui) *trainScreen {
 	s := &trainScreen{u: u, win: u.app.NewWindow("Boxwright — train a detector on this project")}
-	var names []string
-	for _, a := range u.annotators {
-		names = append(names, a.Name)
-	}
+	names := u.annotatorNames()
 	s.annotator = widget.NewSelect(names, nil)
 	switch {
 	case u.me.Name != "" && slices.Contains(names, u.me.Name):
