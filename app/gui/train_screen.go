@@ -244,6 +244,7 @@ func (s *trainScreen) startRun() {
 				if len(rep.Failed) > 0 {
 					msg += fmt.Sprintf(" %s could not be read: %s.", ops.Plural(len(rep.Failed), "image"), strings.Join(rep.Failed, "; "))
 				}
+				msg += " Memory: " + ops.TrainMemory(rep) + "."
 				s.status.SetText(msg)
 			}
 		})

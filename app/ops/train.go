@@ -44,8 +44,13 @@ type TrainReport struct {
 	ValImages   int
 	Skipped     []string // classes left out, with the reason
 	Failed      []string // images that could not be read
-	CacheBytes  int
-	Continued   bool
+	// CacheBytes is the memory of the images kept downscaled, Reloaded
+	// the images read again at each use because the cache was full, and
+	// PeakHeapBytes the most the program's heap held while training.
+	CacheBytes    int
+	Reloaded      int
+	PeakHeapBytes uint64
+	Continued     bool
 }
 
 // TrainingCandidates reads every image of the project with the named
@@ -111,7 +116,7 @@ func Train(ctx context.Context, st backend.Project, j TrainJob) (TrainReport, er
 	}
 	res, err := detector.Train(ctx, ts, opt)
 	rep.Failed = res.Failed
-	rep.CacheBytes = res.CacheBytes
+	rep.CacheBytes, rep.Reloaded, rep.PeakHeapBytes = res.CacheBytes, res.Reloaded, res.PeakHeapBytes
 	if err != nil {
 		return rep, err
 	}
@@ -279,4 +284,13 @@ func Detect(ctx context.Context, st backend.Project, j DetectJob) (DetectReport,
 		}
 	}
 	return rep, nil
+}
+
+// TrainMemory says in words what a training run held in memory.
+func TrainMemory(rep TrainReport) string {
+	s := fmt.Sprintf("images cached %.0f MB, peak heap %.0f MB", float64(rep.CacheBytes)/1e6, float64(rep.PeakHeapBytes)/1e6)
+	if rep.Reloaded > 0 {
+		s += fmt.Sprintf("; %d images did not fit the cache and were read again at each use", rep.Reloaded)
+	}
+	return s
 }

@@ -33,12 +33,3 @@ func setBias(l layer, v float32) {
 }
 
 func focalLoss(logits, target *tensor) (float64, *tensor) { return nn.FocalLoss(logits, target) }
-
-// maskedL1 is the L1 loss at the cells where mask (N×1×H×W) is 1.
-func maskedL1(pred, target, mask *tensor) (float64, *tensor) {
-	m := make([]bool, len(mask.Data))
-	for i, v := range mask.Data {
-		m[i] = v != 0
-	}
-	return nn.MaskedL1(pred, target, m)
-}

@@ -9,7 +9,7 @@ import (
 // Architecture names the network below and the layout of its weights;
 // change it whenever either changes, so that stored models of another
 // layout are refused rather than misread.
-const Architecture = "centre-heatmap/1"
+const Architecture = "centre-heatmap/2"
 
 type tensor = nn.Tensor[float32]
 
@@ -25,23 +25,28 @@ func newBlock(name string, in, out, stride int, r *rand.Rand) *block {
 // Net is the detector: a small encoder down to stride 16, a decoder back
 // to stride 4 that adds the encoder's maps of the same stride (a feature
 // pyramid in the manner of U-Net's skips), a shared 3×3 trunk and three 1×1
-// heads: per-class centre logits, box size and centre offset in cells.
+// heads: per-class centre logits and, per cell, the log-distances from the
+// cell to the four sides of its object's box.
 type Net struct {
 	Classes int
 	// encoder
 	e1, e2, e3, e4, e5, e6, e7 *block
 	// decoder: d1 at stride 16 → up → + e5; d2 at stride 8 → up → + e3
-	d1, d2     *block
-	up1, up2   layer
-	trunk      *block
-	heat       layer
-	size, offs layer
+	d1, d2   *block
+	up1, up2 layer
+	trunk    *block
+	heat     layer
+	box      layer
 }
 
 // heatBias starts the heat logits at a probability of about 0.1 for every
 // cell, so that the focal loss does not begin with a flood of false
 // positives ("Objects as Points" takes −2.19 from RetinaNet's prior).
 const heatBias = -2.19
+
+// boxBias starts every distance at Stride·e^1.4 ≈ 16 input pixels, a
+// middling object, rather than at one cell.
+const boxBias = 1.4
 
 // NewNet builds the network for the given number of classes with seeded
 // initial weights.
@@ -55,17 +60,17 @@ func NewNet(classes int, seed uint64) *Net {
 		up1: newUpsample(), up2: newUpsample(),
 		trunk: newBlock("trunk", 32, 32, 1, r),
 		heat:  newConv("heat", 32, classes, 1, 1, 0, true, r),
-		size:  newConv("size", 32, 2, 1, 1, 0, true, r),
-		offs:  newConv("offset", 32, 2, 1, 1, 0, true, r),
+		box:   newConv("box", 32, 4, 1, 1, 0, true, r),
 	}
 	setBias(n.heat, heatBias)
+	setBias(n.box, boxBias)
 	// Nothing needs the gradient of the image itself.
 	n.e1.Layers[0].(*nn.Conv2D[float32]).SkipInputGrad = true
 	return n
 }
 
 func (n *Net) layers() []layer {
-	return []layer{n.e1, n.e2, n.e3, n.e4, n.e5, n.e6, n.e7, n.d1, n.d2, n.trunk, n.heat, n.size, n.offs}
+	return []layer{n.e1, n.e2, n.e3, n.e4, n.e5, n.e6, n.e7, n.d1, n.d2, n.trunk, n.heat, n.box}
 }
 
 // Params lists every learnable parameter in a fixed order.
@@ -91,9 +96,8 @@ func (n *Net) State() []*nn.Param[float32] {
 
 // Outputs are the raw maps of one forward pass at stride 4.
 type Outputs struct {
-	Heat   *tensor // logits, N×C×H×W
-	Size   *tensor // N×2×H×W
-	Offset *tensor // N×2×H×W
+	Heat *tensor // logits, N×C×H×W
+	Box  *tensor // raw log-distances, N×4×H×W (see distanceOf)
 }
 
 // Forward runs the network on a batch (N×3×H×W, sides multiples of 32).
@@ -107,15 +111,14 @@ func (n *Net) Forward(x *tensor, train bool) Outputs {
 	u4 := n.up2.Forward(n.d2.Forward(u8, train), train)
 	u4 = add(u4, s4)
 	t := n.trunk.Forward(u4, train)
-	return Outputs{Heat: n.heat.Forward(t, train), Size: n.size.Forward(t, train), Offset: n.offs.Forward(t, train)}
+	return Outputs{Heat: n.heat.Forward(t, train), Box: n.box.Forward(t, train)}
 }
 
 // Backward takes the gradients of the loss with respect to the three
 // outputs and accumulates every parameter's gradient.
 func (n *Net) Backward(g Outputs) {
 	dt := n.heat.Backward(g.Heat)
-	dt.AddFrom(n.size.Backward(g.Size))
-	dt.AddFrom(n.offs.Backward(g.Offset))
+	dt.AddFrom(n.box.Backward(g.Box))
 	du4 := n.trunk.Backward(dt)
 	ds4 := du4.Clone() // the skip's share
 	du8 := n.d2.Backward(n.up2.Backward(du4))

@@ -8,10 +8,26 @@ import (
 	"testing"
 
 	"boxwright/project"
+	"boxwright/suggest/detector/nn"
 )
 
 func near(a, b project.Box, tol float64) bool {
 	return math.Abs(a.X0-b.X0) <= tol && math.Abs(a.Y0-b.Y0) <= tol && math.Abs(a.X1-b.X1) <= tol && math.Abs(a.Y1-b.Y1) <= tol
+}
+
+// rawOf is the box head output that regresses the target box at each
+// cell: the inverse of distanceOf.
+func rawOf(tg Targets) []float32 {
+	hw := tg.H * tg.W
+	raw := make([]float32, 4*hw)
+	for j := range hw {
+		ax, ay := anchor(j%tg.W), anchor(j/tg.W)
+		d := [4]float64{ax - float64(tg.Box[j]), ay - float64(tg.Box[hw+j]), float64(tg.Box[2*hw+j]) - ax, float64(tg.Box[3*hw+j]) - ay}
+		for c := range 4 {
+			raw[c*hw+j] = float32(math.Log(max(d[c], 1e-3) / Stride))
+		}
+	}
+	return raw
 }
 
 // Decoding the targets themselves gives back the boxes (round trip), the
@@ -29,7 +45,7 @@ func TestEncodeDecodeRoundTrip(t *testing.T) {
 	if v := tg.Heat[cy*tg.W+cx+1]; !(v > 0 && v < 1) {
 		t.Errorf("neighbour %v, want between 0 and 1", v)
 	}
-	ds := Decode(tg.Heat, tg.Size, tg.Offset, 2, tg.H, tg.W, 100, 0.99)
+	ds := Decode(tg.Heat, rawOf(tg), 2, tg.H, tg.W, 100, 0.99)
 	if len(ds) != 2 {
 		t.Fatalf("decoded %d boxes, want 2: %+v", len(ds), ds)
 	}
@@ -45,18 +61,72 @@ func TestEncodeDecodeRoundTrip(t *testing.T) {
 	}
 }
 
-// The peak radius grows with the object and stays inside it: each of the
-// three CornerNet cases is a quadratic whose coefficients scale as a and
-// a² for a square of side a, so r/a is the same for every a.
-func TestGaussianRadiusScales(t *testing.T) {
-	base := gaussianRadius(10, 10, 0.7) / 10
-	for _, a := range []float64{5, 20, 80} {
-		if r := gaussianRadius(a, a, 0.7) / a; math.Abs(r-base) > 1e-12 || r <= 0 || r >= 0.5 {
-			t.Errorf("side %v: r/a = %v, want %v", a, r, base)
+// The heat Gaussian follows the box's shape (TTFNet, Liu et al. 2020):
+// a box four times as wide as high spreads four times as far across, and
+// its regression weights sum to the log of its area.
+func TestEncodeShapesGaussianToBox(t *testing.T) {
+	s := Sample{W: 256, H: 128, Boxes: []project.Box{{X0: 40, Y0: 40, X1: 200, Y1: 80}}, Classes: []int{0}}
+	tg := Encode(s, 1)
+	px, py := 120/Stride, 60/Stride
+	spread := func(dx, dy int) int {
+		n := 0
+		for k := 1; ; k++ {
+			x, y := px+k*dx, py+k*dy
+			if x < 0 || y < 0 || x >= tg.W || y >= tg.H || tg.Heat[y*tg.W+x] == 0 {
+				return n
+			}
+			n++
 		}
 	}
-	if gaussianRadius(8, 30, 0.7) >= gaussianRadius(40, 12, 0.7) {
-		t.Errorf("radius does not grow with the box")
+	// Radii int(0.54·40/2) = 10 and int(0.54·10/2) = 2 cells.
+	if a, b := spread(1, 0), spread(0, 1); a != 10 || b != 2 {
+		t.Errorf("spread %d across and %d down, want 10 and 2", a, b)
+	}
+	var sum float64
+	for _, w := range tg.Weight {
+		sum += float64(w)
+	}
+	if want := math.Log(160 * 40); math.Abs(sum-want) > 1e-4 {
+		t.Errorf("weights sum to %v, want log(area) = %v", sum, want)
+	}
+}
+
+// The box loss's gradient against central finite differences (common
+// practice), through the exponential that maps the raw maps to distances.
+func TestBoxLossGradient(t *testing.T) {
+	s := Sample{W: 64, H: 64, Boxes: []project.Box{{X0: 8, Y0: 10, X1: 40, Y1: 30}, {X0: 30, Y0: 30, X1: 50, Y1: 60}}, Classes: []int{0, 0}}
+	tg := Encode(s, 1)
+	r := rand.New(rand.NewPCG(7, 8))
+	raw := nn.Zeros[float32](1, 4, tg.H, tg.W)
+	for i := range raw.Data {
+		raw.Data[i] = float32(r.Float64()*2 + 0.5)
+	}
+	_, g := boxLoss(raw, []Targets{tg})
+	// A few cells with weight, each side, in float32: a relative step.
+	hw := tg.H * tg.W
+	checked := 0
+	for j, w := range tg.Weight {
+		if w == 0 || checked >= 6 {
+			continue
+		}
+		checked++
+		for c := range 4 {
+			i := c*hw + j
+			v := raw.Data[i]
+			const h = 1e-2
+			raw.Data[i] = v + h
+			up, _ := boxLoss(raw, []Targets{tg})
+			raw.Data[i] = v - h
+			down, _ := boxLoss(raw, []Targets{tg})
+			raw.Data[i] = v
+			num := (up - down) / (2 * h)
+			if math.Abs(num-float64(g.Data[i])) > 1e-3*max(1, math.Abs(num)) {
+				t.Errorf("cell %d side %d: gradient %v, numeric %v", j, c, g.Data[i], num)
+			}
+		}
+	}
+	if checked == 0 {
+		t.Fatal("no weighted cells")
 	}
 }
 

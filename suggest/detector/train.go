@@ -7,6 +7,7 @@ import (
 	"image"
 	"math"
 	"math/rand/v2"
+	"runtime/metrics"
 	"slices"
 	"time"
 
@@ -17,9 +18,9 @@ import (
 	"boxwright/suggest/detector/nn"
 )
 
-// Loss weights of "Objects as Points": focal loss on the heat map, 1 for
-// the offset and 0.1 for the size.
-const sizeWeight, offsetWeight = 0.1, 1.0
+// boxWeight is the share of the GIoU box loss beside the focal loss on
+// the heat map, TTFNet's 5.
+const boxWeight = 5.0
 
 // TrainOptions tune a training run.
 type TrainOptions struct {
@@ -51,7 +52,14 @@ type TrainOptions struct {
 	// From continues training from a stored model's weights (its classes
 	// and input size must match the training set).
 	From *Model
+	// CacheLimit bounds the memory kept for downscaled images (0:
+	// DefaultCacheLimit); images beyond it are read again when used.
+	CacheLimit int
 }
+
+// DefaultCacheLimit keeps up to 1 GiB of downscaled images in memory:
+// about 350 images at the largest input size, more at smaller ones.
+const DefaultCacheLimit = 1 << 30
 
 // Result is what a training run made.
 type Result struct {
@@ -59,8 +67,13 @@ type Result struct {
 	Epochs []project.Epoch
 	// Failed names the images that could not be read.
 	Failed []string
-	// CacheBytes is the memory taken by the downscaled training images.
-	CacheBytes int
+	// CacheBytes is the memory taken by the downscaled images kept, and
+	// Reloaded the number of images read again at each use because the
+	// cache was full.
+	CacheBytes, Reloaded int
+	// PeakHeapBytes is the most memory the Go heap held, sampled after
+	// each step: cache, network and the largest step's work.
+	PeakHeapBytes uint64
 }
 
 // Model is a trained network with what it needs to run.
@@ -71,11 +84,13 @@ type Model struct {
 }
 
 // cached is an example's image, downscaled once to the largest size the
-// augmentation will ask for.
+// augmentation will ask for; img is nil when the cache was full, and the
+// image is read again at each use.
 type cached struct {
 	ex    Example
 	img   *image.RGBA
-	boxes []project.Box // in the cached image's pixels
+	w, h  int           // the downscaled size
+	boxes []project.Box // in the downscaled image's pixels
 }
 
 // Train fits a network to the training set and reports validation AP50
@@ -110,8 +125,12 @@ func Train(ctx context.Context, ts TrainingSet, opt TrainOptions) (Result, error
 	} else {
 		net = NewNet(len(ts.Classes), opt.Seed)
 	}
-	train, failed := loadCache(ctx, ts.Train, long, opt)
-	val, failedVal := loadCache(ctx, ts.Val, long, TrainOptions{Load: opt.Load})
+	limit := opt.CacheLimit
+	if limit <= 0 {
+		limit = DefaultCacheLimit
+	}
+	train, failed := loadCache(ctx, ts.Train, long, max(opt.Augment.Scale, 1), opt.Load, &limit)
+	val, failedVal := loadCache(ctx, ts.Val, long, 1, opt.Load, &limit)
 	res.Failed = append(failed, failedVal...)
 	if err := ctx.Err(); err != nil {
 		return res, err
@@ -120,16 +139,18 @@ func Train(ctx context.Context, ts TrainingSet, opt TrainOptions) (Result, error
 		return res, fmt.Errorf("train: none of the %d training images could be read: %w", len(ts.Train), project.ErrInvalid)
 	}
 	for _, c := range append(append([]cached{}, train...), val...) {
-		res.CacheBytes += len(c.img.Pix)
+		if c.img != nil {
+			res.CacheBytes += len(c.img.Pix)
+		} else {
+			res.Reloaded++
+		}
 	}
+	var heap heapPeak
 	params := net.Params()
 	adam := nn.NewAdam[float32](lr)
 	r := rand.New(rand.NewPCG(opt.Seed, 0x747261696e))
 	start := time.Now()
-	order := make([]int, len(train))
-	for i := range order {
-		order[i] = i
-	}
+	order := epochPlan(train, long, opt.Augment.Crop)
 	for epoch := 1; ; epoch++ {
 		// Cosine decay to a tenth over the planned epochs or, with only a
 		// budget, over the time.
@@ -151,17 +172,28 @@ func Train(ctx context.Context, ts TrainingSet, opt TrainOptions) (Result, error
 			var samples []Sample
 			for _, i := range order[at:min(at+batch, len(order))] {
 				c := train[i]
-				samples = append(samples, AugmentImage(c.img, c.boxes, c.ex.Classes, long, opt.Augment, r))
+				img, err := c.image(ctx, opt.Load)
+				if err != nil {
+					if ctx.Err() != nil {
+						return Result{Failed: res.Failed}, ctx.Err()
+					}
+					continue // it was read once; a second failure skips a step's share
+				}
+				samples = append(samples, AugmentImage(img, c.boxes, c.ex.Classes, long, opt.Augment, r))
+			}
+			if len(samples) == 0 {
+				continue
 			}
 			loss := step(net, samples, len(ts.Classes))
 			adam.Step(params)
 			adam.ZeroGrad(params)
 			sum += loss
 			steps++
+			heap.sample()
 		}
 		e := project.Epoch{Epoch: epoch, Loss: sum / float64(max(steps, 1)), ValAP50: math.NaN(), Seconds: time.Since(start).Seconds()}
 		if len(val) > 0 {
-			e.ValAP50 = validate(ctx, &Model{Net: net, Classes: ts.Classes, InputSize: long}, val)
+			e.ValAP50 = validate(ctx, &Model{Net: net, Classes: ts.Classes, InputSize: long}, val, opt.Load)
 			e.Seconds = time.Since(start).Seconds()
 		}
 		res.Epochs = append(res.Epochs, e)
@@ -173,7 +205,29 @@ func Train(ctx context.Context, ts TrainingSet, opt TrainOptions) (Result, error
 		}
 	}
 	res.Model = &Model{Net: net, Classes: ts.Classes, InputSize: long}
+	res.PeakHeapBytes = heap.peak
 	return res, nil
+}
+
+// epochPlan lists the training images of one epoch, each as many times as
+// crops of the augmentation's size it takes to cover its frame once (at
+// least once): an epoch then shows the network every image's area about
+// once, whatever the crop, and validation, run after each epoch, stays a
+// small share of the time.
+func epochPlan(train []cached, long, crop int) []int {
+	var order []int
+	for i, c := range train {
+		n := 1
+		if crop > 0 {
+			fw, fh, _ := Frame(c.w, c.h, long)
+			side := roundUp(crop, pad)
+			n = max(1, int(math.Round(float64(fw*fh)/float64(min(fw, side)*min(fh, side)))))
+		}
+		for range n {
+			order = append(order, i)
+		}
+	}
+	return order
 }
 
 // progressOf is how far through its plan a run is, 0 to 1: by epochs when
@@ -188,35 +242,71 @@ func progressOf(opt TrainOptions, epoch int, elapsed time.Duration) (float64, bo
 	return 0, false
 }
 
-// loadCache reads and downscales the examples' images to long·Scale (the
-// largest an augmentation asks for), in parallel with nothing: decoding is
-// a small part of an epoch and memory stays predictable.
-func loadCache(ctx context.Context, exs []Example, long int, opt TrainOptions) ([]cached, []string) {
+// loadCache reads and downscales the examples' images to long·jitter (the
+// largest an augmentation asks for), one at a time so that memory stays
+// predictable, keeping each while *budget bytes remain. Every image is read
+// once here, so that one that cannot be read is named before training.
+func loadCache(ctx context.Context, exs []Example, long int, jitter float64, load func(context.Context, project.Image) (image.Image, error), budget *int) ([]cached, []string) {
 	var out []cached
 	var failed []string
-	jitter := max(opt.Augment.Scale, 1)
 	for _, ex := range exs {
 		if ctx.Err() != nil {
 			return out, failed
 		}
-		img, err := opt.Load(ctx, ex.Image)
+		img, err := load(ctx, ex.Image)
 		if err != nil {
 			failed = append(failed, fmt.Sprintf("%s: %v", ex.Image.Path, err))
 			continue
 		}
 		b := img.Bounds()
 		target := min(1, float64(long)*jitter/float64(max(b.Dx(), b.Dy())))
-		w, h := max(1, int(math.Round(float64(b.Dx())*target))), max(1, int(math.Round(float64(b.Dy())*target)))
-		small := image.NewRGBA(image.Rect(0, 0, w, h))
-		draw.ApproxBiLinear.Scale(small, small.Rect, img, b, draw.Src, nil)
-		sx, sy := float64(w)/float64(b.Dx()), float64(h)/float64(b.Dy())
-		c := cached{ex: ex, img: small}
+		c := cached{ex: ex, w: max(1, int(math.Round(float64(b.Dx())*target))), h: max(1, int(math.Round(float64(b.Dy())*target)))}
+		sx, sy := float64(c.w)/float64(b.Dx()), float64(c.h)/float64(b.Dy())
 		for _, bx := range ex.Boxes {
 			c.boxes = append(c.boxes, project.Box{X0: bx.X0 * sx, Y0: bx.Y0 * sy, X1: bx.X1 * sx, Y1: bx.Y1 * sy})
+		}
+		if size := 4 * c.w * c.h; size <= *budget {
+			*budget -= size
+			c.img = c.downscale(img)
 		}
 		out = append(out, c)
 	}
 	return out, failed
+}
+
+func (c *cached) downscale(img image.Image) *image.RGBA {
+	small := image.NewRGBA(image.Rect(0, 0, c.w, c.h))
+	draw.ApproxBiLinear.Scale(small, small.Rect, img, img.Bounds(), draw.Src, nil)
+	return small
+}
+
+// image returns the downscaled image, read again if it was not kept.
+func (c *cached) image(ctx context.Context, load func(context.Context, project.Image) (image.Image, error)) (*image.RGBA, error) {
+	if c.img != nil {
+		return c.img, nil
+	}
+	img, err := load(ctx, c.ex.Image)
+	if err != nil {
+		return nil, err
+	}
+	return c.downscale(img), nil
+}
+
+// heapPeak follows the largest Go heap seen; reading the runtime's metric
+// costs microseconds, next to a step's tenths of a second.
+type heapPeak struct {
+	peak  uint64
+	probe []metrics.Sample
+}
+
+func (h *heapPeak) sample() {
+	if h.probe == nil {
+		h.probe = []metrics.Sample{{Name: "/memory/classes/heap/objects:bytes"}}
+	}
+	metrics.Read(h.probe)
+	if v := h.probe[0].Value; v.Kind() == metrics.KindUint64 {
+		h.peak = max(h.peak, v.Uint64())
+	}
 }
 
 // batchOf stacks samples into one N×3×H×W tensor, padding smaller frames at
@@ -247,22 +337,16 @@ func step(net *Net, samples []Sample, classes int) float64 {
 	out := net.Forward(x, true)
 	n, h, w := out.Heat.N, out.Heat.H, out.Heat.W
 	heatT := nn.Zeros[float32](n, classes, h, w)
-	sizeT, offT := nn.Zeros[float32](n, 2, h, w), nn.Zeros[float32](n, 2, h, w)
-	mask := nn.Zeros[float32](n, 1, h, w)
+	ts := make([]Targets, n)
 	for i, s := range samples {
-		t := Encode(s, classes)
-		copy(heatT.Image(i), t.Heat)
-		copy(sizeT.Image(i), t.Size)
-		copy(offT.Image(i), t.Offset)
-		copy(mask.Image(i), t.Mask)
+		ts[i] = Encode(s, classes)
+		copy(heatT.Image(i), ts[i].Heat)
 	}
 	fl, gHeat := focalLoss(out.Heat, heatT)
-	sl, gSize := maskedL1(out.Size, sizeT, mask)
-	ol, gOff := maskedL1(out.Offset, offT, mask)
-	scale(gSize, sizeWeight)
-	scale(gOff, offsetWeight)
-	net.Backward(Outputs{Heat: gHeat, Size: gSize, Offset: gOff})
-	return fl + sizeWeight*sl + offsetWeight*ol
+	bl, gBox := boxLoss(out.Box, ts)
+	scale(gBox, boxWeight)
+	net.Backward(Outputs{Heat: gHeat, Box: gBox})
+	return fl + boxWeight*bl
 }
 
 func scale(t *tensor, f float32) {
@@ -274,7 +358,7 @@ func scale(t *tensor, f float32) {
 // validate scores the model on the validation images: AP50 of VOC-style
 // matching with all-point interpolation (project/eval), the mean over the
 // classes with ground truth.
-func validate(ctx context.Context, m *Model, val []cached) float64 {
+func validate(ctx context.Context, m *Model, val []cached, load func(context.Context, project.Image) (image.Image, error)) float64 {
 	var truths []eval.Truth
 	var preds []eval.Prediction
 	for i, c := range val {
@@ -285,7 +369,11 @@ func validate(ctx context.Context, m *Model, val []cached) float64 {
 		for j, b := range c.boxes {
 			truths = append(truths, eval.Truth{ImageID: id, ClassID: int64(c.ex.Classes[j]), Box: b})
 		}
-		for _, d := range m.DetectImage(c.img, 100, 0.01, 0.5) {
+		img, err := c.image(ctx, load)
+		if err != nil {
+			continue // it was read once; its truths count as missed
+		}
+		for _, d := range m.DetectImage(img, 100, 0.01, 0.5) {
 			preds = append(preds, eval.Prediction{ImageID: id, ClassID: int64(d.Class), Box: d.Box, Score: d.Score})
 		}
 	}
@@ -311,7 +399,7 @@ func (m *Model) DetectImage(img image.Image, topK int, minScore, nmsIoU float64)
 	for i, v := range out.Heat.Data {
 		heat[i] = float32(1 / (1 + math.Exp(-float64(v))))
 	}
-	ds := Decode(heat, out.Size.Data, out.Offset.Data, m.Net.Classes, h, w, topK, minScore)
+	ds := Decode(heat, out.Box.Data, m.Net.Classes, h, w, topK, minScore)
 	b := img.Bounds()
 	return ToImage(ds, sc, b.Dx(), b.Dy(), nmsIoU)
 }

@@ -117,6 +117,20 @@ func TestTrainLearnsSquares(t *testing.T) {
 			t.Fatalf("epoch %d: loss %v, %v and %v with the same seed", i+1, res.Epochs[i].Loss, once.Epochs[i].Loss, again.Epochs[i].Loss)
 		}
 	}
+	// With no room to cache, every image is read again at each use, and
+	// the run is the same.
+	tight := short
+	tight.CacheLimit = 1
+	reread, err := Train(context.Background(), ts, tight)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if reread.Reloaded != len(ts.Train)+len(ts.Val) || reread.CacheBytes != 0 || once.Reloaded != 0 || once.CacheBytes == 0 {
+		t.Errorf("cache: %d reloaded, %d bytes; default limit %d reloaded, %d bytes", reread.Reloaded, reread.CacheBytes, once.Reloaded, once.CacheBytes)
+	}
+	if reread.Epochs[1].Loss != once.Epochs[1].Loss || reread.PeakHeapBytes == 0 {
+		t.Errorf("without a cache: loss %v, cached %v; peak heap %d", reread.Epochs[1].Loss, once.Epochs[1].Loss, reread.PeakHeapBytes)
+	}
 	// A stored model reads back to the same detections.
 	blob, err := EncodeModel(res.Model)
 	if err != nil {

@@ -224,22 +224,6 @@ func TestFocalLossGradient(t *testing.T) {
 	checkGrad(t, "FocalLoss", g.Data, z.Data, func() float64 { l, _ := FocalLoss(z, y); return l })
 }
 
-func TestMaskedL1Gradient(t *testing.T) {
-	r := rand.New(rand.NewPCG(10, 7))
-	p, q := randTensor(r, 2, 2, 4, 5), randTensor(r, 2, 2, 4, 5)
-	for i := range p.Data {
-		if math.Abs(p.Data[i]-q.Data[i]) < 0.01 { // away from |·|'s kink
-			p.Data[i] += 0.1
-		}
-	}
-	mask := make([]bool, 2*4*5)
-	for i := range mask {
-		mask[i] = r.IntN(3) == 0
-	}
-	_, g := MaskedL1(p, q, mask)
-	checkGrad(t, "MaskedL1", g.Data, p.Data, func() float64 { l, _ := MaskedL1(p, q, mask); return l })
-}
-
 // TestConv2DInit: Kaiming-normal weights have std sqrt(2/fan_in) and repeat
 // for the same seed. Source: He et al. 2015, "Delving Deep into
 // Rectifiers" (PyTorch's kaiming_normal_ with its defaults).

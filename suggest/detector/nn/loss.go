@@ -1,7 +1,6 @@
 package nn
 
 import (
-	"fmt"
 	"math"
 )
 
@@ -53,49 +52,6 @@ func FocalLoss[T Float](logits, target *Tensor[T]) (float64, *Tensor[T]) {
 		sum += f
 		if s == p {
 			grad.Data[i] = T(dfdp * s * (1 - s) * norm)
-		}
-	}
-	return sum * norm, grad
-}
-
-// MaskedL1 is the L1 loss of regression maps at the masked positions only,
-// as the size and offset losses of "Objects as Points" (eq. 2):
-// L = 1/M Σ_{masked (n,y,x)} Σ_c |pred − target|, with M the number of
-// masked positions (at least 1). mask has one entry per position, index
-// (n·H+y)·W+x, and covers every channel there. It returns L and dL/dpred;
-// the gradient of |0| is taken as 0.
-func MaskedL1[T Float](pred, target *Tensor[T], mask []bool) (float64, *Tensor[T]) {
-	mustSameShape("MaskedL1", pred, target)
-	hw := pred.H * pred.W
-	if len(mask) != pred.N*hw {
-		panic(fmt.Sprintf("nn.MaskedL1: mask has %d entries for %d positions", len(mask), pred.N*hw))
-	}
-	m := 0
-	for _, on := range mask {
-		if on {
-			m++
-		}
-	}
-	norm := 1 / float64(max(m, 1))
-	g := T(norm)
-	grad := Like(pred)
-	var sum float64
-	for n := range pred.N {
-		for c := range pred.C {
-			p, t, d := pred.Plane(n, c), target.Plane(n, c), grad.Plane(n, c)
-			for i, on := range mask[n*hw : (n+1)*hw] {
-				if !on {
-					continue
-				}
-				e := float64(p[i]) - float64(t[i])
-				sum += math.Abs(e)
-				switch {
-				case e > 0:
-					d[i] = g
-				case e < 0:
-					d[i] = -g
-				}
-			}
 		}
 	}
 	return sum * norm, grad

@@ -44,26 +44,6 @@ func TestFocalLossByHand(t *testing.T) {
 	}
 }
 
-// TestMaskedL1ByHand: two masked positions of a 2-channel map, so
 // L = (|1−0.5| + |−2−0| + |0.25−1| + |3−3|)/2 = 3.25/2 = 1.625; unmasked
 // errors do not count. Source: eq. 2 of "Objects as Points" (L1 summed
 // over the channels at each point, divided by the number of points).
-func TestMaskedL1ByHand(t *testing.T) {
-	pred := New(1, 2, 1, 3, []float64{1, 9, 0.25, -2, 9, 3})
-	target := New(1, 2, 1, 3, []float64{0.5, 0, 1, 0, 0, 3})
-	mask := []bool{true, false, true}
-	loss, g := MaskedL1(pred, target, mask)
-	if loss != 1.625 {
-		t.Errorf("loss = %v, by hand 1.625", loss)
-	}
-	want := []float64{0.5, 0, -0.5, -0.5, 0, 0}
-	for i, v := range want {
-		if g.Data[i] != v {
-			t.Errorf("gradient %v, by hand %v", g.Data, want)
-			break
-		}
-	}
-	if loss, _ := MaskedL1(pred, target, make([]bool, 3)); loss != 0 {
-		t.Errorf("empty mask: loss %v, want 0", loss)
-	}
-}
