@@ -70,6 +70,9 @@ func Gemm[T Float](transA, transB bool, m, n, k int, alpha T, a []T, lda int, b 
 	if k == 0 || alpha == 0 {
 		return
 	}
+	if gemmBLAS(transA, transB, m, n, k, alpha, a, lda, b, ldb, c, ldc) {
+		return
+	}
 	// Size 4 means an underlying float32, which has float32's layout.
 	if useAsm32 && unsafe.Sizeof(alpha) == 4 {
 		gemm32(transA, transB, m, n, k, *(*float32)(unsafe.Pointer(&alpha)), asF32(a), lda, asF32(b), ldb, asF32(c), ldc)
