@@ -18,12 +18,12 @@ var gemmBenchShapes = []struct {
 }{
 	{"256x4096x1152", false, false, 256, 4096, 1152},
 	{"32x1152x288", false, false, 32, 1152, 288},
-	{"conv64/fwd_64x4096x576", false, false, 64, 4096, 576},
-	{"conv64/dW_64x576x4096_NT", false, true, 64, 576, 4096},
-	{"conv64/dcol_576x4096x64_TN", true, false, 576, 4096, 64},
-	{"stem/fwd_16x16384x27", false, false, 16, 16384, 27},
-	{"stem/dW_16x27x16384_NT", false, true, 16, 27, 16384},
-	{"stem/dcol_27x16384x16_TN", true, false, 27, 16384, 16},
+	{"conv64_fwd_64x4096x576", false, false, 64, 4096, 576},
+	{"conv64_dW_64x576x4096_NT", false, true, 64, 576, 4096},
+	{"conv64_dcol_576x4096x64_TN", true, false, 576, 4096, 64},
+	{"stem_fwd_16x16384x27", false, false, 16, 16384, 27},
+	{"stem_dW_16x27x16384_NT", false, true, 16, 27, 16384},
+	{"stem_dcol_27x16384x16_TN", true, false, 27, 16384, 16},
 }
 
 // setBackend picks Gemm's float32 path for one benchmark: "asm" (the Go
