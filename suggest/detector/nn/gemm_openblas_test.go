@@ -12,6 +12,8 @@ import (
 	"strings"
 	"sync"
 	"testing"
+
+	"boxwright/suggest/detector/nn/internal/openblas"
 )
 
 // needBLAS sends Gemm to OpenBLAS for one test. A build with the tag that
@@ -146,7 +148,8 @@ func TestOpenBLASNamedType(t *testing.T) {
 }
 
 // TestOpenBLASDeterministic checks that for a fixed thread count repeated
-// products are bit-identical, with SetThreads reaching OpenBLAS's pool.
+// products are bit-identical, and that SetThreads reaches OpenBLAS
+// (openblas_get_num_threads).
 // Whether different counts agree is only logged: OpenBLAS does not
 // promise it (and its single-threaded path sums differently). Reference:
 // the first run at the same thread count.
@@ -165,8 +168,8 @@ func TestOpenBLASDeterministic(t *testing.T) {
 				var ref []float32
 				for range 3 {
 					got := runGemm(t, true, tr[0], tr[1], m, n, k, 1.25, 0.5, a, lda, b, ldb, c, ldc)
-					if blas.threads.Load() != int32(th) {
-						t.Fatalf("SetThreads(%d) left OpenBLAS at %d threads", th, blas.threads.Load())
+					if n := openblas.Threads(); n != th {
+						t.Fatalf("SetThreads(%d) left OpenBLAS at %d threads", th, n)
 					}
 					if ref == nil {
 						ref = got

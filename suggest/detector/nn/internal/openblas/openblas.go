@@ -13,6 +13,7 @@ package openblas
 static __typeof__(cblas_sgemm) *bw_sgemm_fn;
 static __typeof__(cblas_dgemm) *bw_dgemm_fn;
 static void (*bw_set_threads_fn)(int);
+static int (*bw_get_threads_fn)(void);
 static char *(*bw_corename_fn)(void);
 static char *(*bw_config_fn)(void);
 
@@ -26,9 +27,10 @@ static const char *bw_open(const char *path) {
 	bw_sgemm_fn = (__typeof__(bw_sgemm_fn))dlsym(h, "cblas_sgemm");
 	bw_dgemm_fn = (__typeof__(bw_dgemm_fn))dlsym(h, "cblas_dgemm");
 	bw_set_threads_fn = (void (*)(int))dlsym(h, "openblas_set_num_threads");
+	bw_get_threads_fn = (int (*)(void))dlsym(h, "openblas_get_num_threads");
 	bw_corename_fn = (char *(*)(void))dlsym(h, "openblas_get_corename");
 	bw_config_fn = (char *(*)(void))dlsym(h, "openblas_get_config");
-	if (!bw_sgemm_fn || !bw_dgemm_fn || !bw_set_threads_fn || !bw_corename_fn || !bw_config_fn) {
+	if (!bw_sgemm_fn || !bw_dgemm_fn || !bw_set_threads_fn || !bw_get_threads_fn || !bw_corename_fn || !bw_config_fn) {
 		return "cblas_sgemm, cblas_dgemm or an openblas_* routine is missing";
 	}
 	return NULL;
@@ -37,6 +39,7 @@ static const char *bw_open(const char *path) {
 static const char *bw_corename(void) { return bw_corename_fn(); }
 static const char *bw_config(void) { return bw_config_fn(); }
 static void bw_set_threads(int n) { bw_set_threads_fn(n); }
+static int bw_get_threads(void) { return bw_get_threads_fn(); }
 
 // beta is 1: the caller has already scaled C.
 static void bw_sgemm(int ta, int tb, int m, int n, int k, float alpha,
@@ -88,6 +91,9 @@ func Config() string { return C.GoString(C.bw_config()) }
 
 // SetThreads is openblas_set_num_threads.
 func SetThreads(n int) { C.bw_set_threads(C.int(n)) }
+
+// Threads is openblas_get_num_threads.
+func Threads() int { return int(C.bw_get_threads()) }
 
 func cbool(b bool) C.int {
 	if b {
