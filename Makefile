@@ -7,10 +7,12 @@ DEMO_DIR ?= build/demo
 # Debian packages for cgo (SQLite, OpenGL/GLFW window) and for the window
 # smoke test under a virtual X server; shapely is the reference for the IoU check,
 # scikit-learn, statsmodels and SciPy for the agreement statistics and matching,
-# OpenCV for non-maximum suppression, PyTorch for the detector's layer checks.
+# OpenCV for non-maximum suppression, PyTorch for the detector's layer checks,
+# OpenBLAS for the detector's optional `-tags openblas` GEMM.
 BUILD_DEBS := gcc pkg-config libgl1-mesa-dev libx11-dev libxcursor-dev libxrandr-dev \
               libxinerama-dev libxi-dev libxxf86vm-dev
-TEST_DEBS := xvfb xauth xdotool imagemagick python3-shapely python3-sklearn python3-statsmodels python3-scipy python3-opencv python3-torch
+TEST_DEBS := xvfb xauth xdotool imagemagick python3-shapely python3-sklearn python3-statsmodels python3-scipy python3-opencv python3-torch \
+             libopenblas-dev
 
 export CGO_ENABLED := 1
 
@@ -27,9 +29,11 @@ build:
 vet:
 	@test -z "$$(gofmt -l $$(git ls-files '*.go' 2>/dev/null || find . -name '*.go'))" || { echo "gofmt would change:"; gofmt -l .; exit 1; }
 	$(GO) vet ./...
+	$(GO) vet -tags openblas ./suggest/detector/nn/...
 
 unit:
 	$(GO) test ./...
+	$(GO) test -tags openblas ./suggest/detector/nn/...
 
 # A short run of every fuzz target (they also run their seed corpora in
 # `unit`); set FUZZTIME=2m for a longer hunt.

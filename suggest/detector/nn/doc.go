@@ -16,5 +16,16 @@
 // splits rows of C among goroutines, but each element is computed by one
 // goroutine with its sum over k in a fixed order; everything else runs on
 // one goroutine. A seeded run therefore repeats bit for bit on the same
-// machine and build.
+// machine and build. With the openblas tag that holds only for a fixed
+// thread count: OpenBLAS's sums can change with its thread count.
+//
+// OpenBLAS: `go build -tags openblas` (cgo; cblas.h from Debian's
+// libopenblas-dev) sends float32 and float64 products to cblas_sgemm and
+// cblas_dgemm on Threads() threads. The library is opened with dlopen at
+// first use so that OPENBLAS_CORETYPE, if unset, is first set from
+// x/sys/cpu (SKYLAKEX for AVX-512, HASWELL for AVX2 and FMA): Debian's
+// 0.3.21 can take an AVX-512 Xeon for an old core and run several times
+// slower. If the library is missing, fails a self-check, or still runs a
+// pre-AVX2 core on an AVX2 CPU, Gemm keeps the Go kernels, as it does with
+// BOXWRIGHT_GEMM=asm; GemmBackend reports the path and core.
 package nn

@@ -25,7 +25,8 @@ var threads atomic.Int32
 
 // SetThreads sets how many goroutines Gemm uses; n <= 0 restores the
 // default, runtime.GOMAXPROCS(0). Results are bit-identical whatever the
-// setting, so this only trades speed for CPU.
+// setting, so this only trades speed for CPU (with the openblas tag, only
+// for a fixed setting: see the package doc).
 func SetThreads(n int) { threads.Store(int32(max(n, 0))) }
 
 // Threads returns how many goroutines Gemm uses.
@@ -68,6 +69,9 @@ func Gemm[T Float](transA, transB bool, m, n, k int, alpha T, a []T, lda int, b 
 		}
 	}
 	if k == 0 || alpha == 0 {
+		return
+	}
+	if gemmBLAS(transA, transB, m, n, k, alpha, a, lda, b, ldb, c, ldc) {
 		return
 	}
 	// Size 4 means an underlying float32, which has float32's layout.

@@ -10,8 +10,10 @@ import (
 	"testing"
 )
 
-// setAsm32 switches the float32 path for one test and restores it after.
+// setAsm32 switches the float32 path for one test and restores it after;
+// it also keeps OpenBLAS out of the way.
 func setAsm32(t testing.TB, on bool) {
+	noBLAS(t)
 	old := useAsm32
 	useAsm32 = on
 	t.Cleanup(func() { useAsm32 = old })
