@@ -75,7 +75,8 @@ func cmdTrain(args []string, stdout, stderr io.Writer) error {
 		return writeJSON(stdout, map[string]any{"model": rep.Model.Name, "epochs": es, "val_ap50": ops.Num(rep.Model.ValAP50),
 			"train_images": rep.TrainImages, "val_images": rep.ValImages, "classes": rep.Model.Classes, "input_size": rep.Model.InputSize,
 			"skipped_classes": nonNil(rep.Skipped), "failed_images": nonNil(rep.Failed), "continued": rep.Continued,
-			"cache_bytes": rep.CacheBytes, "reloaded_images": rep.Reloaded, "peak_heap_bytes": rep.PeakHeapBytes})
+			"cache_bytes": rep.CacheBytes, "reloaded_images": rep.Reloaded, "peak_heap_bytes": rep.PeakHeapBytes,
+			"arithmetic": nn.GemmBackend(), "threads": nn.Threads()})
 	}
 	for _, sk := range rep.Skipped {
 		fmt.Fprintf(stdout, "class left out: %s\n", sk)
@@ -86,7 +87,7 @@ func cmdTrain(args []string, stdout, stderr io.Writer) error {
 	}
 	fmt.Fprintf(stdout, "%s model %s (current): classes %s, input %d px, %d training and %d validation images, val AP50 %s\n",
 		verb, rep.Model.Name, strings.Join(rep.Model.Classes, ", "), rep.Model.InputSize, rep.TrainImages, rep.ValImages, ops.F4(rep.Model.ValAP50))
-	fmt.Fprintf(stdout, "memory: %s\n", ops.TrainMemory(rep))
+	fmt.Fprintf(stdout, "memory: %s; arithmetic: %s, %d threads\n", ops.TrainMemory(rep), nn.GemmBackend(), nn.Threads())
 	fmt.Fprintln(stdout, "A model trained on a few dozen images is a labelling aid, not a validated detector: review what it suggests.")
 	return nil
 }

@@ -16,7 +16,7 @@
 // cheap enough for two laptop cores; the dense regression gives a few
 // dozen labelled images many more training samples than one cell per
 // object would. The network (net.go) is an encoder of seven
-// conv/batch-norm/ReLU stages down to stride 16 (16, 32, 64, 96
+// conv/batch-norm/ReLU stages down to stride 16 (16, 32, 64, 128
 // channels), a decoder that upsamples twice and adds the encoder's maps of
 // the same stride, and a shared 3×3 trunk with two 1×1 heads. Inputs are
 // downscaled so that the long side is one of 256…640 pixels, chosen so

@@ -9,7 +9,7 @@ import (
 // Architecture names the network below and the layout of its weights;
 // change it whenever either changes, so that stored models of another
 // layout are refused rather than misread.
-const Architecture = "centre-heatmap/2"
+const Architecture = "centre-heatmap/3"
 
 type tensor = nn.Tensor[float32]
 
@@ -24,7 +24,7 @@ func newBlock(name string, in, out, stride int, r *rand.Rand) *block {
 
 // Net is the detector: a small encoder down to stride 16, a decoder back
 // to stride 4 that adds the encoder's maps of the same stride (a feature
-// pyramid in the manner of U-Net's skips), a shared 3×3 trunk and three 1×1
+// pyramid in the manner of U-Net's skips), a shared 3×3 trunk and two 1×1
 // heads: per-class centre logits and, per cell, the log-distances from the
 // cell to the four sides of its object's box.
 type Net struct {
@@ -55,8 +55,8 @@ func NewNet(classes int, seed uint64) *Net {
 	n := &Net{Classes: classes,
 		e1: newBlock("e1", 3, 16, 2, r), e2: newBlock("e2", 16, 32, 2, r), e3: newBlock("e3", 32, 32, 1, r),
 		e4: newBlock("e4", 32, 64, 2, r), e5: newBlock("e5", 64, 64, 1, r),
-		e6: newBlock("e6", 64, 96, 2, r), e7: newBlock("e7", 96, 96, 1, r),
-		d1: newBlock("d1", 96, 64, 1, r), d2: newBlock("d2", 64, 32, 1, r),
+		e6: newBlock("e6", 64, 128, 2, r), e7: newBlock("e7", 128, 128, 1, r),
+		d1: newBlock("d1", 128, 64, 1, r), d2: newBlock("d2", 64, 32, 1, r),
 		up1: newUpsample(), up2: newUpsample(),
 		trunk: newBlock("trunk", 32, 32, 1, r),
 		heat:  newConv("heat", 32, classes, 1, 1, 0, true, r),
