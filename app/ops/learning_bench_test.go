@@ -17,33 +17,37 @@ import (
 	"boxwright/suggest/exemplar"
 )
 
-// BenchmarkDemoLearning is the learning check of the detector, as a
-// benchmark because it runs for minutes: the demo (seed 1), a model trained
-// on Ines's labels of the first 30 images within BOXWRIGHT_TRAIN_MINUTES
-// (default 5), then AP50 (VOC-style, all-point, project/eval as "boxwright
-// eval" scores it) on the other 10 against Ines's labels. Beside it, the
-// exemplar matcher's AP50 on the same 10 images, with one exemplar per
-// class (Ines's first box of the class in the training images, rotations
-// on). It reports both AP50s, the epochs and the training images per
-// second.
-func BenchmarkDemoLearning(b *testing.B) {
-	minutes := 5.0
-	if v, err := strconv.ParseFloat(os.Getenv("BOXWRIGHT_TRAIN_MINUTES"), 64); err == nil && v > 0 {
-		minutes = v
-	}
-	dir := b.TempDir()
+// demoLearning is the learning check of the detector: the demo (seed 1),
+// a model trained on Ines's labels of the first 30 images (15 % of them
+// held out for validation) for the given epochs or time, then AP50
+// (VOC-style, all-point, project/eval as "boxwright eval" scores it) on the
+// other 10 images against Ines's labels. With exemplars it also scores the
+// exemplar matcher on the same 10 images, one exemplar per class (Ines's
+// first box of the class in the training images, rotations on).
+type demoLearning struct {
+	Result    detector.Result
+	Detector  eval.Result
+	Exemplar  eval.Result
+	TrainSize int
+	Seconds   float64
+	classes   []project.Class
+}
+
+func learnOnDemo(tb testing.TB, epochs int, budget time.Duration, exemplars bool) demoLearning {
+	tb.Helper()
+	dir := tb.TempDir()
 	ctx := context.Background()
 	if err := MakeDemo(ctx, dir, demo.Config{Seed: 1}, nil); err != nil {
-		b.Fatal(err)
+		tb.Fatal(err)
 	}
 	st, err := backend.Open(filepath.Join(dir, DemoProjectName))
 	if err != nil {
-		b.Fatal(err)
+		tb.Fatal(err)
 	}
 	defer st.Close()
 	cands, classes, err := TrainingCandidates(ctx, st, "Ines")
 	if err != nil {
-		b.Fatal(err)
+		tb.Fatal(err)
 	}
 	train, test := cands[:30], cands[30:]
 	load := func(ctx context.Context, im project.Image) (image.Image, error) { return DecodeProjectImage(st, im) }
@@ -58,56 +62,77 @@ func BenchmarkDemoLearning(b *testing.B) {
 	ap50 := func(preds []eval.Prediction) eval.Result {
 		r, err := eval.Evaluate(truths, preds, eval.Options{Protocol: eval.VOC, IoU: 0.5, Interpolation: eval.AllPoint})
 		if err != nil {
-			b.Fatal(err)
+			tb.Fatal(err)
 		}
 		return r
 	}
+	ts, err := detector.Prepare(train, classes, detector.DataOptions{Validation: 0.15, Seed: 1})
+	if err != nil {
+		tb.Fatal(err)
+	}
+	out := demoLearning{TrainSize: len(ts.Train), classes: classes}
+	start := time.Now()
+	out.Result, err = detector.Train(ctx, ts, detector.TrainOptions{Epochs: epochs, Budget: budget, Seed: 1,
+		Augment: detector.DefaultAugment, Load: load,
+		Epoch: func(e project.Epoch) {
+			tb.Logf("epoch %d loss %.4f val AP50 %.3f %.0f s", e.Epoch, e.Loss, e.ValAP50, e.Seconds)
+		}})
+	if err != nil {
+		tb.Fatal(err)
+	}
+	out.Seconds = time.Since(start).Seconds()
+	var preds []eval.Prediction
+	for _, im := range testImages {
+		img, err := load(ctx, im)
+		if err != nil {
+			tb.Fatal(err)
+		}
+		for _, d := range out.Result.Model.DetectImage(img, 100, 0.01, 0.5) {
+			preds = append(preds, eval.Prediction{ImageID: im.ID, ClassID: ts.ClassIDs[d.Class], Box: d.Box, Score: d.Score})
+		}
+	}
+	out.Detector = ap50(preds)
+	out.log(tb, "detector", out.Detector)
+	if exemplars {
+		out.Exemplar = ap50(exemplarPredictions(ctx, tb, train, testImages, classes, load))
+		out.log(tb, "exemplar matcher", out.Exemplar)
+	}
+	return out
+}
+
+func (d demoLearning) log(tb testing.TB, who string, r eval.Result) {
+	tb.Helper()
+	for _, c := range r.Classes {
+		tb.Logf("%s: class %s AP50 %.3f", who, className(d.classes, c.ClassID), c.AP)
+	}
+	tb.Logf("%s: AP50 %.3f", who, r.MAP)
+}
+
+// BenchmarkDemoLearning is the full learning check, as a benchmark because
+// it runs for minutes: BOXWRIGHT_TRAIN_MINUTES (default 5) of training. It
+// reports both AP50s, the epochs and the training images per second.
+// Run it with -v: the learning curve is in the log.
+func BenchmarkDemoLearning(b *testing.B) {
+	minutes := 5.0
+	if v, err := strconv.ParseFloat(os.Getenv("BOXWRIGHT_TRAIN_MINUTES"), 64); err == nil && v > 0 {
+		minutes = v
+	}
 	for b.Loop() {
-		ts, err := detector.Prepare(train, classes, detector.DataOptions{Validation: 0.15, Seed: 1})
-		if err != nil {
-			b.Fatal(err)
-		}
-		start := time.Now()
-		res, err := detector.Train(ctx, ts, detector.TrainOptions{Budget: time.Duration(minutes * float64(time.Minute)), Seed: 1,
-			Augment: detector.DefaultAugment, Load: load,
-			Epoch: func(e project.Epoch) {
-				b.Logf("epoch %d loss %.4f val AP50 %.3f %.0f s", e.Epoch, e.Loss, e.ValAP50, e.Seconds)
-			}})
-		if err != nil {
-			b.Fatal(err)
-		}
-		secs := time.Since(start).Seconds()
-		var preds []eval.Prediction
-		for _, im := range testImages {
-			img, err := load(ctx, im)
-			if err != nil {
-				b.Fatal(err)
-			}
-			for _, d := range res.Model.DetectImage(img, 100, 0.01, 0.5) {
-				preds = append(preds, eval.Prediction{ImageID: im.ID, ClassID: ts.ClassIDs[d.Class], Box: d.Box, Score: d.Score})
-			}
-		}
-		r := ap50(preds)
-		for _, c := range r.Classes {
-			b.Logf("detector: class %s AP50 %.3f", className(classes, c.ClassID), c.AP)
-		}
-		ex := exemplarAP50(ctx, b, train, testImages, classes, load)
-		rx := ap50(ex)
-		for _, c := range rx.Classes {
-			b.Logf("exemplar matcher: class %s AP50 %.3f", className(classes, c.ClassID), c.AP)
-		}
-		b.ReportMetric(r.MAP, "AP50")
-		b.ReportMetric(rx.MAP, "exemplar_AP50")
-		b.ReportMetric(float64(len(res.Epochs)), "epochs")
-		b.ReportMetric(float64(len(ts.Train)*len(res.Epochs))/secs, "images/s")
-		b.ReportMetric(float64(res.Model.InputSize), "input_px")
+		d := learnOnDemo(b, 0, time.Duration(minutes*float64(time.Minute)), true)
+		b.ReportMetric(d.Detector.MAP, "AP50")
+		b.ReportMetric(d.Exemplar.MAP, "exemplar_AP50")
+		b.ReportMetric(float64(len(d.Result.Epochs)), "epochs")
+		b.ReportMetric(float64(d.TrainSize*len(d.Result.Epochs))/d.Seconds, "images/s")
+		b.ReportMetric(float64(d.Result.Model.InputSize), "input_px")
 	}
 }
 
-// exemplarAP50 runs the exemplar matcher with one exemplar per class, the
-// class's first box in the training candidates, over the test images.
-func exemplarAP50(ctx context.Context, b *testing.B, train []detector.Candidate, test []project.Image, classes []project.Class,
+// exemplarPredictions runs the exemplar matcher with one exemplar per
+// class, the class's first box in the training candidates, over the test
+// images.
+func exemplarPredictions(ctx context.Context, tb testing.TB, train []detector.Candidate, test []project.Image, classes []project.Class,
 	load func(context.Context, project.Image) (image.Image, error)) []eval.Prediction {
+	tb.Helper()
 	var preds []eval.Prediction
 	for _, cl := range classes {
 		var from *detector.Candidate
@@ -124,13 +149,13 @@ func exemplarAP50(ctx context.Context, b *testing.B, train []detector.Candidate,
 		}
 		img, err := load(ctx, from.Image)
 		if err != nil {
-			b.Fatal(err)
+			tb.Fatal(err)
 		}
 		m := &exemplar.Matcher{ClassID: cl.ID, Exemplars: []project.Box{box}, ExemplarImage: img, ExemplarImageID: from.Image.ID,
 			Options: exemplar.Options{Rotations: true}, Load: load}
 		ps, err := m.Suggest(ctx, test, classes, nil)
 		if err != nil {
-			b.Fatal(err)
+			tb.Fatal(err)
 		}
 		for _, p := range ps {
 			preds = append(preds, eval.Prediction{ImageID: p.ImageID, ClassID: p.ClassID, Box: p.Box, Score: p.Score})
