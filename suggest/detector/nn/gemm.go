@@ -23,12 +23,12 @@ const (
 
 var threads atomic.Int32
 
-// SetThreads sets how many goroutines Gemm uses; n <= 0 restores the
+// SetThreads sets how many goroutines Gemm and the layers use; n <= 0 restores the
 // default, runtime.GOMAXPROCS(0). Results are bit-identical whatever the
 // setting, so this only trades speed for CPU.
 func SetThreads(n int) { threads.Store(int32(max(n, 0))) }
 
-// Threads returns how many goroutines Gemm uses.
+// Threads returns how many goroutines Gemm and the layers use.
 func Threads() int {
 	if n := int(threads.Load()); n > 0 {
 		return n
@@ -42,13 +42,19 @@ func Threads() int {
 // for transB; lda and ldb are the row strides of a and b as stored. With
 // beta = 0, C is overwritten (NaNs in it do not survive).
 //
-// Rows of C are shared among Threads() goroutines; each element is
-// computed by one goroutine, summing over k in the same order whatever the
+// Rows or columns of C are shared among Threads() goroutines; each element
+// is computed by one goroutine, summing over k in the same order whatever the
 // thread count, so the result does not depend on it. On amd64 CPUs with
 // AVX2 and FMA, float32 products take an assembly path (see gemm32) whose
 // fused multiply-adds round differently from the pure-Go kernel, so the
 // two paths may differ in the last bits; each is deterministic.
 func Gemm[T Float](transA, transB bool, m, n, k int, alpha T, a []T, lda int, b []T, ldb int, beta T, c []T, ldc int) {
+	gemm(Threads(), transA, transB, m, n, k, alpha, a, lda, b, ldb, beta, c, ldc)
+}
+
+// gemm is Gemm on nt goroutines, for callers that already share the
+// threads out (a conv layer running images side by side).
+func gemm[T Float](nt int, transA, transB bool, m, n, k int, alpha T, a []T, lda int, b []T, ldb int, beta T, c []T, ldc int) {
 	if m == 0 || n == 0 {
 		return
 	}
@@ -56,26 +62,28 @@ func Gemm[T Float](transA, transB bool, m, n, k int, alpha T, a []T, lda int, b 
 	checkGemm(transB, k, n, len(b), ldb, "B")
 	checkGemm(false, m, n, len(c), ldc, "C")
 	if beta != 1 {
-		for i := range m {
-			row := c[i*ldc : i*ldc+n]
-			if beta == 0 {
-				clear(row)
-			} else {
-				for j := range row {
-					row[j] *= beta
+		parallelFor(m, nt, max(1, (1<<16)/n), func(lo, hi int) {
+			for i := lo; i < hi; i++ {
+				row := c[i*ldc : i*ldc+n]
+				if beta == 0 {
+					clear(row)
+				} else {
+					for j := range row {
+						row[j] *= beta
+					}
 				}
 			}
-		}
+		})
 	}
 	if k == 0 || alpha == 0 {
 		return
 	}
 	// Size 4 means an underlying float32, which has float32's layout.
 	if useAsm32 && unsafe.Sizeof(alpha) == 4 {
-		gemm32(transA, transB, m, n, k, *(*float32)(unsafe.Pointer(&alpha)), asF32(a), lda, asF32(b), ldb, asF32(c), ldc)
+		gemm32(nt, transA, transB, m, n, k, *(*float32)(unsafe.Pointer(&alpha)), asF32(a), lda, asF32(b), ldb, asF32(c), ldc)
 		return
 	}
-	blocked(pureGoPlan[T](), transA, transB, m, n, k, alpha, a, lda, b, ldb, c, ldc)
+	blocked(pureGoPlan[T](), nt, transA, transB, m, n, k, alpha, a, lda, b, ldb, c, ldc)
 }
 
 // gemmPlan is one blocking of the driver: the register tile and block
@@ -93,8 +101,11 @@ func pureGoPlan[T Float]() gemmPlan[T] {
 
 // blocked adds alpha·op(A)·op(B) to C in the plan's blocks; Gemm has
 // checked the shapes, scaled C by beta and ruled out k = 0 and alpha = 0.
-func blocked[T Float](p gemmPlan[T], transA, transB bool, m, n, k int, alpha T, a []T, lda int, b []T, ldb int, c []T, ldc int) {
-	nt := Threads()
+func blocked[T Float](p gemmPlan[T], nt int, transA, transB bool, m, n, k int, alpha T, a []T, lda int, b []T, ldb int, c []T, ldc int) {
+	if nt > 1 && splitColumns(p, nt, m, n, k) {
+		blockedColumns(p, nt, transA, transB, m, n, k, alpha, a, lda, b, ldb, c, ldc)
+		return
+	}
 	// Blocks of rows small enough that every goroutine gets some, but whole
 	// register tiles; the block size does not change any sum's order.
 	mc := min(p.mc/p.mr, ceilDiv(ceilDiv(m, nt), p.mr)) * p.mr
@@ -141,6 +152,49 @@ func blocked[T Float](p gemmPlan[T], transA, transB bool, m, n, k int, alpha T, 
 			wg.Wait()
 		}
 	}
+}
+
+// splitColumns reports whether the columns of C, rather than its rows,
+// should be shared out: when there are too few rows for every goroutine
+// to get whole blocks (conv layers have 16 to 96 output channels and
+// thousands of pixels) and all of A, packed, is small. Row blocks pack the
+// B panel in one goroutine while the others wait, which then dominates.
+func splitColumns[T Float](p gemmPlan[T], nt, m, n, k int) bool {
+	return ceilDiv(m, p.mc) < 2*nt && n >= 2*nt*p.nr && roundUp(m, p.mr)*k <= 1<<21
+}
+
+// blockedColumns packs all of A once, in parallel, and then hands out
+// panels of columns; each goroutine packs the part of B its panel needs.
+// Every element of C still gets its kc blocks in order from one goroutine,
+// through the same kernel, so the result is that of the serial driver.
+func blockedColumns[T Float](p gemmPlan[T], nt int, transA, transB bool, m, n, k int, alpha T, a []T, lda int, b []T, ldb int, c []T, ldc int) {
+	mp := roundUp(m, p.mr)
+	// A's block at pc starts at pc·mp; its rows from ic at ic·kc in that.
+	ap := getBuf[T](mp * k)
+	defer putBuf(ap)
+	nib := ceilDiv(m, p.mc)
+	parallelFor(ceilDiv(k, p.kc)*nib, nt, 1, func(lo, hi int) {
+		for i := lo; i < hi; i++ {
+			pc, ic := i/nib*p.kc, i%nib*p.mc
+			kc := min(p.kc, k-pc)
+			p.packA(transA, a, lda, ic, pc, min(p.mc, m-ic), kc, (*ap)[pc*mp+ic*kc:])
+		}
+	})
+	w := min(p.nc, roundUp(ceilDiv(n, 4*nt), p.nr))
+	parallelFor(ceilDiv(n, w), nt, 1, func(lo, hi int) {
+		bp := getBuf[T](p.kc * w)
+		defer putBuf(bp)
+		for jc := lo * w; jc < min(n, hi*w); jc += w {
+			nc := min(w, n-jc)
+			for pc := 0; pc < k; pc += p.kc {
+				kc := min(p.kc, k-pc)
+				p.packB(transB, b, ldb, pc, jc, kc, nc, *bp)
+				for ic := 0; ic < m; ic += p.mc {
+					p.kernel(min(p.mc, m-ic), nc, kc, alpha, (*ap)[pc*mp+ic*kc:], *bp, c[ic*ldc+jc:], ldc)
+				}
+			}
+		}
+	})
 }
 
 func checkGemm(trans bool, rows, cols, n, ld int, name string) {

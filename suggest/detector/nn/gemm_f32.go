@@ -29,10 +29,11 @@ func asF32[T Float](s []T) []float32 {
 // The kernel sums with FMA, so results may differ in the last bits from
 // the pure-Go path, but not with the thread count: each element is still
 // summed by one goroutine in a fixed order.
-func gemm32(transA, transB bool, m, n, k int, alpha float32, a []float32, lda int, b []float32, ldb int, c []float32, ldc int) {
-	blocked(gemmPlan[float32]{gemm32MR, gemm32NR, gemm32KC, gemm32MC, gemm32NC, packA32, packB32, macroKernel32},
-		transA, transB, m, n, k, alpha, a, lda, b, ldb, c, ldc)
+func gemm32(nt int, transA, transB bool, m, n, k int, alpha float32, a []float32, lda int, b []float32, ldb int, c []float32, ldc int) {
+	blocked(plan32, nt, transA, transB, m, n, k, alpha, a, lda, b, ldb, c, ldc)
 }
+
+var plan32 = gemmPlan[float32]{gemm32MR, gemm32NR, gemm32KC, gemm32MC, gemm32NC, packA32, packB32, macroKernel32}
 
 // packA32 copies rows ic..ic+mb, columns pc..pc+kc of op(A) into strips of
 // gemm32MR rows, k-major, padding the last strip with zeros. The loops run
