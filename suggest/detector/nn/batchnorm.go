@@ -73,48 +73,57 @@ func (l *BatchNorm2D[T]) Forward(x *Tensor[T], train bool) *Tensor[T] {
 		xhat = Like(x)
 		l.invStd = make([]float64, l.C)
 	}
-	for c := range l.C {
-		var mean, variance float64
-		if train {
-			var s float64
-			for n := range x.N {
-				for _, v := range x.Plane(n, c) {
-					s += float64(v)
+	// Channels are independent: each is one goroutine's, so the sums keep
+	// their order whatever the thread count.
+	nt := Threads()
+	parallelFor(l.C, nt, grainFor(l.C, nt, max(1, (1<<15)/max(cnt, 1))), func(clo, chi int) {
+		for c := clo; c < chi; c++ {
+			var mean, variance float64
+			if train {
+				var s float64
+				for n := range x.N {
+					for _, v := range x.Plane(n, c) {
+						s += float64(v)
+					}
 				}
+				mean = s / float64(cnt)
+				var ss float64
+				for n := range x.N {
+					for _, v := range x.Plane(n, c) {
+						d := float64(v) - mean
+						ss += d * d
+					}
+				}
+				variance = ss / float64(cnt)
+				m := l.Momentum
+				l.RunningMean.W[c] = T((1-m)*float64(l.RunningMean.W[c]) + m*mean)
+				l.RunningVar.W[c] = T((1-m)*float64(l.RunningVar.W[c]) + m*ss/float64(cnt-1))
+			} else {
+				mean, variance = float64(l.RunningMean.W[c]), float64(l.RunningVar.W[c])
 			}
-			mean = s / float64(cnt)
-			var ss float64
+			inv := 1 / math.Sqrt(variance+l.Eps)
+			g, b := float64(l.Gamma.W[c]), float64(l.Beta.W[c])
 			for n := range x.N {
-				for _, v := range x.Plane(n, c) {
+				src, dst := x.Plane(n, c), y.Plane(n, c)
+				if !train {
+					for i, v := range src {
+						dst[i] = T(g*(float64(v)-mean)*inv + b)
+					}
+					continue
+				}
+				xh := xhat.Plane(n, c)[:len(src)]
+				dst = dst[:len(src)]
+				for i, v := range src {
 					d := float64(v) - mean
-					ss += d * d
+					dst[i] = T(g*d*inv + b)
+					xh[i] = T(d * inv)
 				}
-			}
-			variance = ss / float64(cnt)
-			m := l.Momentum
-			l.RunningMean.W[c] = T((1-m)*float64(l.RunningMean.W[c]) + m*mean)
-			l.RunningVar.W[c] = T((1-m)*float64(l.RunningVar.W[c]) + m*ss/float64(cnt-1))
-		} else {
-			mean, variance = float64(l.RunningMean.W[c]), float64(l.RunningVar.W[c])
-		}
-		inv := 1 / math.Sqrt(variance+l.Eps)
-		g, b := float64(l.Gamma.W[c]), float64(l.Beta.W[c])
-		for n := range x.N {
-			src, dst := x.Plane(n, c), y.Plane(n, c)
-			for i, v := range src {
-				dst[i] = T(g*(float64(v)-mean)*inv + b)
 			}
 			if train {
-				xh := xhat.Plane(n, c)
-				for i, v := range src {
-					xh[i] = T((float64(v) - mean) * inv)
-				}
+				l.invStd[c] = inv
 			}
 		}
-		if train {
-			l.invStd[c] = inv
-		}
-	}
+	})
 	l.xhat = xhat
 	return y
 }
@@ -126,26 +135,29 @@ func (l *BatchNorm2D[T]) Backward(dy *Tensor[T]) *Tensor[T] {
 	mustSameShape("BatchNorm2D.Backward", dy, l.xhat)
 	dx := Like(dy)
 	cnt := float64(dy.N * dy.H * dy.W)
-	for c := range l.C {
-		var sdy, sdyx float64
-		for n := range dy.N {
-			xh := l.xhat.Plane(n, c)
-			for i, v := range dy.Plane(n, c) {
-				sdy += float64(v)
-				sdyx += float64(v) * float64(xh[i])
+	nt := Threads()
+	parallelFor(l.C, nt, grainFor(l.C, nt, max(1, (1<<15)/max(int(cnt), 1))), func(clo, chi int) {
+		for c := clo; c < chi; c++ {
+			var sdy, sdyx float64
+			for n := range dy.N {
+				xh := l.xhat.Plane(n, c)
+				for i, v := range dy.Plane(n, c) {
+					sdy += float64(v)
+					sdyx += float64(v) * float64(xh[i])
+				}
+			}
+			l.Gamma.G[c] += T(sdyx)
+			l.Beta.G[c] += T(sdy)
+			k := float64(l.Gamma.W[c]) * l.invStd[c]
+			mdy, mdyx := sdy/cnt, sdyx/cnt
+			for n := range dy.N {
+				xh, src, dst := l.xhat.Plane(n, c), dy.Plane(n, c), dx.Plane(n, c)
+				for i, v := range src {
+					dst[i] = T(k * (float64(v) - mdy - float64(xh[i])*mdyx))
+				}
 			}
 		}
-		l.Gamma.G[c] += T(sdyx)
-		l.Beta.G[c] += T(sdy)
-		k := float64(l.Gamma.W[c]) * l.invStd[c]
-		mdy, mdyx := sdy/cnt, sdyx/cnt
-		for n := range dy.N {
-			xh, src, dst := l.xhat.Plane(n, c), dy.Plane(n, c), dx.Plane(n, c)
-			for i, v := range src {
-				dst[i] = T(k * (float64(v) - mdy - float64(xh[i])*mdyx))
-			}
-		}
-	}
+	})
 	l.xhat = nil
 	return dx
 }

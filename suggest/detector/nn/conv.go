@@ -61,7 +61,7 @@ func (l *Conv2D[T]) direct() bool { return l.K == 1 && l.Stride == 1 && l.Pad ==
 
 // Forward computes the convolution of x as one GEMM per image: the
 // Out×(In·K·K) weights times the (In·K·K)×(Ho·Wo) im2col matrix of the
-// image.
+// image. The images of a batch run side by side.
 func (l *Conv2D[T]) Forward(x *Tensor[T], train bool) *Tensor[T] {
 	if x.C != l.In {
 		panic(fmt.Sprintf("nn.Conv2D %s: input has %d channels, want %d", l.Weight.Name, x.C, l.In))
@@ -77,34 +77,60 @@ func (l *Conv2D[T]) Forward(x *Tensor[T], train bool) *Tensor[T] {
 	y := Zeros[T](x.N, l.Out, ho, wo)
 	kk := l.In * l.K * l.K
 	hw := ho * wo
-	var col []T
-	if !l.direct() {
-		buf := getBuf[T](kk * hw)
-		defer putBuf(buf)
-		col = *buf
-	}
-	for n := range x.N {
-		if l.direct() {
-			col = x.Image(n)
-		} else {
-			l.im2col(x.Image(n), x.H, x.W, ho, wo, col)
-		}
-		yn := y.Image(n)
-		Gemm(false, false, l.Out, hw, kk, 1, l.Weight.W, kk, col, hw, 0, yn, hw)
-		if l.Bias != nil {
-			for o, b := range l.Bias.W {
-				for i := range yn[o*hw : (o+1)*hw] {
-					yn[o*hw+i] += b
+	outer, inner := shareThreads(x.N)
+	parallelFor(x.N, outer, 1, func(lo, hi int) {
+		col := l.colBuf(kk * hw)
+		defer putBuf(col)
+		for n := lo; n < hi; n++ {
+			c := l.columns(x, n, ho, wo, *col, inner)
+			yn := y.Image(n)
+			// y is fresh zeros: beta 1 gives the bits of beta 0 without
+			// clearing it a second time.
+			gemm(inner, false, false, l.Out, hw, kk, 1, l.Weight.W, kk, c, hw, 1, yn, hw)
+			if l.Bias != nil {
+				for o, b := range l.Bias.W {
+					for i := range yn[o*hw : (o+1)*hw] {
+						yn[o*hw+i] += b
+					}
 				}
 			}
 		}
-	}
+	})
 	return y
+}
+
+// shareThreads splits Threads() between n images run side by side and
+// the work within each, so that about Threads() goroutines are busy.
+func shareThreads(n int) (outer, inner int) {
+	nt := Threads()
+	outer = max(1, min(nt, n))
+	return outer, max(1, nt/outer)
+}
+
+// colBuf returns a pooled column matrix of size n, or an empty one for a
+// direct layer, which needs none.
+func (l *Conv2D[T]) colBuf(n int) *[]T {
+	if l.direct() {
+		n = 0
+	}
+	return getBuf[T](n)
+}
+
+// columns returns the column matrix of image n of x, built in col unless
+// the image is its own.
+func (l *Conv2D[T]) columns(x *Tensor[T], n, ho, wo int, col []T, nt int) []T {
+	if l.direct() {
+		return x.Image(n)
+	}
+	l.im2col(x.Image(n), x.H, x.W, ho, wo, col, nt)
+	return col
 }
 
 // Backward adds dW = dy·colᵀ and db = Σdy, and returns dx = col2im(Wᵀ·dy).
 // The column matrix is rebuilt from the kept input rather than stored:
-// it is K·K times the size of the input.
+// it is K·K times the size of the input. Images run side by side; with
+// more than one, each gets its own dW, and these are added in image order,
+// so the sums do not depend on the thread count.
 func (l *Conv2D[T]) Backward(dy *Tensor[T]) *Tensor[T] {
 	mustForward("Conv2D.Backward", l.x)
 	x := l.x
@@ -118,39 +144,66 @@ func (l *Conv2D[T]) Backward(dy *Tensor[T]) *Tensor[T] {
 	if !l.SkipInputGrad {
 		dx = Like(x)
 	}
-	var col []T
-	if !l.direct() {
-		buf := getBuf[T](kk * hw)
-		defer putBuf(buf)
-		col = *buf
+	nw := len(l.Weight.G)
+	var dws *[]T
+	if x.N > 1 {
+		dws = getBuf[T](x.N * nw)
+		defer putBuf(dws)
 	}
-	for n := range x.N {
-		dyn := dy.Image(n)
-		if l.direct() {
-			col = x.Image(n)
-		} else {
-			l.im2col(x.Image(n), x.H, x.W, ho, wo, col)
-		}
-		Gemm(false, true, l.Out, kk, hw, 1, dyn, hw, col, hw, 1, l.Weight.G, kk)
-		if l.Bias != nil {
-			for o := range l.Out {
-				var s T
-				for _, v := range dyn[o*hw : (o+1)*hw] {
-					s += v
+	var dbs []T
+	if l.Bias != nil {
+		dbs = make([]T, x.N*l.Out)
+	}
+	outer, inner := shareThreads(x.N)
+	parallelFor(x.N, outer, 1, func(lo, hi int) {
+		buf := l.colBuf(kk * hw)
+		defer putBuf(buf)
+		for n := lo; n < hi; n++ {
+			dyn := dy.Image(n)
+			col := l.columns(x, n, ho, wo, *buf, inner)
+			if dws == nil {
+				gemm(inner, false, true, l.Out, kk, hw, 1, dyn, hw, col, hw, 1, l.Weight.G, kk)
+			} else {
+				gemm(inner, false, true, l.Out, kk, hw, 1, dyn, hw, col, hw, 0, (*dws)[n*nw:(n+1)*nw], kk)
+			}
+			if dbs != nil {
+				for o := range l.Out {
+					var s T
+					for _, v := range dyn[o*hw : (o+1)*hw] {
+						s += v
+					}
+					dbs[n*l.Out+o] = s
 				}
+			}
+			if dx == nil {
+				continue
+			}
+			if l.direct() {
+				// dx is fresh zeros, as y in Forward.
+				gemm(inner, true, false, kk, hw, l.Out, 1, l.Weight.W, kk, dyn, hw, 1, dx.Image(n), hw)
+				continue
+			}
+			// col is free again once dW has it: reuse it for the column gradient.
+			gemm(inner, true, false, kk, hw, l.Out, 1, l.Weight.W, kk, dyn, hw, 0, col, hw)
+			l.col2im(col, x.H, x.W, ho, wo, dx.Image(n), inner)
+		}
+	})
+	if dws != nil {
+		g := l.Weight.G
+		parallelFor(nw, Threads(), grainFor(nw, Threads(), 4096), func(lo, hi int) {
+			for n := range x.N {
+				for i, v := range (*dws)[n*nw+lo : n*nw+hi] {
+					g[lo+i] += v
+				}
+			}
+		})
+	}
+	if l.Bias != nil {
+		for n := range x.N {
+			for o, s := range dbs[n*l.Out : (n+1)*l.Out] {
 				l.Bias.G[o] += s
 			}
 		}
-		if dx == nil {
-			continue
-		}
-		if l.direct() {
-			Gemm(true, false, kk, hw, l.Out, 1, l.Weight.W, kk, dyn, hw, 0, dx.Image(n), hw)
-			continue
-		}
-		// col is free again once dW has it: reuse it for the column gradient.
-		Gemm(true, false, kk, hw, l.Out, 1, l.Weight.W, kk, dyn, hw, 0, col, hw)
-		l.col2im(col, x.H, x.W, ho, wo, dx.Image(n))
 	}
 	l.x = nil
 	return dx
@@ -158,66 +211,67 @@ func (l *Conv2D[T]) Backward(dy *Tensor[T]) *Tensor[T] {
 
 // im2col lays out the receptive fields of one C×H×W image: row
 // (c·K+i)·K+j of col holds, for every output pixel, the input at kernel
-// offset (i, j) in channel c, or 0 in the padding.
-func (l *Conv2D[T]) im2col(img []T, h, w, ho, wo int, col []T) {
+// offset (i, j) in channel c, or 0 in the padding. Rows are independent
+// and shared among nt goroutines.
+func (l *Conv2D[T]) im2col(img []T, h, w, ho, wo int, col []T, nt int) {
 	k, s, p := l.K, l.Stride, l.Pad
-	r := 0
-	for c := range l.In {
-		plane := img[c*h*w : (c+1)*h*w]
-		for i := range k {
-			for j := range k {
-				row := col[r*ho*wo : (r+1)*ho*wo]
-				r++
-				lo, hi := validRange(j, p, s, w, wo)
-				for oy := range ho {
-					dst := row[oy*wo : (oy+1)*wo]
-					iy := oy*s - p + i
-					if iy < 0 || iy >= h {
-						clear(dst)
-						continue
-					}
-					src := plane[iy*w : (iy+1)*w]
-					clear(dst[:lo])
-					if s == 1 {
-						copy(dst[lo:hi], src[lo-p+j:])
-					} else {
-						for ox := lo; ox < hi; ox++ {
-							dst[ox] = src[ox*s-p+j]
-						}
-					}
-					clear(dst[hi:])
+	rows := l.In * k * k
+	parallelFor(rows, nt, grainFor(rows, nt, 1), func(lo, hi int) {
+		for r := lo; r < hi; r++ {
+			c, i, j := r/(k*k), r/k%k, r%k
+			plane := img[c*h*w : (c+1)*h*w]
+			row := col[r*ho*wo : (r+1)*ho*wo]
+			lo, hi := validRange(j, p, s, w, wo)
+			for oy := range ho {
+				dst := row[oy*wo : (oy+1)*wo]
+				iy := oy*s - p + i
+				if iy < 0 || iy >= h {
+					clear(dst)
+					continue
 				}
+				src := plane[iy*w : (iy+1)*w]
+				clear(dst[:lo])
+				if s == 1 {
+					copy(dst[lo:hi], src[lo-p+j:])
+				} else {
+					for ox := lo; ox < hi; ox++ {
+						dst[ox] = src[ox*s-p+j]
+					}
+				}
+				clear(dst[hi:])
 			}
 		}
-	}
+	})
 }
 
 // col2im adds the column gradient back onto the image gradient, the
-// adjoint of im2col.
-func (l *Conv2D[T]) col2im(col []T, h, w, ho, wo int, img []T) {
+// adjoint of im2col. Channels are shared among nt goroutines; within one,
+// the rows are added in order.
+func (l *Conv2D[T]) col2im(col []T, h, w, ho, wo int, img []T, nt int) {
 	k, s, p := l.K, l.Stride, l.Pad
-	r := 0
-	for c := range l.In {
-		plane := img[c*h*w : (c+1)*h*w]
-		for i := range k {
-			for j := range k {
-				row := col[r*ho*wo : (r+1)*ho*wo]
-				r++
-				lo, hi := validRange(j, p, s, w, wo)
-				for oy := range ho {
-					iy := oy*s - p + i
-					if iy < 0 || iy >= h {
-						continue
-					}
-					src := row[oy*wo : (oy+1)*wo]
-					dst := plane[iy*w : (iy+1)*w]
-					for ox := lo; ox < hi; ox++ {
-						dst[ox*s-p+j] += src[ox]
+	parallelFor(l.In, nt, grainFor(l.In, nt, 1), func(clo, chi int) {
+		for c := clo; c < chi; c++ {
+			plane := img[c*h*w : (c+1)*h*w]
+			for i := range k {
+				for j := range k {
+					r := (c*k+i)*k + j
+					row := col[r*ho*wo : (r+1)*ho*wo]
+					lo, hi := validRange(j, p, s, w, wo)
+					for oy := range ho {
+						iy := oy*s - p + i
+						if iy < 0 || iy >= h {
+							continue
+						}
+						src := row[oy*wo : (oy+1)*wo]
+						dst := plane[iy*w : (iy+1)*w]
+						for ox := lo; ox < hi; ox++ {
+							dst[ox*s-p+j] += src[ox]
+						}
 					}
 				}
 			}
 		}
-	}
+	})
 }
 
 // validRange returns the output columns [lo, hi) whose input column

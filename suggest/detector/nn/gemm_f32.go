@@ -24,6 +24,11 @@ func asF32[T Float](s []T) []float32 {
 	return unsafe.Slice((*float32)(unsafe.Pointer(unsafe.SliceData(s))), len(s))
 }
 
+// asF64 is asF32 for float64.
+func asF64[T Float](s []T) []float64 {
+	return unsafe.Slice((*float64)(unsafe.Pointer(unsafe.SliceData(s))), len(s))
+}
+
 // gemm32 adds alpha·op(A)·op(B) to C with the assembly kernel; Gemm has
 // checked the shapes, scaled C by beta and ruled out k = 0 and alpha = 0.
 // The kernel sums with FMA, so results may differ in the last bits from
