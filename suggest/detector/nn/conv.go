@@ -264,6 +264,14 @@ func (l *Conv2D[T]) col2im(col []T, h, w, ho, wo int, img []T, nt int) {
 						}
 						src := row[oy*wo : (oy+1)*wo]
 						dst := plane[iy*w : (iy+1)*w]
+						if s == 1 {
+							// Equal-length slices: no bounds checks in the loop.
+							d := dst[lo-p+j : hi-p+j]
+							for x, v := range src[lo:hi][:len(d)] {
+								d[x] += v
+							}
+							continue
+						}
 						for ox := lo; ox < hi; ox++ {
 							dst[ox*s-p+j] += src[ox]
 						}

@@ -102,7 +102,21 @@ func packB32(trans bool, b []float32, ldb, pc, jc, kc, nc int, dst []float32) {
 		r := min(nr, nc-j0)
 		s := dst[j0*kc : (j0+nr)*kc]
 		if trans {
-			for j := range r {
+			// Four stored rows at a time, so that each write is 16 bytes
+			// in a row rather than one scattered float.
+			j := 0
+			for ; j+4 <= r; j += 4 {
+				at := (jc+j0+j)*ldb + pc
+				r0 := b[at : at+kc]
+				r1 := b[at+ldb : at+ldb+kc]
+				r2 := b[at+2*ldb : at+2*ldb+kc]
+				r3 := b[at+3*ldb : at+3*ldb+kc]
+				for p, v := range r0 {
+					d := (*[4]float32)(s[p*nr+j:])
+					d[0], d[1], d[2], d[3] = v, r1[p], r2[p], r3[p]
+				}
+			}
+			for ; j < r; j++ {
 				row := b[(jc+j0+j)*ldb+pc : (jc+j0+j)*ldb+pc+kc]
 				for p, v := range row {
 					s[p*nr+j] = v

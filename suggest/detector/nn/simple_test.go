@@ -15,12 +15,20 @@ func TestReLUGradMask(t *testing.T) {
 	for _, v := range vals {
 		dx32 := []float32{7}
 		reluGrad32([]float32{float32(v)}, []float32{3}, dx32)
-		if want := float32(0); float32(v) > 0 && dx32[0] != 3 || !(float32(v) > 0) && dx32[0] != want {
+		want32 := float32(0)
+		if float32(v) > 0 {
+			want32 = 3
+		}
+		if dx32[0] != want32 {
 			t.Errorf("float32 y = %v: dx = %v", float32(v), dx32[0])
 		}
 		dx64 := []float64{7}
 		reluGrad64([]float64{v}, []float64{3}, dx64)
-		if v > 0 && dx64[0] != 3 || !(v > 0) && dx64[0] != 0 {
+		want64 := 0.0
+		if v > 0 {
+			want64 = 3
+		}
+		if dx64[0] != want64 {
 			t.Errorf("float64 y = %v: dx = %v", v, dx64[0])
 		}
 	}
