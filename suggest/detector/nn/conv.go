@@ -59,9 +59,10 @@ func (l *Conv2D[T]) Params() []*Param[T] {
 // (1×1 kernel, stride 1, no padding), which saves the copy.
 func (l *Conv2D[T]) direct() bool { return l.K == 1 && l.Stride == 1 && l.Pad == 0 }
 
-// Forward computes the convolution of x as one GEMM per image: the
-// Out×(In·K·K) weights times the (In·K·K)×(Ho·Wo) im2col matrix of the
-// image. The images of a batch run side by side.
+// Forward computes the convolution of x as GEMMs: the Out×(In·K·K)
+// weights times the (In·K·K)×(Ho·Wo) im2col matrix of each image, built
+// and multiplied a panel of output pixels at a time so that it stays in
+// cache. The images of a batch run side by side.
 func (l *Conv2D[T]) Forward(x *Tensor[T], train bool) *Tensor[T] {
 	if x.C != l.In {
 		panic(fmt.Sprintf("nn.Conv2D %s: input has %d channels, want %d", l.Weight.Name, x.C, l.In))
@@ -77,16 +78,24 @@ func (l *Conv2D[T]) Forward(x *Tensor[T], train bool) *Tensor[T] {
 	y := Zeros[T](x.N, l.Out, ho, wo)
 	kk := l.In * l.K * l.K
 	hw := ho * wo
+	pw := l.panel(kk, hw)
+	// The weights are packed once for every panel of every image.
+	wp := packGemmA(Threads(), false, l.Out, kk, l.Weight.W, kk)
+	defer wp.free()
 	outer, inner := shareThreads(x.N)
 	parallelFor(x.N, outer, 1, func(lo, hi int) {
-		col := l.colBuf(kk * hw)
-		defer putBuf(col)
+		buf := l.colBuf(kk * pw)
+		defer putBuf(buf)
 		for n := lo; n < hi; n++ {
-			c := l.columns(x, n, ho, wo, *col, inner)
-			yn := y.Image(n)
-			// y is fresh zeros: beta 1 gives the bits of beta 0 without
-			// clearing it a second time.
-			gemm(inner, false, false, l.Out, hw, kk, 1, l.Weight.W, kk, c, hw, 1, yn, hw)
+			img, yn := x.Image(n), y.Image(n)
+			for q0 := 0; q0 < hw; q0 += pw {
+				q1 := min(hw, q0+pw)
+				col := l.columns(img, x.H, x.W, ho, wo, q0, q1, *buf, inner)
+				// y is fresh zeros: beta 1 gives the bits of beta 0 without
+				// clearing it a second time. Columns of C are independent,
+				// so panels do not change any sum.
+				gemmPacked(inner, wp, false, q1-q0, 1, col, q1-q0, 1, yn[q0:], hw)
+			}
 			if l.Bias != nil {
 				for o, b := range l.Bias.W {
 					for i := range yn[o*hw : (o+1)*hw] {
@@ -97,6 +106,18 @@ func (l *Conv2D[T]) Forward(x *Tensor[T], train bool) *Tensor[T] {
 		}
 	})
 	return y
+}
+
+// panel returns how many output pixels go into one column matrix: a
+// multiple of the GEMM's kc, so that splitting the pixel sum of dW into
+// panels keeps its blocks (and bits), and about 1 MiB of float32 columns.
+// A direct layer takes the whole image, which is its own column matrix.
+func (l *Conv2D[T]) panel(kk, hw int) int {
+	if l.direct() {
+		return hw
+	}
+	kc := gemmKBlock[T]()
+	return min(hw, kc*max(1, (1<<18)/(kk*kc)))
 }
 
 // shareThreads splits Threads() between n images run side by side and
@@ -116,13 +137,14 @@ func (l *Conv2D[T]) colBuf(n int) *[]T {
 	return getBuf[T](n)
 }
 
-// columns returns the column matrix of image n of x, built in col unless
-// the image is its own.
-func (l *Conv2D[T]) columns(x *Tensor[T], n, ho, wo int, col []T, nt int) []T {
+// columns returns output pixels q0..q1 of the column matrix of img, built
+// in col unless the image is its own (then q0, q1 cover the image).
+func (l *Conv2D[T]) columns(img []T, h, w, ho, wo, q0, q1 int, col []T, nt int) []T {
 	if l.direct() {
-		return x.Image(n)
+		return img
 	}
-	l.im2col(x.Image(n), x.H, x.W, ho, wo, col, nt)
+	col = col[:l.In*l.K*l.K*(q1-q0)]
+	l.im2col(img, h, w, ho, wo, q0, q1, col, nt)
 	return col
 }
 
@@ -140,9 +162,13 @@ func (l *Conv2D[T]) Backward(dy *Tensor[T]) *Tensor[T] {
 	}
 	kk := l.In * l.K * l.K
 	hw := ho * wo
+	pw := l.panel(kk, hw)
 	var dx *Tensor[T]
+	var wt packedA[T] // Wᵀ, packed once for every panel of every image
 	if !l.SkipInputGrad {
 		dx = Like(x)
+		wt = packGemmA(Threads(), true, kk, l.Out, l.Weight.W, kk)
+		defer wt.free()
 	}
 	nw := len(l.Weight.G)
 	var dws *[]T
@@ -156,15 +182,32 @@ func (l *Conv2D[T]) Backward(dy *Tensor[T]) *Tensor[T] {
 	}
 	outer, inner := shareThreads(x.N)
 	parallelFor(x.N, outer, 1, func(lo, hi int) {
-		buf := l.colBuf(kk * hw)
+		buf := l.colBuf(kk * pw)
 		defer putBuf(buf)
 		for n := lo; n < hi; n++ {
-			dyn := dy.Image(n)
-			col := l.columns(x, n, ho, wo, *buf, inner)
-			if dws == nil {
-				gemm(inner, false, true, l.Out, kk, hw, 1, dyn, hw, col, hw, 1, l.Weight.G, kk)
-			} else {
-				gemm(inner, false, true, l.Out, kk, hw, 1, dyn, hw, col, hw, 0, (*dws)[n*nw:(n+1)*nw], kk)
+			img, dyn := x.Image(n), dy.Image(n)
+			dw, beta := l.Weight.G, T(1)
+			if dws != nil {
+				dw, beta = (*dws)[n*nw:(n+1)*nw], 0
+			}
+			for q0 := 0; q0 < hw; q0 += pw {
+				q1 := min(hw, q0+pw)
+				np := q1 - q0
+				col := l.columns(img, x.H, x.W, ho, wo, q0, q1, *buf, inner)
+				gemm(inner, false, true, l.Out, kk, np, 1, dyn[q0:], hw, col, np, beta, dw, kk)
+				beta = 1
+				if dx == nil {
+					continue
+				}
+				if l.direct() {
+					// dx is fresh zeros, as y in Forward.
+					gemmPacked(inner, wt, false, np, 1, dyn[q0:], hw, 1, dx.Image(n)[q0:], hw)
+					continue
+				}
+				// col is free again once dW has it: reuse it for the column
+				// gradient.
+				gemmPacked(inner, wt, false, np, 1, dyn[q0:], hw, 0, col, np)
+				l.col2im(col, x.H, x.W, ho, wo, q0, q1, dx.Image(n), inner)
 			}
 			if dbs != nil {
 				for o := range l.Out {
@@ -175,17 +218,6 @@ func (l *Conv2D[T]) Backward(dy *Tensor[T]) *Tensor[T] {
 					dbs[n*l.Out+o] = s
 				}
 			}
-			if dx == nil {
-				continue
-			}
-			if l.direct() {
-				// dx is fresh zeros, as y in Forward.
-				gemm(inner, true, false, kk, hw, l.Out, 1, l.Weight.W, kk, dyn, hw, 1, dx.Image(n), hw)
-				continue
-			}
-			// col is free again once dW has it: reuse it for the column gradient.
-			gemm(inner, true, false, kk, hw, l.Out, 1, l.Weight.W, kk, dyn, hw, 0, col, hw)
-			l.col2im(col, x.H, x.W, ho, wo, dx.Image(n), inner)
 		}
 	})
 	if dws != nil {
@@ -209,71 +241,81 @@ func (l *Conv2D[T]) Backward(dy *Tensor[T]) *Tensor[T] {
 	return dx
 }
 
-// im2col lays out the receptive fields of one C×H×W image: row
-// (c·K+i)·K+j of col holds, for every output pixel, the input at kernel
-// offset (i, j) in channel c, or 0 in the padding. Rows are independent
-// and shared among nt goroutines.
-func (l *Conv2D[T]) im2col(img []T, h, w, ho, wo int, col []T, nt int) {
+// im2col lays out output pixels q0..q1 of the receptive fields of one
+// C×H×W image: row (c·K+i)·K+j of col holds, for each of those pixels,
+// the input at kernel offset (i, j) in channel c, or 0 in the padding.
+// Rows are independent and shared among nt goroutines.
+func (l *Conv2D[T]) im2col(img []T, h, w, ho, wo, q0, q1 int, col []T, nt int) {
 	k, s, p := l.K, l.Stride, l.Pad
-	rows := l.In * k * k
-	parallelFor(rows, nt, grainFor(rows, nt, 1), func(lo, hi int) {
-		for r := lo; r < hi; r++ {
+	rows, np := l.In*k*k, q1-q0
+	parallelFor(rows, nt, grainFor(rows, nt, 1), func(rlo, rhi int) {
+		for r := rlo; r < rhi; r++ {
 			c, i, j := r/(k*k), r/k%k, r%k
 			plane := img[c*h*w : (c+1)*h*w]
-			row := col[r*ho*wo : (r+1)*ho*wo]
+			row := col[r*np : (r+1)*np]
 			lo, hi := validRange(j, p, s, w, wo)
-			for oy := range ho {
-				dst := row[oy*wo : (oy+1)*wo]
+			for oy := q0 / wo; oy*wo < q1; oy++ {
+				// This output row's share of the panel is ox in [a, b),
+				// of which [vlo, vhi) reads inside the image.
+				a, b := max(0, q0-oy*wo), min(wo, q1-oy*wo)
+				dst := row[oy*wo+a-q0 : oy*wo+b-q0]
 				iy := oy*s - p + i
 				if iy < 0 || iy >= h {
 					clear(dst)
 					continue
 				}
+				vlo := min(max(a, lo), b)
+				vhi := max(min(b, hi), vlo)
 				src := plane[iy*w : (iy+1)*w]
-				clear(dst[:lo])
+				clear(dst[:vlo-a])
 				if s == 1 {
-					copy(dst[lo:hi], src[lo-p+j:])
+					copy(dst[vlo-a:vhi-a], src[vlo-p+j:])
 				} else {
-					for ox := lo; ox < hi; ox++ {
-						dst[ox] = src[ox*s-p+j]
+					d := dst[vlo-a : vhi-a]
+					for x := range d {
+						d[x] = src[(vlo+x)*s-p+j]
 					}
 				}
-				clear(dst[hi:])
+				clear(dst[vhi-a:])
 			}
 		}
 	})
 }
 
-// col2im adds the column gradient back onto the image gradient, the
-// adjoint of im2col. Channels are shared among nt goroutines; within one,
-// the rows are added in order.
-func (l *Conv2D[T]) col2im(col []T, h, w, ho, wo int, img []T, nt int) {
+// col2im adds output pixels q0..q1 of the column gradient back onto the
+// image gradient, the adjoint of im2col. Channels are shared among nt
+// goroutines; within one, the rows are added in order.
+func (l *Conv2D[T]) col2im(col []T, h, w, ho, wo, q0, q1 int, img []T, nt int) {
 	k, s, p := l.K, l.Stride, l.Pad
+	np := q1 - q0
 	parallelFor(l.In, nt, grainFor(l.In, nt, 1), func(clo, chi int) {
 		for c := clo; c < chi; c++ {
 			plane := img[c*h*w : (c+1)*h*w]
 			for i := range k {
 				for j := range k {
 					r := (c*k+i)*k + j
-					row := col[r*ho*wo : (r+1)*ho*wo]
+					row := col[r*np : (r+1)*np]
 					lo, hi := validRange(j, p, s, w, wo)
-					for oy := range ho {
+					for oy := q0 / wo; oy*wo < q1; oy++ {
 						iy := oy*s - p + i
 						if iy < 0 || iy >= h {
 							continue
 						}
-						src := row[oy*wo : (oy+1)*wo]
+						a, b := max(0, q0-oy*wo), min(wo, q1-oy*wo)
+						vlo := min(max(a, lo), b)
+						vhi := max(min(b, hi), vlo)
+						src := row[oy*wo+vlo-q0 : oy*wo+vhi-q0]
 						dst := plane[iy*w : (iy+1)*w]
 						if s == 1 {
 							// Equal-length slices: no bounds checks in the loop.
-							d := dst[lo-p+j : hi-p+j]
-							for x, v := range src[lo:hi][:len(d)] {
+							d := dst[vlo-p+j : vhi-p+j]
+							for x, v := range src[:len(d)] {
 								d[x] += v
 							}
 							continue
 						}
-						for ox := lo; ox < hi; ox++ {
-							dst[ox*s-p+j] += src[ox]
+						for x, v := range src {
+							dst[(vlo+x)*s-p+j] += v
 						}
 					}
 				}

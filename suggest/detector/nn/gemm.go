@@ -45,7 +45,7 @@ func Threads() int {
 // Rows or columns of C are shared among Threads() goroutines; each element
 // is computed by one goroutine, summing over k in the same order whatever the
 // thread count, so the result does not depend on it. On amd64 CPUs with
-// AVX2 and FMA, float32 products take an assembly path (see gemm32) whose
+// AVX2 and FMA, float32 products take an assembly path (see plan32) whose
 // fused multiply-adds round differently from the pure-Go kernel, so the
 // two paths may differ in the last bits; each is deterministic.
 func Gemm[T Float](transA, transB bool, m, n, k int, alpha T, a []T, lda int, b []T, ldb int, beta T, c []T, ldc int) {
@@ -59,6 +59,44 @@ func gemm[T Float](nt int, transA, transB bool, m, n, k int, alpha T, a []T, lda
 		return
 	}
 	checkGemm(transA, m, k, len(a), lda, "A")
+	product(nt, transA, transB, m, n, k, alpha, a, lda, nil, b, ldb, beta, c, ldc)
+}
+
+// packedA is op(A), m×k, packed once in the layout of the path Gemm takes
+// for T, for several products with the same A (a conv layer's weights
+// times each panel of each image).
+type packedA[T Float] struct {
+	m, k int
+	buf  *[]T
+}
+
+// packGemmA packs op(A) on nt goroutines; free returns the buffer.
+func packGemmA[T Float](nt int, trans bool, m, k int, a []T, lda int) packedA[T] {
+	checkGemm(trans, m, k, len(a), lda, "A")
+	var z T
+	if useAsm32 && unsafe.Sizeof(z) == 4 {
+		buf := getBuf[T](roundUp(m, gemm32MR) * k)
+		packWholeA(plan32, nt, trans, asF32(a), lda, m, k, asF32(*buf))
+		return packedA[T]{m, k, buf}
+	}
+	buf := getBuf[T](roundUp(m, gemmMR) * k)
+	packWholeA(pureGoPlan[T](), nt, trans, a, lda, m, k, *buf)
+	return packedA[T]{m, k, buf}
+}
+
+func (pa packedA[T]) free() { putBuf(pa.buf) }
+
+// gemmPacked is gemm with A packed beforehand; the bits are gemm's.
+func gemmPacked[T Float](nt int, pa packedA[T], transB bool, n int, alpha T, b []T, ldb int, beta T, c []T, ldc int) {
+	if pa.m == 0 || n == 0 {
+		return
+	}
+	product(nt, false, transB, pa.m, n, pa.k, alpha, nil, 0, *pa.buf, b, ldb, beta, c, ldc)
+}
+
+// product checks B and C, applies beta and runs the kernel's driver, with
+// A either as stored (a, lda) or packed whole (ap, from packGemmA).
+func product[T Float](nt int, transA, transB bool, m, n, k int, alpha T, a []T, lda int, ap []T, b []T, ldb int, beta T, c []T, ldc int) {
 	checkGemm(transB, k, n, len(b), ldb, "B")
 	checkGemm(false, m, n, len(c), ldc, "C")
 	if beta != 1 {
@@ -80,10 +118,24 @@ func gemm[T Float](nt int, transA, transB bool, m, n, k int, alpha T, a []T, lda
 	}
 	// Size 4 means an underlying float32, which has float32's layout.
 	if useAsm32 && unsafe.Sizeof(alpha) == 4 {
-		gemm32(nt, transA, transB, m, n, k, *(*float32)(unsafe.Pointer(&alpha)), asF32(a), lda, asF32(b), ldb, asF32(c), ldc)
+		var ap32 []float32
+		if ap != nil {
+			ap32 = asF32(ap)
+		}
+		blocked(plan32, nt, transA, transB, m, n, k, *(*float32)(unsafe.Pointer(&alpha)), asF32(a), lda, ap32, asF32(b), ldb, asF32(c), ldc)
 		return
 	}
-	blocked(pureGoPlan[T](), nt, transA, transB, m, n, k, alpha, a, lda, b, ldb, c, ldc)
+	blocked(pureGoPlan[T](), nt, transA, transB, m, n, k, alpha, a, lda, ap, b, ldb, c, ldc)
+}
+
+// gemmKBlock returns the kc of the path Gemm takes for T: products split
+// along k at multiples of it sum in the same blocks, so give the same bits.
+func gemmKBlock[T Float]() int {
+	var z T
+	if useAsm32 && unsafe.Sizeof(z) == 4 {
+		return gemm32KC
+	}
+	return gemmKC
 }
 
 // gemmPlan is one blocking of the driver: the register tile and block
@@ -101,11 +153,13 @@ func pureGoPlan[T Float]() gemmPlan[T] {
 
 // blocked adds alpha·op(A)·op(B) to C in the plan's blocks; Gemm has
 // checked the shapes, scaled C by beta and ruled out k = 0 and alpha = 0.
-func blocked[T Float](p gemmPlan[T], nt int, transA, transB bool, m, n, k int, alpha T, a []T, lda int, b []T, ldb int, c []T, ldc int) {
-	if nt > 1 && splitColumns(p, nt, m, n, k) {
-		blockedColumns(p, nt, transA, transB, m, n, k, alpha, a, lda, b, ldb, c, ldc)
+// A non-nil ap is all of op(A) packed by packWholeA, and a is unused.
+func blocked[T Float](p gemmPlan[T], nt int, transA, transB bool, m, n, k int, alpha T, a []T, lda int, ap []T, b []T, ldb int, c []T, ldc int) {
+	if nt > 1 && (ap != nil || splitColumns(p, nt, m, n, k)) {
+		blockedColumns(p, nt, transA, transB, m, n, k, alpha, a, lda, ap, b, ldb, c, ldc)
 		return
 	}
+	mp := roundUp(m, p.mr)
 	// Blocks of rows small enough that every goroutine gets some, but whole
 	// register tiles; the block size does not change any sum's order.
 	mc := min(p.mc/p.mr, ceilDiv(ceilDiv(m, nt), p.mr)) * p.mr
@@ -116,8 +170,10 @@ func blocked[T Float](p gemmPlan[T], nt int, transA, transB bool, m, n, k int, a
 	defer putBuf(bp)
 	aps := make([]*[]T, nt)
 	for t := range aps {
-		aps[t] = getBuf[T](mc * p.kc)
-		defer putBuf(aps[t])
+		if ap == nil {
+			aps[t] = getBuf[T](mc * p.kc)
+			defer putBuf(aps[t])
+		}
 	}
 	for jc := 0; jc < n; jc += p.nc {
 		nc := min(p.nc, n-jc)
@@ -127,6 +183,10 @@ func blocked[T Float](p gemmPlan[T], nt int, transA, transB bool, m, n, k int, a
 			block := func(t, ib int) {
 				ic := ib * mc
 				mb := min(mc, m-ic)
+				if ap != nil {
+					p.kernel(mb, nc, kc, alpha, ap[pc*mp+ic*kc:], *bp, c[ic*ldc+jc:], ldc)
+					return
+				}
 				p.packA(transA, a, lda, ic, pc, mb, kc, *aps[t])
 				p.kernel(mb, nc, kc, alpha, *aps[t], *bp, c[ic*ldc+jc:], ldc)
 			}
@@ -163,23 +223,19 @@ func splitColumns[T Float](p gemmPlan[T], nt, m, n, k int) bool {
 	return ceilDiv(m, p.mc) < 2*nt && n >= 2*nt*p.nr && roundUp(m, p.mr)*k <= 1<<21
 }
 
-// blockedColumns packs all of A once, in parallel, and then hands out
-// panels of columns; each goroutine packs the part of B its panel needs.
-// Every element of C still gets its kc blocks in order from one goroutine,
-// through the same kernel, so the result is that of the serial driver.
-func blockedColumns[T Float](p gemmPlan[T], nt int, transA, transB bool, m, n, k int, alpha T, a []T, lda int, b []T, ldb int, c []T, ldc int) {
+// blockedColumns packs all of A once, in parallel, unless ap has it, and
+// then hands out panels of columns; each goroutine packs the part of B
+// its panel needs. Every element of C still gets its kc blocks in order
+// from one goroutine, through the same kernel, so the result is that of
+// the serial driver.
+func blockedColumns[T Float](p gemmPlan[T], nt int, transA, transB bool, m, n, k int, alpha T, a []T, lda int, ap []T, b []T, ldb int, c []T, ldc int) {
 	mp := roundUp(m, p.mr)
-	// A's block at pc starts at pc·mp; its rows from ic at ic·kc in that.
-	ap := getBuf[T](mp * k)
-	defer putBuf(ap)
-	nib := ceilDiv(m, p.mc)
-	parallelFor(ceilDiv(k, p.kc)*nib, nt, 1, func(lo, hi int) {
-		for i := lo; i < hi; i++ {
-			pc, ic := i/nib*p.kc, i%nib*p.mc
-			kc := min(p.kc, k-pc)
-			p.packA(transA, a, lda, ic, pc, min(p.mc, m-ic), kc, (*ap)[pc*mp+ic*kc:])
-		}
-	})
+	if ap == nil {
+		buf := getBuf[T](mp * k)
+		defer putBuf(buf)
+		ap = *buf
+		packWholeA(p, nt, transA, a, lda, m, k, ap)
+	}
 	w := min(p.nc, roundUp(ceilDiv(n, 4*nt), p.nr))
 	parallelFor(ceilDiv(n, w), nt, 1, func(lo, hi int) {
 		bp := getBuf[T](p.kc * w)
@@ -190,9 +246,24 @@ func blockedColumns[T Float](p gemmPlan[T], nt int, transA, transB bool, m, n, k
 				kc := min(p.kc, k-pc)
 				p.packB(transB, b, ldb, pc, jc, kc, nc, *bp)
 				for ic := 0; ic < m; ic += p.mc {
-					p.kernel(min(p.mc, m-ic), nc, kc, alpha, (*ap)[pc*mp+ic*kc:], *bp, c[ic*ldc+jc:], ldc)
+					p.kernel(min(p.mc, m-ic), nc, kc, alpha, ap[pc*mp+ic*kc:], *bp, c[ic*ldc+jc:], ldc)
 				}
 			}
+		}
+	})
+}
+
+// packWholeA packs all of op(A) into dst on nt goroutines: its kc block
+// at pc starts at pc·roundUp(m, mr), and within that, rows from ic (a
+// multiple of mr) start at ic·kc, as the kernel reads them.
+func packWholeA[T Float](p gemmPlan[T], nt int, trans bool, a []T, lda, m, k int, dst []T) {
+	mp := roundUp(m, p.mr)
+	nib := ceilDiv(m, p.mc)
+	parallelFor(ceilDiv(k, p.kc)*nib, nt, 1, func(lo, hi int) {
+		for i := lo; i < hi; i++ {
+			pc, ic := i/nib*p.kc, i%nib*p.mc
+			kc := min(p.kc, k-pc)
+			p.packA(trans, a, lda, ic, pc, min(p.mc, m-ic), kc, dst[pc*mp+ic*kc:])
 		}
 	})
 }

@@ -29,15 +29,10 @@ func asF64[T Float](s []T) []float64 {
 	return unsafe.Slice((*float64)(unsafe.Pointer(unsafe.SliceData(s))), len(s))
 }
 
-// gemm32 adds alpha·op(A)·op(B) to C with the assembly kernel; Gemm has
-// checked the shapes, scaled C by beta and ruled out k = 0 and alpha = 0.
-// The kernel sums with FMA, so results may differ in the last bits from
-// the pure-Go path, but not with the thread count: each element is still
-// summed by one goroutine in a fixed order.
-func gemm32(nt int, transA, transB bool, m, n, k int, alpha float32, a []float32, lda int, b []float32, ldb int, c []float32, ldc int) {
-	blocked(plan32, nt, transA, transB, m, n, k, alpha, a, lda, b, ldb, c, ldc)
-}
-
+// plan32 is the blocking of the assembly path. The kernel sums with FMA,
+// so results may differ in the last bits from the pure-Go path, but not
+// with the thread count: each element is still summed by one goroutine in
+// a fixed order.
 var plan32 = gemmPlan[float32]{gemm32MR, gemm32NR, gemm32KC, gemm32MC, gemm32NC, packA32, packB32, macroKernel32}
 
 // packA32 copies rows ic..ic+mb, columns pc..pc+kc of op(A) into strips of

@@ -97,3 +97,37 @@ func firstDiff[T Float](a, b []T) int {
 	}
 	return -1
 }
+
+// TestGemmPackedA checks that products with A packed beforehand give the
+// bits of plain Gemm, on both kernels, for every thread count, including
+// shapes with many row blocks. Source: this package's determinism rule.
+func TestGemmPackedA(t *testing.T) {
+	defer SetThreads(0)
+	r := rand.New(rand.NewPCG(23, 24))
+	sizes := append([][3]int{{300, 517, 97}, {130, 20, 600}}, columnSizes...)
+	for _, asm := range []bool{false, true} {
+		if asm && !haveAsm32 {
+			continue
+		}
+		setAsm32(t, asm)
+		for _, sz := range sizes {
+			m, n, k := sz[0], sz[1], sz[2]
+			for _, tr := range gemmTrans {
+				a, b, c, lda, ldb, ldc, _ := gemm32Case(r, tr[0], tr[1], m, n, k, 0.75, 0.5)
+				SetThreads(1)
+				want := slices.Clone(c)
+				Gemm(tr[0], tr[1], m, n, k, 0.75, a, lda, b, ldb, 0.5, want, ldc)
+				for _, th := range []int{1, 2, 3} {
+					SetThreads(th)
+					pa := packGemmA(th, tr[0], m, k, a, lda)
+					got := slices.Clone(c)
+					gemmPacked(th, pa, tr[1], n, 0.75, b, ldb, 0.5, got, ldc)
+					pa.free()
+					if i := firstDiff(got, want); i >= 0 {
+						t.Fatalf("asm=%v %dx%dx%d trans=%v %d threads: packed C[%d] = %v, Gemm %v", asm, m, n, k, tr, th, i, got[i], want[i])
+					}
+				}
+			}
+		}
+	}
+}
