@@ -83,18 +83,23 @@ func (l *Conv2D[T]) Forward(x *Tensor[T], train bool) *Tensor[T] {
 	wp := packGemmA(Threads(), false, l.Out, kk, l.Weight.W, kk)
 	defer wp.free()
 	outer, inner := shareThreads(x.N)
+	kc, nr := gemmBLayout[T]()
 	parallelFor(x.N, outer, 1, func(lo, hi int) {
-		buf := l.colBuf(kk * pw)
+		buf := l.colBuf(kk * roundUp(pw, nr))
 		defer putBuf(buf)
 		for n := lo; n < hi; n++ {
 			img, yn := x.Image(n), y.Image(n)
-			for q0 := 0; q0 < hw; q0 += pw {
+			// y is fresh zeros: beta 1 gives the bits of beta 0 without
+			// clearing it a second time. Columns of C are independent, so
+			// panels do not change any sum.
+			if l.direct() {
+				gemmPacked(inner, wp, false, hw, 1, img, hw, 1, yn, hw)
+			}
+			for q0 := 0; q0 < hw && !l.direct(); q0 += pw {
 				q1 := min(hw, q0+pw)
-				col := l.columns(img, x.H, x.W, ho, wo, q0, q1, *buf, inner)
-				// y is fresh zeros: beta 1 gives the bits of beta 0 without
-				// clearing it a second time. Columns of C are independent,
-				// so panels do not change any sum.
-				gemmPacked(inner, wp, false, q1-q0, 1, col, q1-q0, 1, yn[q0:], hw)
+				// The columns go straight into the GEMM's packed layout.
+				l.im2colPacked(img, x.H, x.W, ho, wo, q0, q1, *buf, kc, nr, inner)
+				gemmPackedAB(inner, wp, *buf, q1-q0, 1, 1, yn[q0:], hw)
 			}
 			if l.Bias != nil {
 				for o, b := range l.Bias.W {
@@ -116,7 +121,7 @@ func (l *Conv2D[T]) panel(kk, hw int) int {
 	if l.direct() {
 		return hw
 	}
-	kc := gemmKBlock[T]()
+	kc, _ := gemmBLayout[T]()
 	return min(hw, kc*max(1, (1<<18)/(kk*kc)))
 }
 
@@ -246,37 +251,73 @@ func (l *Conv2D[T]) Backward(dy *Tensor[T]) *Tensor[T] {
 // the input at kernel offset (i, j) in channel c, or 0 in the padding.
 // Rows are independent and shared among nt goroutines.
 func (l *Conv2D[T]) im2col(img []T, h, w, ho, wo, q0, q1 int, col []T, nt int) {
-	k, s, p := l.K, l.Stride, l.Pad
-	rows, np := l.In*k*k, q1-q0
+	rows, np := l.In*l.K*l.K, q1-q0
 	parallelFor(rows, nt, grainFor(rows, nt, 1), func(rlo, rhi int) {
 		for r := rlo; r < rhi; r++ {
-			c, i, j := r/(k*k), r/k%k, r%k
-			plane := img[c*h*w : (c+1)*h*w]
-			row := col[r*np : (r+1)*np]
-			lo, hi := validRange(j, p, s, w, wo)
-			for oy := q0 / wo; oy*wo < q1; oy++ {
-				// This output row's share of the panel is ox in [a, b),
-				// of which [vlo, vhi) reads inside the image.
-				a, b := max(0, q0-oy*wo), min(wo, q1-oy*wo)
-				dst := row[oy*wo+a-q0 : oy*wo+b-q0]
-				iy := oy*s - p + i
-				if iy < 0 || iy >= h {
-					clear(dst)
-					continue
+			l.im2colRow(r, img, h, w, wo, q0, q1, col[r*np:(r+1)*np])
+		}
+	})
+}
+
+// im2colRow writes row r of the column matrix for pixels q0..q1 to dst.
+func (l *Conv2D[T]) im2colRow(r int, img []T, h, w, wo, q0, q1 int, dst []T) {
+	k, s, p := l.K, l.Stride, l.Pad
+	c, i, j := r/(k*k), r/k%k, r%k
+	plane := img[c*h*w : (c+1)*h*w]
+	lo, hi := validRange(j, p, s, w, wo)
+	for oy := q0 / wo; oy*wo < q1; oy++ {
+		// This output row's share of the panel is ox in [a, b), of which
+		// [vlo, vhi) reads inside the image.
+		a, b := max(0, q0-oy*wo), min(wo, q1-oy*wo)
+		d := dst[oy*wo+a-q0 : oy*wo+b-q0]
+		iy := oy*s - p + i
+		if iy < 0 || iy >= h {
+			clear(d)
+			continue
+		}
+		vlo := min(max(a, lo), b)
+		vhi := max(min(b, hi), vlo)
+		src := plane[iy*w : (iy+1)*w]
+		clear(d[:vlo-a])
+		if s == 1 {
+			copy(d[vlo-a:vhi-a], src[vlo-p+j:])
+		} else {
+			v := d[vlo-a : vhi-a]
+			for x := range v {
+				v[x] = src[(vlo+x)*s-p+j]
+			}
+		}
+		clear(d[vhi-a:])
+	}
+}
+
+// im2colPacked is im2col into the layout of a packed GEMM operand (see
+// gemmBLayout, with kc and nr from it), which saves writing the column
+// matrix out and reading it back to pack it: each row is built in a
+// buffer that stays in L1 and dealt out into its strips.
+func (l *Conv2D[T]) im2colPacked(img []T, h, w, ho, wo, q0, q1 int, dst []T, kc, nr, nt int) {
+	rows, np := l.In*l.K*l.K, q1-q0
+	npad := roundUp(np, nr)
+	parallelFor(rows, nt, grainFor(rows, nt, 1), func(rlo, rhi int) {
+		buf := getBuf[T](npad)
+		defer putBuf(buf)
+		row := *buf
+		clear(row[np:])
+		for r := rlo; r < rhi; r++ {
+			l.im2colRow(r, img, h, w, wo, q0, q1, row[:np])
+			pc := r / kc * kc
+			step := nr * min(kc, rows-pc)
+			d := dst[pc*npad+(r-pc)*nr:]
+			if nr == 16 {
+				for q := 0; q < npad; q += 16 {
+					*(*[16]T)(d) = *(*[16]T)(row[q:])
+					d = d[min(step, len(d)):]
 				}
-				vlo := min(max(a, lo), b)
-				vhi := max(min(b, hi), vlo)
-				src := plane[iy*w : (iy+1)*w]
-				clear(dst[:vlo-a])
-				if s == 1 {
-					copy(dst[vlo-a:vhi-a], src[vlo-p+j:])
-				} else {
-					d := dst[vlo-a : vhi-a]
-					for x := range d {
-						d[x] = src[(vlo+x)*s-p+j]
-					}
-				}
-				clear(dst[vhi-a:])
+				continue
+			}
+			for q := 0; q < npad; q += nr {
+				copy(d[:nr], row[q:q+nr])
+				d = d[min(step, len(d)):]
 			}
 		}
 	})

@@ -100,8 +100,9 @@ func closeTo(t *testing.T, name string, got, want []float64) {
 // convolutions run image by image and panel by panel: the same y, dx, dW
 // and db bits whatever the thread count, for one image (threads inside
 // the GEMMs) and several (images side by side). With one image, dW must
-// also be the single GEMM over the whole column matrix, bit for bit: the
-// panels are whole kc blocks. Source: this package's determinism rule.
+// also be the single GEMM over the whole column matrix, bit for bit (the
+// panels are whole kc blocks), and so must y, whose columns are packed
+// straight from the image. Source: this package's determinism rule.
 func TestConv2DThreadsBitIdentical(t *testing.T) {
 	defer SetThreads(0)
 	r := rand.New(rand.NewPCG(33, 34))
@@ -142,6 +143,16 @@ func TestConv2DThreadsBitIdentical(t *testing.T) {
 			Gemm(false, true, c.out, kk, hw, 1, dy.Image(0), hw, col, hw, 1, dw, kk)
 			if i := firstDiff(dw, ref[2]); i >= 0 {
 				t.Fatalf("%+v: panelled dW[%d] = %v, one GEMM %v", c, i, ref[2][i], dw[i])
+			}
+			y := make([]float32, c.out*hw)
+			Gemm(false, false, c.out, hw, kk, 1, l.Weight.W, kk, col, hw, 0, y, hw)
+			for o, b := range l.Bias.W {
+				for i := range hw {
+					y[o*hw+i] += b
+				}
+			}
+			if i := firstDiff(y, ref[0]); i >= 0 {
+				t.Fatalf("%+v: panelled y[%d] = %v, one GEMM %v", c, i, ref[0][i], y[i])
 			}
 		}
 	}

@@ -59,7 +59,7 @@ func gemm[T Float](nt int, transA, transB bool, m, n, k int, alpha T, a []T, lda
 		return
 	}
 	checkGemm(transA, m, k, len(a), lda, "A")
-	product(nt, transA, transB, m, n, k, alpha, a, lda, nil, b, ldb, beta, c, ldc)
+	product(nt, transA, transB, m, n, k, alpha, a, lda, nil, b, ldb, nil, beta, c, ldc)
 }
 
 // packedA is op(A), m×k, packed once in the layout of the path Gemm takes
@@ -91,13 +91,41 @@ func gemmPacked[T Float](nt int, pa packedA[T], transB bool, n int, alpha T, b [
 	if pa.m == 0 || n == 0 {
 		return
 	}
-	product(nt, false, transB, pa.m, n, pa.k, alpha, nil, 0, *pa.buf, b, ldb, beta, c, ldc)
+	product(nt, false, transB, pa.m, n, pa.k, alpha, nil, 0, *pa.buf, b, ldb, nil, beta, c, ldc)
+}
+
+// gemmPackedAB is gemmPacked with B (k×n) also packed by the caller, all
+// of it, in the layout gemmBLayout describes; the bits are gemm's.
+func gemmPackedAB[T Float](nt int, pa packedA[T], bw []T, n int, alpha, beta T, c []T, ldc int) {
+	if pa.m == 0 || n == 0 {
+		return
+	}
+	if _, nr := gemmBLayout[T](); len(bw) < pa.k*roundUp(n, nr) {
+		panic("nn.Gemm: packed B is too short")
+	}
+	product(nt, false, false, pa.m, n, pa.k, alpha, nil, 0, *pa.buf, nil, 0, bw, beta, c, ldc)
+}
+
+// gemmBLayout returns the kc and nr of the path Gemm takes for T, which
+// fix the layout of a k×n matrix B packed whole: its kc block at pc
+// starts at pc·roundUp(n, nr) and holds strips of nr columns, each kc×nr
+// row-major, one after another. Products split along k at multiples of
+// kc sum in the same blocks, so give the same bits.
+func gemmBLayout[T Float]() (kc, nr int) {
+	var z T
+	if useAsm32 && unsafe.Sizeof(z) == 4 {
+		return gemm32KC, gemm32NR
+	}
+	return gemmKC, gemmNR
 }
 
 // product checks B and C, applies beta and runs the kernel's driver, with
-// A either as stored (a, lda) or packed whole (ap, from packGemmA).
-func product[T Float](nt int, transA, transB bool, m, n, k int, alpha T, a []T, lda int, ap []T, b []T, ldb int, beta T, c []T, ldc int) {
-	checkGemm(transB, k, n, len(b), ldb, "B")
+// A either as stored (a, lda) or packed whole (ap, from packGemmA), and
+// likewise B (b, ldb) or bw.
+func product[T Float](nt int, transA, transB bool, m, n, k int, alpha T, a []T, lda int, ap []T, b []T, ldb int, bw []T, beta T, c []T, ldc int) {
+	if bw == nil {
+		checkGemm(transB, k, n, len(b), ldb, "B")
+	}
 	checkGemm(false, m, n, len(c), ldc, "C")
 	if beta != 1 {
 		parallelFor(m, nt, max(1, (1<<16)/n), func(lo, hi int) {
@@ -118,24 +146,10 @@ func product[T Float](nt int, transA, transB bool, m, n, k int, alpha T, a []T, 
 	}
 	// Size 4 means an underlying float32, which has float32's layout.
 	if useAsm32 && unsafe.Sizeof(alpha) == 4 {
-		var ap32 []float32
-		if ap != nil {
-			ap32 = asF32(ap)
-		}
-		blocked(plan32, nt, transA, transB, m, n, k, *(*float32)(unsafe.Pointer(&alpha)), asF32(a), lda, ap32, asF32(b), ldb, asF32(c), ldc)
+		blocked(plan32, nt, transA, transB, m, n, k, *(*float32)(unsafe.Pointer(&alpha)), asF32(a), lda, asF32(ap), asF32(b), ldb, asF32(bw), asF32(c), ldc)
 		return
 	}
-	blocked(pureGoPlan[T](), nt, transA, transB, m, n, k, alpha, a, lda, ap, b, ldb, c, ldc)
-}
-
-// gemmKBlock returns the kc of the path Gemm takes for T: products split
-// along k at multiples of it sum in the same blocks, so give the same bits.
-func gemmKBlock[T Float]() int {
-	var z T
-	if useAsm32 && unsafe.Sizeof(z) == 4 {
-		return gemm32KC
-	}
-	return gemmKC
+	blocked(pureGoPlan[T](), nt, transA, transB, m, n, k, alpha, a, lda, ap, b, ldb, bw, c, ldc)
 }
 
 // gemmPlan is one blocking of the driver: the register tile and block
@@ -153,21 +167,25 @@ func pureGoPlan[T Float]() gemmPlan[T] {
 
 // blocked adds alpha·op(A)·op(B) to C in the plan's blocks; Gemm has
 // checked the shapes, scaled C by beta and ruled out k = 0 and alpha = 0.
-// A non-nil ap is all of op(A) packed by packWholeA, and a is unused.
-func blocked[T Float](p gemmPlan[T], nt int, transA, transB bool, m, n, k int, alpha T, a []T, lda int, ap []T, b []T, ldb int, c []T, ldc int) {
+// A non-nil ap is all of op(A) packed by packWholeA, and a is unused;
+// a non-nil bw is all of op(B) packed as gemmBLayout says, and b unused.
+func blocked[T Float](p gemmPlan[T], nt int, transA, transB bool, m, n, k int, alpha T, a []T, lda int, ap []T, b []T, ldb int, bw []T, c []T, ldc int) {
 	if nt > 1 && (ap != nil || splitColumns(p, nt, m, n, k)) {
-		blockedColumns(p, nt, transA, transB, m, n, k, alpha, a, lda, ap, b, ldb, c, ldc)
+		blockedColumns(p, nt, transA, transB, m, n, k, alpha, a, lda, ap, b, ldb, bw, c, ldc)
 		return
 	}
-	mp := roundUp(m, p.mr)
+	mp, np := roundUp(m, p.mr), roundUp(n, p.nr)
 	// Blocks of rows small enough that every goroutine gets some, but whole
 	// register tiles; the block size does not change any sum's order.
 	mc := min(p.mc/p.mr, ceilDiv(ceilDiv(m, nt), p.mr)) * p.mr
 	nblk := ceilDiv(m, mc)
 	nt = min(nt, nblk)
 
-	bp := getBuf[T](p.kc * roundUp(min(n, p.nc), p.nr))
-	defer putBuf(bp)
+	var bp *[]T
+	if bw == nil {
+		bp = getBuf[T](p.kc * roundUp(min(n, p.nc), p.nr))
+		defer putBuf(bp)
+	}
 	aps := make([]*[]T, nt)
 	for t := range aps {
 		if ap == nil {
@@ -179,16 +197,22 @@ func blocked[T Float](p gemmPlan[T], nt int, transA, transB bool, m, n, k int, a
 		nc := min(p.nc, n-jc)
 		for pc := 0; pc < k; pc += p.kc {
 			kc := min(p.kc, k-pc)
-			p.packB(transB, b, ldb, pc, jc, kc, nc, *bp)
+			var bs []T
+			if bw != nil {
+				bs = bw[pc*np+jc*kc:]
+			} else {
+				p.packB(transB, b, ldb, pc, jc, kc, nc, *bp)
+				bs = *bp
+			}
 			block := func(t, ib int) {
 				ic := ib * mc
 				mb := min(mc, m-ic)
 				if ap != nil {
-					p.kernel(mb, nc, kc, alpha, ap[pc*mp+ic*kc:], *bp, c[ic*ldc+jc:], ldc)
+					p.kernel(mb, nc, kc, alpha, ap[pc*mp+ic*kc:], bs, c[ic*ldc+jc:], ldc)
 					return
 				}
 				p.packA(transA, a, lda, ic, pc, mb, kc, *aps[t])
-				p.kernel(mb, nc, kc, alpha, *aps[t], *bp, c[ic*ldc+jc:], ldc)
+				p.kernel(mb, nc, kc, alpha, *aps[t], bs, c[ic*ldc+jc:], ldc)
 			}
 			if nt == 1 {
 				for ib := range nblk {
@@ -228,8 +252,8 @@ func splitColumns[T Float](p gemmPlan[T], nt, m, n, k int) bool {
 // its panel needs. Every element of C still gets its kc blocks in order
 // from one goroutine, through the same kernel, so the result is that of
 // the serial driver.
-func blockedColumns[T Float](p gemmPlan[T], nt int, transA, transB bool, m, n, k int, alpha T, a []T, lda int, ap []T, b []T, ldb int, c []T, ldc int) {
-	mp := roundUp(m, p.mr)
+func blockedColumns[T Float](p gemmPlan[T], nt int, transA, transB bool, m, n, k int, alpha T, a []T, lda int, ap []T, b []T, ldb int, bw []T, c []T, ldc int) {
+	mp, np := roundUp(m, p.mr), roundUp(n, p.nr)
 	if ap == nil {
 		buf := getBuf[T](mp * k)
 		defer putBuf(buf)
@@ -238,15 +262,24 @@ func blockedColumns[T Float](p gemmPlan[T], nt int, transA, transB bool, m, n, k
 	}
 	w := min(p.nc, roundUp(ceilDiv(n, 4*nt), p.nr))
 	parallelFor(ceilDiv(n, w), nt, 1, func(lo, hi int) {
-		bp := getBuf[T](p.kc * w)
-		defer putBuf(bp)
+		var bp *[]T
+		if bw == nil {
+			bp = getBuf[T](p.kc * w)
+			defer putBuf(bp)
+		}
 		for jc := lo * w; jc < min(n, hi*w); jc += w {
 			nc := min(w, n-jc)
 			for pc := 0; pc < k; pc += p.kc {
 				kc := min(p.kc, k-pc)
-				p.packB(transB, b, ldb, pc, jc, kc, nc, *bp)
+				var bs []T
+				if bw != nil {
+					bs = bw[pc*np+jc*kc:]
+				} else {
+					p.packB(transB, b, ldb, pc, jc, kc, nc, *bp)
+					bs = *bp
+				}
 				for ic := 0; ic < m; ic += p.mc {
-					p.kernel(min(p.mc, m-ic), nc, kc, alpha, ap[pc*mp+ic*kc:], *bp, c[ic*ldc+jc:], ldc)
+					p.kernel(min(p.mc, m-ic), nc, kc, alpha, ap[pc*mp+ic*kc:], bs, c[ic*ldc+jc:], ldc)
 				}
 			}
 		}
