@@ -82,17 +82,12 @@ func (l *BatchNorm2D[T]) Forward(x *Tensor[T], train bool) *Tensor[T] {
 			if train {
 				var s float64
 				for n := range x.N {
-					for _, v := range x.Plane(n, c) {
-						s += float64(v)
-					}
+					s += sum4(x.Plane(n, c))
 				}
 				mean = s / float64(cnt)
 				var ss float64
 				for n := range x.N {
-					for _, v := range x.Plane(n, c) {
-						d := float64(v) - mean
-						ss += d * d
-					}
+					ss += sumSq4(x.Plane(n, c), mean)
 				}
 				variance = ss / float64(cnt)
 				m := l.Momentum
@@ -140,11 +135,8 @@ func (l *BatchNorm2D[T]) Backward(dy *Tensor[T]) *Tensor[T] {
 		for c := clo; c < chi; c++ {
 			var sdy, sdyx float64
 			for n := range dy.N {
-				xh := l.xhat.Plane(n, c)
-				for i, v := range dy.Plane(n, c) {
-					sdy += float64(v)
-					sdyx += float64(v) * float64(xh[i])
-				}
+				sdy += sum4(dy.Plane(n, c))
+				sdyx += dot4(dy.Plane(n, c), l.xhat.Plane(n, c))
 			}
 			l.Gamma.G[c] += T(sdyx)
 			l.Beta.G[c] += T(sdy)
@@ -160,4 +152,61 @@ func (l *BatchNorm2D[T]) Backward(dy *Tensor[T]) *Tensor[T] {
 	})
 	l.xhat = nil
 	return dx
+}
+
+// sum4, sumSq4 and dot4 sum in float64 with four accumulators, which take
+// the adds off one chain of latencies; the order is fixed by the index.
+
+// sum4 returns Σx.
+func sum4[T Float](x []T) float64 {
+	var s0, s1, s2, s3 float64
+	i := 0
+	for ; i+4 <= len(x); i += 4 {
+		v := x[i : i+4 : i+4]
+		s0 += float64(v[0])
+		s1 += float64(v[1])
+		s2 += float64(v[2])
+		s3 += float64(v[3])
+	}
+	for ; i < len(x); i++ {
+		s0 += float64(x[i])
+	}
+	return (s0 + s1) + (s2 + s3)
+}
+
+// sumSq4 returns Σ(x − mean)².
+func sumSq4[T Float](x []T, mean float64) float64 {
+	var s0, s1, s2, s3 float64
+	i := 0
+	for ; i+4 <= len(x); i += 4 {
+		v := x[i : i+4 : i+4]
+		d0, d1, d2, d3 := float64(v[0])-mean, float64(v[1])-mean, float64(v[2])-mean, float64(v[3])-mean
+		s0 += d0 * d0
+		s1 += d1 * d1
+		s2 += d2 * d2
+		s3 += d3 * d3
+	}
+	for ; i < len(x); i++ {
+		d := float64(x[i]) - mean
+		s0 += d * d
+	}
+	return (s0 + s1) + (s2 + s3)
+}
+
+// dot4 returns Σx·y.
+func dot4[T Float](x, y []T) float64 {
+	y = y[:len(x)]
+	var s0, s1, s2, s3 float64
+	i := 0
+	for ; i+4 <= len(x); i += 4 {
+		v, w := x[i:i+4:i+4], y[i:i+4:i+4]
+		s0 += float64(v[0]) * float64(w[0])
+		s1 += float64(v[1]) * float64(w[1])
+		s2 += float64(v[2]) * float64(w[2])
+		s3 += float64(v[3]) * float64(w[3])
+	}
+	for ; i < len(x); i++ {
+		s0 += float64(x[i]) * float64(y[i])
+	}
+	return (s0 + s1) + (s2 + s3)
 }

@@ -279,12 +279,20 @@ func (l *Conv2D[T]) im2colRow(r int, img []T, h, w, wo, q0, q1 int, dst []T) {
 		vhi := max(min(b, hi), vlo)
 		src := plane[iy*w : (iy+1)*w]
 		clear(d[:vlo-a])
-		if s == 1 {
-			copy(d[vlo-a:vhi-a], src[vlo-p+j:])
-		} else {
-			v := d[vlo-a : vhi-a]
+		v, st := d[vlo-a:vhi-a], vlo*s-p+j
+		switch {
+		case s == 1:
+			copy(v, src[st:])
+		case s == 2 && len(v) > 0:
+			// A constant stride and one bounds check make this twice as
+			// fast as the general loop.
+			sv := src[st : st+2*len(v)-1]
 			for x := range v {
-				v[x] = src[(vlo+x)*s-p+j]
+				v[x] = sv[2*x]
+			}
+		default:
+			for x := range v {
+				v[x] = src[st+x*s]
 			}
 		}
 		clear(d[vhi-a:])
@@ -347,16 +355,23 @@ func (l *Conv2D[T]) col2im(col []T, h, w, ho, wo, q0, q1 int, img []T, nt int) {
 						vhi := max(min(b, hi), vlo)
 						src := row[oy*wo+vlo-q0 : oy*wo+vhi-q0]
 						dst := plane[iy*w : (iy+1)*w]
-						if s == 1 {
+						st := vlo*s - p + j
+						switch {
+						case s == 1:
 							// Equal-length slices: no bounds checks in the loop.
-							d := dst[vlo-p+j : vhi-p+j]
+							d := dst[st : st+len(src)]
 							for x, v := range src[:len(d)] {
 								d[x] += v
 							}
-							continue
-						}
-						for x, v := range src {
-							dst[(vlo+x)*s-p+j] += v
+						case s == 2 && len(src) > 0:
+							d := dst[st : st+2*len(src)-1]
+							for x, v := range src {
+								d[2*x] += v
+							}
+						default:
+							for x, v := range src {
+								dst[st+x*s] += v
+							}
 						}
 					}
 				}
