@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"math"
 	"math/rand/v2"
+	"unsafe"
 )
 
 // Conv2D is a 2-D convolution (cross-correlation, as in PyTorch) with a
@@ -316,11 +317,8 @@ func (l *Conv2D[T]) im2colPacked(img []T, h, w, ho, wo, q0, q1 int, dst []T, kc,
 			pc := r / kc * kc
 			step := nr * min(kc, rows-pc)
 			d := dst[pc*npad+(r-pc)*nr:]
-			if nr == 16 {
-				for q := 0; q < npad; q += 16 {
-					*(*[16]T)(d) = *(*[16]T)(row[q:])
-					d = d[min(step, len(d)):]
-				}
+			if nr == 16 && unsafe.Sizeof(row[0]) == 4 {
+				deal16(asF32(d), asF32(row), step)
 				continue
 			}
 			for q := 0; q < npad; q += nr {
@@ -329,6 +327,17 @@ func (l *Conv2D[T]) im2colPacked(img []T, h, w, ho, wo, q0, q1 int, dst []T, kc,
 			}
 		}
 	})
+}
+
+// deal16 copies row in pieces of 16 to dst, step apart. Going through a
+// local array makes the compiler move the 64 bytes in registers instead
+// of calling memmove, as it must when the two might overlap.
+func deal16(dst, row []float32, step int) {
+	for q := 0; q < len(row); q += 16 {
+		v := *(*[16]float32)(row[q:])
+		*(*[16]float32)(dst) = v
+		dst = dst[min(step, len(dst)):]
+	}
 }
 
 // col2im adds output pixels q0..q1 of the column gradient back onto the

@@ -74,13 +74,15 @@ func packB32(trans bool, b []float32, ldb, pc, jc, kc, nc int, dst []float32) {
 	const nr = gemm32NR
 	if !trans {
 		// Strip by strip: the reads walk down 64-byte pieces of kc rows,
-		// the writes are sequential; fixed-size copies inline.
+		// the writes are sequential. The copy goes through a local so that
+		// it is moved in registers rather than by a call to memmove.
 		full := nc / nr * nr
 		for j0 := 0; j0 < full; j0 += nr {
 			s := dst[j0*kc : (j0+nr)*kc]
 			src := b[pc*ldb+jc+j0:]
 			for p := range kc {
-				*(*[nr]float32)(s[p*nr:]) = *(*[nr]float32)(src[p*ldb:])
+				v := *(*[nr]float32)(src[p*ldb:])
+				*(*[nr]float32)(s[p*nr:]) = v
 			}
 		}
 		if full < nc {
