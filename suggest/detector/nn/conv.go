@@ -95,12 +95,13 @@ func (l *Conv2D[T]) Forward(x *Tensor[T], train bool) *Tensor[T] {
 			// panels do not change any sum.
 			if l.direct() {
 				gemmPacked(inner, wp, false, hw, 1, img, hw, 1, yn, hw)
-			}
-			for q0 := 0; q0 < hw && !l.direct(); q0 += pw {
-				q1 := min(hw, q0+pw)
-				// The columns go straight into the GEMM's packed layout.
-				l.im2colPacked(img, x.H, x.W, ho, wo, q0, q1, *buf, kc, nr, inner)
-				gemmPackedAB(inner, wp, *buf, q1-q0, 1, 1, yn[q0:], hw)
+			} else {
+				for q0 := 0; q0 < hw; q0 += pw {
+					q1 := min(hw, q0+pw)
+					// The columns go straight into the GEMM's packed layout.
+					l.im2colPacked(img, x.H, x.W, ho, wo, q0, q1, *buf, kc, nr, inner)
+					gemmPackedAB(inner, wp, *buf, q1-q0, 1, 1, yn[q0:], hw)
+				}
 			}
 			if l.Bias != nil {
 				for o, b := range l.Bias.W {

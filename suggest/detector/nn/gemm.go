@@ -23,9 +23,9 @@ const (
 
 var threads atomic.Int32
 
-// SetThreads sets how many goroutines Gemm and the layers use; n <= 0 restores the
-// default, runtime.GOMAXPROCS(0). Results are bit-identical whatever the
-// setting, so this only trades speed for CPU.
+// SetThreads sets how many goroutines Gemm and the layers use; n <= 0
+// restores the default, runtime.GOMAXPROCS(0). Results are bit-identical
+// whatever the setting, so this only trades speed for CPU.
 func SetThreads(n int) { threads.Store(int32(max(n, 0))) }
 
 // Threads returns how many goroutines Gemm and the layers use.
@@ -42,9 +42,9 @@ func Threads() int {
 // for transB; lda and ldb are the row strides of a and b as stored. With
 // beta = 0, C is overwritten (NaNs in it do not survive).
 //
-// Rows or columns of C are shared among Threads() goroutines; each element
-// is computed by one goroutine, summing over k in the same order whatever the
-// thread count, so the result does not depend on it. On amd64 CPUs with
+// Rows or columns of C are shared among Threads() goroutines; each
+// element is computed by one goroutine, summing over k in the same order
+// whatever the thread count, so the result does not depend on it. On amd64 CPUs with
 // AVX2 and FMA, float32 products take an assembly path (see plan32) whose
 // fused multiply-adds round differently from the pure-Go kernel, so the
 // two paths may differ in the last bits; each is deterministic.
