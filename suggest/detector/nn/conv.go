@@ -368,11 +368,7 @@ func (l *Conv2D[T]) col2im(col []T, h, w, ho, wo, q0, q1 int, img []T, nt int) {
 						st := vlo*s - p + j
 						switch {
 						case s == 1:
-							// Equal-length slices: no bounds checks in the loop.
-							d := dst[st : st+len(src)]
-							for x, v := range src[:len(d)] {
-								d[x] += v
-							}
+							addTo(dst[st:st+len(src)], src)
 						case s == 2 && len(src) > 0:
 							d := dst[st : st+2*len(src)-1]
 							for x, v := range src {
@@ -388,6 +384,27 @@ func (l *Conv2D[T]) col2im(col []T, h, w, ho, wo, q0, q1 int, img []T, nt int) {
 			}
 		}
 	})
+}
+
+// addTo adds src to dst, of the same length, eight at a time: the
+// unrolled loop has no bounds checks inside and about half the cost.
+func addTo[T Float](dst, src []T) {
+	src = src[:len(dst)]
+	i := 0
+	for ; i+8 <= len(dst); i += 8 {
+		d, s := (*[8]T)(dst[i:]), (*[8]T)(src[i:])
+		d[0] += s[0]
+		d[1] += s[1]
+		d[2] += s[2]
+		d[3] += s[3]
+		d[4] += s[4]
+		d[5] += s[5]
+		d[6] += s[6]
+		d[7] += s[7]
+	}
+	for ; i < len(dst); i++ {
+		dst[i] += src[i]
+	}
 }
 
 // validRange returns the output columns [lo, hi) whose input column

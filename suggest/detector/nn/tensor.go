@@ -78,11 +78,7 @@ func (t *Tensor[T]) SameShape(u *Tensor[T]) bool { return t.Shape() == u.Shape()
 // tensor that feeds two layers. It panics if the shapes differ.
 func (t *Tensor[T]) AddFrom(u *Tensor[T]) {
 	mustSameShape("AddFrom", t, u)
-	elementwise(len(u.Data), func(lo, hi int) {
-		for i, v := range u.Data[lo:hi] {
-			t.Data[lo+i] += v
-		}
-	})
+	elementwise(len(u.Data), func(lo, hi int) { addTo(t.Data[lo:hi], u.Data[lo:hi]) })
 }
 
 // String gives the shape, for messages.
