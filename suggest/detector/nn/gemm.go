@@ -23,13 +23,13 @@ const (
 
 var threads atomic.Int32
 
-// SetThreads sets how many goroutines Gemm uses; n <= 0 restores the
-// default, runtime.GOMAXPROCS(0). Results are bit-identical whatever the
-// setting, so this only trades speed for CPU (with the openblas tag, only
-// for a fixed setting: see the package doc).
+// SetThreads sets how many goroutines Gemm and the layers use; n <= 0
+// restores the default, runtime.GOMAXPROCS(0). Results are bit-identical
+// whatever the setting, so this only trades speed for CPU (with the openblas
+// tag, only for a fixed setting: see the package doc).
 func SetThreads(n int) { threads.Store(int32(max(n, 0))) }
 
-// Threads returns how many goroutines Gemm uses.
+// Threads returns how many goroutines Gemm and the layers use.
 func Threads() int {
 	if n := int(threads.Load()); n > 0 {
 		return n
@@ -43,43 +43,118 @@ func Threads() int {
 // for transB; lda and ldb are the row strides of a and b as stored. With
 // beta = 0, C is overwritten (NaNs in it do not survive).
 //
-// Rows of C are shared among Threads() goroutines; each element is
-// computed by one goroutine, summing over k in the same order whatever the
-// thread count, so the result does not depend on it. On amd64 CPUs with
-// AVX2 and FMA, float32 products take an assembly path (see gemm32) whose
+// Rows or columns of C are shared among Threads() goroutines; each
+// element is computed by one goroutine, summing over k in the same order
+// whatever the thread count, so the result does not depend on it. On amd64 CPUs with
+// AVX2 and FMA, float32 products take an assembly path (see plan32) whose
 // fused multiply-adds round differently from the pure-Go kernel, so the
 // two paths may differ in the last bits; each is deterministic.
 func Gemm[T Float](transA, transB bool, m, n, k int, alpha T, a []T, lda int, b []T, ldb int, beta T, c []T, ldc int) {
+	gemm(Threads(), transA, transB, m, n, k, alpha, a, lda, b, ldb, beta, c, ldc)
+}
+
+// gemm is Gemm on nt goroutines, for callers that already share the
+// threads out (a conv layer running images side by side).
+func gemm[T Float](nt int, transA, transB bool, m, n, k int, alpha T, a []T, lda int, b []T, ldb int, beta T, c []T, ldc int) {
 	if m == 0 || n == 0 {
 		return
 	}
 	checkGemm(transA, m, k, len(a), lda, "A")
-	checkGemm(transB, k, n, len(b), ldb, "B")
+	product(nt, transA, transB, m, n, k, alpha, a, lda, nil, b, ldb, nil, beta, c, ldc)
+}
+
+// packedA is op(A), m×k, packed once in the layout of the path Gemm takes
+// for T, for several products with the same A (a conv layer's weights
+// times each panel of each image).
+type packedA[T Float] struct {
+	m, k int
+	buf  *[]T
+}
+
+// packGemmA packs op(A) on nt goroutines; free returns the buffer.
+func packGemmA[T Float](nt int, trans bool, m, k int, a []T, lda int) packedA[T] {
+	checkGemm(trans, m, k, len(a), lda, "A")
+	var z T
+	if useAsm32 && unsafe.Sizeof(z) == 4 {
+		buf := getBuf[T](roundUp(m, gemm32MR) * k)
+		packWholeA(plan32, nt, trans, asF32(a), lda, m, k, asF32(*buf))
+		return packedA[T]{m, k, buf}
+	}
+	buf := getBuf[T](roundUp(m, gemmMR) * k)
+	packWholeA(pureGoPlan[T](), nt, trans, a, lda, m, k, *buf)
+	return packedA[T]{m, k, buf}
+}
+
+func (pa packedA[T]) free() { putBuf(pa.buf) }
+
+// gemmPacked is gemm with A packed beforehand; the bits are gemm's.
+func gemmPacked[T Float](nt int, pa packedA[T], transB bool, n int, alpha T, b []T, ldb int, beta T, c []T, ldc int) {
+	if pa.m == 0 || n == 0 {
+		return
+	}
+	product(nt, false, transB, pa.m, n, pa.k, alpha, nil, 0, *pa.buf, b, ldb, nil, beta, c, ldc)
+}
+
+// gemmPackedAB is gemmPacked with B (k×n) also packed by the caller, all
+// of it, in the layout gemmBLayout describes; the bits are gemm's.
+func gemmPackedAB[T Float](nt int, pa packedA[T], bw []T, n int, alpha, beta T, c []T, ldc int) {
+	if pa.m == 0 || n == 0 {
+		return
+	}
+	if _, nr := gemmBLayout[T](); len(bw) < pa.k*roundUp(n, nr) {
+		panic("nn.Gemm: packed B is too short")
+	}
+	product(nt, false, false, pa.m, n, pa.k, alpha, nil, 0, *pa.buf, nil, 0, bw, beta, c, ldc)
+}
+
+// gemmBLayout returns the kc and nr of the path Gemm takes for T, which
+// fix the layout of a k×n matrix B packed whole: its kc block at pc
+// starts at pc·roundUp(n, nr) and holds strips of nr columns, each kc×nr
+// row-major, one after another. Products split along k at multiples of
+// kc sum in the same blocks, so give the same bits.
+func gemmBLayout[T Float]() (kc, nr int) {
+	var z T
+	if useAsm32 && unsafe.Sizeof(z) == 4 {
+		return gemm32KC, gemm32NR
+	}
+	return gemmKC, gemmNR
+}
+
+// product checks B and C, applies beta and runs the kernel's driver, with
+// A either as stored (a, lda) or packed whole (ap, from packGemmA), and
+// likewise B (b, ldb) or bw.
+func product[T Float](nt int, transA, transB bool, m, n, k int, alpha T, a []T, lda int, ap []T, b []T, ldb int, bw []T, beta T, c []T, ldc int) {
+	if bw == nil {
+		checkGemm(transB, k, n, len(b), ldb, "B")
+	}
 	checkGemm(false, m, n, len(c), ldc, "C")
 	if beta != 1 {
-		for i := range m {
-			row := c[i*ldc : i*ldc+n]
-			if beta == 0 {
-				clear(row)
-			} else {
-				for j := range row {
-					row[j] *= beta
+		parallelFor(m, nt, max(1, (1<<16)/n), func(lo, hi int) {
+			for i := lo; i < hi; i++ {
+				row := c[i*ldc : i*ldc+n]
+				if beta == 0 {
+					clear(row)
+				} else {
+					for j := range row {
+						row[j] *= beta
+					}
 				}
 			}
-		}
+		})
 	}
 	if k == 0 || alpha == 0 {
 		return
 	}
-	if gemmBLAS(transA, transB, m, n, k, alpha, a, lda, b, ldb, c, ldc) {
+	// OpenBLAS takes matrices as stored; packed ones are the Go kernels' layout.
+	if ap == nil && bw == nil && gemmBLAS(transA, transB, m, n, k, alpha, a, lda, b, ldb, c, ldc) {
 		return
 	}
 	// Size 4 means an underlying float32, which has float32's layout.
 	if useAsm32 && unsafe.Sizeof(alpha) == 4 {
-		gemm32(transA, transB, m, n, k, *(*float32)(unsafe.Pointer(&alpha)), asF32(a), lda, asF32(b), ldb, asF32(c), ldc)
+		blocked(plan32, nt, transA, transB, m, n, k, *(*float32)(unsafe.Pointer(&alpha)), asF32(a), lda, asF32(ap), asF32(b), ldb, asF32(bw), asF32(c), ldc)
 		return
 	}
-	blocked(pureGoPlan[T](), transA, transB, m, n, k, alpha, a, lda, b, ldb, c, ldc)
+	blocked(pureGoPlan[T](), nt, transA, transB, m, n, k, alpha, a, lda, ap, b, ldb, bw, c, ldc)
 }
 
 // gemmPlan is one blocking of the driver: the register tile and block
@@ -97,31 +172,52 @@ func pureGoPlan[T Float]() gemmPlan[T] {
 
 // blocked adds alpha·op(A)·op(B) to C in the plan's blocks; Gemm has
 // checked the shapes, scaled C by beta and ruled out k = 0 and alpha = 0.
-func blocked[T Float](p gemmPlan[T], transA, transB bool, m, n, k int, alpha T, a []T, lda int, b []T, ldb int, c []T, ldc int) {
-	nt := Threads()
+// A non-nil ap is all of op(A) packed by packWholeA, and a is unused;
+// a non-nil bw is all of op(B) packed as gemmBLayout says, and b unused.
+func blocked[T Float](p gemmPlan[T], nt int, transA, transB bool, m, n, k int, alpha T, a []T, lda int, ap []T, b []T, ldb int, bw []T, c []T, ldc int) {
+	if nt > 1 && (ap != nil || splitColumns(p, nt, m, n, k)) {
+		blockedColumns(p, nt, transA, transB, m, n, k, alpha, a, lda, ap, b, ldb, bw, c, ldc)
+		return
+	}
+	mp, np := roundUp(m, p.mr), roundUp(n, p.nr)
 	// Blocks of rows small enough that every goroutine gets some, but whole
 	// register tiles; the block size does not change any sum's order.
 	mc := min(p.mc/p.mr, ceilDiv(ceilDiv(m, nt), p.mr)) * p.mr
 	nblk := ceilDiv(m, mc)
 	nt = min(nt, nblk)
 
-	bp := getBuf[T](p.kc * roundUp(min(n, p.nc), p.nr))
-	defer putBuf(bp)
+	var bp *[]T
+	if bw == nil {
+		bp = getBuf[T](p.kc * roundUp(min(n, p.nc), p.nr))
+		defer putBuf(bp)
+	}
 	aps := make([]*[]T, nt)
 	for t := range aps {
-		aps[t] = getBuf[T](mc * p.kc)
-		defer putBuf(aps[t])
+		if ap == nil {
+			aps[t] = getBuf[T](mc * p.kc)
+			defer putBuf(aps[t])
+		}
 	}
 	for jc := 0; jc < n; jc += p.nc {
 		nc := min(p.nc, n-jc)
 		for pc := 0; pc < k; pc += p.kc {
 			kc := min(p.kc, k-pc)
-			p.packB(transB, b, ldb, pc, jc, kc, nc, *bp)
+			var bs []T
+			if bw != nil {
+				bs = bw[pc*np+jc*kc:]
+			} else {
+				p.packB(transB, b, ldb, pc, jc, kc, nc, *bp)
+				bs = *bp
+			}
 			block := func(t, ib int) {
 				ic := ib * mc
 				mb := min(mc, m-ic)
+				if ap != nil {
+					p.kernel(mb, nc, kc, alpha, ap[pc*mp+ic*kc:], bs, c[ic*ldc+jc:], ldc)
+					return
+				}
 				p.packA(transA, a, lda, ic, pc, mb, kc, *aps[t])
-				p.kernel(mb, nc, kc, alpha, *aps[t], *bp, c[ic*ldc+jc:], ldc)
+				p.kernel(mb, nc, kc, alpha, *aps[t], bs, c[ic*ldc+jc:], ldc)
 			}
 			if nt == 1 {
 				for ib := range nblk {
@@ -145,6 +241,69 @@ func blocked[T Float](p gemmPlan[T], transA, transB bool, m, n, k int, alpha T, 
 			wg.Wait()
 		}
 	}
+}
+
+// splitColumns reports whether the columns of C, rather than its rows,
+// should be shared out: when there are too few rows for every goroutine
+// to get whole blocks (conv layers have 16 to 96 output channels and
+// thousands of pixels) and all of A, packed, is small. Row blocks pack the
+// B panel in one goroutine while the others wait, which then dominates.
+func splitColumns[T Float](p gemmPlan[T], nt, m, n, k int) bool {
+	return ceilDiv(m, p.mc) < 2*nt && n >= 2*nt*p.nr && roundUp(m, p.mr)*k <= 1<<21
+}
+
+// blockedColumns packs all of A once, in parallel, unless ap has it, and
+// then hands out panels of columns; each goroutine packs the part of B
+// its panel needs. Every element of C still gets its kc blocks in order
+// from one goroutine, through the same kernel, so the result is that of
+// the serial driver.
+func blockedColumns[T Float](p gemmPlan[T], nt int, transA, transB bool, m, n, k int, alpha T, a []T, lda int, ap []T, b []T, ldb int, bw []T, c []T, ldc int) {
+	mp, np := roundUp(m, p.mr), roundUp(n, p.nr)
+	if ap == nil {
+		buf := getBuf[T](mp * k)
+		defer putBuf(buf)
+		ap = *buf
+		packWholeA(p, nt, transA, a, lda, m, k, ap)
+	}
+	w := min(p.nc, roundUp(ceilDiv(n, 4*nt), p.nr))
+	parallelFor(ceilDiv(n, w), nt, 1, func(lo, hi int) {
+		var bp *[]T
+		if bw == nil {
+			bp = getBuf[T](p.kc * w)
+			defer putBuf(bp)
+		}
+		for jc := lo * w; jc < min(n, hi*w); jc += w {
+			nc := min(w, n-jc)
+			for pc := 0; pc < k; pc += p.kc {
+				kc := min(p.kc, k-pc)
+				var bs []T
+				if bw != nil {
+					bs = bw[pc*np+jc*kc:]
+				} else {
+					p.packB(transB, b, ldb, pc, jc, kc, nc, *bp)
+					bs = *bp
+				}
+				for ic := 0; ic < m; ic += p.mc {
+					p.kernel(min(p.mc, m-ic), nc, kc, alpha, ap[pc*mp+ic*kc:], bs, c[ic*ldc+jc:], ldc)
+				}
+			}
+		}
+	})
+}
+
+// packWholeA packs all of op(A) into dst on nt goroutines: its kc block
+// at pc starts at pc·roundUp(m, mr), and within that, rows from ic (a
+// multiple of mr) start at ic·kc, as the kernel reads them.
+func packWholeA[T Float](p gemmPlan[T], nt int, trans bool, a []T, lda, m, k int, dst []T) {
+	mp := roundUp(m, p.mr)
+	nib := ceilDiv(m, p.mc)
+	parallelFor(ceilDiv(k, p.kc)*nib, nt, 1, func(lo, hi int) {
+		for i := lo; i < hi; i++ {
+			pc, ic := i/nib*p.kc, i%nib*p.mc
+			kc := min(p.kc, k-pc)
+			p.packA(trans, a, lda, ic, pc, min(p.mc, m-ic), kc, dst[pc*mp+ic*kc:])
+		}
+	})
 }
 
 func checkGemm(trans bool, rows, cols, n, ld int, name string) {

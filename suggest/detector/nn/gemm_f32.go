@@ -24,15 +24,16 @@ func asF32[T Float](s []T) []float32 {
 	return unsafe.Slice((*float32)(unsafe.Pointer(unsafe.SliceData(s))), len(s))
 }
 
-// gemm32 adds alpha·op(A)·op(B) to C with the assembly kernel; Gemm has
-// checked the shapes, scaled C by beta and ruled out k = 0 and alpha = 0.
-// The kernel sums with FMA, so results may differ in the last bits from
-// the pure-Go path, but not with the thread count: each element is still
-// summed by one goroutine in a fixed order.
-func gemm32(transA, transB bool, m, n, k int, alpha float32, a []float32, lda int, b []float32, ldb int, c []float32, ldc int) {
-	blocked(gemmPlan[float32]{gemm32MR, gemm32NR, gemm32KC, gemm32MC, gemm32NC, packA32, packB32, macroKernel32},
-		transA, transB, m, n, k, alpha, a, lda, b, ldb, c, ldc)
+// asF64 is asF32 for float64.
+func asF64[T Float](s []T) []float64 {
+	return unsafe.Slice((*float64)(unsafe.Pointer(unsafe.SliceData(s))), len(s))
 }
+
+// plan32 is the blocking of the assembly path. The kernel sums with FMA,
+// so results may differ in the last bits from the pure-Go path, but not
+// with the thread count: each element is still summed by one goroutine in
+// a fixed order.
+var plan32 = gemmPlan[float32]{gemm32MR, gemm32NR, gemm32KC, gemm32MC, gemm32NC, packA32, packB32, macroKernel32}
 
 // packA32 copies rows ic..ic+mb, columns pc..pc+kc of op(A) into strips of
 // gemm32MR rows, k-major, padding the last strip with zeros. The loops run
@@ -73,13 +74,15 @@ func packB32(trans bool, b []float32, ldb, pc, jc, kc, nc int, dst []float32) {
 	const nr = gemm32NR
 	if !trans {
 		// Strip by strip: the reads walk down 64-byte pieces of kc rows,
-		// the writes are sequential; fixed-size copies inline.
+		// the writes are sequential. The copy goes through a local so that
+		// it is moved in registers rather than by a call to memmove.
 		full := nc / nr * nr
 		for j0 := 0; j0 < full; j0 += nr {
 			s := dst[j0*kc : (j0+nr)*kc]
 			src := b[pc*ldb+jc+j0:]
 			for p := range kc {
-				*(*[nr]float32)(s[p*nr:]) = *(*[nr]float32)(src[p*ldb:])
+				v := *(*[nr]float32)(src[p*ldb:])
+				*(*[nr]float32)(s[p*nr:]) = v
 			}
 		}
 		if full < nc {
@@ -96,7 +99,21 @@ func packB32(trans bool, b []float32, ldb, pc, jc, kc, nc int, dst []float32) {
 		r := min(nr, nc-j0)
 		s := dst[j0*kc : (j0+nr)*kc]
 		if trans {
-			for j := range r {
+			// Four stored rows at a time, so that each write is 16 bytes
+			// in a row rather than one scattered float.
+			j := 0
+			for ; j+4 <= r; j += 4 {
+				at := (jc+j0+j)*ldb + pc
+				r0 := b[at : at+kc]
+				r1 := b[at+ldb : at+ldb+kc]
+				r2 := b[at+2*ldb : at+2*ldb+kc]
+				r3 := b[at+3*ldb : at+3*ldb+kc]
+				for p, v := range r0 {
+					d := (*[4]float32)(s[p*nr+j:])
+					d[0], d[1], d[2], d[3] = v, r1[p], r2[p], r3[p]
+				}
+			}
+			for ; j < r; j++ {
 				row := b[(jc+j0+j)*ldb+pc : (jc+j0+j)*ldb+pc+kc]
 				for p, v := range row {
 					s[p*nr+j] = v

@@ -181,8 +181,3 @@ func blasGemm[T Float](transA, transB bool, m, n, k int, alpha T, a []T, lda int
 	}
 	openblas.Dgemm(transA, transB, m, n, k, *(*float64)(unsafe.Pointer(&alpha)), asF64(a), lda, asF64(b), ldb, asF64(c), ldc)
 }
-
-// asF64 reinterprets a slice of a type whose underlying type is float64.
-func asF64[T Float](s []T) []float64 {
-	return unsafe.Slice((*float64)(unsafe.Pointer(unsafe.SliceData(s))), len(s))
-}

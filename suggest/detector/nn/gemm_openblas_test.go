@@ -192,15 +192,6 @@ func TestOpenBLASDeterministic(t *testing.T) {
 	}
 }
 
-func firstDiff(a, b []float32) int {
-	for i := range a {
-		if math.Float32bits(a[i]) != math.Float32bits(b[i]) {
-			return i
-		}
-	}
-	return -1
-}
-
 // TestOpenBLASConcurrent runs products from several goroutines at once,
 // as training and suggesting may, and checks each against the same
 // product run alone. Reference: OpenBLAS run alone at the same thread

@@ -3,6 +3,8 @@ package nn
 import (
 	"fmt"
 	"math"
+	"math/bits"
+	"unsafe"
 )
 
 // ReLU is max(x, 0).
@@ -11,9 +13,11 @@ type ReLU[T Float] struct{ y *Tensor[T] }
 // Forward returns max(x, 0).
 func (l *ReLU[T]) Forward(x *Tensor[T], train bool) *Tensor[T] {
 	y := Like(x)
-	for i, v := range x.Data {
-		y.Data[i] = max(v, 0)
-	}
+	elementwise(len(x.Data), func(lo, hi int) {
+		for i, v := range x.Data[lo:hi] {
+			y.Data[lo+i] = max(v, 0)
+		}
+	})
 	l.y = nil
 	if train {
 		l.y = y
@@ -27,13 +31,45 @@ func (l *ReLU[T]) Backward(dy *Tensor[T]) *Tensor[T] {
 	mustForward("ReLU.Backward", l.y)
 	mustSameShape("ReLU.Backward", dy, l.y)
 	dx := Like(dy)
-	for i, v := range l.y.Data {
-		if v > 0 {
-			dx.Data[i] = dy.Data[i]
+	y := l.y.Data
+	elementwise(len(y), func(lo, hi int) {
+		switch unsafe.Sizeof(T(0)) {
+		case 4:
+			reluGrad32(asF32(y[lo:hi]), asF32(dy.Data[lo:hi]), asF32(dx.Data[lo:hi]))
+		default:
+			reluGrad64(asF64(y[lo:hi]), asF64(dy.Data[lo:hi]), asF64(dx.Data[lo:hi]))
 		}
-	}
+	})
 	l.y = nil
 	return dx
+}
+
+// reluGrad32 sets dx = dy where y > 0, else 0, with a mask instead of a
+// branch: the signs of y are random, and mispredictions cost more than
+// the arithmetic. y > 0 exactly when its bits minus one are below those
+// of +Inf (zero wraps round, negatives and NaNs are above).
+func reluGrad32(y, dy, dx []float32) {
+	dy, dx = dy[:len(y)], dx[:len(y)]
+	for i, v := range y {
+		_, borrow := bits.Sub32(math.Float32bits(v)-1, 0x7f800000, 0)
+		dx[i] = math.Float32frombits(math.Float32bits(dy[i]) & -borrow)
+	}
+}
+
+// reluGrad64 is reluGrad32 for float64.
+func reluGrad64(y, dy, dx []float64) {
+	dy, dx = dy[:len(y)], dx[:len(y)]
+	for i, v := range y {
+		_, borrow := bits.Sub64(math.Float64bits(v)-1, 0x7ff0000000000000, 0)
+		dx[i] = math.Float64frombits(math.Float64bits(dy[i]) & -borrow)
+	}
+}
+
+// elementwise shares an element-by-element pass over n values among
+// Threads() goroutines, in ranges long enough to be worth a goroutine.
+func elementwise(n int, f func(lo, hi int)) {
+	nt := Threads()
+	parallelFor(n, nt, grainFor(n, nt, 1<<15), f)
 }
 
 // Params returns nil: ReLU learns nothing.
@@ -87,19 +123,17 @@ type Upsample2x[T Float] struct{ x *Tensor[T] }
 // Forward returns the 2×-upsampled x.
 func (l *Upsample2x[T]) Forward(x *Tensor[T], train bool) *Tensor[T] {
 	y := Zeros[T](x.N, x.C, 2*x.H, 2*x.W)
-	for n := range x.N {
-		for c := range x.C {
-			src, dst := x.Plane(n, c), y.Plane(n, c)
-			for i := range x.H {
-				row := src[i*x.W : (i+1)*x.W]
-				d0 := dst[2*i*y.W : (2*i+1)*y.W]
-				for j, v := range row {
-					d0[2*j], d0[2*j+1] = v, v
-				}
-				copy(dst[(2*i+1)*y.W:(2*i+2)*y.W], d0)
+	planes(x, func(n, c int) {
+		src, dst := x.Plane(n, c), y.Plane(n, c)
+		for i := range x.H {
+			row := src[i*x.W : (i+1)*x.W]
+			d0 := dst[2*i*y.W : (2*i+1)*y.W]
+			for j, v := range row {
+				d0[2*j], d0[2*j+1] = v, v
 			}
+			copy(dst[(2*i+1)*y.W:(2*i+2)*y.W], d0)
 		}
-	}
+	})
 	l.x = nil
 	if train {
 		l.x = x
@@ -115,18 +149,16 @@ func (l *Upsample2x[T]) Backward(dy *Tensor[T]) *Tensor[T] {
 		panic(fmt.Sprintf("nn.Upsample2x.Backward: gradient %v for input %v", dy.Shape(), x.Shape()))
 	}
 	dx := Like(x)
-	for n := range x.N {
-		for c := range x.C {
-			src, dst := dy.Plane(n, c), dx.Plane(n, c)
-			for i := range x.H {
-				r0 := src[2*i*dy.W : (2*i+1)*dy.W]
-				r1 := src[(2*i+1)*dy.W : (2*i+2)*dy.W]
-				for j := range x.W {
-					dst[i*x.W+j] = r0[2*j] + r0[2*j+1] + r1[2*j] + r1[2*j+1]
-				}
+	planes(x, func(n, c int) {
+		src, dst := dy.Plane(n, c), dx.Plane(n, c)
+		for i := range x.H {
+			r0 := src[2*i*dy.W : (2*i+1)*dy.W]
+			r1 := src[(2*i+1)*dy.W : (2*i+2)*dy.W]
+			for j := range x.W {
+				dst[i*x.W+j] = r0[2*j] + r0[2*j+1] + r1[2*j] + r1[2*j+1]
 			}
 		}
-	}
+	})
 	l.x = nil
 	return dx
 }
@@ -142,9 +174,11 @@ type Add[T Float] struct{}
 func (Add[T]) Forward(a, b *Tensor[T]) *Tensor[T] {
 	mustSameShape("Add.Forward", a, b)
 	y := Like(a)
-	for i, v := range a.Data {
-		y.Data[i] = v + b.Data[i]
-	}
+	elementwise(len(a.Data), func(lo, hi int) {
+		for i, v := range a.Data[lo:hi] {
+			y.Data[lo+i] = v + b.Data[lo+i]
+		}
+	})
 	return y
 }
 
@@ -153,4 +187,15 @@ func (Add[T]) Forward(a, b *Tensor[T]) *Tensor[T] {
 // AddFrom) without touching the other.
 func (Add[T]) Backward(dy *Tensor[T]) (da, db *Tensor[T]) {
 	return dy.Clone(), dy.Clone()
+}
+
+// planes calls f on every (image, channel) plane of t, shared among
+// Threads() goroutines.
+func planes[T Float](t *Tensor[T], f func(n, c int)) {
+	nt, np := Threads(), t.N*t.C
+	parallelFor(np, nt, grainFor(np, nt, max(1, (1<<15)/max(t.H*t.W, 1))), func(lo, hi int) {
+		for p := lo; p < hi; p++ {
+			f(p/t.C, p%t.C)
+		}
+	})
 }

@@ -67,7 +67,7 @@ func (t *Tensor[T]) Plane(n, c int) []T {
 // Clone returns a deep copy of t.
 func (t *Tensor[T]) Clone() *Tensor[T] {
 	u := Like(t)
-	copy(u.Data, t.Data)
+	elementwise(len(t.Data), func(lo, hi int) { copy(u.Data[lo:hi], t.Data[lo:hi]) })
 	return u
 }
 
@@ -78,9 +78,7 @@ func (t *Tensor[T]) SameShape(u *Tensor[T]) bool { return t.Shape() == u.Shape()
 // tensor that feeds two layers. It panics if the shapes differ.
 func (t *Tensor[T]) AddFrom(u *Tensor[T]) {
 	mustSameShape("AddFrom", t, u)
-	for i, v := range u.Data {
-		t.Data[i] += v
-	}
+	elementwise(len(u.Data), func(lo, hi int) { addTo(t.Data[lo:hi], u.Data[lo:hi]) })
 }
 
 // String gives the shape, for messages.
