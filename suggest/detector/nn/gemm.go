@@ -166,6 +166,17 @@ type gemmPlan[T Float] struct {
 	kernel             func(mb, nc, kc int, alpha T, ap, bp []T, c []T, ldc int)
 }
 
+// panelB returns the packed kc×nc panel of B at (pc, jc): a slice of bw
+// when B came packed whole (np columns rounded up to the strip), else
+// packed into *buf now.
+func (p gemmPlan[T]) panelB(transB bool, b []T, ldb int, bw []T, np, pc, jc, kc, nc int, buf *[]T) []T {
+	if bw != nil {
+		return bw[pc*np+jc*kc:]
+	}
+	p.packB(transB, b, ldb, pc, jc, kc, nc, *buf)
+	return *buf
+}
+
 func pureGoPlan[T Float]() gemmPlan[T] {
 	return gemmPlan[T]{gemmMR, gemmNR, gemmKC, gemmMC, gemmNC, packA[T], packB[T], macroKernel[T]}
 }
@@ -202,13 +213,7 @@ func blocked[T Float](p gemmPlan[T], nt int, transA, transB bool, m, n, k int, a
 		nc := min(p.nc, n-jc)
 		for pc := 0; pc < k; pc += p.kc {
 			kc := min(p.kc, k-pc)
-			var bs []T
-			if bw != nil {
-				bs = bw[pc*np+jc*kc:]
-			} else {
-				p.packB(transB, b, ldb, pc, jc, kc, nc, *bp)
-				bs = *bp
-			}
+			bs := p.panelB(transB, b, ldb, bw, np, pc, jc, kc, nc, bp)
 			block := func(t, ib int) {
 				ic := ib * mc
 				mb := min(mc, m-ic)
@@ -276,13 +281,7 @@ func blockedColumns[T Float](p gemmPlan[T], nt int, transA, transB bool, m, n, k
 			nc := min(w, n-jc)
 			for pc := 0; pc < k; pc += p.kc {
 				kc := min(p.kc, k-pc)
-				var bs []T
-				if bw != nil {
-					bs = bw[pc*np+jc*kc:]
-				} else {
-					p.packB(transB, b, ldb, pc, jc, kc, nc, *bp)
-					bs = *bp
-				}
+				bs := p.panelB(transB, b, ldb, bw, np, pc, jc, kc, nc, bp)
 				for ic := 0; ic < m; ic += p.mc {
 					p.kernel(min(p.mc, m-ic), nc, kc, alpha, ap[pc*mp+ic*kc:], bs, c[ic*ldc+jc:], ldc)
 				}
@@ -306,10 +305,17 @@ func packWholeA[T Float](p gemmPlan[T], nt int, trans bool, a []T, lda, m, k int
 	})
 }
 
-func checkGemm(trans bool, rows, cols, n, ld int, name string) {
+// stored is the shape in memory of an operand that is rows×cols after
+// op(): swapped when it is transposed.
+func stored(trans bool, rows, cols int) (int, int) {
 	if trans {
-		rows, cols = cols, rows
+		return cols, rows
 	}
+	return rows, cols
+}
+
+func checkGemm(trans bool, rows, cols, n, ld int, name string) {
+	rows, cols = stored(trans, rows, cols)
 	if rows == 0 || cols == 0 {
 		return
 	}

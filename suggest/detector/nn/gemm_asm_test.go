@@ -28,14 +28,8 @@ func needAsm32(t testing.TB) {
 // gemm32Case fills a float32 problem with strides wider than the rows and
 // returns the inputs, a copy of C and the float64 reference result.
 func gemm32Case(r *rand.Rand, ta, tb bool, m, n, k int, alpha, beta float64) (a, b, c []float32, lda, ldb, ldc int, want []float64) {
-	ar, ac := m, k
-	if ta {
-		ar, ac = k, m
-	}
-	br, bc := k, n
-	if tb {
-		br, bc = n, k
-	}
+	ar, ac := stored(ta, m, k)
+	br, bc := stored(tb, k, n)
 	lda, ldb, ldc = ac+3, bc+1, n+2
 	a = randSlice[float32](r, (ar-1)*lda+ac)
 	b = randSlice[float32](r, (br-1)*ldb+bc)
@@ -173,26 +167,7 @@ func TestGemm32AsmThreadsBitIdentical(t *testing.T) {
 func TestGemm32AsmNamedType(t *testing.T) {
 	needAsm32(t)
 	setAsm32(t, true)
-	type f32 float32
-	r := rand.New(rand.NewPCG(13, 14))
-	m, n, k := 19, 37, 41
-	a, b := randSlice[float32](r, m*k), randSlice[float32](r, k*n)
-	want := make([]float32, m*n)
-	Gemm(false, false, m, n, k, 1, a, k, b, n, 0, want, n)
-	na, nb := make([]f32, len(a)), make([]f32, len(b))
-	for i, v := range a {
-		na[i] = f32(v)
-	}
-	for i, v := range b {
-		nb[i] = f32(v)
-	}
-	got := make([]f32, m*n)
-	Gemm(false, false, m, n, k, 1, na, k, nb, n, 0, got, n)
-	for i := range got {
-		if math.Float32bits(float32(got[i])) != math.Float32bits(want[i]) {
-			t.Fatalf("C[%d] = %v, float32 gives %v", i, got[i], want[i])
-		}
-	}
+	checkNamedFloat32(t, 13)
 }
 
 // TestGemmEnvPurego checks that BOXWRIGHT_GEMM=purego turns the assembly
@@ -236,6 +211,32 @@ func BenchmarkGemm32(b *testing.B) {
 				}
 				b.ReportMetric(2*float64(m)*float64(n)*float64(k)*float64(b.N)/b.Elapsed().Seconds()/1e9, "GFLOP/s")
 			})
+		}
+	}
+}
+
+// checkNamedFloat32 multiplies on a named float32 type and on float32 and
+// fails unless the bits agree.
+func checkNamedFloat32(t *testing.T, seed uint64) {
+	t.Helper()
+	type f32 float32
+	r := rand.New(rand.NewPCG(seed, seed+1))
+	m, n, k := 19, 37, 41
+	a, b := randSlice[float32](r, m*k), randSlice[float32](r, k*n)
+	want := make([]float32, m*n)
+	Gemm(false, false, m, n, k, 1, a, k, b, n, 0, want, n)
+	na, nb := make([]f32, len(a)), make([]f32, len(b))
+	for i, v := range a {
+		na[i] = f32(v)
+	}
+	for i, v := range b {
+		nb[i] = f32(v)
+	}
+	got := make([]f32, m*n)
+	Gemm(false, false, m, n, k, 1, na, k, nb, n, 0, got, n)
+	for i := range got {
+		if math.Float32bits(float32(got[i])) != math.Float32bits(want[i]) {
+			t.Fatalf("C[%d] = %v, float32 gives %v", i, got[i], want[i])
 		}
 	}
 }

@@ -35,14 +35,8 @@ func needBLAS(t testing.TB) {
 // blasCase fills a problem with strides wider than the rows; with beta 0,
 // C starts as NaN, which must be overwritten.
 func blasCase[T Float](r *rand.Rand, ta, tb bool, m, n, k int, beta float64) (a, b, c []T, lda, ldb, ldc int) {
-	ar, ac := m, k
-	if ta {
-		ar, ac = k, m
-	}
-	br, bc := k, n
-	if tb {
-		br, bc = n, k
-	}
+	ar, ac := stored(ta, m, k)
+	br, bc := stored(tb, k, n)
 	lda, ldb, ldc = ac+3, bc+1, n+2
 	a = randSlice[T](r, (ar-1)*lda+ac)
 	b = randSlice[T](r, (br-1)*ldb+bc)
@@ -125,26 +119,7 @@ func TestOpenBLASAgainstGo64(t *testing.T) { testBLASAgainstGo[float64](t, 1e-13
 // float32 through OpenBLAS.
 func TestOpenBLASNamedType(t *testing.T) {
 	needBLAS(t)
-	type f32 float32
-	r := rand.New(rand.NewPCG(23, 24))
-	m, n, k := 19, 37, 41
-	a, b := randSlice[float32](r, m*k), randSlice[float32](r, k*n)
-	want := make([]float32, m*n)
-	Gemm(false, false, m, n, k, 1, a, k, b, n, 0, want, n)
-	na, nb := make([]f32, len(a)), make([]f32, len(b))
-	for i, v := range a {
-		na[i] = f32(v)
-	}
-	for i, v := range b {
-		nb[i] = f32(v)
-	}
-	got := make([]f32, m*n)
-	Gemm(false, false, m, n, k, 1, na, k, nb, n, 0, got, n)
-	for i := range got {
-		if math.Float32bits(float32(got[i])) != math.Float32bits(want[i]) {
-			t.Fatalf("C[%d] = %v, float32 gives %v", i, got[i], want[i])
-		}
-	}
+	checkNamedFloat32(t, 23)
 }
 
 // TestOpenBLASDeterministic checks that for a fixed thread count repeated

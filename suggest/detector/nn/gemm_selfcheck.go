@@ -29,14 +29,8 @@ func blasSelfCheck(g32 gemmFunc[float32], g64 gemmFunc[float64]) error {
 }
 
 func selfCheckOne[T Float](g gemmFunc[T], ta, tb bool, m, n, k int) error {
-	ar, ac := m, k
-	if ta {
-		ar, ac = k, m
-	}
-	br, bc := k, n
-	if tb {
-		br, bc = n, k
-	}
+	ar, ac := stored(ta, m, k)
+	br, bc := stored(tb, k, n)
 	lda, ldb, ldc := ac+1, bc+2, n+3
 	// Fixed values in [-1, 1] that no pattern of a wrong stride preserves.
 	fill := func(s []T, seed int) {

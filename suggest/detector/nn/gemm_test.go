@@ -54,14 +54,8 @@ func TestGemmAgainstNaive(t *testing.T) {
 		for _, tr := range [][2]bool{{false, false}, {false, true}, {true, false}, {true, true}} {
 			for _, ab := range [][2]float64{{1, 0}, {0.7, 1}, {-1.5, 0.25}} {
 				ta, tb := tr[0], tr[1]
-				ar, ac := m, k
-				if ta {
-					ar, ac = k, m
-				}
-				br, bc := k, n
-				if tb {
-					br, bc = n, k
-				}
+				ar, ac := stored(ta, m, k)
+				br, bc := stored(tb, k, n)
 				lda, ldb, ldc := ac+2, bc+1, n+3
 				a := randSlice[float64](r, (ar-1)*lda+ac)
 				b := randSlice[float64](r, (br-1)*ldb+bc)

@@ -1,12 +1,8 @@
 package nn
 
 import (
-	"encoding/json"
 	"math"
 	"math/rand/v2"
-	"os"
-	"os/exec"
-	"path/filepath"
 	"testing"
 )
 
@@ -83,31 +79,15 @@ json.dump(out, open(sys.argv[2], "w"))
 // TestGIoUAgainstPyTorch compares loss and gradient with PyTorch autograd
 // within 1e-9 on random pairs.
 func TestGIoUAgainstPyTorch(t *testing.T) {
-	py := needTorch(t)
 	r := rand.New(rand.NewPCG(5, 6))
 	var pairs [][2][4]float64
 	for range 100 {
 		pairs = append(pairs, [2][4]float64{randBox(r), randBox(r)})
 	}
-	dir := t.TempDir()
-	in, out, script := filepath.Join(dir, "pairs.json"), filepath.Join(dir, "out.json"), filepath.Join(dir, "giou.py")
-	data, _ := json.Marshal(pairs)
-	if err := os.WriteFile(in, data, 0o600); err != nil {
-		t.Fatal(err)
-	}
-	if err := os.WriteFile(script, []byte(torchGIoU), 0o600); err != nil {
-		t.Fatal(err)
-	}
-	if msg, err := exec.Command(py, script, in, out).CombinedOutput(); err != nil {
-		t.Fatalf("running PyTorch: %v\n%s", err, msg)
-	}
-	data, err := os.ReadFile(out)
-	if err != nil {
-		t.Fatal(err)
-	}
 	var want [][5]float64
-	if err := json.Unmarshal(data, &want); err != nil || len(want) != len(pairs) {
-		t.Fatalf("PyTorch answered %d results for %d pairs: %v", len(want), len(pairs), err)
+	runPython(t, torchGIoU, pairs, &want)
+	if len(want) != len(pairs) {
+		t.Fatalf("PyTorch answered %d results for %d pairs", len(want), len(pairs))
 	}
 	for i, pr := range pairs {
 		loss, g := GIoULoss(pr[0], pr[1])

@@ -92,9 +92,22 @@ func needTorch(t *testing.T) string {
 // runTorch writes the cases, runs torchScript and decodes its answers.
 func runTorch(t *testing.T, cases []map[string]any) []map[string]any {
 	t.Helper()
+	var res []map[string]any
+	runPython(t, torchScript, cases, &res)
+	if len(res) != len(cases) {
+		t.Fatalf("PyTorch answered %d results for %d cases", len(res), len(cases))
+	}
+	return res
+}
+
+// runPython runs a reference script with the Debian Python that has
+// torch: the script reads cases as JSON from its first argument and writes
+// its answers as JSON to its second, which are decoded into out.
+func runPython(t *testing.T, script string, cases, out any) {
+	t.Helper()
 	py := needTorch(t)
 	dir := t.TempDir()
-	in, out, script := filepath.Join(dir, "cases.json"), filepath.Join(dir, "out.json"), filepath.Join(dir, "ref.py")
+	in, res, file := filepath.Join(dir, "cases.json"), filepath.Join(dir, "out.json"), filepath.Join(dir, "ref.py")
 	data, err := json.Marshal(cases)
 	if err != nil {
 		t.Fatal(err)
@@ -102,21 +115,19 @@ func runTorch(t *testing.T, cases []map[string]any) []map[string]any {
 	if err := os.WriteFile(in, data, 0o600); err != nil {
 		t.Fatal(err)
 	}
-	if err := os.WriteFile(script, []byte(torchScript), 0o600); err != nil {
+	if err := os.WriteFile(file, []byte(script), 0o600); err != nil {
 		t.Fatal(err)
 	}
-	if msg, err := exec.Command(py, script, in, out).CombinedOutput(); err != nil {
-		t.Fatalf("running PyTorch: %v\n%s", err, msg)
+	if msg, err := exec.Command(py, file, in, res).CombinedOutput(); err != nil {
+		t.Fatalf("running the reference: %v\n%s", err, msg)
 	}
-	data, err = os.ReadFile(out)
+	data, err = os.ReadFile(res)
 	if err != nil {
 		t.Fatal(err)
 	}
-	var res []map[string]any
-	if err := json.Unmarshal(data, &res); err != nil || len(res) != len(cases) {
-		t.Fatalf("PyTorch answered %d results for %d cases: %v", len(res), len(cases), err)
+	if err := json.Unmarshal(data, out); err != nil {
+		t.Fatalf("the reference's answer: %v", err)
 	}
-	return res
 }
 
 func rand32(r *rand.Rand, n int, scale, offset float64) []float32 {
