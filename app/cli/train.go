@@ -173,5 +173,8 @@ func cmdDetect(args []string, stdout, stderr io.Writer) error {
 		fmt.Fprintf(stdout, ", stored as pending suggestions of source %q", rep.Source)
 	}
 	fmt.Fprintln(stdout)
+	if rep.Images == 0 && *which == "unlabelled" {
+		fmt.Fprintln(stdout, "every image has labels or is skipped: --images all runs the model on all of them")
+	}
 	return nil
 }

@@ -66,6 +66,11 @@ func TestTrainDetectModels(t *testing.T) {
 	if det.Model != "trained-1" || det.Source != "trained-1" || det.Images != 3 || len(det.Detections) == 0 {
 		t.Errorf("detect: model %q source %q on %d images, %d detections", det.Model, det.Source, det.Images, len(det.Detections))
 	}
+	// Every image of the small demo has labels: the default target is
+	// empty, and the command says what to do instead.
+	if out := mustCLI(t, "detect", path); !strings.Contains(out, "0 images") || !strings.Contains(out, "--images all") {
+		t.Errorf("detect with no image unlabelled: %q", out)
+	}
 	var info struct {
 		Suggestions map[string]int `json:"suggestions"`
 	}

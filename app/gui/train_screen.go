@@ -375,6 +375,9 @@ func (s *trainScreen) suggestUnlabelled() {
 			u.showError(err)
 		}
 		msg := fmt.Sprintf("%s on %s, pending review as source %q.", ops.Plural(len(rep.Detections), "suggestion"), ops.Plural(rep.Images, "image"), rep.Source)
+		if rep.Images == 0 {
+			msg = "Every image has labels or is skipped, so there was nothing to suggest on: choose this image, the next 10 or every image."
+		}
 		if len(rep.Failed) > 0 {
 			msg += fmt.Sprintf(" %s could not be read.", ops.Plural(len(rep.Failed), "image"))
 		}
