@@ -17,7 +17,9 @@ import (
 	"context"
 	"fmt"
 	"io"
+	"os"
 	"path/filepath"
+	"runtime"
 	"strings"
 
 	"fyne.io/fyne/v2"
@@ -38,6 +40,10 @@ import (
 // empty, labelling as annotator (empty: the remembered name, or ask), and
 // returns when the window closes.
 func Run(path, annotator string, stderr io.Writer) int {
+	if why := noDisplay(runtime.GOOS, os.Getenv); why != "" {
+		fmt.Fprintf(stderr, "boxwright: %s\n", why)
+		return 1
+	}
 	a := fyneapp.NewWithID("app.boxwright.desktop")
 	u := newUI(a)
 	u.annotatorFlag = annotator
@@ -50,6 +56,19 @@ func Run(path, annotator string, stderr io.Writer) int {
 	u.win.ShowAndRun()
 	u.closeProject()
 	return 0
+}
+
+// noDisplay says why no window can open, or "": on Linux and the BSDs a
+// window needs an X or Wayland display, and without one the toolkit
+// panics instead of saying so.
+func noDisplay(goos string, getenv func(string) string) string {
+	switch goos {
+	case "linux", "freebsd", "openbsd", "netbsd":
+		if getenv("DISPLAY") == "" && getenv("WAYLAND_DISPLAY") == "" {
+			return "no display to open a window on (neither DISPLAY nor WAYLAND_DISPLAY is set): run it in a desktop session, or use the command-line commands (boxwright help); boxwright demo DIR --no-open makes the demo without opening it"
+		}
+	}
+	return ""
 }
 
 // ui is the main window and the open project.
