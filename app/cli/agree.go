@@ -26,18 +26,15 @@ func splitNames(s string) []string {
 func cmdAgree(args []string, stdout, stderr io.Writer) error {
 	fs := flag.NewFlagSet("agree", flag.ContinueOnError)
 	who := fs.String("annotators", "", "annotators to compare, comma-separated (at least two)")
-	iou := fs.Float64("iou", agree.DefaultThreshold, "IoU at which two boxes count as the same object")
+	iou := floatAbove(fs, "iou", agree.DefaultThreshold, 0, 1, "IoU at which two boxes count as the same object")
 	aware := fs.Bool("class-aware", false, "pair only boxes of the same class")
 	asJSON := fs.Bool("json", false, "print JSON")
 	asCSV := fs.Bool("csv", false, "print the table of annotator pairs as CSV")
-	worst := fs.Int("worst", 20, "how many of the most disputed images to list")
+	worst := intIn(fs, "worst", 20, 0, 1000000, "how many of the most disputed images to list")
 	weights := fs.String("weights", "none", "weighted kappa for ordered classes (in class order): none, linear, quadratic or a k×k CSV of disagreement weights")
 	pos, err := parse(fs, args, 1, 1, "agree PROJECT.boxw --annotators A,B[,C…] [--iou 0.5] [--class-aware] [--json|--csv]")
 	if err != nil {
 		return err
-	}
-	if *iou <= 0 || *iou > 1 {
-		return usageError(fmt.Sprintf("--iou %g: give a number in (0, 1]", *iou))
 	}
 	if *asJSON && *asCSV {
 		return usageError("choose --json or --csv, not both")
@@ -215,8 +212,8 @@ func printAgreement(w io.Writer, d ops.AgreementData, rep agree.Report, worst in
 func cmdConsensus(args []string, stdout, stderr io.Writer) error {
 	fs := flag.NewFlagSet("consensus", flag.ContinueOnError)
 	who := fs.String("annotators", "", "annotators to combine, comma-separated (at least two)")
-	iou := fs.Float64("iou", agree.DefaultThreshold, "IoU at which boxes count as the same object")
-	minSupport := fs.Int("min", 0, "keep objects drawn by at least this many annotators (default: a majority)")
+	iou := floatAbove(fs, "iou", agree.DefaultThreshold, 0, 1, "IoU at which boxes count as the same object")
+	minSupport := intIn(fs, "min", 0, 1, 1000000, "keep objects drawn by at least this many annotators (default: a majority)")
 	median := fs.Bool("median", false, "use the median of the members' coordinates instead of the mean")
 	pos, err := parse(fs, args, 1, 1, "consensus PROJECT.boxw --annotators A,B[,C…] [--iou 0.5] [--min K] [--median]")
 	if err != nil {

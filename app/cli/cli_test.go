@@ -123,7 +123,7 @@ func TestCommandLineErrors(t *testing.T) {
 		{[]string{"info", filepath.Join(dir, "none.boxw")}, 1, "no such project file"},
 		{[]string{"new", filepath.Join(dir, "x.txt")}, 1, "should end in .boxw"},
 		{[]string{"classes", filepath.Join(dir, "none.boxw"), "list"}, 1, "no such project file"},
-		{[]string{"add-images", "--max-megapixels", "0", "a.boxw", "b"}, 2, "must be positive"},
+		{[]string{"add-images", "--max-megapixels", "0", "a.boxw", "b"}, 2, "give a number above 0"},
 		{[]string{"images", "--bogus", "p.boxw"}, 2, "flag provided but not defined"},
 		{[]string{"import", "--map", "boat", "p.boxw", "f.json"}, 2, "--map wants FROM=TO"},
 		{[]string{"import", "p.boxw", "f.json"}, 2, "--layout is required"},

@@ -21,7 +21,11 @@ func (m classMapFlag) Set(v string) error {
 	if !ok || strings.TrimSpace(from) == "" || strings.TrimSpace(to) == "" {
 		return fmt.Errorf("--map wants FROM=TO, got %q", v)
 	}
-	m[strings.TrimSpace(from)] = strings.TrimSpace(to)
+	from, to = strings.TrimSpace(from), strings.TrimSpace(to)
+	if old, twice := m[from]; twice && old != to {
+		return fmt.Errorf("--map maps %q twice, to %q and to %q: give one", from, old, to)
+	}
+	m[from] = to
 	return nil
 }
 

@@ -18,10 +18,10 @@ func cmdEval(args []string, stdout, stderr io.Writer) error {
 	preds := fs.String("predictions", "", "or score a prediction file (JSON list, text folder or CSV)")
 	layout := fs.String("layout", "", "layout of --predictions (default from its extension)")
 	protocol := fs.String("protocol", "voc", "voc or coco matching")
-	iou := fs.Float64("iou", 0.5, "IoU threshold (VOC-style; COCO-style uses 0.50:0.05:0.95)")
+	iou := floatAbove(fs, "iou", 0.5, 0, 1, "IoU threshold (VOC-style; COCO-style uses 0.50:0.05:0.95)")
 	interp := fs.String("interpolation", "", "all, 11 or 101 (default: all for voc, 101 for coco)")
 	plusOne := fs.Bool("plus-one", false, "pixel-inclusive areas (x2−x1+1)·(y2−y1+1), as older toolkits")
-	threshold := fs.Float64("threshold", 0.5, "score at which precision, recall and F1 are given")
+	threshold := floatIn(fs, "threshold", 0.5, 0, 1, "score at which precision, recall and F1 are given")
 	asJSON := fs.Bool("json", false, "print JSON")
 	const synopsis = "eval PROJECT.boxw --truth ANNOTATOR (--source NAME | --predictions FILE) [--protocol voc|coco] [--iou 0.5] [--interpolation all|11|101] [--plus-one] [--threshold 0.5] [--json]"
 	pos, err := parse(fs, args, 1, 1, synopsis)

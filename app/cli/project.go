@@ -69,13 +69,10 @@ func printIntake(stdout io.Writer, rep project.IntakeReport, asJSON bool) error 
 func cmdAddImages(args []string, stdout, stderr io.Writer) error {
 	fs := flag.NewFlagSet("add-images", flag.ContinueOnError)
 	asJSON := fs.Bool("json", false, "")
-	mp := fs.Float64("max-megapixels", float64(imagefile.DefaultMaxPixels)/1e6, "")
+	mp := floatAbove(fs, "max-megapixels", float64(imagefile.DefaultMaxPixels)/1e6, 0, 10000, "")
 	pos, err := parse(fs, args, 2, -1, "add-images PROJECT.boxw PATH... [--max-megapixels N] [--json]")
 	if err != nil {
 		return err
-	}
-	if *mp <= 0 {
-		return usageError("--max-megapixels must be positive")
 	}
 	s, ctx, done, err := openCLI(pos[0])
 	if err != nil {

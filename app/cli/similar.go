@@ -38,7 +38,7 @@ func cmdSimilar(args []string, stdout, stderr io.Writer) error {
 	imgName := fs.String("image", "", "the project image to search (its path or file name)")
 	ex := fs.String("exemplar", "", "the example box x0,y0,x1,y1 in image pixels")
 	className := fs.String("class", "", "the class of the example (needed with --save)")
-	threshold := fs.Float64("threshold", 0.6, "lowest normalised cross-correlation of a match")
+	threshold := floatAbove(fs, "threshold", 0.6, -1, 1, "lowest normalised cross-correlation of a match")
 	scales := fs.String("scales", "0.8:1.25:5", "scales FROM:TO:STEPS (geometric)")
 	rotations := fs.Bool("rotations", false, "also try the example turned by 90°, 180° and 270°")
 	feature := fs.String("feature", "gray", "gray, gradient (robust to lighting) or color")
@@ -55,9 +55,6 @@ func cmdSimilar(args []string, stdout, stderr io.Writer) error {
 	box, err := parseCorners(*ex)
 	if err != nil {
 		return usageError(err.Error())
-	}
-	if *threshold <= -1 || *threshold > 1 {
-		return usageError(fmt.Sprintf("--threshold %g: give a number in (-1, 1]", *threshold))
 	}
 	sc, err := exemplar.ParseScales(*scales)
 	if err != nil {

@@ -4,7 +4,6 @@ import (
 	"flag"
 	"fmt"
 	"io"
-	"math"
 	"strings"
 
 	"boxwright/app/ops"
@@ -30,8 +29,8 @@ func cmdSuggestionsImport(args []string, stdout, stderr io.Writer, synopsis stri
 	source := fs.String("source", "", "")
 	layout := fs.String("layout", "", "")
 	classes := fs.String("classes", "", "")
-	minScore := fs.Float64("min-score", 0, "")
-	nms := fs.Float64("nms", 0, "")
+	minScore := floatIn(fs, "min-score", 0, 0, 1, "")
+	nms := floatIn(fs, "nms", 0, 0, 1, "")
 	create := fs.Bool("create-classes", false, "")
 	drop := fs.Bool("drop-unknown", false, "")
 	asJSON := fs.Bool("json", false, "")
@@ -46,9 +45,6 @@ func cmdSuggestionsImport(args []string, stdout, stderr io.Writer, synopsis stri
 	}
 	if *create && *drop {
 		return usageError("choose --create-classes or --drop-unknown, not both")
-	}
-	if *minScore < 0 || *minScore > 1 || *nms < 0 || *nms > 1 || math.IsNaN(*minScore) || math.IsNaN(*nms) {
-		return usageError("--min-score and --nms take numbers from 0 to 1")
 	}
 	lay := suggest.PredictionLayout(*layout)
 	if *layout == "" {

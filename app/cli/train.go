@@ -4,7 +4,6 @@ import (
 	"flag"
 	"fmt"
 	"io"
-	"math"
 	"strings"
 	"time"
 
@@ -17,9 +16,9 @@ func cmdTrain(args []string, stdout, stderr io.Writer) error {
 	fs := flag.NewFlagSet("train", flag.ContinueOnError)
 	annotator := fs.String("annotator", "", "learn this annotator's labels (for example consensus)")
 	classes := fs.String("classes", "", "the classes to learn, comma-separated (default: every class with enough boxes)")
-	minutes := fs.Float64("minutes", 0, "stop after this many minutes (the epoch under way finishes)")
+	minutes := floatAbove(fs, "minutes", 0, 0, 7*24*60, "stop after this many minutes (the epoch under way finishes)")
 	epochs := fs.Int("epochs", 0, "stop after this many epochs")
-	validation := fs.Float64("validation", 0.2, "share of the images held out for validation")
+	validation := floatIn(fs, "validation", 0.2, 0, 0.9, "share of the images held out for validation")
 	seed := fs.Uint64("seed", 1, "seed of the split, the initial weights and the augmentation")
 	threads := fs.Int("threads", 0, "threads for the arithmetic (0: every core)")
 	turns := fs.Bool("rotations", false, "the objects' orientation does not matter: also learn from quarter turns")
@@ -35,12 +34,8 @@ func cmdTrain(args []string, stdout, stderr io.Writer) error {
 		return usageError("--annotator is required: a model learns one annotator's labels\nusage: boxwright " + synopsis)
 	case *minutes <= 0 && *epochs <= 0:
 		return usageError("give --minutes or --epochs\nusage: boxwright " + synopsis)
-	case *minutes < 0 || math.IsNaN(*minutes) || math.IsInf(*minutes, 0) || *minutes > 7*24*60:
-		return usageError(fmt.Sprintf("--minutes %g: give a number of minutes above 0", *minutes))
 	case *epochs < 0 || *epochs > 100000:
 		return usageError(fmt.Sprintf("--epochs %d: give a number from 1 to 100000", *epochs))
-	case *validation < 0 || *validation > 0.9 || math.IsNaN(*validation):
-		return usageError(fmt.Sprintf("--validation %g: give a share from 0 to 0.9", *validation))
 	case *threads < 0 || *threads > 1024:
 		return usageError(fmt.Sprintf("--threads %d: give a number from 0 (every core) to 1024", *threads))
 	}
@@ -103,8 +98,8 @@ func cmdDetect(args []string, stdout, stderr io.Writer) error {
 	fs := flag.NewFlagSet("detect", flag.ContinueOnError)
 	model := fs.String("model", "", "the model to run (default: the current one)")
 	which := fs.String("images", "unlabelled", "unlabelled (images without labels, not skipped) or all")
-	minScore := fs.Float64("min-score", 0.3, "keep detections scoring at least this")
-	nms := fs.Float64("nms", 0.5, "IoU of per-class non-maximum suppression (0: none)")
+	minScore := floatIn(fs, "min-score", 0.3, 0, 1, "keep detections scoring at least this")
+	nms := floatIn(fs, "nms", 0.5, 0, 1, "IoU of per-class non-maximum suppression (0: none)")
 	source := fs.String("source", "", "source name of the suggestions (default: the model's name)")
 	save := fs.Bool("save", false, "store the detections as pending suggestions")
 	threads := fs.Int("threads", 0, "threads for the arithmetic (0: every core)")
@@ -117,10 +112,6 @@ func cmdDetect(args []string, stdout, stderr io.Writer) error {
 	switch {
 	case *which != "unlabelled" && *which != "all":
 		return usageError(fmt.Sprintf("--images %q: use unlabelled or all", *which))
-	case *minScore < 0 || *minScore > 1 || math.IsNaN(*minScore):
-		return usageError(fmt.Sprintf("--min-score %g: give a number from 0 to 1", *minScore))
-	case *nms < 0 || *nms > 1 || math.IsNaN(*nms):
-		return usageError(fmt.Sprintf("--nms %g: give a number from 0 (none) to 1", *nms))
 	case *threads < 0 || *threads > 1024:
 		return usageError(fmt.Sprintf("--threads %d: give a number from 0 (every core) to 1024", *threads))
 	}

@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"math"
 	"strconv"
+	"strings"
 
 	"boxwright/project/agree"
 )
@@ -12,6 +13,12 @@ import (
 func Plural(n int, word string) string {
 	if n == 1 {
 		return "1 " + word
+	}
+	// English adds -es after a sibilant: boxes, matches, classes.
+	for _, end := range []string{"x", "ch", "sh", "s", "z"} {
+		if strings.HasSuffix(word, end) {
+			return fmt.Sprintf("%d %ses", n, word)
+		}
 	}
 	return fmt.Sprintf("%d %ss", n, word)
 }

@@ -1,0 +1,89 @@
+package cli
+
+import (
+	"flag"
+	"fmt"
+	"math"
+	"strconv"
+)
+
+// boundedFloat is a numeric flag that refuses, while the command line is
+// parsed, anything that is not a finite number in its range: a value out
+// of range must never reach a command that would store a result computed
+// with it (an IoU of 2 or NaN pairs nothing and so erases a consensus).
+type boundedFloat struct {
+	v      *float64
+	lo, hi float64
+	loOpen bool // lo itself is refused
+}
+
+func (f *boundedFloat) String() string {
+	if f == nil || f.v == nil {
+		return ""
+	}
+	return strconv.FormatFloat(*f.v, 'g', -1, 64)
+}
+
+func (f *boundedFloat) Set(s string) error {
+	x, err := strconv.ParseFloat(s, 64)
+	if err != nil || math.IsNaN(x) || math.IsInf(x, 0) {
+		return fmt.Errorf("not a finite number: give %s", f.what())
+	}
+	if x < f.lo || (f.loOpen && x == f.lo) || x > f.hi {
+		return fmt.Errorf("out of range: give %s", f.what())
+	}
+	*f.v = x
+	return nil
+}
+
+func (f *boundedFloat) what() string {
+	if f.loOpen {
+		return fmt.Sprintf("a number above %g and at most %g", f.lo, f.hi)
+	}
+	return fmt.Sprintf("a number from %g to %g", f.lo, f.hi)
+}
+
+// floatIn defines a float flag whose given value must lie in [lo, hi].
+func floatIn(fs *flag.FlagSet, name string, def, lo, hi float64, usage string) *float64 {
+	v := def
+	fs.Var(&boundedFloat{v: &v, lo: lo, hi: hi}, name, usage)
+	return &v
+}
+
+// floatAbove defines a float flag whose given value must lie in (lo, hi].
+func floatAbove(fs *flag.FlagSet, name string, def, lo, hi float64, usage string) *float64 {
+	v := def
+	fs.Var(&boundedFloat{v: &v, lo: lo, hi: hi, loOpen: true}, name, usage)
+	return &v
+}
+
+// boundedInt is an integer flag that refuses, while parsing, values
+// outside [lo, hi].
+type boundedInt struct {
+	v      *int
+	lo, hi int
+}
+
+func (f *boundedInt) String() string {
+	if f == nil || f.v == nil {
+		return ""
+	}
+	return strconv.Itoa(*f.v)
+}
+
+func (f *boundedInt) Set(s string) error {
+	x, err := strconv.Atoi(s)
+	if err != nil || x < f.lo || x > f.hi {
+		return fmt.Errorf("give a whole number from %d to %d", f.lo, f.hi)
+	}
+	*f.v = x
+	return nil
+}
+
+// intIn defines an integer flag whose given value must lie in [lo, hi];
+// the default may lie outside (0 often means "choose for me").
+func intIn(fs *flag.FlagSet, name string, def, lo, hi int, usage string) *int {
+	v := def
+	fs.Var(&boundedInt{v: &v, lo: lo, hi: hi}, name, usage)
+	return &v
+}
