@@ -80,6 +80,12 @@ func Open(path string) (*Store, error) {
 	if st.IsDir() {
 		return nil, fmt.Errorf("open project %s: is a folder, not a project file: %w", path, ErrNotProject)
 	}
+	// SQLite would take an empty file for a new database and make it a
+	// project; only Create does that. (A WAL-mode project always has its
+	// header in the main file, so an empty one is never a project.)
+	if st.Size() == 0 {
+		return nil, fmt.Errorf("open project %s: the file is empty (0 bytes), not a project; boxwright new makes one: %w", path, ErrNotProject)
+	}
 	return open(path)
 }
 

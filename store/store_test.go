@@ -81,21 +81,24 @@ func TestCreateReopenPragmas(t *testing.T) {
 	}
 }
 
-func TestOpenMigratesEmptyFile(t *testing.T) {
+// An empty file is not a project: Open refuses it and leaves it as it
+// was (only Create makes a project), so that a 0-byte file given by
+// mistake is not silently turned into one.
+func TestOpenRefusesEmptyFile(t *testing.T) {
 	path := filepath.Join(t.TempDir(), "empty.boxw")
 	if err := os.WriteFile(path, nil, 0o644); err != nil {
 		t.Fatal(err)
 	}
-	s, err := Open(path)
-	if err != nil {
-		t.Fatalf("open empty file: %v", err)
+	if _, err := Open(path); !errors.Is(err, ErrNotProject) || !strings.Contains(err.Error(), "empty") || !strings.Contains(err.Error(), path) {
+		t.Errorf("open empty file: %v", err)
 	}
-	defer s.Close()
-	if v, _ := s.SchemaVersion(bg); v != latestVersion() {
-		t.Errorf("schema version %d after migrating an empty file", v)
+	if st, err := os.Stat(path); err != nil || st.Size() != 0 {
+		t.Errorf("the empty file was changed: %v %v", st, err)
 	}
-	if _, err := s.AddAnnotator(bg, "Ines"); err != nil {
-		t.Errorf("migrated file not usable: %v", err)
+	for _, side := range []string{"-wal", "-shm"} {
+		if _, err := os.Stat(path + side); err == nil {
+			t.Errorf("%s file left beside the refused file", side)
+		}
 	}
 }
 

@@ -195,3 +195,24 @@ func TestRelinkCommandFindsMovedImages(t *testing.T) {
 		t.Errorf("relink %+v", rep)
 	}
 }
+
+// Only new makes a project: info, add-images and import refuse an empty
+// file by name and leave it empty.
+func TestEmptyFileIsNoProject(t *testing.T) {
+	dir := t.TempDir()
+	empty := filepath.Join(dir, "empty.boxw")
+	os.WriteFile(empty, nil, 0o644)
+	for _, args := range [][]string{
+		{"info", empty},
+		{"add-images", empty, dir},
+		{"import", empty, filepath.Join(dir, "labels.json"), "--layout", "json", "--annotator", "Ines"},
+	} {
+		code, _, errs := cli(t, args...)
+		if code != 1 || !strings.Contains(errs, "empty") || !strings.Contains(errs, "boxwright new") {
+			t.Errorf("boxwright %s: exit %d, %q", strings.Join(args, " "), code, errs)
+		}
+	}
+	if st, err := os.Stat(empty); err != nil || st.Size() != 0 {
+		t.Errorf("the empty file was changed: %v", err)
+	}
+}
