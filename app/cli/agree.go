@@ -6,6 +6,7 @@ import (
 	"fmt"
 	"io"
 	"math"
+	"slices"
 	"strconv"
 	"strings"
 
@@ -36,6 +37,10 @@ func cmdAgree(args []string, stdout, stderr io.Writer) error {
 	if err != nil {
 		return err
 	}
+	names := splitNames(*who)
+	if err := distinctNames(names); err != nil {
+		return err
+	}
 	if *asJSON && *asCSV {
 		return usageError("choose --json or --csv, not both")
 	}
@@ -44,7 +49,7 @@ func cmdAgree(args []string, stdout, stderr io.Writer) error {
 		return err
 	}
 	defer done()
-	d, err := ops.LoadAgreement(ctx, st, splitNames(*who))
+	d, err := ops.LoadAgreement(ctx, st, names)
 	if err != nil {
 		return err
 	}
@@ -220,6 +225,9 @@ func cmdConsensus(args []string, stdout, stderr io.Writer) error {
 		return err
 	}
 	names := splitNames(*who)
+	if err := distinctNames(names); err != nil {
+		return err
+	}
 	for _, n := range names {
 		if n == ops.ConsensusName {
 			return usageError("the consensus cannot be one of its own inputs")
@@ -238,5 +246,19 @@ func cmdConsensus(args []string, stdout, stderr io.Writer) error {
 		return err
 	}
 	fmt.Fprintf(stdout, "stored %s as annotator %q (%d tied class votes, marked for review in their source)\n", ops.Plural(n, "consensus box"), ops.ConsensusName, ties)
+	return nil
+}
+
+// distinctNames refuses fewer than two annotators or one named twice, as
+// a usage error: nothing is opened for a command line that cannot work.
+func distinctNames(names []string) error {
+	if len(names) < 2 {
+		return usageError("give at least two annotators, comma-separated: --annotators A,B[,C…]")
+	}
+	for i, n := range names {
+		if slices.Contains(names[:i], n) {
+			return usageError(fmt.Sprintf("--annotators names %q twice", n))
+		}
+	}
 	return nil
 }

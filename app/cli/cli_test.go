@@ -129,6 +129,11 @@ func TestCommandLineErrors(t *testing.T) {
 		{[]string{"import", "p.boxw", "f.json"}, 2, "--layout is required"},
 		{[]string{"export", "p.boxw", "--layout", "json"}, 2, "--layout, --annotator and --out are required"},
 		{[]string{"export", "p.boxw", "--layout", "json", "--annotator", "a", "--out", "o", "--split", "80/30/10"}, 2, "--split"},
+		{[]string{"export", "p.boxw", "--layout", "json", "--annotator", "a", "--out", "o", "--images", "move"}, 2, "use copy, link or none"},
+		{[]string{"export", "p.boxw", "--layout", "csv", "--annotator", "a", "--out", "o"}, 2, "use json"},
+		{[]string{"agree", "p.boxw", "--annotators", "Ines"}, 2, "at least two annotators"},
+		{[]string{"agree", "p.boxw", "--annotators", "Ines,Ines"}, 2, "names \"Ines\" twice"},
+		{[]string{"consensus", "p.boxw", "--annotators", "Ines,Tomas,Ines"}, 2, "twice"},
 	}
 	for _, c := range cases {
 		code, _, errs := cli(t, c.args...)

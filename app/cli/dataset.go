@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"io"
 	"path/filepath"
+	"slices"
 	"strings"
 
 	"boxwright/app/ops"
@@ -106,6 +107,12 @@ func cmdExport(args []string, stdout, stderr io.Writer) error {
 	}
 	if *layout == "" || *annotator == "" || *out == "" {
 		return usageError("--layout, --annotator and --out are required\nusage: boxwright " + synopsis)
+	}
+	if !slices.Contains([]string{"json", "xml", "txt"}, *layout) {
+		return usageError(fmt.Sprintf("--layout %q: use json (corner/size JSON), xml (per-image XML) or txt (centre-normalised text)", *layout))
+	}
+	if !slices.Contains([]string{"copy", "link", "none"}, *images) {
+		return usageError(fmt.Sprintf("--images %q: use copy, link or none", *images))
 	}
 	ratios, err := formats.ParseRatios(*split)
 	if err != nil {
