@@ -41,6 +41,10 @@ func newCJReader(r io.Reader, file string) (*cjReader, error) {
 	if err != nil {
 		return nil, &PositionError{File: file, Msg: "cannot read the file: " + err.Error()}
 	}
+	// A UTF-8 byte-order mark, as some editors on Windows write it, is not
+	// JSON but says nothing wrong about the file (the text readers skip it
+	// too); line numbers are unchanged without it.
+	data = bytes.TrimPrefix(data, []byte("\xef\xbb\xbf"))
 	dec := json.NewDecoder(bytes.NewReader(data))
 	return &cjReader{file: file, data: data, dec: dec}, nil
 }

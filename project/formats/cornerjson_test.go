@@ -369,6 +369,24 @@ func TestReadCornerJSONSyntaxLine(t *testing.T) {
 	}
 }
 
+// A UTF-8 byte-order mark before the JSON is skipped, in label files and
+// prediction lists alike, and line numbers of errors stay right.
+func TestReadCornerJSONByteOrderMark(t *testing.T) {
+	const bom = "\xef\xbb\xbf"
+	doc := bom + `{"images": [{"id": 1, "file_name": "a.jpg", "width": 10, "height": 10}], "categories": [{"id": 1, "name": "a"}], "annotations": []}`
+	if ds, err := ReadCornerJSON(strings.NewReader(doc), "bom.json"); err != nil || len(ds.Images) != 1 {
+		t.Errorf("labels with a BOM: %v", err)
+	}
+	if ps, err := ReadPredictionList(strings.NewReader(bom+`[{"image_id": 1, "category_id": 1, "bbox": [1, 1, 2, 2], "score": 0.5}]`), "p.json"); err != nil || len(ps) != 1 {
+		t.Errorf("predictions with a BOM: %v", err)
+	}
+	_, err := ReadCornerJSON(strings.NewReader(bom+"{\n\"images\": [\n}"), "bad.json")
+	var pe *PositionError
+	if !errors.As(err, &pe) || pe.Line != 3 {
+		t.Errorf("error after a BOM: %v, want line 3", err)
+	}
+}
+
 // TestReadPredictionList reads id- and name-based records (invented data;
 // corners by the convention above, common practice: x1 = x+w, y1 = y+h).
 func TestReadPredictionList(t *testing.T) {
