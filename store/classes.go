@@ -168,15 +168,15 @@ func (s *Store) DeleteClass(ctx context.Context, id int64, opts project.DeleteCl
 	if err != nil {
 		return fmt.Errorf("delete class: %w", err)
 	}
+	if opts.MoveTo == id {
+		return fmt.Errorf("merge class %q: cannot merge a class into itself: %w", c.Name, project.ErrInvalid)
+	}
 	err = s.tx(ctx, func(tx *sql.Tx) error {
 		var labels, suggestions int
 		tx.QueryRowContext(ctx, "SELECT count(*) FROM labels WHERE class_id = ?", id).Scan(&labels)
 		tx.QueryRowContext(ctx, "SELECT count(*) FROM suggestions WHERE class_id = ?", id).Scan(&suggestions)
 		switch {
 		case opts.MoveTo != 0:
-			if opts.MoveTo == id {
-				return fmt.Errorf("cannot merge a class into itself: %w", project.ErrInvalid)
-			}
 			var exists int
 			if err := tx.QueryRowContext(ctx, "SELECT count(*) FROM classes WHERE id = ?", opts.MoveTo).Scan(&exists); err != nil || exists == 0 {
 				return fmt.Errorf("target class %d: %w", opts.MoveTo, project.ErrNotFound)

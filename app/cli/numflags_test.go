@@ -79,3 +79,19 @@ func TestNumericFlagsRefuseBadValues(t *testing.T) {
 		t.Errorf("consensus labels %d before the refused runs, %d after", before, after)
 	}
 }
+
+// Messages say each thing once and name the right action.
+func TestMessagesSayItOnce(t *testing.T) {
+	path := testkit.SmallDemo(t)
+	_, _, errs := cli(t, "agree", path, "--annotators", "Nobody,Ines")
+	if strings.Count(errs, `annotator "Nobody"`) != 1 || !strings.Contains(errs, "not found") {
+		t.Errorf("agree with an unknown annotator: %q", errs)
+	}
+	_, _, errs = cli(t, "classes", path, "merge", "sailboat", "sailboat")
+	if !strings.Contains(errs, `merge class "sailboat"`) || strings.Contains(errs, "delete") {
+		t.Errorf("merging a class into itself: %q", errs)
+	}
+	if out := mustCLI(t, "consensus", path, "--annotators", "Ines,Tomas"); !strings.Contains(out, "consensus boxes") {
+		t.Errorf("consensus: %q", out)
+	}
+}

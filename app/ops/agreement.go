@@ -33,7 +33,7 @@ func LoadAgreement(ctx context.Context, st backend.Project, names []string) (Agr
 	for i, n := range names {
 		a, err := st.AnnotatorByName(ctx, n)
 		if err != nil {
-			return d, fmt.Errorf("annotator %q: %w", n, err)
+			return d, err
 		}
 		if _, dup := pos[a.ID]; dup {
 			return d, fmt.Errorf("annotator %q is named twice", n)

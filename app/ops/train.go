@@ -58,7 +58,7 @@ type TrainReport struct {
 func TrainingCandidates(ctx context.Context, st backend.Project, annotator string) ([]detector.Candidate, []project.Class, error) {
 	a, err := st.AnnotatorByName(ctx, annotator)
 	if err != nil {
-		return nil, nil, fmt.Errorf("annotator %q: %w", annotator, err)
+		return nil, nil, err
 	}
 	ims, err := st.Images(ctx)
 	if err != nil {

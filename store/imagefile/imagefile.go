@@ -17,6 +17,7 @@ import (
 	"io"
 	"os"
 	"path/filepath"
+	"strconv"
 	"strings"
 
 	"golang.org/x/image/bmp"
@@ -190,8 +191,9 @@ func probe(r io.ReaderAt, size int64, name string, maxPixels int64) (Info, error
 		return Info{}, fail(name, ErrUnreadable, "the %s header gives a size of %d×%d pixels; the file is damaged", title, cfg.Width, cfg.Height)
 	}
 	if px := int64(cfg.Width) * int64(cfg.Height); px > maxPixels {
-		return Info{}, fail(name, ErrTooLarge, "%d×%d pixels (%.1f megapixels) is above the limit of %.1f megapixels",
-			cfg.Width, cfg.Height, float64(px)/1e6, float64(maxPixels)/1e6)
+		// Exact pixel counts: rounded megapixels can read the same on both sides.
+		return Info{}, fail(name, ErrTooLarge, "%d×%d = %d pixels is above the limit of %d pixels (%s megapixels)",
+			cfg.Width, cfg.Height, px, maxPixels, strconv.FormatFloat(float64(maxPixels)/1e6, 'f', -1, 64))
 	}
 	if err := checkStructure(r, size, format); err != nil {
 		return Info{}, fail(name, ErrTruncated, "the file is cut short (%w); it was probably not copied or downloaded completely", err)

@@ -330,7 +330,7 @@ func TestTooLarge(t *testing.T) {
 		if !errors.Is(err, ErrTooLarge) {
 			t.Fatalf("error %v, want ErrTooLarge", err)
 		}
-		want := path + ": 60000×60000 pixels (3600.0 megapixels) is above the limit of 100.0 megapixels"
+		want := path + ": 60000×60000 = 3600000000 pixels is above the limit of 100000000 pixels (100 megapixels)"
 		if err.Error() != want {
 			t.Errorf("message %q\nwant    %q", err, want)
 		}
