@@ -20,7 +20,9 @@ type ImageMode string
 const (
 	ImagesCopy ImageMode = "copy" // copy the files into the export
 	ImagesLink ImageMode = "link" // hard-link them (copy where linking fails)
-	ImagesNone ImageMode = "none" // refer to the original files by absolute path
+	// imagesLinkAndCopy reports a link export that had to copy some files.
+	imagesLinkAndCopy ImageMode = "link and copy"
+	ImagesNone        ImageMode = "none" // refer to the original files by absolute path
 )
 
 // ExportImage is one image to export.
@@ -50,14 +52,19 @@ type SplitReport struct {
 // ExportReport says what an export wrote; it is also saved as report.json
 // in the export folder.
 type ExportReport struct {
-	Layout  Layout        `json:"layout"`
-	Images  ImageMode     `json:"images"`
-	Ratios  [3]float64    `json:"ratios"`
-	Seed    int64         `json:"seed"`
-	Classes []string      `json:"classes"`
-	Splits  []SplitReport `json:"splits"`
-	Copied  int           `json:"copied"`
-	Linked  int           `json:"linked"`
+	Layout Layout `json:"layout"`
+	// Images is what was done with the image files: the mode asked for,
+	// except that a link export where linking failed (another file system)
+	// and files were copied says "copy", or "link and copy" when only some
+	// were. Requested keeps what was asked.
+	Images    ImageMode     `json:"images"`
+	Requested ImageMode     `json:"requested_images"`
+	Ratios    [3]float64    `json:"ratios"`
+	Seed      int64         `json:"seed"`
+	Classes   []string      `json:"classes"`
+	Splits    []SplitReport `json:"splits"`
+	Copied    int           `json:"copied"`
+	Linked    int           `json:"linked"`
 }
 
 // Export writes the images' boxes in the chosen layout under out, split
@@ -74,7 +81,7 @@ type ExportReport struct {
 // Names are made safe and unique, so nothing is written outside out. The
 // folder must be new or empty, so that no earlier export is mixed in.
 func Export(ctx context.Context, out string, classes []string, imgs []ExportImage, opts ExportOptions) (ExportReport, error) {
-	rep := ExportReport{Layout: opts.Layout, Images: opts.Images, Ratios: opts.Ratios, Seed: opts.Seed, Classes: classes}
+	rep := ExportReport{Layout: opts.Layout, Images: opts.Images, Requested: opts.Images, Ratios: opts.Ratios, Seed: opts.Seed, Classes: classes}
 	switch opts.Layout {
 	case LayoutJSON, LayoutXML, LayoutText:
 	default:
@@ -129,6 +136,12 @@ func Export(ctx context.Context, out string, classes []string, imgs []ExportImag
 	if opts.Layout == LayoutText {
 		if err := writeFileInside(out, "classes.txt", func(w io.Writer) error { return WriteClassNames(w, classes) }); err != nil {
 			return rep, err
+		}
+	}
+	if opts.Images == ImagesLink && rep.Copied > 0 {
+		rep.Images = ImagesCopy
+		if rep.Linked > 0 {
+			rep.Images = imagesLinkAndCopy
 		}
 	}
 	err := writeFileInside(out, "report.json", func(w io.Writer) error {
