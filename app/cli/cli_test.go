@@ -177,6 +177,17 @@ func TestDemoCommandWritesProject(t *testing.T) {
 	// Asking again reuses the project instead of failing or overwriting.
 	if code, _, errs := cli(t, "demo", dir, "--no-open"); code != 0 || !strings.Contains(errs, "already exists") {
 		t.Errorf("second demo: %d %q", code, errs)
+	}	// A folder with other files in it is refused, and they stay as they
+	// were.
+	busy := t.TempDir()
+	mine := filepath.Join(busy, "images", "harbour-001.jpg")
+	os.MkdirAll(filepath.Dir(mine), 0o755)
+	os.WriteFile(mine, []byte("my own photo"), 0o644)
+	if code, _, errs := cli(t, "demo", busy, "--no-open", "--images", "2"); code != 1 || !strings.Contains(errs, "not empty") {
+		t.Errorf("demo into a used folder: %d %q", code, errs)
+	}
+	if b, _ := os.ReadFile(mine); string(b) != "my own photo" {
+		t.Errorf("the demo overwrote a file that was there: %q", b)
 	}
 }
 

@@ -22,6 +22,12 @@ var DemoDefaults = demo.Config{Seed: 1}
 // dir/harbour.boxw holding them, both annotators' labels and the pending
 // suggestions. A failure removes the half-made project file.
 func MakeDemo(ctx context.Context, dir string, cfg demo.Config, progress func(done, total int)) (err error) {
+	// The demo writes images/ and the project into dir: never over files
+	// someone else put there.
+	if entries, err := os.ReadDir(dir); err == nil && len(entries) > 0 {
+		return fmt.Errorf("make demo: %s is not empty (the demo writes %s and %s there): give a new or empty folder: %w",
+			dir, filepath.Join(dir, "images"), filepath.Join(dir, DemoProjectName), project.ErrInvalid)
+	}
 	sc := demo.Generate(cfg)
 	imgDir := filepath.Join(dir, "images")
 	if err := os.MkdirAll(imgDir, 0o755); err != nil {
