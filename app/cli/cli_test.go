@@ -177,7 +177,8 @@ func TestDemoCommandWritesProject(t *testing.T) {
 	// Asking again reuses the project instead of failing or overwriting.
 	if code, _, errs := cli(t, "demo", dir, "--no-open"); code != 0 || !strings.Contains(errs, "already exists") {
 		t.Errorf("second demo: %d %q", code, errs)
-	} // A folder with other files in it is refused, and they stay as they
+	}
+	// A folder with other files in it is refused, and they stay as they
 	// were.
 	busy := t.TempDir()
 	mine := filepath.Join(busy, "images", "harbour-001.jpg")
