@@ -121,6 +121,23 @@ func (s *Store) intakeOne(ctx context.Context, path string, info imagefile.Info,
 // collectFiles expands folders into the image files under them, sorted.
 // Files named explicitly are taken whatever their extension, so that a
 // wrong file gets a reason rather than silence.
+// notAFile says why something that is neither a folder nor a regular file
+// is not read ("" for a regular file): opening a named pipe would wait
+// forever for a writer, and a device has no end.
+func notAFile(m fs.FileMode) string {
+	switch {
+	case m.IsRegular():
+		return ""
+	case m&fs.ModeNamedPipe != 0:
+		return "a named pipe, not an image file; skipped without reading it"
+	case m&fs.ModeSocket != 0:
+		return "a socket, not an image file; skipped"
+	case m&fs.ModeDevice != 0 || m&fs.ModeCharDevice != 0:
+		return "a device, not an image file; skipped without reading it"
+	}
+	return "not a regular file; skipped"
+}
+
 func collectFiles(paths []string) ([]string, []project.IntakeFailure) {
 	var files []string
 	var failed []project.IntakeFailure
@@ -138,6 +155,10 @@ func collectFiles(paths []string) ([]string, []project.IntakeFailure) {
 			continue
 		}
 		if !st.IsDir() {
+			if why := notAFile(st.Mode()); why != "" {
+				failed = append(failed, project.IntakeFailure{Path: root, Error: why})
+				continue
+			}
 			add(root)
 			continue
 		}
@@ -153,8 +174,25 @@ func collectFiles(paths []string) ([]string, []project.IntakeFailure) {
 			if d.IsDir() && p != root && strings.HasPrefix(d.Name(), ".") {
 				return fs.SkipDir // hidden folders hold caches and version control
 			}
-			if d.Type().IsRegular() && imagefile.IsImageName(d.Name()) {
-				found = append(found, p)
+			switch t := d.Type(); {
+			case t.IsRegular():
+				if imagefile.IsImageName(d.Name()) {
+					found = append(found, p)
+				}
+			case t&fs.ModeSymlink != 0:
+				// Followed to a regular file; a link to a folder is not
+				// walked (it could loop).
+				st, err := os.Stat(p)
+				switch {
+				case err != nil:
+					failed = append(failed, project.IntakeFailure{Path: p, Error: "a link to nothing (its target is missing); skipped"})
+				case st.Mode().IsRegular() && imagefile.IsImageName(d.Name()):
+					found = append(found, p)
+				case !st.IsDir() && !st.Mode().IsRegular():
+					failed = append(failed, project.IntakeFailure{Path: p, Error: notAFile(st.Mode())})
+				}
+			case !t.IsDir():
+				failed = append(failed, project.IntakeFailure{Path: p, Error: notAFile(t)})
 			}
 			return nil
 		})

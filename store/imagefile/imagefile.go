@@ -144,6 +144,10 @@ func Decode(path string, maxPixels int64) (image.Image, Info, error) {
 // open opens a regular file and returns its size; folders and empty files
 // are refused.
 func open(path string) (*os.File, int64, error) {
+	// Look before opening: opening a named pipe waits for a writer.
+	if st, err := os.Stat(path); err == nil && !st.Mode().IsRegular() && !st.IsDir() {
+		return nil, 0, fail(path, ErrNotImage, "is a named pipe, device or socket, not an image file")
+	}
 	f, err := os.Open(path)
 	if err != nil {
 		return nil, 0, fmt.Errorf("opening image: %w", err)
