@@ -180,7 +180,7 @@ func (f *FileSource) size(im project.Image) (w, h int, ok bool) {
 
 // readFile reads a JSON prediction list or a prediction CSV.
 func (f *FileSource) readFile() ([]record, error) {
-	fh, err := os.Open(f.Path)
+	fh, err := formats.OpenFile(f.Path)
 	if err != nil {
 		return nil, fmt.Errorf("reading predictions: %w", err)
 	}

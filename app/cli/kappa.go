@@ -7,11 +7,11 @@ import (
 	"fmt"
 	"io"
 	"math"
-	"os"
 	"strings"
 
 	"boxwright/app/ops"
 	"boxwright/project/agree"
+	"boxwright/project/formats"
 )
 
 func cmdKappa(args []string, stdout, stderr io.Writer) error {
@@ -130,7 +130,7 @@ func (r kappaResult) print(w io.Writer) {
 
 // readCSV reads a whole CSV file; rows may differ in length.
 func readCSV(path string) ([][]string, error) {
-	f, err := os.Open(path)
+	f, err := formats.OpenFile(path)
 	if err != nil {
 		return nil, err
 	}

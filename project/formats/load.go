@@ -11,9 +11,9 @@ import (
 
 // LoadCornerJSON reads a corner/size JSON file.
 func LoadCornerJSON(file string) (*Dataset, error) {
-	f, err := os.Open(file)
+	f, err := OpenFile(file)
 	if err != nil {
-		return nil, fmt.Errorf("read %s: %w", file, err)
+		return nil, err // it names the file
 	}
 	defer f.Close()
 	return ReadCornerJSON(f, filepath.Base(file))
@@ -69,9 +69,9 @@ func LoadImageXMLFolder(root string) (*Dataset, error) {
 	seen := map[string]bool{}
 	for _, rel := range rels {
 		p := joinRel(root, rel)
-		f, err := os.Open(p)
+		f, err := OpenFile(p)
 		if err != nil {
-			return nil, fmt.Errorf("read %s: %w", p, err)
+			return nil, err // it names the file
 		}
 		name := rel
 		if name == "" {
@@ -102,7 +102,7 @@ type ImageSize func(rel string) (name string, width, height int, ok bool, reason
 // file, resolving each to its image through size. Files without an image
 // are returned as unmatched (with the reason), not read.
 func LoadCentreTextFolder(root, classNamesFile string, size ImageSize) (*Dataset, []string, error) {
-	cf, err := os.Open(classNamesFile)
+	cf, err := OpenFile(classNamesFile)
 	if err != nil {
 		return nil, nil, fmt.Errorf("read class names: %w", err)
 	}
@@ -131,9 +131,9 @@ func LoadCentreTextFolder(root, classNamesFile string, size ImageSize) (*Dataset
 			unmatched = append(unmatched, rel+": "+reason)
 			continue
 		}
-		f, err := os.Open(p)
+		f, err := OpenFile(p)
 		if err != nil {
-			return nil, nil, fmt.Errorf("read %s: %w", p, err)
+			return nil, nil, err // it names the file
 		}
 		boxes, err := ReadCentreText(f, rel, w, h, classes)
 		f.Close()

@@ -1,0 +1,43 @@
+//go:build linux
+
+package formats
+
+import (
+	"os"
+	"path/filepath"
+	"strings"
+	"syscall"
+	"testing"
+)
+
+// A named pipe, a device and a folder are refused before anything is
+// opened (a pipe would block and /dev/zero never ends), by name and kind;
+// a regular file opens.
+func TestOpenFileRefusesWhatIsNotAFile(t *testing.T) {
+	dir := t.TempDir()
+	pipe := filepath.Join(dir, "labels.json")
+	if err := syscall.Mkfifo(pipe, 0o644); err != nil {
+		t.Skipf("no named pipes here: %v", err)
+	}
+	for path, kind := range map[string]string{pipe: "named pipe", "/dev/zero": "device", dir: "folder"} {
+		f, err := OpenFile(path)
+		if err == nil {
+			f.Close()
+			t.Errorf("%s opened", path)
+			continue
+		}
+		if !strings.Contains(err.Error(), path) || !strings.Contains(err.Error(), kind) {
+			t.Errorf("%s: %v, want the path and %q", path, err, kind)
+		}
+	}
+	if _, err := LoadCornerJSON(pipe); err == nil || !strings.Contains(err.Error(), "named pipe") || strings.Count(err.Error(), pipe) != 1 {
+		t.Errorf("LoadCornerJSON on a pipe: %v", err)
+	}
+	plain := filepath.Join(dir, "plain.json")
+	os.WriteFile(plain, []byte("{}"), 0o644)
+	f, err := OpenFile(plain)
+	if err != nil {
+		t.Fatal(err)
+	}
+	f.Close()
+}
