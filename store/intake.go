@@ -13,6 +13,7 @@ import (
 	"sync"
 
 	"boxwright/project"
+	"boxwright/project/formats"
 	"boxwright/store/imagefile"
 )
 
@@ -125,17 +126,10 @@ func (s *Store) intakeOne(ctx context.Context, path string, info imagefile.Info,
 // is not read ("" for a regular file): opening a named pipe would wait
 // forever for a writer, and a device has no end.
 func notAFile(m fs.FileMode) string {
-	switch {
-	case m.IsRegular():
+	if m.IsRegular() {
 		return ""
-	case m&fs.ModeNamedPipe != 0:
-		return "a named pipe, not an image file; skipped without reading it"
-	case m&fs.ModeSocket != 0:
-		return "a socket, not an image file; skipped"
-	case m&fs.ModeDevice != 0 || m&fs.ModeCharDevice != 0:
-		return "a device, not an image file; skipped without reading it"
 	}
-	return "not a regular file; skipped"
+	return formats.Kind(m) + ", not an image file; skipped without reading it"
 }
 
 func collectFiles(paths []string) ([]string, []project.IntakeFailure) {

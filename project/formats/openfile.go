@@ -16,18 +16,25 @@ func OpenFile(path string) (*os.File, error) {
 		return nil, err
 	}
 	if m := st.Mode(); !m.IsRegular() {
-		what := "not a regular file"
-		switch {
-		case m.IsDir():
-			what = "a folder"
-		case m&fs.ModeNamedPipe != 0:
-			what = "a named pipe"
-		case m&(fs.ModeDevice|fs.ModeCharDevice) != 0:
-			what = "a device"
-		case m&fs.ModeSocket != 0:
-			what = "a socket"
-		}
-		return nil, fmt.Errorf("%s is %s, not a file to read: give the file itself", path, what)
+		return nil, fmt.Errorf("%s is %s, not a file to read: give the file itself", path, Kind(m))
 	}
 	return os.Open(path)
+}
+
+// Kind names what a file mode is, for messages about files that are not
+// regular: "a folder", "a named pipe", "a device", "a socket".
+func Kind(m fs.FileMode) string {
+	switch {
+	case m.IsRegular():
+		return "a regular file"
+	case m.IsDir():
+		return "a folder"
+	case m&fs.ModeNamedPipe != 0:
+		return "a named pipe"
+	case m&(fs.ModeDevice|fs.ModeCharDevice) != 0:
+		return "a device"
+	case m&fs.ModeSocket != 0:
+		return "a socket"
+	}
+	return "not a regular file"
 }
