@@ -28,17 +28,7 @@ func needAsm32(t testing.TB) {
 // gemm32Case fills a float32 problem with strides wider than the rows and
 // returns the inputs, a copy of C and the float64 reference result.
 func gemm32Case(r *rand.Rand, ta, tb bool, m, n, k int, alpha, beta float64) (a, b, c []float32, lda, ldb, ldc int, want []float64) {
-	ar, ac := stored(ta, m, k)
-	br, bc := stored(tb, k, n)
-	lda, ldb, ldc = ac+3, bc+1, n+2
-	a = randSlice[float32](r, (ar-1)*lda+ac)
-	b = randSlice[float32](r, (br-1)*ldb+bc)
-	c = randSlice[float32](r, (m-1)*ldc+n)
-	if beta == 0 {
-		for i := range c {
-			c[i] = float32(math.NaN()) // beta 0 must overwrite, not scale
-		}
-	}
+	a, b, c, lda, ldb, ldc = gemmCase[float32](r, ta, tb, m, n, k, beta)
 	widen := func(s []float32) []float64 {
 		d := make([]float64, len(s))
 		for i, v := range s {
@@ -239,4 +229,21 @@ func checkNamedFloat32(t *testing.T, seed uint64) {
 			t.Fatalf("C[%d] = %v, float32 gives %v", i, got[i], want[i])
 		}
 	}
+}
+
+// gemmCase fills a GEMM problem with strides wider than the rows; with beta 0,
+// C starts as NaN, which must be overwritten.
+func gemmCase[T Float](r *rand.Rand, ta, tb bool, m, n, k int, beta float64) (a, b, c []T, lda, ldb, ldc int) {
+	ar, ac := stored(ta, m, k)
+	br, bc := stored(tb, k, n)
+	lda, ldb, ldc = ac+3, bc+1, n+2
+	a = randSlice[T](r, (ar-1)*lda+ac)
+	b = randSlice[T](r, (br-1)*ldb+bc)
+	c = randSlice[T](r, (m-1)*ldc+n)
+	if beta == 0 {
+		for i := range c {
+			c[i] = T(math.NaN())
+		}
+	}
+	return
 }

@@ -3,7 +3,6 @@
 package nn
 
 import (
-	"fmt"
 	"math/rand/v2"
 	"testing"
 )
@@ -68,24 +67,11 @@ func BenchmarkGemmBackends(b *testing.B) {
 // BenchmarkConv2DBackends is BenchmarkConv2D through each backend: the
 // whole forward and backward pass, im2col and col2im included.
 func BenchmarkConv2DBackends(b *testing.B) {
-	for _, c := range []struct{ n, in, out, k, s, p, h int }{
-		{2, 64, 64, 3, 1, 1, 64},
-		{2, 3, 16, 3, 2, 1, 256},
-	} {
+	for _, c := range convBenchCases {
 		for _, path := range []string{"asm", "openblas"} {
-			b.Run(fmt.Sprintf("%dx%dx%dx%d_to_%d_k%d_s%d/%s", c.n, c.in, c.h, c.h, c.out, c.k, c.s, path), func(b *testing.B) {
+			b.Run(c.name()+"/"+path, func(b *testing.B) {
 				setBackend(b, path)
-				r := rand.New(rand.NewPCG(1, 2))
-				l := NewConv2D[float32]("conv", c.in, c.out, c.k, c.s, c.p, true, r)
-				x := New(c.n, c.in, c.h, c.h, rand32(r, c.n*c.in*c.h*c.h, 1, 0))
-				ho, wo := l.OutSize(c.h, c.h)
-				dy := New(c.n, c.out, ho, wo, rand32(r, c.n*c.out*ho*wo, 1, 0))
-				for b.Loop() {
-					l.Forward(x, true)
-					l.Backward(dy)
-				}
-				flop := 3 * 2 * float64(c.n*c.out*ho*wo*c.in*c.k*c.k)
-				b.ReportMetric(flop*float64(b.N)/b.Elapsed().Seconds()/1e9, "GFLOP/s")
+				benchConv(b, c)
 			})
 		}
 	}

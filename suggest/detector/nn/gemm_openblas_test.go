@@ -32,23 +32,6 @@ func needBLAS(t testing.TB) {
 	t.Cleanup(func() { useBLAS = old })
 }
 
-// blasCase fills a problem with strides wider than the rows; with beta 0,
-// C starts as NaN, which must be overwritten.
-func blasCase[T Float](r *rand.Rand, ta, tb bool, m, n, k int, beta float64) (a, b, c []T, lda, ldb, ldc int) {
-	ar, ac := stored(ta, m, k)
-	br, bc := stored(tb, k, n)
-	lda, ldb, ldc = ac+3, bc+1, n+2
-	a = randSlice[T](r, (ar-1)*lda+ac)
-	b = randSlice[T](r, (br-1)*ldb+bc)
-	c = randSlice[T](r, (m-1)*ldc+n)
-	if beta == 0 {
-		for i := range c {
-			c[i] = T(math.NaN())
-		}
-	}
-	return
-}
-
 // runGemm runs Gemm on a copy of c through OpenBLAS or the pure-Go kernel.
 func runGemm[T Float](t *testing.T, viaBLAS bool, ta, tb bool, m, n, k int, alpha, beta T, a []T, lda int, b []T, ldb int, c []T, ldc int) []T {
 	t.Helper()
@@ -79,7 +62,7 @@ func testBLASAgainstGo[T Float](t *testing.T, tol float64) {
 				if m*n*k > 1<<20 && ai != ti%len(gemmAlphaBeta) {
 					continue
 				}
-				a, b, c, lda, ldb, ldc := blasCase[T](r, tr[0], tr[1], m, n, k, ab[1])
+				a, b, c, lda, ldb, ldc := gemmCase[T](r, tr[0], tr[1], m, n, k, ab[1])
 				alpha, beta := T(ab[0]), T(ab[1])
 				got := runGemm(t, true, tr[0], tr[1], m, n, k, alpha, beta, a, lda, b, ldb, c, ldc)
 				want := runGemm(t, false, tr[0], tr[1], m, n, k, alpha, beta, a, lda, b, ldb, c, ldc)
@@ -135,7 +118,7 @@ func TestOpenBLASDeterministic(t *testing.T) {
 	for _, sz := range [][3]int{{131, 67, 515}, {32, 4100, 300}, {257, 2100, 33}} {
 		m, n, k := sz[0], sz[1], sz[2]
 		for _, tr := range gemmTrans {
-			a, b, c, lda, ldb, ldc := blasCase[float32](r, tr[0], tr[1], m, n, k, 0.5)
+			a, b, c, lda, ldb, ldc := gemmCase[float32](r, tr[0], tr[1], m, n, k, 0.5)
 			var first []float32
 			var differ []int
 			for _, th := range []int{1, 2, 3, 7} {
