@@ -11,7 +11,7 @@ DEMO_DIR ?= build/demo
 # OpenBLAS for the detector's optional `-tags openblas` GEMM.
 BUILD_DEBS := gcc pkg-config libgl1-mesa-dev libx11-dev libxcursor-dev libxrandr-dev \
               libxinerama-dev libxi-dev libxxf86vm-dev
-TEST_DEBS := xvfb xauth xdotool imagemagick python3-shapely python3-sklearn python3-statsmodels python3-scipy python3-opencv python3-torch \
+TEST_DEBS := xvfb xauth xdotool imagemagick sqlite3 python3-shapely python3-sklearn python3-statsmodels python3-scipy python3-opencv python3-torch \
              libopenblas-dev
 
 export CGO_ENABLED := 1

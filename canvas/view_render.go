@@ -180,6 +180,10 @@ func (r *viewRenderer) rebuild() {
 		r.caps = append(r.caps, caption{tag: fcanvas.NewRectangle(color.Black), text: fcanvas.NewText("", color.Black)})
 	}
 	r.caps = r.caps[:len(want)]
+	r.captionItems = r.captionItems[:0]
+	for _, c := range want {
+		r.captionItems = append(r.captionItems, c.it)
+	}
 	for i, c := range want {
 		cp := r.caps[i]
 		cp.text.Text = c.it.Caption
@@ -201,10 +205,6 @@ func (r *viewRenderer) rebuild() {
 		r.objs = append(r.objs, h)
 	}
 	r.objs = append(r.objs, r.guideX, r.guideY, r.msg)
-	r.captionItems = r.captionItems[:0]
-	for _, c := range want {
-		r.captionItems = append(r.captionItems, c.it)
-	}
 }
 
 // readableOn picks black or white text for a tag of colour c (relative
@@ -224,6 +224,9 @@ func (r *viewRenderer) Layout(size fyne.Size) {
 	r.msg.Resize(fyne.NewSize(size.Width, r.msg.MinSize().Height))
 	t := v.Transform()
 	for i, c := range r.caps {
+		if i >= len(r.captionItems) {
+			break // a rebuild is under way; it lays out again
+		}
 		it := r.captionItems[i]
 		b := it.Box
 		if db, key, ok := v.draft(); ok && key == it.Key {

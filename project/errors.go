@@ -12,4 +12,12 @@ var (
 	ErrInUse = errors.New("still in use")
 	// ErrInvalid means the caller passed a value that cannot be stored.
 	ErrInvalid = errors.New("invalid")
+	// ErrDamaged means the project file failed its consistency check or
+	// storage met a damaged page; nothing more is written to it.
+	ErrDamaged = errors.New("project file is damaged")
+	// ErrReadOnly means the project is open for reading only.
+	ErrReadOnly = errors.New("read-only")
+	// ErrBusy means another program held the project for writing longer
+	// than a writer waits.
+	ErrBusy = errors.New("project is busy")
 )

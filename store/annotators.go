@@ -39,7 +39,7 @@ func (s *Store) Annotators(ctx context.Context) ([]project.Annotator, error) {
 func (s *Store) Annotator(ctx context.Context, id int64) (project.Annotator, error) {
 	a, err := scanAnnotator(s.db.QueryRowContext(ctx, "SELECT id, name, created_at FROM annotators WHERE id = ?", id))
 	if err != nil {
-		return a, fmt.Errorf("annotator %d: %w", id, translate(err))
+		return a, fmt.Errorf("annotator %d: %w", id, s.translate(err))
 	}
 	return a, nil
 }
@@ -48,7 +48,7 @@ func (s *Store) Annotator(ctx context.Context, id int64) (project.Annotator, err
 func (s *Store) AnnotatorByName(ctx context.Context, name string) (project.Annotator, error) {
 	a, err := scanAnnotator(s.db.QueryRowContext(ctx, "SELECT id, name, created_at FROM annotators WHERE name = ?", name))
 	if err != nil {
-		return a, fmt.Errorf("annotator %q: %w", name, translate(err))
+		return a, fmt.Errorf("annotator %q: %w", name, s.translate(err))
 	}
 	return a, nil
 }
@@ -59,9 +59,9 @@ func (s *Store) AddAnnotator(ctx context.Context, name string) (project.Annotato
 		return project.Annotator{}, fmt.Errorf("add annotator: %v: %w", err, project.ErrInvalid)
 	}
 	a := project.Annotator{Name: name, Created: s.now()}
-	res, err := s.db.ExecContext(ctx, "INSERT INTO annotators(name, created_at) VALUES (?, ?)", name, formatTime(a.Created))
+	res, err := s.exec(ctx, "INSERT INTO annotators(name, created_at) VALUES (?, ?)", name, formatTime(a.Created))
 	if err != nil {
-		return a, fmt.Errorf("add annotator %q: %w", name, translate(err))
+		return a, fmt.Errorf("add annotator %q: %w", name, s.translate(err))
 	}
 	a.ID, _ = res.LastInsertId()
 	return a, nil
@@ -81,9 +81,9 @@ func (s *Store) RenameAnnotator(ctx context.Context, id int64, name string) erro
 	if err := project.ValidateName("annotator", name); err != nil {
 		return fmt.Errorf("rename annotator: %v: %w", err, project.ErrInvalid)
 	}
-	res, err := s.db.ExecContext(ctx, "UPDATE annotators SET name = ? WHERE id = ?", name, id)
+	res, err := s.exec(ctx, "UPDATE annotators SET name = ? WHERE id = ?", name, id)
 	if err != nil {
-		return fmt.Errorf("rename annotator %d to %q: %w", id, name, translate(err))
+		return fmt.Errorf("rename annotator %d to %q: %w", id, name, s.translate(err))
 	}
 	if n, _ := res.RowsAffected(); n == 0 {
 		return fmt.Errorf("rename annotator %d: %w", id, project.ErrNotFound)
@@ -102,7 +102,7 @@ func (s *Store) DeleteAnnotator(ctx context.Context, id int64) error {
 		}
 		res, err := tx.ExecContext(ctx, "DELETE FROM annotators WHERE id = ?", id)
 		if err != nil {
-			return fmt.Errorf("delete annotator %d: %w", id, translate(err))
+			return fmt.Errorf("delete annotator %d: %w", id, s.translate(err))
 		}
 		if k, _ := res.RowsAffected(); k == 0 {
 			return fmt.Errorf("delete annotator %d: %w", id, project.ErrNotFound)

@@ -54,7 +54,7 @@ func (s *Store) Classes(ctx context.Context) ([]project.Class, error) {
 func (s *Store) Class(ctx context.Context, id int64) (project.Class, error) {
 	c, err := scanClass(s.db.QueryRowContext(ctx, "SELECT "+classCols+" FROM classes WHERE id = ?", id))
 	if err != nil {
-		return c, fmt.Errorf("class %d: %w", id, translate(err))
+		return c, fmt.Errorf("class %d: %w", id, s.translate(err))
 	}
 	return c, nil
 }
@@ -63,7 +63,7 @@ func (s *Store) Class(ctx context.Context, id int64) (project.Class, error) {
 func (s *Store) ClassByName(ctx context.Context, name string) (project.Class, error) {
 	c, err := scanClass(s.db.QueryRowContext(ctx, "SELECT "+classCols+" FROM classes WHERE name = ?", name))
 	if err != nil {
-		return c, fmt.Errorf("class %q: %w", name, translate(err))
+		return c, fmt.Errorf("class %q: %w", name, s.translate(err))
 	}
 	return c, nil
 }
@@ -104,7 +104,7 @@ func insertClassTx(ctx context.Context, tx *sql.Tx, c project.Class) (project.Cl
 	res, err := tx.ExecContext(ctx, "INSERT INTO classes(name, color, hot_key, position) VALUES (?, ?, ?, ?)",
 		c.Name, project.FormatColor(c.Color), c.HotKey, pos)
 	if err != nil {
-		return c, translate(err)
+		return c, translateCode(err)
 	}
 	c.ID, err = res.LastInsertId()
 	return c, err
@@ -139,10 +139,10 @@ func (s *Store) UpdateClass(ctx context.Context, c project.Class) error {
 	if err := validHotKey(c.HotKey); err != nil {
 		return fmt.Errorf("update class %q: %w", c.Name, err)
 	}
-	res, err := s.db.ExecContext(ctx, "UPDATE classes SET name = ?, color = ?, hot_key = ? WHERE id = ?",
+	res, err := s.exec(ctx, "UPDATE classes SET name = ?, color = ?, hot_key = ? WHERE id = ?",
 		c.Name, project.FormatColor(c.Color), c.HotKey, c.ID)
 	if err != nil {
-		return fmt.Errorf("update class %q: %w", c.Name, translate(err))
+		return fmt.Errorf("update class %q: %w", c.Name, s.translate(err))
 	}
 	if n, _ := res.RowsAffected(); n == 0 {
 		return fmt.Errorf("update class %d: %w", c.ID, project.ErrNotFound)
@@ -199,7 +199,7 @@ func (s *Store) DeleteClass(ctx context.Context, id int64, opts project.DeleteCl
 				labels, suggestions, project.ErrInUse)
 		}
 		_, err := tx.ExecContext(ctx, "DELETE FROM classes WHERE id = ?", id)
-		return translate(err)
+		return s.translate(err)
 	})
 	if err != nil {
 		return fmt.Errorf("delete class %q: %w", c.Name, err)

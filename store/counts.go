@@ -21,7 +21,7 @@ func (s *Store) Counts(ctx context.Context) (project.Counts, error) {
 	// One read transaction so that the figures agree with each other.
 	tx, done, err := s.readTx(ctx)
 	if err != nil {
-		return c, fmt.Errorf("count: %w", err)
+		return c, s.damaged(fmt.Errorf("count: %w", err))
 	}
 	defer done()
 	grouped := func(q string, put func(key string, n int)) error {
@@ -71,7 +71,7 @@ func (s *Store) Counts(ctx context.Context) (project.Counts, error) {
 	}
 	for _, err := range steps {
 		if err != nil {
-			return c, fmt.Errorf("count: %w", err)
+			return c, s.damaged(fmt.Errorf("count: %w", err))
 		}
 	}
 	return c, nil

@@ -18,7 +18,7 @@ func (s *Store) ApplyLabelChange(ctx context.Context, c project.LabelChange) ([]
 		for _, id := range c.Delete {
 			res, err := tx.ExecContext(ctx, "DELETE FROM labels WHERE id = ?", id)
 			if err != nil {
-				return fmt.Errorf("delete label %d: %w", id, translate(err))
+				return fmt.Errorf("delete label %d: %w", id, s.translate(err))
 			}
 			if n, _ := res.RowsAffected(); n == 0 {
 				return fmt.Errorf("delete label %d: %w", id, project.ErrNotFound)
@@ -32,7 +32,7 @@ func (s *Store) ApplyLabelChange(ctx context.Context, c project.LabelChange) ([]
 			res, err := tx.ExecContext(ctx, "UPDATE labels SET class_id = ?, x0 = ?, y0 = ?, x1 = ?, y1 = ?, updated_at = ? WHERE id = ?",
 				l.ClassID, l.Box.X0, l.Box.Y0, l.Box.X1, l.Box.Y1, now, l.ID)
 			if err != nil {
-				return fmt.Errorf("update label %d: %w", l.ID, translate(err))
+				return fmt.Errorf("update label %d: %w", l.ID, s.translate(err))
 			}
 			if n, _ := res.RowsAffected(); n == 0 {
 				return fmt.Errorf("update label %d: %w", l.ID, project.ErrNotFound)
@@ -48,7 +48,7 @@ func (s *Store) ApplyLabelChange(ctx context.Context, c project.LabelChange) ([]
 			if !started[l.ImageID] {
 				started[l.ImageID] = true
 				if _, err := tx.ExecContext(ctx, "UPDATE images SET status = 'started' WHERE id = ? AND status = 'new'", l.ImageID); err != nil {
-					return fmt.Errorf("mark image %d started: %w", l.ImageID, translate(err))
+					return fmt.Errorf("mark image %d started: %w", l.ImageID, s.translate(err))
 				}
 			}
 		}
@@ -65,7 +65,7 @@ func (s *Store) ApplyLabelChange(ctx context.Context, c project.LabelChange) ([]
 func (s *Store) LabelTallies(ctx context.Context) ([]project.LabelTally, error) {
 	rows, err := s.db.QueryContext(ctx, "SELECT image_id, class_id, annotator_id, count(*) FROM labels GROUP BY image_id, class_id, annotator_id")
 	if err != nil {
-		return nil, fmt.Errorf("count labels: %w", translate(err))
+		return nil, fmt.Errorf("count labels: %w", s.translate(err))
 	}
 	defer rows.Close()
 	var out []project.LabelTally
@@ -83,9 +83,12 @@ func (s *Store) LabelTallies(ctx context.Context) ([]project.LabelTally, error) 
 // one transaction: used for derived annotators such as the consensus,
 // which are recomputed rather than edited.
 func (s *Store) ReplaceAnnotatorLabels(ctx context.Context, annotatorID int64, labels []project.Label) error {
+	if err := s.CheckBeforeBulkWrite(ctx); err != nil {
+		return err
+	}
 	return s.tx(ctx, func(tx *sql.Tx) error {
 		if _, err := tx.ExecContext(ctx, "DELETE FROM labels WHERE annotator_id = ?", annotatorID); err != nil {
-			return fmt.Errorf("clear labels of annotator %d: %w", annotatorID, translate(err))
+			return fmt.Errorf("clear labels of annotator %d: %w", annotatorID, s.translate(err))
 		}
 		ins := newLabelInserter(ctx, tx)
 		defer ins.close()

@@ -40,7 +40,7 @@ func (s *Store) Images(ctx context.Context) ([]project.Image, error) {
 func (s *Store) Image(ctx context.Context, id int64) (project.Image, error) {
 	im, err := scanImage(s.db.QueryRowContext(ctx, "SELECT "+imageCols+" FROM images WHERE id = ?", id))
 	if err != nil {
-		return im, fmt.Errorf("image %d: %w", id, translate(err))
+		return im, fmt.Errorf("image %d: %w", id, s.translate(err))
 	}
 	return im, nil
 }
@@ -49,7 +49,7 @@ func (s *Store) Image(ctx context.Context, id int64) (project.Image, error) {
 func (s *Store) ImageBySHA256(ctx context.Context, sum string) (project.Image, error) {
 	im, err := scanImage(s.db.QueryRowContext(ctx, "SELECT "+imageCols+" FROM images WHERE sha256 = ?", sum))
 	if err != nil {
-		return im, fmt.Errorf("image with SHA-256 %.12s…: %w", sum, translate(err))
+		return im, fmt.Errorf("image with SHA-256 %.12s…: %w", sum, s.translate(err))
 	}
 	return im, nil
 }
@@ -66,10 +66,10 @@ func (s *Store) AddImage(ctx context.Context, im project.Image) (project.Image, 
 		return im, fmt.Errorf("add image %s: status %q, size %dx%d, orientation %d, hash %q: %w",
 			im.Path, im.Status, im.Width, im.Height, im.Orientation, im.SHA256, project.ErrInvalid)
 	}
-	res, err := s.db.ExecContext(ctx, "INSERT INTO images(path, sha256, width, height, orientation, status, added_at) VALUES (?, ?, ?, ?, ?, ?, ?)",
+	res, err := s.exec(ctx, "INSERT INTO images(path, sha256, width, height, orientation, status, added_at) VALUES (?, ?, ?, ?, ?, ?, ?)",
 		im.Path, im.SHA256, im.Width, im.Height, im.Orientation, string(im.Status), formatTime(im.Added))
 	if err != nil {
-		return im, fmt.Errorf("add image %s: %w", im.Path, translate(err))
+		return im, fmt.Errorf("add image %s: %w", im.Path, s.translate(err))
 	}
 	im.ID, _ = res.LastInsertId()
 	return im, nil
@@ -95,9 +95,9 @@ func (s *Store) DeleteImage(ctx context.Context, id int64) error {
 
 // updateOne runs a statement that must touch exactly one row.
 func (s *Store) updateOne(ctx context.Context, what, query string, args ...any) error {
-	res, err := s.db.ExecContext(ctx, query, args...)
+	res, err := s.exec(ctx, query, args...)
 	if err != nil {
-		return fmt.Errorf("%s: %w", what, translate(err))
+		return fmt.Errorf("%s: %w", what, s.translate(err))
 	}
 	if n, _ := res.RowsAffected(); n == 0 {
 		return fmt.Errorf("%s: %w", what, project.ErrNotFound)

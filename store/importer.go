@@ -17,6 +17,9 @@ import (
 // imported; boxes reaching outside their image are clipped and counted
 // (refused when opts.Strict).
 func (s *Store) ImportDataset(ctx context.Context, ds *formats.Dataset, opts project.ImportOptions) (project.ImportReport, error) {
+	if err := s.CheckBeforeBulkWrite(ctx); err != nil {
+		return project.ImportReport{}, err
+	}
 	rep := project.ImportReport{Annotator: opts.Annotator, ClassesCreated: []string{}, Unmatched: []string{}}
 	if err := project.ValidateName("annotator", opts.Annotator); err != nil {
 		return rep, fmt.Errorf("import: %v: %w", err, project.ErrInvalid)
@@ -102,7 +105,7 @@ func ensureAnnotatorTx(ctx context.Context, tx *sql.Tx, name, now string) (int64
 	if errors.Is(err, sql.ErrNoRows) {
 		res, err := tx.ExecContext(ctx, "INSERT INTO annotators(name, created_at) VALUES (?, ?)", name, now)
 		if err != nil {
-			return 0, translate(err)
+			return 0, translateCode(err)
 		}
 		return res.LastInsertId()
 	}
@@ -176,7 +179,7 @@ func (l *labelInserter) flush() error {
 	if err != nil {
 		// Name the batch's first record; the checks before insertion make a
 		// database refusal here rare.
-		return fmt.Errorf("%s (or one of the %d records after it): %w", l.where[0], n-1, translate(err))
+		return fmt.Errorf("%s (or one of the %d records after it): %w", l.where[0], n-1, translateCode(err))
 	}
 	l.args, l.where = l.args[:0], l.where[:0]
 	return nil

@@ -24,6 +24,9 @@ import (
 // skipped, each with its reason in the report; only a cancelled context or a
 // database failure stops the intake, and every image already added stays.
 func (s *Store) AddImages(ctx context.Context, paths []string, opts project.IntakeOptions) (project.IntakeReport, error) {
+	if err := s.CheckBeforeBulkWrite(ctx); err != nil {
+		return project.IntakeReport{}, err
+	}
 	rep := project.IntakeReport{Failed: []project.IntakeFailure{}}
 	if opts.MaxPixels == 0 {
 		opts.MaxPixels = imagefile.DefaultMaxPixels
@@ -249,6 +252,9 @@ func (s *Store) MissingImages(ctx context.Context) ([]project.Image, error) {
 // the SHA-256 of their bytes, and records their new paths. Nothing new is
 // added.
 func (s *Store) Relink(ctx context.Context, dir string, opts project.IntakeOptions) (project.IntakeReport, error) {
+	if err := s.CheckBeforeBulkWrite(ctx); err != nil {
+		return project.IntakeReport{}, err
+	}
 	opts.RelinkOnly = true
 	return s.AddImages(ctx, []string{dir}, opts)
 }

@@ -63,7 +63,7 @@ func (s *Store) Labels(ctx context.Context, f project.LabelFilter) ([]project.La
 func (s *Store) Label(ctx context.Context, id int64) (project.Label, error) {
 	l, err := scanLabel(s.db.QueryRowContext(ctx, "SELECT "+labelCols+" FROM labels WHERE id = ?", id))
 	if err != nil {
-		return l, fmt.Errorf("label %d: %w", id, translate(err))
+		return l, fmt.Errorf("label %d: %w", id, s.translate(err))
 	}
 	return l, nil
 }
@@ -88,6 +88,9 @@ func (s *Store) AddLabel(ctx context.Context, l project.Label) (project.Label, e
 
 // AddLabels stores a batch of labels in one transaction: all or none.
 func (s *Store) AddLabels(ctx context.Context, ls []project.Label) error {
+	if err := s.CheckBeforeBulkWrite(ctx); err != nil {
+		return err
+	}
 	return s.tx(ctx, func(tx *sql.Tx) error {
 		for _, l := range ls {
 			if _, err := s.insertLabel(ctx, tx, l); err != nil {
@@ -121,7 +124,7 @@ func (s *Store) insertLabel(ctx context.Context, tx *sql.Tx, l project.Label) (p
 		l.ImageID, l.ClassID, l.AnnotatorID, l.Box.X0, l.Box.Y0, l.Box.X1, l.Box.Y1, string(l.Origin), l.Source, l.Score, sug,
 		formatTime(l.Created), formatTime(l.Updated))
 	if err != nil {
-		err = translate(err)
+		err = s.translate(err)
 		if strings.Contains(err.Error(), "FOREIGN KEY") {
 			return l, fmt.Errorf("add label: image %d, class %d or annotator %d does not exist: %w", l.ImageID, l.ClassID, l.AnnotatorID, project.ErrNotFound)
 		}
@@ -153,7 +156,7 @@ func (s *Store) DeleteLabel(ctx context.Context, id int64) error {
 func (s *Store) BoxesByImage(ctx context.Context, annotatorIDs []int64) ([]project.ImageBoxes, error) {
 	var lo, hi sql.NullInt64
 	if err := s.db.QueryRowContext(ctx, "SELECT min(id), max(id) FROM labels").Scan(&lo, &hi); err != nil {
-		return nil, fmt.Errorf("read boxes: %w", translate(err))
+		return nil, fmt.Errorf("read boxes: %w", s.translate(err))
 	}
 	if !lo.Valid {
 		return nil, nil
@@ -206,7 +209,7 @@ func (s *Store) boxesIn(ctx context.Context, annotatorIDs []int64, from, to int6
 	}
 	rows, err := s.db.QueryContext(ctx, q, args...)
 	if err != nil {
-		return nil, fmt.Errorf("read boxes: %w", translate(err))
+		return nil, fmt.Errorf("read boxes: %w", s.translate(err))
 	}
 	defer rows.Close()
 	var out []project.ImageBoxes

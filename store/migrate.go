@@ -53,8 +53,13 @@ func (s *Store) SchemaVersion(ctx context.Context) (int, error) {
 }
 
 // migrate applies every migration the file lacks, each in its own
-// transaction together with the record that it was applied.
-func (s *Store) migrate(ctx context.Context) error {
+// transaction together with the record that it was applied. A file that
+// is up to date is not written at all, so that opening it changes neither
+// its bytes nor its time stamp and waits for no other writer.
+func (s *Store) migrate(ctx context.Context, l look) error {
+	if l.marked && l.version == latestVersion() {
+		return nil
+	}
 	err := s.tx(ctx, func(tx *sql.Tx) error {
 		_, err := tx.ExecContext(ctx, `CREATE TABLE IF NOT EXISTS schema_migrations (
 			version INTEGER PRIMARY KEY, name TEXT NOT NULL, applied_at TEXT NOT NULL)`)

@@ -69,7 +69,7 @@ func scanModel(row interface{ Scan(...any) error }, extra ...any) (project.Model
 	var current int
 	dst := append([]any{&m.ID, &m.Name, &m.Architecture, &classes, &m.InputSize, &m.TrainedOn, &seed, &epochs, &ap, &current, &created, &updated}, extra...)
 	if err := row.Scan(dst...); err != nil {
-		return m, translate(err)
+		return m, translateCode(err)
 	}
 	m.Seed, m.Current = uint64(seed), current == 1
 	m.Created, m.Updated = parseTime(created), parseTime(updated)
@@ -161,7 +161,7 @@ func (s *Store) AddModel(ctx context.Context, m project.Model) (project.Model, e
 			m.Name, m.Architecture, string(classes), m.InputSize, m.TrainedOn, int64(m.Seed), epochs, nullAP(m.ValAP50),
 			m.Weights, weightsSum(m.Weights), boolInt(m.Current), formatTime(now), formatTime(now))
 		if err != nil {
-			return translate(err)
+			return s.translate(err)
 		}
 		m.ID, _ = res.LastInsertId()
 		return nil
@@ -195,7 +195,7 @@ func (s *Store) UpdateModel(ctx context.Context, m project.Model) error {
 func (s *Store) Models(ctx context.Context) ([]project.Model, error) {
 	rows, err := s.db.QueryContext(ctx, "SELECT "+modelCols+" FROM models ORDER BY id")
 	if err != nil {
-		return nil, fmt.Errorf("list models: %w", translate(err))
+		return nil, fmt.Errorf("list models: %w", s.translate(err))
 	}
 	defer rows.Close()
 	var out []project.Model
@@ -245,13 +245,13 @@ func (s *Store) SetCurrentModel(ctx context.Context, name string) error {
 	return s.tx(ctx, func(tx *sql.Tx) error {
 		var id int64
 		if err := tx.QueryRowContext(ctx, "SELECT id FROM models WHERE name = ?", name).Scan(&id); err != nil {
-			return fmt.Errorf("make model %q current: %w", name, translate(err))
+			return fmt.Errorf("make model %q current: %w", name, s.translate(err))
 		}
 		if _, err := tx.ExecContext(ctx, "UPDATE models SET is_current = 0 WHERE is_current = 1"); err != nil {
 			return err
 		}
 		_, err := tx.ExecContext(ctx, "UPDATE models SET is_current = 1 WHERE id = ?", id)
-		return translate(err)
+		return s.translate(err)
 	})
 }
 

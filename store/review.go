@@ -72,6 +72,9 @@ func (s *Store) ReplaceSuggestionsOn(ctx context.Context, source string, imageID
 // importSuggestions replaces the source's pending suggestions everywhere
 // (onImages nil) or on the given images.
 func (s *Store) importSuggestions(ctx context.Context, source string, onImages []int64, gs []project.Suggestion) (project.SuggestionImportReport, error) {
+	if err := s.CheckBeforeBulkWrite(ctx); err != nil {
+		return project.SuggestionImportReport{}, err
+	}
 	rep := project.SuggestionImportReport{Source: source}
 	fail := func(err error) (project.SuggestionImportReport, error) {
 		return project.SuggestionImportReport{Source: source}, fmt.Errorf("import suggestions of %q (nothing was stored): %w", source, err)
@@ -84,11 +87,11 @@ func (s *Store) importSuggestions(ctx context.Context, source string, onImages [
 		// whose refusal of a multi-row INSERT cannot say which row was bad.
 		images, err := idSet(ctx, tx, "SELECT id FROM images")
 		if err != nil {
-			return fmt.Errorf("reading images: %w", translate(err))
+			return fmt.Errorf("reading images: %w", s.translate(err))
 		}
 		classes, err := idSet(ctx, tx, "SELECT id FROM classes")
 		if err != nil {
-			return fmt.Errorf("reading classes: %w", translate(err))
+			return fmt.Errorf("reading classes: %w", s.translate(err))
 		}
 		for i, g := range gs {
 			if err := checkImportedSuggestion(g, source, images, classes); err != nil {
@@ -102,12 +105,12 @@ func (s *Store) importSuggestions(ctx context.Context, source string, onImages [
 		if onImages == nil {
 			res, err := tx.ExecContext(ctx, "DELETE FROM suggestions WHERE source = ? AND state = ?", source, string(project.SuggestionPending))
 			if err != nil {
-				return fmt.Errorf("deleting pending suggestions: %w", translate(err))
+				return fmt.Errorf("deleting pending suggestions: %w", s.translate(err))
 			}
 			n, _ := res.RowsAffected()
 			rep.ReplacedPending = int(n)
 			if err := tx.QueryRowContext(ctx, "SELECT count(*) FROM suggestions WHERE source = ?", source).Scan(&rep.KeptReviewed); err != nil {
-				return fmt.Errorf("counting reviewed suggestions: %w", translate(err))
+				return fmt.Errorf("counting reviewed suggestions: %w", s.translate(err))
 			}
 		}
 		for start := 0; onImages != nil && start < len(onImages); start += 500 {
@@ -119,13 +122,13 @@ func (s *Store) importSuggestions(ctx context.Context, source string, onImages [
 			}
 			res, err := tx.ExecContext(ctx, "DELETE FROM suggestions WHERE source = ? AND state = ? AND image_id IN "+in, args...)
 			if err != nil {
-				return fmt.Errorf("deleting pending suggestions: %w", translate(err))
+				return fmt.Errorf("deleting pending suggestions: %w", s.translate(err))
 			}
 			n, _ := res.RowsAffected()
 			rep.ReplacedPending += int(n)
 			var kept int
 			if err := tx.QueryRowContext(ctx, "SELECT count(*) FROM suggestions WHERE source = ? AND image_id IN "+in, append([]any{source}, args[2:]...)...).Scan(&kept); err != nil {
-				return fmt.Errorf("counting reviewed suggestions: %w", translate(err))
+				return fmt.Errorf("counting reviewed suggestions: %w", s.translate(err))
 			}
 			rep.KeptReviewed += kept
 		}
@@ -158,12 +161,12 @@ func (s *Store) importSuggestions(ctx context.Context, source string, onImages [
 				_, err = tx.ExecContext(ctx, suggestionInsertSQL(end-start), args...)
 			}
 			if err != nil {
-				return fmt.Errorf("suggestions %d to %d: %w", start, end-1, translate(err))
+				return fmt.Errorf("suggestions %d to %d: %w", start, end-1, s.translate(err))
 			}
 		}
 		if rebuild != "" {
 			if _, err := tx.ExecContext(ctx, rebuild); err != nil {
-				return fmt.Errorf("rebuilding the review index: %w", translate(err))
+				return fmt.Errorf("rebuilding the review index: %w", s.translate(err))
 			}
 		}
 		rep.Added = len(gs)
@@ -188,7 +191,7 @@ func dropReviewIndexForBulk(ctx context.Context, tx *sql.Tx, source string, addi
 	err := tx.QueryRowContext(ctx, "SELECT count(*), count(*) FILTER (WHERE source = ? AND state = ?) FROM suggestions",
 		source, string(project.SuggestionPending)).Scan(&total, &pending)
 	if err != nil {
-		return "", fmt.Errorf("counting suggestions: %w", translate(err))
+		return "", fmt.Errorf("counting suggestions: %w", translateCode(err))
 	}
 	if adding+pending <= total-pending || adding < 10000 {
 		return "", nil
@@ -201,10 +204,10 @@ func dropReviewIndexForBulk(ctx context.Context, tx *sql.Tx, source string, addi
 		return "", nil
 	}
 	if err != nil {
-		return "", fmt.Errorf("reading the review index: %w", translate(err))
+		return "", fmt.Errorf("reading the review index: %w", translateCode(err))
 	}
 	if _, err := tx.ExecContext(ctx, "DROP INDEX "+reviewIndex); err != nil {
-		return "", fmt.Errorf("dropping the review index: %w", translate(err))
+		return "", fmt.Errorf("dropping the review index: %w", translateCode(err))
 	}
 	return def.String, nil
 }
@@ -284,7 +287,7 @@ func (s *Store) CountSuggestions(ctx context.Context, q project.SuggestionQuery)
 	}
 	var n int
 	if err := s.db.QueryRowContext(ctx, "SELECT count(*) FROM suggestions"+where, args...).Scan(&n); err != nil {
-		return 0, fmt.Errorf("count suggestions: %w", translate(err))
+		return 0, fmt.Errorf("count suggestions: %w", s.translate(err))
 	}
 	return n, nil
 }
@@ -302,7 +305,7 @@ func (s *Store) QuerySuggestions(ctx context.Context, q project.SuggestionQuery)
 	}
 	rows, err := s.db.QueryContext(ctx, query, args...)
 	if err != nil {
-		return nil, fmt.Errorf("query suggestions: %w", translate(err))
+		return nil, fmt.Errorf("query suggestions: %w", s.translate(err))
 	}
 	defer rows.Close()
 	var out []project.Suggestion
@@ -314,7 +317,7 @@ func (s *Store) QuerySuggestions(ctx context.Context, q project.SuggestionQuery)
 		out = append(out, g)
 	}
 	if err := rows.Err(); err != nil {
-		return nil, fmt.Errorf("query suggestions: %w", translate(err))
+		return nil, fmt.Errorf("query suggestions: %w", s.translate(err))
 	}
 	return out, nil
 }
@@ -332,7 +335,7 @@ func (s *Store) Decide(ctx context.Context, reviewerID int64, ds []project.Decis
 	err := s.tx(ctx, func(tx *sql.Tx) error {
 		var exists int
 		if err := tx.QueryRowContext(ctx, "SELECT count(*) FROM annotators WHERE id = ?", reviewerID).Scan(&exists); err != nil {
-			return translate(err)
+			return s.translate(err)
 		}
 		if exists == 0 {
 			return fmt.Errorf("reviewer %d: %w", reviewerID, project.ErrNotFound)
@@ -359,14 +362,14 @@ func (s *Store) Decide(ctx context.Context, reviewerID int64, ds []project.Decis
 			}
 			g, err := scanSuggestion(read.QueryRowContext(ctx, d.SuggestionID))
 			if err != nil {
-				return fmt.Errorf("suggestion %d: %w", d.SuggestionID, translate(err))
+				return fmt.Errorf("suggestion %d: %w", d.SuggestionID, s.translate(err))
 			}
 			if g.State != project.SuggestionPending {
 				return fmt.Errorf("suggestion %d is no longer pending (it was %s): %w", g.ID, g.State, project.ErrInvalid)
 			}
 			if !d.Accept {
 				if _, err := mark.ExecContext(ctx, string(project.SuggestionRejected), reviewerID, now, nil, 0.0, g.ID); err != nil {
-					return fmt.Errorf("reject suggestion %d: %w", g.ID, translate(err))
+					return fmt.Errorf("reject suggestion %d: %w", g.ID, s.translate(err))
 				}
 				continue
 			}
@@ -377,7 +380,7 @@ func (s *Store) Decide(ctx context.Context, reviewerID int64, ds []project.Decis
 			res, err := addLabel.ExecContext(ctx, g.ImageID, class, reviewerID, box.X0, box.Y0, box.X1, box.Y1,
 				string(origin), g.Source, g.Score, g.ID, now, now)
 			if err != nil {
-				err = translate(err)
+				err = s.translate(err)
 				if errors.Is(err, project.ErrInUse) { // a foreign key: the only one that can be wrong is the class
 					err = fmt.Errorf("class %d: %w", class, project.ErrNotFound)
 				}
@@ -385,7 +388,7 @@ func (s *Store) Decide(ctx context.Context, reviewerID int64, ds []project.Decis
 			}
 			labelID, _ := res.LastInsertId()
 			if _, err := mark.ExecContext(ctx, string(state), reviewerID, now, labelID, g.Box.IoU(box), g.ID); err != nil {
-				return fmt.Errorf("accept suggestion %d: %w", g.ID, translate(err))
+				return fmt.Errorf("accept suggestion %d: %w", g.ID, s.translate(err))
 			}
 			made[g.ID] = labelID
 		}
@@ -427,18 +430,18 @@ func (s *Store) Undecide(ctx context.Context, suggestionIDs []int64) error {
 			var state string
 			var label sql.NullInt64
 			if err := read.QueryRowContext(ctx, id).Scan(&state, &label); err != nil {
-				return fmt.Errorf("suggestion %d: %w", id, translate(err))
+				return fmt.Errorf("suggestion %d: %w", id, s.translate(err))
 			}
 			if project.SuggestionState(state) == project.SuggestionPending {
 				return fmt.Errorf("suggestion %d is pending, there is no decision to undo: %w", id, project.ErrInvalid)
 			}
 			if label.Valid {
 				if _, err := drop.ExecContext(ctx, label.Int64); err != nil {
-					return fmt.Errorf("delete label %d of suggestion %d: %w", label.Int64, id, translate(err))
+					return fmt.Errorf("delete label %d of suggestion %d: %w", label.Int64, id, s.translate(err))
 				}
 			}
 			if _, err := reset.ExecContext(ctx, string(project.SuggestionPending), id); err != nil {
-				return fmt.Errorf("suggestion %d: %w", id, translate(err))
+				return fmt.Errorf("suggestion %d: %w", id, s.translate(err))
 			}
 		}
 		return nil
@@ -458,7 +461,7 @@ func (s *Store) ReviewRows(ctx context.Context, source string) ([]project.Review
 	}
 	rows, err := s.db.QueryContext(ctx, q+" ORDER BY id", args...)
 	if err != nil {
-		return nil, fmt.Errorf("read review decisions: %w", translate(err))
+		return nil, fmt.Errorf("read review decisions: %w", s.translate(err))
 	}
 	defer rows.Close()
 	var out []project.ReviewRow
@@ -472,7 +475,7 @@ func (s *Store) ReviewRows(ctx context.Context, source string) ([]project.Review
 		out = append(out, r)
 	}
 	if err := rows.Err(); err != nil {
-		return nil, fmt.Errorf("read review decisions: %w", translate(err))
+		return nil, fmt.Errorf("read review decisions: %w", s.translate(err))
 	}
 	return out, nil
 }
@@ -481,7 +484,7 @@ func (s *Store) ReviewRows(ctx context.Context, source string) ([]project.Review
 func (s *Store) SuggestionSources(ctx context.Context) ([]string, error) {
 	rows, err := s.db.QueryContext(ctx, "SELECT DISTINCT source FROM suggestions ORDER BY source")
 	if err != nil {
-		return nil, fmt.Errorf("list suggestion sources: %w", translate(err))
+		return nil, fmt.Errorf("list suggestion sources: %w", s.translate(err))
 	}
 	defer rows.Close()
 	var out []string

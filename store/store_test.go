@@ -53,8 +53,8 @@ func TestCreateReopenPragmas(t *testing.T) {
 	s.db.QueryRow("PRAGMA foreign_keys").Scan(&fk)
 	s.db.QueryRow("PRAGMA busy_timeout").Scan(&busy)
 	s.db.QueryRow("PRAGMA synchronous").Scan(&sync)
-	if mode != "wal" || fk != 1 || busy != 5000 || sync != 1 {
-		t.Errorf("pragmas: journal_mode=%s foreign_keys=%d busy_timeout=%d synchronous=%d; want wal 1 5000 1(NORMAL)", mode, fk, busy, sync)
+	if mode != "wal" || fk != 1 || busy != int(busyTimeout.Milliseconds()) || sync != 1 {
+		t.Errorf("pragmas: journal_mode=%s foreign_keys=%d busy_timeout=%d synchronous=%d; want wal 1 %d 1(NORMAL)", mode, fk, busy, sync, busyTimeout.Milliseconds())
 	}
 	s.Close()
 

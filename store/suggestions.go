@@ -62,13 +62,16 @@ func (s *Store) Suggestions(ctx context.Context, f project.SuggestionFilter) ([]
 func (s *Store) Suggestion(ctx context.Context, id int64) (project.Suggestion, error) {
 	g, err := scanSuggestion(s.db.QueryRowContext(ctx, "SELECT "+suggestionCols+" FROM suggestions WHERE id = ?", id))
 	if err != nil {
-		return g, fmt.Errorf("suggestion %d: %w", id, translate(err))
+		return g, fmt.Errorf("suggestion %d: %w", id, s.translate(err))
 	}
 	return g, nil
 }
 
 // AddSuggestions stores new pending suggestions in one transaction.
 func (s *Store) AddSuggestions(ctx context.Context, gs []project.Suggestion) ([]int64, error) {
+	if err := s.CheckBeforeBulkWrite(ctx); err != nil {
+		return nil, err
+	}
 	ids := make([]int64, 0, len(gs))
 	err := s.tx(ctx, func(tx *sql.Tx) error {
 		stmt, err := tx.PrepareContext(ctx, "INSERT INTO suggestions(image_id, class_id, x0, y0, x1, y1, score, source, state, created_at) VALUES (?,?,?,?,?,?,?,?,?,?)")
@@ -87,7 +90,7 @@ func (s *Store) AddSuggestions(ctx context.Context, gs []project.Suggestion) ([]
 			res, err := stmt.ExecContext(ctx, g.ImageID, g.ClassID, g.Box.X0, g.Box.Y0, g.Box.X1, g.Box.Y1, g.Score, g.Source,
 				string(project.SuggestionPending), now)
 			if err != nil {
-				return fmt.Errorf("suggestion %d (image %d, class %d): %w", i, g.ImageID, g.ClassID, translate(err))
+				return fmt.Errorf("suggestion %d (image %d, class %d): %w", i, g.ImageID, g.ClassID, s.translate(err))
 			}
 			id, _ := res.LastInsertId()
 			ids = append(ids, id)

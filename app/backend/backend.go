@@ -5,6 +5,7 @@ package backend
 
 import (
 	"context"
+	"errors"
 
 	"boxwright/project"
 	"boxwright/project/formats"
@@ -24,6 +25,15 @@ type Project interface {
 	// ExportImages gathers one annotator's labels for export, with the
 	// project's class names in display order.
 	ExportImages(ctx context.Context, annotatorID int64) ([]string, []formats.ExportImage, error)
+	// ReadOnly says whether the project was opened for reading only.
+	ReadOnly() bool
+	// Damage says what the check on open found wrong ("" if nothing).
+	Damage() string
+	// Check runs the storage's full consistency check and returns what
+	// it found (nothing when sound).
+	Check(ctx context.Context) ([]string, error)
+	// SetWaitNotice routes "waiting for another writer" messages.
+	SetWaitNotice(func(string))
 }
 
 var _ Project = (*store.Store)(nil)
@@ -37,6 +47,24 @@ func Open(path string) (Project, error) {
 	return s, nil
 }
 
+// OpenForReading opens an existing project for commands and screens that
+// only read: nothing is written, so read-only files and folders work and
+// the file is left as it was. A damaged project opens (Damage says what
+// is wrong). A project of an older schema is brought up to date first
+// when it can be written.
+func OpenForReading(path string) (Project, error) {
+	s, err := store.OpenReadOnly(path)
+	if errors.Is(err, store.ErrOlderSchema) {
+		if s, err := store.Open(path); err == nil {
+			return s, nil
+		}
+	}
+	if err != nil {
+		return nil, err
+	}
+	return s, nil
+}
+
 // Create makes a new, empty project; it never overwrites anything.
 func Create(path string) (Project, error) {
 	s, err := store.Create(path)
@@ -44,4 +72,14 @@ func Create(path string) (Project, error) {
 		return nil, err
 	}
 	return s, nil
+}
+
+// Damaged is the error for a damaged project file: it names the file and
+// says how to recover the data.
+func Damaged(path, detail string) error { return &store.DamagedError{Path: path, Detail: detail} }
+
+// Recover copies every row still readable from the damaged project at src
+// into a new project at dst, and says per table what was lost.
+func Recover(ctx context.Context, src, dst string) ([]store.TableRecovery, error) {
+	return store.Recover(ctx, src, dst)
 }

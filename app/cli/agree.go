@@ -44,7 +44,7 @@ func cmdAgree(args []string, stdout, stderr io.Writer) error {
 	if *asJSON && *asCSV {
 		return usageError("choose --json or --csv, not both")
 	}
-	st, ctx, done, err := openCLI(pos[0])
+	st, ctx, done, err := openReading(pos[0])
 	if err != nil {
 		return err
 	}

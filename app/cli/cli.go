@@ -44,6 +44,8 @@ func commands(window Window) map[string]command {
 		"classes":     cmdClasses,
 		"info":        cmdInfo,
 		"images":      cmdImages,
+		"check":       cmdCheck,
+		"recover":     cmdRecover,
 		"import":      cmdImport,
 		"export":      cmdExport,
 		"suggestions": cmdSuggestions,
@@ -90,10 +92,30 @@ func interruptible() (context.Context, context.CancelFunc) {
 // openCLI opens the project named on the command line with a context that
 // Ctrl-C cancels; done closes both.
 func openCLI(path string) (backend.Project, context.Context, func(), error) {
-	s, err := backend.Open(path)
+	return opened(backend.Open(path))
+}
+
+// openReading is openCLI for commands that only read: the project is
+// opened read-only, so it works on read-only files and leaves the file as
+// it was. A damaged project opens with a warning, so that what is still
+// readable can be looked at and exported.
+func openReading(path string) (backend.Project, context.Context, func(), error) {
+	s, ctx, done, err := opened(backend.OpenForReading(path))
+	if err == nil && s.Damage() != "" {
+		fmt.Fprintf(noticeOut, "boxwright: warning: %s is damaged (%s); showing what can still be read, `boxwright check` says more\n", path, s.Damage())
+	}
+	return s, ctx, done, err
+}
+
+// noticeOut receives messages that are not a command's output, such as a
+// writer waiting for another program.
+var noticeOut io.Writer = os.Stderr
+
+func opened(s backend.Project, err error) (backend.Project, context.Context, func(), error) {
 	if err != nil {
 		return nil, nil, nil, err
 	}
+	s.SetWaitNotice(func(m string) { fmt.Fprintln(noticeOut, "boxwright: "+m) })
 	ctx, stop := interruptible()
 	return s, ctx, func() { stop(); s.Close() }, nil
 }

@@ -118,7 +118,7 @@ func cmdExport(args []string, stdout, stderr io.Writer) error {
 	if err != nil {
 		return usageError("--split: " + err.Error())
 	}
-	s, ctx, done, err := openCLI(pos[0])
+	s, ctx, done, err := openReading(pos[0])
 	if err != nil {
 		return err
 	}

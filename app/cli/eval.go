@@ -35,7 +35,7 @@ func cmdEval(args []string, stdout, stderr io.Writer) error {
 	if err != nil {
 		return usageError(err.Error())
 	}
-	st, ctx, done, err := openCLI(pos[0])
+	st, ctx, done, err := openReading(pos[0])
 	if err != nil {
 		return err
 	}

@@ -46,7 +46,11 @@ func cmdModels(args []string, stdout, stderr io.Writer) error {
 	if err != nil {
 		return err
 	}
-	s, ctx, done, err := openCLI(pos[0])
+	open := openReading
+	if *use != "" {
+		open = openCLI
+	}
+	s, ctx, done, err := open(pos[0])
 	if err != nil {
 		return err
 	}

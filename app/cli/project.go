@@ -10,6 +10,7 @@ import (
 	"text/tabwriter"
 
 	"boxwright/app/backend"
+	"boxwright/app/ops"
 	"boxwright/project"
 	"boxwright/store/imagefile"
 )
@@ -121,7 +122,11 @@ func cmdClasses(args []string, stdout, stderr io.Writer) error {
 	if err != nil {
 		return err
 	}
-	s, ctx, done, err := openCLI(pos[0])
+	open := openCLI
+	if pos[1] == "list" {
+		open = openReading
+	}
+	s, ctx, done, err := open(pos[0])
 	if err != nil {
 		return err
 	}
@@ -253,7 +258,7 @@ func cmdInfo(args []string, stdout, stderr io.Writer) error {
 	if err != nil {
 		return err
 	}
-	s, ctx, done, err := openCLI(pos[0])
+	s, ctx, done, err := openReading(pos[0])
 	if err != nil {
 		return err
 	}
@@ -316,7 +321,7 @@ func cmdImages(args []string, stdout, stderr io.Writer) error {
 	if err != nil {
 		return err
 	}
-	s, ctx, done, err := openCLI(pos[0])
+	s, ctx, done, err := openReading(pos[0])
 	if err != nil {
 		return err
 	}
@@ -338,4 +343,69 @@ func cmdImages(args []string, stdout, stderr io.Writer) error {
 		fmt.Fprintf(tw, "%d\t%s\t%dx%d\t%d\t%.12s\t%s\n", r.ID, r.Status, r.Width, r.Height, r.Orientation, r.SHA256, r.Path)
 	}
 	return tw.Flush()
+}
+
+// cmdCheck runs the storage's full consistency check: the file's every
+// page and index, and every reference between rows. It only reads.
+func cmdCheck(args []string, stdout, stderr io.Writer) error {
+	fs := flag.NewFlagSet("check", flag.ContinueOnError)
+	pos, err := parse(fs, args, 1, 1, "check PROJECT.boxw")
+	if err != nil {
+		return err
+	}
+	s, ctx, done, err := opened(backend.OpenForReading(pos[0]))
+	if err != nil {
+		return err
+	}
+	defer done()
+	found, err := s.Check(ctx)
+	if err != nil {
+		return err
+	}
+	if len(found) == 0 && s.Damage() == "" {
+		fmt.Fprintf(stdout, "%s: sound (every page, index and reference checked)\n", pos[0])
+		return nil
+	}
+	if s.Damage() != "" && len(found) == 0 {
+		found = []string{s.Damage()}
+	}
+	for _, f := range found {
+		fmt.Fprintf(stdout, "%s: %s\n", pos[0], f)
+	}
+	return backend.Damaged(pos[0], fmt.Sprintf("the check found %s", ops.Plural(len(found), "problem")))
+}
+
+// cmdRecover copies what can still be read of a damaged project into a
+// new one; the damaged file is only read.
+func cmdRecover(args []string, stdout, stderr io.Writer) error {
+	fs := flag.NewFlagSet("recover", flag.ContinueOnError)
+	pos, err := parse(fs, args, 2, 2, "recover DAMAGED.boxw NEW.boxw")
+	if err != nil {
+		return err
+	}
+	ctx, stop := interruptible()
+	defer stop()
+	report, err := backend.Recover(ctx, pos[0], pos[1])
+	if err != nil {
+		return err
+	}
+	lost := false
+	for _, t := range report {
+		line := fmt.Sprintf("%-12s %s copied", t.Table, ops.Plural(t.Copied, "row"))
+		if len(t.Unreadable) > 0 {
+			lost = true
+			line += "; unreadable ids " + strings.Join(t.Unreadable, ", ")
+		}
+		if t.Dropped > 0 {
+			lost = true
+			line += fmt.Sprintf("; %d left out (they referred to lost rows or repeated a unique value)", t.Dropped)
+		}
+		fmt.Fprintln(stdout, line)
+	}
+	if lost {
+		fmt.Fprintf(stdout, "%s holds everything that could be read; what is listed above was lost\n", pos[1])
+	} else {
+		fmt.Fprintf(stdout, "%s holds every row of %s\n", pos[1], pos[0])
+	}
+	return nil
 }

@@ -82,7 +82,7 @@ func cmdSuggestionsStats(args []string, stdout io.Writer, synopsis string) error
 	if err != nil {
 		return err
 	}
-	st, ctx, done, err := openCLI(pos[0])
+	st, ctx, done, err := openReading(pos[0])
 	if err != nil {
 		return err
 	}

@@ -19,6 +19,8 @@ Commands:
   classes PROJECT.boxw delete NAME      only when it has no labels
   info PROJECT.boxw [--json]            counts of images, labels, suggestions
   images PROJECT.boxw [--json]          one line per image
+  check PROJECT.boxw                    full consistency check of the file
+  recover DAMAGED.boxw NEW.boxw         copy what can still be read into a new project
   import PROJECT.boxw --layout json|xml|txt [--annotator NAME] PATH
         [--images DIR] [--classes FILE] [--map FROM=TO]... [--create-classes]
         [--strict] [--json]

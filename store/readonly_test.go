@@ -1,0 +1,135 @@
+package store
+
+import (
+	"bytes"
+	"errors"
+	"os"
+	"os/exec"
+	"path/filepath"
+	"strings"
+	"syscall"
+	"testing"
+	"time"
+
+	"boxwright/project"
+)
+
+// fileState is what a read must not change: the bytes, the time stamp,
+// and the absence of -wal and -shm files.
+func fileState(t *testing.T, path string) string {
+	t.Helper()
+	b, err := os.ReadFile(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	st, _ := os.Stat(path)
+	_, wal := os.Stat(path + "-wal")
+	_, shm := os.Stat(path + "-shm")
+	return string(b) + st.ModTime().String() + (func() string {
+		if wal == nil || shm == nil {
+			return "+sidecar files"
+		}
+		return ""
+	})()
+}
+
+func TestReadingChangesNothing(t *testing.T) {
+	path := projectWithLabels(t, 200)
+	old := time.Now().Add(-time.Hour)
+	os.Chtimes(path, old, old)
+	before := fileState(t, path)
+	for i, open := range []func(string) (*Store, error){OpenReadOnly, Open} {
+		s, err := open(path)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if _, err := s.Counts(bg); err != nil {
+			t.Fatal(err)
+		}
+		if _, err := s.Images(bg); err != nil {
+			t.Fatal(err)
+		}
+		s.Close()
+		if after := fileState(t, path); after != before {
+			t.Fatalf("opening (read-only %v) and reading changed the file, its time stamp or left -wal/-shm files", i == 0)
+		}
+	}
+	s, _ := OpenReadOnly(path)
+	defer s.Close()
+	_, err := s.AddAnnotator(bg, "Omar")
+	if !errors.Is(err, project.ErrReadOnly) || !strings.Contains(err.Error(), "read-only") {
+		t.Errorf("write through a read-only open: %v, want ErrReadOnly", err)
+	}
+}
+
+// TestReadOnlyFolder is the user's case: a project in a folder this user
+// cannot write. As root (who may write anywhere) the test runs itself
+// again as the unprivileged user nobody.
+func TestReadOnlyFolder(t *testing.T) {
+	dir := os.Getenv("BOXWRIGHT_RO_DIR")
+	if dir == "" {
+		dir, err := os.MkdirTemp("", "ro-project")
+		if err != nil {
+			t.Fatal(err)
+		}
+		defer os.RemoveAll(dir)
+		src := projectWithLabels(t, 200)
+		b, _ := os.ReadFile(src)
+		if err := os.WriteFile(filepath.Join(dir, "p"+Extension), b, 0o444); err != nil {
+			t.Fatal(err)
+		}
+		os.Chmod(dir, 0o555)
+		defer os.Chmod(dir, 0o755)
+		if os.Geteuid() != 0 {
+			readOnlyChecks(t, dir)
+			return
+		}
+		// Run this test again as nobody, from a copy of the test binary
+		// that nobody may execute.
+		bin := filepath.Join(dir+"-bin", "store.test")
+		os.MkdirAll(filepath.Dir(bin), 0o755)
+		defer os.RemoveAll(filepath.Dir(bin))
+		self, _ := os.ReadFile(os.Args[0])
+		if err := os.WriteFile(bin, self, 0o755); err != nil {
+			t.Fatal(err)
+		}
+		cmd := exec.Command(bin, "-test.run", "^TestReadOnlyFolder$", "-test.v")
+		cmd.Env = append(os.Environ(), "BOXWRIGHT_RO_DIR="+dir)
+		cmd.Dir = filepath.Dir(bin)
+		cmd.SysProcAttr = &syscall.SysProcAttr{Credential: &syscall.Credential{Uid: 65534, Gid: 65534}}
+		out, err := cmd.CombinedOutput()
+		if err != nil || !bytes.Contains(out, []byte("--- PASS: TestReadOnlyFolder")) {
+			t.Fatalf("as nobody: %v\n%s", err, out)
+		}
+		return
+	}
+	readOnlyChecks(t, dir)
+}
+
+func readOnlyChecks(t *testing.T, dir string) {
+	path := filepath.Join(dir, "p"+Extension)
+	if f, err := os.OpenFile(path, os.O_WRONLY, 0); err == nil {
+		f.Close()
+		t.Fatal("the test file is writable for this user; the test proves nothing")
+	}
+	_, err := Open(path)
+	if err == nil {
+		t.Fatal("Open for writing of a read-only project succeeded")
+	}
+	if !strings.Contains(err.Error(), path) || !strings.Contains(err.Error(), "read-only") {
+		t.Errorf("Open for writing: %v; want the file named and read-only said", err)
+	}
+	s, err := OpenReadOnly(path)
+	if err != nil {
+		t.Fatalf("OpenReadOnly of a read-only project: %v", err)
+	}
+	c, err := s.Counts(bg)
+	if err != nil || c.Labels != 200 {
+		t.Fatalf("counts: %+v %v", c, err)
+	}
+	s.Close()
+	entries, _ := os.ReadDir(dir)
+	if len(entries) != 1 {
+		t.Errorf("the folder holds %d entries after the failed write and the read, want only the project", len(entries))
+	}
+}
