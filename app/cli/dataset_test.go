@@ -4,8 +4,10 @@ import (
 	"context"
 	"encoding/json"
 	"math"
+	"os"
 	"path/filepath"
 	"sort"
+	"strings"
 	"testing"
 
 	"boxwright/app/ops"
@@ -102,5 +104,72 @@ func TestExportImportRoundTrip(t *testing.T) {
 				}
 			}
 		})
+	}
+}
+
+// A failed export (an image file gone) names the image and what to do and
+// leaves nothing; an unfinished export's folder beside the target (from a
+// crash) does not stop the retry, which writes the whole export into the
+// same, empty, folder.
+func TestExportFailureLeavesNothingAndRetryWorks(t *testing.T) {
+	dir := t.TempDir()
+	mustCLI(t, "demo", dir, "--no-open", "--images", "4", "--seed", "5")
+	src := filepath.Join(dir, ops.DemoProjectName)
+	imgs, _ := filepath.Glob(filepath.Join(dir, "images", "*"))
+	if len(imgs) == 0 {
+		t.Fatal("the demo wrote no images")
+	}
+	sort.Strings(imgs)
+	gone := imgs[len(imgs)-1]
+	if err := os.Rename(gone, gone+".away"); err != nil {
+		t.Fatal(err)
+	}
+	work := t.TempDir()
+	out := filepath.Join(work, "out")
+	if err := os.Mkdir(out, 0o755); err != nil {
+		t.Fatal(err)
+	}
+	// What a killed export leaves: no owner file, so it is not ours to remove.
+	stale := filepath.Join(work, ".out.boxwright-partial-123")
+	os.MkdirAll(filepath.Join(stale, "train"), 0o755)
+	os.WriteFile(filepath.Join(stale, "train", "annotations.json"), []byte(`{"images": [`), 0o644)
+	args := []string{"export", src, "--layout", "json", "--annotator", "Tomas", "--out", out, "--images", "copy"}
+	code, _, errs := cli(t, args...)
+	if code != 1 {
+		t.Fatalf("export without an image file: exit %d, %s", code, errs)
+	}
+	for _, part := range []string{filepath.Base(gone), gone, "no such file", "restore", "--images none", "nothing was written"} {
+		if !strings.Contains(errs, part) {
+			t.Errorf("message lacks %q: %s", part, errs)
+		}
+	}
+	if entries, _ := os.ReadDir(out); len(entries) != 0 {
+		t.Errorf("the failed export left %v in %s", entries, out)
+	}
+	if entries, _ := os.ReadDir(work); len(entries) != 2 {
+		t.Errorf("the failed export left %v beside the target", entries)
+	}
+	os.Rename(gone+".away", gone)
+	stdout := mustCLI(t, args...)
+	if !strings.Contains(stdout, "left "+stale+" alone") {
+		t.Errorf("the unfinished folder beside is not named:\n%s", stdout)
+	}
+	var rep struct {
+		Splits []struct{ Images int } `json:"splits"`
+	}
+	b, err := os.ReadFile(filepath.Join(out, "report.json"))
+	if err != nil || json.Unmarshal(b, &rep) != nil {
+		t.Fatalf("report.json: %v %s", err, b)
+	}
+	n := 0
+	for _, s := range rep.Splits {
+		n += s.Images
+	}
+	copied, _ := filepath.Glob(filepath.Join(out, "*", "images", "*"))
+	if n == 0 || len(copied) != n {
+		t.Errorf("report counts %d images, %d copied", n, len(copied))
+	}
+	if _, err := os.Stat(filepath.Join(stale, "train", "annotations.json")); err != nil {
+		t.Errorf("the unfinished folder was touched: %v", err)
 	}
 }

@@ -1,17 +1,17 @@
 package ops
 
 import (
-	"bytes"
 	"errors"
 	"fmt"
 	"image"
 	"image/color"
 	"image/png"
+	"io"
 	"math"
-	"os"
 	"strconv"
 
 	"boxwright/project"
+	"boxwright/project/formats"
 
 	"gonum.org/v1/plot"
 	"gonum.org/v1/plot/palette"
@@ -264,19 +264,20 @@ func PlotImage(p *plot.Plot, w, h int) (image.Image, error) {
 	return c.Image(), nil
 }
 
-// SavePlotPNG writes p to path as a w×h pixel PNG.
-func SavePlotPNG(p *plot.Plot, w, h int, path string) error {
-	img, err := PlotImage(p, w, h)
+// WritePlotPNG writes p to w as a w×h pixel PNG.
+func WritePlotPNG(p *plot.Plot, width, height int, w io.Writer) error {
+	img, err := PlotImage(p, width, height)
 	if err != nil {
-		return fmt.Errorf("save chart %s: %w", path, err)
+		return err
 	}
-	var buf bytes.Buffer
-	if err := png.Encode(&buf, img); err != nil {
-		return fmt.Errorf("save chart %s: %w", path, err)
-	}
-	// Encode before touching the file so an encoding failure leaves none.
-	if err := os.WriteFile(path, buf.Bytes(), 0o644); err != nil {
-		return fmt.Errorf("save chart %s: %w", path, err)
+	return png.Encode(w, img)
+}
+
+// SavePlotPNG writes p to path as a w×h pixel PNG, by way of a temporary
+// file renamed over path when complete: a failure leaves path as it was.
+func SavePlotPNG(p *plot.Plot, w, h int, path string) error {
+	if err := formats.WriteFileAtomic(path, func(out io.Writer) error { return WritePlotPNG(p, w, h, out) }); err != nil {
+		return fmt.Errorf("save chart: %w", err)
 	}
 	return nil
 }

@@ -1,6 +1,7 @@
 package ops
 
 import (
+	"bytes"
 	"image"
 	"image/color"
 	"image/png"
@@ -191,6 +192,22 @@ func TestChartSavePNG(t *testing.T) {
 	}
 	if err := SavePlotPNG(p, 10, 10, filepath.Join(t.TempDir(), "no", "such", "dir.png")); err == nil {
 		t.Error("saving into a missing folder did not fail")
+	}
+	// Saving again replaces the file whole and leaves no temporary file; a
+	// failed save (no plot) leaves the saved chart as it was.
+	before, _ := os.ReadFile(path)
+	if err := SavePlotPNG(p, 64, 32, path); err != nil {
+		t.Fatal(err)
+	}
+	if err := SavePlotPNG(nil, 64, 32, path); err == nil {
+		t.Error("saving no plot did not fail")
+	}
+	after, _ := os.ReadFile(path)
+	if entries, _ := os.ReadDir(filepath.Dir(path)); len(entries) != 1 || bytes.Equal(before, after) {
+		t.Errorf("after saving again: %v in the folder, file changed %v", entries, !bytes.Equal(before, after))
+	}
+	if img, err := png.Decode(bytes.NewReader(after)); err != nil || img.Bounds().Dx() != 64 {
+		t.Errorf("the chart saved again: %v", err)
 	}
 }
 

@@ -142,4 +142,7 @@ func PrintExportReport(w io.Writer, rep formats.ExportReport, classes []string) 
 	if rep.Requested == formats.ImagesLink && rep.Copied > 0 {
 		fmt.Fprintf(w, "%s could not be linked (another file system?) and were copied; %d linked\n", Plural(rep.Copied, "image"), rep.Linked)
 	}
+	for _, n := range rep.Notes {
+		fmt.Fprintf(w, "note: %s\n", n)
+	}
 }

@@ -1,12 +1,10 @@
 package formats
 
 import (
-	"bufio"
 	"context"
 	"encoding/json"
 	"fmt"
 	"io"
-	"os"
 	"path"
 	"path/filepath"
 	"sort"
@@ -39,6 +37,8 @@ type ExportOptions struct {
 	Seed     int64
 	Images   ImageMode
 	Progress func(done, total int)
+
+	fs writeFS // nil: the real file system; tests make it fail
 }
 
 // SplitReport counts one split of an export.
@@ -65,6 +65,9 @@ type ExportReport struct {
 	Splits    []SplitReport `json:"splits"`
 	Copied    int           `json:"copied"`
 	Linked    int           `json:"linked"`
+	// Notes says what the export found beside its folder: unfinished
+	// exports into the same folder that it removed or left alone.
+	Notes []string `json:"notes,omitempty"`
 }
 
 // Export writes the images' boxes in the chosen layout under out, split
@@ -80,6 +83,15 @@ type ExportReport struct {
 //
 // Names are made safe and unique, so nothing is written outside out. The
 // folder must be new or empty, so that no earlier export is mixed in.
+//
+// The export is all-or-nothing: it is assembled in a hidden folder beside
+// out (".OUT.boxwright-partial-DIGITS"), every file flushed to the disk,
+// and renamed to out only when complete. On any failure or cancellation
+// that folder is removed and out is left as it was. Every image to copy
+// or link is opened first, so that a missing one stops the export before
+// anything is written, with a message naming it. A partial folder that a
+// crashed export of this machine left is removed; any other is left alone
+// and named in the report's notes.
 func Export(ctx context.Context, out string, classes []string, imgs []ExportImage, opts ExportOptions) (ExportReport, error) {
 	rep := ExportReport{Layout: opts.Layout, Images: opts.Images, Requested: opts.Images, Ratios: opts.Ratios, Seed: opts.Seed, Classes: classes}
 	switch opts.Layout {
@@ -92,9 +104,32 @@ func Export(ctx context.Context, out string, classes []string, imgs []ExportImag
 	default:
 		return rep, fmt.Errorf("export: unknown image mode %q (use copy, link or none)", opts.Images)
 	}
-	if err := emptyFolder(out); err != nil {
+	target, replaceEmpty, err := checkTarget(out)
+	if err != nil {
 		return rep, err
 	}
+	if opts.Images != ImagesNone {
+		if err := checkImages(imgs); err != nil {
+			return rep, fmt.Errorf("export into %s: nothing was written: %w", out, err)
+		}
+	}
+	fsys := opts.fs
+	if fsys == nil {
+		fsys = osFS{}
+	}
+	st, notes, err := beginStage(fsys, out, target, replaceEmpty)
+	rep.Notes = notes
+	if err != nil {
+		return rep, err
+	}
+	if err := exportInto(ctx, st, classes, imgs, opts, &rep); err != nil {
+		return rep, st.abort(err)
+	}
+	return rep, nil
+}
+
+// exportInto writes the whole export into the stage and commits it.
+func exportInto(ctx context.Context, st *stage, classes []string, imgs []ExportImage, opts ExportOptions, rep *ExportReport) error {
 	items := make([]SplitItem, len(imgs))
 	for i, im := range imgs {
 		items[i].Key = im.Key
@@ -116,13 +151,13 @@ func Export(ctx context.Context, out string, classes []string, imgs []ExportImag
 			sr.Classes[c] = 0
 		}
 		if len(members) > 0 {
-			if err := exportSplit(ctx, out, split, classes, members, opts, &rep, func() {
+			if err := exportSplit(ctx, st, split, classes, members, opts, rep, func() {
 				done++
 				if opts.Progress != nil {
 					opts.Progress(done, total)
 				}
 			}); err != nil {
-				return rep, err
+				return err
 			}
 		}
 		for _, m := range members {
@@ -134,8 +169,8 @@ func Export(ctx context.Context, out string, classes []string, imgs []ExportImag
 		rep.Splits = append(rep.Splits, sr)
 	}
 	if opts.Layout == LayoutText {
-		if err := writeFileInside(out, "classes.txt", func(w io.Writer) error { return WriteClassNames(w, classes) }); err != nil {
-			return rep, err
+		if err := st.writeFile("classes.txt", func(w io.Writer) error { return WriteClassNames(w, classes) }); err != nil {
+			return err
 		}
 	}
 	if opts.Images == ImagesLink && rep.Copied > 0 {
@@ -144,15 +179,17 @@ func Export(ctx context.Context, out string, classes []string, imgs []ExportImag
 			rep.Images = imagesLinkAndCopy
 		}
 	}
-	err := writeFileInside(out, "report.json", func(w io.Writer) error {
+	if err := st.writeFile("report.json", func(w io.Writer) error {
 		enc := json.NewEncoder(w)
 		enc.SetIndent("", "  ")
 		return enc.Encode(rep)
-	})
-	return rep, err
+	}); err != nil {
+		return err
+	}
+	return st.commit(ctx)
 }
 
-func exportSplit(ctx context.Context, out, split string, classes []string, members []ExportImage, opts ExportOptions, rep *ExportReport, tick func()) error {
+func exportSplit(ctx context.Context, st *stage, split string, classes []string, members []ExportImage, opts ExportOptions, rep *ExportReport, tick func()) error {
 	// Output names: safe, and unique by stem so that per-image label
 	// files of a.jpg and a.png cannot collide.
 	stems := make([]string, len(members))
@@ -184,7 +221,7 @@ func exportSplit(ctx context.Context, out, split string, classes []string, membe
 			rec.Name = filepath.ToSlash(abs)
 			list = append(list, rec.Name)
 		default:
-			how, err := placeImage(out, path.Join(split, "images", name), m.File, opts.Images)
+			how, err := st.placeImage(path.Join(split, "images", name), m.Record.Name, m.File, opts.Images)
 			if err != nil {
 				return err
 			}
@@ -202,11 +239,11 @@ func exportSplit(ctx context.Context, out, split string, classes []string, membe
 		case LayoutJSON:
 			ds.Images = append(ds.Images, rec)
 		case LayoutXML:
-			if err := writeFileInside(out, path.Join(split, "annotations", stems[i]+".xml"), func(w io.Writer) error { return WriteImageXML(w, rec) }); err != nil {
+			if err := st.writeFile(path.Join(split, "annotations", stems[i]+".xml"), func(w io.Writer) error { return WriteImageXML(w, rec) }); err != nil {
 				return err
 			}
 		case LayoutText:
-			if err := writeFileInside(out, path.Join(split, "labels", stems[i]+".txt"), func(w io.Writer) error { return WriteCentreText(w, rec, classes) }); err != nil {
+			if err := st.writeFile(path.Join(split, "labels", stems[i]+".txt"), func(w io.Writer) error { return WriteCentreText(w, rec, classes) }); err != nil {
 				return err
 			}
 		}
@@ -214,10 +251,10 @@ func exportSplit(ctx context.Context, out, split string, classes []string, membe
 	}
 	switch opts.Layout {
 	case LayoutJSON:
-		return writeFileInside(out, path.Join(split, "annotations.json"), func(w io.Writer) error { return WriteCornerJSON(w, ds) })
+		return st.writeFile(path.Join(split, "annotations.json"), func(w io.Writer) error { return WriteCornerJSON(w, ds) })
 	case LayoutText:
 		sort.Strings(list)
-		return writeFileInside(out, split+".txt", func(w io.Writer) error {
+		return st.writeFile(split+".txt", func(w io.Writer) error {
 			for _, l := range list {
 				if _, err := fmt.Fprintln(w, l); err != nil {
 					return err
@@ -227,81 +264,4 @@ func exportSplit(ctx context.Context, out, split string, classes []string, membe
 		})
 	}
 	return nil
-}
-
-// emptyFolder makes out if needed and refuses one that holds anything.
-func emptyFolder(out string) error {
-	if err := os.MkdirAll(out, 0o755); err != nil {
-		return fmt.Errorf("export folder %s: %w", out, err)
-	}
-	entries, err := os.ReadDir(out)
-	if err != nil {
-		return fmt.Errorf("export folder %s: %w", out, err)
-	}
-	if len(entries) > 0 {
-		return fmt.Errorf("export folder %s is not empty; choose a new folder so that no earlier export is mixed in", out)
-	}
-	return nil
-}
-
-// writeFileInside writes root/rel (rel with forward slashes), refusing any
-// path that would leave root.
-func writeFileInside(root, rel string, fill func(io.Writer) error) error {
-	p, err := JoinInside(root, rel)
-	if err != nil {
-		return err
-	}
-	if err := os.MkdirAll(filepath.Dir(p), 0o755); err != nil {
-		return fmt.Errorf("export: %w", err)
-	}
-	f, err := os.OpenFile(p, os.O_WRONLY|os.O_CREATE|os.O_EXCL, 0o644)
-	if err != nil {
-		return fmt.Errorf("export: %w", err)
-	}
-	w := bufio.NewWriter(f)
-	if err := fill(w); err != nil {
-		f.Close()
-		return fmt.Errorf("export %s: %w", rel, err)
-	}
-	if err := w.Flush(); err != nil {
-		f.Close()
-		return fmt.Errorf("export %s: %w", rel, err)
-	}
-	if err := f.Close(); err != nil {
-		return fmt.Errorf("export %s: %w", rel, err)
-	}
-	return nil
-}
-
-// placeImage links or copies src to root/rel and says which it did.
-func placeImage(root, rel, src string, mode ImageMode) (ImageMode, error) {
-	dst, err := JoinInside(root, rel)
-	if err != nil {
-		return "", err
-	}
-	if err := os.MkdirAll(filepath.Dir(dst), 0o755); err != nil {
-		return "", fmt.Errorf("export: %w", err)
-	}
-	if mode == ImagesLink {
-		if err := os.Link(src, dst); err == nil {
-			return ImagesLink, nil
-		}
-	}
-	in, err := os.Open(src)
-	if err != nil {
-		return "", fmt.Errorf("export image: %w", err)
-	}
-	defer in.Close()
-	outF, err := os.OpenFile(dst, os.O_WRONLY|os.O_CREATE|os.O_EXCL, 0o644)
-	if err != nil {
-		return "", fmt.Errorf("export image: %w", err)
-	}
-	if _, err := io.Copy(outF, in); err != nil {
-		outF.Close()
-		return "", fmt.Errorf("export image %s: %w", src, err)
-	}
-	if err := outF.Close(); err != nil {
-		return "", fmt.Errorf("export image %s: %w", src, err)
-	}
-	return ImagesCopy, nil
 }
