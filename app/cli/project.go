@@ -22,8 +22,13 @@ func cmdOpen(args []string, stderr io.Writer, window Window) error {
 	if err != nil {
 		return err
 	}
-	// Fail here, with a plain message, rather than in an empty window.
+	// Fail here, with a plain message, rather than in an empty window. A
+	// project that cannot be written (permissions, damage) still opens
+	// for looking, and the window says why editing is off.
 	s, err := backend.Open(pos[0])
+	if errors.Is(err, project.ErrReadOnly) || errors.Is(err, project.ErrDamaged) {
+		s, err = backend.OpenForReading(pos[0])
+	}
 	if err != nil {
 		return err
 	}

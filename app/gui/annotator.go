@@ -53,6 +53,11 @@ func (u *ui) setAnnotator(name string) error {
 		}
 	}
 	a, err := u.st.EnsureAnnotator(context.Background(), name)
+	if err != nil && u.readOnlyWhy != "" {
+		// Looking only: a name new to the project cannot be stored, and
+		// is not needed, since nothing is written.
+		a, err = project.Annotator{Name: name}, nil
+	}
 	if err != nil {
 		return err
 	}

@@ -15,7 +15,9 @@ package gui
 
 import (
 	"context"
+	"errors"
 	"fmt"
+	"image/color"
 	"io"
 	"os"
 	"path/filepath"
@@ -24,6 +26,7 @@ import (
 
 	"fyne.io/fyne/v2"
 	fyneapp "fyne.io/fyne/v2/app"
+	fcanvas "fyne.io/fyne/v2/canvas"
 	"fyne.io/fyne/v2/container"
 	"fyne.io/fyne/v2/dialog"
 	"fyne.io/fyne/v2/layout"
@@ -78,6 +81,10 @@ type ui struct {
 
 	st      backend.Project
 	path    string
+	// readOnlyWhy, when set, says why the project is open for looking
+	// only (a read-only file or folder, a damaged file); editing is off.
+	readOnlyWhy string
+	banner      *fyne.Container
 	images  []project.Image
 	perImg  map[int64]project.ImageCounts
 	classes []project.Class
@@ -297,17 +304,34 @@ func (u *ui) projectScreen() fyne.CanvasObject {
 	split := container.NewHSplit(left, inner)
 	split.Offset = 0.2
 	bottom := container.NewBorder(nil, nil, nil, container.NewHBox(u.saved, u.retry), u.status)
-	return container.NewBorder(nil, bottom, nil, nil, split)
+	var top fyne.CanvasObject
+	if u.readOnlyWhy != "" {
+		msg := widget.NewLabel("Open for looking only — " + u.readOnlyWhy)
+		msg.Wrapping = fyne.TextWrapWord
+		msg.Importance = widget.WarningImportance
+		u.banner = container.NewStack(fcanvas.NewRectangle(withAlpha(theme.Color(theme.ColorNameWarning), 0x40)), msg)
+		top = u.banner
+	}
+	return container.NewBorder(top, bottom, nil, nil, split)
 }
 
 // openProject closes any open project and shows the one at path.
 func (u *ui) openProject(path string) error {
+	why := ""
 	s, err := backend.Open(path)
+	if errors.Is(err, project.ErrReadOnly) || errors.Is(err, project.ErrDamaged) {
+		// Still worth looking at: open it read-only and say why editing
+		// is off.
+		if ro, roErr := backend.OpenForReading(path); roErr == nil {
+			s, why = ro, readOnlyReason(err, ro)
+			err = nil
+		}
+	}
 	if err != nil {
 		return err
 	}
 	u.closeProject()
-	u.st, u.path = s, path
+	u.st, u.path, u.readOnlyWhy = s, path, why
 	u.me, u.sess, u.current = project.Annotator{}, nil, 0
 	if err := u.reload(); err != nil {
 		return err
@@ -450,4 +474,20 @@ func (u *ui) haveProject() bool {
 		dialog.ShowInformation("No project", "Open or create a project first.", u.win)
 	}
 	return u.st != nil
+}
+
+// readOnlyReason says in plain words why a project opened read-only.
+func readOnlyReason(err error, s backend.Project) string {
+	if errors.Is(err, project.ErrDamaged) {
+		return fmt.Sprintf("the project file is damaged (%s), so nothing is written to it. "+
+			"`boxwright recover` copies what can still be read into a new project.", s.Damage())
+	}
+	return "you cannot write to this project file or its folder (permissions or a read-only disk), so editing is off. " +
+		"Copy the project somewhere you can write to, or ask for write permission, to edit it."
+}
+
+func withAlpha(c color.Color, a uint8) color.NRGBA {
+	n := color.NRGBAModel.Convert(c).(color.NRGBA)
+	n.A = a
+	return n
 }

@@ -48,9 +48,13 @@ func (u *ui) wireView() {
 
 // ---- annotator ----
 
-// comparing says (and shows) that the image is open read-only from the
-// agreement report.
+// comparing says (and shows) that the image is open read-only: from the
+// agreement report, or because the whole project is.
 func (u *ui) comparing() bool {
+	if u.readOnlyWhy != "" {
+		u.status.SetText("Editing is off: " + u.readOnlyWhy)
+		return true
+	}
 	if u.compare == nil || u.compare.imageID != u.imageID {
 		return false
 	}

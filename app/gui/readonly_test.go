@@ -1,0 +1,67 @@
+package gui
+
+import (
+	"bytes"
+	"os"
+	"os/exec"
+	"strconv"
+	"strings"
+	"testing"
+
+	"fyne.io/fyne/v2"
+	"fyne.io/fyne/v2/test"
+	"fyne.io/fyne/v2/widget"
+
+	"boxwright/app/internal/testkit"
+	"boxwright/project"
+)
+
+// A damaged project opens for looking, with a banner saying why and
+// editing off; nothing is written to the file.
+func TestDamagedProjectOpensForLookingOnly(t *testing.T) {
+	path := testkit.SmallDemo(t)
+	// Spoil one page of an index, as a failing disk would; the sqlite3
+	// tool (Debian package sqlite3) finds it.
+	out, err := exec.Command("sqlite3", path, "SELECT pageno FROM dbstat WHERE name = 'suggestions_by_label' LIMIT 1").Output()
+	if err != nil {
+		t.Fatal("the sqlite3 tool is needed:", err)
+	}
+	page, err := strconv.ParseInt(strings.TrimSpace(string(out)), 10, 64)
+	if err != nil {
+		t.Fatalf("dbstat: %q", out)
+	}
+	f, _ := os.OpenFile(path, os.O_RDWR, 0)
+	f.WriteAt(bytes.Repeat([]byte{0xde, 0xad}, 2048), 4096*(page-1))
+	f.Close()
+	before, _ := os.ReadFile(path)
+
+	a := test.NewTempApp(t)
+	u := newUI(a)
+	u.annotatorFlag = "Ines"
+	decoded := make(chan error, 10)
+	u.decoded = func(_ int64, err error) { decoded <- err }
+	u.win.Resize(fyne.NewSize(1000, 700))
+	if err := u.openProject(path); err != nil {
+		t.Fatalf("a damaged project should open for looking: %v", err)
+	}
+	waitDecoded(t, decoded)
+	if u.banner == nil {
+		t.Fatal("no banner says the project is open for looking only")
+	}
+	msg := u.banner.Objects[1].(*widget.Label).Text
+	if !strings.Contains(msg, "damaged") || !strings.Contains(msg, "boxwright recover") {
+		t.Errorf("banner %q should say the file is damaged and how to recover", msg)
+	}
+	if n := u.nav.list.Length(); n != 3 {
+		t.Errorf("image list has %d rows, want 3", n)
+	}
+	u.view.OnCreate(project.Box{X0: 10, Y0: 10, X1: 60, Y1: 60})
+	if !strings.Contains(u.status.Text, "Editing is off") {
+		t.Errorf("status after drawing: %q, want that editing is off", u.status.Text)
+	}
+	u.closeProject()
+	after, _ := os.ReadFile(path)
+	if !bytes.Equal(before, after) {
+		t.Error("the damaged file changed")
+	}
+}
