@@ -79,16 +79,16 @@ type ui struct {
 	app fyne.App
 	win fyne.Window
 
-	st      backend.Project
-	path    string
+	st   backend.Project
+	path string
 	// readOnlyWhy, when set, says why the project is open for looking
 	// only (a read-only file or folder, a damaged file); editing is off.
 	readOnlyWhy string
 	banner      *fyne.Container
-	images  []project.Image
-	perImg  map[int64]project.ImageCounts
-	classes []project.Class
-	classBy map[int64]project.Class
+	images      []project.Image
+	perImg      map[int64]project.ImageCounts
+	classes     []project.Class
+	classBy     map[int64]project.Class
 	// tallies: labels by image, then class or annotator (all annotators).
 	byClass     map[int64]map[int64]int
 	byAnnotator map[int64]map[int64]int
