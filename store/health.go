@@ -81,10 +81,12 @@ func pragmaCheck(ctx context.Context, db *sql.DB, pragma string) (string, error)
 		}
 	}
 	if err := rows.Err(); err != nil {
-		if errorsIsDamaged(translateCode(err)) {
-			return err.Error(), nil
+		if !errorsIsDamaged(translateCode(err)) {
+			return "", err
 		}
-		return "", err
+		if len(found) == 0 { // what was reported before the check stopped says more
+			found = append(found, err.Error())
+		}
 	}
 	return strings.Join(found, "; "), nil
 }
@@ -121,15 +123,24 @@ func (s *Store) Check(ctx context.Context) ([]string, error) {
 		return nil, s.translate(err)
 	}
 	if strings.HasSuffix(damage, "malformed") {
-		// integrity_check stopped at the first bad page; quick_check
-		// says which.
-		if q, err := quickCheck(ctx, s.db); err == nil && q != "" {
+		// integrity_check stopped at the first bad page without saying
+		// which; quick_check, or the check on open, may say.
+		if q, err := quickCheck(ctx, s.db); err == nil && q != "" && !strings.HasSuffix(q, "malformed") {
 			damage = q
+		} else if s.damage != "" {
+			damage = s.damage
 		}
 	}
 	var found []string
-	if damage != "" {
-		found = strings.Split(damage, "; ")
+	seen := map[string]bool{}
+	for _, d := range strings.Split(damage, "; ") {
+		if d != "" && !seen[d] {
+			seen[d] = true
+			found = append(found, d)
+		}
+	}
+	if len(found) > 0 {
+		return found, nil // references are checked on a sound file only
 	}
 	rows, err := s.db.QueryContext(ctx, "PRAGMA foreign_key_check")
 	if err != nil {
