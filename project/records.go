@@ -26,6 +26,16 @@ type IntakeReport struct {
 	Duplicates int             `json:"duplicates"`
 	Relinked   int             `json:"relinked"`
 	Failed     []IntakeFailure `json:"failed"`
+	// AddedIDs and Relinks let a caller undo the intake when the command
+	// it belongs to fails.
+	AddedIDs []int64  `json:"-"`
+	Relinks  []Relink `json:"-"`
+}
+
+// Relink is one image whose file was found at a new path.
+type Relink struct {
+	ImageID int64
+	OldPath string
 }
 
 // ImportOptions tunes ImportDataset.
@@ -43,6 +53,10 @@ type ImportOptions struct {
 	// ClassMap renames the file's class names to project class names
 	// before they are looked up ("boat" → "motorboat").
 	ClassMap map[string]string
+	// SkipUnmatched imports the records whose image is in the project
+	// and reports the others; without it a record whose image is not in
+	// the project fails the whole import.
+	SkipUnmatched bool
 }
 
 // ImportReport says what an import did.

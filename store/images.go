@@ -1,6 +1,7 @@
 package store
 
 import (
+	"database/sql"
 	"context"
 	"fmt"
 
@@ -91,6 +92,30 @@ func (s *Store) RelinkImage(ctx context.Context, id int64, path string) error {
 // DeleteImage removes an image with its labels and suggestions.
 func (s *Store) DeleteImage(ctx context.Context, id int64) error {
 	return s.updateOne(ctx, fmt.Sprintf("delete image %d", id), "DELETE FROM images WHERE id = ?", id)
+}
+
+// UndoIntake takes back what an intake did, in one transaction: the
+// images it added are deleted (they have no labels yet) and the images it
+// relinked get their old paths back. It is for a command that fails
+// after its intake, so that the command leaves nothing behind.
+func (s *Store) UndoIntake(ctx context.Context, rep project.IntakeReport) error {
+	err := s.tx(ctx, func(tx *sql.Tx) error {
+		for _, id := range rep.AddedIDs {
+			if _, err := tx.ExecContext(ctx, "DELETE FROM images WHERE id = ?", id); err != nil {
+				return err
+			}
+		}
+		for _, r := range rep.Relinks {
+			if _, err := tx.ExecContext(ctx, "UPDATE images SET path = ? WHERE id = ?", r.OldPath, r.ImageID); err != nil {
+				return err
+			}
+		}
+		return nil
+	})
+	if err != nil {
+		return fmt.Errorf("taking back the images added: %w", s.translate(err))
+	}
+	return nil
 }
 
 // updateOne runs a statement that must touch exactly one row.

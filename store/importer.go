@@ -37,6 +37,22 @@ func (s *Store) ImportDataset(ctx context.Context, ds *formats.Dataset, opts pro
 	for _, c := range classes {
 		classID[c.Name] = c.ID
 	}
+	// Records whose image is not in the project fail the import unless
+	// the caller asked to skip them; an import that matches nothing
+	// stores nothing (not even the annotator).
+	for _, rec := range ds.Images {
+		if _, ok, reason := matcher.Match(rec.Name); !ok {
+			rep.Unmatched = append(rep.Unmatched, fmt.Sprintf("%s (%s): %s", rec.Name, rec.Where, reason))
+		}
+	}
+	if n := len(rep.Unmatched); n > 0 && !opts.SkipUnmatched {
+		return rep, fmt.Errorf("import (nothing was stored): %s no image in the project: %s; add the images (--images DIR) or import the rest with --skip-unmatched: %w",
+			unmatchedCount(n), listSome(rep.Unmatched, 5), project.ErrInvalid)
+	}
+	if len(ds.Images) > 0 && len(rep.Unmatched) == len(ds.Images) {
+		return rep, fmt.Errorf("import (nothing was stored): none of the file's %d image records matches an image in the project, for example %s: %w",
+			len(ds.Images), rep.Unmatched[0], project.ErrInvalid)
+	}
 	err = s.tx(ctx, func(tx *sql.Tx) error {
 		annID, err := ensureAnnotatorTx(ctx, tx, opts.Annotator, formatTime(s.now()))
 		if err != nil {
@@ -49,10 +65,9 @@ func (s *Store) ImportDataset(ctx context.Context, ds *formats.Dataset, opts pro
 			if i%1000 == 0 && ctx.Err() != nil {
 				return ctx.Err()
 			}
-			im, ok, reason := matcher.Match(rec.Name)
+			im, ok, _ := matcher.Match(rec.Name)
 			if !ok {
-				rep.Unmatched = append(rep.Unmatched, fmt.Sprintf("%s (%s): %s", rec.Name, rec.Where, reason))
-				continue
+				continue // listed in rep.Unmatched above
 			}
 			if rec.Width > 0 && rec.Height > 0 && (rec.Width != im.Width || rec.Height != im.Height) {
 				return fmt.Errorf("%s: image %s is %d×%d in the file but %d×%d in the project; is it the same image?",
@@ -189,4 +204,19 @@ func (l *labelInserter) close() {
 	if l.full != nil {
 		l.full.Close()
 	}
+}
+
+func unmatchedCount(n int) string {
+	if n == 1 {
+		return "1 record matches"
+	}
+	return fmt.Sprintf("%d records match", n)
+}
+
+// listSome joins the first n items and says how many more there are.
+func listSome(items []string, n int) string {
+	if len(items) <= n {
+		return strings.Join(items, "; ")
+	}
+	return strings.Join(items[:n], "; ") + fmt.Sprintf("; and %d more", len(items)-n)
 }

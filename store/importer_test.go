@@ -32,7 +32,7 @@ func TestImportDatasetMatchesClipsAndReports(t *testing.T) {
 		rec("sub/b.jpg", 0, 0, bx("buoy", 0.5, 0.5, 10.25, 20, "annotations[2]")),
 		rec("missing.jpg", 10, 10, bx("buoy", 0, 0, 1, 1, "annotations[3]")),
 	}}
-	rep, err := s.ImportDataset(bg, ds, project.ImportOptions{Annotator: "old-team", CreateClasses: true, Source: "f.json"})
+	rep, err := s.ImportDataset(bg, ds, project.ImportOptions{Annotator: "old-team", CreateClasses: true, Source: "f.json", SkipUnmatched: true})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -69,6 +69,10 @@ func TestImportDatasetIsAllOrNothing(t *testing.T) {
 		{"size mismatch", &formats.Dataset{Images: []formats.ImageRecord{rec("a.jpg", 80, 100, bx("buoy", 0, 0, 5, 5, "a0"))}},
 			project.ImportOptions{Annotator: "x"}, "is 80×100 in the file but 100×80 in the project"},
 		{"no annotator", &formats.Dataset{}, project.ImportOptions{}, "annotator name is empty"},
+		{"record without image", &formats.Dataset{Images: []formats.ImageRecord{rec("a.jpg", 100, 80, bx("buoy", 0, 0, 5, 5, "a0")), rec("gone.jpg", 10, 10, bx("buoy", 0, 0, 5, 5, "a1"))}},
+			project.ImportOptions{Annotator: "x"}, "1 record matches no image in the project: gone.jpg (f.json: images[gone.jpg])"},
+		{"nothing matches, skipping", &formats.Dataset{Images: []formats.ImageRecord{rec("gone.jpg", 10, 10, bx("buoy", 0, 0, 5, 5, "a1"))}},
+			project.ImportOptions{Annotator: "x", SkipUnmatched: true}, "none of the file's 1 image records matches"},
 	}
 	for _, c := range cases {
 		s, _, _ := importFixture(t)

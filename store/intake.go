@@ -107,18 +107,20 @@ func (s *Store) intakeOne(ctx context.Context, path string, info imagefile.Info,
 			return err
 		}
 		rep.Relinked++
+		rep.Relinks = append(rep.Relinks, project.Relink{ImageID: known.ID, OldPath: known.Path})
 		return nil
 	case !errors.Is(err, project.ErrNotFound):
 		return err
 	case opts.RelinkOnly:
 		return nil
 	}
-	_, err = s.AddImage(ctx, project.Image{Path: rel, SHA256: info.SHA256, Width: info.Width, Height: info.Height,
+	im, err := s.AddImage(ctx, project.Image{Path: rel, SHA256: info.SHA256, Width: info.Width, Height: info.Height,
 		Orientation: info.Orientation, Status: project.StatusNew})
 	if err != nil {
 		return err
 	}
 	rep.Added++
+	rep.AddedIDs = append(rep.AddedIDs, im.ID)
 	return nil
 }
 

@@ -32,6 +32,8 @@ type Project interface {
 	// Check runs the storage's full consistency check and returns what
 	// it found (nothing when sound).
 	Check(ctx context.Context) ([]string, error)
+	// UndoIntake takes back an intake of a command that then failed.
+	UndoIntake(ctx context.Context, rep project.IntakeReport) error
 	// SetWaitNotice routes "waiting for another writer" messages.
 	SetWaitNotice(func(string))
 }

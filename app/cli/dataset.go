@@ -38,10 +38,11 @@ func cmdImport(args []string, stdout, stderr io.Writer) error {
 	classes := fs.String("classes", "", "")
 	strict := fs.Bool("strict", false, "")
 	create := fs.Bool("create-classes", false, "")
+	skip := fs.Bool("skip-unmatched", false, "")
 	asJSON := fs.Bool("json", false, "")
 	classMap := classMapFlag{}
 	fs.Var(classMap, "map", "")
-	const synopsis = "import PROJECT.boxw --layout json|xml|txt [--annotator NAME] PATH [--images DIR] [--classes FILE] [--map FROM=TO]... [--create-classes] [--strict] [--json]"
+	const synopsis = "import PROJECT.boxw --layout json|xml|txt [--annotator NAME] PATH [--images DIR] [--classes FILE] [--map FROM=TO]... [--create-classes] [--strict] [--skip-unmatched] [--json]"
 	pos, err := parse(fs, args, 2, 2, synopsis)
 	if err != nil {
 		return err
@@ -62,7 +63,7 @@ func cmdImport(args []string, stdout, stderr io.Writer) error {
 	}
 	defer done()
 	res, err := ops.RunImport(ctx, s, ops.ImportJob{Layout: formats.Layout(*layout), Src: src, ClassesFile: *classes, ImagesDir: *images,
-		Annotator: *annotator, Create: *create, Strict: *strict, ClassMap: classMap})
+		Annotator: *annotator, Create: *create, Strict: *strict, ClassMap: classMap, SkipUnmatched: *skip})
 	if err != nil {
 		return err
 	}
@@ -79,12 +80,8 @@ func cmdImport(args []string, stdout, stderr io.Writer) error {
 		fmt.Fprintf(stdout, "created classes: %s\n", strings.Join(rep.ClassesCreated, ", "))
 	}
 	if len(rep.Unmatched) > 0 {
-		fmt.Fprintf(stdout, "%d records match no project image (add the images with --images DIR):\n", len(rep.Unmatched))
-		for i, u := range rep.Unmatched {
-			if i == 20 {
-				fmt.Fprintf(stdout, "  … and %d more (see --json)\n", len(rep.Unmatched)-20)
-				break
-			}
+		fmt.Fprintf(stdout, "skipped %d records that match no project image (--skip-unmatched):\n", len(rep.Unmatched))
+		for _, u := range rep.Unmatched {
 			fmt.Fprintf(stdout, "  %s\n", u)
 		}
 	}

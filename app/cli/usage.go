@@ -23,7 +23,7 @@ Commands:
   recover DAMAGED.boxw NEW.boxw         copy what can still be read into a new project
   import PROJECT.boxw --layout json|xml|txt [--annotator NAME] PATH
         [--images DIR] [--classes FILE] [--map FROM=TO]... [--create-classes]
-        [--strict] [--json]
+        [--strict] [--skip-unmatched] [--json]
                                         import labels (all or nothing)
   export PROJECT.boxw --layout json|xml|txt --annotator NAME --out DIR
         [--split 80/10/10] [--seed N] [--images copy|link|none] [--json]

@@ -82,6 +82,7 @@ func (u *ui) importForm() (*widget.Form, func() (ops.ImportJob, error)) {
 	annotator.SetPlaceHolder("default: named after the labels file")
 	create := widget.NewCheck("create classes the project lacks", nil)
 	strict := widget.NewCheck("refuse boxes outside their image (otherwise clip them)", nil)
+	skip := widget.NewCheck("skip records whose image is not in the project (otherwise they stop the import)", nil)
 	form := widget.NewForm(
 		widget.NewFormItem("Layout", layout),
 		widget.NewFormItem("Labels", srcRow),
@@ -90,10 +91,12 @@ func (u *ui) importForm() (*widget.Form, func() (ops.ImportJob, error)) {
 		widget.NewFormItem("Annotator", annotator),
 		widget.NewFormItem("", create),
 		widget.NewFormItem("", strict),
+		widget.NewFormItem("", skip),
 	)
 	return form, func() (ops.ImportJob, error) {
 		j := ops.ImportJob{Layout: layoutOf(layout.Selected), Src: strings.TrimSpace(src.Text), ClassesFile: strings.TrimSpace(classes.Text),
-			ImagesDir: strings.TrimSpace(images.Text), Annotator: strings.TrimSpace(annotator.Text), Create: create.Checked, Strict: strict.Checked}
+			ImagesDir: strings.TrimSpace(images.Text), Annotator: strings.TrimSpace(annotator.Text), Create: create.Checked, Strict: strict.Checked,
+			SkipUnmatched: skip.Checked}
 		if j.Src == "" {
 			return j, fmt.Errorf("choose the labels file or folder to import")
 		}
@@ -135,7 +138,7 @@ func (u *ui) askImport() {
 				msg += "\nNew classes: " + strings.Join(res.ClassesCreated, ", ")
 			}
 			if n := len(res.Unmatched); n > 0 {
-				msg += fmt.Sprintf("\n%d records match no project image, for example:\n%s", n, res.Unmatched[0])
+				msg += fmt.Sprintf("\nskipped %d records that match no project image, for example:\n%s", n, res.Unmatched[0])
 			}
 			dialog.ShowInformation("Import labels", msg, u.win)
 		})

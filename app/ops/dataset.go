@@ -78,25 +78,42 @@ type ImportJob struct {
 	Annotator                   string
 	Create, Strict              bool
 	ClassMap                    map[string]string // file class name → project class name
+	// SkipUnmatched imports the records whose image is in the project and
+	// lists the others; without it they fail the import.
+	SkipUnmatched bool
 }
 
 // RunImport adds the images folder (if any), reads the labels and imports
-// them in one transaction.
-func RunImport(ctx context.Context, s backend.Project, j ImportJob) (ImportResult, error) {
-	var res ImportResult
+// them in one transaction. The command is one unit: when the import
+// fails, the images it added are taken back.
+func RunImport(ctx context.Context, s backend.Project, j ImportJob) (res ImportResult, err error) {
 	if j.ImagesDir != "" {
-		rep, err := s.AddImages(ctx, []string{j.ImagesDir}, project.IntakeOptions{})
-		if err != nil {
-			return res, err
+		rep, ierr := s.AddImages(ctx, []string{j.ImagesDir}, project.IntakeOptions{})
+		if ierr != nil {
+			return res, ierr
 		}
 		res.ImagesAdded = &rep
+		defer func() {
+			if err == nil || rep.Added+rep.Relinked == 0 {
+				return
+			}
+			if uerr := s.UndoIntake(context.WithoutCancel(ctx), rep); uerr != nil {
+				err = fmt.Errorf("%w; and the %s added from %s could not be taken back: %v", err, Plural(rep.Added, "image"), j.ImagesDir, uerr)
+				return
+			}
+			err = fmt.Errorf("%w (the %s added from %s were taken back)", err, Plural(rep.Added+rep.Relinked, "image"), j.ImagesDir)
+		}()
 	}
 	ds, unreadable, err := loadDataset(ctx, s, j.Layout, j.Src, j.ClassesFile)
 	if err != nil {
 		return res, err
 	}
+	if len(unreadable) > 0 && !j.SkipUnmatched {
+		return res, fmt.Errorf("import (nothing was stored): %s no image in the project, for example %s; add the images (--images DIR) or import the rest with --skip-unmatched: %w",
+			Plural(len(unreadable), "label file")+" match", unreadable[0], project.ErrInvalid)
+	}
 	rep, err := s.ImportDataset(ctx, ds, project.ImportOptions{Annotator: j.Annotator, CreateClasses: j.Create, Strict: j.Strict, Source: filepath.Base(j.Src),
-		ClassMap: j.ClassMap})
+		ClassMap: j.ClassMap, SkipUnmatched: j.SkipUnmatched})
 	if err != nil {
 		return res, err
 	}
