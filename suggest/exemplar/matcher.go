@@ -63,7 +63,7 @@ func (m *Matcher) Suggest(ctx context.Context, images []project.Image, classes [
 		return nil, fmt.Errorf("exemplar matcher: image %d: no pixels for the exemplars", m.ExemplarImageID)
 	}
 	exPlanes := Planes(m.ExemplarImage, opt.Feature)
-	set, err := newTemplateSet(exPlanes, m.Exemplars, opt, LargestImage(images))
+	set, err := newTemplateSet(ctx, exPlanes, m.Exemplars, opt, LargestImage(images))
 	if err != nil {
 		return nil, fmt.Errorf("exemplar matcher: image %d: %w", m.ExemplarImageID, err)
 	}

@@ -135,7 +135,7 @@ func TestSearchKeepsToSensibleScales(t *testing.T) {
 	}
 	checkFound(t, "0.01:1:3", ms, []project.Box{box(200, 60, 24, 20), box(310, 220, 24, 20)}, 1)
 	opt, _ := Options{Scales: []float64{0.1, 1, 4, 20}, Rotations: true}.withDefaults()
-	set, err := newTemplateSet(Planes(img, FeatureGray), ex, opt, img.Bounds().Size())
+	set, err := newTemplateSet(context.Background(), Planes(img, FeatureGray), ex, opt, img.Bounds().Size())
 	if err != nil {
 		t.Fatal(err)
 	}

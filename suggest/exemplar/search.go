@@ -74,7 +74,7 @@ func searchImage(ctx context.Context, img image.Image, exemplars []project.Box, 
 		return nil, errors.New("exemplar search: no image")
 	}
 	planes := Planes(img, opt.Feature)
-	set, err := newTemplateSet(planes, exemplars, opt, img.Bounds().Size())
+	set, err := newTemplateSet(ctx, planes, exemplars, opt, img.Bounds().Size())
 	if err != nil {
 		return nil, err
 	}

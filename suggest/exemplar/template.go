@@ -94,8 +94,10 @@ type templateSet struct {
 // newTemplateSet cuts the exemplars from an image's planes and builds every
 // scale and turn that PlanScales keeps for images of at most size largest;
 // a template of an exemplar that is too small or too large at a kept scale
-// is left out. Options must have their defaults filled.
-func newTemplateSet(planes []Plane, exemplars []project.Box, opt Options, largest image.Point) (*templateSet, error) {
+// is left out. Options must have their defaults filled. Resizing and
+// turning hundreds of large templates takes a while, so a cancelled ctx
+// stops it between scales.
+func newTemplateSet(ctx context.Context, planes []Plane, exemplars []project.Box, opt Options, largest image.Point) (*templateSet, error) {
 	if len(exemplars) == 0 {
 		return nil, errors.New("exemplar search: no exemplars")
 	}
@@ -128,6 +130,9 @@ func newTemplateSet(planes []Plane, exemplars []project.Box, opt Options, larges
 	}
 	set := &templateSet{opt: opt, plan: plan, minSide: math.MaxInt}
 	for _, s := range plan.Searched {
+		if err := ctx.Err(); err != nil {
+			return nil, err
+		}
 		type size struct{ w, h int }
 		groups := map[size]int{} // size → index into set.templates, for mean voting
 		for e, chans := range crops {
