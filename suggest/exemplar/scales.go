@@ -219,8 +219,8 @@ func PlanScales(opt Options, exemplars []project.Box, exemplarImage, largest ima
 		plan.Searched = append(plan.Searched, s)
 	}
 	if len(plan.Searched) == 0 {
-		return plan, fmt.Errorf("exemplar search: none of the %d scales asked makes sense (%s); %s make sense here: a template must be at least %d px on a side and fit in the %d×%d image",
-			len(scales), plan.Dropped[0].Why, plan.Range(), MinTemplateSide, largest.X, largest.Y)
+		return plan, fmt.Errorf("exemplar search: no scale asked makes sense (%s); %s make sense here: a template must be at least %d px on a side and fit in the %d×%d image",
+			plan.Dropped[0].Why, plan.Range(), MinTemplateSide, largest.X, largest.Y)
 	}
 	return plan, nil
 }
