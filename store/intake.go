@@ -20,8 +20,9 @@ import (
 // AddImages adds image files, and the image files found in folders
 // (recursively), to the project. A file whose bytes are already known adds
 // nothing; if the known image's file has gone missing, the image is
-// relinked to the new path with its labels. Files that cannot be read are
-// skipped, each with its reason in the report; only a cancelled context or a
+// relinked to the new path with its labels. Files that cannot be read, or
+// whose pixels do not decode, are skipped, each with its reason in the
+// report; only a cancelled context or a
 // database failure stops the intake, and every image already added stays.
 func (s *Store) AddImages(ctx context.Context, paths []string, opts project.IntakeOptions) (project.IntakeReport, error) {
 	if err := s.CheckBeforeBulkWrite(ctx); err != nil {
@@ -39,14 +40,22 @@ func (s *Store) AddImages(ctx context.Context, paths []string, opts project.Inta
 		info imagefile.Info
 		err  error
 	}
-	// Hashing and header reading are I/O bound; do them on a few workers
-	// and write to the database in file order from this goroutine.
+	// Hashing and decoding run on a few workers; the database is written
+	// in file order from this goroutine. Every pixel is decoded
+	// (imagefile.Verify): a file whose header and end are intact can still
+	// hold damaged data, and it must be refused here, with its reason in
+	// the report, not when it is first shown or searched. Relinking only
+	// matches files by their bytes, so it reads headers only.
 	results := make([]chan probed, len(files))
 	for i := range results {
 		results[i] = make(chan probed, 1)
 	}
 	ctx, cancel := context.WithCancel(ctx)
 	defer cancel()
+	check := imagefile.Verify
+	if opts.RelinkOnly {
+		check = imagefile.Probe
+	}
 	var wg sync.WaitGroup
 	next := make(chan int)
 	for w := 0; w < max(2, runtime.NumCPU()); w++ {
@@ -54,7 +63,7 @@ func (s *Store) AddImages(ctx context.Context, paths []string, opts project.Inta
 		go func() {
 			defer wg.Done()
 			for i := range next {
-				info, err := imagefile.Probe(files[i], opts.MaxPixels)
+				info, err := check(files[i], opts.MaxPixels)
 				results[i] <- probed{files[i], info, err}
 			}
 		}()

@@ -248,3 +248,92 @@ func TestIntakeStopsOnCancelKeepingWhatWasAdded(t *testing.T) {
 var errCanceled = context.Canceled
 
 func withCancel() (context.Context, context.CancelFunc) { return context.WithCancel(bg) }
+
+// Files whose header and end are intact but whose image data is damaged are
+// refused at intake with a reason in the report (issue 14: a PNG with a bad
+// zlib checksum was added and failed later in the exemplar search). Each is
+// built from a valid encoding: the PNG's chunks are length, type, data,
+// CRC-32 (ISO/IEC 15948, section 5.3), its zlib stream ends in an Adler-32
+// (RFC 1950, section 2.2); the JPEG's scan follows the SOS segment (ITU-T
+// T.81, B.2.3) and the file ends in EOI, FF D9.
+func TestIntakeRefusesDamagedImageData(t *testing.T) {
+	s := newStore(t)
+	dir := t.TempDir()
+	var pb bytes.Buffer
+	if err := png.Encode(&pb, picture(300, 200, 9)); err != nil {
+		t.Fatal(err)
+	}
+	good := pb.Bytes()
+	// The last IDAT chunk: where its data starts and how long it is.
+	var at, n int
+	for off := 8; off+12 <= len(good); {
+		l := int(binary.BigEndian.Uint32(good[off:]))
+		if string(good[off+4:off+8]) == "IDAT" {
+			at, n = off+8, l
+		}
+		off += 12 + l
+	}
+	if n < 8 {
+		t.Fatalf("no IDAT chunk in the encoding")
+	}
+	fixCRC := func(b []byte) {
+		binary.BigEndian.PutUint32(b[at+n:], crc32.ChecksumIEEE(b[at-4:at+n]))
+	}
+	adler := bytes.Clone(good)
+	adler[at+n-1] ^= 0xFF // the Adler-32's last byte
+	fixCRC(adler)
+	flipped := bytes.Clone(good)
+	flipped[at+n/2] ^= 0x10 // the CRC now disagrees
+	jpg := jpegBytes(t, 300, 200, 9)
+	sos := bytes.Index(jpg, []byte{0xFF, 0xDA})
+	scan := sos + 2 + int(binary.BigEndian.Uint16(jpg[sos+2:]))
+	garbage := append(bytes.Clone(jpg[:scan]), bytes.Repeat([]byte{0xA5, 0xFF, 0x3C}, 500)...)
+	garbage = append(garbage, 0xFF, 0xD9)
+	cut := append(bytes.Clone(jpg[:len(jpg)/2]), 0xFF, 0xD9)
+
+	write(t, filepath.Join(dir, "good.png"), good)
+	write(t, filepath.Join(dir, "good.jpg"), jpg)
+	write(t, filepath.Join(dir, "png-named.jpg"), good) // a PNG behind a .jpg name
+	write(t, filepath.Join(dir, "bad-adler.png"), adler)
+	write(t, filepath.Join(dir, "flipped.png"), flipped)
+	write(t, filepath.Join(dir, "flipped-named.jpg"), flipped)
+	write(t, filepath.Join(dir, "garbage.jpg"), garbage)
+	write(t, filepath.Join(dir, "cut-with-eoi.jpg"), cut)
+	write(t, filepath.Join(dir, "cut.png"), good[:len(good)/2])
+	write(t, filepath.Join(dir, "empty.png"), nil)
+
+	rep, err := s.AddImages(bg, []string{dir}, project.IntakeOptions{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	// png-named.jpg has the bytes of good.png: one image, one duplicate.
+	if rep.Added != 2 || rep.Duplicates != 1 {
+		t.Errorf("report %+v, want good.png and good.jpg added, png-named.jpg a duplicate", rep)
+	}
+	reasons := map[string]string{}
+	for _, f := range rep.Failed {
+		reasons[filepath.Base(f.Path)] = f.Error
+	}
+	for name, want := range map[string]string{
+		"bad-adler.png":     "PNG data is damaged",
+		"flipped.png":       "PNG data is damaged",
+		"flipped-named.jpg": "PNG data is damaged",
+		"garbage.jpg":       "JPEG data is damaged",
+		"cut-with-eoi.jpg":  "JPEG data",
+		"cut.png":           "cut short",
+		"empty.png":         "empty",
+	} {
+		if got := reasons[name]; !strings.Contains(got, want) || !strings.Contains(got, name) {
+			t.Errorf("%s: reason %q, want one naming the file and saying %q", name, got, want)
+		}
+	}
+	if len(rep.Failed) != 7 {
+		t.Errorf("%d failures, want 7: %+v", len(rep.Failed), rep.Failed)
+	}
+	ims, _ := s.Images(bg)
+	for _, im := range ims {
+		if b := filepath.Base(im.Path); b != "good.png" && b != "good.jpg" {
+			t.Errorf("%s was added", im.Path)
+		}
+	}
+}

@@ -10,6 +10,7 @@ package cli
 import (
 	"context"
 	"encoding/json"
+	"errors"
 	"flag"
 	"fmt"
 	"io"
@@ -139,9 +140,15 @@ func progressPrinter(stderr io.Writer, quiet *bool) func(done, total int) {
 	}
 }
 
+// ExitInterrupted is the exit status of a command stopped by Ctrl+C: 128
+// plus the number of SIGINT, as shells report a program that signal ended
+// (common practice).
+const ExitInterrupted = 130
+
 // Run dispatches a command line and returns the exit status: 0 on
-// success, 1 when the command failed, 2 for a mistyped command line. With
-// no arguments it opens the window.
+// success, 1 when the command failed, 2 for a mistyped command line,
+// ExitInterrupted when Ctrl+C stopped it. With no arguments it opens the
+// window.
 func Run(args []string, stdout, stderr io.Writer, window Window) int {
 	if len(args) == 0 {
 		return window("", "", stderr)
@@ -159,6 +166,9 @@ func Run(args []string, stdout, stderr io.Writer, window Window) int {
 		fmt.Fprintf(stderr, "boxwright %s: %v\n", args[0], err)
 		if _, isUsage := err.(usageError); isUsage {
 			return 2
+		}
+		if errors.Is(err, context.Canceled) {
+			return ExitInterrupted
 		}
 		return 1
 	}

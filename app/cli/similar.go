@@ -3,6 +3,7 @@ package cli
 import (
 	"flag"
 	"fmt"
+	"image"
 	"io"
 	"strconv"
 	"strings"
@@ -38,13 +39,14 @@ func cmdSimilar(args []string, stdout, stderr io.Writer) error {
 	imgName := fs.String("image", "", "the project image to search (its path or file name)")
 	ex := fs.String("exemplar", "", "the example box x0,y0,x1,y1 in image pixels")
 	className := fs.String("class", "", "the class of the example (needed with --save)")
-	threshold := floatAbove(fs, "threshold", 0.6, -1, 1, "lowest normalised cross-correlation of a match")
+	threshold := floatAbove(fs, "threshold", exemplar.DefaultThreshold, 0, 1, "lowest normalised cross-correlation of a match")
+	maxResults := intIn(fs, "max-results", exemplar.DefaultMaxResults, 1, exemplar.MaxResultsLimit, "matches kept, best first")
 	scales := fs.String("scales", "0.8:1.25:5", "scales FROM:TO:STEPS (geometric)")
 	rotations := fs.Bool("rotations", false, "also try the example turned by 90°, 180° and 270°")
 	feature := fs.String("feature", "gray", "gray, gradient (robust to lighting) or color")
 	save := fs.Bool("save", false, "store the matches as pending suggestions of source \"exemplar\"")
 	asJSON := fs.Bool("json", false, "print JSON")
-	const synopsis = "similar PROJECT.boxw --image PATH --exemplar x0,y0,x1,y1 [--class NAME] [--threshold 0.6] [--scales 0.8:1.25:5] [--rotations] [--feature gray|gradient|color] [--save] [--json]"
+	const synopsis = "similar PROJECT.boxw --image PATH --exemplar x0,y0,x1,y1 [--class NAME] [--threshold 0.6] [--max-results 200] [--scales 0.8:1.25:5] [--rotations] [--feature gray|gradient|color] [--save] [--json]"
 	pos, err := parse(fs, args, 1, 1, synopsis)
 	if err != nil {
 		return err
@@ -56,10 +58,9 @@ func cmdSimilar(args []string, stdout, stderr io.Writer) error {
 	if err != nil {
 		return usageError(err.Error())
 	}
-	sc, err := exemplar.ParseScales(*scales)
-	if err != nil {
-		return usageError(err.Error())
-	}
+	// A wrong --scales is reported once the example is known, with the
+	// scales that make sense for it.
+	sc, scalesErr := exemplar.ParseScales(*scales)
 	feat, err := exemplar.ParseFeature(*feature)
 	if err != nil {
 		return usageError(err.Error())
@@ -84,6 +85,23 @@ func cmdSimilar(args []string, stdout, stderr io.Writer) error {
 	if box.X1 > float64(im.Width) || box.Y1 > float64(im.Height) || box.X0 < 0 || box.Y0 < 0 {
 		return fmt.Errorf("--exemplar %v lies outside %s (%d×%d px)", box, im.Path, im.Width, im.Height)
 	}
+	size := image.Pt(im.Width, im.Height)
+	opt := exemplar.Options{Threshold: *threshold, Scales: sc, Rotations: *rotations, Feature: feat, MaxResults: *maxResults}
+	plan, planErr := exemplar.PlanScales(opt, []project.Box{box}, size, size)
+	switch {
+	case scalesErr != nil && planErr == nil:
+		lo, hi := max(plan.Min, 0.8), min(plan.Max, 1.25)
+		if lo >= hi {
+			lo, hi = plan.Min, plan.Max
+		}
+		return usageError(fmt.Sprintf("--scales: %v; for this example give %s, for instance %s:%s:5",
+			scalesErr, plan.Range(), exemplar.FormatScale(lo), exemplar.FormatScale(hi)))
+	case scalesErr != nil:
+		return usageError(fmt.Sprintf("--scales: %v", scalesErr))
+	case planErr != nil:
+		return usageError(fmt.Sprintf("--scales %s: %v", *scales, planErr))
+	}
+	opt.Scales = plan.Searched
 	var class project.Class
 	if *className != "" {
 		if class, err = st.ClassByName(ctx, *className); err != nil {
@@ -94,9 +112,15 @@ func cmdSimilar(args []string, stdout, stderr io.Writer) error {
 	if err != nil {
 		return err
 	}
-	opt := exemplar.Options{Threshold: *threshold, Scales: sc, Rotations: *rotations, Feature: feat}
+	if note := plan.Summary(); note != "" && *asJSON {
+		fmt.Fprintf(stderr, "boxwright similar: %s\n", note) // stdout holds the JSON
+	}
+	fmt.Fprintf(stderr, "searching %s at %s… (Ctrl+C stops)\n", im.Path, ops.Plural(len(plan.Searched), "scale"))
 	matches, err := exemplar.Search(ctx, img, []project.Box{box}, opt)
 	if err != nil {
+		if ctx.Err() != nil {
+			return fmt.Errorf("interrupted (Ctrl+C) while searching %s; nothing was saved: %w", im.Path, ctx.Err())
+		}
 		return err
 	}
 	if *save {
@@ -104,17 +128,29 @@ func cmdSimilar(args []string, stdout, stderr io.Writer) error {
 			return err
 		}
 	}
+	full := len(matches) == *maxResults
 	if *asJSON {
 		out := []map[string]any{}
 		for _, mt := range matches {
 			out = append(out, map[string]any{"x0": mt.Box.X0, "y0": mt.Box.Y0, "x1": mt.Box.X1, "y1": mt.Box.Y1,
 				"score": mt.Score, "scale": mt.Scale, "rotation": mt.Rotation})
 		}
-		return writeJSON(stdout, map[string]any{"image": im.Path, "exemplar": []float64{box.X0, box.Y0, box.X1, box.Y1}, "matches": out, "saved": *save})
+		dropped := []map[string]any{}
+		for _, d := range plan.Dropped {
+			dropped = append(dropped, map[string]any{"scale": d.Scale, "why": d.Why})
+		}
+		return writeJSON(stdout, map[string]any{"image": im.Path, "exemplar": []float64{box.X0, box.Y0, box.X1, box.Y1}, "matches": out, "saved": *save,
+			"scales_searched": plan.Searched, "scales_dropped": dropped, "max_results_reached": full})
 	}
 	fmt.Fprintf(stdout, "%s in %s at NCC ≥ %.2f\n", ops.Plural(len(matches), "match"), im.Path, *threshold)
+	if note := plan.Summary(); note != "" {
+		fmt.Fprintf(stdout, "%s\n", note)
+	}
+	if full {
+		fmt.Fprintf(stdout, "these are the best %d (--max-results); more may score above the threshold\n", *maxResults)
+	}
 	for _, mt := range matches {
-		fmt.Fprintf(stdout, "  %.3f  [%.0f,%.0f,%.0f,%.0f]  scale %.2f  rotation %d°\n", mt.Score, mt.Box.X0, mt.Box.Y0, mt.Box.X1, mt.Box.Y1, mt.Scale, mt.Rotation)
+		fmt.Fprintf(stdout, "  %.3f  [%.0f,%.0f,%.0f,%.0f]  scale %.3g  rotation %d°\n", mt.Score, mt.Box.X0, mt.Box.Y0, mt.Box.X1, mt.Box.Y1, mt.Scale, mt.Rotation)
 	}
 	if *save {
 		fmt.Fprintf(stdout, "stored as pending suggestions of source %q\n", exemplar.Source)

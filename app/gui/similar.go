@@ -27,6 +27,25 @@ type similarRun struct {
 	classID int64
 	images  []int64
 	found   []suggest.Proposal
+	note    string // which scales were left out, "" when none
+}
+
+// similarScales reads the dialog's scales and keeps those that make sense
+// for the examples ex, on an image of size exSize, searched in ims; note
+// says which were left out and why ("" when none). A wrong entry gets an
+// error that gives the scales that make sense.
+func similarScales(text string, rotations bool, ex []project.Box, exSize image.Point, ims []project.Image) (scales []float64, note string, err error) {
+	sc, parseErr := exemplar.ParseScales(text)
+	plan, planErr := exemplar.PlanScales(exemplar.Options{Scales: sc, Rotations: rotations}, ex, exSize, exemplar.LargestImage(ims))
+	switch {
+	case parseErr != nil && planErr == nil:
+		return nil, "", fmt.Errorf("find similar objects: %w; for these examples give %s", parseErr, plan.Range())
+	case parseErr != nil:
+		return nil, "", fmt.Errorf("find similar objects: %w", parseErr)
+	case planErr != nil:
+		return nil, "", fmt.Errorf("find similar objects, scales %s: %w", text, planErr)
+	}
+	return plan.Searched, plan.Summary(), nil
 }
 
 // askFindSimilar searches for objects like the selected box (or all the
@@ -79,11 +98,6 @@ func (u *ui) askFindSimilar() {
 		if !ok {
 			return
 		}
-		sc, err := exemplar.ParseScales(scales.Text)
-		if err != nil {
-			u.showError(err)
-			return
-		}
 		feat, _ := exemplar.ParseFeature(feature.Selected)
 		ex := []project.Box{sel.Box}
 		if which.Selected != "the selected box" {
@@ -111,15 +125,23 @@ func (u *ui) askFindSimilar() {
 		default:
 			ims = append(ims, u.images...)
 		}
-		u.findSimilar(sel.ClassID, ex, pyr.Level(0), ims, exemplar.Options{Threshold: similarFloor, Scales: sc, Rotations: rotations.Checked, Feature: feat}, thr.Value)
+		exImg := pyr.Level(0)
+		sc, note, err := similarScales(scales.Text, rotations.Checked, ex, exImg.Bounds().Size(), ims)
+		if err != nil {
+			u.showError(err)
+			return
+		}
+		u.findSimilar(sel.ClassID, ex, exImg, ims, exemplar.Options{Threshold: similarFloor, Scales: sc, Rotations: rotations.Checked, Feature: feat}, thr.Value, note)
 	}, u.win)
 	d.Resize(fyne.NewSize(560, 520))
 	d.Show()
 }
 
-// findSimilar runs the search as a background job and stores what scores
-// at least threshold as pending suggestions of source "exemplar".
-func (u *ui) findSimilar(classID int64, ex []project.Box, exImg image.Image, ims []project.Image, opt exemplar.Options, threshold float64) {
+// findSimilar runs the search as a background job, which the job's Cancel
+// button stops within moments, and stores what scores at least threshold
+// as pending suggestions of source "exemplar"; note (which scales were left
+// out) goes on the results panel.
+func (u *ui) findSimilar(classID int64, ex []project.Box, exImg image.Image, ims []project.Image, opt exemplar.Options, threshold float64, note string) {
 	st := u.st
 	m := &exemplar.Matcher{ClassID: classID, Exemplars: ex, ExemplarImage: exImg, ExemplarImageID: u.imageID, Options: opt,
 		Load: func(ctx context.Context, im project.Image) (image.Image, error) {
@@ -143,7 +165,7 @@ func (u *ui) findSimilar(classID int64, ex []project.Box, exImg image.Image, ims
 		found, err = m.Suggest(ctx, ims, classes, func(done, total int) { progress(float64(done) / float64(total)) })
 		return err
 	}, func() {
-		run := &similarRun{classID: classID, found: found}
+		run := &similarRun{classID: classID, found: found, note: note}
 		for _, im := range ims {
 			run.images = append(run.images, im.ID)
 		}
@@ -201,11 +223,22 @@ func (u *ui) showSimilarPanel(threshold float64, n int) {
 		}
 		say(n, v)
 	}
-	w.SetContent(container.NewPadded(container.NewVBox(
+	box := container.NewVBox(
 		widget.NewLabel("Move the threshold: the suggestions follow. Review them as any others (A, Z, Shift+A)."),
-		s, count, widget.NewButton("Close", w.Close))))
+		s, count)
+	if u.similar.note != "" {
+		note := widget.NewLabel(strings.ToUpper(u.similar.note[:1]) + u.similar.note[1:] + ".")
+		note.Wrapping = fyne.TextWrapWord
+		box.Add(note)
+	}
+	box.Add(widget.NewButton("Close", w.Close))
+	w.SetContent(container.NewPadded(box))
 	w.SetOnClosed(func() { u.similarWin = nil })
-	w.Resize(fyne.NewSize(520, 180))
+	h := float32(180)
+	if u.similar.note != "" {
+		h = 260
+	}
+	w.Resize(fyne.NewSize(520, h))
 	u.similarWin = w
 	w.Show()
 }

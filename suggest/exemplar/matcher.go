@@ -34,9 +34,23 @@ type Matcher struct {
 // Name returns "exemplar".
 func (m *Matcher) Name() string { return Source }
 
+// LargestImage is the width and the height of the largest images among
+// images, as the project records them (0 when it does not know them); the
+// scales PlanScales keeps for a Matcher are those that fit these and the
+// exemplar image.
+func LargestImage(images []project.Image) image.Point {
+	var p image.Point
+	for _, im := range images {
+		p.X, p.Y = max(p.X, im.Width), max(p.Y, im.Height)
+	}
+	return p
+}
+
 // Suggest searches each image for the exemplars and proposes the matches
 // that do not overlap a label already there. The templates are cut from
-// ExemplarImage once; on that image the exemplars themselves are left out.
+// ExemplarImage once, at the scales PlanScales keeps for the exemplar image
+// and the largest of images; on that image the exemplars themselves are
+// left out.
 func (m *Matcher) Suggest(ctx context.Context, images []project.Image, classes []project.Class, progress func(done, total int)) ([]suggest.Proposal, error) {
 	if m.ClassID == 0 {
 		return nil, errors.New("exemplar matcher: no class")
@@ -49,7 +63,7 @@ func (m *Matcher) Suggest(ctx context.Context, images []project.Image, classes [
 		return nil, fmt.Errorf("exemplar matcher: image %d: no pixels for the exemplars", m.ExemplarImageID)
 	}
 	exPlanes := Planes(m.ExemplarImage, opt.Feature)
-	set, err := newTemplateSet(exPlanes, m.Exemplars, opt)
+	set, err := newTemplateSet(ctx, exPlanes, m.Exemplars, opt, LargestImage(images))
 	if err != nil {
 		return nil, fmt.Errorf("exemplar matcher: image %d: %w", m.ExemplarImageID, err)
 	}

@@ -3,6 +3,7 @@
 package exemplar
 
 import (
+	"context"
 	"errors"
 	"fmt"
 	"math"
@@ -34,18 +35,26 @@ const (
 // Σ T'·I comes from a direct sum or a tiled FFT cross-correlation, whichever
 // chooseMethod estimates cheaper. It returns an error when t is empty or
 // larger than p.
-func NCC(p, t Plane) (Plane, error) { return nccWith(p, t, methodAuto) }
+func NCC(p, t Plane) (Plane, error) { return nccTiles(context.Background(), p, t, methodAuto, 0, 0) }
 
 // NCCPlanes sums the per-channel NCC maps of several planes and divides by
 // their number (colour matching). ps[i] is matched with ts[i].
-func NCCPlanes(ps, ts []Plane) (Plane, error) {
+func NCCPlanes(ps, ts []Plane) (Plane, error) { return nccPlanes(context.Background(), ps, ts) }
+
+// nccPlanes is NCCPlanes that stops, returning ctx's error, soon after ctx
+// is cancelled: it looks at ctx between output rows (direct sums) or tiles
+// (FFT).
+func nccPlanes(ctx context.Context, ps, ts []Plane) (Plane, error) {
 	if len(ps) == 0 || len(ps) != len(ts) {
 		return Plane{}, fmt.Errorf("exemplar: %d image planes for %d template planes", len(ps), len(ts))
 	}
 	var sum Plane
 	for i := range ps {
-		m, err := NCC(ps[i], ts[i])
+		m, err := nccTiles(ctx, ps[i], ts[i], methodAuto, 0, 0)
 		if err != nil {
+			if ctx.Err() != nil {
+				return Plane{}, err
+			}
 			return Plane{}, fmt.Errorf("exemplar: channel %d: %w", i, err)
 		}
 		if i == 0 {
@@ -72,11 +81,14 @@ func NCCPlanes(ps, ts []Plane) (Plane, error) {
 var errEmptyTemplate = errors.New("exemplar: empty template")
 
 // nccWith is NCC with the correlation method fixed.
-func nccWith(p, t Plane, m nccMethod) (Plane, error) { return nccTiles(p, t, m, 0, 0) }
+func nccWith(p, t Plane, m nccMethod) (Plane, error) {
+	return nccTiles(context.Background(), p, t, m, 0, 0)
+}
 
 // nccTiles is nccWith with the FFT tile size fixed to tm×tn (rows×columns)
 // unless those are 0, so tests can reach many tile edges on small images.
-func nccTiles(p, t Plane, m nccMethod, tm, tn int) (Plane, error) {
+// A cancelled ctx stops it with ctx's error.
+func nccTiles(ctx context.Context, p, t Plane, m nccMethod, tm, tn int) (Plane, error) {
 	if !p.valid() || !t.valid() {
 		return Plane{}, fmt.Errorf("exemplar: plane size does not match its samples (image %d×%d/%d, template %d×%d/%d)",
 			p.W, p.H, len(p.Pix), t.W, t.H, len(t.Pix))
@@ -87,7 +99,10 @@ func nccTiles(p, t Plane, m nccMethod, tm, tn int) (Plane, error) {
 	if t.W > p.W || t.H > p.H {
 		return Plane{}, fmt.Errorf("exemplar: template %d×%d is larger than image %d×%d", t.W, t.H, p.W, p.H)
 	}
-	j := newNCCJob(p, t)
+	if err := ctx.Err(); err != nil {
+		return Plane{}, err
+	}
+	j := newNCCJob(ctx, p, t)
 	if j.tVar <= 0 {
 		return j.out, nil // a flat template matches nothing
 	}
@@ -102,11 +117,16 @@ func nccTiles(p, t Plane, m nccMethod, tm, tn int) (Plane, error) {
 	} else {
 		j.runDirect()
 	}
+	if err := j.stopped(); err != nil {
+		return Plane{}, err
+	}
 	return j.out, nil
 }
 
 // nccJob holds one NCC computation.
 type nccJob struct {
+	ctx    context.Context
+	stop   atomic.Bool // set once a worker saw ctx cancelled
 	p, t   Plane
 	ow, oh int
 	tz     []float64 // template minus its mean
@@ -115,8 +135,8 @@ type nccJob struct {
 	out    Plane
 }
 
-func newNCCJob(p, t Plane) *nccJob {
-	j := &nccJob{p: p, t: t, ow: p.W - t.W + 1, oh: p.H - t.H + 1}
+func newNCCJob(ctx context.Context, p, t Plane) *nccJob {
+	j := &nccJob{ctx: ctx, p: p, t: t, ow: p.W - t.W + 1, oh: p.H - t.H + 1}
 	j.out = NewPlane(j.ow, j.oh)
 	n := float64(len(t.Pix))
 	var s float64
@@ -145,14 +165,39 @@ func newNCCJob(p, t Plane) *nccJob {
 	return j
 }
 
+// cancelled reports whether the job should stop: ctx is looked at between
+// rows and tiles, often enough that a cancel takes effect within a few
+// milliseconds, and the answer is remembered for the other workers.
+func (j *nccJob) cancelled() bool {
+	if j.stop.Load() {
+		return true
+	}
+	if j.ctx.Err() != nil {
+		j.stop.Store(true)
+		return true
+	}
+	return false
+}
+
+// stopped returns ctx's error when the job was cancelled.
+func (j *nccJob) stopped() error {
+	if j.stop.Load() {
+		if err := j.ctx.Err(); err != nil {
+			return err
+		}
+		return context.Canceled
+	}
+	return nil
+}
+
 // nccWorkers returns how many goroutines share n pieces of work.
 func nccWorkers(n int) int {
 	return max(1, min(n, runtime.GOMAXPROCS(0)))
 }
 
 // nccParallel runs f(i) for i in [0,n) on a few goroutines, each with its own
-// state from newState.
-func nccParallel[S any](n int, newState func() S, f func(s S, i int)) {
+// state from newState, until stop reports true.
+func nccParallel[S any](n int, stop func() bool, newState func() S, f func(s S, i int)) {
 	var next atomic.Int64
 	var wg sync.WaitGroup
 	for w := nccWorkers(n); w > 0; w-- {
@@ -162,7 +207,7 @@ func nccParallel[S any](n int, newState func() S, f func(s S, i int)) {
 			s := newState()
 			for {
 				i := int(next.Add(1) - 1)
-				if i >= n {
+				if i >= n || stop() {
 					return
 				}
 				f(s, i)
@@ -241,9 +286,12 @@ func (j *nccJob) runDirect() {
 		acc []float64
 		ns  nccNormState
 	}
-	nccParallel(bands, func() *state { return &state{acc: make([]float64, j.ow)} }, func(s *state, b int) {
+	nccParallel(bands, j.cancelled, func() *state { return &state{acc: make([]float64, j.ow)} }, func(s *state, b int) {
 		y0, y1 := b*directBand, min(j.oh, (b+1)*directBand)
 		for y := y0; y < y1; y++ {
+			if j.cancelled() {
+				return
+			}
 			acc := s.acc
 			clear(acc)
 			for ty := 0; ty < th; ty++ {
@@ -288,15 +336,18 @@ func (j *nccJob) runDirect() {
 //	        (M−th+1)×(N−tw+1) outputs cover the map, and with W workers the
 //	        wall time is ⌈tiles/W⌉ tiles, so one huge tile is a bad plan.
 //
-// Tiles stay below maxTileArea samples because the tile and template spectra
-// must share a core's cache; beyond that the measured cost per sample rose by
-// half. The direct path's window sums are the same work on both sides and
+// Tiles above maxTileArea samples cost half as much again per sample
+// (measured: the tile and template spectra no longer share a core's cache);
+// a large template needs them, since a tile of its own size or little more
+// leaves only a few valid outputs per tile. The direct path's window sums are the same work on both sides and
 // do not enter the choice.
 const (
 	costDirect  = 0.57
 	costFFT     = 3.5
 	costTile    = 15.0
 	maxTileArea = 1 << 18
+	// costOutOfCache multiplies the cost of a tile above maxTileArea.
+	costOutOfCache = 1.5
 )
 
 // chooseMethod picks the cheaper way to compute Σ T'·I.
@@ -331,6 +382,10 @@ var fftSizes = func() []int {
 	return s
 }()
 
+// maxTileSamples bounds a tile unless no smaller one fits the template:
+// each worker holds two spectra of 16 bytes per sample.
+const maxTileSamples = 1 << 24
+
 // planTiles picks the FFT tile size M×N (rows×columns) for a w×h image and a
 // tw×th template by the cost model, returning the size and its cost.
 func planTiles(w, h, tw, th int) (m, n int, cost float64) {
@@ -345,29 +400,43 @@ func planTiles(w, h, tw, th int) (m, n int, cost float64) {
 				}
 			}
 		}
-		if len(c) == 0 || c[len(c)-1] < t {
-			c = append(c, t) // template wider than maxTile: any length works
+		if len(c) == 0 || c[len(c)-1] < full {
+			// Beyond maxTile: one tile the length of the axis (any length
+			// works, if more slowly), so a long template does not get a
+			// tile with a single valid output per row.
+			c = append(c, full)
 		}
 		return c
 	}
-	cost = math.Inf(1)
+	type plan struct {
+		m, n int
+		cost float64
+	}
+	best, big := plan{cost: math.Inf(1)}, plan{cost: math.Inf(1)}
 	for _, mm := range cands(th, h) {
 		ty := (oh + mm - th) / (mm - th + 1)
 		for _, nn := range cands(tw, w) {
-			if mm*nn > maxTileArea && (mm > th || nn > tw) {
-				continue
-			}
 			tx := (ow + nn - tw) / (nn - tw + 1)
 			area := float64(mm) * float64(nn)
 			w := nccWorkers(ty * tx)
 			rounds := (ty*tx + w - 1) / w
 			c := float64(rounds) * area * (costFFT*math.Log2(area) + costTile)
-			if c < cost {
-				m, n, cost = mm, nn, c
+			if mm*nn > maxTileArea {
+				c *= costOutOfCache
+			}
+			p := &best
+			if mm*nn > maxTileSamples {
+				p = &big
+			}
+			if c < p.cost {
+				*p = plan{mm, nn, c}
 			}
 		}
 	}
-	return m, n, cost
+	if math.IsInf(best.cost, 1) {
+		best = big
+	}
+	return best.m, best.n, best.cost
 }
 
 // nccFFTState is one worker's transforms and scratch space.
@@ -430,11 +499,15 @@ func (j *nccJob) runFFT(M, N int) {
 		}
 	}
 
-	nccParallel(ty*tx, newState, func(s *nccFFTState, i int) {
+	nccParallel(ty*tx, j.cancelled, newState, func(s *nccFFTState, i int) {
 		oy, ox := (i/tx)*vh, (i%tx)*vw
 		// Forward row transforms, four rows at a time so that the transposed
 		// writes fill whole cache lines.
+		// A tile can be large when the template is: look at ctx inside it.
 		for r0 := 0; r0 < M; r0 += 4 {
+			if j.cancelled() {
+				return
+			}
 			nr := min(4, M-r0)
 			for q := 0; q < nr; q++ {
 				y := oy + r0 + q
@@ -459,6 +532,9 @@ func (j *nccJob) runFFT(M, N int) {
 		}
 		// Column transforms, product with the template spectrum, inverse.
 		for k := 0; k < K; k++ {
+			if k%16 == 0 && j.cancelled() {
+				return
+			}
 			col := s.spec[k*ld : k*ld+M]
 			s.cols.Coefficients(col, col)
 			ts := tspec[k*ld : k*ld+M]
@@ -471,6 +547,9 @@ func (j *nccJob) runFFT(M, N int) {
 		yn := min(vh, j.oh-oy)
 		xn := min(vw, j.ow-ox)
 		for r0 := 0; r0 < yn; r0 += 4 {
+			if j.cancelled() {
+				return
+			}
 			nr := min(4, yn-r0)
 			for k := 0; k < K; k++ {
 				d := s.spec[k*ld+r0 : k*ld+r0+nr]

@@ -1,6 +1,7 @@
 package exemplar
 
 import (
+	"context"
 	"encoding/binary"
 	"encoding/json"
 	"fmt"
@@ -203,7 +204,7 @@ func TestNCCAgainstOpenCV(t *testing.T) {
 			{"fft small tiles", methodFFT, c.TH + 37, c.TW + 50},
 		}
 		for _, run := range runs {
-			got, err := nccTiles(c.img, c.tpl, run.m, run.tm, run.tn)
+			got, err := nccTiles(context.Background(), c.img, c.tpl, run.m, run.tm, run.tn)
 			if err != nil {
 				t.Fatalf("%s %s: %v", c.name, run.name, err)
 			}

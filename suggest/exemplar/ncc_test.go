@@ -182,7 +182,8 @@ func TestNCCPlanesAverage(t *testing.T) {
 // tile boundaries, and with templates as large as the image.
 func TestNCCDirectMatchesFFT(t *testing.T) {
 	r := rand.New(rand.NewPCG(9, 10))
-	for _, sz := range [][4]int{{50, 40, 1, 1}, {50, 40, 3, 5}, {131, 97, 17, 23}, {64, 64, 64, 64}, {300, 80, 40, 80}, {1100, 50, 7, 9}} {
+	for _, sz := range [][4]int{{50, 40, 1, 1}, {50, 40, 3, 5}, {131, 97, 17, 23}, {64, 64, 64, 64}, {300, 80, 40, 80}, {1100, 50, 7, 9},
+		{1100, 60, 1050, 10}, {1201, 40, 1100, 20}} { // the last two: tiles the length of the image, beyond maxTile
 		img := randomPlane(r, sz[0], sz[1])
 		tpl := randomPlane(r, sz[2], sz[3])
 		a, err := nccWith(img, tpl, methodDirect)
@@ -205,6 +206,30 @@ func TestNCCChooseMethod(t *testing.T) {
 	}
 	if m := chooseMethod(4000, 3000, 64, 64); m != methodFFT {
 		t.Errorf("64×64 template on 12 MP: %v, want FFT", m)
+	}
+}
+
+// A template half the image's size needs tiles larger than maxTileArea: a
+// 512×512 tile leaves (512−500+1)² = 169 valid outputs of a 781×461 map,
+// 2196 tiles (overlap-save arithmetic), which took 113 s where two large
+// tiles take a fifth of a second (issue 14). The plan must cover the map
+// in a handful of tiles, and the cost model must prefer it to the direct
+// sum.
+func TestNCCPlanLargeTemplate(t *testing.T) {
+	for _, tpl := range [][2]int{{500, 500}, {700, 700}, {960, 960}, {1200, 100}} {
+		m, n, cost := planTiles(1280, 960, tpl[0], tpl[1])
+		if m < tpl[1] || n < tpl[0] {
+			t.Errorf("template %v: tile %d×%d (rows×columns) smaller than the template", tpl, m, n)
+			continue
+		}
+		ow, oh := 1280-tpl[0]+1, 960-tpl[1]+1
+		tiles := ((oh + m - tpl[1]) / (m - tpl[1] + 1)) * ((ow + n - tpl[0]) / (n - tpl[0] + 1))
+		if tiles > 8 || math.IsInf(cost, 0) {
+			t.Errorf("template %v: %d tiles of %d×%d, cost %g", tpl, tiles, m, n, cost)
+		}
+	}
+	if chooseMethod(1280, 960, 500, 500) != methodFFT {
+		t.Error("500×500 template on 1280×960: not FFT")
 	}
 }
 

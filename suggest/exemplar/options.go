@@ -24,6 +24,9 @@ const (
 	DefaultThreshold  = 0.6
 	DefaultNMS        = 0.3
 	DefaultMaxResults = 200
+	// MaxResultsLimit bounds MaxResults: suppressing overlaps costs a
+	// comparison of every peak with every match kept.
+	MaxResultsLimit = 10000
 )
 
 // DefaultScales are 0.8 to 1.25 in five geometric steps (…, 1, …): a copy a
@@ -73,8 +76,8 @@ func ParseScales(s string) ([]float64, error) {
 			return nil, err
 		}
 		n, err := strconv.Atoi(strings.TrimSpace(parts[2]))
-		if err != nil || n < 1 || n > 100 {
-			return nil, fmt.Errorf("scales %q: steps %q is not a whole number from 1 to 100", s, parts[2])
+		if err != nil || n < 1 || n > MaxScales {
+			return nil, fmt.Errorf("scales %q: steps %q is not a whole number from 1 to %d", s, parts[2], MaxScales)
 		}
 		if hi < lo {
 			return nil, fmt.Errorf("scales %q: lo %g is above hi %g", s, lo, hi)
@@ -84,8 +87,12 @@ func ParseScales(s string) ([]float64, error) {
 		}
 		return geometric(lo, hi, n), nil
 	}
+	list := strings.Split(s, ",")
+	if len(list) > MaxScales {
+		return nil, fmt.Errorf("scales %q: %d scales, at most %d are searched at once", s, len(list), MaxScales)
+	}
 	var out []float64
-	for i, v := range strings.Split(s, ",") {
+	for i, v := range list {
 		f, err := num(fmt.Sprintf("scale %d", i+1), v)
 		if err != nil {
 			return nil, err
@@ -109,6 +116,9 @@ func (o Options) withDefaults() (Options, error) {
 	if len(o.Scales) == 0 {
 		return o, errors.New("exemplar search: no scales")
 	}
+	if len(o.Scales) > MaxScales {
+		return o, fmt.Errorf("exemplar search: %d scales, at most %d are searched at once", len(o.Scales), MaxScales)
+	}
 	for _, s := range o.Scales {
 		if !(s > 0) || math.IsInf(s, 0) {
 			return o, fmt.Errorf("exemplar search: scale %g is not a positive number", s)
@@ -130,8 +140,8 @@ func (o Options) withDefaults() (Options, error) {
 	if o.MaxResults == 0 {
 		o.MaxResults = DefaultMaxResults
 	}
-	if o.MaxResults < 0 {
-		return o, fmt.Errorf("exemplar search: max results %d is negative", o.MaxResults)
+	if o.MaxResults < 0 || o.MaxResults > MaxResultsLimit {
+		return o, fmt.Errorf("exemplar search: max results %d is not from 1 to %d", o.MaxResults, MaxResultsLimit)
 	}
 	return o, nil
 }

@@ -12,7 +12,6 @@ import (
 	"sync"
 
 	"boxwright/project"
-	"boxwright/suggest"
 )
 
 // Search tuning, not options: a person should not need to think about them.
@@ -29,9 +28,9 @@ const (
 	// exemplarIoU: a match overlapping an exemplar by more is the
 	// exemplar itself.
 	exemplarIoU = 0.5
-	// minTemplateSide keeps templates large enough for a meaningful
-	// correlation.
-	minTemplateSide = 3
+	// minExemplarSide is the least an exemplar box may hold inside its
+	// image; scaled, its template must still reach MinTemplateSide.
+	minExemplarSide = 3
 	// maxClimb bounds the moves of a refinement window whose best position
 	// lies on its edge.
 	maxClimb = 8
@@ -75,7 +74,7 @@ func searchImage(ctx context.Context, img image.Image, exemplars []project.Box, 
 		return nil, errors.New("exemplar search: no image")
 	}
 	planes := Planes(img, opt.Feature)
-	set, err := newTemplateSet(planes, exemplars, opt)
+	set, err := newTemplateSet(ctx, planes, exemplars, opt, img.Bounds().Size())
 	if err != nil {
 		return nil, err
 	}
@@ -123,7 +122,7 @@ func (s *templateSet) search(ctx context.Context, planes []Plane, exclude []proj
 		}
 		var err error
 		if level == 0 {
-			found[i], err = s.exhaustive(t, planes)
+			found[i], err = s.exhaustive(ctx, t, planes)
 		} else {
 			found[i], err = s.coarseToFine(ctx, t, pyramid, level)
 		}
@@ -132,14 +131,17 @@ func (s *templateSet) search(ctx context.Context, planes []Plane, exclude []proj
 	if err != nil {
 		return nil, err
 	}
-	return s.finish(slices.Concat(found...), exclude), nil
+	return s.finish(ctx, slices.Concat(found...), exclude)
 }
 
 // exhaustive returns the local maxima of the full-resolution map at or
 // above the threshold.
-func (s *templateSet) exhaustive(t *template, planes []Plane) ([]Match, error) {
-	m, err := t.score(planes, 0)
+func (s *templateSet) exhaustive(ctx context.Context, t *template, planes []Plane) ([]Match, error) {
+	m, err := t.score(ctx, planes, 0)
 	if err != nil {
+		if ctx.Err() != nil {
+			return nil, ctx.Err()
+		}
 		return nil, fmt.Errorf("exemplar search: correlating exemplar %d: %w", t.exemplar, err)
 	}
 	var out []Match
@@ -157,10 +159,13 @@ func (s *templateSet) coarseToFine(ctx context.Context, t *template, pyramid [][
 	coarse := pyramid[level]
 	ct := t.at(level)
 	if ct[0][0].W < 1 || ct[0][0].H < 1 || ct[0][0].W > coarse[0].W || ct[0][0].H > coarse[0].H {
-		return s.exhaustive(t, pyramid[0])
+		return s.exhaustive(ctx, t, pyramid[0])
 	}
-	m, err := t.score(coarse, level)
+	m, err := t.score(ctx, coarse, level)
 	if err != nil {
+		if ctx.Err() != nil {
+			return nil, ctx.Err()
+		}
 		return nil, fmt.Errorf("exemplar search: correlating exemplar %d: %w", t.exemplar, err)
 	}
 	cands := peaks(m, float32(max(0, s.opt.Threshold-2*coarseMargin)))
@@ -181,8 +186,11 @@ func (s *templateSet) coarseToFine(ctx context.Context, t *template, pyramid [][
 			return nil, err
 		}
 		x0, y0 := c.x*f-2*f, c.y*f-2*f
-		p, err := t.refine(full, x0, y0, x0+5*f-1, y0+5*f-1)
+		p, err := t.refine(ctx, full, x0, y0, x0+5*f-1, y0+5*f-1)
 		if err != nil {
+			if ctx.Err() != nil {
+				return nil, ctx.Err()
+			}
 			return nil, fmt.Errorf("exemplar search: refining exemplar %d: %w", t.exemplar, err)
 		}
 		if p.v >= float32(s.opt.Threshold) {
@@ -196,7 +204,7 @@ func (s *templateSet) coarseToFine(ctx context.Context, t *template, pyramid [][
 // in [x0,x1]×[y0,y1]. When the best lies on the window's edge (not the
 // image's) the window moves there, so that what it returns is a local
 // maximum of the full map, the same peak Exhaustive reports.
-func (t *template) refine(planes []Plane, x0, y0, x1, y1 int) (peak, error) {
+func (t *template) refine(ctx context.Context, planes []Plane, x0, y0, x1, y1 int) (peak, error) {
 	mw, mh := planes[0].W-t.w, planes[0].H-t.h // last valid positions
 	best := peak{v: float32(math.Inf(-1))}
 	for range maxClimb {
@@ -210,7 +218,7 @@ func (t *template) refine(planes []Plane, x0, y0, x1, y1 int) (peak, error) {
 		for c, p := range planes {
 			win[c] = Crop(p, r)
 		}
-		m, err := t.score(win, 0)
+		m, err := t.score(ctx, win, 0)
 		if err != nil {
 			return best, err
 		}
@@ -248,29 +256,37 @@ func (t *template) match(x, y int, v float32) Match {
 }
 
 // finish orders the matches, suppresses overlaps, drops the exemplars and
-// keeps MaxResults.
-func (s *templateSet) finish(ms []Match, exclude []project.Box) []Match {
+// keeps MaxResults. The suppression is greedy NMS (as suggest.NMS) over
+// the ordered matches, stopped once MaxResults are kept: a box's fate
+// depends only on the boxes before it, so stopping early changes nothing,
+// and a busy map's many thousand peaks cost MaxResults comparisons each
+// instead of one per kept box. Exemplars still suppress what they overlap.
+func (s *templateSet) finish(ctx context.Context, ms []Match, exclude []project.Box) ([]Match, error) {
 	// A total order, so that ties do not depend on goroutine timing.
 	slices.SortFunc(ms, func(a, b Match) int {
 		return cmp.Or(cmp.Compare(b.Score, a.Score), cmp.Compare(a.Box.Y0, b.Box.Y0), cmp.Compare(a.Box.X0, b.Box.X0),
 			cmp.Compare(a.Scale, b.Scale), cmp.Compare(a.Rotation, b.Rotation), cmp.Compare(a.Exemplar, b.Exemplar))
 	})
-	boxes := make([]project.Box, len(ms))
-	scores := make([]float64, len(ms))
-	for i, m := range ms {
-		boxes[i], scores[i] = m.Box, m.Score
-	}
+	var kept []project.Box
 	var out []Match
-	for _, i := range suggest.NMS(boxes, scores, s.opt.NMS) {
-		if overlapsAny(ms[i].Box, exclude, exemplarIoU) {
-			continue
-		}
-		out = append(out, ms[i])
+	for i, m := range ms {
 		if len(out) == s.opt.MaxResults {
 			break
 		}
+		if i%1024 == 0 {
+			if err := ctx.Err(); err != nil {
+				return nil, err
+			}
+		}
+		if overlapsAny(m.Box, kept, s.opt.NMS) {
+			continue
+		}
+		kept = append(kept, m.Box)
+		if !overlapsAny(m.Box, exclude, exemplarIoU) {
+			out = append(out, m)
+		}
 	}
-	return out
+	return out, nil
 }
 
 // overlapsAny reports whether b overlaps one of the boxes by more than iou.

@@ -189,7 +189,7 @@ func TestSearchCoarseLevel(t *testing.T) {
 	plant(img, patch, 200, 60, 1, 0, 6, rng)
 	plant(img, patch, 310, 220-20, 0.7, 50, 0, rng)
 	opt, _ := Options{}.withDefaults()
-	set, err := newTemplateSet(Planes(img, FeatureGray), []project.Box{box(30, 40, 48, 40)}, opt)
+	set, err := newTemplateSet(context.Background(), Planes(img, FeatureGray), []project.Box{box(30, 40, 48, 40)}, opt, img.Bounds().Size())
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -246,13 +246,13 @@ func TestSearchFlatRegion(t *testing.T) {
 	ex := []project.Box{box(30, 40, 24, 20)}
 	run(t, img, ex, Options{}, []project.Box{box(200, 60, 24, 20)}, 1)
 	opt, _ := Options{}.withDefaults()
-	set, err := newTemplateSet(Planes(img, FeatureGray), ex, opt)
+	set, err := newTemplateSet(context.Background(), Planes(img, FeatureGray), ex, opt, img.Bounds().Size())
 	if err != nil {
 		t.Fatal(err)
 	}
 	flat := Crop(Planes(img, FeatureGray)[0], image.Rect(200, 150, 400, 300))
 	for _, tp := range set.templates {
-		m, err := tp.score([]Plane{flat}, 0)
+		m, err := tp.score(context.Background(), []Plane{flat}, 0)
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -289,7 +289,7 @@ func TestSearchTwoExemplarsVote(t *testing.T) {
 	}
 	// Same size: one template per scale; different sizes fall back to max.
 	opt, _ := Options{Vote: "mean"}.withDefaults()
-	set, err := newTemplateSet(Planes(img, FeatureGray), ex, opt)
+	set, err := newTemplateSet(context.Background(), Planes(img, FeatureGray), ex, opt, img.Bounds().Size())
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -297,7 +297,7 @@ func TestSearchTwoExemplarsVote(t *testing.T) {
 		t.Errorf("mean vote, same size: %d templates, want %d", n, len(opt.Scales))
 	}
 	opt.Rotations = true
-	set, err = newTemplateSet(Planes(img, FeatureGray), []project.Box{box(30, 40, 24, 20), box(120, 40, 30, 26)}, opt)
+	set, err = newTemplateSet(context.Background(), Planes(img, FeatureGray), []project.Box{box(30, 40, 24, 20), box(120, 40, 30, 26)}, opt, img.Bounds().Size())
 	if err != nil {
 		t.Fatal(err)
 	}

@@ -1,6 +1,7 @@
 package exemplar
 
 import (
+	"context"
 	"errors"
 	"fmt"
 	"image"
@@ -54,10 +55,10 @@ func (t *template) at(l int) [][]Plane {
 
 // score correlates the template at level l with the image planes ps and
 // averages the voters' maps.
-func (t *template) score(ps []Plane, l int) (Plane, error) {
+func (t *template) score(ctx context.Context, ps []Plane, l int) (Plane, error) {
 	var sum Plane
 	for i, v := range t.at(l) {
-		m, err := NCCPlanes(ps, v)
+		m, err := nccPlanes(ctx, ps, v)
 		if err != nil {
 			return Plane{}, err
 		}
@@ -85,13 +86,18 @@ func (t *template) score(ps []Plane, l int) (Plane, error) {
 // and correlated with any number of images.
 type templateSet struct {
 	opt       Options
+	plan      ScalePlan // the scales searched
 	templates []*template
 	minSide   int // shortest side of any template
 }
 
-// newTemplateSet cuts the exemplars from an image's planes and builds every scale and
-// turn. Options must have their defaults filled.
-func newTemplateSet(planes []Plane, exemplars []project.Box, opt Options) (*templateSet, error) {
+// newTemplateSet cuts the exemplars from an image's planes and builds every
+// scale and turn that PlanScales keeps for images of at most size largest;
+// a template of an exemplar that is too small or too large at a kept scale
+// is left out. Options must have their defaults filled. Resizing and
+// turning hundreds of large templates takes a while, so a cancelled ctx
+// stops it between scales.
+func newTemplateSet(ctx context.Context, planes []Plane, exemplars []project.Box, opt Options, largest image.Point) (*templateSet, error) {
 	if len(exemplars) == 0 {
 		return nil, errors.New("exemplar search: no exemplars")
 	}
@@ -105,25 +111,36 @@ func newTemplateSet(planes []Plane, exemplars []project.Box, opt Options) (*temp
 			return nil, fmt.Errorf("exemplar %d: box %v is not a valid box", i, b)
 		}
 		r := image.Rect(int(math.Round(b.X0)), int(math.Round(b.Y0)), int(math.Round(b.X1)), int(math.Round(b.Y1))).Intersect(image.Rect(0, 0, iw, ih))
-		if r.Dx() < minTemplateSide || r.Dy() < minTemplateSide {
-			return nil, fmt.Errorf("exemplar %d: box %v has less than %d×%d pixels inside the %d×%d image", i, b, minTemplateSide, minTemplateSide, iw, ih)
+		if r.Dx() < minExemplarSide || r.Dy() < minExemplarSide {
+			return nil, fmt.Errorf("exemplar %d: box %v has less than %d×%d pixels inside the %d×%d image", i, b, minExemplarSide, minExemplarSide, iw, ih)
 		}
 		crops[i] = make([]Plane, len(planes))
 		for c, p := range planes {
 			crops[i][c] = Crop(p, r)
 		}
 	}
+	plan, err := PlanScales(opt, exemplars, image.Pt(iw, ih), largest)
+	if err != nil {
+		return nil, err
+	}
+	largest = image.Pt(max(largest.X, iw), max(largest.Y, ih))
 	turns := []int{0}
 	if opt.Rotations {
 		turns = []int{0, 1, 2, 3}
 	}
-	set := &templateSet{opt: opt, minSide: math.MaxInt}
-	for _, s := range opt.Scales {
+	set := &templateSet{opt: opt, plan: plan, minSide: math.MaxInt}
+	for _, s := range plan.Searched {
+		if err := ctx.Err(); err != nil {
+			return nil, err
+		}
 		type size struct{ w, h int }
 		groups := map[size]int{} // size → index into set.templates, for mean voting
 		for e, chans := range crops {
-			w := max(minTemplateSide, int(math.Round(float64(chans[0].W)*s)))
-			h := max(minTemplateSide, int(math.Round(float64(chans[0].H)*s)))
+			ts := templateSize(image.Pt(chans[0].W, chans[0].H), s)
+			if templateFits(ts, largest, opt.Rotations) != "" {
+				continue // another exemplar makes this scale worth searching
+			}
+			w, h := ts.X, ts.Y
 			scaled := make([]Plane, len(chans))
 			for c, p := range chans {
 				if w == p.W && h == p.H {
