@@ -396,6 +396,7 @@ func TestKappaNeighbouringInputFaults(t *testing.T) {
 	kappaFails(t, 1, []string{dir, "a folder"}, "--table", dir)
 	kappaFails(t, 1, []string{dir, "a folder"}, "--ratings", dir)
 	kappaFails(t, 1, []string{"big.csv", "line 2", "1 MiB"}, "--table", writeFile(t, "big.csv", "1,2\n"+strings.Repeat(" ", 1<<20)+"3,4\n"))
+	kappaFails(t, 1, []string{"open.csv", "line 2", "not closed within"}, "--ratings", writeFile(t, "open.csv", "a,b\n\"x,"+strings.Repeat("y\n", 600000)))
 	kappaFails(t, 1, []string{"many.csv", "line 1", "1000 cells"}, "--table", writeFile(t, "many.csv", strings.Repeat("1,", 1000)+"1\n"))
 	// A 1×1 table: kappa is undefined, said in notes.
 	m := kappaJSONOut(t, "--table", writeFile(t, "one.csv", "7\n"))
@@ -412,6 +413,12 @@ func TestKappaNeighbouringInputFaults(t *testing.T) {
 	kappaFails(t, 1, []string{"noname.csv", "line 1, column 2", "no name"}, "--ratings", writeFile(t, "noname.csv", "a,,c\n1,2,3\n"))
 	kappaFails(t, 1, []string{"nounits.csv", "no units"}, "--ratings", writeFile(t, "nounits.csv", "a,b\n"))
 	kappaFails(t, 1, []string{"long.csv", "line 2, column 3", "2 raters"}, "--ratings", writeFile(t, "long.csv", "a,b\n1,2,3\n"))
+	var wide strings.Builder
+	wide.WriteString("a,b\n")
+	for i := range 1001 {
+		fmt.Fprintf(&wide, "%d,%d\n", i, i)
+	}
+	kappaFails(t, 1, []string{"wide.csv", "1001 distinct categories", "at most 1000"}, "--ratings", writeFile(t, "wide.csv", wide.String()), "--level", "interval")
 	// Text categories have no order of their own: ordinal alpha and
 	// linear or quadratic weights need it from --categories.
 	lmh := writeFile(t, "lmh.csv", "a,b\nlow,medium\nhigh,high\nmedium,low\nlow,low\n")

@@ -217,9 +217,10 @@ var ErrCategoryOrder = errors.New("the categories are not all numbers, so their 
 // CompareRatings computes Krippendorff's alpha and percent agreement of
 // any number of raters; Cohen's kappa (weighted as asked) from the k×k
 // contingency table when there are two; Fleiss' kappa when every unit has
-// every rater's category. At the interval and ratio levels every rating
-// must be a finite decimal number (not negative at the ratio level);
-// errors name the unit's line and the rater.
+// every rater's category. At most MaxCells categories are compared. At the
+// interval and ratio levels every rating must be a finite decimal number
+// (not negative at the ratio level); errors name the unit's line and the
+// rater.
 func CompareRatings(r Ratings, opt RatingsOptions) (RatingsReport, error) {
 	cats := opt.Categories
 	if cats == nil {
@@ -231,6 +232,11 @@ func CompareRatings(r Ratings, opt RatingsOptions) (RatingsReport, error) {
 			return RatingsReport{}, fmt.Errorf("%q: %w", c, ErrDuplicateCategory)
 		}
 		idx[c] = i
+	}
+	if len(cats) > MaxCells {
+		// The tables built from them are k×k (Cohen, alpha) and units×k
+		// (Fleiss).
+		return RatingsReport{}, fmt.Errorf("the ratings hold %d distinct categories (values); at most %d can be compared", len(cats), MaxCells)
 	}
 	weights := opt.Weights
 	if weights == "" {

@@ -96,15 +96,21 @@ func (rr *recordReader) next() ([]string, int, error) {
 			}
 			rr.buf = bytes.TrimPrefix(rr.buf, []byte("\xef\xbb\xbf"))
 		}
-		// A quoted cell may span lines: read on while a quote is open.
-		for err == nil && bytes.Count(rr.buf, []byte(`"`))%2 == 1 {
+		// A quoted cell may span lines: read on while a quote is open,
+		// counting the quotes of each new line only.
+		quotes := bytes.Count(rr.buf, []byte(`"`))
+		for err == nil && quotes%2 == 1 {
+			n := len(rr.buf)
 			if err = rr.physLine(); errors.Is(err, io.EOF) {
 				return nil, 0, rr.fail(first, 0, "a double quote opens a cell that is never closed")
 			}
+			quotes += bytes.Count(rr.buf[n:], []byte(`"`))
 		}
 		switch {
 		case errors.Is(err, io.EOF):
 			return nil, 0, io.EOF
+		case errors.Is(err, errTooLong) && quotes%2 == 1:
+			return nil, 0, rr.fail(first, 0, "a double quote opens a cell that is not closed within %d bytes (1 MiB), the most one line may hold here", MaxRecordBytes)
 		case errors.Is(err, errTooLong):
 			return nil, 0, rr.fail(first, 0, "the line holds more than %d bytes (1 MiB), the most one line may hold here", MaxRecordBytes)
 		case err != nil:
