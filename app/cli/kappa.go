@@ -210,7 +210,7 @@ func kappaOfRatings(path, weightSpec, levelName, catList string) (kappaResult, e
 		return kappaResult{}, usageError(err.Error())
 	}
 	if _, _, err := weightsFor(weightSpec, 2); err != nil {
-		return kappaResult{}, usageError(err.Error())
+		return kappaResult{}, usageError(fmt.Sprintf("--weights %q: with --ratings use none, linear or quadratic (a CSV file of weights goes with --table)", weightSpec))
 	}
 	opt := agree.RatingsOptions{Level: level, Weights: weightSpec}
 	if catList != "" {

@@ -409,6 +409,7 @@ func TestKappaNeighbouringInputFaults(t *testing.T) {
 	kappaFails(t, 2, []string{"--categories", "empty"}, "--ratings", writeFile(t, "r.csv", "a,b\nx,y\n"), "--categories", "x,,y")
 	kappaFails(t, 2, []string{"--categories", `"x" twice`}, "--ratings", writeFile(t, "r.csv", "a,b\nx,y\n"), "--categories", "x,y,x")
 	kappaFails(t, 2, []string{"--weights", "cubic"}, "--ratings", writeFile(t, "r3.csv", "a,b,c\n1,2,3\n"), "--weights", "cubic")
+	kappaFails(t, 2, []string{"--weights", "with --ratings use none, linear or quadratic"}, "--ratings", writeFile(t, "r2.csv", "a,b\n1,2\n"), "--weights", writeFile(t, "w.csv", "0,1\n1,0\n"))
 	kappaFails(t, 1, []string{"dupr.csv", "line 1, column 3", `"a" is named twice`}, "--ratings", writeFile(t, "dupr.csv", "a,b,a\n1,2,3\n"))
 	kappaFails(t, 1, []string{"noname.csv", "line 1, column 2", "no name"}, "--ratings", writeFile(t, "noname.csv", "a,,c\n1,2,3\n"))
 	kappaFails(t, 1, []string{"nounits.csv", "no units"}, "--ratings", writeFile(t, "nounits.csv", "a,b\n"))
