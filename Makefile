@@ -42,7 +42,7 @@ unit:
 FUZZTIME ?= 40000x
 fuzz:
 	@mkdir -p build
-	@for pkg in ./project/formats ./store/imagefile ./suggest/detector/nn; do \
+	@for pkg in ./project/formats ./project/agree ./store/imagefile ./suggest/detector/nn; do \
 	  for f in $$(grep -ho '^func Fuzz[A-Za-z0-9_]*' $$pkg/*_test.go | sed 's/^func //'); do \
 	    echo "fuzz $$pkg $$f"; \
 	    $(GO) test $$pkg -run '^$$' -fuzz "^$$f$$" -fuzztime $(FUZZTIME) > build/fuzz.log 2>&1 || { cat build/fuzz.log; exit 1; }; \

@@ -59,10 +59,11 @@ func cmdAgree(args []string, stdout, stderr io.Writer) error {
 	case "linear", "quadratic":
 		opt.Weights, _ = agree.DisagreementWeights(*weights, len(opt.Classes))
 	default:
-		w, _, err := readMatrix(*weights, "weights")
+		wm, err := readWeightsFile(*weights)
 		if err != nil {
 			return err
 		}
+		w := wm.Values
 		if len(w) != len(opt.Classes) {
 			return fmt.Errorf("%s: %d×%d weights for the project's %d classes (%s)", *weights, len(w), len(w), len(opt.Classes), strings.Join(d.Names(opt.Classes), ", "))
 		}

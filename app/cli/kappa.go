@@ -1,12 +1,14 @@
 package cli
 
 import (
-	"encoding/csv"
 	"errors"
 	"flag"
 	"fmt"
 	"io"
+	"io/fs"
 	"math"
+	"os"
+	"slices"
 	"strings"
 
 	"boxwright/app/ops"
@@ -29,11 +31,16 @@ func cmdKappa(args []string, stdout, stderr io.Writer) error {
 	if (*table == "") == (*ratings == "") {
 		return usageError("give exactly one of --table and --ratings\nusage: boxwright " + synopsis)
 	}
+	levelSet := false
+	fs.Visit(func(f *flag.Flag) { levelSet = levelSet || f.Name == "level" })
 	var res kappaResult
 	var err error
 	if *table != "" {
 		if *cats != "" {
 			return usageError("--categories goes with --ratings; a table's categories are its rows")
+		}
+		if levelSet {
+			return usageError("--level goes with --ratings (Krippendorff's alpha); a table gives Cohen's kappa")
 		}
 		res, err = kappaOfTable(*table, *weights)
 	} else {
@@ -71,7 +78,7 @@ func (r kappaResult) json() map[string]any {
 		out["units"], out["raters"] = r.units, r.raters
 	}
 	if k := r.cohen; k != nil {
-		out["n"], out["po"], out["pe"], out["kappa"] = k.N, ops.Num(k.Po), ops.Num(k.Pe), ops.Num(k.Kappa)
+		out["n"], out["po"], out["pe"], out["kappa"] = ops.Num(k.N), ops.Num(k.Po), ops.Num(k.Pe), ops.Num(k.Kappa)
 		out["se"], out["ci95"], out["se0"], out["z"] = ops.Num(k.SE), ops.Interval(k.CI95), ops.Num(k.SE0), ops.Num(k.Z)
 		if !math.IsNaN(k.Kappa) {
 			out["band"] = agree.Band(k.Kappa)
@@ -128,26 +135,6 @@ func (r kappaResult) print(w io.Writer) {
 	}
 }
 
-// readCSV reads a whole CSV file; rows may differ in length.
-func readCSV(path string) ([][]string, error) {
-	f, err := formats.OpenFile(path)
-	if err != nil {
-		return nil, err
-	}
-	defer f.Close()
-	r := csv.NewReader(f)
-	r.FieldsPerRecord = -1
-	r.TrimLeadingSpace = true
-	rows, err := r.ReadAll()
-	if err != nil {
-		return nil, fmt.Errorf("%s: %w", path, err)
-	}
-	if len(rows) == 0 {
-		return nil, fmt.Errorf("%s: the file is empty", path)
-	}
-	return rows, nil
-}
-
 func weightsFor(spec string, k int) ([][]float64, string, error) {
 	switch spec {
 	case "", "none":
@@ -159,52 +146,61 @@ func weightsFor(spec string, k int) ([][]float64, string, error) {
 	return nil, "", fmt.Errorf("--weights %q: use none, linear, quadratic or a CSV file of weights", spec)
 }
 
+// readTableFile reads a table of counts (agree.ReadTable) from a regular file.
+func readTableFile(path string) (agree.Matrix, error) {
+	f, err := formats.OpenFile(path)
+	if err != nil {
+		return agree.Matrix{}, err
+	}
+	defer f.Close()
+	return agree.ReadTable(f, path)
+}
+
+// readWeightsFile reads a table of disagreement weights (agree.ReadWeights)
+// from a regular file; a --weights value that is no file and no kind of
+// weights is a usage error.
+func readWeightsFile(path string) (agree.Matrix, error) {
+	if _, err := os.Stat(path); errors.Is(err, fs.ErrNotExist) {
+		return agree.Matrix{}, usageError(fmt.Sprintf("--weights %q: use none, linear, quadratic or a CSV file of weights (there is no file %s)", path, path))
+	}
+	f, err := formats.OpenFile(path)
+	if err != nil {
+		return agree.Matrix{}, err
+	}
+	defer f.Close()
+	return agree.ReadWeights(f, path)
+}
+
 func kappaOfTable(path, weightSpec string) (kappaResult, error) {
-	t, names, err := readMatrix(path, "table of counts")
+	t, err := readTableFile(path)
 	if err != nil {
 		return kappaResult{}, err
 	}
-	res := kappaResult{categories: names}
+	res := kappaResult{categories: t.Names}
+	k := len(t.Values)
 	var w [][]float64
 	if weightSpec != "" && weightSpec != "none" && weightSpec != "linear" && weightSpec != "quadratic" {
-		if w, _, err = readMatrix(weightSpec, "weights"); err != nil {
+		wm, err := readWeightsFile(weightSpec)
+		if err != nil {
 			return res, err
 		}
-		if len(w) != len(t) {
-			return res, fmt.Errorf("%s: %d×%d weights for a %d×%d table", weightSpec, len(w), len(w), len(t), len(t))
+		if len(wm.Values) != k {
+			return res, fmt.Errorf("%s: %d×%d weights for a %d×%d table", weightSpec, len(wm.Values), len(wm.Values), k, k)
 		}
+		if wm.Named && t.Named && !slices.Equal(wm.Names, t.Names) {
+			return res, fmt.Errorf("%s names the categories %s, but %s names them %s: the weights must be in the table's order", weightSpec, strings.Join(wm.Names, ", "), path, strings.Join(t.Names, ", "))
+		}
+		w = wm.Values
 		res.weights = "custom (" + weightSpec + ")"
-	} else if w, res.weights, err = weightsFor(weightSpec, len(t)); err != nil {
+	} else if w, res.weights, err = weightsFor(weightSpec, k); err != nil {
 		return res, usageError(err.Error())
 	}
-	k, err := agree.TableKappa(t, w)
+	kap, err := agree.TableKappa(t.Values, w)
 	if err != nil {
 		return res, fmt.Errorf("%s: %w", path, err)
 	}
-	res.cohen = &k
+	res.cohen = &kap
 	return res, nil
-}
-
-// readMatrix reads a square matrix of numbers from a CSV file.
-func readMatrix(path, what string) ([][]float64, []string, error) {
-	rows, err := readCSV(path)
-	if err != nil {
-		return nil, nil, err
-	}
-	m, names, err := agree.ParseMatrix(rows, what)
-	return m, names, located(path, err)
-}
-
-// located puts the file name in front of a table error.
-func located(path string, err error) error {
-	if err == nil {
-		return nil
-	}
-	var ie *agree.InputError
-	if errors.As(err, &ie) && ie.Line > 0 {
-		return fmt.Errorf("%s, %w", path, err)
-	}
-	return fmt.Errorf("%s: %w", path, err)
 }
 
 // kappaOfRatings compares the raters of a CSV file of ratings.
@@ -213,33 +209,48 @@ func kappaOfRatings(path, weightSpec, levelName, catList string) (kappaResult, e
 	if err != nil {
 		return kappaResult{}, usageError(err.Error())
 	}
-	rows, err := readCSV(path)
-	if err != nil {
-		return kappaResult{}, err
-	}
-	r, err := agree.ParseRatings(rows)
-	if err != nil {
-		return kappaResult{}, located(path, err)
+	if _, _, err := weightsFor(weightSpec, 2); err != nil {
+		return kappaResult{}, usageError(fmt.Sprintf("--weights %q: with --ratings use none, linear or quadratic (a CSV file of weights goes with --table)", weightSpec))
 	}
 	opt := agree.RatingsOptions{Level: level, Weights: weightSpec}
 	if catList != "" {
-		for _, c := range strings.Split(catList, ",") {
-			opt.Categories = append(opt.Categories, strings.TrimSpace(c))
+		for i, c := range strings.Split(catList, ",") {
+			if c = strings.TrimSpace(c); c == "" {
+				return kappaResult{}, usageError(fmt.Sprintf("--categories %q: entry %d is empty", catList, i+1))
+			}
+			opt.Categories = append(opt.Categories, c)
 		}
 	}
-	if len(r.Raters) == 2 {
-		if _, _, err := weightsFor(weightSpec, 2); err != nil {
-			return kappaResult{}, usageError(err.Error())
-		}
+	f, err := formats.OpenFile(path)
+	if err != nil {
+		return kappaResult{}, err
+	}
+	defer f.Close()
+	r, err := agree.ReadRatings(f, path)
+	if err != nil {
+		return kappaResult{}, err
 	}
 	rep, err := agree.CompareRatings(r, opt)
-	if errors.Is(err, agree.ErrDuplicateCategory) {
+	switch {
+	case errors.Is(err, agree.ErrDuplicateCategory):
 		return kappaResult{}, usageError(fmt.Sprintf("--categories names %s twice", strings.TrimSuffix(err.Error(), ": "+agree.ErrDuplicateCategory.Error())))
+	case errors.Is(err, agree.ErrCategoryOrder):
+		what := "--level ordinal"
+		if level != agree.Ordinal {
+			what = "--weights " + weightSpec
+		}
+		return kappaResult{}, usageError(fmt.Sprintf("%s needs the categories in order, but %s holds %s, which are not all numbers: give their order with --categories, such as --categories %s",
+			what, path, strings.Join(rep.Categories, ", "), strings.Join(rep.Categories, ",")))
 	}
 	res := kappaResult{categories: rep.Categories, raters: rep.Raters, units: rep.Units, weights: rep.Weights,
 		cohen: rep.Cohen, fleiss: rep.Fleiss, alpha: rep.Alpha, percent: rep.Percent, notes: rep.Notes}
+	var ie *agree.InputError
+	if errors.As(err, &ie) && ie.File == "" {
+		ie.File = path
+		return res, err
+	}
 	if err != nil {
-		return res, located(path, err)
+		return res, fmt.Errorf("%s: %w", path, err)
 	}
 	return res, nil
 }

@@ -2,6 +2,7 @@ package cli
 
 import (
 	"encoding/json"
+	"fmt"
 	"math"
 	"os"
 	"path/filepath"
@@ -241,5 +242,199 @@ func TestAgreeAndConsensusCommands(t *testing.T) {
 		if code, _, _ := cli(t, bad...); code == 0 {
 			t.Errorf("%v succeeded", bad)
 		}
+	}
+}
+
+// kappaFails runs kappa and wants the exit status code and every one of
+// the phrases in its message; nothing may go to stdout.
+func kappaFails(t *testing.T, code int, want []string, args ...string) {
+	t.Helper()
+	got, out, stderr := cli(t, append([]string{"kappa"}, args...)...)
+	if got != code || out != "" {
+		t.Errorf("kappa %v: exit %d (want %d), stdout %q", args, got, code, out)
+	}
+	for _, w := range want {
+		if !strings.Contains(stderr, w) {
+			t.Errorf("kappa %v: %q does not mention %q", args, stderr, w)
+		}
+	}
+}
+
+// Issue 14, item 14, part 1: counts whose total overflows, and NaN, Inf,
+// negative or too large cells, are refused with the file, line and
+// column; the text and JSON reports never carry NaN or Inf.
+func TestKappaTableRefusesNonFiniteCounts(t *testing.T) {
+	huge := writeFile(t, "huge.csv", "1e308,1e308\n1e308,1e308\n")
+	for _, args := range [][]string{{"--table", huge}, {"--table", huge, "--json"}} {
+		kappaFails(t, 1, []string{"huge.csv", "line 1, column 2", "add up to more than"}, args...)
+	}
+	for _, c := range []struct{ body, want string }{
+		{"NaN,1\n1,1\n", `line 1, column 1: "NaN" is not a number`},
+		{"1,2\n+Inf,1\n", `line 2, column 1: "+Inf" is not a number`},
+		{"1,2\n3,1e400\n", `line 2, column 2: "1e400" is too large`},
+		{"1,-2\n3,4\n", "line 1, column 2: -2 is negative"},
+		{"1,0x10\n3,4\n", `line 1, column 2: "0x10" is not a number`},
+		{"1,1_0\n3,4\n", `line 1, column 2: "1_0" is not a number`},
+		{"1,\n3,4\n", "line 1, column 2: the cell is empty"},
+	} {
+		kappaFails(t, 1, []string{"bad.csv", c.want}, "--table", writeFile(t, "bad.csv", c.body))
+	}
+	// Counts so small that the standard error overflows: the report says
+	// "undefined" (JSON null) rather than failing or printing +Inf.
+	tiny := writeFile(t, "tiny.csv", "1e-310,1e-310\n1e-310,3e-310\n")
+	m := kappaJSONOut(t, "--table", tiny)
+	if m["kappa"] == nil || m["se"] != nil || m["ci95"] != nil {
+		t.Errorf("tiny counts: kappa %v, se %v, ci95 %v", m["kappa"], m["se"], m["ci95"])
+	}
+	if text := mustCLI(t, "kappa", "--table", tiny); strings.Contains(text, "Inf") || strings.Contains(text, "NaN") {
+		t.Errorf("tiny counts print\n%s", text)
+	}
+}
+
+// Part 2: the first row is a header only when none of its cells is a
+// number (or its first cell is empty); a text cell in a data row is an
+// error naming the row, the column and the text.
+func TestKappaTableHeaderDetection(t *testing.T) {
+	kappaFails(t, 1, []string{"h.csv", `line 1, column 2: "x" is not a number`}, "--table", writeFile(t, "h.csv", "1,x\n3,4\n"))
+	kappaFails(t, 1, []string{"h2.csv", `line 1, column 1: "x" is not a number`}, "--table", writeFile(t, "h2.csv", "x,2\n3,4\n"))
+	// A header of numbers after an empty corner cell names the categories.
+	m := kappaJSONOut(t, "--table", writeFile(t, "likert.csv", ",1,2\n1,20,5\n2,10,15\n"))
+	nearJSON(t, "kappa", m["kappa"], 0.40, 1e-12) // the Wikipedia 2×2 example, as above
+	if c := m["categories"].([]any); len(c) != 2 || c[0] != "1" || c[1] != "2" {
+		t.Errorf("categories %v", c)
+	}
+}
+
+// Part 3: semicolons and tabs as separators, a byte-order mark with CRLF
+// line ends, and a column of names without a header row all read as the
+// same 2×2 table (the Wikipedia example: κ 0.40).
+func TestKappaTableSeparatorsAndNames(t *testing.T) {
+	for _, c := range []struct {
+		body  string
+		names []string
+	}{
+		{"20;5\n10;15\n", []string{"1", "2"}},
+		{"20\t5\n10\t15\n", []string{"1", "2"}},
+		{"\ufeff20,5\r\n10,15\r\n", []string{"1", "2"}},
+		{"\ufeff;yes;no\r\nyes;20;5\r\nno;10;15\r\n", []string{"yes", "no"}},
+		{"yes,20,5\nno,10,15\n", []string{"yes", "no"}},
+		{"yes\t20\t5\nno\t10\t15\n", []string{"yes", "no"}},
+		{"yes,no\n20,5\n10,15\n", []string{"yes", "no"}},
+		{"A\\B,yes,no\nyes,20,5\nno,10,15\n", []string{"yes", "no"}},
+		{"\n\"yes\",20,5\n\n\"no\" , 10 , 15 \n\n", []string{"yes", "no"}},
+		{"20,5,\n10,15,\n", []string{"1", "2"}}, // a separator at the end of every line
+	} {
+		m := kappaJSONOut(t, "--table", writeFile(t, "t.csv", c.body))
+		nearJSON(t, fmt.Sprintf("kappa of %q", c.body), m["kappa"], 0.40, 1e-12)
+		if got := fmt.Sprint(m["categories"]); got != fmt.Sprint(c.names) {
+			t.Errorf("%q: categories %s, want %v", c.body, got, c.names)
+		}
+	}
+	// The separator is decided by the first line: a comma there makes
+	// "20;5" one cell.
+	kappaFails(t, 1, []string{"mixed.csv", "line 2 has 1 cells, line 1 has 2", "separated by a comma"}, "--table", writeFile(t, "mixed.csv", "20,5\n10;15\n"))
+	kappaFails(t, 1, []string{"u16.csv", "UTF-16"}, "--table", writeFile(t, "u16.csv", "\xff\xfe2\x000\x00,\x005\x00\n\x00"))
+	kappaFails(t, 1, []string{"cr.csv", "carriage return"}, "--table", writeFile(t, "cr.csv", "20,5\r10,15\r"))
+	kappaFails(t, 1, []string{"q.csv", "line 1", "quote"}, "--table", writeFile(t, "q.csv", "\"yes,20,5\nno,10,15\n"))
+}
+
+// Part 4: a fault of the weights file is reported against that file.
+func TestKappaWeightsErrorsNameTheWeightsFile(t *testing.T) {
+	tbl := writeFile(t, "table.csv", "20,5\n10,15\n")
+	for _, c := range []struct{ body, want string }{
+		{"1,1\n1,0\n", "line 1, column 1: the weight on the diagonal must be 0"},
+		{"0,-1\n1,0\n", "line 1, column 2: -1 is negative"},
+		{"0,NaN\n1,0\n", `line 1, column 2: "NaN" is not a number`},
+		{"0,1,2\n1,0,1\n2,1,0\n", "3×3 weights for a 2×2 table"},
+	} {
+		got, _, stderr := cli(t, "kappa", "--table", tbl, "--weights", writeFile(t, "weights.csv", c.body))
+		if got != 1 || !strings.Contains(stderr, "weights.csv") || !strings.Contains(stderr, c.want) || strings.Contains(stderr, "table.csv") {
+			t.Errorf("weights %q: exit %d, %q", c.body, got, stderr)
+		}
+	}
+	named := writeFile(t, "named.csv", ",yes,no\nyes,20,5\nno,10,15\n")
+	kappaFails(t, 1, []string{"named.csv", "w2.csv", "yes, no", "no, yes"}, "--table", named, "--weights", writeFile(t, "w2.csv", ",no,yes\nno,0,1\nyes,1,0\n"))
+	kappaFails(t, 2, []string{"cubic", "none, linear, quadratic"}, "--table", named, "--weights", "cubic")
+}
+
+// Part 5: row names must be the column names in the same order.
+func TestKappaTableRowAndColumnNamesMatch(t *testing.T) {
+	kappaFails(t, 1, []string{"rc.csv", "line 3, column 1", `"c"`, `"b"`}, "--table", writeFile(t, "rc.csv", ",a,b\na,1,2\nc,3,4\n"))
+	kappaFails(t, 1, []string{"rc2.csv", "line 2, column 1", `"b"`, `"a"`}, "--table", writeFile(t, "rc2.csv", "a,b\nb,1,2\na,3,4\n"))
+	kappaFails(t, 1, []string{"dup.csv", "line 1, column 3", `"a" is named twice`}, "--table", writeFile(t, "dup.csv", ",a,a\na,1,2\na,3,4\n"))
+	kappaFails(t, 1, []string{"dup2.csv", "line 2, column 1", `"a" is named twice`}, "--table", writeFile(t, "dup2.csv", "a,1,2\na,3,4\n"))
+	kappaFails(t, 1, []string{"nameless.csv", "line 1, column 2", "no name"}, "--table", writeFile(t, "nameless.csv", ",,b\na,1,2\nb,3,4\n"))
+}
+
+// Part 6: NaN and Inf are not ratings at the interval or ratio level;
+// an empty cell is the way to leave one out.
+func TestKappaRatingsRefuseNonFiniteValues(t *testing.T) {
+	for _, c := range []struct{ body, level, want string }{
+		{"a,b\n1,2\n2,NaN\n3,3\n", "interval", `line 3, rater "b": "NaN" is not a number`},
+		{"a,b\n1,2\nInf,2\n3,3\n", "ratio", `line 3, rater "a": "Inf" is not a number`},
+		{"a,b\n1,2\n1e999,2\n3,3\n", "interval", `line 3, rater "a": "1e999" is too large`},
+	} {
+		kappaFails(t, 1, []string{"r.csv", c.want, "leave the cell empty"}, "--ratings", writeFile(t, "r.csv", c.body), "--level", c.level)
+	}
+	kappaFails(t, 1, []string{"neg.csv", `line 3, rater "a": -1 is negative, which the ratio level does not allow`}, "--ratings", writeFile(t, "neg.csv", "a,b\n1,2\n-1,2\n3,3\n"), "--level", "ratio")
+	// Missing stays missing: an empty cell, as the README says.
+	m := kappaJSONOut(t, "--ratings", writeFile(t, "m.csv", "a,b\n1,2\n2,\n3,3\n"), "--level", "interval")
+	if m["krippendorff_alpha"] == nil || m["units"].(float64) != 3 {
+		t.Errorf("an empty cell: %v", m)
+	}
+}
+
+// Neighbours of those faults elsewhere in the command.
+func TestKappaNeighbouringInputFaults(t *testing.T) {
+	two := writeFile(t, "two.csv", "20,5\n10,15\n")
+	kappaFails(t, 1, []string{"empty.csv", "empty"}, "--table", writeFile(t, "empty.csv", ""))
+	kappaFails(t, 1, []string{"blank.csv", "empty"}, "--table", writeFile(t, "blank.csv", "\n\r\n  \n"))
+	kappaFails(t, 1, []string{"head.csv", "line 1", "no rows"}, "--table", writeFile(t, "head.csv", "a,b\n"))
+	kappaFails(t, 1, []string{"zero.csv", "every count is 0"}, "--table", writeFile(t, "zero.csv", "0,0\n0,0\n"))
+	kappaFails(t, 1, []string{"wide.csv", "line 2 has 3 cells", "line 1 has 2"}, "--table", writeFile(t, "wide.csv", "1,2\n3,4,5\n"))
+	dir := t.TempDir()
+	kappaFails(t, 1, []string{dir, "a folder"}, "--table", dir)
+	kappaFails(t, 1, []string{dir, "a folder"}, "--ratings", dir)
+	kappaFails(t, 1, []string{"big.csv", "line 2", "1 MiB"}, "--table", writeFile(t, "big.csv", "1,2\n"+strings.Repeat(" ", 1<<20)+"3,4\n"))
+	kappaFails(t, 1, []string{"open.csv", "line 2", "not closed within"}, "--ratings", writeFile(t, "open.csv", "a,b\n\"x,"+strings.Repeat("y\n", 600000)))
+	kappaFails(t, 1, []string{"many.csv", "line 1", "1000 cells"}, "--table", writeFile(t, "many.csv", strings.Repeat("1,", 1000)+"1\n"))
+	// A 1×1 table: kappa is undefined, said in notes.
+	m := kappaJSONOut(t, "--table", writeFile(t, "one.csv", "7\n"))
+	if m["kappa"] != nil || m["n"] != 7.0 || len(m["notes"].([]any)) == 0 {
+		t.Errorf("1×1: %v", m)
+	}
+	kappaFails(t, 2, []string{"--level", "--ratings"}, "--table", two, "--level", "ordinal")
+
+	// Ratings.
+	kappaFails(t, 2, []string{"--categories", "empty"}, "--ratings", writeFile(t, "r.csv", "a,b\nx,y\n"), "--categories", "x,,y")
+	kappaFails(t, 2, []string{"--categories", `"x" twice`}, "--ratings", writeFile(t, "r.csv", "a,b\nx,y\n"), "--categories", "x,y,x")
+	kappaFails(t, 2, []string{"--weights", "cubic"}, "--ratings", writeFile(t, "r3.csv", "a,b,c\n1,2,3\n"), "--weights", "cubic")
+	kappaFails(t, 2, []string{"--weights", "with --ratings use none, linear or quadratic"}, "--ratings", writeFile(t, "r2.csv", "a,b\n1,2\n"), "--weights", writeFile(t, "w.csv", "0,1\n1,0\n"))
+	kappaFails(t, 1, []string{"dupr.csv", "line 1, column 3", `"a" is named twice`}, "--ratings", writeFile(t, "dupr.csv", "a,b,a\n1,2,3\n"))
+	kappaFails(t, 1, []string{"noname.csv", "line 1, column 2", "no name"}, "--ratings", writeFile(t, "noname.csv", "a,,c\n1,2,3\n"))
+	kappaFails(t, 1, []string{"nounits.csv", "no units"}, "--ratings", writeFile(t, "nounits.csv", "a,b\n"))
+	kappaFails(t, 1, []string{"long.csv", "line 2, column 3", "2 raters"}, "--ratings", writeFile(t, "long.csv", "a,b\n1,2,3\n"))
+	var wide strings.Builder
+	wide.WriteString("a,b\n")
+	for i := range 1001 {
+		fmt.Fprintf(&wide, "%d,%d\n", i, i)
+	}
+	kappaFails(t, 1, []string{"wide.csv", "1001 distinct categories", "at most 1000"}, "--ratings", writeFile(t, "wide.csv", wide.String()), "--level", "interval")
+	// Text categories have no order of their own: ordinal alpha and
+	// linear or quadratic weights need it from --categories.
+	lmh := writeFile(t, "lmh.csv", "a,b\nlow,medium\nhigh,high\nmedium,low\nlow,low\n")
+	kappaFails(t, 2, []string{"--categories", "high, low, medium"}, "--ratings", lmh, "--level", "ordinal")
+	kappaFails(t, 2, []string{"--categories"}, "--ratings", lmh, "--weights", "linear")
+	mustCLI(t, "kappa", "--ratings", lmh, "--level", "ordinal", "--weights", "linear", "--categories", "low,medium,high")
+	// A first header cell left empty marks a column of unit names, which
+	// is not a rater; an extra empty cell at the end of a line is nothing.
+	m = kappaJSONOut(t, "--ratings", writeFile(t, "units.csv", ";a;b;\nu1;yes;yes;\nu2;no;yes;\nu3;no;no\n"), "--categories", "yes,no")
+	if m["raters"].(float64) != 2 || m["units"].(float64) != 3 || fmt.Sprint(m["categories"]) != "[yes no]" {
+		t.Errorf("unit names: %v", m)
+	}
+	// A header of numbers is read as rater names, with a note.
+	m = kappaJSONOut(t, "--ratings", writeFile(t, "numhead.csv", "1,2\n1,2\n2,2\n"))
+	if notes := fmt.Sprint(m["notes"]); !strings.Contains(notes, "only numbers") {
+		t.Errorf("numeric header: notes %s", notes)
 	}
 }

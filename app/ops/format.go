@@ -39,10 +39,11 @@ func Num(x float64) any {
 	return x
 }
 
-// Interval is a confidence interval for JSON: null when undefined.
+// Interval is a confidence interval for JSON: null when undefined or
+// infinite.
 func Interval(ci [2]float64) any {
-	if math.IsNaN(ci[0]) || math.IsNaN(ci[1]) {
-		return nil
+	if Num(ci[0]) == nil || Num(ci[1]) == nil {
+		return nil // JSON has no NaN or Inf
 	}
 	return []float64{ci[0], ci[1]}
 }

@@ -172,6 +172,9 @@ func KrippendorffAlpha(units [][]float64, level Level) (Alpha, error) {
 		}
 	}
 	// α = 1 − D_o/D_e with D_o = Σ o δ²/n and D_e = Σ n_c n_k δ²/(n(n − 1)).
+	if math.IsInf(do, 0) || math.IsInf(de, 0) {
+		return Alpha{}, fmt.Errorf("krippendorff alpha: the values are too far apart: their squared differences pass the largest float64 (%.3g)", math.MaxFloat64)
+	}
 	if de == 0 {
 		r.Alpha = math.NaN()
 		r.Notes = append(r.Notes, "alpha is undefined: all pairable values are the same, so no disagreement is expected")

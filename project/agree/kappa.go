@@ -149,6 +149,9 @@ func kappaProportions(table [][]float64) ([][]float64, float64, error) {
 	if total == 0 {
 		return nil, 0, fmt.Errorf("table total is 0")
 	}
+	if math.IsInf(total, 0) {
+		return nil, 0, fmt.Errorf("table total is larger than the largest float64")
+	}
 	p := make([][]float64, k)
 	for i, row := range table {
 		p[i] = make([]float64, k)
@@ -213,10 +216,18 @@ func kappaFromAgreement(p [][]float64, n float64, w [][]float64) Kappa {
 	t := kap - pe*(1-kap)
 	r.SE = math.Sqrt(cancel(s, t*t) / den)
 	r.SE0 = math.Sqrt(cancel(s0, pe*pe) / den)
+	if den == 0 || math.IsInf(r.SE, 0) || math.IsInf(r.SE0, 0) {
+		// Counts so small (far below 1) that n (1 − pe)² underflows.
+		r.SE, r.SE0 = nan, nan
+		r.Notes = append(r.Notes, fmt.Sprintf("the standard errors are too large to compute for a total of %g", n))
+	}
 	r.CI95 = [2]float64{kap - z975*r.SE, kap + z975*r.SE}
-	if r.SE0 > 0 {
+	switch {
+	case math.IsNaN(r.SE0):
+		r.Z = nan
+	case r.SE0 > 0:
 		r.Z = kap / r.SE0
-	} else {
+	default:
 		r.Z = nan
 		r.Notes = append(r.Notes, "z is undefined: the standard error under the null is 0")
 	}

@@ -3,108 +3,43 @@ package agree
 import (
 	"errors"
 	"fmt"
+	"io"
 	"math"
 	"sort"
 	"strconv"
 	"strings"
 )
 
-// InputError is a problem at one place of a table of counts or ratings as
-// it was read (a CSV file, say). Line counts from 1 and includes a header
-// row; Column counts from 1; Rater names the rater's column. Zero fields
-// are not known.
+// InputError is a problem at one place of a file of counts, weights or
+// ratings. File is the file's name as given; Line counts from 1 and
+// includes a header row; Column counts cells from 1; Rater names the
+// rater's column. Zero fields are not known.
 type InputError struct {
+	File         string
 	Line, Column int
 	Rater        string
 	Msg          string
 }
 
 func (e *InputError) Error() string {
+	var at string
 	switch {
 	case e.Line > 0 && e.Column > 0:
-		return fmt.Sprintf("line %d, column %d: %s", e.Line, e.Column, e.Msg)
+		at = fmt.Sprintf("line %d, column %d", e.Line, e.Column)
 	case e.Line > 0 && e.Rater != "":
-		return fmt.Sprintf("line %d, rater %q: %s", e.Line, e.Rater, e.Msg)
+		at = fmt.Sprintf("line %d, rater %q", e.Line, e.Rater)
 	case e.Line > 0:
-		return fmt.Sprintf("line %d: %s", e.Line, e.Msg)
-	}
-	return e.Msg
-}
-
-func isNumber(s string) bool {
-	_, err := strconv.ParseFloat(strings.TrimSpace(s), 64)
-	return err == nil
-}
-
-// ParseMatrix reads a square matrix of numbers from table rows (what a CSV
-// reader returns), guessing an optional header row and an optional first
-// column of names: a row or column with any cell that is not a number
-// holds names. The names are those of the rows when there is a name
-// column, else those of the header, else 1…k. what names the matrix in
-// messages ("table of counts", "weights").
-func ParseMatrix(rows [][]string, what string) ([][]float64, []string, error) {
-	if len(rows) == 0 {
-		return nil, nil, &InputError{Msg: "the file is empty"}
-	}
-	header := false
-	for _, c := range rows[0] {
-		if strings.TrimSpace(c) != "" && !isNumber(c) {
-			header = true
-		}
-	}
-	var names []string
-	if header {
-		names = rows[0]
-		rows = rows[1:]
-	}
-	nameCol := false
-	for _, r := range rows {
-		if len(r) > 0 && !isNumber(r[0]) {
-			nameCol = true
-		}
-	}
-	if header && len(names) > 0 && (nameCol || strings.TrimSpace(names[0]) == "") {
-		names = names[1:]
-	}
-	var m [][]float64
-	var rowNames []string
-	for i, r := range rows {
-		line := i + 1 + b2i(header)
-		if nameCol {
-			rowNames = append(rowNames, strings.TrimSpace(r[0]))
-			r = r[1:]
-		}
-		var vals []float64
-		for j, c := range r {
-			v, err := strconv.ParseFloat(strings.TrimSpace(c), 64)
-			if err != nil || math.IsNaN(v) || math.IsInf(v, 0) {
-				return nil, nil, &InputError{Line: line, Column: j + 1 + b2i(nameCol), Msg: fmt.Sprintf("%q is not a number (%s)", c, what)}
-			}
-			vals = append(vals, v)
-		}
-		m = append(m, vals)
-	}
-	k := len(m)
-	for i, r := range m {
-		if len(r) != k {
-			return nil, nil, &InputError{Msg: fmt.Sprintf("the %s must be square: %d rows but row %d has %d values", what, k, i+1, len(r))}
-		}
-	}
-	if k == 0 {
-		return nil, nil, &InputError{Msg: "no rows of numbers"}
+		at = fmt.Sprintf("line %d", e.Line)
 	}
 	switch {
-	case rowNames != nil:
-		names = rowNames // rater A's categories name the rows
-	case len(names) != k:
-		names = nil
+	case e.File != "" && at != "":
+		return e.File + ", " + at + ": " + e.Msg
+	case e.File != "":
+		return e.File + ": " + e.Msg
+	case at != "":
+		return at + ": " + e.Msg
 	}
-	if names == nil {
-		for i := 1; i <= k; i++ {
-			names = append(names, strconv.Itoa(i))
-		}
-	}
-	return m, names, nil
+	return e.Msg
 }
 
 // TableKappa is Cohen's kappa of a k×k table of counts, weighted when
@@ -122,58 +57,128 @@ func TableKappa(table, weights [][]float64) (Kappa, error) {
 type Ratings struct {
 	Raters []string
 	Units  [][]string
+	// Lines holds the line of the file each unit is on; nil when unit i
+	// is on line i+2.
+	Lines []int
+	// Notes are remarks about how the file was read.
+	Notes []string
 }
 
-// ParseRatings reads ratings from table rows (what a CSV reader returns):
-// the first row names the raters, each further row is a unit. Cells are
-// trimmed; short rows are missing ratings.
-func ParseRatings(rows [][]string) (Ratings, error) {
-	if len(rows) == 0 {
-		return Ratings{}, &InputError{Msg: "the file is empty"}
+// line is the line of the file unit i is on.
+func (r Ratings) line(i int) int {
+	if i < len(r.Lines) {
+		return r.Lines[i]
 	}
-	r := Ratings{Raters: rows[0]}
-	if len(r.Raters) < 2 {
-		return r, &InputError{Line: 1, Msg: "the header must name at least two raters"}
+	return i + 2
+}
+
+// ReadRatings reads a file of ratings (see records.go for the text
+// layout; file names it in errors): a header line of rater names, then
+// one line per unit with one cell per rater, an empty cell where a rater
+// gave none. Lines may stop short of the last raters; cells after the
+// last rater must be empty. When the first cell of the header is empty,
+// the first column names the units and is not a rater. Rater names must
+// be present and distinct. Every error is an *InputError naming the
+// file and, where one is to blame, the line and column.
+func ReadRatings(rd io.Reader, file string) (Ratings, error) {
+	rr := newRecordReader(rd, file)
+	head, hline, err := rr.next()
+	if errors.Is(err, io.EOF) {
+		return Ratings{}, rr.fail(0, 0, "the file is empty; want a header line of rater names, then one line per unit")
 	}
-	for i, row := range rows[1:] {
-		if len(row) > len(r.Raters) {
-			return r, &InputError{Line: i + 2, Msg: fmt.Sprintf("%d values for %d raters", len(row), len(r.Raters))}
+	if err != nil {
+		return Ratings{}, err
+	}
+	off := 0
+	if len(head) > 1 && head[0] == "" {
+		off = 1 // a column of unit names
+	}
+	raters := head[off:]
+	for len(raters) > 0 && raters[len(raters)-1] == "" {
+		raters = raters[:len(raters)-1]
+	}
+	if len(raters) < 2 {
+		return Ratings{}, rr.fail(hline, 0, "the header must name at least two raters, one column each")
+	}
+	seen := map[string]int{}
+	numeric := true
+	for j, name := range raters {
+		if name == "" {
+			return Ratings{}, rr.fail(hline, j+1+off, "the rater has no name")
 		}
-		cells := make([]string, len(r.Raters))
-		for j := range row {
-			cells[j] = strings.TrimSpace(row[j])
+		if k, dup := seen[name]; dup {
+			return Ratings{}, rr.fail(hline, j+1+off, "the rater %q is named twice (also column %d)", name, k+1+off)
 		}
-		r.Units = append(r.Units, cells)
+		seen[name] = j
+		numeric = numeric && isNumber(name)
 	}
-	return r, nil
+	res := Ratings{Raters: raters}
+	if numeric {
+		res.Notes = append(res.Notes, fmt.Sprintf("the header (line %d: %s) holds only numbers; it is read as the raters' names. If it is a unit, put a line of rater names above it", hline, strings.Join(raters, ", ")))
+	}
+	for {
+		cells, line, err := rr.next()
+		if errors.Is(err, io.EOF) {
+			break
+		}
+		if err != nil {
+			return Ratings{}, err
+		}
+		if off > 0 {
+			cells = cells[1:]
+		}
+		for j := len(raters); j < len(cells); j++ {
+			if cells[j] != "" {
+				return Ratings{}, rr.fail(line, j+1+off, "%q is beyond the %d raters the header names (line %d); cells after the last rater must be empty", cells[j], len(raters), hline)
+			}
+		}
+		unit := make([]string, len(raters))
+		copy(unit, cells)
+		res.Units = append(res.Units, unit)
+		res.Lines = append(res.Lines, line)
+	}
+	if len(res.Units) == 0 {
+		return Ratings{}, rr.fail(hline, 0, "no units after the header: want one line per unit")
+	}
+	return res, nil
 }
 
 // Categories are the values seen, sorted as numbers when every one is a
-// number and as text otherwise.
+// decimal number (ties, such as 1 and 1.0, in text order) and as text
+// otherwise.
 func (r Ratings) Categories() []string {
 	seen := map[string]bool{}
-	numeric := true
+	var cats []string
 	for _, u := range r.Units {
 		for _, c := range u {
 			if c != "" && !seen[c] {
 				seen[c] = true
-				numeric = numeric && isNumber(c)
+				cats = append(cats, c)
 			}
 		}
 	}
-	var cats []string
-	for c := range seen {
-		cats = append(cats, c)
+	sortCategories(cats)
+	return cats
+}
+
+// sortCategories sorts as numbers when all are decimal numbers, else as
+// text; it reports whether they were numbers.
+func sortCategories(cats []string) bool {
+	numeric := true
+	for _, c := range cats {
+		numeric = numeric && isNumber(c)
 	}
 	sort.Slice(cats, func(i, j int) bool {
 		if numeric {
 			a, _ := strconv.ParseFloat(cats[i], 64)
 			b, _ := strconv.ParseFloat(cats[j], 64)
-			return a < b
+			if a != b {
+				return a < b
+			}
 		}
 		return cats[i] < cats[j]
 	})
-	return cats
+	return numeric
 }
 
 // RatingsOptions says how ratings are compared.
@@ -204,10 +209,18 @@ type RatingsReport struct {
 // twice.
 var ErrDuplicateCategory = errors.New("a category is named twice")
 
+// ErrCategoryOrder is returned when the comparison asked for needs the
+// categories in order (ordinal alpha; linear or quadratic weights) but
+// they are not all numbers and RatingsOptions does not give their order.
+var ErrCategoryOrder = errors.New("the categories are not all numbers, so their order must be given")
+
 // CompareRatings computes Krippendorff's alpha and percent agreement of
 // any number of raters; Cohen's kappa (weighted as asked) from the k×k
 // contingency table when there are two; Fleiss' kappa when every unit has
-// every rater's category.
+// every rater's category. At most MaxCells categories are compared. At the
+// interval and ratio levels every rating must be a finite decimal number
+// (not negative at the ratio level); errors name the unit's line and the
+// rater.
 func CompareRatings(r Ratings, opt RatingsOptions) (RatingsReport, error) {
 	cats := opt.Categories
 	if cats == nil {
@@ -220,13 +233,24 @@ func CompareRatings(r Ratings, opt RatingsOptions) (RatingsReport, error) {
 		}
 		idx[c] = i
 	}
+	if len(cats) > MaxCells {
+		// The tables built from them are k×k (Cohen, alpha) and units×k
+		// (Fleiss).
+		return RatingsReport{}, fmt.Errorf("the ratings hold %d distinct categories (values); at most %d can be compared", len(cats), MaxCells)
+	}
 	weights := opt.Weights
 	if weights == "" {
 		weights = "none"
 	}
 	res := RatingsReport{Categories: cats, Raters: len(r.Raters), Units: len(r.Units), Weights: "none"}
+	res.Notes = append(res.Notes, r.Notes...)
 	if len(r.Units) == 0 {
 		return res, &InputError{Msg: "no units after the header"}
+	}
+	if opt.Categories == nil && (opt.Level == Ordinal || len(r.Raters) == 2 && weights != "none") {
+		if numeric := sortCategories(append([]string(nil), cats...)); !numeric {
+			return res, fmt.Errorf("%w: %s", ErrCategoryOrder, strings.Join(cats, ", "))
+		}
 	}
 	// Values for alpha: category positions for nominal and ordinal, the
 	// numbers themselves for interval and ratio.
@@ -242,12 +266,15 @@ func CompareRatings(r Ratings, opt RatingsOptions) (RatingsReport, error) {
 			}
 			p, ok := idx[c]
 			if !ok {
-				return res, &InputError{Line: i + 2, Rater: r.Raters[j], Msg: fmt.Sprintf("%q is not one of the categories %s", c, strings.Join(cats, ","))}
+				return res, &InputError{Line: r.line(i), Rater: r.Raters[j], Msg: fmt.Sprintf("%q is not one of the categories %s", c, strings.Join(cats, ","))}
 			}
 			if opt.Level == Interval || opt.Level == Ratio {
-				v, err := strconv.ParseFloat(c, 64)
-				if err != nil {
-					return res, &InputError{Line: i + 2, Rater: r.Raters[j], Msg: fmt.Sprintf("%q is not a number, which the %s level needs", c, opt.Level)}
+				v, msg := parseDecimal(c)
+				switch {
+				case msg != "":
+					return res, &InputError{Line: r.line(i), Rater: r.Raters[j], Msg: fmt.Sprintf("%s, which the %s level needs as a finite number (leave the cell empty for a missing rating)", msg, opt.Level)}
+				case opt.Level == Ratio && v < 0:
+					return res, &InputError{Line: r.line(i), Rater: r.Raters[j], Msg: fmt.Sprintf("%s is negative, which the ratio level does not allow", c)}
 				}
 				units[i][j] = v
 			} else {
@@ -258,19 +285,20 @@ func CompareRatings(r Ratings, opt RatingsOptions) (RatingsReport, error) {
 	// For ordinal alpha the values must order as the categories do.
 	a, err := KrippendorffAlpha(units, opt.Level)
 	if err != nil {
-		res.Notes = append(res.Notes, "Krippendorff's alpha: "+err.Error())
-	} else {
-		res.Alpha = &a
+		return res, fmt.Errorf("Krippendorff's alpha: %w", err)
 	}
+	res.Alpha = &a
 	res.Percent = PercentAgreement(units)
 	if len(r.Raters) == 2 {
 		t := make([][]float64, len(cats))
 		for i := range t {
 			t[i] = make([]float64, len(cats))
 		}
+		both := 0
 		for _, u := range r.Units {
 			if u[0] != "" && u[1] != "" {
 				t[idx[u[0]]][idx[u[1]]]++
+				both++
 			}
 		}
 		var w [][]float64
@@ -280,7 +308,9 @@ func CompareRatings(r Ratings, opt RatingsOptions) (RatingsReport, error) {
 			}
 		}
 		res.Weights = weights
-		if k, err := TableKappa(t, w); err != nil {
+		if both == 0 {
+			res.Notes = append(res.Notes, "Cohen's kappa: no unit has a rating from both raters")
+		} else if k, err := TableKappa(t, w); err != nil {
 			res.Notes = append(res.Notes, "Cohen's kappa: "+err.Error())
 		} else {
 			res.Cohen = &k

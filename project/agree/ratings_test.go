@@ -4,6 +4,7 @@ import (
 	"errors"
 	"math"
 	"strconv"
+	"strings"
 	"testing"
 )
 
@@ -21,7 +22,7 @@ func TestCompareRatingsWikipedia(t *testing.T) {
 		}
 		rows = append(rows, row)
 	}
-	r, err := ParseRatings(rows)
+	r, err := ReadRatings(strings.NewReader(csvText(rows)), "r.csv")
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -59,7 +60,7 @@ func TestCompareRatingsBuildsTheTable(t *testing.T) {
 			}
 		}
 	}
-	r, err := ParseRatings(rows)
+	r, err := ReadRatings(strings.NewReader(csvText(rows)), "r.csv")
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -87,17 +88,78 @@ func TestRatingsAndMatrixErrorsSayWhere(t *testing.T) {
 	if _, err := CompareRatings(Ratings{Raters: []string{"A", "B"}, Units: [][]string{{"x", "x"}}}, RatingsOptions{Categories: []string{"x", "x"}}); !errors.Is(err, ErrDuplicateCategory) {
 		t.Errorf("duplicate category: %v", err)
 	}
-	if _, err := ParseRatings([][]string{{"A"}}); err == nil || err.Error() != "line 1: the header must name at least two raters" {
+	if _, err := ReadRatings(strings.NewReader("A\n1\n"), "r.csv"); err == nil || err.Error() != "r.csv, line 1: the header must name at least two raters, one column each" {
 		t.Errorf("one rater: %v", err)
 	}
-	if _, _, err := ParseMatrix([][]string{{"", "a", "b"}, {"a", "1", "2"}, {"b", "3", "x"}}, "table of counts"); err == nil || err.Error() != `line 3, column 3: "x" is not a number (table of counts)` {
+	if _, err := ReadTable(strings.NewReader(",a,b\na,1,2\nb,3,x\n"), "t.csv"); err == nil || err.Error() != `t.csv, line 3, column 3: "x" is not a number` {
 		t.Errorf("bad cell: %v", err)
 	}
-	m, names, err := ParseMatrix([][]string{{"", "a", "b"}, {"a", "1", "2"}, {"b", "3", "4"}}, "table of counts")
-	if err != nil || len(m) != 2 || m[1][0] != 3 || names[1] != "b" {
-		t.Errorf("named table: %v %v %v", m, names, err)
+	m, err := ReadTable(strings.NewReader(",a,b\na,1,2\nb,3,4\n"), "t.csv")
+	if err != nil || len(m.Values) != 2 || m.Values[1][0] != 3 || m.Names[1] != "b" || !m.Named {
+		t.Errorf("named table: %+v %v", m, err)
 	}
-	if _, _, err := ParseMatrix([][]string{{"1", "2"}, {"3"}}, "weights"); err == nil || err.Error() != "the weights must be square: 2 rows but row 2 has 1 values" {
+	if _, err := ReadWeights(strings.NewReader("0,2\n3\n"), "w.csv"); err == nil || err.Error() != "w.csv: line 2 has 1 cells, line 1 has 2: every row of the table of weights needs as many (cells are separated by a comma, as the first line shows)" {
 		t.Errorf("ragged: %v", err)
+	}
+}
+
+// csvText writes rows as comma-separated lines.
+func csvText(rows [][]string) string {
+	var b strings.Builder
+	for _, r := range rows {
+		b.WriteString(strings.Join(r, ",") + "\n")
+	}
+	return b.String()
+}
+
+// Counts far below 1 (a total of 6e-310) leave kappa as it is, for kappa
+// depends only on the proportions (Cohen 1960, Educational and
+// Psychological Measurement 20:37–46), but n(1 − pe)² underflows and the
+// standard errors would be +Inf: they are undefined (NaN) with a note.
+func TestKappaOfTinyCountsHasNoInfiniteError(t *testing.T) {
+	tiny, err := CohenKappa([][]float64{{1e-310, 1e-310}, {1e-310, 3e-310}})
+	if err != nil {
+		t.Fatal(err)
+	}
+	plain, _ := CohenKappa([][]float64{{1, 1}, {1, 3}})
+	if math.Abs(tiny.Kappa-plain.Kappa) > 1e-9 || !math.IsNaN(tiny.SE) || !math.IsNaN(tiny.SE0) || !math.IsNaN(tiny.Z) || !math.IsNaN(tiny.CI95[0]) || len(tiny.Notes) == 0 {
+		t.Errorf("tiny counts: %+v, want kappa %v and undefined errors", tiny, plain.Kappa)
+	}
+	if _, err := CohenKappa([][]float64{{1e308, 1e308}, {1e308, 1e308}}); err == nil {
+		t.Errorf("a total beyond the largest float64 was accepted")
+	}
+}
+
+// Interval values whose squared differences overflow: an error, not a
+// NaN alpha without a word.
+func TestAlphaOfValuesTooFarApart(t *testing.T) {
+	if a, err := KrippendorffAlpha([][]float64{{1e200, -1e200}, {0, 1e200}}, Interval); err == nil {
+		t.Errorf("alpha %+v, want an error", a)
+	}
+}
+
+// The ratings reader keeps each unit's line (blank lines skipped), reads
+// an empty first header cell as a column of unit names, and sorts numeric
+// categories as numbers with ties in text order, the same every time.
+func TestReadRatingsLinesAndCategories(t *testing.T) {
+	r, err := ReadRatings(strings.NewReader("\ufeff;A;B\r\n\r\nu1;10;2\r\nu2;1.0;\r\nu3;;1\r\n"), "r.csv")
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(r.Raters) != 2 || r.Raters[0] != "A" || len(r.Units) != 3 || r.Units[1][0] != "1.0" || r.Units[1][1] != "" {
+		t.Fatalf("read %+v", r)
+	}
+	if r.Lines[0] != 3 || r.Lines[2] != 5 {
+		t.Errorf("lines %v, want 3 4 5", r.Lines)
+	}
+	for range 20 {
+		if got := r.Categories(); strings.Join(got, " ") != "1 1.0 2 10" {
+			t.Fatalf("categories %v, want 1 1.0 2 10", got)
+		}
+	}
+	_, err = CompareRatings(r, RatingsOptions{Level: Interval, Categories: []string{"1", "1.0", "2", "x"}})
+	var ie *InputError
+	if !errors.As(err, &ie) || ie.Line != 3 || ie.Rater != "A" {
+		t.Errorf("unknown category on line 3: %v", err)
 	}
 }
