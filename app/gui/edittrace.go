@@ -5,13 +5,13 @@ package gui
 // names a file, the window appends one JSON line to it
 //
 //   - before each write it makes to the project file, an intent:
-//     {"intent":N,"op":"labels","delete":[ID…],"update":[L…],"insert":[L…]}
+//     {"intent":N,"at":µs,"op":"labels","delete":[ID…],"update":[L…],"insert":[L…]}
 //     {"intent":N,"op":"status","image":ID,"status":"done"}
 //     {"intent":N,"op":"decide","decisions":[{"suggestion":ID,"accept":true,"label":L}]}
 //     {"intent":N,"op":"undecide","suggestions":[ID…]}
 //   - each time the status bar is told that everything is saved, an
 //     acknowledgement of intents 1…N with the image on screen as the
-//     window holds it: {"ack":N,"image":ID,"status":"…","labels":[L…],"pending":[ID…]}
+//     window holds it: {"ack":N,"at":µs,"image":ID,"status":"…","labels":[L…],"pending":[ID…]}
 //
 // where L is {"id","image","class","origin","suggestion","box":[x0,y0,x1,y1]}
 // (no id for a label not written yet) and "pending" lists the image's
@@ -25,6 +25,7 @@ import (
 	"encoding/json"
 	"fmt"
 	"os"
+	"time"
 
 	"boxwright/app/backend"
 	"boxwright/app/ops"
@@ -106,6 +107,7 @@ type traceDecision struct {
 
 type traceIntent struct {
 	Intent      int64           `json:"intent"`
+	At          int64           `json:"at"` // Unix time in microseconds
 	Op          string          `json:"op"`
 	Delete      []int64         `json:"delete,omitempty"`
 	Update      []traceLabel    `json:"update,omitempty"`
@@ -118,12 +120,13 @@ type traceIntent struct {
 
 func (t *editTrace) intent(in traceIntent) {
 	t.seq++
-	in.Intent = t.seq
+	in.Intent, in.At = t.seq, time.Now().UnixMicro()
 	t.line(in)
 }
 
 type traceAck struct {
 	Ack     int64        `json:"ack"`
+	At      int64        `json:"at"` // Unix time in microseconds
 	Image   int64        `json:"image"`
 	Status  string       `json:"status,omitempty"`
 	Labels  []traceLabel `json:"labels"`
@@ -137,7 +140,7 @@ func (t *editTrace) ack(u *ui) {
 	if t == nil {
 		return
 	}
-	a := traceAck{Ack: t.seq, Image: u.imageID, Labels: []traceLabel{}, Pending: []int64{}}
+	a := traceAck{Ack: t.seq, At: time.Now().UnixMicro(), Image: u.imageID, Labels: []traceLabel{}, Pending: []int64{}}
 	if u.imageID != 0 && u.selected >= 0 && u.selected < len(u.images) {
 		a.Status = string(u.images[u.selected].Status)
 		if u.sess != nil {
