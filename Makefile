@@ -16,7 +16,7 @@ TEST_DEBS := xvfb xauth xdotool imagemagick sqlite3 python3-shapely python3-skle
 
 export CGO_ENABLED := 1
 
-.PHONY: run test deps test-deps build vet unit fuzz smoke bench clean
+.PHONY: run test deps test-deps build vet unit fuzz smoke killtest bench clean
 
 run: deps build
 	./$(BIN) demo $(DEMO_DIR)
@@ -51,6 +51,15 @@ fuzz:
 
 smoke: build
 	.ci/smoke.sh $(BIN)
+
+# Kill test of the window (not part of `make test`: about 15 minutes):
+# KILLTEST_RUNS runs per mode, each killed with SIGKILL at a random moment;
+# KILLTEST_SEED replays a sequence. See .ci/killtest.sh.
+KILLTEST_RUNS ?= 50
+KILLTEST_SEED ?=
+killtest: build
+	@.ci/debs.sh xvfb xdotool sqlite3
+	.ci/killtest.sh $(BIN) $(KILLTEST_RUNS) $(KILLTEST_SEED)
 
 bench:
 	$(GO) test -run '^$$' -bench . -benchtime 5x ./store/... ./assets/...

@@ -50,6 +50,13 @@ func Run(path, annotator string, stderr io.Writer) int {
 	a := fyneapp.NewWithID("app.boxwright.desktop")
 	u := newUI(a)
 	u.annotatorFlag = annotator
+	trace, err := openEditTrace(os.Getenv(editTraceEnv))
+	if err != nil {
+		fmt.Fprintf(stderr, "boxwright: %v\n", err)
+		return 1
+	}
+	u.trace = trace
+	defer trace.close()
 	if path != "" {
 		if err := u.openProject(path); err != nil {
 			fmt.Fprintf(stderr, "boxwright: %v\n", err)
@@ -144,6 +151,8 @@ type ui struct {
 	cancelDecode context.CancelFunc
 	// decoded, when set, receives each image the view shows (for tests).
 	decoded func(id int64, err error)
+	// trace, when set, records writes and acknowledgements (edittrace.go).
+	trace *editTrace
 }
 
 func newUI(a fyne.App) *ui {
@@ -331,7 +340,7 @@ func (u *ui) openProject(path string) error {
 		return err
 	}
 	u.closeProject()
-	u.st, u.path, u.readOnlyWhy = s, path, why
+	u.st, u.path, u.readOnlyWhy = traceWrites(s, u.trace), path, why
 	u.me, u.sess, u.current = project.Annotator{}, nil, 0
 	if err := u.reload(); err != nil {
 		return err

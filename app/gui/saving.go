@@ -54,6 +54,7 @@ func (u *ui) savedNow() {
 	if u.sess != nil && u.sess.Unsaved() > 0 {
 		return
 	}
+	u.trace.ack(u) // the kill test's record of what "saved" promises; nil unless tracing
 	u.saved.SetText("✓ saved " + time.Now().Format("15:04:05"))
 	u.retry.Hide()
 }
