@@ -49,9 +49,14 @@ type AnnotatorStore interface {
 
 // ImageStore keeps the project's images and finds their files.
 type ImageStore interface {
+	// Images lists the images with Status the furthest any annotator has
+	// come; ImagesFor with one annotator's status.
 	Images(ctx context.Context) ([]Image, error)
+	ImagesFor(ctx context.Context, annotatorID int64) ([]Image, error)
 	Image(ctx context.Context, id int64) (Image, error)
-	SetImageStatus(ctx context.Context, id int64, s ImageStatus) error
+	// SetImageStatus records an annotator's status on an image; by is who
+	// says so (the reviewer, for "reviewed").
+	SetImageStatus(ctx context.Context, imageID, annotatorID int64, s ImageStatus, by int64) error
 	// AddImages adds files and the image files in folders (recursively);
 	// unreadable files are skipped with their reason in the report.
 	AddImages(ctx context.Context, paths []string, opts IntakeOptions) (IntakeReport, error)
@@ -134,7 +139,10 @@ type NamedCount struct {
 type Counts struct {
 	Images            int
 	Labels            int
-	ImagesBy          map[ImageStatus]int
+	ImagesBy          map[ImageStatus]int // by the furthest status any annotator has
+	// StatusByAnnotator counts each annotator's images by their status
+	// (images they never touched count as new).
+	StatusByAnnotator map[string]map[ImageStatus]int
 	Suggestions       map[SuggestionState]int
 	LabelsByClass     []NamedCount // every class, in class order
 	LabelsByAnnotator []NamedCount // every annotator, in name order

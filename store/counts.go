@@ -56,7 +56,7 @@ func (s *Store) Counts(ctx context.Context) (project.Counts, error) {
 		return rows.Err()
 	}
 	steps := []error{
-		grouped("SELECT status, count(*) FROM images GROUP BY status", func(k string, n int) {
+		grouped("SELECT "+furthestStatus+" AS s, count(*) FROM images GROUP BY s", func(k string, n int) {
 			c.ImagesBy[project.ImageStatus(k)] = n
 			c.Images += n
 		}),
@@ -68,6 +68,41 @@ func (s *Store) Counts(ctx context.Context) (project.Counts, error) {
 			GROUP BY c.id ORDER BY c.position, c.id`, &c.LabelsByClass),
 		named(`SELECT a.id, a.name, count(l.id) FROM annotators a LEFT JOIN labels l ON l.annotator_id = a.id
 			GROUP BY a.id ORDER BY a.name, a.id`, &c.LabelsByAnnotator),
+	}
+	c.StatusByAnnotator = map[string]map[project.ImageStatus]int{}
+	for _, a := range c.LabelsByAnnotator {
+		m := map[project.ImageStatus]int{}
+		for _, st := range project.ImageStatuses {
+			m[st] = 0
+		}
+		c.StatusByAnnotator[a.Name] = m
+	}
+	rows, err := tx.QueryContext(ctx, `SELECT a.name, st.status, count(*) FROM image_status st JOIN annotators a ON a.id = st.annotator_id
+		GROUP BY a.id, st.status`)
+	if err == nil {
+		for rows.Next() {
+			var name, status string
+			var n int
+			if err = rows.Scan(&name, &status, &n); err != nil {
+				break
+			}
+			if m := c.StatusByAnnotator[name]; m != nil {
+				m[project.ImageStatus(status)] += n
+			}
+		}
+		if err == nil {
+			err = rows.Err()
+		}
+		rows.Close()
+	}
+	steps = append(steps, err)
+	for name, m := range c.StatusByAnnotator {
+		touched := 0
+		for _, n := range m {
+			touched += n
+		}
+		m[project.StatusNew] += c.Images - touched
+		c.StatusByAnnotator[name] = m
 	}
 	for _, err := range steps {
 		if err != nil {

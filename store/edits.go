@@ -10,7 +10,8 @@ import (
 
 // ApplyLabelChange makes a person's edit in one transaction: all of it or
 // none. It returns the IDs of the inserted labels in order. An image that
-// gets its first label moves from "new" to "started".
+// gets its first label of an annotator moves from "new" to "started" for
+// that annotator.
 func (s *Store) ApplyLabelChange(ctx context.Context, c project.LabelChange) ([]int64, error) {
 	var ids []int64
 	err := s.tx(ctx, func(tx *sql.Tx) error {
@@ -38,16 +39,17 @@ func (s *Store) ApplyLabelChange(ctx context.Context, c project.LabelChange) ([]
 				return fmt.Errorf("update label %d: %w", l.ID, project.ErrNotFound)
 			}
 		}
-		started := map[int64]bool{}
+		type key struct{ image, annotator int64 }
+		started := map[key]bool{}
 		for _, l := range c.Insert {
 			out, err := s.insertLabel(ctx, tx, l)
 			if err != nil {
 				return err
 			}
 			ids = append(ids, out.ID)
-			if !started[l.ImageID] {
-				started[l.ImageID] = true
-				if _, err := tx.ExecContext(ctx, "UPDATE images SET status = 'started' WHERE id = ? AND status = 'new'", l.ImageID); err != nil {
+			if k := (key{l.ImageID, l.AnnotatorID}); !started[k] {
+				started[k] = true
+				if err := markStarted(ctx, tx, l.ImageID, l.AnnotatorID, formatTime(s.now())); err != nil {
 					return fmt.Errorf("mark image %d started: %w", l.ImageID, s.translate(err))
 				}
 			}

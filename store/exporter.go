@@ -10,8 +10,9 @@ import (
 
 // ExportImages gathers one annotator's labels for export: every image
 // that is not skipped and either carries labels of theirs or is marked
-// done or reviewed (an image checked and found empty is a useful negative
-// example). Classes are all project classes in display order.
+// done or reviewed by them (an image checked and found empty is a useful
+// negative example; another annotator's "done" says nothing about this
+// one's labels). Classes are all project classes in display order.
 func (s *Store) ExportImages(ctx context.Context, annotatorID int64) ([]string, []formats.ExportImage, error) {
 	cs, err := s.Classes(ctx)
 	if err != nil {
@@ -23,7 +24,7 @@ func (s *Store) ExportImages(ctx context.Context, annotatorID int64) ([]string, 
 		names[c.ID] = c.Name
 		classes = append(classes, c.Name)
 	}
-	ims, err := s.Images(ctx)
+	ims, err := s.ImagesFor(ctx, annotatorID) // the exported annotator's status only
 	if err != nil {
 		return nil, nil, err
 	}

@@ -3,12 +3,25 @@ package store
 import (
 	"database/sql"
 	"context"
+	"errors"
 	"fmt"
 
 	"boxwright/project"
 )
 
-const imageCols = "id, path, sha256, width, height, orientation, status, added_at"
+// furthestStatus is an image's status over all annotators: the furthest
+// any of them has come (reviewed, done, started), else skipped when
+// someone skipped it, else new.
+const furthestStatus = `coalesce((SELECT CASE max(CASE st.status WHEN 'reviewed' THEN 4 WHEN 'done' THEN 3
+	WHEN 'started' THEN 2 WHEN 'skipped' THEN 1 ELSE 0 END)
+	WHEN 4 THEN 'reviewed' WHEN 3 THEN 'done' WHEN 2 THEN 'started' WHEN 1 THEN 'skipped' ELSE 'new' END
+	FROM image_status st WHERE st.image_id = images.id), 'new')`
+
+// statusOf is an image's status for the annotator given as the first
+// query argument.
+const statusOf = `coalesce((SELECT st.status FROM image_status st WHERE st.image_id = images.id AND st.annotator_id = ?), 'new')`
+
+const imageCols = "id, path, sha256, width, height, orientation, " + furthestStatus + ", added_at"
 
 func scanImage(row interface{ Scan(...any) error }) (project.Image, error) {
 	var im project.Image
@@ -19,9 +32,19 @@ func scanImage(row interface{ Scan(...any) error }) (project.Image, error) {
 	return im, err
 }
 
-// Images lists all images by path.
+// Images lists all images by path; Status is the furthest any annotator
+// has come on the image.
 func (s *Store) Images(ctx context.Context) ([]project.Image, error) {
-	rows, err := s.db.QueryContext(ctx, "SELECT "+imageCols+" FROM images ORDER BY path, id")
+	return s.listImages(ctx, "SELECT "+imageCols+" FROM images ORDER BY path, id")
+}
+
+// ImagesFor lists all images by path with Status the given annotator's.
+func (s *Store) ImagesFor(ctx context.Context, annotatorID int64) ([]project.Image, error) {
+	return s.listImages(ctx, "SELECT id, path, sha256, width, height, orientation, "+statusOf+", added_at FROM images ORDER BY path, id", annotatorID)
+}
+
+func (s *Store) listImages(ctx context.Context, query string, args ...any) ([]project.Image, error) {
+	rows, err := s.db.QueryContext(ctx, query, args...)
 	if err != nil {
 		return nil, fmt.Errorf("list images: %w", err)
 	}
@@ -76,12 +99,39 @@ func (s *Store) AddImage(ctx context.Context, im project.Image) (project.Image, 
 	return im, nil
 }
 
-// SetImageStatus records how far labelling of the image has come.
-func (s *Store) SetImageStatus(ctx context.Context, id int64, st project.ImageStatus) error {
+// SetImageStatus records how far an annotator has come on an image; by is
+// the annotator who says so (recorded as the reviewer of "reviewed").
+func (s *Store) SetImageStatus(ctx context.Context, imageID, annotatorID int64, st project.ImageStatus, by int64) error {
+	what := fmt.Sprintf("set status of image %d for annotator %d", imageID, annotatorID)
 	if !st.Valid() {
-		return fmt.Errorf("set status of image %d: unknown status %q: %w", id, st, project.ErrInvalid)
+		return fmt.Errorf("%s: unknown status %q: %w", what, st, project.ErrInvalid)
 	}
-	return s.updateOne(ctx, fmt.Sprintf("set status of image %d", id), "UPDATE images SET status = ? WHERE id = ?", string(st), id)
+	var reviewer any
+	if st == project.StatusReviewed && by != 0 {
+		reviewer = by
+	}
+	_, err := s.exec(ctx, `INSERT INTO image_status(image_id, annotator_id, status, reviewed_by, updated_at) VALUES (?, ?, ?, ?, ?)
+		ON CONFLICT(image_id, annotator_id) DO UPDATE SET status = excluded.status, reviewed_by = excluded.reviewed_by,
+		updated_at = excluded.updated_at`, imageID, annotatorID, string(st), reviewer, formatTime(s.now()))
+	if err != nil {
+		if errors.Is(s.translate(err), project.ErrInUse) {
+			return fmt.Errorf("%s: no such image or annotator: %w", what, project.ErrNotFound)
+		}
+		return fmt.Errorf("%s: %w", what, s.translate(err))
+	}
+	return nil
+}
+
+// markStarted moves an annotator's status on an image from new to started
+// when they store labels there.
+func markStarted(ctx context.Context, tx *sql.Tx, imageID, annotatorID int64, now string) error {
+	_, err := tx.ExecContext(ctx, `INSERT OR IGNORE INTO image_status(image_id, annotator_id, status, updated_at) VALUES (?, ?, 'started', ?)`,
+		imageID, annotatorID, now)
+	if err == nil {
+		_, err = tx.ExecContext(ctx, `UPDATE image_status SET status = 'started', updated_at = ? WHERE image_id = ? AND annotator_id = ? AND status = 'new'`,
+			now, imageID, annotatorID)
+	}
+	return err
 }
 
 // RelinkImage records a new path for an image whose file moved.

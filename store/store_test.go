@@ -308,10 +308,11 @@ func TestImageCRUD(t *testing.T) {
 			t.Errorf("AddImage(%+v): %v", bad, err)
 		}
 	}
-	if err := s.SetImageStatus(bg, im.ID, project.StatusDone); err != nil {
+	marker, _ := s.AddAnnotator(bg, "Marker")
+	if err := s.SetImageStatus(bg, im.ID, marker.ID, project.StatusDone, marker.ID); err != nil {
 		t.Fatal(err)
 	}
-	if err := s.SetImageStatus(bg, im.ID, "lost"); !errors.Is(err, project.ErrInvalid) {
+	if err := s.SetImageStatus(bg, im.ID, marker.ID, "lost", marker.ID); !errors.Is(err, project.ErrInvalid) {
 		t.Errorf("bad status: %v", err)
 	}
 	if err := s.RelinkImage(bg, im.ID, "moved/x.jpg"); err != nil {
@@ -332,7 +333,7 @@ func TestImageCRUD(t *testing.T) {
 	if c.Images != 0 || c.Labels != 0 || c.Suggestions[project.SuggestionPending] != 0 {
 		t.Errorf("delete image left rows: %+v", c)
 	}
-	if err := s.SetImageStatus(bg, im.ID, project.StatusDone); !errors.Is(err, project.ErrNotFound) {
+	if err := s.SetImageStatus(bg, im.ID, marker.ID, project.StatusDone, marker.ID); !errors.Is(err, project.ErrNotFound) {
 		t.Errorf("status of deleted image: %v", err)
 	}
 }
@@ -466,7 +467,7 @@ func TestSuggestionsReviewAndCounts(t *testing.T) {
 		t.Errorf("label still links a deleted suggestion")
 	}
 
-	s.SetImageStatus(bg, im.ID, project.StatusStarted)
+	s.SetImageStatus(bg, im.ID, rev.ID, project.StatusStarted, rev.ID)
 	addImage(t, s, 1)
 	c, err := s.Counts(bg)
 	if err != nil {

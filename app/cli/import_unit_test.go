@@ -1,12 +1,16 @@
 package cli
 
 import (
+	"encoding/json"
+	"fmt"
 	"image"
 	"image/jpeg"
 	"os"
 	"path/filepath"
 	"strings"
 	"testing"
+
+	"boxwright/app/internal/testkit"
 )
 
 // An import is one unit: when its labels fail, the images --images added
@@ -55,5 +59,43 @@ func TestImportIsOneUnit(t *testing.T) {
 	out := mustCLI(t, "import", p, "--layout", "json", "--annotator", "Omar", "--skip-unmatched", labels)
 	if !strings.Contains(out, "imported 1 labels") || !strings.Contains(out, "zz.jpg") {
 		t.Fatalf("--skip-unmatched: %q", out)
+	}
+}
+
+// An annotator's export claims "checked and empty" only for images that
+// annotator marked: importing two labels as a new annotator exports the
+// two images, not the ones others reviewed.
+func TestExportUsesTheAnnotatorsOwnStatus(t *testing.T) {
+	path := testkit.SmallDemo(t)
+	var ims []struct {
+		Path          string
+		Width, Height int
+	}
+	if err := json.Unmarshal([]byte(mustCLI(t, "images", path, "--json")), &ims); err != nil {
+		t.Fatal(err)
+	}
+	labels := filepath.Join(t.TempDir(), "omar.json")
+	body := fmt.Sprintf(`{"images":[{"id":1,"file_name":%q,"width":%d,"height":%d},{"id":2,"file_name":%q,"width":%d,"height":%d}],
+		"categories":[{"id":1,"name":"buoy"}],
+		"annotations":[{"id":1,"image_id":1,"category_id":1,"bbox":[1,1,9,9]},{"id":2,"image_id":2,"category_id":1,"bbox":[2,2,9,9]}]}`,
+		ims[1].Path, ims[1].Width, ims[1].Height, ims[2].Path, ims[2].Width, ims[2].Height) // the demo's first image is done by others
+	os.WriteFile(labels, []byte(body), 0o644)
+	mustCLI(t, "import", path, "--layout", "json", "--annotator", "Omar", labels)
+	out := filepath.Join(t.TempDir(), "ds")
+	mustCLI(t, "export", path, "--layout", "txt", "--annotator", "Omar", "--out", out, "--images", "none", "--split", "100/0/0")
+	var files []string
+	filepath.WalkDir(out, func(p string, d os.DirEntry, err error) error {
+		if err == nil && strings.HasSuffix(p, ".txt") && filepath.Base(filepath.Dir(p)) == "labels" {
+			files = append(files, p)
+		}
+		return nil
+	})
+	if len(files) != 2 {
+		t.Fatalf("Omar's export has %d label files, want his 2 images: %v", len(files), files)
+	}
+	for _, f := range files {
+		if b, _ := os.ReadFile(f); len(strings.TrimSpace(string(b))) == 0 {
+			t.Errorf("%s is empty: a false 'checked and empty'", f)
+		}
 	}
 }

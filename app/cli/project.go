@@ -239,8 +239,10 @@ type infoReport struct {
 	Labels         int                             `json:"labels"`
 	Suggestions    map[project.SuggestionState]int `json:"suggestions"`
 	ImagesByStatus map[project.ImageStatus]int     `json:"images_by_status"`
-	MissingFiles   int                             `json:"missing_files"`
-	SchemaVersion  int                             `json:"schema_version"`
+	// StatusByAnnotator counts each annotator's images by their own status.
+	StatusByAnnotator map[string]map[project.ImageStatus]int `json:"images_by_annotator_status"`
+	MissingFiles      int                                    `json:"missing_files"`
+	SchemaVersion     int                                    `json:"schema_version"`
 }
 
 type namedCount struct {
@@ -281,16 +283,17 @@ func cmdInfo(args []string, stdout, stderr io.Writer) error {
 		return err
 	}
 	r := infoReport{Images: c.Images, Classes: named(c.LabelsByClass), Annotators: named(c.LabelsByAnnotator), Labels: c.Labels,
-		Suggestions: c.Suggestions, ImagesByStatus: c.ImagesBy, MissingFiles: len(missing), SchemaVersion: version}
+		Suggestions: c.Suggestions, ImagesByStatus: c.ImagesBy, StatusByAnnotator: c.StatusByAnnotator, MissingFiles: len(missing),
+		SchemaVersion: version}
 	if *asJSON {
 		return writeJSON(stdout, r)
 	}
 	fmt.Fprintf(stdout, "%s\n", s.Path())
-	fmt.Fprintf(stdout, "images: %d", r.Images)
+	fmt.Fprintf(stdout, "images: %d (by the furthest any annotator has come:", r.Images)
 	for _, st := range project.ImageStatuses {
-		fmt.Fprintf(stdout, ", %s %d", st, r.ImagesByStatus[st])
+		fmt.Fprintf(stdout, " %s %d", st, r.ImagesByStatus[st])
 	}
-	fmt.Fprintln(stdout)
+	fmt.Fprintln(stdout, ")")
 	if r.MissingFiles > 0 {
 		fmt.Fprintf(stdout, "missing files: %d (find them with: boxwright relink %s FOLDER)\n", r.MissingFiles, pos[0])
 	}
@@ -299,7 +302,11 @@ func cmdInfo(args []string, stdout, stderr io.Writer) error {
 		fmt.Fprintf(stdout, "  class %-20s %d\n", n.Name, n.Labels)
 	}
 	for _, n := range r.Annotators {
-		fmt.Fprintf(stdout, "  annotator %-16s %d\n", n.Name, n.Labels)
+		fmt.Fprintf(stdout, "  annotator %-16s %d labels; images", n.Name, n.Labels)
+		for _, st := range project.ImageStatuses {
+			fmt.Fprintf(stdout, " %s %d", st, r.StatusByAnnotator[n.Name][st])
+		}
+		fmt.Fprintln(stdout)
 	}
 	fmt.Fprintf(stdout, "suggestions:")
 	for _, st := range project.SuggestionStates {
@@ -322,7 +329,8 @@ type imageRecord struct {
 func cmdImages(args []string, stdout, stderr io.Writer) error {
 	fs := flag.NewFlagSet("images", flag.ContinueOnError)
 	asJSON := fs.Bool("json", false, "")
-	pos, err := parse(fs, args, 1, 1, "images PROJECT.boxw [--json]")
+	annotator := fs.String("annotator", "", "")
+	pos, err := parse(fs, args, 1, 1, "images PROJECT.boxw [--annotator NAME] [--json]")
 	if err != nil {
 		return err
 	}
@@ -331,8 +339,17 @@ func cmdImages(args []string, stdout, stderr io.Writer) error {
 		return err
 	}
 	defer done()
-	ims, err := s.Images(ctx)
-	if err != nil {
+	var ims []project.Image
+	if *annotator != "" {
+		a, err := s.AnnotatorByName(ctx, *annotator)
+		if err != nil {
+			return err
+		}
+		ims, err = s.ImagesFor(ctx, a.ID)
+		if err != nil {
+			return err
+		}
+	} else if ims, err = s.Images(ctx); err != nil {
 		return err
 	}
 	recs := []imageRecord{}

@@ -18,7 +18,8 @@ Commands:
   classes PROJECT.boxw merge FROM INTO  move FROM's labels to INTO, delete FROM
   classes PROJECT.boxw delete NAME      only when it has no labels
   info PROJECT.boxw [--json]            counts of images, labels, suggestions
-  images PROJECT.boxw [--json]          one line per image
+  images PROJECT.boxw [--annotator NAME] [--json]
+                                        one line per image, with NAME's status
   check PROJECT.boxw                    full consistency check of the file
   recover DAMAGED.boxw NEW.boxw         copy what can still be read into a new project
   import PROJECT.boxw --layout json|xml|txt [--annotator NAME] PATH

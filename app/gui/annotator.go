@@ -72,6 +72,13 @@ func (u *ui) setAnnotator(name string) error {
 	if as, err := u.st.Annotators(context.Background()); err == nil {
 		u.annotators = as
 	}
+	// Image statuses are each annotator's own: show this person's.
+	if err := u.reload(); err != nil {
+		return err
+	}
+	if u.selected >= 0 && u.selected < len(u.images) {
+		u.nav.refreshImage(u.images[u.selected].ID)
+	}
 	u.updateTitle()
 	u.updateUndo()
 	u.loadOthers()

@@ -180,9 +180,9 @@ func (p tracedProject) ApplyLabelChange(ctx context.Context, c project.LabelChan
 	return p.Project.ApplyLabelChange(ctx, c)
 }
 
-func (p tracedProject) SetImageStatus(ctx context.Context, id int64, s project.ImageStatus) error {
+func (p tracedProject) SetImageStatus(ctx context.Context, id, annotatorID int64, s project.ImageStatus, by int64) error {
 	p.t.intent(traceIntent{Op: "status", Image: id, Status: string(s)})
-	return p.Project.SetImageStatus(ctx, id, s)
+	return p.Project.SetImageStatus(ctx, id, annotatorID, s, by)
 }
 
 func (p tracedProject) Decide(ctx context.Context, reviewerID int64, ds []project.Decision) (map[int64]int64, error) {

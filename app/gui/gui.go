@@ -389,7 +389,15 @@ func (u *ui) updateTitle() {
 // reload reads the image list, classes and counts again.
 func (u *ui) reload() error {
 	ctx := context.Background()
-	ims, err := u.st.Images(ctx)
+	// Statuses are the person's own; before anyone is chosen, the
+	// furthest anyone has come.
+	var ims []project.Image
+	var err error
+	if u.me.ID != 0 {
+		ims, err = u.st.ImagesFor(ctx, u.me.ID)
+	} else {
+		ims, err = u.st.Images(ctx)
+	}
 	if err != nil {
 		return err
 	}
@@ -433,10 +441,17 @@ func (u *ui) reload() error {
 		u.tally(t.ImageID, t.ClassID, t.AnnotatorID, t.N)
 	}
 	var parts []string
+	byStatus := map[project.ImageStatus]int{}
+	for _, im := range ims {
+		byStatus[im.Status]++
+	}
 	for _, st := range project.ImageStatuses {
-		if n := counts.ImagesBy[st]; n > 0 {
+		if n := byStatus[st]; n > 0 {
 			parts = append(parts, fmt.Sprintf("%d %s", n, statusWord(st)))
 		}
+	}
+	if u.me.ID != 0 && len(parts) > 0 {
+		parts[0] = u.me.Name + ": " + parts[0]
 	}
 	u.summary.SetText(fmt.Sprintf("%s, %s, %d pending suggestions\n%s", ops.Plural(counts.Images, "image"), ops.Plural(counts.Labels, "label"),
 		counts.Suggestions[project.SuggestionPending], strings.Join(parts, " · ")))

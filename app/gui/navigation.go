@@ -78,7 +78,11 @@ func (u *ui) setStatus(s project.ImageStatus) bool {
 		return false
 	}
 	im := &u.images[u.selected]
-	if err := u.st.SetImageStatus(context.Background(), im.ID, s); err != nil {
+	if u.me.ID == 0 {
+		u.askAnnotator() // a status is someone's
+		return false
+	}
+	if err := u.st.SetImageStatus(context.Background(), im.ID, u.me.ID, s, u.me.ID); err != nil {
 		u.saveFailed(fmt.Errorf("marking %s %s: %w", filepath.Base(im.Path), statusWord(s), err))
 		return false
 	}

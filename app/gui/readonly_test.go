@@ -65,3 +65,37 @@ func TestDamagedProjectOpensForLookingOnly(t *testing.T) {
 		t.Error("the damaged file changed")
 	}
 }
+
+// The window shows the current annotator's own statuses: Ines marking an
+// image skipped does not skip it for Tomas.
+func TestStatusesAreTheAnnotatorsOwn(t *testing.T) {
+	path := testkit.SmallDemo(t)
+	a := test.NewTempApp(t)
+	u := newUI(a)
+	u.annotatorFlag = "Ines"
+	decoded := make(chan error, 10)
+	u.decoded = func(_ int64, err error) { decoded <- err }
+	u.win.Resize(fyne.NewSize(1000, 700))
+	if err := u.openProject(path); err != nil {
+		t.Fatal(err)
+	}
+	defer u.closeProject()
+	waitDecoded(t, decoded)
+	u.selectIndex(2)
+	waitDecoded(t, decoded)
+	if !u.setStatus(project.StatusSkipped) {
+		t.Fatal("marking skipped failed")
+	}
+	if got := u.images[2].Status; got != project.StatusSkipped {
+		t.Fatalf("Ines sees %s", got)
+	}
+	if err := u.setAnnotator("Tomas"); err != nil {
+		t.Fatal(err)
+	}
+	if got := u.images[2].Status; got == project.StatusSkipped {
+		t.Errorf("Tomas sees Ines's skip")
+	}
+	if !strings.Contains(u.summary.Text, "Tomas:") {
+		t.Errorf("summary %q should say whose statuses it counts", u.summary.Text)
+	}
+}

@@ -85,11 +85,13 @@ func fillDemo(ctx context.Context, s backend.Project, sc *demo.Scenario, paths [
 		}
 	}
 	var labels []project.Label
+	var annIDs []int64
 	for _, a := range sc.Annotators {
 		ann, err := s.AddAnnotator(ctx, a.Name)
 		if err != nil {
 			return err
 		}
+		annIDs = append(annIDs, ann.ID)
 		for f, objs := range a.Labels {
 			for _, o := range objs {
 				labels = append(labels, project.Label{ImageID: imageID[f], ClassID: classID[o.Class], AnnotatorID: ann.ID,
@@ -109,8 +111,8 @@ func fillDemo(ctx context.Context, s backend.Project, sc *demo.Scenario, paths [
 	if _, err := s.AddSuggestions(ctx, sugs); err != nil {
 		return err
 	}
-	// A project in mid-course: the first half labelled and some of it
-	// checked, the rest only just begun.
+	// A project in mid-course: the first half labelled by everyone and
+	// some of it checked by a second annotator, the rest only just begun.
 	for f, id := range imageID {
 		st := project.StatusStarted
 		switch {
@@ -119,8 +121,14 @@ func fillDemo(ctx context.Context, s backend.Project, sc *demo.Scenario, paths [
 		case f < len(imageID)/2:
 			st = project.StatusDone
 		}
-		if err := s.SetImageStatus(ctx, id, st); err != nil {
-			return err
+		for i, ann := range annIDs {
+			by := ann
+			if st == project.StatusReviewed && len(annIDs) > 1 {
+				by = annIDs[(i+1)%len(annIDs)] // reviewed by the other one
+			}
+			if err := s.SetImageStatus(ctx, id, ann, st, by); err != nil {
+				return err
+			}
 		}
 	}
 	return nil

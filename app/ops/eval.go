@@ -49,7 +49,7 @@ func LoadEval(ctx context.Context, st backend.Project, j EvalJob) (EvalData, err
 	for _, c := range d.classes {
 		d.ClassName[c.ID] = c.Name
 	}
-	ims, err := st.Images(ctx)
+	ims, err := st.ImagesFor(ctx, a.ID) // the ground truth's own status
 	if err != nil {
 		return d, err
 	}

@@ -60,7 +60,7 @@ func TrainingCandidates(ctx context.Context, st backend.Project, annotator strin
 	if err != nil {
 		return nil, nil, err
 	}
-	ims, err := st.Images(ctx)
+	ims, err := st.ImagesFor(ctx, a.ID) // "done" is this annotator's
 	if err != nil {
 		return nil, nil, err
 	}
