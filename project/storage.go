@@ -137,9 +137,9 @@ type NamedCount struct {
 
 // Counts summarises a project.
 type Counts struct {
-	Images            int
-	Labels            int
-	ImagesBy          map[ImageStatus]int // by the furthest status any annotator has
+	Images   int
+	Labels   int
+	ImagesBy map[ImageStatus]int // by the furthest status any annotator has
 	// StatusByAnnotator counts each annotator's images by their status
 	// (images they never touched count as new).
 	StatusByAnnotator map[string]map[ImageStatus]int
