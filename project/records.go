@@ -57,7 +57,19 @@ type ImportOptions struct {
 	// and reports the others; without it a record whose image is not in
 	// the project fails the whole import.
 	SkipUnmatched bool
+	// Again says what to do when boxes of the file are stored already for
+	// the annotator (same image, class and corners): refuse (the default,
+	// since importing a file twice doubles every box), "replace" the
+	// annotator's imported labels on the file's images, or "append".
+	Again string
 }
+
+// What ImportOptions.Again may say.
+const (
+	ImportAgainRefuse  = ""
+	ImportAgainReplace = "replace"
+	ImportAgainAppend  = "append"
+)
 
 // ImportReport says what an import did.
 type ImportReport struct {
@@ -68,6 +80,9 @@ type ImportReport struct {
 	ClassesCreated []string `json:"classes_created"`
 	// Unmatched are the image records that match no project image.
 	Unmatched []string `json:"unmatched"`
+	// Replaced counts the annotator's imported labels on the file's
+	// images that this import replaced (Again "replace").
+	Replaced int `json:"replaced"`
 }
 
 // SuggestionImportReport says what an import of suggestions did.

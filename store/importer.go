@@ -58,6 +58,17 @@ func (s *Store) ImportDataset(ctx context.Context, ds *formats.Dataset, opts pro
 		if err != nil {
 			return err
 		}
+		var covered []int64
+		for _, rec := range ds.Images {
+			if im, ok, _ := matcher.Match(rec.Name); ok {
+				covered = append(covered, im.ID)
+			}
+		}
+		prior, err := againRule(ctx, tx, annID, covered, opts, &rep)
+		if err != nil {
+			return err
+		}
+		repeats, firstRepeat := 0, ""
 		ins := newLabelInserter(ctx, tx)
 		defer ins.close()
 		now := formatTime(s.now())
@@ -99,12 +110,23 @@ func (s *Store) ImportDataset(ctx context.Context, ds *formats.Dataset, opts pro
 				if !box.Valid() {
 					return fmt.Errorf("%s: box %v has no area", b.Where, b.Box)
 				}
+				if prior[im.ID][priorKey{id, box}] {
+					if repeats == 0 {
+						firstRepeat = b.Where
+					}
+					repeats++
+				}
 				if err := ins.add(b.Where, im.ID, id, annID, box.X0, box.Y0, box.X1, box.Y1, string(project.OriginImported),
 					opts.Source, b.Score, now, now); err != nil {
 					return err
 				}
 				rep.Labels++
 			}
+		}
+		if repeats > 0 {
+			return fmt.Errorf("%d of the file's boxes (the first at %s) are stored already for annotator %q, on the same image with the same class and corners: "+
+				"was this file imported before? Replace that annotator's imported boxes on the file's images (--again replace) or add these as well (--again append): %w",
+				repeats, firstRepeat, opts.Annotator, project.ErrDuplicate)
 		}
 		return ins.flush()
 	})
@@ -219,4 +241,59 @@ func listSome(items []string, n int) string {
 		return strings.Join(items, "; ")
 	}
 	return strings.Join(items[:n], "; ") + fmt.Sprintf("; and %d more", len(items)-n)
+}
+
+// priorLabels are the annotator's labels on the images an import covers,
+// by image and then by class and box, to find boxes stored already.
+type priorLabels map[int64]map[priorKey]bool
+
+type priorKey struct {
+	class int64
+	box   project.Box
+}
+
+func readPrior(ctx context.Context, tx *sql.Tx, annID int64) (priorLabels, error) {
+	rows, err := tx.QueryContext(ctx, "SELECT image_id, class_id, x0, y0, x1, y1 FROM labels WHERE annotator_id = ?", annID)
+	if err != nil {
+		return nil, translateCode(err)
+	}
+	defer rows.Close()
+	p := priorLabels{}
+	for rows.Next() {
+		var im int64
+		var k priorKey
+		if err := rows.Scan(&im, &k.class, &k.box.X0, &k.box.Y0, &k.box.X1, &k.box.Y1); err != nil {
+			return nil, err
+		}
+		if p[im] == nil {
+			p[im] = map[priorKey]bool{}
+		}
+		p[im][k] = true
+	}
+	return p, rows.Err()
+}
+
+// againRule applies ImportOptions.Again: with replace, the annotator's
+// imported labels on the file's images go first; otherwise boxes equal to
+// ones the annotator already has on the same image count as repeats,
+// which refuse the import (a file imported twice would double every box)
+// unless append was asked for.
+func againRule(ctx context.Context, tx *sql.Tx, annID int64, imageIDs []int64, opts project.ImportOptions, rep *project.ImportReport) (priorLabels, error) {
+	switch opts.Again {
+	case project.ImportAgainAppend:
+		return nil, nil
+	case project.ImportAgainReplace:
+		for _, id := range imageIDs {
+			res, err := tx.ExecContext(ctx, "DELETE FROM labels WHERE annotator_id = ? AND image_id = ? AND origin = 'imported'", annID, id)
+			if err != nil {
+				return nil, translateCode(err)
+			}
+			n, _ := res.RowsAffected()
+			rep.Replaced += int(n)
+		}
+		return nil, nil
+	case project.ImportAgainRefuse:
+		return readPrior(ctx, tx, annID)
+	}
+	return nil, fmt.Errorf("unknown choice %q for boxes stored before (refuse, replace or append): %w", opts.Again, project.ErrInvalid)
 }

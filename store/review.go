@@ -82,6 +82,19 @@ func (s *Store) importSuggestions(ctx context.Context, source string, onImages [
 	if strings.TrimSpace(source) == "" || source != strings.TrimSpace(source) {
 		return fail(fmt.Errorf("source name %q is empty or starts or ends with a space: %w", source, project.ErrInvalid))
 	}
+	if onImages == nil && len(gs) == 0 {
+		// An empty import would silently delete every pending suggestion
+		// of the source; that is never what an empty file means.
+		var pending int
+		if err := s.db.QueryRowContext(ctx, "SELECT count(*) FROM suggestions WHERE source = ? AND state = ?",
+			source, string(project.SuggestionPending)).Scan(&pending); err != nil {
+			return fail(s.translate(err))
+		}
+		if pending > 0 {
+			return fail(fmt.Errorf("no suggestions to import (an empty file, or every prediction filtered out), and importing nothing would delete the source's %d pending suggestions: %w",
+				pending, project.ErrInvalid))
+		}
+	}
 	err := s.tx(ctx, func(tx *sql.Tx) error {
 		// Known IDs are checked here rather than left to the foreign keys,
 		// whose refusal of a multi-row INSERT cannot say which row was bad.

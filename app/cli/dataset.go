@@ -9,6 +9,7 @@ import (
 	"strings"
 
 	"boxwright/app/ops"
+	"boxwright/project"
 	"boxwright/project/formats"
 )
 
@@ -39,13 +40,21 @@ func cmdImport(args []string, stdout, stderr io.Writer) error {
 	strict := fs.Bool("strict", false, "")
 	create := fs.Bool("create-classes", false, "")
 	skip := fs.Bool("skip-unmatched", false, "")
+	again := fs.String("again", "refuse", "")
 	asJSON := fs.Bool("json", false, "")
 	classMap := classMapFlag{}
 	fs.Var(classMap, "map", "")
-	const synopsis = "import PROJECT.boxw --layout json|xml|txt [--annotator NAME] PATH [--images DIR] [--classes FILE] [--map FROM=TO]... [--create-classes] [--strict] [--skip-unmatched] [--json]"
+	const synopsis = "import PROJECT.boxw --layout json|xml|txt [--annotator NAME] PATH [--images DIR] [--classes FILE] [--map FROM=TO]... [--create-classes] [--strict] [--skip-unmatched] [--again refuse|replace|append] [--json]"
 	pos, err := parse(fs, args, 2, 2, synopsis)
 	if err != nil {
 		return err
+	}
+	switch *again {
+	case "refuse":
+		*again = project.ImportAgainRefuse
+	case project.ImportAgainReplace, project.ImportAgainAppend:
+	default:
+		return usageError(fmt.Sprintf("--again %q: give refuse, replace or append\nusage: boxwright %s", *again, synopsis))
 	}
 	if *layout == "" {
 		return usageError("--layout is required\nusage: boxwright " + synopsis)
@@ -63,7 +72,7 @@ func cmdImport(args []string, stdout, stderr io.Writer) error {
 	}
 	defer done()
 	res, err := ops.RunImport(ctx, s, ops.ImportJob{Layout: formats.Layout(*layout), Src: src, ClassesFile: *classes, ImagesDir: *images,
-		Annotator: *annotator, Create: *create, Strict: *strict, ClassMap: classMap, SkipUnmatched: *skip})
+		Annotator: *annotator, Create: *create, Strict: *strict, ClassMap: classMap, SkipUnmatched: *skip, Again: *again})
 	if err != nil {
 		return err
 	}
@@ -76,6 +85,9 @@ func cmdImport(args []string, stdout, stderr io.Writer) error {
 			res.ImagesAdded.Duplicates, res.ImagesAdded.Relinked, len(res.ImagesAdded.Failed))
 	}
 	fmt.Fprintf(stdout, "imported %d labels on %d images for annotator %q; clipped %d boxes to their image\n", rep.Labels, rep.Images, rep.Annotator, rep.Clipped)
+	if rep.Replaced > 0 {
+		fmt.Fprintf(stdout, "replaced %s imported before on these images\n", ops.Plural(rep.Replaced, "label"))
+	}
 	if len(rep.ClassesCreated) > 0 {
 		fmt.Fprintf(stdout, "created classes: %s\n", strings.Join(rep.ClassesCreated, ", "))
 	}

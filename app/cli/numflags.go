@@ -87,3 +87,40 @@ func intIn(fs *flag.FlagSet, name string, def, lo, hi int, usage string) *int {
 	fs.Var(&boundedInt{v: &v, lo: lo, hi: hi}, name, usage)
 	return &v
 }
+
+// nmsFlag is the IoU threshold of non-maximum suppression: "off", or a
+// number above 0 and at most 1 (a box is dropped when it overlaps a
+// better-scoring one of its class by more than that). 0 is refused: as a
+// threshold it would drop every box that touches another, which is not
+// what anyone typing 0 means, and a tiny positive value does exactly that.
+type nmsFlag struct{ v *float64 }
+
+func (f *nmsFlag) String() string {
+	if f == nil || f.v == nil {
+		return ""
+	}
+	if *f.v == 0 {
+		return "off"
+	}
+	return strconv.FormatFloat(*f.v, 'g', -1, 64)
+}
+
+func (f *nmsFlag) Set(s string) error {
+	if s == "off" {
+		*f.v = 0
+		return nil
+	}
+	x, err := strconv.ParseFloat(s, 64)
+	if err != nil || math.IsNaN(x) || x <= 0 || x > 1 {
+		return fmt.Errorf("give off, or an IoU above 0 and at most 1 (boxes overlapping a better one of their class by more are dropped)")
+	}
+	*f.v = x
+	return nil
+}
+
+// nmsIn defines the suppression flag with its default (0: off).
+func nmsIn(fs *flag.FlagSet, def float64) *float64 {
+	v := def
+	fs.Var(&nmsFlag{v: &v}, "nms", "")
+	return &v
+}

@@ -11,7 +11,7 @@ import (
 )
 
 func cmdSuggestions(args []string, stdout, stderr io.Writer) error {
-	const synopsis = "suggestions import PROJECT.boxw FILE --source NAME [--layout json|txt|csv] [--classes FILE] [--min-score S] [--nms IOU] [--map FROM=TO]... [--create-classes|--drop-unknown] [--json]\n       boxwright suggestions stats PROJECT.boxw [--source NAME] [--json]"
+	const synopsis = "suggestions import PROJECT.boxw FILE --source NAME [--layout json|txt|csv] [--classes FILE] [--min-score S] [--nms IOU|off] [--map FROM=TO]... [--create-classes|--drop-unknown] [--json]\n       boxwright suggestions stats PROJECT.boxw [--source NAME] [--json]"
 	if len(args) == 0 {
 		return usageError("usage: boxwright " + synopsis)
 	}
@@ -30,7 +30,7 @@ func cmdSuggestionsImport(args []string, stdout, stderr io.Writer, synopsis stri
 	layout := fs.String("layout", "", "")
 	classes := fs.String("classes", "", "")
 	minScore := floatIn(fs, "min-score", 0, 0, 1, "")
-	nms := floatIn(fs, "nms", 0, 0, 1, "")
+	nms := nmsIn(fs, 0)
 	create := fs.Bool("create-classes", false, "")
 	drop := fs.Bool("drop-unknown", false, "")
 	asJSON := fs.Bool("json", false, "")

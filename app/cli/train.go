@@ -99,12 +99,12 @@ func cmdDetect(args []string, stdout, stderr io.Writer) error {
 	model := fs.String("model", "", "the model to run (default: the current one)")
 	which := fs.String("images", "unlabelled", "unlabelled (images without labels, not skipped) or all")
 	minScore := floatIn(fs, "min-score", 0.3, 0, 1, "keep detections scoring at least this")
-	nms := floatIn(fs, "nms", 0.5, 0, 1, "IoU of per-class non-maximum suppression (0: none)")
+	nms := nmsIn(fs, 0.5)
 	source := fs.String("source", "", "source name of the suggestions (default: the model's name)")
 	save := fs.Bool("save", false, "store the detections as pending suggestions")
 	threads := fs.Int("threads", 0, "threads for the arithmetic (0: every core)")
 	asJSON := fs.Bool("json", false, "print JSON")
-	const synopsis = "detect PROJECT.boxw [--model NAME] [--images unlabelled|all] [--min-score S] [--nms IOU] [--source NAME] [--save] [--json]"
+	const synopsis = "detect PROJECT.boxw [--model NAME] [--images unlabelled|all] [--min-score S] [--nms IOU|off] [--source NAME] [--save] [--json]"
 	pos, err := parse(fs, args, 1, 1, synopsis)
 	if err != nil {
 		return err

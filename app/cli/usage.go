@@ -24,13 +24,13 @@ Commands:
   recover DAMAGED.boxw NEW.boxw         copy what can still be read into a new project
   import PROJECT.boxw --layout json|xml|txt [--annotator NAME] PATH
         [--images DIR] [--classes FILE] [--map FROM=TO]... [--create-classes]
-        [--strict] [--skip-unmatched] [--json]
+        [--strict] [--skip-unmatched] [--again refuse|replace|append] [--json]
                                         import labels (all or nothing)
   export PROJECT.boxw --layout json|xml|txt --annotator NAME --out DIR
         [--split 80/10/10] [--seed N] [--images copy|link|none] [--json]
                                         write a split dataset
   suggestions import PROJECT.boxw FILE --source NAME [--layout json|txt|csv]
-        [--classes FILE] [--min-score S] [--nms IOU] [--map FROM=TO]...
+        [--classes FILE] [--min-score S] [--nms IOU|off] [--map FROM=TO]...
         [--create-classes|--drop-unknown] [--json]
                                         import a model's predictions for review
   suggestions stats PROJECT.boxw [--source NAME] [--json]
@@ -55,7 +55,7 @@ Commands:
         [--validation 0.2] [--seed S] [--threads N] [--rotations] [--continue]
         [--json]                        train a detector on the project's labels
   detect PROJECT.boxw [--model NAME] [--images unlabelled|all] [--min-score S]
-        [--nms IOU] [--source NAME] [--save] [--json]
+        [--nms IOU|off] [--source NAME] [--save] [--json]
                                         run the current (or named) model
   models PROJECT.boxw [--use NAME] [--json]
                                         the detectors trained here (--use: make current)

@@ -4,6 +4,7 @@ import (
 	"context"
 	"errors"
 	"fmt"
+	"strings"
 	"path/filepath"
 
 	"boxwright/app/backend"
@@ -115,6 +116,28 @@ func StoreConsensus(ctx context.Context, st backend.Project, names []string, iou
 	a, err := st.EnsureAnnotator(ctx, ConsensusName)
 	if err != nil {
 		return 0, 0, err
+	}
+	// The consensus is recomputed from scratch, replacing the annotator's
+	// labels; labels someone else stored under the name are not ours to
+	// replace.
+	old, err := st.Labels(ctx, project.LabelFilter{AnnotatorID: a.ID})
+	if err != nil {
+		return 0, 0, err
+	}
+	foreign := 0
+	var example project.Label
+	for _, l := range old {
+		if !strings.HasPrefix(l.Source, agree.ConsensusSourcePrefix) {
+			if foreign == 0 {
+				example = l
+			}
+			foreign++
+		}
+	}
+	if foreign > 0 {
+		return 0, 0, fmt.Errorf("the annotator %q holds %s that the consensus did not make (%s, source %q); "+
+			"nothing was changed: rename that annotator (boxwright keeps its labels) and run consensus again: %w",
+			ConsensusName, Plural(foreign, "label"), example.Origin, example.Source, project.ErrInUse)
 	}
 	if err := st.ReplaceAnnotatorLabels(ctx, a.ID, labels); err != nil {
 		return 0, 0, fmt.Errorf("store the consensus: %w", err)

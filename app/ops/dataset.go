@@ -81,6 +81,9 @@ type ImportJob struct {
 	// SkipUnmatched imports the records whose image is in the project and
 	// lists the others; without it they fail the import.
 	SkipUnmatched bool
+	// Again: what to do with labels imported before from a file of the
+	// same name (project.ImportAgain…).
+	Again string
 }
 
 // RunImport adds the images folder (if any), reads the labels and imports
@@ -113,7 +116,7 @@ func RunImport(ctx context.Context, s backend.Project, j ImportJob) (res ImportR
 			Plural(len(unreadable), "label file")+" match", unreadable[0], project.ErrInvalid)
 	}
 	rep, err := s.ImportDataset(ctx, ds, project.ImportOptions{Annotator: j.Annotator, CreateClasses: j.Create, Strict: j.Strict, Source: filepath.Base(j.Src),
-		ClassMap: j.ClassMap, SkipUnmatched: j.SkipUnmatched})
+		ClassMap: j.ClassMap, SkipUnmatched: j.SkipUnmatched, Again: j.Again})
 	if err != nil {
 		return res, err
 	}

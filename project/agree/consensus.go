@@ -24,6 +24,10 @@ type ConsensusOptions struct {
 	Median bool
 }
 
+// ConsensusSourcePrefix starts the source of every consensus label, so
+// that they can be told from labels stored under the same annotator name.
+const ConsensusSourcePrefix = "consensus of "
+
 // ConsensusLabels derives the consensus of the annotators named in who
 // (in the order of each image's By) as labels: per image, objects grouped
 // class-agnostically at opt.Threshold, kept when enough annotators drew
@@ -42,7 +46,7 @@ func ConsensusLabels(images []ImageLabels, who []string, opt ConsensusOptions) (
 	if opt.Median {
 		how = "median"
 	}
-	source := fmt.Sprintf("consensus of %s (IoU ≥ %.2f, seen by ≥ %d, %s box)", strings.Join(who, ", "), opt.Threshold, support, how)
+	source := fmt.Sprintf(ConsensusSourcePrefix+"%s (IoU ≥ %.2f, seen by ≥ %d, %s box)", strings.Join(who, ", "), opt.Threshold, support, how)
 	for _, im := range images {
 		boxes := make([][]project.Box, n)
 		classes := make([][]int64, n)
