@@ -3,9 +3,7 @@ package cli
 import (
 	"bytes"
 	"os"
-	"os/exec"
 	"path/filepath"
-	"strconv"
 	"strings"
 	"testing"
 	"time"
@@ -42,15 +40,7 @@ func TestReadCommandsChangeNothing(t *testing.T) {
 // to recover; check says what is wrong; recover saves the rest.
 func TestDamagedProjectCommands(t *testing.T) {
 	path := testkit.SmallDemo(t)
-	out, err := exec.Command("sqlite3", path, "SELECT pageno FROM dbstat WHERE name = 'labels' AND pagetype = 'leaf' LIMIT 1 OFFSET 2").Output()
-	if err != nil {
-		t.Fatal("the sqlite3 tool (Debian package sqlite3) is needed:", err)
-	}
-	page, _ := strconv.ParseInt(strings.TrimSpace(string(out)), 10, 64)
-	f, _ := os.OpenFile(path, os.O_RDWR, 0)
-	f.WriteAt(bytes.Repeat([]byte{0xde, 0xad}, 2048), 4096*(page-1))
-	f.Close()
-	before, _ := os.ReadFile(path)
+	before := testkit.DamagePage(t, path, "labels", 2)
 
 	labels := filepath.Join(t.TempDir(), "l.json")
 	os.WriteFile(labels, []byte(`{"images":[],"annotations":[],"categories":[]}`), 0o644)

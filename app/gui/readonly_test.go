@@ -3,8 +3,6 @@ package gui
 import (
 	"bytes"
 	"os"
-	"os/exec"
-	"strconv"
 	"strings"
 	"testing"
 
@@ -20,28 +18,11 @@ import (
 // editing off; nothing is written to the file.
 func TestDamagedProjectOpensForLookingOnly(t *testing.T) {
 	path := testkit.SmallDemo(t)
-	// Spoil one page of an index, as a failing disk would; the sqlite3
-	// tool (Debian package sqlite3) finds it.
-	out, err := exec.Command("sqlite3", path, "SELECT pageno FROM dbstat WHERE name = 'suggestions_by_label' LIMIT 1").Output()
-	if err != nil {
-		t.Fatal("the sqlite3 tool is needed:", err)
-	}
-	page, err := strconv.ParseInt(strings.TrimSpace(string(out)), 10, 64)
-	if err != nil {
-		t.Fatalf("dbstat: %q", out)
-	}
-	f, _ := os.OpenFile(path, os.O_RDWR, 0)
-	f.WriteAt(bytes.Repeat([]byte{0xde, 0xad}, 2048), 4096*(page-1))
-	f.Close()
-	before, _ := os.ReadFile(path)
+	// Spoil one page of an index, as a failing disk would.
+	before := testkit.DamagePage(t, path, "suggestions_by_label", 0)
 
-	a := test.NewTempApp(t)
-	u := newUI(a)
-	u.annotatorFlag = "Ines"
-	decoded := make(chan error, 10)
-	u.decoded = func(_ int64, err error) { decoded <- err }
-	u.win.Resize(fyne.NewSize(1000, 700))
-	if err := u.openProject(path); err != nil {
+	u, decoded, err := openWindow(t, path, "Ines")
+	if err != nil {
 		t.Fatalf("a damaged project should open for looking: %v", err)
 	}
 	waitDecoded(t, decoded)
@@ -70,13 +51,8 @@ func TestDamagedProjectOpensForLookingOnly(t *testing.T) {
 // image skipped does not skip it for Tomas.
 func TestStatusesAreTheAnnotatorsOwn(t *testing.T) {
 	path := testkit.SmallDemo(t)
-	a := test.NewTempApp(t)
-	u := newUI(a)
-	u.annotatorFlag = "Ines"
-	decoded := make(chan error, 10)
-	u.decoded = func(_ int64, err error) { decoded <- err }
-	u.win.Resize(fyne.NewSize(1000, 700))
-	if err := u.openProject(path); err != nil {
+	u, decoded, err := openWindow(t, path, "Ines")
+	if err != nil {
 		t.Fatal(err)
 	}
 	defer u.closeProject()
@@ -98,4 +74,16 @@ func TestStatusesAreTheAnnotatorsOwn(t *testing.T) {
 	if !strings.Contains(u.summary.Text, "Tomas:") {
 		t.Errorf("summary %q should say whose statuses it counts", u.summary.Text)
 	}
+}
+
+// openWindow opens the project in a test window, labelling as annotator,
+// and hands back the channel that hears of each image decoded.
+func openWindow(t *testing.T, path, annotator string) (*ui, chan error, error) {
+	t.Helper()
+	u := newUI(test.NewTempApp(t))
+	u.annotatorFlag = annotator
+	decoded := make(chan error, 10)
+	u.decoded = func(_ int64, err error) { decoded <- err }
+	u.win.Resize(fyne.NewSize(1000, 700))
+	return u, decoded, u.openProject(path)
 }

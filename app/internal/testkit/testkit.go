@@ -4,8 +4,14 @@
 package testkit
 
 import (
+	"bytes"
 	"context"
+	"fmt"
+	"os"
+	"os/exec"
 	"path/filepath"
+	"strconv"
+	"strings"
 	"testing"
 
 	_ "github.com/mattn/go-sqlite3"
@@ -50,4 +56,31 @@ func Exemplar(t *testing.T, path string) (project.Image, project.Label) {
 	}
 	t.Fatal("the demo has no sailboat of Ines to use as an example")
 	return project.Image{}, project.Label{}
+}
+
+// DamagePage overwrites one page of the project file with garbage, as a
+// failing disk would: the page is the n-th (from 0) of the b-tree named
+// (a table or an index), found with the sqlite3 tool's dbstat table
+// (Debian package sqlite3). It returns the file's bytes afterwards.
+func DamagePage(tb testing.TB, path, btree string, n int) []byte {
+	tb.Helper()
+	out, err := exec.Command("sqlite3", path, fmt.Sprintf(
+		"SELECT pageno FROM dbstat WHERE name = '%s' AND pagetype <> 'internal' LIMIT 1 OFFSET %d", btree, n)).Output()
+	if err != nil {
+		tb.Fatal("the sqlite3 tool (Debian package sqlite3) is needed:", err)
+	}
+	page, err := strconv.ParseInt(strings.TrimSpace(string(out)), 10, 64)
+	if err != nil {
+		tb.Fatalf("no page %d of %s: %q", n, btree, out)
+	}
+	f, err := os.OpenFile(path, os.O_RDWR, 0)
+	if err != nil {
+		tb.Fatal(err)
+	}
+	defer f.Close()
+	if _, err := f.WriteAt(bytes.Repeat([]byte{0xde, 0xad}, 2048), 4096*(page-1)); err != nil {
+		tb.Fatal(err)
+	}
+	b, _ := os.ReadFile(path)
+	return b
 }
