@@ -191,7 +191,7 @@ func ReadCornerJSON(r io.Reader, file string) (*Dataset, error) {
 				return nil
 			})
 		}
-		return p.skip(key, 1)
+		return p.skip(clip(key), 1)
 	})
 	if err != nil {
 		return nil, err

@@ -243,6 +243,9 @@ func TestReadCornerJSONSkippedFields(t *testing.T) {
 		{"{\"categories\": [\n{\"id\": 1, \"name\": \"a\"} {\"id\": 2}]}", "b.json:2: categories: malformed JSON: '{' (byte 0x7b) after an array element; want ',' or ']'"},
 		{"{\"images\": [],\n\"categories\": [],\n\"annotations\": [\n", "b.json:3: annotations: malformed JSON: unexpected end of input"},
 		{"{\"images\": [], \"categories\": [], \"annotations\": []}\n\n!", "b.json:3: malformed JSON: '!' (byte 0x21) after the top-level value"},
+		// A long key names its value's errors clipped (found by
+		// FuzzReadCornerJSON: the message quoted the whole key).
+		{`{"` + strings.Repeat("k", 5000) + `": tru}`, "b.json:1: " + strings.Repeat("k", 64) + "… (5000 bytes): malformed JSON: invalid character"},
 	} {
 		_, err := ReadCornerJSON(strings.NewReader(c.doc), "b.json")
 		if err == nil || !strings.HasPrefix(err.Error(), c.want) {
