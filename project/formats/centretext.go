@@ -9,7 +9,6 @@ package formats
 // centreToBox for the convention.
 
 import (
-	"bufio"
 	"bytes"
 	"errors"
 	"fmt"
@@ -50,58 +49,17 @@ func boxToCentre(b project.Box, width, height int) (cx, cy, w, h float64) {
 	return (b.X0 + b.X1) / 2 / W, (b.Y0 + b.Y1) / 2 / H, (b.X1 - b.X0) / W, (b.Y1 - b.Y0) / H
 }
 
-// lineReader yields the lines of a text file without their line endings
-// (\n or \r\n), with their 1-based numbers. A UTF-8 byte-order mark at the
-// start of the file is dropped.
-type lineReader struct {
-	r    *bufio.Reader
-	line int
-	err  error
-}
-
-func newLineReader(r io.Reader) *lineReader {
-	return &lineReader{r: bufio.NewReaderSize(r, 64<<10)}
-}
-
-// next returns the next line; ok is false at the end of the input or on a
-// read error (see err).
-func (l *lineReader) next() (s string, ok bool) {
-	if l.err != nil {
-		return "", false
-	}
-	s, err := l.r.ReadString('\n')
-	if err != nil {
-		l.err = err
-		if s == "" {
-			return "", false
-		}
-	}
-	l.line++
-	if l.line == 1 {
-		s = strings.TrimPrefix(s, "\ufeff")
-	}
-	s = strings.TrimSuffix(s, "\n")
-	s = strings.TrimSuffix(s, "\r")
-	return s, true
-}
-
-// readErr returns a positioned error for a failed read, or nil at a clean
-// end of input.
-func (l *lineReader) readErr(file string) error {
-	if l.err == nil || l.err == io.EOF {
-		return nil
-	}
-	return &PositionError{File: file, Line: l.line + 1, Msg: "reading: " + l.err.Error()}
-}
-
 // ReadClassNames reads a class-names file: one name per line, the class
 // index being the line number counted from 0. Names are trimmed of spaces
 // and a trailing \r. A blank line is an error, since it would shift the
 // index of every later class, except blank lines at the end of the file.
 // A name that appears twice or contains a carriage return or a byte-order
-// mark (U+FEFF) is an error. Errors are *PositionError values.
+// mark (U+FEFF) is an error, and so is a name longer than MaxNameBytes,
+// a line longer than MaxRecordBytes, and bytes that are not UTF-8 text
+// (the file is read line by line and refused at the first such line).
+// Errors are *PositionError values.
 func ReadClassNames(r io.Reader, file string) ([]string, error) {
-	lr := newLineReader(r)
+	lr := newLineReader(r, file)
 	classes := []string{}
 	seen := map[string]int{} // name → line
 	firstBlank := 0          // line of the first blank line not yet followed by a name
@@ -129,14 +87,18 @@ func ReadClassNames(r io.Reader, file string) ([]string, error) {
 			return nil, &PositionError{File: file, Line: lr.line,
 				Msg: "class name contains a byte-order mark (U+FEFF), which is invisible and would not read back"}
 		}
+		if len(name) > MaxNameBytes {
+			return nil, &PositionError{File: file, Line: lr.line,
+				Msg: fmt.Sprintf("class name is %d bytes long, more than the %d a name may hold; is this a class-names file?", len(name), MaxNameBytes)}
+		}
 		if prev, dup := seen[name]; dup {
 			return nil, &PositionError{File: file, Line: lr.line,
-				Msg: fmt.Sprintf("class name %q appears twice (also on line %d)", name, prev)}
+				Msg: fmt.Sprintf("class name %s appears twice (also on line %d)", quote(name), prev)}
 		}
 		seen[name] = lr.line
 		classes = append(classes, name)
 	}
-	if err := lr.readErr(file); err != nil {
+	if err := lr.readErr(); err != nil {
 		return nil, err
 	}
 	return classes, nil
@@ -181,12 +143,14 @@ var centreFields = [6]string{"class_index", "cx", "cy", "w", "h", "score"}
 // A line has five columns (class_index cx cy w h) or six, the sixth a score
 // in 0..1 (HasScore). classes are the class names by index, as read by
 // ReadClassNames. Values may lie up to 1e-6 outside 0..1; they are kept as
-// written and boxes are not clipped. Errors are *PositionError values.
+// written and boxes are not clipped. The file must be UTF-8 text without
+// NUL bytes and lines longer than MaxRecordBytes; it is read line by line
+// and refused at the first bad line. Errors are *PositionError values.
 func ReadCentreText(r io.Reader, file string, width, height int, classes []string) ([]BoxRecord, error) {
 	if width <= 0 || height <= 0 {
 		return nil, &PositionError{File: file, Msg: fmt.Sprintf("image size %dx%d is not positive, so normalised coordinates cannot be converted", width, height)}
 	}
-	lr := newLineReader(r)
+	lr := newLineReader(r, file)
 	var out []BoxRecord
 	for {
 		s, ok := lr.next()
@@ -203,7 +167,7 @@ func ReadCentreText(r io.Reader, file string, width, height int, classes []strin
 		}
 		out = append(out, br)
 	}
-	if err := lr.readErr(file); err != nil {
+	if err := lr.readErr(); err != nil {
 		return nil, err
 	}
 	return out, nil
@@ -223,10 +187,10 @@ func parseCentreLine(s, file string, line, width, height int, classes []string) 
 	for i, c := range cols {
 		f, err := strconv.ParseFloat(c, 64)
 		if err != nil && !errors.Is(err, strconv.ErrRange) {
-			return fail(centreFields[i], "%q is not a number", c)
+			return fail(centreFields[i], "%s is not a number", quote(c))
 		}
 		if err != nil || math.IsNaN(f) || math.IsInf(f, 0) {
-			return fail(centreFields[i], "%q is not a finite number", c)
+			return fail(centreFields[i], "%s is not a finite number", quote(c))
 		}
 		v[i] = f
 	}
@@ -234,20 +198,20 @@ func parseCentreLine(s, file string, line, width, height int, classes []string) 
 	idx := v[0]
 	switch {
 	case idx != math.Trunc(idx):
-		return fail("class_index", "class index %s is not an integer", cols[0])
+		return fail("class_index", "class index %s is not an integer", clip(cols[0]))
 	case idx < 0:
-		return fail("class_index", "class index %s is negative", cols[0])
+		return fail("class_index", "class index %s is negative", clip(cols[0]))
 	case idx >= float64(len(classes)):
-		return fail("class_index", "class index %s is beyond the class-names file, which has %s", cols[0], centreClassCount(len(classes)))
+		return fail("class_index", "class index %s is beyond the class-names file, which has %s", clip(cols[0]), centreClassCount(len(classes)))
 	}
 
 	for i := 1; i <= 4; i++ {
 		f := v[i]
 		if f < -centreTolerance || f > 1+centreTolerance {
-			return fail(centreFields[i], "%s %s is outside 0..1 (values are relative to the image size)", centreFields[i], cols[i])
+			return fail(centreFields[i], "%s %s is outside 0..1 (values are relative to the image size)", centreFields[i], clip(cols[i]))
 		}
 		if i >= 3 && f <= 0 {
-			return fail(centreFields[i], "%s %s is not greater than 0", centreFields[i], cols[i])
+			return fail(centreFields[i], "%s %s is not greater than 0", centreFields[i], clip(cols[i]))
 		}
 	}
 	br := BoxRecord{
@@ -256,11 +220,11 @@ func parseCentreLine(s, file string, line, width, height int, classes []string) 
 		Where: file + ":" + strconv.Itoa(line),
 	}
 	if !br.Box.Valid() {
-		return fail("w", "box of size %s x %s is too small to hold on a %dx%d image", cols[3], cols[4], width, height)
+		return fail("w", "box of size %s x %s is too small to hold on a %dx%d image", clip(cols[3]), clip(cols[4]), width, height)
 	}
 	if len(cols) == 6 {
 		if v[5] < -centreTolerance || v[5] > 1+centreTolerance {
-			return fail("score", "score %s is outside 0..1", cols[5])
+			return fail("score", "score %s is outside 0..1", clip(cols[5]))
 		}
 		br.Score, br.HasScore = v[5], true
 	}

@@ -11,6 +11,7 @@ import (
 	"strconv"
 	"strings"
 	"testing"
+	"unicode/utf8"
 
 	"boxwright/project"
 )
@@ -303,46 +304,82 @@ func TestCentreTextReadFailure(t *testing.T) {
 	}
 }
 
-// FuzzReadCentreText checks that no input panics, that every error is a
-// *PositionError naming the file, and that accepted boxes are valid.
+// FuzzReadCentreText checks that no input panics; that every error is a
+// *PositionError naming the file and a line of it; and that what reads is
+// UTF-8 text without NUL bytes, holds valid boxes of known classes, and
+// writes and reads back to the same boxes (to rounding) unless the writer
+// refuses a value at the edge of the 1e-6 tolerance.
 func FuzzReadCentreText(f *testing.F) {
 	f.Add([]byte("0 0.5 0.5 0.25 0.5\n1 0.1 0.2 0.2 0.4 0.875\r\n# c\n\n"))
 	f.Add([]byte("2 1.0000001 0 1e-300 0.5 1\n"))
 	f.Add([]byte("\ufeff0 0x1p-1 .5 +0.1 5e-1\n-0 0.5 0.5 0.5 0.5 -0"))
+	// The text checks.
+	f.Add([]byte("\x00\x00"))
+	f.Add([]byte("0 0.5 0.5 0.1 0.1\n# caf\xe9\n"))
+	f.Add([]byte("# \xc3\xa9t\xc3\xa9\n1\t0.5\v0.5 0.1\f0.1 \r\n"))
 	classes := []string{"a", "b", "c"}
 	f.Fuzz(func(t *testing.T, data []byte) {
 		boxes, err := ReadCentreText(bytes.NewReader(data), "fuzz.txt", 640, 480, classes)
 		if err != nil {
-			var pe *PositionError
-			if !errors.As(err, &pe) || pe.File != "fuzz.txt" {
-				t.Fatalf("error %v (%T) is not a *PositionError for fuzz.txt", err, err)
-			}
+			checkFuzzError(t, err, "fuzz.txt", data, 1)
 			return
 		}
+		if !utf8.Valid(data) || bytes.IndexByte(data, 0) >= 0 {
+			t.Fatalf("accepted bytes that are not UTF-8 text")
+		}
 		for _, b := range boxes {
-			if !b.Box.Valid() || !slices.Contains(classes, b.Class) {
+			if !b.Box.Valid() || !(b.Box.X1 > b.Box.X0) || !(b.Box.Y1 > b.Box.Y0) || !slices.Contains(classes, b.Class) ||
+				(b.HasScore && !(b.Score >= -centreTolerance && b.Score <= 1+centreTolerance)) {
 				t.Fatalf("accepted box %+v", b)
 			}
 		}
-		_ = WriteCentreText(&bytes.Buffer{}, ImageRecord{Name: "f", Width: 640, Height: 480, Boxes: boxes}, classes)
+		var out bytes.Buffer
+		if err := WriteCentreText(&out, ImageRecord{Name: "f", Width: 640, Height: 480, Boxes: boxes}, classes); err != nil {
+			if !strings.Contains(err.Error(), "outside") {
+				t.Fatalf("read but cannot write: %v", err)
+			}
+			return
+		}
+		again, err := ReadCentreText(&out, "again.txt", 640, 480, classes)
+		if err != nil || len(again) != len(boxes) {
+			t.Fatalf("our own output: %d boxes, %v\n%s", len(again), err, out.String())
+		}
+		for i, b := range boxes {
+			g := again[i]
+			// Four products and sums of values below 641: a few units of
+			// the last place of 640 (common practice).
+			if g.Class != b.Class || g.HasScore != b.HasScore || g.Score != b.Score || !boxesClose(g.Box, b.Box, 1e-9) {
+				t.Fatalf("box %+v came back as %+v", b, g)
+			}
+		}
 	})
 }
 
 // FuzzReadClassNames checks that no input panics, that every error is a
-// *PositionError naming the file, and that accepted names write and read
+// *PositionError naming the file and a line of it, and that accepted
+// names are UTF-8 text, unique, within MaxNameBytes, and write and read
 // back unchanged.
 func FuzzReadClassNames(f *testing.F) {
 	f.Add([]byte("person\r\ncar\n\n"))
 	f.Add([]byte("a\n\nb"))
 	f.Add([]byte("\ufeff a \n a\n"))
+	// The text checks.
+	f.Add([]byte("\x00"))
+	f.Add([]byte("caf\xe9\n"))
+	f.Add([]byte("\xef\xbb\xbf\xef\xbb\xbfa\n"))
 	f.Fuzz(func(t *testing.T, data []byte) {
 		names, err := ReadClassNames(bytes.NewReader(data), "fuzz.names")
 		if err != nil {
-			var pe *PositionError
-			if !errors.As(err, &pe) || pe.File != "fuzz.names" {
-				t.Fatalf("error %v (%T) is not a *PositionError for fuzz.names", err, err)
-			}
+			checkFuzzError(t, err, "fuzz.names", data, 1)
 			return
+		}
+		if !utf8.Valid(data) || bytes.IndexByte(data, 0) >= 0 {
+			t.Fatalf("accepted bytes that are not UTF-8 text")
+		}
+		for _, n := range names {
+			if n == "" || len(n) > MaxNameBytes || strings.TrimSpace(n) != n {
+				t.Fatalf("accepted name %q", n)
+			}
 		}
 		var buf bytes.Buffer
 		if err := WriteClassNames(&buf, names); err != nil {

@@ -132,7 +132,7 @@ func (bb *jsonBBox) UnmarshalJSON(b []byte) error {
 			v, ok := parseJSONFloat(elem)
 			if !ok {
 				if len(elem) > 0 && (elem[0] == '-' || (elem[0] >= '0' && elem[0] <= '9')) {
-					bb.msg = fmt.Sprintf("element %d (%s) is not a finite number", n, elem)
+					bb.msg = fmt.Sprintf("element %d (%s) is not a finite number", n, clip(string(elem)))
 				} else {
 					bb.msg = fmt.Sprintf("element %d is not a number", n)
 				}

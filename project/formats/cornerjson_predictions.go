@@ -1,7 +1,7 @@
 package formats
 
 import (
-	"bytes"
+	"fmt"
 	"io"
 	"strconv"
 
@@ -13,9 +13,9 @@ import (
 // by ImageID or by FileName, the class by CategoryID or by Category; the
 // importer resolves them against the project.
 type Prediction struct {
-	ImageID    int64  // 0 when FileName is used
+	ImageID    int64  // 0 when FileName is used; never both
 	FileName   string // "" when ImageID is used
-	CategoryID int64  // 0 when Category (a name) is used
+	CategoryID int64  // 0 when Category (a name) is used; never both
 	Category   string // "" when CategoryID is used
 	Box        project.Box
 	Score      float64 // in [0,1]
@@ -33,27 +33,34 @@ type cjPredictionIn struct {
 
 // ReadPredictionList reads a corner/size JSON prediction list: a JSON array
 // of objects {image_id | file_name, category_id | category,
-// bbox: [x, y, width, height], score}. Ids, when given, must be positive
-// (0 means "not given" in Prediction). Scores must be finite and within
-// [0,1]. Boxes are not clipped. Every error is a *PositionError whose Path
-// is the record's index, such as "[17]".
+// bbox: [x, y, width, height], score}. A record names its image by
+// image_id or by file_name and its class by category_id or by category,
+// never both ways: the reader cannot tell which of two that disagree is
+// right, so such a record is refused with both values. Ids, when given,
+// must be positive (0 means "not given" in Prediction). Scores must be
+// finite and within [0,1]. Boxes are not clipped. The file is read as a
+// stream: it must start (after a byte-order mark and white space) with
+// '[', one record may hold MaxRecordBytes and a name MaxNameBytes. Every
+// error is a *PositionError whose Path is the record's index, such as
+// "[17]".
 func ReadPredictionList(r io.Reader, file string) ([]Prediction, error) {
-	p, err := newCJReader(r, file)
-	if err != nil {
+	p := newCJReader(r, file)
+	if err := p.begin('[', "a JSON array of predictions", "one JSON array of predictions"); err != nil {
 		return nil, err
-	}
-	if len(bytes.TrimSpace(p.data)) == 0 {
-		return nil, p.errAt(0, "", "", "the file is empty; want a JSON array of predictions")
 	}
 	var (
 		preds []Prediction
 		wl    whereList
 		in    cjPredictionIn
 	)
-	err = p.array("", func(k int, start int64) error {
+	err := p.array("", func(k int) error {
 		path := func() string { return "[" + strconv.Itoa(k) + "]" }
+		raw, start, err := p.value(path)
+		if err != nil {
+			return err
+		}
 		in = cjPredictionIn{}
-		if err := p.element(&in, path, start); err != nil {
+		if err := p.decode(raw, start, path, &in); err != nil {
 			return err
 		}
 		if in.ImageID.bad || (in.ImageID.set && in.ImageID.v <= 0) {
@@ -62,11 +69,23 @@ func ReadPredictionList(r io.Reader, file string) ([]Prediction, error) {
 		if !in.ImageID.set && in.FileName == "" {
 			return p.errAt(start, path(), "", "names no image: want image_id or file_name")
 		}
+		if in.ImageID.set && in.FileName != "" {
+			return p.errAt(start, path(), "", fmt.Sprintf("names its image twice, as image_id %d and as file_name %s; a reader cannot tell whether they agree, so give only one of them", in.ImageID.v, quote(in.FileName)))
+		}
+		if m := nameField(in.FileName, "file name"); m != "" {
+			return p.errAt(start, path(), "file_name", m)
+		}
 		if in.CategoryID.bad || (in.CategoryID.set && in.CategoryID.v <= 0) {
 			return p.errAt(start, path(), "category_id", "must be a positive integer")
 		}
 		if !in.CategoryID.set && in.Category == "" {
 			return p.errAt(start, path(), "", "names no class: want category_id or category")
+		}
+		if in.CategoryID.set && in.Category != "" {
+			return p.errAt(start, path(), "", fmt.Sprintf("names its class twice, as category_id %d and as category %s; a reader cannot tell whether they agree, so give only one of them", in.CategoryID.v, quote(in.Category)))
+		}
+		if m := nameField(in.Category, "class name"); m != "" {
+			return p.errAt(start, path(), "category", m)
 		}
 		b, m := in.BBox.box()
 		if m != "" {

@@ -1,7 +1,6 @@
 package formats
 
 import (
-	"encoding/json"
 	"fmt"
 	"io"
 	"math"
@@ -37,20 +36,20 @@ type cjAnn struct {
 	box                project.Box
 	score              float64
 	hasScore, crowd    bool
-	start              int64
+	start              int // line
 }
 
 type cjImg struct {
 	id            int64
 	name          string
 	width, height int
-	start         int64
+	start         int // line
 }
 
 type cjCat struct {
 	id    int64
 	name  string
-	start int64
+	start int // line
 }
 
 // intField checks a required integer field and returns a message on failure.
@@ -67,52 +66,40 @@ func intField(n jsonInt) string {
 // ReadCornerJSON reads a corner/size JSON dataset: one object with the
 // arrays images, categories and annotations. Boxes go to their image's
 // record in file order, and Dataset.Classes lists the categories in file
-// order. Boxes are not clipped to their image. Every error is a
-// *PositionError naming the file, the JSON path and the field.
+// order. Boxes are not clipped to their image. The file is read as a
+// stream: it must start (after a byte-order mark and white space) with
+// '{', one array element may hold MaxRecordBytes and a name MaxNameBytes.
+// Every error is a *PositionError naming the file, the line, the JSON
+// path and the field.
 func ReadCornerJSON(r io.Reader, file string) (*Dataset, error) {
-	p, err := newCJReader(r, file)
-	if err != nil {
-		return nil, err
-	}
-	// Estimate the array sizes from the field names so that the slices
-	// grow once.
+	p := newCJReader(r, file)
 	var (
-		imgs = make([]cjImg, 0, estimate(p.data, `"file_name"`))
+		imgs []cjImg
 		cats []cjCat
-		anns = make([]cjAnn, 0, estimate(p.data, `"bbox"`))
+		anns []cjAnn
 		seen = map[string]bool{}
 	)
-	start := p.valueStart()
-	tok, err := p.dec.Token()
-	if err != nil {
-		if err == io.EOF {
-			return nil, p.errAt(0, "", "", "the file is empty; want one JSON object with images, categories and annotations")
-		}
-		return nil, p.fail(err, "")
+	if err := p.begin('{', "one JSON object with images, categories and annotations", "one JSON object"); err != nil {
+		return nil, err
 	}
-	if tok != json.Delim('{') {
-		return nil, p.errAt(start, "", "", "the file must hold one JSON object, not "+tokenKind(tok))
-	}
-	for p.dec.More() {
-		kstart := p.valueStart()
-		tok, err := p.dec.Token()
-		if err != nil {
-			return nil, p.fail(err, "")
-		}
-		key, _ := tok.(string)
+	err := p.object("", func(key string, kline int) error {
 		switch key {
 		case "images", "categories", "annotations":
 			if seen[key] {
-				return nil, p.errAt(kstart, key, "", "appears twice in the top-level object")
+				return p.errAt(kline, key, "", "appears twice in the top-level object")
 			}
 			seen[key] = true
 		}
 		switch key {
 		case "images":
-			err = p.array(key, func(k int, start int64) error {
+			return p.array(key, func(k int) error {
 				path := func() string { return "images[" + strconv.Itoa(k) + "]" }
+				raw, start, err := p.value(path)
+				if err != nil {
+					return err
+				}
 				var in cjImageIn
-				if err := p.element(&in, path, start); err != nil {
+				if err := p.decode(raw, start, path, &in); err != nil {
 					return err
 				}
 				if m := intField(in.ID); m != "" {
@@ -120,6 +107,9 @@ func ReadCornerJSON(r io.Reader, file string) (*Dataset, error) {
 				}
 				if in.FileName == "" {
 					return p.errAt(start, path(), "file_name", "is missing or empty")
+				}
+				if m := nameField(in.FileName, "file name"); m != "" {
+					return p.errAt(start, path(), "file_name", m)
 				}
 				if m := intField(in.Width); m != "" {
 					return p.errAt(start, path(), "width", m)
@@ -137,10 +127,14 @@ func ReadCornerJSON(r io.Reader, file string) (*Dataset, error) {
 				return nil
 			})
 		case "categories":
-			err = p.array(key, func(k int, start int64) error {
+			return p.array(key, func(k int) error {
 				path := func() string { return "categories[" + strconv.Itoa(k) + "]" }
+				raw, start, err := p.value(path)
+				if err != nil {
+					return err
+				}
 				var in cjCategoryIn
-				if err := p.element(&in, path, start); err != nil {
+				if err := p.decode(raw, start, path, &in); err != nil {
 					return err
 				}
 				if m := intField(in.ID); m != "" {
@@ -149,15 +143,22 @@ func ReadCornerJSON(r io.Reader, file string) (*Dataset, error) {
 				if in.Name == "" {
 					return p.errAt(start, path(), "name", "is missing or empty")
 				}
+				if m := nameField(in.Name, "class name"); m != "" {
+					return p.errAt(start, path(), "name", m)
+				}
 				cats = append(cats, cjCat{in.ID.v, in.Name, start})
 				return nil
 			})
 		case "annotations":
 			var in cjAnnotationIn
-			err = p.array(key, func(k int, start int64) error {
+			return p.array(key, func(k int) error {
 				path := func() string { return "annotations[" + strconv.Itoa(k) + "]" }
+				raw, start, err := p.value(path)
+				if err != nil {
+					return err
+				}
 				in = cjAnnotationIn{}
-				if err := p.element(&in, path, start); err != nil {
+				if err := p.decode(raw, start, path, &in); err != nil {
 					return err
 				}
 				if m := intField(in.ID); m != "" {
@@ -189,28 +190,30 @@ func ReadCornerJSON(r io.Reader, file string) (*Dataset, error) {
 				})
 				return nil
 			})
-		default:
-			var skip skipValue
-			if err := p.dec.Decode(&skip); err != nil {
-				return nil, p.fail(err, key)
-			}
 		}
-		if err != nil {
-			return nil, err
-		}
-	}
-	if _, err := p.dec.Token(); err != nil {
-		return nil, p.fail(err, "")
+		return p.skip(clip(key), 1)
+	})
+	if err != nil {
+		return nil, err
 	}
 	if err := p.end(); err != nil {
 		return nil, err
 	}
 	for _, key := range []string{"images", "categories", "annotations"} {
 		if !seen[key] {
-			return nil, p.errAt(0, key, "", "is missing; the top-level object needs the arrays images, categories and annotations")
+			return nil, p.errAt(1, key, "", "is missing; the top-level object needs the arrays images, categories and annotations")
 		}
 	}
 	return p.resolve(imgs, cats, anns)
+}
+
+// nameField checks the length of a name field and returns a message on
+// failure; what is "file name" or "class name".
+func nameField(s, what string) string {
+	if len(s) > MaxNameBytes {
+		return fmt.Sprintf("is %d bytes long, more than the %d a %s may hold", len(s), MaxNameBytes, what)
+	}
+	return ""
 }
 
 // resolve checks uniqueness and references and builds the Dataset.
@@ -225,7 +228,7 @@ func (p *cjReader) resolve(imgs []cjImg, cats []cjCat, anns []cjAnn) (*Dataset, 
 			return nil, p.errAt(c.start, path, "id", fmt.Sprintf("duplicate category id %d (also categories[%d])", c.id, j))
 		}
 		if j, dup := catName[c.name]; dup {
-			return nil, p.errAt(c.start, path, "name", fmt.Sprintf("duplicate category name %q (also categories[%d])", c.name, j))
+			return nil, p.errAt(c.start, path, "name", fmt.Sprintf("duplicate category name %s (also categories[%d])", quote(c.name), j))
 		}
 		catIndex[c.id], catName[c.name] = i, i
 		ds.Classes[i] = c.name
@@ -240,7 +243,7 @@ func (p *cjReader) resolve(imgs []cjImg, cats []cjCat, anns []cjAnn) (*Dataset, 
 			return nil, p.errAt(im.start, path, "id", fmt.Sprintf("duplicate image id %d (also images[%d])", im.id, j))
 		}
 		if j, dup := imgName[im.name]; dup {
-			return nil, p.errAt(im.start, path, "file_name", fmt.Sprintf("duplicate file name %q (also images[%d])", im.name, j))
+			return nil, p.errAt(im.start, path, "file_name", fmt.Sprintf("duplicate file name %s (also images[%d])", quote(im.name), j))
 		}
 		imgIndex[im.id], imgName[im.name] = i, i
 		iw.add(p.file+": images[", i)

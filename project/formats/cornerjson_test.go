@@ -10,6 +10,7 @@ import (
 	"os"
 	"os/exec"
 	"path/filepath"
+	"slices"
 	"strconv"
 	"strings"
 	"testing"
@@ -393,7 +394,7 @@ func TestReadPredictionList(t *testing.T) {
 	const doc = `[
   {"image_id": 4, "category_id": 2, "bbox": [10, 20, 30, 40], "score": 0.9},
   {"file_name": "b.jpg", "category": "dog", "bbox": [0.5, 0.5, 1, 2], "score": 0, "extra": true},
-  {"image_id": 4, "file_name": "a.jpg", "category": "cat", "category_id": 1, "bbox": [1, 1, 1, 1], "score": 1}
+  {"image_id": 4, "file_name": "", "category": "cat", "category_id": null, "bbox": [1, 1, 1, 1], "score": 1}
 ]`
 	ps, err := ReadPredictionList(strings.NewReader(doc), "preds.json")
 	if err != nil {
@@ -412,7 +413,8 @@ func TestReadPredictionList(t *testing.T) {
 	if ps[1] != want1 {
 		t.Errorf("got %+v, want %+v", ps[1], want1)
 	}
-	if ps[2].ImageID != 4 || ps[2].FileName != "a.jpg" || ps[2].CategoryID != 1 || ps[2].Category != "cat" || ps[2].Score != 1 {
+	// An empty file_name and a null category_id are "not given".
+	if ps[2].ImageID != 4 || ps[2].FileName != "" || ps[2].CategoryID != 0 || ps[2].Category != "cat" || ps[2].Score != 1 {
 		t.Errorf("got %+v", ps[2])
 	}
 	empty, err := ReadPredictionList(strings.NewReader(" [ ] "), "e.json")
@@ -436,6 +438,10 @@ func TestReadPredictionListErrors(t *testing.T) {
 		{`[{"image_id": 1, "category_id": 1, "bbox": [1, 2, 3, 4]}]`, "[0].score: is missing"},
 		{`[{"category_id": 1, "bbox": [1, 2, 3, 4], "score": 0.5}]`, "[0]: names no image: want image_id or file_name"},
 		{`[{"image_id": 1, "bbox": [1, 2, 3, 4], "score": 0.5}]`, "[0]: names no class: want category_id or category"},
+		// Item 18 of issue 14: an image named both ways went to the id
+		// without a word; the reader cannot know which is right.
+		{"[" + ok + ",\n" + `{"image_id": 4, "file_name": "a.jpg", "category_id": 1, "bbox": [1, 2, 3, 4], "score": 0.5}]`, `p.json:2: [1]: names its image twice, as image_id 4 and as file_name "a.jpg"`},
+		{`[{"image_id": 4, "category_id": 1, "category": "cat", "bbox": [1, 2, 3, 4], "score": 0.5}]`, `p.json:1: [0]: names its class twice, as category_id 1 and as category "cat"`},
 		{`[{"image_id": 0, "category_id": 1, "bbox": [1, 2, 3, 4], "score": 0.5}]`, "[0].image_id: must be a positive integer"},
 		{`[{"image_id": 1, "category_id": "x", "bbox": [1, 2, 3, 4], "score": 0.5}]`, "[0].category_id: must be a positive integer"},
 		{`[` + ok + `, {"image_id": 1, "category_id": 1, "bbox": [1, 2, 0, 4], "score": 0.5}]`, "[1].bbox: width is zero"},
@@ -460,9 +466,13 @@ func TestReadPredictionListErrors(t *testing.T) {
 	}
 }
 
-// FuzzReadCornerJSON checks that no input panics, that every error is a
-// *PositionError with File set, and that whatever reads also writes and
-// reads back with the same shape.
+// FuzzReadCornerJSON checks that no input panics; that every error is a
+// *PositionError naming the file and a line of it, in a message of
+// bounded length, and that valid JSON is never called malformed; and that
+// whatever reads is valid JSON, agrees with encoding/json's reading of the
+// whole document (the streaming reader cuts it into the same records),
+// holds only valid boxes and known classes, and writes and reads back the
+// same (the far corners to rounding, since the file holds widths).
 func FuzzReadCornerJSON(f *testing.F) {
 	var buf bytes.Buffer
 	if err := WriteCornerJSON(&buf, sampleDataset()); err != nil {
@@ -472,15 +482,59 @@ func FuzzReadCornerJSON(f *testing.F) {
 	f.Add([]byte(`{"images": [], "categories": [], "annotations": []}`))
 	f.Add([]byte(`{"images": [{"id": 1, "file_name": "a", "width": 2, "height": 2}], "categories": [{"id": 3, "name": "c"}], "annotations": [{"id": 1, "image_id": 1, "category_id": 3, "bbox": [0, 0, 1, 1]}]}`))
 	f.Add([]byte(`{"images": [{"id": 1,`))
+	// The first-byte checks and the streaming walk.
+	f.Add([]byte("\x00\x00\x00"))
+	f.Add([]byte("\xef\xbb\xbf \n\t{\"info\": {\"a\": [1, \"x\", null, true, {\"b\": -1e5}]}, \"images\": [], \"categories\": [], \"annotations\": []}"))
+	f.Add([]byte("\xff\xfe{\x00"))
+	f.Add([]byte("\x1f\x8b\x08"))
+	f.Add([]byte(`{"images": [], "categories": [], "annotations": [], "x": [[[[[[]]]]]], "y": "\u00e9\"]"}`))
+	f.Add([]byte(`{"Images": [], "images": [], "categories": [], "annotations": []} `))
 	f.Fuzz(func(t *testing.T, data []byte) {
 		ds, err := ReadCornerJSON(bytes.NewReader(data), "fuzz.json")
+		body := bytes.TrimPrefix(data, utf8BOM)
 		if err != nil {
-			var pe *PositionError
-			if !errors.As(err, &pe) || pe.File != "fuzz.json" {
-				t.Fatalf("error %v (%T) is not a *PositionError with File", err, err)
+			checkFuzzError(t, err, "fuzz.json", data, 1)
+			if json.Valid(body) && strings.Contains(err.Error(), "malformed JSON") {
+				t.Fatalf("valid JSON called malformed: %v", err)
 			}
 			return
 		}
+		if !json.Valid(body) {
+			t.Fatalf("accepted JSON that encoding/json calls invalid")
+		}
+		// What encoding/json makes of the whole document.
+		var top map[string]json.RawMessage
+		var imgs []cjImageIn
+		var cats []cjCategoryIn
+		var anns []cjAnnotationIn
+		if err := json.Unmarshal(body, &top); err != nil {
+			t.Fatalf("encoding/json: %v", err)
+		}
+		for key, v := range map[string]any{"images": &imgs, "categories": &cats, "annotations": &anns} {
+			if err := json.Unmarshal(top[key], v); err != nil {
+				t.Fatalf("encoding/json, %s: %v", key, err)
+			}
+		}
+		if len(ds.Images) != len(imgs) || len(ds.Classes) != len(cats) {
+			t.Fatalf("%d images, %d classes; encoding/json finds %d, %d", len(ds.Images), len(ds.Classes), len(imgs), len(cats))
+		}
+		nBoxes := 0
+		for i, im := range ds.Images {
+			if im.Name != imgs[i].FileName || int64(im.Width) != imgs[i].Width.v || int64(im.Height) != imgs[i].Height.v {
+				t.Fatalf("image %d is %+v; encoding/json finds %+v", i, im, imgs[i])
+			}
+			nBoxes += len(im.Boxes)
+		}
+		for i, c := range ds.Classes {
+			if c != cats[i].Name {
+				t.Fatalf("class %d is %q; encoding/json finds %q", i, c, cats[i].Name)
+			}
+		}
+		if nBoxes != len(anns) {
+			t.Fatalf("%d boxes; encoding/json finds %d annotations", nBoxes, len(anns))
+		}
+		checkFuzzDataset(t, ds)
+
 		var out bytes.Buffer
 		if err := WriteCornerJSON(&out, ds); err != nil {
 			t.Fatalf("read but cannot write: %v", err)
@@ -489,35 +543,121 @@ func FuzzReadCornerJSON(f *testing.F) {
 		if err != nil {
 			t.Fatalf("cannot read our own output: %v\n%s", err, out.String())
 		}
-		if len(again.Images) != len(ds.Images) || len(again.Classes) != len(ds.Classes) {
-			t.Fatalf("shape changed: %d/%d images, %d/%d classes", len(again.Images), len(ds.Images), len(again.Classes), len(ds.Classes))
+		if !slices.Equal(again.Classes, ds.Classes) || len(again.Images) != len(ds.Images) {
+			t.Fatalf("classes %q, %d images came back as %q, %d", ds.Classes, len(ds.Images), again.Classes, len(again.Images))
 		}
-		for i := range ds.Images {
-			if len(again.Images[i].Boxes) != len(ds.Images[i].Boxes) {
-				t.Fatalf("image %d: %d boxes, then %d", i, len(ds.Images[i].Boxes), len(again.Images[i].Boxes))
+		for i, im := range ds.Images {
+			g := again.Images[i]
+			if g.Name != im.Name || g.Width != im.Width || g.Height != im.Height || len(g.Boxes) != len(im.Boxes) {
+				t.Fatalf("image %+v came back as %+v", im, g)
+			}
+			for j, b := range im.Boxes {
+				gb := g.Boxes[j]
+				if gb.Class != b.Class || gb.Crowd != b.Crowd || gb.HasScore != b.HasScore || gb.Score != b.Score ||
+					gb.Box.X0 != b.Box.X0 || gb.Box.Y0 != b.Box.Y0 || !roundClose(gb.Box.X1, b.Box.X1, b.Box.X0) || !roundClose(gb.Box.Y1, b.Box.Y1, b.Box.Y0) {
+					t.Fatalf("box %+v came back as %+v", b, gb)
+				}
 			}
 		}
 	})
 }
 
-// FuzzReadPredictionList checks that no input panics and that every error
-// is a *PositionError with File set.
+// roundClose reports whether got, computed as lo + (want - lo) in float64,
+// is within the two roundings of that sum of want: 4 units of the last
+// place of the larger magnitude (IEEE 754 round to nearest, common
+// practice).
+func roundClose(got, want, lo float64) bool {
+	return math.Abs(got-want) <= 4*0x1p-52*math.Max(math.Abs(want), math.Abs(lo))
+}
+
+// checkFuzzError checks an error of a reader under fuzzing: a
+// *PositionError naming file, with a line within the input (at least
+// minLine), in a message a person can read.
+func checkFuzzError(t *testing.T, err error, file string, data []byte, minLine int) {
+	t.Helper()
+	var pe *PositionError
+	if !errors.As(err, &pe) || pe.File != file {
+		t.Fatalf("error %v (%T) is not a *PositionError for %s", err, err, file)
+	}
+	if lines := bytes.Count(data, []byte{'\n'}) + 1; pe.Line < minLine || pe.Line > lines {
+		t.Fatalf("error %v names line %d of an input of %d lines", err, pe.Line, lines)
+	}
+	if n := len(err.Error()); n > 1500 {
+		t.Fatalf("error message of %d bytes: %.300s...", n, err)
+	}
+}
+
+// checkFuzzDataset checks the invariants of an accepted dataset: named
+// images of positive size, unique classes, valid boxes (finite, X1 > X0,
+// Y1 > Y0) of those classes, scores within 0..1, names within their limit.
+func checkFuzzDataset(t *testing.T, ds *Dataset) {
+	t.Helper()
+	classes := map[string]bool{}
+	for _, c := range ds.Classes {
+		if c == "" || len(c) > MaxNameBytes || classes[c] {
+			t.Fatalf("accepted class list %q", ds.Classes)
+		}
+		classes[c] = true
+	}
+	for _, im := range ds.Images {
+		if im.Name == "" || len(im.Name) > MaxNameBytes || im.Width <= 0 || im.Height <= 0 || im.Where == "" {
+			t.Fatalf("accepted image %+v", im)
+		}
+		for _, b := range im.Boxes {
+			if !b.Box.Valid() || !(b.Box.X1 > b.Box.X0) || !(b.Box.Y1 > b.Box.Y0) || !classes[b.Class] || b.Where == "" ||
+				(b.HasScore && !(b.Score >= 0 && b.Score <= 1)) || (!b.HasScore && b.Score != 0) {
+				t.Fatalf("accepted box %+v", b)
+			}
+		}
+	}
+}
+
+// FuzzReadPredictionList checks that no input panics; that every error is
+// a *PositionError naming the file and a line of it, and that valid JSON
+// is never called malformed; and that whatever reads is valid JSON whose
+// records, as encoding/json reads the whole document, are the predictions
+// returned: each with one image (id or name), one class (id or name), a
+// valid box and a score within 0..1.
 func FuzzReadPredictionList(f *testing.F) {
 	f.Add([]byte(`[{"image_id": 1, "category_id": 1, "bbox": [1, 2, 3, 4], "score": 0.5}]`))
 	f.Add([]byte(`[{"file_name": "a.jpg", "category": "dog", "bbox": [0.5, 0.5, 1, 2], "score": 1}]`))
 	f.Add([]byte(`[]`))
 	f.Add([]byte(`[{"image_id": 1, "bbox": [1, 2`))
+	// The first-byte checks, the streaming walk and the rule against an
+	// image or class named both ways.
+	f.Add([]byte("\x00"))
+	f.Add([]byte("\xef\xbb\xbf\r\n [ {\"image_id\": 2, \"category\": \"a\\\"]\", \"bbox\": [1, 2, 3, 4], \"score\": 0, \"segmentation\": [[1, 2], {\"x\": \"]\"}]} ]\n"))
+	f.Add([]byte(`[{"image_id": 4, "file_name": "a.jpg", "category_id": 1, "bbox": [1, 2, 3, 4], "score": 0.5}]`))
+	f.Add([]byte(`[{"image_id": 4, "category_id": 1, "category": "cat", "bbox": [1, 2, 3, 4], "score": 0.5}] 7`))
 	f.Fuzz(func(t *testing.T, data []byte) {
 		ps, err := ReadPredictionList(bytes.NewReader(data), "fuzz.json")
+		body := bytes.TrimPrefix(data, utf8BOM)
 		if err != nil {
-			var pe *PositionError
-			if !errors.As(err, &pe) || pe.File != "fuzz.json" {
-				t.Fatalf("error %v (%T) is not a *PositionError with File", err, err)
+			checkFuzzError(t, err, "fuzz.json", data, 1)
+			if json.Valid(body) && strings.Contains(err.Error(), "malformed JSON") {
+				t.Fatalf("valid JSON called malformed: %v", err)
 			}
 			return
 		}
-		for _, p := range ps {
-			if !p.Box.Valid() || !(p.Score >= 0 && p.Score <= 1) || p.Where == "" {
+		if !json.Valid(body) {
+			t.Fatalf("accepted JSON that encoding/json calls invalid")
+		}
+		var recs []cjPredictionIn
+		if err := json.Unmarshal(body, &recs); err != nil {
+			t.Fatalf("encoding/json: %v", err)
+		}
+		if len(recs) != len(ps) {
+			t.Fatalf("%d predictions; encoding/json finds %d records", len(ps), len(recs))
+		}
+		for i, p := range ps {
+			r := recs[i]
+			b, _ := r.BBox.box()
+			if p.ImageID != r.ImageID.v || p.FileName != r.FileName || p.CategoryID != r.CategoryID.v || p.Category != r.Category || p.Box != b || p.Score != r.Score.v {
+				t.Fatalf("prediction %d is %+v; encoding/json finds %+v", i, p, r)
+			}
+			if !p.Box.Valid() || !(p.Box.X1 > p.Box.X0) || !(p.Box.Y1 > p.Box.Y0) || !(p.Score >= 0 && p.Score <= 1) || p.Where != "fuzz.json: ["+strconv.Itoa(i)+"]" ||
+				(p.ImageID > 0) == (p.FileName != "") || (p.CategoryID > 0) == (p.Category != "") || p.ImageID < 0 || p.CategoryID < 0 ||
+				len(p.FileName) > MaxNameBytes || len(p.Category) > MaxNameBytes {
 				t.Fatalf("accepted a bad prediction %+v", p)
 			}
 		}

@@ -18,6 +18,7 @@ package formats
 // with box corners as 1-based inclusive pixel indices; see xmlIndicesToBox.
 
 import (
+	"bufio"
 	"bytes"
 	"encoding/xml"
 	"errors"
@@ -27,6 +28,7 @@ import (
 	"path"
 	"strconv"
 	"strings"
+	"unicode/utf8"
 
 	"boxwright/project"
 )
@@ -57,22 +59,34 @@ type xmlNode struct {
 	line     int
 	text     strings.Builder
 	children []*xmlNode
+	// dup records, for a child name that appeared more than once, the
+	// lines of its first two appearances; later ones are not kept.
+	dup map[string][2]int
 }
 
 // child returns the only child element with the given name, or nil when
 // there is none. Two such children are an error.
 func (n *xmlNode) child(name string) (*xmlNode, error) {
-	var found *xmlNode
-	for _, c := range n.children {
-		if c.name != name {
-			continue
-		}
-		if found != nil {
-			return nil, fmt.Errorf("<%s> appears more than once (lines %d and %d)", name, found.line, c.line)
-		}
-		found = c
+	if d, ok := n.dup[name]; ok {
+		return nil, fmt.Errorf("<%s> appears more than once (lines %d and %d)", name, d[0], d[1])
 	}
-	return found, nil
+	for _, c := range n.children {
+		if c.name == name {
+			return c, nil
+		}
+	}
+	return nil, nil
+}
+
+// xmlKept lists, for each element the reader uses, the children it keeps;
+// any other element is read past without being kept, so a file holds on
+// to memory only for what it says about its image. Elements that are not
+// keys here are leaves, whose text is kept.
+var xmlKept = map[string]map[string]bool{
+	"annotation": {"filename": true, "path": true, "size": true, "object": true},
+	"size":       {"width": true, "height": true, "depth": true},
+	"object":     {"name": true, "pose": true, "truncated": true, "difficult": true, "bndbox": true},
+	"bndbox":     {"xmin": true, "ymin": true, "xmax": true, "ymax": true},
 }
 
 // value returns the trimmed text of the element.
@@ -114,10 +128,10 @@ func (x *xmlReader) number(parent *xmlNode, p, field string) (float64, error) {
 	}
 	v, err := strconv.ParseFloat(s, 64)
 	if err != nil && !errors.Is(err, strconv.ErrRange) {
-		return 0, x.errf(c.line, p, field, "%q is not a number", s)
+		return 0, x.errf(c.line, p, field, "%s is not a number", quote(s))
 	}
 	if err != nil || math.IsNaN(v) || math.IsInf(v, 0) {
-		return 0, x.errf(c.line, p, field, "%q is not a finite number", s)
+		return 0, x.errf(c.line, p, field, "%s is not a finite number", quote(s))
 	}
 	return v, nil
 }
@@ -159,7 +173,7 @@ func (x *xmlReader) flag(parent *xmlNode, p, field string) (bool, error) {
 	case "1":
 		return true, nil
 	default:
-		return false, x.errf(c.line, p, field, "%q is not 0 or 1", s)
+		return false, x.errf(c.line, p, field, "%s is not 0 or 1", quote(s))
 	}
 }
 
@@ -172,12 +186,86 @@ func (x *xmlReader) text(parent *xmlNode, p, field string) (string, error) {
 	return c.value(), nil
 }
 
-// parseXMLTree reads the whole document into a tree of elements.
-func (x *xmlReader) parseXMLTree(r io.Reader) (*xmlNode, error) {
-	d := xml.NewDecoder(r)
+// xmlDoc is what parseXML keeps of a document: the root with the children
+// the reader uses, the boxes of the objects read so far and the first
+// error among them (reported after the image's own fields).
+type xmlDoc struct {
+	root   *xmlNode
+	boxes  []BoxRecord
+	objErr error
+}
+
+// errXMLTooLarge stops the decoder at MaxXMLFileBytes.
+var errXMLTooLarge = errors.New("per-image XML: too large")
+
+// xmlLimiter passes at most MaxXMLFileBytes to the decoder. It is an
+// io.ByteReader, which the decoder reads from without a buffer of its own.
+type xmlLimiter struct {
+	r    *bufio.Reader
+	left int64
+}
+
+func (l *xmlLimiter) ReadByte() (byte, error) {
+	if l.left <= 0 {
+		return 0, errXMLTooLarge
+	}
+	l.left--
+	return l.r.ReadByte()
+}
+
+func (l *xmlLimiter) Read(p []byte) (int, error) {
+	if l.left <= 0 {
+		return 0, errXMLTooLarge
+	}
+	if int64(len(p)) > l.left {
+		p = p[:l.left]
+	}
+	n, err := l.r.Read(p)
+	l.left -= int64(n)
+	return n, err
+}
+
+// parseXML reads the document as a stream. The first byte that is not
+// white space must be '<'. Elements the reader does not use are read past;
+// each <object> is converted to a box at its end tag and dropped, so
+// memory follows the number of boxes, not the size of the file.
+func (x *xmlReader) parseXML(r io.Reader) (*xmlDoc, error) {
+	br := newInput(r, 4096)
+	// Look at the first bytes before the decoder does, so that a file that
+	// is not XML is refused by what it holds.
+	for off, line := 0, 1; ; off++ {
+		head, err := br.Peek(off + 1)
+		if len(head) <= off {
+			if err == io.EOF {
+				break // only white space: "no root element" below
+			}
+			if err == bufio.ErrBufferFull {
+				break // a long run of white space: the decoder goes on
+			}
+			return nil, x.errf(line, "", "", "cannot read the file: %v", err)
+		}
+		c := head[off]
+		if c == '\n' {
+			line++
+		}
+		if c == ' ' || c == '\t' || c == '\r' || c == '\n' {
+			continue
+		}
+		if c != '<' {
+			rest, _ := br.Peek(min(off+4, br.Buffered()))
+			return nil, x.errf(line, "", "", "%s (an XML file begins with <)", startProblem(rest[off:], "XML"))
+		}
+		break
+	}
+	d := xml.NewDecoder(&xmlLimiter{r: br, left: MaxXMLFileBytes})
 	d.CharsetReader = xmlCharsetReader
-	var root *xmlNode
-	var stack []*xmlNode
+	doc := &xmlDoc{}
+	var (
+		rootName string
+		rootLine int
+		stack    []*xmlNode // nil for an element read past
+		nObj     int
+	)
 	for {
 		tok, err := d.Token()
 		if err == io.EOF {
@@ -185,30 +273,68 @@ func (x *xmlReader) parseXMLTree(r io.Reader) (*xmlNode, error) {
 		}
 		if err != nil {
 			line, _ := d.InputPos()
+			if errors.Is(err, errXMLTooLarge) {
+				return nil, x.errf(line, "", "", "the file is larger than %d bytes (16 MiB), more than a per-image XML file holds; is this the right file?", MaxXMLFileBytes)
+			}
 			var se *xml.SyntaxError
 			msg := err.Error()
 			if errors.As(err, &se) {
 				line, msg = se.Line, se.Msg
 			}
-			return nil, x.errf(line, "", "", "malformed XML: %s", msg)
+			return nil, x.errf(line, "", "", "malformed XML: %s", clipMsg(msg))
 		}
 		line, _ := d.InputPos()
 		switch t := tok.(type) {
 		case xml.StartElement:
-			n := &xmlNode{name: t.Name.Local, line: line}
-			if len(stack) == 0 {
-				if root != nil {
-					return nil, x.errf(line, "", "", "malformed XML: a second root element <%s> after </%s>", n.name, root.name)
+			if len(stack) >= maxNesting {
+				return nil, x.errf(line, "", "", "elements are nested more than %d deep", maxNesting)
+			}
+			name := t.Name.Local
+			var n *xmlNode
+			switch {
+			case len(stack) == 0:
+				if rootName != "" {
+					return nil, x.errf(line, "", "", "malformed XML: a second root element <%s> after </%s>", clip(name), clip(rootName))
 				}
-				root = n
-			} else {
+				rootName, rootLine = name, line
+				if name == "annotation" {
+					n = &xmlNode{name: name, line: line}
+					doc.root = n
+				}
+			case stack[len(stack)-1] == nil || !xmlKept[stack[len(stack)-1].name][name]:
+				// Read past.
+			case name == "object":
+				n = &xmlNode{name: name, line: line}
+			default:
 				p := stack[len(stack)-1]
-				p.children = append(p.children, n)
+				if _, ok := p.dup[name]; ok {
+					// A third or later copy: the message names the first two.
+				} else if prev, _ := p.child(name); prev != nil {
+					if p.dup == nil {
+						p.dup = map[string][2]int{}
+					}
+					p.dup[name] = [2]int{prev.line, line}
+				} else {
+					n = &xmlNode{name: name, line: line}
+					p.children = append(p.children, n)
+				}
 			}
 			stack = append(stack, n)
 		case xml.EndElement:
 			// The decoder checks that tags match.
+			n := stack[len(stack)-1]
 			stack = stack[:len(stack)-1]
+			if n != nil && n.name == "object" && len(stack) == 1 {
+				if doc.objErr == nil {
+					b, err := x.object(n, "object["+strconv.Itoa(nObj)+"]")
+					if err != nil {
+						doc.objErr, doc.boxes = err, nil
+					} else {
+						doc.boxes = append(doc.boxes, b)
+					}
+				}
+				nObj++
+			}
 		case xml.CharData:
 			if len(stack) == 0 {
 				if len(bytes.TrimSpace(t)) != 0 {
@@ -216,29 +342,39 @@ func (x *xmlReader) parseXMLTree(r io.Reader) (*xmlNode, error) {
 				}
 				continue
 			}
-			stack[len(stack)-1].text.Write(t)
+			n := stack[len(stack)-1]
+			if n == nil || xmlKept[n.name] != nil {
+				continue // the text between kept children is not used
+			}
+			if n.text.Len()+len(t) > MaxNameBytes {
+				return nil, x.errf(n.line, "", n.name, "<%s> holds more than %d bytes of text, more than a name or number needs", n.name, MaxNameBytes)
+			}
+			n.text.Write(t)
 		}
 	}
-	if root == nil {
+	if rootName == "" {
 		return nil, x.errf(0, "", "", "malformed XML: no root element (is the file empty?)")
 	}
-	return root, nil
+	if doc.root == nil {
+		return nil, x.errf(rootLine, "", "", "root element is <%s>, expected <annotation>", clip(rootName))
+	}
+	return doc, nil
 }
 
 // ReadImageXML reads one per-image XML file. file names the file in error
 // messages. The record's Name is <filename>, or the last element of <path>
-// when <filename> is empty. Boxes are not clipped to the image. Errors are
-// *PositionError values giving the line and element path (object indices
-// count from 0, like the JSON paths).
+// when <filename> is empty. Boxes are not clipped to the image. The file
+// is read as a stream: its first byte that is not white space must be
+// '<', it may hold MaxXMLFileBytes, and the text of one element
+// MaxNameBytes. Errors are *PositionError values giving the line and
+// element path (object indices count from 0, like the JSON paths).
 func ReadImageXML(r io.Reader, file string) (ImageRecord, error) {
 	x := &xmlReader{file: file}
-	root, err := x.parseXMLTree(r)
+	doc, err := x.parseXML(r)
 	if err != nil {
 		return ImageRecord{}, err
 	}
-	if root.name != "annotation" {
-		return ImageRecord{}, x.errf(root.line, "", "", "root element is <%s>, expected <annotation>", root.name)
-	}
+	root := doc.root
 	rec := ImageRecord{Where: file}
 	if rec.Name, err = x.text(root, "", "filename"); err != nil {
 		return ImageRecord{}, err
@@ -275,19 +411,10 @@ func ReadImageXML(r io.Reader, file string) (ImageRecord, error) {
 			return ImageRecord{}, err
 		}
 	}
-
-	i := 0
-	for _, obj := range root.children {
-		if obj.name != "object" {
-			continue
-		}
-		b, err := x.object(obj, fmt.Sprintf("object[%d]", i))
-		if err != nil {
-			return ImageRecord{}, err
-		}
-		rec.Boxes = append(rec.Boxes, b)
-		i++
+	if doc.objErr != nil {
+		return ImageRecord{}, doc.objErr
 	}
+	rec.Boxes = doc.boxes
 	return rec, nil
 }
 
@@ -345,6 +472,19 @@ func (x *xmlReader) object(obj *xmlNode, p string) (BoxRecord, error) {
 	return br, nil
 }
 
+// clipMsg shortens a message of the XML decoder, which may quote names of
+// any length, to 200 bytes.
+func clipMsg(s string) string {
+	if len(s) <= 200 {
+		return s
+	}
+	i := 200
+	for i > 0 && !utf8.RuneStart(s[i]) {
+		i--
+	}
+	return s[:i] + "…"
+}
+
 // xmlCharsetReader lets the decoder read files that declare ASCII or
 // Latin-1 encodings, both common in older exports.
 func xmlCharsetReader(charset string, input io.Reader) (io.Reader, error) {
@@ -354,7 +494,7 @@ func xmlCharsetReader(charset string, input io.Reader) (io.Reader, error) {
 	case "iso-8859-1", "iso8859-1", "latin1", "latin-1", "l1":
 		return &latin1Reader{r: input}, nil
 	}
-	return nil, fmt.Errorf("unsupported encoding %q (use UTF-8)", charset)
+	return nil, fmt.Errorf("unsupported encoding %s (use UTF-8)", quote(charset))
 }
 
 // latin1Reader converts ISO 8859-1 bytes to UTF-8.

@@ -419,31 +419,61 @@ func TestReadImageXMLErrors(t *testing.T) {
 	}
 }
 
-// FuzzReadImageXML checks that no input panics, that every error is a
-// *PositionError naming the file, and that what is read holds valid boxes
-// that the writer accepts or refuses without panicking.
+// FuzzReadImageXML checks that no input panics; that every error is a
+// *PositionError naming the file and a line of it; and that what is read
+// holds a named image of positive size and valid boxes with classes, and
+// writes and reads back the same (corners to rounding: the file holds
+// 1-based indices, X0+1) unless the writer refuses a box under one pixel.
 func FuzzReadImageXML(f *testing.F) {
 	f.Add([]byte(xmlErrorBase))
 	f.Add([]byte(`<annotation><filename>a</filename><size><width>1</width><height>1</height></size><object><name>x</name><bndbox><xmin>1e308</xmin><ymin>1</ymin><xmax>1e308</xmax><ymax>1</ymax></bndbox></object></annotation>`))
 	f.Add([]byte("<?xml version=\"1.0\" encoding=\"latin1\"?><annotation>\xff</annotation>"))
+	// The first-byte check and the elements read past.
+	f.Add([]byte("\x00<annotation/>"))
+	f.Add([]byte("\xef\xbb\xbf \n<annotation><folder>f</folder><filename> a </filename><owner><name>x</name></owner><size><width>2</width><height>2</height><depth></depth></size><object><name>c</name><pose>p</pose><truncated>1</truncated><bndbox><xmin>1.5</xmin><ymin>1</ymin><xmax>1.5</xmax><ymax>2</ymax><x><xmin>9</xmin></x></bndbox></object></annotation>"))
+	f.Add([]byte("<annotation><path>C:\\a\\b.png</path><size><width>1</width><height>1</height></size><object><name>a</name></object><object/></annotation>"))
 	f.Fuzz(func(t *testing.T, data []byte) {
 		rec, err := ReadImageXML(bytes.NewReader(data), "fuzz.xml")
 		if err != nil {
-			var pe *PositionError
-			if !errors.As(err, &pe) || pe.File != "fuzz.xml" {
-				t.Fatalf("error %v (%T) is not a *PositionError for fuzz.xml", err, err)
-			}
+			checkFuzzError(t, err, "fuzz.xml", data, 0)
 			return
 		}
-		if rec.Name == "" || rec.Width <= 0 || rec.Height <= 0 {
+		if rec.Name == "" || rec.Width <= 0 || rec.Height <= 0 || rec.Depth < 0 {
 			t.Fatalf("accepted record %+v", rec)
 		}
 		for _, b := range rec.Boxes {
-			if !b.Box.Valid() || b.Class == "" {
+			if !b.Box.Valid() || !(b.Box.X1 > b.Box.X0) || !(b.Box.Y1 > b.Box.Y0) || b.Class == "" || len(b.Class) > MaxNameBytes || len(b.Pose) > MaxNameBytes {
 				t.Fatalf("accepted box %+v", b)
 			}
 		}
-		_ = WriteImageXML(&bytes.Buffer{}, rec)
+		var out bytes.Buffer
+		if err := WriteImageXML(&out, rec); err != nil {
+			if !strings.Contains(err.Error(), "less than one pixel") {
+				t.Fatalf("read but cannot write: %v", err)
+			}
+			return
+		}
+		again, err := ReadImageXML(&out, "again.xml")
+		if err != nil {
+			t.Fatalf("our own output: %v\n%s", err, out.String())
+		}
+		depth := rec.Depth
+		if depth == 0 {
+			depth = 3 // the writer's default
+		}
+		if again.Name != rec.Name || again.Width != rec.Width || again.Height != rec.Height || again.Depth != depth || len(again.Boxes) != len(rec.Boxes) {
+			t.Fatalf("record %+v came back as %+v", rec, again)
+		}
+		for i, b := range rec.Boxes {
+			g := again.Boxes[i]
+			// (v+1)-1 is v to within one rounding of v+1 (IEEE 754 round
+			// to nearest, common practice).
+			near := func(got, want float64) bool { return math.Abs(got-want) <= 0x1p-52*math.Max(1, math.Abs(want)+1) }
+			if g.Class != b.Class || g.Pose != b.Pose || g.Truncated != b.Truncated || g.Difficult != b.Difficult ||
+				!near(g.Box.X0, b.Box.X0) || !near(g.Box.Y0, b.Box.Y0) || g.Box.X1 != b.Box.X1 || g.Box.Y1 != b.Box.Y1 {
+				t.Fatalf("box %+v came back as %+v", b, g)
+			}
+		}
 	})
 }
 

@@ -10,6 +10,7 @@ package formats
 // conversion) and a score in [0,1].
 
 import (
+	"bufio"
 	"bytes"
 	"encoding/csv"
 	"errors"
@@ -38,32 +39,67 @@ const (
 // predcsv.go). The header is required and must name each of the seven
 // columns exactly once; other columns are refused. A UTF-8 byte-order mark
 // and spaces around values are ignored; blank lines are skipped. Boxes are
-// not clipped. Every error is a *PositionError with the line and, where one
+// not clipped. The file is read record by record: one record may hold
+// MaxRecordBytes, names MaxNameBytes, and the text must be UTF-8 without
+// NUL bytes. Every error is a *PositionError with the line and, where one
 // is to blame, the column name as Field.
 func ReadPredictionCSV(r io.Reader, file string) ([]Prediction, error) {
-	data, err := io.ReadAll(r)
-	if err != nil {
-		return nil, &PositionError{File: file, Msg: "cannot read the file: " + err.Error()}
-	}
-	data = bytes.TrimPrefix(data, []byte("\xef\xbb\xbf"))
-	cr := csv.NewReader(bytes.NewReader(data))
+	lim := &csvLimiter{r: newInput(r, 64<<10)}
+	cr := csv.NewReader(lim)
 	cr.FieldsPerRecord = -1 // the count is checked here, with a better message
 	cr.ReuseRecord = true
 	cr.TrimLeadingSpace = true
+	lim.limit = MaxRecordBytes + csvReadAhead
+	prevLine := 0 // line of the last record read
 	fail := func(line int, field, format string, args ...any) error {
 		return &PositionError{File: file, Line: line, Field: field, Msg: fmt.Sprintf(format, args...)}
 	}
 	readErr := func(err error) error {
+		switch {
+		case lim.notText != "":
+			return fail(lim.badLine, "", "%s", lim.notText)
+		case lim.tooLong:
+			return fail(lim.badLine, "", csvTooLong, prevLine)
+		}
 		var pe *csv.ParseError
 		if errors.As(err, &pe) {
 			return fail(pe.Line, "", "malformed CSV: %v", pe.Err)
 		}
 		return fail(0, "", "cannot read the file: %v", err)
 	}
+	// next reads one record, checks its size and its text and moves the
+	// read limit past it.
+	next := func() ([]string, error) {
+		before := cr.InputOffset()
+		rec, err := cr.Read()
+		if err != nil {
+			return nil, err
+		}
+		line, _ := cr.FieldPos(0)
+		if cr.InputOffset()-before > MaxRecordBytes+2 {
+			return nil, fail(line, "", csvTooLong, prevLine)
+		}
+		for i, f := range rec {
+			if at, msg, bad := stringProblem(f); bad {
+				fl, col := cr.FieldPos(i)
+				if fl == 1 && col == 1 && at == 0 {
+					return nil, fail(fl, "", "the file starts with %s", msg)
+				}
+				return nil, fail(fl, "", "byte %d of field %d is %s", at+1, i+1, msg)
+			}
+		}
+		lim.limit = cr.InputOffset() + MaxRecordBytes + csvReadAhead
+		prevLine = line
+		return rec, nil
+	}
 
-	head, err := cr.Read()
+	head, err := next()
 	if err == io.EOF {
 		return nil, fail(0, "", "the file is empty; want the header %s", strings.Join(predCSVColumns[:], ","))
+	}
+	var pe *PositionError
+	if errors.As(err, &pe) {
+		return nil, pe
 	}
 	if err != nil {
 		return nil, readErr(err)
@@ -83,9 +119,9 @@ func ReadPredictionCSV(r io.Reader, file string) ([]Prediction, error) {
 		}
 		switch {
 		case k < 0:
-			return nil, fail(headLine, "", "column %d of the header is %q; want only the columns %s", i+1, h, strings.Join(predCSVColumns[:], ","))
+			return nil, fail(headLine, "", "column %d of the header is %s; want only the columns %s", i+1, quote(h), strings.Join(predCSVColumns[:], ","))
 		case col[k] >= 0:
-			return nil, fail(headLine, "", "the header names column %q twice", name)
+			return nil, fail(headLine, "", "the header names column %s twice", quote(name))
 		}
 		col[k] = i
 	}
@@ -97,9 +133,12 @@ func ReadPredictionCSV(r io.Reader, file string) ([]Prediction, error) {
 
 	var preds []Prediction
 	for {
-		rec, err := cr.Read()
+		rec, err := next()
 		if err == io.EOF {
 			break
+		}
+		if errors.As(err, &pe) {
+			return nil, pe
 		}
 		if err != nil {
 			return nil, readErr(err)
@@ -116,9 +155,9 @@ func ReadPredictionCSV(r io.Reader, file string) ([]Prediction, error) {
 			case s == "":
 				return nil, fail(line, predCSVColumns[k], "is empty; want a number")
 			case err != nil && !errors.Is(err, strconv.ErrRange):
-				return nil, fail(line, predCSVColumns[k], "%q is not a number", s)
+				return nil, fail(line, predCSVColumns[k], "%s is not a number", quote(s))
 			case err != nil || math.IsNaN(f) || math.IsInf(f, 0):
-				return nil, fail(line, predCSVColumns[k], "%q is not a finite number", s)
+				return nil, fail(line, predCSVColumns[k], "%s is not a finite number", quote(s))
 			}
 			v[k] = f
 		}
@@ -129,10 +168,14 @@ func ReadPredictionCSV(r io.Reader, file string) ([]Prediction, error) {
 			Where:    file + ":" + strconv.Itoa(line),
 		}
 		p.Box.X0, p.Box.Y0, p.Box.X1, p.Box.Y1 = v[pcX0], v[pcY0], v[pcX1], v[pcY1]
-		num := func(k int) string { return strings.TrimSpace(rec[col[k]]) }
+		num := func(k int) string { return clip(strings.TrimSpace(rec[col[k]])) }
 		switch {
 		case p.FileName == "":
 			return nil, fail(line, "image", "is empty; want the image's file name or relative path")
+		case len(p.FileName) > MaxNameBytes:
+			return nil, fail(line, "image", "is %d bytes long, more than the %d a file name may hold", len(p.FileName), MaxNameBytes)
+		case len(p.Category) > MaxNameBytes:
+			return nil, fail(line, "class", "is %d bytes long, more than the %d a class name may hold", len(p.Category), MaxNameBytes)
 		case p.Category == "":
 			return nil, fail(line, "class", "is empty; want a class name")
 		case !(p.Box.X1 > p.Box.X0):
@@ -145,6 +188,58 @@ func ReadPredictionCSV(r io.Reader, file string) ([]Prediction, error) {
 		preds = append(preds, p)
 	}
 	return preds, nil
+}
+
+// csvTooLong says why a record is refused for its size; its verb takes
+// the line of the record before.
+const csvTooLong = "more than 1048576 bytes (1 MiB) since the record on line %d, more than one prediction (with the blank lines before it) holds; is this the right file? (An unclosed quote makes the rest of the file one field.)"
+
+// csvReadAhead is how far encoding/csv reads beyond the record it returns
+// (the size of its buffer), which the limit allows for.
+const csvReadAhead = 4096
+
+// csvLimiter passes bytes to the CSV reader up to a limit that keeps one
+// record from growing without end, and stops at the first NUL byte,
+// counting lines so that either names its line. (UTF-8 is checked on the
+// parsed fields, which hold whole characters.)
+type csvLimiter struct {
+	r       *bufio.Reader
+	n       int64 // bytes passed on
+	limit   int64 // most bytes to pass on
+	line    int   // newlines passed on
+	tooLong bool
+	notText string // what the bad byte is
+	badLine int
+}
+
+var errCSVStop = errors.New("prediction CSV: stopped")
+
+func (l *csvLimiter) Read(p []byte) (int, error) {
+	if l.tooLong || l.notText != "" {
+		return 0, errCSVStop
+	}
+	if l.n >= l.limit {
+		l.tooLong, l.badLine = true, l.line+1
+		return 0, errCSVStop
+	}
+	if room := l.limit - l.n; int64(len(p)) > room {
+		p = p[:room]
+	}
+	n, err := l.r.Read(p)
+	if at := bytes.IndexByte(p[:n], 0); at >= 0 {
+		// Pass on what comes before the NUL; the next call stops.
+		l.badLine = l.line + bytes.Count(p[:at], []byte{'\n'}) + 1
+		_, msg, _ := textProblem(p[at:n])
+		if l.n == 0 && at == 0 {
+			l.notText = "the file starts with " + msg
+		} else {
+			l.notText = msg
+		}
+		n, err = at, nil
+	}
+	l.line += bytes.Count(p[:n], []byte{'\n'})
+	l.n += int64(n)
+	return n, err
 }
 
 // WritePredictionCSV writes predictions as a prediction CSV with the

@@ -8,6 +8,7 @@ import (
 	"path/filepath"
 	"strings"
 	"testing"
+	"unicode/utf8"
 
 	"boxwright/project"
 )
@@ -173,23 +174,41 @@ func TestWritePredictionCSVRefuses(t *testing.T) {
 	}
 }
 
-// FuzzReadPredictionCSV checks that the reader never panics and that every
-// record it accepts is usable.
+// FuzzReadPredictionCSV checks that the reader never panics; that every
+// error is a *PositionError naming the file and a line of it; and that
+// every record it accepts is usable (names within MaxNameBytes and UTF-8,
+// a valid box, a score within 0..1) and writes and reads back exactly.
 func FuzzReadPredictionCSV(f *testing.F) {
 	f.Add([]byte("image,class,x0,y0,x1,y1,score\na.jpg,cat,1,2,3,4,0.5\n"))
 	f.Add([]byte("score,image,class,x0,y0,x1,y1\r\n1,\"x\ny\",c,0,0,1e-300,1e300\r\n"))
+	// The text checks.
+	f.Add([]byte("\x00image"))
+	f.Add([]byte("\xef\xbb\xbfimage,class,x0,y0,x1,y1,score\n\"caf\xe9\",cat,1,2,3,4,0.5\n"))
+	f.Add([]byte("image,class,x0,y0,x1,y1,score\n\n\n\" a, \"\"b\"\" \", c ,1,2,3,4,1\na,b,1,2,3,4,0\x00\n"))
 	f.Fuzz(func(t *testing.T, data []byte) {
 		preds, err := ReadPredictionCSV(bytes.NewReader(data), "f.csv")
 		if err != nil {
-			var pe *PositionError
-			if !errors.As(err, &pe) {
-				t.Fatalf("error %v is %T, not *PositionError", err, err)
-			}
+			checkFuzzError(t, err, "f.csv", data, 0)
 			return
 		}
 		for _, p := range preds {
-			if !p.Box.Valid() || !(p.Score >= 0 && p.Score <= 1) || p.FileName == "" || p.Category == "" {
+			if !p.Box.Valid() || !(p.Box.X1 > p.Box.X0) || !(p.Box.Y1 > p.Box.Y0) || !(p.Score >= 0 && p.Score <= 1) || p.FileName == "" || p.Category == "" ||
+				len(p.FileName) > MaxNameBytes || len(p.Category) > MaxNameBytes || !utf8.ValidString(p.FileName+p.Category) || strings.ContainsRune(p.FileName+p.Category, 0) {
 				t.Fatalf("accepted %+v", p)
+			}
+		}
+		var out bytes.Buffer
+		if err := WritePredictionCSV(&out, preds); err != nil {
+			t.Fatalf("read but cannot write: %v", err)
+		}
+		again, err := ReadPredictionCSV(&out, "again.csv")
+		if err != nil || len(again) != len(preds) {
+			t.Fatalf("our own output: %d predictions, %v\n%s", len(again), err, out.String())
+		}
+		for i, p := range preds {
+			g := again[i]
+			if g.FileName != p.FileName || g.Category != p.Category || g.Box != p.Box || g.Score != p.Score {
+				t.Fatalf("prediction %+v came back as %+v", p, g)
 			}
 		}
 	})
