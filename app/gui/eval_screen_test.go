@@ -40,13 +40,15 @@ func TestEvaluationScreen(t *testing.T) {
 	if u.compare == nil || u.compareBar.Hidden {
 		t.Fatalf("the pair was not opened in the main window")
 	}
-	marked := 0
-	for _, it := range u.view.Items() {
-		if it.Marked {
-			marked++
+	// The image may still be decoding: its boxes are shown when it is.
+	marked := func() int {
+		n := 0
+		for _, it := range u.view.Items() {
+			if it.Marked {
+				n++
+			}
 		}
+		return n
 	}
-	if marked != 2 {
-		t.Errorf("%d boxes ringed, want the pair's 2", marked)
-	}
+	waitFor(t, "the pair's 2 boxes ringed", func() bool { return marked() == 2 })
 }
