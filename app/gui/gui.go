@@ -19,10 +19,13 @@ import (
 	"fmt"
 	"image/color"
 	"io"
+	"net"
 	"os"
 	"path/filepath"
 	"runtime"
+	"strconv"
 	"strings"
+	"time"
 
 	"fyne.io/fyne/v2"
 	fyneapp "fyne.io/fyne/v2/app"
@@ -43,7 +46,7 @@ import (
 // empty, labelling as annotator (empty: the remembered name, or ask), and
 // returns when the window closes.
 func Run(path, annotator string, stderr io.Writer) int {
-	if why := noDisplay(runtime.GOOS, os.Getenv); why != "" {
+	if why := noDisplay(runtime.GOOS, os.Getenv, net.DialTimeout); why != "" {
 		fmt.Fprintf(stderr, "boxwright: %s\n", why)
 		return 1
 	}
@@ -69,16 +72,59 @@ func Run(path, annotator string, stderr io.Writer) int {
 }
 
 // noDisplay says why no window can open, or "": on Linux and the BSDs a
-// window needs an X or Wayland display, and without one the toolkit
-// panics instead of saying so.
-func noDisplay(goos string, getenv func(string) string) string {
+// window needs an X display (this build draws through X11; Wayland desktops
+// offer one through XWayland), and without a reachable one the toolkit
+// panics instead of saying so. dial is net.DialTimeout in use.
+func noDisplay(goos string, getenv func(string) string, dial func(network, addr string, d time.Duration) (net.Conn, error)) string {
 	switch goos {
 	case "linux", "freebsd", "openbsd", "netbsd":
-		if getenv("DISPLAY") == "" && getenv("WAYLAND_DISPLAY") == "" {
-			return "no display to open a window on (neither DISPLAY nor WAYLAND_DISPLAY is set): run it in a desktop session, or use the command-line commands (boxwright help); boxwright demo DIR --no-open makes the demo without opening it"
-		}
+	default:
+		return ""
 	}
+	const headless = "run it in a desktop session, or use the command-line commands (boxwright help); boxwright demo DIR --no-open makes the demo without opening it"
+	d := getenv("DISPLAY")
+	if d == "" {
+		return "no display to open a window on (DISPLAY is not set): " + headless
+	}
+	network, addr, ok := xDisplayAddr(d)
+	if !ok {
+		return fmt.Sprintf("DISPLAY=%q is not a display name like :0 or host:0: %s", d, headless)
+	}
+	c, err := dial(network, addr, 2*time.Second)
+	if err != nil && network == "unix" && goos == "linux" {
+		c, err = dial("unix", "@"+addr, 2*time.Second) // the abstract socket X servers also offer
+	}
+	if err != nil {
+		return fmt.Sprintf("cannot reach the display DISPLAY=%s (%s %s): %s", d, network, addr, headless)
+	}
+	c.Close()
 	return ""
+}
+
+// xDisplayAddr turns an X display name ([host]:number[.screen]) into the
+// socket the X server listens on (X11 convention: unix socket
+// /tmp/.X11-unix/X<number>, or TCP port 6000+number on a named host).
+func xDisplayAddr(d string) (network, addr string, ok bool) {
+	colon := strings.LastIndex(d, ":")
+	if colon < 0 {
+		return "", "", false
+	}
+	host, num := d[:colon], d[colon+1:]
+	if dot := strings.IndexByte(num, '.'); dot >= 0 {
+		num = num[:dot]
+	}
+	n, err := strconv.Atoi(num)
+	if err != nil || n < 0 {
+		return "", "", false
+	}
+	switch {
+	case strings.HasPrefix(host, "/"): // a socket path given whole
+		return "unix", d[:colon] + ":" + num, true
+	case host == "" || host == "unix":
+		return "unix", fmt.Sprintf("/tmp/.X11-unix/X%d", n), true
+	default:
+		return "tcp", net.JoinHostPort(strings.TrimPrefix(host, "tcp/"), strconv.Itoa(6000+n)), true
+	}
 }
 
 // ui is the main window and the open project.
