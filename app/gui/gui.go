@@ -19,6 +19,7 @@ import (
 	"fmt"
 	"image/color"
 	"io"
+	"log"
 	"net"
 	"os"
 	"path/filepath"
@@ -50,6 +51,7 @@ func Run(path, annotator string, stderr io.Writer) int {
 		fmt.Fprintf(stderr, "boxwright: %s\n", why)
 		return 1
 	}
+	log.SetOutput(&quietLog{w: stderr})
 	a := fyneapp.NewWithID("app.boxwright.desktop")
 	u := newUI(a)
 	u.annotatorFlag = annotator
