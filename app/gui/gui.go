@@ -186,6 +186,11 @@ type ui struct {
 	suggestionEdits     map[int64]project.Suggestion
 	showSuggestions     *widget.Check
 	suggestionThreshold float64
+	// dupIoU is the overlap with an own box of the same class at which a
+	// new, accepted or corrected box is asked about (duplicates.go).
+	dupIoU float64
+	// overlapAsk is the overlap question on screen, if any (for tests).
+	overlapAsk *overlapQuestion
 
 	similar    *similarRun  // the last exemplar search, for its live threshold
 	training   *trainScreen // the training window, while it is open
@@ -221,6 +226,7 @@ func newUI(a fyne.App) *ui {
 	u.others = widget.NewCheck("Others", func(on bool) { u.view.SetShowReadOnly(on) })
 	u.others.SetChecked(true)
 	u.suggestionThreshold = defaultSuggestionThreshold
+	u.dupIoU = a.Preferences().FloatWithFallback(dupIoUPref, ops.DefaultDuplicateIoU)
 	u.suggestionEdits = map[int64]project.Suggestion{}
 	u.showSuggestions = widget.NewCheck("Suggestions", func(bool) { u.refreshBoxes() })
 	u.showSuggestions.SetChecked(true)
@@ -315,6 +321,8 @@ func (u *ui) menu() *fyne.MainMenu {
 		fyne.NewMenuItem("Accept all on this image above the threshold (Shift+A)", u.acceptAllAbove),
 		fyne.NewMenuItem("Score threshold…", u.askSuggestionThreshold),
 		fyne.NewMenuItem("Accept or reject many…", u.askBulkReview),
+		fyne.NewMenuItem("Reject suggestions my boxes already cover…", u.askRejectCovered),
+		fyne.NewMenuItem("Duplicate warning…", u.askDupIoU),
 		fyne.NewMenuItemSeparator(),
 		fyne.NewMenuItem("Review one by one… (Ctrl+R)", u.showReviewQueue),
 		fyne.NewMenuItem("Review as a grid of crops… (Ctrl+J)", u.showCropGrid),

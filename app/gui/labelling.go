@@ -146,6 +146,7 @@ func (u *ui) createBox(b project.Box) {
 	k, err := u.sess.Create(context.Background(), u.imageID, u.current, b)
 	u.afterEdit(err)
 	u.view.Select(k)
+	u.checkDrawn(k, b, u.current)
 }
 
 // edit changes the given boxes of the image on screen.
