@@ -2,9 +2,14 @@ package gui
 
 import (
 	"context"
+	"fmt"
 	"strings"
 	"testing"
 
+	"fyne.io/fyne/v2"
+
+	"boxwright/app/internal/testkit"
+	"boxwright/app/ops"
 	"boxwright/project"
 )
 
@@ -173,6 +178,38 @@ func TestAcceptAllAboveAsksAboutRepeats(t *testing.T) {
 		st := stateOf(t, u, g.ID).State
 		if _, rep := covered[g.ID]; rep != (st == project.SuggestionPending) {
 			t.Errorf("suggestion %d (repeat %v) is %s", g.ID, rep, st)
+		}
+	}
+}
+
+// The crop grid flags the suggestions Ines's own boxes already cover, and
+// "Mark covered" marks exactly those for rejection.
+func TestCropGridFlagsCoveredSuggestions(t *testing.T) {
+	u := openDemoForReview(t, testkit.SmallDemo(t))
+	var cl countingLoader
+	g := newCropGrid(u, cl.load)
+	g.win.Resize(fyne.NewSize(900, 700))
+	if err := g.refreshClasses(); err != nil {
+		t.Fatal(err)
+	}
+	own, err := u.st.Labels(context.Background(), project.LabelFilter{AnnotatorID: u.me.ID, ClassID: g.classID})
+	if err != nil {
+		t.Fatal(err)
+	}
+	want := ops.CoveredSuggestions(g.items, own, u.dupIoU)
+	if len(want) == 0 {
+		t.Skip("no covered suggestion in the busiest class")
+	}
+	if len(g.covered) != len(want) || !strings.Contains(g.info.Text, fmt.Sprintf("%d already covered", len(want))) {
+		t.Fatalf("grid knows %d covered, want %d; info %q", len(g.covered), len(want), g.info.Text)
+	}
+	g.markCovered()
+	if len(g.marked) != len(want) {
+		t.Fatalf("%d marked, want the %d covered", len(g.marked), len(want))
+	}
+	for id := range want {
+		if !g.marked[id] {
+			t.Errorf("covered suggestion %d not marked", id)
 		}
 	}
 }
