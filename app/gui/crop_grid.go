@@ -56,10 +56,10 @@ type cropGrid struct {
 	// covers (duplicates.go), flagged on their crops.
 	covered   map[int64]ops.Cover
 	markCover *widget.Button
-	seen    map[int64]bool // suggestions whose cell has been on screen
-	images  map[int64]project.Image
-	last    []int64 // the suggestions the last bulk action decided, for undo
-	classOf map[string]int64
+	seen      map[int64]bool // suggestions whose cell has been on screen
+	images    map[int64]project.Image
+	last      []int64 // the suggestions the last bulk action decided, for undo
+	classOf   map[string]int64
 
 	mu        sync.Mutex // guards what the crop workers share
 	ctx       context.Context

@@ -397,6 +397,7 @@ func (u *ui) openProject(path string) error {
 	}
 	u.closeProject()
 	u.st, u.path, u.readOnlyWhy = traceWrites(s, u.trace), path, why
+	projectFolder = filepath.Dir(path)
 	u.me, u.sess, u.current = project.Annotator{}, nil, 0
 	if err := u.reload(); err != nil {
 		return err
@@ -409,8 +410,12 @@ func (u *ui) openProject(path string) error {
 	if len(u.images) > 0 {
 		u.selectIndex(0)
 	} else {
+		u.view.SetImage(nil)
+		u.view.SetItems(nil)
 		u.view.SetMessage("This project has no images yet: Project ▸ Add image folder… (Ctrl+I)")
 	}
+	u.pointer = ""
+	u.updateStatus()
 	u.reportMissing()
 	return nil
 }
@@ -465,10 +470,6 @@ func (u *ui) reload() error {
 	if err != nil {
 		return err
 	}
-	counts, err := u.st.Counts(ctx)
-	if err != nil {
-		return err
-	}
 	as, err := u.st.Annotators(ctx)
 	if err != nil {
 		return err
@@ -496,9 +497,26 @@ func (u *ui) reload() error {
 	for _, t := range tal {
 		u.tally(t.ImageID, t.ClassID, t.AnnotatorID, t.N)
 	}
+	u.updateSummary()
+	u.nav.reload()
+	u.updateClassBar()
+	return nil
+}
+
+// updateSummary writes the project summary from the counts in memory,
+// which every edit and decision keeps current.
+func (u *ui) updateSummary() {
+	labels, pending, mine := 0, 0, 0
+	for _, c := range u.perImg {
+		labels += c.Labels
+		pending += c.Pending
+	}
+	for _, by := range u.byAnnotator {
+		mine += by[u.me.ID]
+	}
 	var parts []string
 	byStatus := map[project.ImageStatus]int{}
-	for _, im := range ims {
+	for _, im := range u.images {
 		byStatus[im.Status]++
 	}
 	for _, st := range project.ImageStatuses {
@@ -506,14 +524,16 @@ func (u *ui) reload() error {
 			parts = append(parts, fmt.Sprintf("%d %s", n, statusWord(st)))
 		}
 	}
-	if u.me.ID != 0 && len(parts) > 0 {
-		parts[0] = u.me.Name + ": " + parts[0]
+	text := fmt.Sprintf("%s, %s, %s", ops.Plural(len(u.images), "image"), ops.Plural(labels, "label"), ops.Plural(pending, "pending suggestion"))
+	if u.me.ID != 0 {
+		text += fmt.Sprintf("\n%s: %s", u.me.Name, ops.Plural(mine, "label"))
+		if len(parts) > 0 {
+			text += " · " + strings.Join(parts, " · ")
+		}
+	} else if len(parts) > 0 {
+		text += "\n" + strings.Join(parts, " · ")
 	}
-	u.summary.SetText(fmt.Sprintf("%s, %s, %d pending suggestions\n%s", ops.Plural(counts.Images, "image"), ops.Plural(counts.Labels, "label"),
-		counts.Suggestions[project.SuggestionPending], strings.Join(parts, " · ")))
-	u.nav.reload()
-	u.updateClassBar()
-	return nil
+	u.summary.SetText(text)
 }
 
 // tally adds n labels of a class by an annotator on an image to the

@@ -58,6 +58,7 @@ func (u *ui) reloadSuggestions() {
 	}
 	c.Pending = max(0, c.Pending+len(u.suggestions)-before)
 	u.perImg[u.imageID] = c
+	u.updateSummary()
 }
 
 // suggestion is a pending suggestion as the person has edited it so far.
