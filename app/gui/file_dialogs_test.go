@@ -7,6 +7,7 @@ import (
 	"testing"
 
 	"fyne.io/fyne/v2"
+	"fyne.io/fyne/v2/driver/desktop"
 	"fyne.io/fyne/v2/test"
 	"fyne.io/fyne/v2/widget"
 )
@@ -88,5 +89,29 @@ func TestFileDialogsTitledSizedAndPlaced(t *testing.T) {
 	remember(filepath.Join(dir, "sub", "x.json"), false)
 	if lastFolder != filepath.Join(dir, "sub") {
 		t.Errorf("remembered %q", lastFolder)
+	}
+}
+
+// Menu items show their Ctrl shortcuts (the toolkit prints them beside
+// the label when the item carries one).
+func TestMenusShowShortcuts(t *testing.T) {
+	u := newUI(test.NewTempApp(t))
+	want := map[string]fyne.KeyName{"New project…": fyne.KeyN, "Open project…": fyne.KeyO, "Add image folder…": fyne.KeyI,
+		"Import labels…": fyne.KeyL, "Export dataset…": fyne.KeyE, "Undo": fyne.KeyZ}
+	for _, m := range u.win.MainMenu().Items {
+		for _, it := range m.Items {
+			k, ok := want[it.Label]
+			if !ok {
+				continue
+			}
+			delete(want, it.Label)
+			sc, isCustom := it.Shortcut.(*desktop.CustomShortcut)
+			if !isCustom || sc.KeyName != k || sc.Modifier&fyne.KeyModifierShortcutDefault == 0 {
+				t.Errorf("%s: shortcut %v, want Ctrl+%s", it.Label, it.Shortcut, k)
+			}
+		}
+	}
+	if len(want) > 0 {
+		t.Errorf("menu items missing: %v", want)
 	}
 }

@@ -33,6 +33,7 @@ import (
 	fcanvas "fyne.io/fyne/v2/canvas"
 	"fyne.io/fyne/v2/container"
 	"fyne.io/fyne/v2/dialog"
+	"fyne.io/fyne/v2/driver/desktop"
 	"fyne.io/fyne/v2/layout"
 	"fyne.io/fyne/v2/theme"
 	"fyne.io/fyne/v2/widget"
@@ -266,23 +267,30 @@ func (u *ui) askClose() {
 }
 
 func (u *ui) menu() *fyne.MainMenu {
+	// keyed items show their Ctrl shortcut in the menu (addShortcuts
+	// binds the same keys on the window).
+	keyed := func(label string, k fyne.KeyName, m fyne.KeyModifier, f func()) *fyne.MenuItem {
+		it := fyne.NewMenuItem(label, f)
+		it.Shortcut = &desktop.CustomShortcut{KeyName: k, Modifier: fyne.KeyModifierShortcutDefault | m}
+		return it
+	}
 	file := fyne.NewMenu("Project",
-		fyne.NewMenuItem("New project…", u.askNew),
-		fyne.NewMenuItem("Open project…", u.askOpen),
+		keyed("New project…", fyne.KeyN, 0, u.askNew),
+		keyed("Open project…", fyne.KeyO, 0, u.askOpen),
 		fyne.NewMenuItemSeparator(),
-		fyne.NewMenuItem("Add image folder…", u.askAddFolder),
+		keyed("Add image folder…", fyne.KeyI, 0, u.askAddFolder),
 		fyne.NewMenuItem("Add image files…", u.askAddFile),
 		fyne.NewMenuItem("Find moved images…", u.askRelink),
 		fyne.NewMenuItemSeparator(),
 		fyne.NewMenuItem("Change annotator…", u.askAnnotator),
 	)
 	edit := fyne.NewMenu("Edit",
-		fyne.NewMenuItem("Undo (Ctrl+Z)", u.undo),
-		fyne.NewMenuItem("Redo (Ctrl+Shift+Z)", u.redo),
+		keyed("Undo", fyne.KeyZ, 0, u.undo),
+		keyed("Redo", fyne.KeyZ, fyne.KeyModifierShift, u.redo),
 		fyne.NewMenuItemSeparator(),
 		fyne.NewMenuItem("Duplicate box (D)", u.duplicate),
 		fyne.NewMenuItem("Delete box (Delete)", u.deleteSelected),
-		fyne.NewMenuItem("Delete all my boxes on this image (Ctrl+Delete)", u.deleteAll),
+		keyed("Delete all my boxes on this image", fyne.KeyDelete, 0, u.deleteAll),
 		fyne.NewMenuItem("Give all my boxes on this image the current class", func() { u.classAll(u.current) }),
 	)
 	images := fyne.NewMenu("Images",
@@ -306,15 +314,15 @@ func (u *ui) menu() *fyne.MainMenu {
 		fyne.NewMenuItem("Other annotators' boxes (O)", func() { u.others.SetChecked(!u.others.Checked) }),
 	)
 	data := fyne.NewMenu("Dataset",
-		fyne.NewMenuItem("Import labels…", u.askImport),
-		fyne.NewMenuItem("Export dataset…", u.askExport),
+		keyed("Import labels…", fyne.KeyL, 0, u.askImport),
+		keyed("Export dataset…", fyne.KeyE, 0, u.askExport),
 		fyne.NewMenuItemSeparator(),
-		fyne.NewMenuItem("Annotator agreement… (Ctrl+G)", u.showAgreement),
+		keyed("Annotator agreement…", fyne.KeyG, 0, u.showAgreement),
 	)
 	sugg := fyne.NewMenu("Suggestions",
 		fyne.NewMenuItem("Import predictions…", u.askImportSuggestions),
-		fyne.NewMenuItem("Find objects like the selected box… (Ctrl+F)", u.askFindSimilar),
-		fyne.NewMenuItem("Train a detector on this project… (Ctrl+T)", u.showTraining),
+		keyed("Find objects like the selected box…", fyne.KeyF, 0, u.askFindSimilar),
+		keyed("Train a detector on this project…", fyne.KeyT, 0, u.showTraining),
 		fyne.NewMenuItemSeparator(),
 		fyne.NewMenuItem("Accept selected suggestion (A)", u.acceptSuggestion),
 		fyne.NewMenuItem("Reject selected suggestion (Z)", u.rejectSuggestion),
@@ -324,8 +332,8 @@ func (u *ui) menu() *fyne.MainMenu {
 		fyne.NewMenuItem("Reject suggestions my boxes already cover…", u.askRejectCovered),
 		fyne.NewMenuItem("Duplicate warning…", u.askDupIoU),
 		fyne.NewMenuItemSeparator(),
-		fyne.NewMenuItem("Review one by one… (Ctrl+R)", u.showReviewQueue),
-		fyne.NewMenuItem("Review as a grid of crops… (Ctrl+J)", u.showCropGrid),
+		keyed("Review one by one…", fyne.KeyR, 0, u.showReviewQueue),
+		keyed("Review as a grid of crops…", fyne.KeyJ, 0, u.showCropGrid),
 		fyne.NewMenuItem("What the decisions tell us…", u.showSuggestionStats),
 		fyne.NewMenuItem("Evaluate the model against ground truth…", u.showEvaluation),
 	)
