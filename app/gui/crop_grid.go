@@ -123,7 +123,7 @@ func newCropGrid(u *ui, load cropLoader) *cropGrid {
 	top := container.NewHBox(widget.NewLabel("Class"), g.classSel, widget.NewLabel("Source"), g.sourceSel, g.ascending)
 	actions := container.NewHBox(g.acceptBtn, g.rejectBtn, g.markCover, g.undoBtn, layout.NewSpacer(),
 		widget.NewLabel("Click a crop (or Space on it) to mark it wrong."))
-	g.win.SetContent(container.NewBorder(container.NewVBox(top, g.info), actions, nil, nil, g.grid))
+	g.win.SetContent(withClose(g.win, container.NewBorder(container.NewVBox(top, g.info), actions, nil, nil, g.grid)))
 	g.win.Resize(fyne.NewSize(1100, 800))
 	g.win.SetOnClosed(func() {
 		g.mu.Lock()

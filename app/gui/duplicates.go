@@ -57,8 +57,12 @@ func (u *ui) askOverlap(title, message string, choices ...overlapChoice) {
 		}
 		buttons.Add(b)
 	}
-	q.d = dialog.NewCustom(title, "Cancel", container.NewVBox(text, buttons), u.win)
+	q.d = dialog.NewCustom(title, "Cancel (Esc)", container.NewVBox(text, buttons), u.win)
+	u.escClosable(q.d)
 	q.d.SetOnClosed(func() {
+		if u.escDialog == q.d {
+			u.escDialog = nil
+		}
 		if u.overlapAsk == q {
 			u.overlapAsk = nil
 		}

@@ -192,6 +192,8 @@ type ui struct {
 	dupIoU float64
 	// overlapAsk is the overlap question on screen, if any (for tests).
 	overlapAsk *overlapQuestion
+	// escDialog is the open dialog Esc closes; keysDialog the keys overlay.
+	escDialog, keysDialog dialog.Dialog
 
 	similar    *similarRun  // the last exemplar search, for its live threshold
 	training   *trainScreen // the training window, while it is open
@@ -224,17 +226,18 @@ func newUI(a fyne.App) *ui {
 	u.bar = newClassBar(u.win, func() backend.Project { return u.st }, u.classesChanged, u.pickClass)
 	u.undoBtn = widget.NewButtonWithIcon("", theme.ContentUndoIcon(), u.undo)
 	u.redoBtn = widget.NewButtonWithIcon("", theme.ContentRedoIcon(), u.redo)
-	u.others = widget.NewCheck("Others", func(on bool) { u.view.SetShowReadOnly(on) })
+	u.others = widget.NewCheck("Others", func(on bool) { u.view.SetShowReadOnly(on); u.giveKeysBack() })
 	u.others.SetChecked(true)
 	u.suggestionThreshold = defaultSuggestionThreshold
 	u.dupIoU = a.Preferences().FloatWithFallback(dupIoUPref, ops.DefaultDuplicateIoU)
 	u.suggestionEdits = map[int64]project.Suggestion{}
-	u.showSuggestions = widget.NewCheck("Suggestions", func(bool) { u.refreshBoxes() })
+	u.showSuggestions = widget.NewCheck("Suggestions", func(bool) { u.refreshBoxes(); u.giveKeysBack() })
 	u.showSuggestions.SetChecked(true)
 	u.guides = widget.NewCheck("Guides", func(on bool) {
 		if u.view.Guides() != on {
 			u.view.SetGuides(on)
 		}
+		u.giveKeysBack()
 	})
 	u.compareNote = widget.NewLabel("")
 	u.compareNote.Wrapping = fyne.TextWrapWord

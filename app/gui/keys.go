@@ -52,8 +52,8 @@ func (u *ui) addShortcuts() {
 	}
 	// With nothing focused the view gets the keys: it handles its own and
 	// hands the rest back to typedKey and typedRune.
-	c.SetOnTypedKey(u.view.TypedKey)
-	c.SetOnTypedRune(u.view.TypedRune)
+	c.SetOnTypedKey(u.typedKeyTop)
+	c.SetOnTypedRune(u.typedRuneTop)
 }
 
 // typedKey handles the keys the view leaves to the window.
@@ -119,8 +119,10 @@ func (u *ui) classByKey(r rune) (project.Class, bool) {
 
 func (u *ui) showKeys() {
 	t := widget.NewTextGridFromString(keysHelp)
-	d := dialog.NewCustom("Keys and mouse", "Close", container.NewVScroll(t), u.win)
-	d.Resize(fyne.NewSize(720, 620))
+	d := dialog.NewCustom("Keys and mouse", "Close (Esc or H)", container.NewVScroll(t), u.win)
+	d.Resize(fyne.NewSize(min(720, dialogSize(u.win).Width), min(620, dialogSize(u.win).Height)))
+	u.keysDialog = d
+	u.escClosable(d)
 	d.Show()
 }
 
