@@ -174,6 +174,9 @@ type ui struct {
 	others   *widget.Check
 	guides   *widget.Check
 	body     *fyne.Container // the screen shown in the window: welcome or project
+	// panels holds the image list, image and class panel (layoutPanels).
+	panels, leftPanel, centre *fyne.Container
+	hideList, hideClasses     bool
 
 	selected int   // index into images of the image on screen, -1 none
 	imageID  int64 // its ID
@@ -315,6 +318,9 @@ func (u *ui) menu() *fyne.MainMenu {
 		fyne.NewMenuItem("Guide lines (G)", func() { u.view.TypedRune('g') }),
 		fyne.NewMenuItem("Class-name tags (T)", func() { u.view.TypedRune('t') }),
 		fyne.NewMenuItem("Other annotators' boxes (O)", func() { u.others.SetChecked(!u.others.Checked) }),
+		fyne.NewMenuItemSeparator(),
+		keyed("Show or hide the image list", fyne.KeyB, fyne.KeyModifierShift, func() { u.togglePanel(true) }),
+		keyed("Show or hide the class panel", fyne.KeyK, fyne.KeyModifierShift, func() { u.togglePanel(false) }),
 	)
 	data := fyne.NewMenu("Dataset",
 		keyed("Import labels…", fyne.KeyL, 0, u.askImport),
@@ -365,7 +371,7 @@ func (u *ui) welcome() fyne.CanvasObject {
 }
 
 func (u *ui) projectScreen() fyne.CanvasObject {
-	left := container.NewBorder(container.NewVBox(u.summary, u.nav.filters()), nil, nil, nil, u.nav.list)
+	u.leftPanel = container.NewBorder(container.NewVBox(u.summary, u.nav.filters()), nil, nil, nil, u.nav.list)
 	tools := container.NewHBox(u.undoBtn, u.redoBtn, widget.NewSeparator(),
 		widget.NewButtonWithIcon("", theme.ZoomFitIcon(), u.view.FitToWindow),
 		widget.NewButton("1:1", func() { u.view.TypedRune('r') }),
@@ -374,11 +380,13 @@ func (u *ui) projectScreen() fyne.CanvasObject {
 		u.zoom, widget.NewSeparator(), u.guides, u.others, u.showSuggestions, layout.NewSpacer(),
 		widget.NewButtonWithIcon("Done", theme.ConfirmIcon(), func() { u.markAndGo(project.StatusDone) }),
 		widget.NewButtonWithIcon("Keys", theme.HelpIcon(), u.showKeys))
-	centre := container.NewBorder(container.NewVBox(tools, u.compareBar), nil, nil, nil, u.view)
-	inner := container.NewHSplit(centre, u.bar.Object())
-	inner.Offset = 0.8
-	split := container.NewHSplit(left, inner)
-	split.Offset = 0.2
+	// On a narrow window the toolbar scrolls sideways instead of setting
+	// the window's minimum width.
+	toolbar := container.NewHScroll(tools)
+	toolbar.SetMinSize(fyne.NewSize(0, tools.MinSize().Height))
+	u.centre = container.NewBorder(container.NewVBox(toolbar, u.compareBar), nil, nil, nil, u.view)
+	u.panels = container.NewStack()
+	u.layoutPanels()
 	bottom := container.NewBorder(nil, nil, nil, container.NewHBox(u.saved, u.retry), u.status)
 	var top fyne.CanvasObject
 	if u.readOnlyWhy != "" {
@@ -388,7 +396,39 @@ func (u *ui) projectScreen() fyne.CanvasObject {
 		u.banner = container.NewStack(fcanvas.NewRectangle(withAlpha(theme.Color(theme.ColorNameWarning), 0x40)), msg)
 		top = u.banner
 	}
-	return container.NewBorder(top, bottom, nil, nil, split)
+	return container.NewBorder(top, bottom, nil, nil, u.panels)
+}
+
+// layoutPanels places the image list, the image and the class panel, as
+// the person has chosen to show them (View ▸ Image list, Class panel);
+// the dividers between them can be dragged.
+func (u *ui) layoutPanels() {
+	var o fyne.CanvasObject = u.centre
+	if !u.hideClasses {
+		inner := container.NewHSplit(u.centre, u.bar.Object())
+		inner.Offset = 0.8
+		o = inner
+	}
+	if !u.hideList {
+		split := container.NewHSplit(u.leftPanel, o)
+		split.Offset = 0.2
+		o = split
+	}
+	u.panels.Objects = []fyne.CanvasObject{o}
+	u.panels.Refresh()
+}
+
+// togglePanel shows or hides the image list (list) or the class panel.
+func (u *ui) togglePanel(list bool) {
+	if u.panels == nil {
+		return
+	}
+	if list {
+		u.hideList = !u.hideList
+	} else {
+		u.hideClasses = !u.hideClasses
+	}
+	u.layoutPanels()
 }
 
 // openProject closes any open project and shows the one at path.

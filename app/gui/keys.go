@@ -31,6 +31,8 @@ func (u *ui) addShortcuts() {
 	c.AddShortcut(&fyne.ShortcutRedo{}, func(fyne.Shortcut) { u.redo() })
 	add(fyne.KeyZ, ctrl|fyne.KeyModifierShift, u.redo)
 	add(fyne.KeyDelete, ctrl, u.deleteAll)
+	add(fyne.KeyB, ctrl|fyne.KeyModifierShift, func() { u.togglePanel(true) })
+	add(fyne.KeyK, ctrl|fyne.KeyModifierShift, func() { u.togglePanel(false) })
 	// Ctrl+arrows resize the selected box by its bottom-right corner.
 	for _, k := range []struct {
 		name   fyne.KeyName
@@ -172,5 +174,7 @@ IMAGES
 PROJECT
   Ctrl+O open   Ctrl+N new   Ctrl+I add images   Ctrl+L import labels
   Ctrl+E export dataset   Ctrl+G annotator agreement   H, ? or F1   this help
+  Ctrl+Shift+B / Ctrl+Shift+K   hide or show the image list / the class panel
+  (the dividers between the panels can be dragged; Esc or H closes this help)
 
 Every edit is saved at once; the status bar says "saved".`
