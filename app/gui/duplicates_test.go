@@ -45,7 +45,7 @@ func TestAcceptingACoveredSuggestionAsks(t *testing.T) {
 			before := ownCount(t, u)
 			// The person can tell: the suggestion's tag says it is covered.
 			for _, it := range u.view.Items() {
-				if it.Key == suggestionKey(g.ID) && !strings.Contains(it.Caption, "covered by your box") {
+				if it.Key == suggestionKey(g.ID) && !strings.Contains(it.Caption, "covered by yours") {
 					t.Errorf("covered suggestion's caption %q", it.Caption)
 				}
 			}

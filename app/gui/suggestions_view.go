@@ -89,7 +89,7 @@ func (u *ui) suggestionItems() []canvas.Item {
 			caption += " (edited)"
 		}
 		if cv, ok := covered[g.ID]; ok {
-			caption += fmt.Sprintf(" · covered by your box (IoU %.2f)", cv.IoU)
+			caption += fmt.Sprintf(" · covered by yours (IoU %.2f)", cv.IoU)
 		}
 		out = append(out, canvas.Item{Key: suggestionKey(g.ID), Box: g.Box, Color: c.Color, Caption: caption, Suggestion: true})
 	}
