@@ -233,12 +233,7 @@ func (u *ui) showSuggestionStats() {
 			keys = append(keys, []float64{math.NaN(), float64(c.In), float64(c.Accepted), float64(c.Corrected), float64(c.Rejected), float64(c.Pending), c.MeanCorrectedIoU})
 		}
 		table.SetRows(rows, keys)
-		if s.Suggested.OK {
-			summary.SetText(fmt.Sprintf("On the evidence so far, suggestions of %s scoring %.3f or more were kept (accepted or corrected) %s of the time — %d decisions. Pending suggestions are never counted as right or wrong.",
-				s.Source, s.Suggested.Score, ops.Pct(s.Suggested.Rate), s.Suggested.N))
-		} else {
-			summary.SetText(fmt.Sprintf("No score of %s keeps %.0f %% of suggestions yet (%d decisions). Pending suggestions are never counted as right or wrong.", s.Source, 100*ops.KeepRate, s.Suggested.N))
-		}
+		summary.SetText(s.ThresholdAdvice())
 		binsNow = s.Reliability
 		if p, err := reliabilityPlot(s.Source, s.Reliability); err == nil {
 			plotNow = p
