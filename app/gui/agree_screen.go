@@ -108,7 +108,7 @@ func newAgreeScreen(u *ui) *agreeScreen {
 		func(row int) { s.pair.SetSelectedIndex(row) })
 	s.classes = newSortTable([]string{"class", "boxes A", "boxes B", "agreed", "confused", "only A", "only B", "F1", "mean IoU", "kappa (class vs rest)", "95 % CI"}, nil)
 	s.images = newSortTable([]string{"image", "disagreements", "boxes A", "boxes B", "matched", "only A", "only B", "class differs", "F1", "mean IoU"}, s.openImage)
-	s.images.SetColumnWidths(260)
+	s.pairs.SetTextColumns(11) // the band, sorted by kappa
 
 	controls := container.NewVBox(
 		container.NewBorder(nil, nil, widget.NewLabel("Annotators"), nil, s.who),

@@ -108,7 +108,6 @@ func newEvalScreen(u *ui) *evalScreen {
 	s.cellRow = widget.NewSelect(nil, func(string) { s.listCell() })
 	s.cellCol = widget.NewSelect(nil, func(string) { s.listCell() })
 	s.cellBoxes = newSortTable([]string{"image", "truth box", "predicted box", "score", "IoU"}, s.openCell)
-	s.cellBoxes.SetColumnWidths(220, 180, 180)
 
 	form := container.NewGridWithColumns(4,
 		widget.NewLabel("Ground truth"), s.truth, widget.NewLabel("Model (source)"), s.source,

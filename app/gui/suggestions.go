@@ -200,17 +200,33 @@ func (u *ui) showSuggestionStats() {
 	if !u.haveProject() {
 		return
 	}
+	if sw := u.newStatsWindow(); sw != nil {
+		sw.win.Show()
+	}
+}
+
+// statsWindow is the window of what the decisions tell us; table and
+// chart are nil when there are no suggestions.
+type statsWindow struct {
+	win     fyne.Window
+	table   *sortTable
+	chart   *fcanvas.Image
+	summary *widget.Label
+}
+
+// newStatsWindow makes the statistics window, not yet shown; nil after a
+// failure it has reported.
+func (u *ui) newStatsWindow() *statsWindow {
 	stats, names, err := ops.CollectReviewStats(context.Background(), u.st, "")
 	if err != nil {
 		u.showError(err)
-		return
+		return nil
 	}
 	w := u.app.NewWindow("Boxwright — what the decisions tell us")
 	if len(stats) == 0 {
 		w.SetContent(container.NewCenter(widget.NewLabel("No suggestions yet: Suggestions ▸ Import predictions…")))
 		w.Resize(fyne.NewSize(500, 200))
-		w.Show()
-		return
+		return &statsWindow{win: w}
 	}
 	var opts []string
 	for _, s := range stats {
@@ -218,10 +234,11 @@ func (u *ui) showSuggestionStats() {
 	}
 	table := newSortTable([]string{"class", "in", "accepted", "corrected", "rejected", "pending", "mean IoU of corrections"}, nil)
 	chart := &fcanvas.Image{FillMode: fcanvas.ImageFillContain}
-	chart.SetMinSize(fyne.NewSize(480, 320))
+	chart.SetMinSize(fyne.NewSize(400, 300))
 	summary := widget.NewLabel("")
 	summary.Wrapping = fyne.TextWrapWord
 	var plotNow *plot.Plot
+	var split *container.Split
 	var binsNow []suggest.Bin
 	show := func(i int) {
 		s := stats[i]
@@ -233,6 +250,9 @@ func (u *ui) showSuggestionStats() {
 			keys = append(keys, []float64{math.NaN(), float64(c.In), float64(c.Accepted), float64(c.Corrected), float64(c.Rejected), float64(c.Pending), c.MeanCorrectedIoU})
 		}
 		table.SetRows(rows, keys)
+		if split != nil {
+			split.Refresh() // the table's width may have changed
+		}
 		summary.SetText(s.ThresholdAdvice())
 		binsNow = s.Reliability
 		if p, err := reliabilityPlot(s.Source, s.Reliability); err == nil {
@@ -261,13 +281,16 @@ func (u *ui) showSuggestionStats() {
 	saveTable := widget.NewButtonWithIcon("Save table as CSV…", theme.DocumentSaveIcon(), func() { askSaveCSV(w, table, "decisions.csv") })
 	top := container.NewVBox(container.NewBorder(nil, nil, widget.NewLabel("Source"), nil, pick), summary)
 	right := container.NewBorder(nil, container.NewHBox(saveChart, saveBins), nil, nil, chart)
-	left := container.NewBorder(nil, saveTable, nil, nil, table.Object())
-	split := container.NewHSplit(left, right)
+	// The table keeps the width of all its columns; the chart takes the rest.
+	left := container.New(atLeastWidth{func() float32 { return table.FullWidth() + theme.Size(theme.SizeNameScrollBar) }},
+		container.NewBorder(nil, saveTable, nil, nil, table.Object()))
+	split = container.NewHSplit(left, right)
 	split.Offset = 0.55
 	w.SetContent(container.NewBorder(container.NewPadded(top), nil, nil, nil, split))
-	w.Resize(fyne.NewSize(1100, 640))
 	pick.SetSelectedIndex(0)
-	w.Show()
+	// Wide enough for the whole table beside a readable chart.
+	w.Resize(w.Content().MinSize().Max(fyne.NewSize(1100, 640)))
+	return &statsWindow{win: w, table: table, chart: chart, summary: summary}
 }
 
 // reliabilityPlot draws the share of decided suggestions kept per score
@@ -322,4 +345,23 @@ func plotterLinePoints(xys plotter.XYs) (*plotter.Line, *plotter.Scatter, error)
 		return nil, nil, err
 	}
 	return l, s, nil
+}
+
+// atLeastWidth lays its objects over each other at least w() wide.
+type atLeastWidth struct{ w func() float32 }
+
+func (l atLeastWidth) Layout(objs []fyne.CanvasObject, size fyne.Size) {
+	for _, o := range objs {
+		o.Move(fyne.Position{})
+		o.Resize(size)
+	}
+}
+
+func (l atLeastWidth) MinSize(objs []fyne.CanvasObject) fyne.Size {
+	var m fyne.Size
+	for _, o := range objs {
+		m = m.Max(o.MinSize())
+	}
+	m.Width = max(m.Width, l.w())
+	return m
 }

@@ -41,6 +41,13 @@ func labelWith(t *testing.T, o fyne.CanvasObject, part string) *widget.Label {
 // decideTop accepts the n highest-scoring pending suggestions.
 func decideTop(t *testing.T, u *ui, n int) {
 	t.Helper()
+	decideSome(t, u, n, 0)
+}
+
+// decideSome accepts the n highest-scoring pending suggestions and
+// rejects the low lowest-scoring ones.
+func decideSome(t *testing.T, u *ui, n, low int) {
+	t.Helper()
 	ctx := context.Background()
 	gs, err := u.st.QuerySuggestions(ctx, project.SuggestionQuery{State: project.SuggestionPending})
 	if err != nil {
@@ -51,6 +58,9 @@ func decideTop(t *testing.T, u *ui, n int) {
 	var ds []project.Decision
 	for _, g := range gs[:n] {
 		ds = append(ds, project.Decision{SuggestionID: g.ID, Accept: true})
+	}
+	for _, g := range gs[len(gs)-low:] {
+		ds = append(ds, project.Decision{SuggestionID: g.ID, Accept: false})
 	}
 	if _, err := u.st.Decide(ctx, u.me.ID, ds); err != nil {
 		t.Fatal(err)
