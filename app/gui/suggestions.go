@@ -10,7 +10,6 @@ import (
 	"strings"
 
 	"fyne.io/fyne/v2"
-	fcanvas "fyne.io/fyne/v2/canvas"
 	"fyne.io/fyne/v2/container"
 	"fyne.io/fyne/v2/dialog"
 	"fyne.io/fyne/v2/storage"
@@ -210,7 +209,7 @@ func (u *ui) showSuggestionStats() {
 type statsWindow struct {
 	win     fyne.Window
 	table   *sortTable
-	chart   *fcanvas.Image
+	chart   *chartView
 	summary *widget.Label
 }
 
@@ -233,11 +232,9 @@ func (u *ui) newStatsWindow() *statsWindow {
 		opts = append(opts, s.Source)
 	}
 	table := newSortTable([]string{"class", "in", "accepted", "corrected", "rejected", "pending", "mean IoU of corrections"}, nil)
-	chart := &fcanvas.Image{FillMode: fcanvas.ImageFillContain}
-	chart.SetMinSize(fyne.NewSize(400, 300))
+	chart := newChartView(fyne.NewSize(400, 300))
 	summary := widget.NewLabel("")
 	summary.Wrapping = fyne.TextWrapWord
-	var plotNow *plot.Plot
 	var split *container.Split
 	var binsNow []suggest.Bin
 	show := func(i int) {
@@ -255,19 +252,13 @@ func (u *ui) newStatsWindow() *statsWindow {
 		}
 		summary.SetText(s.ThresholdAdvice())
 		binsNow = s.Reliability
-		if p, err := reliabilityPlot(s.Source, s.Reliability); err == nil {
-			plotNow = p
-			chart.Image, _ = ops.PlotImage(p, chartW, chartH)
-		}
-		chart.Refresh()
+		source, bins := s.Source, s.Reliability
+		chart.SetChart(func(st ops.ChartStyle) (*plot.Plot, error) { return reliabilityPlotStyled(st, source, bins) })
 	}
 	pick := widget.NewSelect(opts, func(string) {})
 	pick.OnChanged = func(string) { show(pick.SelectedIndex()) }
 	saveChart := widget.NewButtonWithIcon("Save chart as PNG…", theme.DocumentSaveIcon(), func() {
-		if plotNow == nil {
-			return
-		}
-		askSavePlot(w, plotNow, "reliability.png", "Pick a source first.")
+		askSavePlot(w, chart.Plot(), "reliability.png", "Pick a source first.")
 	})
 	saveBins := widget.NewButtonWithIcon("Save bins as CSV…", theme.DocumentSaveIcon(), func() {
 		bt := newSortTable([]string{"score_from", "score_to", "decided", "kept", "kept_rate"}, nil)
@@ -296,10 +287,16 @@ func (u *ui) newStatsWindow() *statsWindow {
 // reliabilityPlot draws the share of decided suggestions kept per score
 // bin, with the number of decisions on each bar.
 func reliabilityPlot(source string, bins []suggest.Bin) (*plot.Plot, error) {
-	p := plot.New()
-	p.Title.Text = "Kept (accepted or corrected) by score — " + source
+	return reliabilityPlotStyled(chartStyle(), source, bins)
+}
+
+// reliabilityPlotStyled is reliabilityPlot in a chart style.
+func reliabilityPlotStyled(st ops.ChartStyle, source string, bins []suggest.Bin) (*plot.Plot, error) {
+	p := st.NewPlot()
+	p.Title.Text = "Share kept by score" // the source is chosen above the chart
+	p.Add(st.Grid())                     // under the data
 	p.X.Label.Text = "score"
-	p.Y.Label.Text = "share kept"
+	p.Y.Label.Text = "share kept (accepted or corrected)"
 	p.Y.Min, p.Y.Max = 0, 1
 	p.X.Min, p.X.Max = 0, 1
 	var xys plotter.XYs
@@ -318,20 +315,25 @@ func reliabilityPlot(source string, bins []suggest.Bin) (*plot.Plot, error) {
 	if err != nil {
 		return nil, err
 	}
+	line.Color, points.Color = st.Accent(), st.Accent()
 	p.Add(line, points)
 	lab, err := plotter.NewLabels(plotter.XYLabels{XYs: xys, Labels: labels})
 	if err == nil {
+		for i := range lab.TextStyle {
+			lab.TextStyle[i] = st.TextStyle(0.9, false)
+		}
+		lab.Offset = vg.Point{X: vg.Points(4), Y: vg.Points(4)}
 		p.Add(lab)
 	}
 	// The share the suggested threshold promises, as a dashed guide.
 	target, err := plotter.NewLine(plotter.XYs{{X: 0, Y: ops.KeepRate}, {X: 1, Y: ops.KeepRate}})
 	if err == nil {
 		target.Dashes = []vg.Length{vg.Points(4), vg.Points(3)}
+		target.Color = st.Foreground
 		p.Add(target)
 		p.Legend.Add(fmt.Sprintf("%.0f %% kept", 100*ops.KeepRate), target)
-		p.Legend.Top, p.Legend.Left = false, true
+		p.Legend.Top, p.Legend.Left = true, true // the points rise to the right
 	}
-	p.Add(plotter.NewGrid())
 	return p, nil
 }
 
