@@ -128,7 +128,7 @@ func newAgreeScreen(u *ui) *agreeScreen {
 		container.NewTabItem("Classes", tableTab(s.classes, "classes.csv", "Click a column to sort.")),
 		container.NewTabItem("Pairs", tableTab(s.pairs, "pairs.csv", "Every pair of annotators. Click one to show it.")),
 	)
-	s.win.SetContent(container.NewBorder(container.NewPadded(controls), nil, nil, nil, tabs))
+	s.win.SetContent(withClose(s.win, container.NewBorder(container.NewPadded(controls), nil, nil, nil, tabs)))
 	s.win.Resize(fyne.NewSize(1100, 820))
 	s.win.SetOnClosed(func() {
 		if s.cancel != nil {

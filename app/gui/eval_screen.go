@@ -122,7 +122,7 @@ func newEvalScreen(u *ui) *evalScreen {
 		container.NewHBox(widget.NewButtonWithIcon("Save table as CSV…", theme.DocumentSaveIcon(), func() { s.saveCSV(s.cellBoxes, "boxes.csv") }),
 			widget.NewLabel("Click a row to open the image with both boxes.")), nil, nil, s.cellBoxes.Object())
 	s.tabs = container.NewAppTabs(container.NewTabItem("Charts", charts), container.NewTabItem("Classes", classTab), container.NewTabItem("Boxes behind a cell", cellTab))
-	s.win.SetContent(container.NewBorder(container.NewPadded(controls), nil, nil, nil, s.tabs))
+	s.win.SetContent(withClose(s.win, container.NewBorder(container.NewPadded(controls), nil, nil, nil, s.tabs)))
 	s.win.Resize(fyne.NewSize(1100, 820))
 	return s
 }

@@ -65,21 +65,25 @@ func TestKeysOverlayClosesWithEscAndH(t *testing.T) {
 // Secondary windows have a Close button and close on Esc.
 func TestSecondaryWindowCloses(t *testing.T) {
 	u, _ := openDemoAs(t, "Ines")
-	g := newCropGrid(u, nil)
-	g.win.Show()
-	closed := false
-	g.win.SetOnClosed(func() { closed = true })
-	found := false
-	for _, s := range texts(g.win.Content()) {
-		if s == "Close" {
-			found = true
+	for name, w := range map[string]fyne.Window{
+		"crop grid": newCropGrid(u, nil).win, "agreement": newAgreeScreen(u).win,
+		"evaluation": newEvalScreen(u).win, "training": newTrainScreen(u).win, "statistics": u.newStatsWindow().win,
+	} {
+		w.Show()
+		closed := false
+		w.SetOnClosed(func() { closed = true })
+		found := false
+		for _, s := range texts(w.Content()) {
+			if s == "Close" {
+				found = true
+			}
 		}
-	}
-	if !found {
-		t.Error("no Close button")
-	}
-	g.win.Canvas().OnTypedKey()(&fyne.KeyEvent{Name: fyne.KeyEscape})
-	if !closed {
-		t.Error("Esc did not close the window")
+		if !found {
+			t.Errorf("%s: no Close button", name)
+		}
+		w.Canvas().OnTypedKey()(&fyne.KeyEvent{Name: fyne.KeyEscape})
+		if !closed {
+			t.Errorf("%s: Esc did not close the window", name)
+		}
 	}
 }

@@ -2,6 +2,7 @@ package gui
 
 import (
 	"fmt"
+	"image/png"
 	"io"
 	"os"
 
@@ -25,7 +26,15 @@ func askSavePlot(win fyne.Window, p *plot.Plot, name, nothingYet string) {
 		if err != nil || w == nil {
 			return
 		}
-		where, err := saveChosen(w, func(out io.Writer) error { return ops.WritePlotPNG(p, chartW*2, chartH*2, out) })
+		// Twice the pixels of the screen, with text of the same size
+		// relative to the chart.
+		where, err := saveChosen(w, func(out io.Writer) error {
+			img, err := ops.PlotImageScaled(p, chartW, chartH, 2)
+			if err != nil {
+				return err
+			}
+			return png.Encode(out, img)
+		})
 		if err != nil {
 			dialog.ShowError(fmt.Errorf("saving the chart to %s: %w", where, err), win)
 		}

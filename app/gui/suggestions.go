@@ -43,6 +43,7 @@ func (u *ui) askImportSuggestions() {
 			}
 		}, u.win)
 		d.SetFilter(storage.NewExtensionFileFilter([]string{".json", ".csv", ".txt"}))
+		prepareFileDialog(d, u.win, "Choose a predictions file", "Choose")
 		d.Show()
 	})
 	source := widget.NewEntry()
@@ -223,7 +224,7 @@ func (u *ui) newStatsWindow() *statsWindow {
 	}
 	w := u.app.NewWindow("Boxwright — what the decisions tell us")
 	if len(stats) == 0 {
-		w.SetContent(container.NewCenter(widget.NewLabel("No suggestions yet: Suggestions ▸ Import predictions…")))
+		w.SetContent(withClose(w, container.NewCenter(widget.NewLabel("No suggestions yet: Suggestions ▸ Import predictions…"))))
 		w.Resize(fyne.NewSize(500, 200))
 		return &statsWindow{win: w}
 	}
@@ -277,7 +278,7 @@ func (u *ui) newStatsWindow() *statsWindow {
 		container.NewBorder(nil, saveTable, nil, nil, table.Object()))
 	split = container.NewHSplit(left, right)
 	split.Offset = 0.55
-	w.SetContent(container.NewBorder(container.NewPadded(top), nil, nil, nil, split))
+	w.SetContent(withClose(w, container.NewBorder(container.NewPadded(top), nil, nil, nil, split)))
 	pick.SetSelectedIndex(0)
 	// Wide enough for the whole table beside a readable chart.
 	w.Resize(w.Content().MinSize().Max(fyne.NewSize(1100, 640)))

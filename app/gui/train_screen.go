@@ -133,7 +133,7 @@ func newTrainScreen(u *ui) *trainScreen {
 		container.NewBorder(nil, nil, container.NewHBox(s.suggest, widget.NewLabel("on")), nil, s.where), s.status, caution)
 	charts := container.NewGridWithColumns(2, s.lossChart, s.apChart)
 	bottom := container.NewHBox(saveLoss, saveAP, saveCSV)
-	s.win.SetContent(container.NewBorder(top, bottom, nil, nil, container.NewVSplit(charts, s.epochs.Object())))
+	s.win.SetContent(withClose(s.win, container.NewBorder(top, bottom, nil, nil, container.NewVSplit(charts, s.epochs.Object()))))
 	s.win.Resize(fyne.NewSize(860, 760))
 	return s
 }
