@@ -57,6 +57,12 @@ type View struct {
 	// Limits sets the minimum box side and pixel snapping; W and H are
 	// taken from the image.
 	Limits Bounds
+	// PanPastEdges lets pans and SetTransform take the image past its
+	// edges as far as it still covers the middle of the view (see
+	// Transform.KeepCentre), so that a box at an edge can be shown in the
+	// middle. Off: the image covers the view, or is centred where it is
+	// smaller (Transform.Keep).
+	PanPastEdges bool
 
 	mu   sync.Mutex // guards what the raster generator reads
 	pyr  *Pyramid
@@ -73,6 +79,7 @@ type View struct {
 
 	ptr     fyne.Position
 	ptrIn   bool
+	hover   int64 // key of the box under the pointer (its tag shows in full)
 	gesture gesture
 	shift   bool
 	space   bool
@@ -100,8 +107,12 @@ func (v *View) SetImage(p *Pyramid) {
 	}
 	v.mu.Unlock()
 	v.gesture = gesture{}
-	v.refit()
+	v.hover = 0
+	changed := v.refit()
 	v.Refresh()
+	if changed {
+		v.transformChanged()
+	}
 }
 
 // Image is the pyramid shown now.
@@ -174,6 +185,15 @@ func (v *View) viewChanged() {
 	}
 }
 
+// transformChanged reports a new zoom or pan: OnView, and OnPointer with
+// the image point now under a pointer that did not move.
+func (v *View) transformChanged() {
+	v.viewChanged()
+	if v.ptrIn {
+		v.pointerAt(v.ptr)
+	}
+}
+
 // SetNames shows or hides the class-name tags of the boxes.
 func (v *View) SetNames(on bool) {
 	v.noNames = !on
@@ -206,15 +226,27 @@ func (v *View) Transform() Transform {
 }
 
 // SetTransform sets the zoom and pan (clamped to the zoom limits and kept
-// on the image); the view stops following the window size.
+// on the image, see PanPastEdges); the view stops following the window
+// size.
 func (v *View) SetTransform(t Transform) {
-	s := v.Size()
 	t.Scale = ClampScale(t.Scale)
+	v.setTransform(v.kept(t, nil, v.Size()))
+}
+
+// setTransform shows t as it is and reports it.
+func (v *View) setTransform(t Transform) {
 	v.mu.Lock()
-	v.t, v.fit = t.Keep(v.w, v.h, float64(s.Width), float64(s.Height)), false
+	v.t, v.fit = t, false
 	v.mu.Unlock()
 	v.Refresh()
-	v.viewChanged()
+	v.transformChanged()
+}
+
+// kept applies the pan limits for a view of size s. With from set (the
+// transform t was panned from), an axis already outside them may only
+// move towards them.
+func (v *View) kept(t Transform, from *Transform, s fyne.Size) Transform {
+	return t.keep(v.w, v.h, float64(s.Width), float64(s.Height), v.PanPastEdges, from)
 }
 
 // FitToWindow shows the whole image, and keeps doing so when the window
@@ -225,12 +257,15 @@ func (v *View) FitToWindow() {
 	v.mu.Unlock()
 	v.refit()
 	v.Refresh()
-	v.viewChanged()
+	v.transformChanged()
 }
 
-// ZoomBy zooms by factor around the screen point (sx, sy).
+// ZoomBy zooms by factor around the screen point (sx, sy): the image
+// point under it stays exactly where it is. A point beside the image
+// zooms around the nearest point of the image, so that the image can
+// never be zoomed out of sight.
 func (v *View) ZoomBy(factor float64, sx, sy float64) {
-	v.SetTransform(v.Transform().ZoomAt(factor, sx, sy))
+	v.scaleAround(v.Transform().Scale*factor, sx, sy)
 }
 
 // ActualPixels shows one image pixel per screen pixel, keeping the image
@@ -240,28 +275,54 @@ func (v *View) ActualPixels(sx, sy float64) {
 	if c := fyne.CurrentApp().Driver().CanvasForObject(v); c != nil && c.Scale() > 0 {
 		scale = 1 / float64(c.Scale()) // one device pixel per image pixel
 	}
-	v.SetTransform(v.Transform().ScaleAt(scale, sx, sy))
+	v.scaleAround(scale, sx, sy)
 }
 
-func (v *View) refit() {
+// scaleAround sets the scale keeping the image point under (sx, sy), or
+// the image point nearest to it, fixed. The pan limits are not applied:
+// they would move that point (the first zoom step out of a fitted view
+// would otherwise re-centre the short side); the next pan moves towards
+// them (see kept).
+func (v *View) scaleAround(scale, sx, sy float64) {
+	t := v.Transform()
+	if t.Scale == 0 || v.w == 0 || v.h == 0 {
+		return
+	}
+	x0, y0 := t.ToScreen(0, 0)
+	x1, y1 := t.ToScreen(v.w, v.h)
+	v.setTransform(t.ScaleAt(scale, clampF(sx, x0, x1), clampF(sy, y0, y1)))
+}
+
+// refit fits the image to the view when the view follows the window
+// size; it says whether the transform changed.
+func (v *View) refit() bool {
 	s := v.Size()
 	v.mu.Lock()
-	if v.fit {
-		v.t = Fit(v.w, v.h, float64(s.Width), float64(s.Height))
+	defer v.mu.Unlock()
+	if !v.fit {
+		return false
 	}
-	v.mu.Unlock()
+	old := v.t
+	v.t = Fit(v.w, v.h, float64(s.Width), float64(s.Height))
+	return v.t != old
 }
 
-// Resize keeps a fitted image fitted.
+// Resize keeps a fitted image fitted, keeps a zoomed one on the image,
+// and reports a changed transform (OnView, OnPointer) so that what shows
+// the zoom is current.
 func (v *View) Resize(s fyne.Size) {
 	v.BaseWidget.Resize(s)
 	v.mu.Lock()
+	old := v.t
 	if !v.fit {
-		v.t = v.t.Keep(v.w, v.h, float64(s.Width), float64(s.Height))
+		v.t = v.kept(v.t, &old, s)
 	}
 	v.mu.Unlock()
 	v.refit()
 	v.Refresh()
+	if v.Transform() != old {
+		v.transformChanged()
+	}
 }
 
 func (v *View) index(key int64) int {
@@ -370,7 +431,8 @@ func (v *View) editSelected(f func(Bounds, project.Box) project.Box) {
 
 // PanBy pans by (dx, dy) screen units.
 func (v *View) PanBy(dx, dy float64) {
-	v.SetTransform(v.Transform().Pan(dx, dy))
+	t := v.Transform()
+	v.setTransform(v.kept(t.Pan(dx, dy), &t, v.Size()))
 }
 
 var _ fyne.Draggable = (*View)(nil)
