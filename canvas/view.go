@@ -29,8 +29,16 @@ type Item struct {
 	Marked bool
 	// Suggestion boxes are a model's proposals: selectable and editable
 	// like the person's own, but drawn dotted with a tinted fill so that
-	// nobody takes them for labels.
+	// nobody takes them for labels. A press inside a suggestion picks it
+	// before one of the person's own boxes of about its size beneath it.
+	// A hidden suggestion layer is simply not passed to SetItems: then
+	// nothing of it is drawn or hit.
 	Suggestion bool
+	// Covered marks a suggestion that one of the person's own boxes
+	// already covers: it is drawn faded (a thin, light dotted outline,
+	// no fill, at most its Short tag) and stays selectable, but a press
+	// on the own box beneath it picks the own box.
+	Covered bool
 }
 
 // View shows one image with its boxes and lets a person zoom, pan, draw,
@@ -340,18 +348,46 @@ func (v *View) bounds() Bounds {
 	return b
 }
 
-// editable are the indices of the boxes a person may pick.
+// suggestionHitBias is how much larger than one of the person's own
+// boxes a suggestion under the pointer may be and still win the press:
+// a suggestion drawn over an own box of about its size is what the
+// person sees and means (a covered one is not: it is drawn faded).
+const suggestionHitBias = 1.5
+
+// editableHits are the keys of the boxes a person may pick at the image
+// point (x, y), the one a press takes first: the smallest, where a
+// suggestion (not Covered) counts as suggestionHitBias times smaller;
+// on a tie the person's own box, then the one later in the list.
 func (v *View) editableHits(x, y float64) []int64 {
-	var boxes []project.Box
-	var keys []int64
-	for _, it := range v.items {
-		if !it.ReadOnly {
-			boxes, keys = append(boxes, it.Box), append(keys, it.Key)
-		}
+	type hit struct {
+		i    int
+		area float64
+		own  bool
 	}
-	var out []int64
-	for _, i := range HitTest(boxes, x, y) {
-		out = append(out, keys[i])
+	var hits []hit
+	for i, it := range v.items {
+		if it.ReadOnly || !it.Box.Contains(x, y) {
+			continue
+		}
+		h := hit{i: i, area: it.Box.Area(), own: !it.Suggestion}
+		if it.Suggestion && !it.Covered {
+			h.area /= suggestionHitBias
+		}
+		hits = append(hits, h)
+	}
+	sort.SliceStable(hits, func(a, b int) bool {
+		ha, hb := hits[a], hits[b]
+		switch {
+		case ha.area != hb.area:
+			return ha.area < hb.area
+		case ha.own != hb.own:
+			return ha.own
+		}
+		return ha.i > hb.i
+	})
+	out := make([]int64, len(hits))
+	for k, h := range hits {
+		out[k] = v.items[h.i].Key
 	}
 	return out
 }
