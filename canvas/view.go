@@ -14,10 +14,19 @@ import (
 
 // Item is one box the view shows.
 type Item struct {
-	Key     int64 // the caller's identity of the box; never 0
-	Box     project.Box
-	Color   color.NRGBA
+	Key   int64 // the caller's identity of the box; never 0
+	Box   project.Box
+	Color color.NRGBA
+	// Caption is the box's tag in full, shown when the box is selected,
+	// under the pointer, or large enough on screen for it.
 	Caption string
+	// Short is the tag of a box too small on screen for its Caption (for
+	// example only the class name, or only a suggestion's score); empty:
+	// the Caption is short already. A box too small even for this gets
+	// no tag until the pointer is over it. Tags are placed where they
+	// cover no other tag and none of the person's own boxes, else left
+	// out.
+	Short string
 	// ReadOnly boxes (another annotator's) are drawn as a second, dashed
 	// layer and cannot be selected or edited.
 	ReadOnly bool
@@ -136,6 +145,10 @@ func (v *View) SetItems(items []Item) {
 	v.mu.Lock()
 	v.items = append(v.items[:0:0], items...)
 	v.mu.Unlock()
+	v.hover = 0
+	if v.ptrIn {
+		v.hover = v.keyUnder(v.Transform().ToImage(float64(v.ptr.X), float64(v.ptr.Y)))
+	}
 	if v.sel != 0 {
 		if i := v.index(v.sel); i < 0 || v.items[i].ReadOnly {
 			v.sel = 0

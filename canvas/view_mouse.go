@@ -227,6 +227,7 @@ func (v *View) MouseMoved(ev *desktop.MouseEvent) {
 // MouseOut is part of desktop.Hoverable.
 func (v *View) MouseOut() {
 	v.ptrIn = false
+	v.setHover(0)
 	if v.OnPointer != nil {
 		v.OnPointer(0, 0, false)
 	}
@@ -237,9 +238,12 @@ func (v *View) MouseOut() {
 
 func (v *View) pointerAt(p fyne.Position) {
 	v.ptr, v.ptrIn = p, true
+	x, y := v.Transform().ToImage(float64(p.X), float64(p.Y))
 	if v.OnPointer != nil {
-		x, y := v.Transform().ToImage(float64(p.X), float64(p.Y))
 		v.OnPointer(x, y, x >= 0 && y >= 0 && x < v.w && y < v.h)
+	}
+	if v.pyr != nil {
+		v.setHover(v.keyUnder(x, y))
 	}
 	if v.guides && v.r != nil {
 		v.r.layoutGuides(v.Size())
