@@ -51,8 +51,8 @@ func chooseTagForm(bw, bh, fullW, shortW float64, force, covered bool) tagForm {
 // units: about a tag's height times four, so a query looks at few cells.
 const tagCell = 64
 
-// ownBand is how far from an own box's outline a tag must stay when it
-// lies inside that box (the outline and its halo stay visible).
+// ownBand is how far inside a box's outline a tag placed in it stays
+// (the outline and its halo stay visible).
 const ownBand = 3
 
 // tagPlacer places tags greedily on screen: each where it overlaps no tag
@@ -123,11 +123,11 @@ func within(inner, outer project.Box) bool {
 	return inner.X0 >= outer.X0 && inner.Y0 >= outer.Y0 && inner.X1 <= outer.X1 && inner.Y1 <= outer.Y1
 }
 
-// free says whether a tag at r for the box b (screen coordinates) of item
-// key lies in the view and clear of the tags placed and of the own boxes
-// — of an own box that holds b, only of its outline — and, when
-// tagsToo is false, of the own boxes only.
-func (p *tagPlacer) free(r, b project.Box, key int64, tagsToo bool) bool {
+// free says whether a tag at r for item key lies in the view and clear
+// of the tags placed (unless tagsToo is false) and of the person's own
+// boxes other than the item itself: a tag never hides what the person
+// has drawn, not even inside a larger own box.
+func (p *tagPlacer) free(r project.Box, key int64, tagsToo bool) bool {
 	if !within(r, p.view) {
 		return false
 	}
@@ -145,16 +145,9 @@ func (p *tagPlacer) free(r, b project.Box, key int64, tagsToo bool) bool {
 					}
 					continue
 				}
-				if q.key == key {
-					continue // a box's own tag may touch its own outline
+				if q.key != key { // a box's own tag may lie on its own box
+					return false
 				}
-				if within(b, q.r) {
-					inner := project.Box{X0: q.r.X0 + 1 + ownBand, Y0: q.r.Y0 + 1 + ownBand, X1: q.r.X1 - 1 - ownBand, Y1: q.r.Y1 - 1 - ownBand}
-					if within(r, inner) {
-						continue
-					}
-				}
-				return false
 			}
 		}
 	}
@@ -189,7 +182,7 @@ func tagCandidates(b project.Box, w, h float64) [7]project.Box {
 func (p *tagPlacer) place(b project.Box, key int64, w, h float64, force bool) (project.Box, bool) {
 	cands := tagCandidates(b, w, h)
 	for _, r := range cands {
-		if p.free(r, b, key, true) {
+		if p.free(r, key, true) {
 			p.add(r, false, 0)
 			return r, true
 		}
@@ -199,7 +192,7 @@ func (p *tagPlacer) place(b project.Box, key int64, w, h float64, force bool) (p
 	}
 	r := cands[0]
 	for _, c := range cands {
-		if p.free(c, b, key, false) {
+		if p.free(c, key, false) {
 			r = c
 			break
 		}

@@ -29,8 +29,8 @@ func recordChanges(v *View) *[]change {
 }
 
 // A press on the corner of a box that is not selected resizes that box
-// (it used to move it, or whatever box lay under the pointer), and
-// selects it; a small box is still moved by a press on it.
+// (it used to move it), and selects it; a press just beside a box does
+// not take hold of it; a small box is still moved by a press on it.
 func TestCornerOfUnselectedBoxResizesIt(t *testing.T) {
 	v, _ := newTestView(t) // scale 2, no offset
 	got := recordChanges(v)
@@ -39,9 +39,9 @@ func TestCornerOfUnselectedBoxResizesIt(t *testing.T) {
 		{Key: 2, Box: project.Rect(152, 50, 250, 130)},  // screen (304,100)-(500,260): beside it
 		{Key: 3, Box: project.Rect(300, 200, 304, 204)}, // screen 8×8: small
 	})
-	// Bottom-right corner of box 1, from 1 px outside it (box 2's corner
-	// is 3 px away), drag by (+20,+10) screen = (+10,+5) image pixels.
-	pressDrag(v, fyne.NewPos(301, 261), fyne.NewPos(321, 271))
+	// Bottom-right corner of box 1, from 1 px inside it (box 2's corner
+	// is 5 px away), drag by (+20,+10) screen = (+10,+5) image pixels.
+	pressDrag(v, fyne.NewPos(299, 259), fyne.NewPos(319, 269))
 	if len(*got) != 1 || (*got)[0] != (change{1, project.Rect(50, 50, 160, 135)}) {
 		t.Fatalf("dragging box 1's corner: %+v, want box 1 resized to (50,50)-(160,135)", *got)
 	}
@@ -53,6 +53,14 @@ func TestCornerOfUnselectedBoxResizesIt(t *testing.T) {
 	pressDrag(v, fyne.NewPos(305, 101), fyne.NewPos(285, 81))
 	if len(*got) != 1 || (*got)[0] != (change{2, project.Rect(142, 40, 250, 130)}) {
 		t.Fatalf("dragging box 2's corner: %+v, want box 2 resized to (142,40)-(250,130)", *got)
+	}
+	// Just beside box 1's corner a drag draws a new box.
+	var drawn []project.Box
+	v.OnCreate = func(b project.Box) { drawn = append(drawn, b) }
+	*got = nil
+	pressDrag(v, fyne.NewPos(100, 98), fyne.NewPos(60, 58))
+	if len(*got) != 0 || len(drawn) != 1 {
+		t.Errorf("a drag from just above box 1's corner changed %+v and drew %v, want one new box", *got, drawn)
 	}
 	// The small box is moved by a press near its corner.
 	v.Select(0)

@@ -87,9 +87,10 @@ func (v *View) begin(pos fyne.Position, secondary bool) {
 const cornerMinSide = 3 * handleRadius
 
 // cornerUnder finds the editable box, selected or not, whose corner
-// handle is nearest the screen point (sx, sy) within handleRadius: a
-// press there resizes that box rather than moving whatever lies under
-// the pointer. Ties go to the smaller box. It returns the index (-1 when
+// handle is nearest the screen point (sx, sy) within handleRadius, the
+// point on the box (its handles are not drawn: a drag started just
+// beside a box draws a new one, as it must in a crowded scene): a press
+// there resizes that box rather than moving it. Ties go to the smaller box. It returns the index (-1 when
 // none), the corner and its distance (in the sense of PickHandle).
 func (v *View) cornerUnder(t Transform, sx, sy float64) (int, Handle, float64) {
 	best, bestH, bestD, bestA := -1, HandleNone, math.Inf(1), math.Inf(1)
@@ -99,7 +100,7 @@ func (v *View) cornerUnder(t Transform, sx, sy float64) (int, Handle, float64) {
 		}
 		b := t.BoxToScreen(it.Box)
 		if b.Width() < cornerMinSide || b.Height() < cornerMinSide ||
-			sx < b.X0-handleRadius || sx > b.X1+handleRadius || sy < b.Y0-handleRadius || sy > b.Y1+handleRadius {
+			!b.Contains(sx, sy) {
 			continue
 		}
 		for _, h := range [4]Handle{HandleTopLeft, HandleTopRight, HandleBottomRight, HandleBottomLeft} {

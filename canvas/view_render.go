@@ -190,11 +190,11 @@ func (r *viewRenderer) rebuild() {
 
 // readableOn picks black or white text for a tag of colour c (relative
 // luminance per ITU-R BT.709 weights; common practice).
-func readableOn(c color.NRGBA) color.Color {
+func readableOn(c color.NRGBA) color.NRGBA {
 	if 0.2126*float64(c.R)+0.7152*float64(c.G)+0.0722*float64(c.B) > 140 {
-		return color.Black
+		return color.NRGBA{A: 0xff}
 	}
-	return color.White
+	return color.NRGBA{0xff, 0xff, 0xff, 0xff}
 }
 
 // Layout is part of fyne.WidgetRenderer.

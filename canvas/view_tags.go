@@ -69,22 +69,30 @@ func (r *viewRenderer) measure(s string, size float32, style fyne.TextStyle) fyn
 	return sz
 }
 
-// tagStyle is how an item's tag looks: italic for what is not the
-// person's own, bold italic for suggestions, the fill less opaque for the
-// others' and faint for covered suggestions; opaque when forced.
-func tagStyle(it Item, force bool) (fyne.TextStyle, color.NRGBA) {
-	col := it.Color
-	st := fyne.TextStyle{Italic: it.ReadOnly || it.Suggestion, Bold: it.Suggestion && !it.Covered}
+// tagStyle is how an item's tag looks: the person's own boxes a tag in
+// the class colour with upright text; the others' the same, less opaque,
+// italic; suggestions dark with bold italic text in the class colour,
+// so that no proposal reads like a label; covered suggestions fainter
+// still. A forced tag (selected, under the pointer) is opaque.
+func tagStyle(it Item, force bool) (style fyne.TextStyle, fill, text color.NRGBA) {
+	fill, text = it.Color, readableOn(it.Color)
 	switch {
-	case force:
-	case it.Suggestion && it.Covered:
-		col.A = 0x90
-	case it.ReadOnly:
-		col.A = 0xc0
 	case it.Suggestion:
-		col.A = 0xe0
+		style = fyne.TextStyle{Italic: true, Bold: !it.Covered}
+		fill, text = color.NRGBA{0x18, 0x1a, 0x1e, 0xd8}, it.Color
+		if it.Covered && !force {
+			fill.A, text.A = 0x90, 0xb0
+		}
+		if force {
+			fill.A = 0xff
+		}
+	case it.ReadOnly:
+		style = fyne.TextStyle{Italic: true}
+		if !force {
+			fill.A = 0xc0
+		}
 	}
-	return st, col
+	return style, fill, text
 }
 
 // layoutTags chooses, sizes and places the tags for a view of the given
@@ -100,7 +108,8 @@ func (r *viewRenderer) layoutTags(size fyne.Size, t Transform, refresh bool) {
 		vw, vh := float64(size.Width), float64(size.Height)
 		db, dkey, drafting := v.draft()
 		tl.placer.reset(vw, vh)
-		for i, it := range v.items {
+		items := v.items
+		for i, it := range items {
 			if it.ReadOnly && !v.showOther {
 				continue
 			}
@@ -134,9 +143,9 @@ func (r *viewRenderer) layoutTags(size fyne.Size, t Transform, refresh bool) {
 			if n >= maxCaptions {
 				break
 			}
-			it := v.items[w.i]
+			it := items[w.i]
 			force := w.group <= 1
-			style, col := tagStyle(it, force)
+			style, col, fg := tagStyle(it, force)
 			short := it.Short
 			if short == "" {
 				short = it.Caption
@@ -157,7 +166,7 @@ func (r *viewRenderer) layoutTags(size fyne.Size, t Transform, refresh bool) {
 			if !ok {
 				continue
 			}
-			r.setCaption(n, it, text, ts, style, col, at, tsz, refresh)
+			r.setCaption(n, it, text, ts, style, col, fg, at, tsz, refresh)
 			n++
 		}
 	}
@@ -165,7 +174,7 @@ func (r *viewRenderer) layoutTags(size fyne.Size, t Transform, refresh bool) {
 }
 
 // setCaption makes tag object i show text at the screen rectangle at.
-func (r *viewRenderer) setCaption(i int, it Item, text string, ts float32, style fyne.TextStyle, col color.NRGBA, at project.Box, tsz fyne.Size, refresh bool) {
+func (r *viewRenderer) setCaption(i int, it Item, text string, ts float32, style fyne.TextStyle, col, fg color.NRGBA, at project.Box, tsz fyne.Size, refresh bool) {
 	if i == len(r.caps) {
 		r.caps = append(r.caps, caption{}) // keeps what lies beyond len, if anything
 		if r.caps[i].tag == nil {
@@ -174,7 +183,6 @@ func (r *viewRenderer) setCaption(i int, it Item, text string, ts float32, style
 	}
 	c := &r.caps[i]
 	c.key, c.own = it.Key, !it.ReadOnly && !it.Suggestion
-	fg := readableOn(it.Color)
 	changed := c.text.Text != text || c.text.TextSize != ts || c.text.TextStyle != style || c.text.Color != fg || c.tag.FillColor != col || c.tag.Hidden
 	c.text.Text, c.text.TextSize, c.text.TextStyle, c.text.Color = text, ts, style, fg
 	c.tag.FillColor = col

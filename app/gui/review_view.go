@@ -71,7 +71,7 @@ func (q *reviewQueue) refreshItems() {
 	items := make([]canvas.Item, 0, len(q.others)+1)
 	for _, l := range q.others {
 		c := q.u.classBy[l.ClassID]
-		items = append(items, canvas.Item{Key: -l.ID, Box: l.Box, Color: c.Color, Caption: c.Name + " · " + names[l.AnnotatorID], ReadOnly: true})
+		items = append(items, canvas.Item{Key: -l.ID, Box: l.Box, Color: c.Color, Caption: c.Name + " · " + names[l.AnnotatorID], Short: names[l.AnnotatorID], ReadOnly: true})
 	}
 	c := q.u.classBy[q.classID]
 	caption := fmt.Sprintf("suggested %s %.2f · %s", c.Name, g.Score, g.Source)
@@ -81,7 +81,7 @@ func (q *reviewQueue) refreshItems() {
 	if q.box != g.Box {
 		caption += " · box edited"
 	}
-	items = append(items, canvas.Item{Key: g.ID, Box: q.box, Color: c.Color, Caption: caption, Dash: 3, Suggestion: true})
+	items = append(items, canvas.Item{Key: g.ID, Box: q.box, Color: c.Color, Caption: caption, Short: fmt.Sprintf("%.2f", g.Score), Dash: 3, Suggestion: true})
 	q.view.SetItems(items)
 }
 

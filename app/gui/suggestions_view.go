@@ -86,7 +86,7 @@ func (u *ui) suggestionItems() []canvas.Item {
 		if _, edited := u.suggestionEdits[g.ID]; edited {
 			caption += " (edited)"
 		}
-		out = append(out, canvas.Item{Key: suggestionKey(g.ID), Box: g.Box, Color: c.Color, Caption: caption, Suggestion: true})
+		out = append(out, canvas.Item{Key: suggestionKey(g.ID), Box: g.Box, Color: c.Color, Caption: caption, Short: fmt.Sprintf("%.2f", g.Score), Suggestion: true})
 	}
 	return out
 }
