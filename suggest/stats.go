@@ -151,6 +151,7 @@ type Threshold struct {
 	Score float64
 	Rate  float64 // the share kept among the decisions with score >= Score
 	N     int     // how many decisions it rests on
+	Kept  int     // how many of them were kept
 	OK    bool    // false when no score qualifies or nothing is decided
 }
 
@@ -180,7 +181,7 @@ func SuggestThreshold(ds []Decision, rate float64) Threshold {
 			continue // all decisions at one score stand or fall together
 		}
 		if r := float64(kept) / float64(n); r >= rate {
-			t = Threshold{Score: x.score, Rate: r, N: n, OK: true}
+			t = Threshold{Score: x.score, Rate: r, N: n, Kept: kept, OK: true}
 		}
 	}
 	return t

@@ -123,10 +123,10 @@ func TestSuggestThreshold(t *testing.T) {
 		rate float64
 		want Threshold
 	}{
-		{0.8, Threshold{0.5, 0.8, 5, true}},
-		{0.95, Threshold{0.7, 1, 3, true}},
-		{0.5, Threshold{0.3, 4.0 / 7, 7, true}},
-		{1, Threshold{0.7, 1, 3, true}},
+		{0.8, Threshold{0.5, 0.8, 5, 4, true}},
+		{0.95, Threshold{0.7, 1, 3, 3, true}},
+		{0.5, Threshold{0.3, 4.0 / 7, 7, 4, true}},
+		{1, Threshold{0.7, 1, 3, 3, true}},
 	}
 	for _, c := range cases {
 		if got := SuggestThreshold(ds, c.rate); got != c.want {
@@ -143,7 +143,7 @@ func TestSuggestThreshold(t *testing.T) {
 	// Ties: at 0.5 one kept and one rejected stand together, 1/2 < 0.95,
 	// so 0.9 is the threshold.
 	tied := []Decision{{"a", 1, 0.9, acc, 1}, {"a", 1, 0.5, acc, 1}, {"a", 1, 0.5, rej, nan}}
-	if got, want := SuggestThreshold(tied, 0.95), (Threshold{0.9, 1, 1, true}); got != want {
+	if got, want := SuggestThreshold(tied, 0.95), (Threshold{0.9, 1, 1, 1, true}); got != want {
 		t.Errorf("tied: %+v, want %+v", got, want)
 	}
 }

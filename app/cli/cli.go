@@ -145,6 +145,10 @@ func progressPrinter(stderr io.Writer, quiet *bool) func(done, total int) {
 // (common practice).
 const ExitInterrupted = 130
 
+// errWindowSaidWhy is a window that could not open or closed with an
+// error it has already printed: saying more would only repeat it.
+var errWindowSaidWhy = errors.New("the window closed with an error")
+
 // Run dispatches a command line and returns the exit status: 0 on
 // success, 1 when the command failed, 2 for a mistyped command line,
 // ExitInterrupted when Ctrl+C stopped it. With no arguments it opens the
@@ -163,7 +167,9 @@ func Run(args []string, stdout, stderr io.Writer, window Window) int {
 		return 2
 	}
 	if err := cmd(args[1:], stdout, stderr); err != nil {
-		fmt.Fprintf(stderr, "boxwright %s: %v\n", args[0], err)
+		if !errors.Is(err, errWindowSaidWhy) {
+			fmt.Fprintf(stderr, "boxwright %s: %v\n", args[0], err)
+		}
 		if _, isUsage := err.(usageError); isUsage {
 			return 2
 		}

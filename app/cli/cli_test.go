@@ -233,3 +233,15 @@ func TestEmptyFileIsNoProject(t *testing.T) {
 		t.Errorf("the empty file was changed: %v", err)
 	}
 }
+
+// A window that cannot open says why itself; the command adds no second
+// line and exits 1, not 2 (which means a mistyped command line).
+func TestOpenWithoutWindowSaysOneLine(t *testing.T) {
+	p := filepath.Join(t.TempDir(), "one.boxw")
+	mustCLI(t, "new", p)
+	var out, errb bytes.Buffer
+	code := Run([]string{"open", p}, &out, &errb, noWindow)
+	if code != 1 || strings.Count(strings.TrimSpace(errb.String()), "\n") != 0 || !strings.Contains(errb.String(), "a test tried to open") {
+		t.Errorf("exit %d, stderr %q", code, errb.String())
+	}
+}

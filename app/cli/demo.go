@@ -43,7 +43,7 @@ func cmdDemo(args []string, stdout, stderr io.Writer, window Window) error {
 		return nil
 	}
 	if code := window(path, "", stderr); code != 0 {
-		return fmt.Errorf("the window closed with an error")
+		return errWindowSaidWhy
 	}
 	return nil
 }

@@ -39,7 +39,7 @@ func cmdOpen(args []string, stderr io.Writer, window Window) error {
 		}
 	}
 	if code := window(pos[0], *annotator, stderr); code != 0 {
-		return fmt.Errorf("the window closed with an error")
+		return errWindowSaidWhy
 	}
 	return nil
 }

@@ -8,7 +8,6 @@ import (
 	"strings"
 
 	"fyne.io/fyne/v2"
-	fcanvas "fyne.io/fyne/v2/canvas"
 	"fyne.io/fyne/v2/container"
 	"fyne.io/fyne/v2/dialog"
 	"fyne.io/fyne/v2/theme"
@@ -40,10 +39,9 @@ type agreeScreen struct {
 	headline *widget.Label
 	notes    *widget.Label
 
-	confImg, histImg   *fcanvas.Image
-	confPlot, histPlot *plot.Plot
-	pairs, classes     *sortTable
-	images             *sortTable
+	conf, hist     *chartView
+	pairs, classes *sortTable
+	images         *sortTable
 
 	data    ops.AgreementData
 	rep     agree.Report
@@ -100,15 +98,13 @@ func newAgreeScreen(u *ui) *agreeScreen {
 	s.notes.Wrapping = fyne.TextWrapWord
 	s.notes.SizeName = theme.SizeNameCaptionText
 
-	s.confImg = &fcanvas.Image{FillMode: fcanvas.ImageFillContain}
-	s.confImg.SetMinSize(fyne.NewSize(360, 270))
-	s.histImg = &fcanvas.Image{FillMode: fcanvas.ImageFillContain}
-	s.histImg.SetMinSize(fyne.NewSize(360, 270))
+	s.conf = newChartView(fyne.NewSize(360, 270))
+	s.hist = newChartView(fyne.NewSize(360, 270))
 	s.pairs = newSortTable([]string{"A", "B", "images", "matched", "only A", "only B", "F1", "mean IoU", "median IoU", "kappa", "95 % CI", "band (Landis & Koch 1977)"},
 		func(row int) { s.pair.SetSelectedIndex(row) })
 	s.classes = newSortTable([]string{"class", "boxes A", "boxes B", "agreed", "confused", "only A", "only B", "F1", "mean IoU", "kappa (class vs rest)", "95 % CI"}, nil)
 	s.images = newSortTable([]string{"image", "disagreements", "boxes A", "boxes B", "matched", "only A", "only B", "class differs", "F1", "mean IoU"}, s.openImage)
-	s.images.SetColumnWidths(260)
+	s.pairs.SetTextColumns(11) // the band, sorted by kappa
 
 	controls := container.NewVBox(
 		container.NewBorder(nil, nil, widget.NewLabel("Annotators"), nil, s.who),
@@ -119,8 +115,8 @@ func newAgreeScreen(u *ui) *agreeScreen {
 		container.NewBorder(nil, nil, widget.NewLabel("Pair"), nil, s.pair),
 	)
 	charts := container.NewGridWithColumns(2,
-		container.NewBorder(nil, widget.NewButtonWithIcon("Save chart as PNG…", theme.DocumentSaveIcon(), func() { s.savePlot(s.confPlot, "confusion-matrix.png") }), nil, nil, s.confImg),
-		container.NewBorder(nil, widget.NewButtonWithIcon("Save chart as PNG…", theme.DocumentSaveIcon(), func() { s.savePlot(s.histPlot, "iou-histogram.png") }), nil, nil, s.histImg),
+		container.NewBorder(nil, widget.NewButtonWithIcon("Save chart as PNG…", theme.DocumentSaveIcon(), func() { s.savePlot(s.conf.Plot(), "confusion-matrix.png") }), nil, nil, s.conf),
+		container.NewBorder(nil, widget.NewButtonWithIcon("Save chart as PNG…", theme.DocumentSaveIcon(), func() { s.savePlot(s.hist.Plot(), "iou-histogram.png") }), nil, nil, s.hist),
 	)
 	tableTab := func(t *sortTable, name, hint string) fyne.CanvasObject {
 		bar := container.NewHBox(widget.NewButtonWithIcon("Save table as CSV…", theme.DocumentSaveIcon(), func() { s.saveCSV(t, name) }), widget.NewLabel(hint))
@@ -265,20 +261,14 @@ func (s *agreeScreen) showPair(i int) {
 	s.notes.SetText(strings.Join(notes, "\n"))
 
 	names := d.Names(p.Classes)
-	if cp, err := ops.ConfusionPlot(fmt.Sprintf("Classes of matched pairs (%d)", p.Matched), a, b, names, names, p.Confusion); err == nil {
-		s.confPlot = cp
-		s.confImg.Image, _ = ops.PlotImage(cp, chartW, chartH)
-	} else {
-		s.confPlot, s.confImg.Image = nil, nil
-	}
-	s.confImg.Refresh()
-	if hp, err := ops.IoUHistogramPlot("IoU of matched pairs", p.IoU.Histogram[:], s.rep.Threshold); err == nil {
-		s.histPlot = hp
-		s.histImg.Image, _ = ops.PlotImage(hp, chartW, chartH)
-	} else {
-		s.histPlot, s.histImg.Image = nil, nil
-	}
-	s.histImg.Refresh()
+	title := fmt.Sprintf("Classes of matched pairs (%d)", p.Matched)
+	s.conf.SetChart(func(st ops.ChartStyle) (*plot.Plot, error) {
+		return ops.ConfusionPlot(st, title, a, b, names, names, p.Confusion)
+	})
+	bins, thr := p.IoU.Histogram, s.rep.Threshold
+	s.hist.SetChart(func(st ops.ChartStyle) (*plot.Plot, error) {
+		return ops.IoUHistogramPlot(st, "IoU of matched pairs", bins[:], thr)
+	})
 
 	var rows [][]string
 	var keys [][]float64

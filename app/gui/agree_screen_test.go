@@ -51,7 +51,7 @@ func TestAgreementScreenReportsAndOpensImages(t *testing.T) {
 			t.Errorf("headline lacks %q: %s", want, s.headline.Text)
 		}
 	}
-	if s.confImg.Image == nil || s.histImg.Image == nil {
+	if s.conf.Plot() == nil || s.hist.Plot() == nil {
 		t.Errorf("charts missing")
 	}
 	var buf bytes.Buffer

@@ -76,7 +76,7 @@ func (b *classBar) Object() fyne.CanvasObject { return b.obj }
 // SetData shows classes (in the given order) with their count on the
 // image on screen and in the whole project (by class ID; missing = 0),
 // and marks current as the class for new boxes.
-func (b *classBar) SetData(classes []project.Class, onImage, inProject map[int64]int, current int64) {
+func (b *classBar) SetData(classes []project.Class, mine, onImage, inProject map[int64]int, current int64, who string) {
 	same := len(classes) == len(b.rows) && len(classes) > 0
 	for i := 0; same && i < len(classes); i++ {
 		same = b.rows[i].class == classes[i]
@@ -88,7 +88,7 @@ func (b *classBar) SetData(classes []project.Class, onImage, inProject map[int64
 		// changed, so update the rows in place (rebuilding them costs
 		// text shaping on every nudge).
 		for _, r := range b.rows {
-			r.update(onImage[r.class.ID], inProject[r.class.ID], r.class.ID == current)
+			r.update(countsText(mine[r.class.ID], onImage[r.class.ID], inProject[r.class.ID], who), r.class.ID == current)
 		}
 		return
 	}
@@ -98,7 +98,7 @@ func (b *classBar) SetData(classes []project.Class, onImage, inProject map[int64
 		b.list.Add(b.empty)
 	}
 	for _, c := range b.classes {
-		r := newClassRow(c, onImage[c.ID], inProject[c.ID], c.ID == current, b.picked)
+		r := newClassRow(c, countsText(mine[c.ID], onImage[c.ID], inProject[c.ID], who), c.ID == current, b.picked)
 		b.rows = append(b.rows, r)
 		b.list.Add(r)
 	}

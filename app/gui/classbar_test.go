@@ -103,13 +103,13 @@ func (f *classBarFixture) labelsOf(t *testing.T, classID int64) int {
 func TestClassBarSetDataRendersRowsAndPicks(t *testing.T) {
 	f := newClassBarFixture(t)
 	car, person := f.class(t, "car"), f.class(t, "a rather long class name that will not fit the panel")
-	f.bar.SetData([]project.Class{car, person}, map[int64]int{car.ID: 2}, map[int64]int{car.ID: 7, person.ID: 3}, person.ID)
+	f.bar.SetData([]project.Class{car, person}, map[int64]int{car.ID: 1}, map[int64]int{car.ID: 2}, map[int64]int{car.ID: 7, person.ID: 3}, person.ID, "Ines")
 
 	if len(f.bar.rows) != 2 {
 		t.Fatalf("%d rows, want 2", len(f.bar.rows))
 	}
 	want := []struct{ key, name, counts string }{
-		{"1", "car", "2 here · 7 total"},
+		{"1", "car", "1 Ines's, 2 everyone's here · 7 total"},
 		{"2", person.Name, "0 here · 3 total"},
 	}
 	for i, w := range want {
@@ -141,7 +141,7 @@ func TestClassBarSetDataRendersRowsAndPicks(t *testing.T) {
 
 	// A new SetData replaces the rows; with no classes the buttons that act
 	// on the current class are off.
-	f.bar.SetData(nil, nil, nil, 0)
+	f.bar.SetData(nil, nil, nil, nil, 0, "")
 	if len(f.bar.rows) != 0 {
 		t.Errorf("%d rows after clearing", len(f.bar.rows))
 	}
@@ -273,7 +273,7 @@ func TestClassBarWithoutProject(t *testing.T) {
 // Enter stores the class.
 func TestClassBarAddDialog(t *testing.T) {
 	f := newClassBarFixture(t)
-	f.bar.SetData(nil, nil, nil, 0)
+	f.bar.SetData(nil, nil, nil, nil, 0, "")
 	var add *widget.Button
 	for _, o := range test.LaidOutObjects(f.bar.Object()) {
 		if b, ok := o.(*widget.Button); ok && b.Text == "Add…" {
@@ -310,7 +310,7 @@ func TestClassBarDeleteDialogMovesLabels(t *testing.T) {
 	f := newClassBarFixture(t)
 	car, van := f.class(t, "car"), f.class(t, "van")
 	f.labels(t, car, 4)
-	f.bar.SetData([]project.Class{car, van}, nil, map[int64]int{car.ID: 4}, car.ID)
+	f.bar.SetData([]project.Class{car, van}, nil, nil, map[int64]int{car.ID: 4}, car.ID, "")
 	f.bar.showDelete()
 	top := f.win.Canvas().Overlays().Top()
 	if top == nil {

@@ -39,7 +39,22 @@ type classRow struct {
 	hovered bool
 }
 
-func newClassRow(c project.Class, here, total int, current bool, picked func(int64)) *classRow {
+// countsText says how many boxes of the class are on the image — the
+// person's own (who) and everyone's — and in the whole project.
+func countsText(mine, all, total int, who string) string {
+	switch {
+	case all == 0:
+		return fmt.Sprintf("0 here · %d total", total)
+	case who == "":
+		return fmt.Sprintf("%d here (everyone) · %d total", all, total)
+	case mine == all:
+		return fmt.Sprintf("%d here, all %s's · %d total", mine, who, total)
+	default:
+		return fmt.Sprintf("%d %s's, %d everyone's here · %d total", mine, who, all, total)
+	}
+}
+
+func newClassRow(c project.Class, counts string, current bool, picked func(int64)) *classRow {
 	r := &classRow{class: c, current: current, picked: picked}
 	r.bg = canvas.NewRectangle(color.Transparent)
 	r.bg.CornerRadius = theme.Size(theme.SizeNameSelectionRadius)
@@ -52,7 +67,7 @@ func newClassRow(c project.Class, here, total int, current bool, picked func(int
 	r.key = widget.NewLabelWithStyle(key, fyne.TextAlignCenter, fyne.TextStyle{Monospace: true})
 	r.name = widget.NewLabelWithStyle(c.Name, fyne.TextAlignLeading, fyne.TextStyle{Bold: current})
 	r.name.Truncation = fyne.TextTruncateEllipsis
-	r.counts = widget.NewLabel(fmt.Sprintf("%d here · %d total", here, total))
+	r.counts = widget.NewLabel(counts)
 	r.counts.SizeName = theme.SizeNameCaptionText
 	r.counts.Truncation = fyne.TextTruncateEllipsis
 	r.ExtendBaseWidget(r)
@@ -60,8 +75,8 @@ func newClassRow(c project.Class, here, total int, current bool, picked func(int
 }
 
 // update shows new counts and whether the row's class is current.
-func (r *classRow) update(here, total int, current bool) {
-	r.counts.SetText(fmt.Sprintf("%d here · %d total", here, total))
+func (r *classRow) update(counts string, current bool) {
+	r.counts.SetText(counts)
 	if current != r.current {
 		r.current = current
 		r.name.TextStyle = fyne.TextStyle{Bold: current}

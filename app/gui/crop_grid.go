@@ -52,10 +52,14 @@ type cropGrid struct {
 	st      backend.Project // the project the list was read from, for the crop workers
 	items   []project.Suggestion
 	marked  map[int64]bool
-	seen    map[int64]bool // suggestions whose cell has been on screen
-	images  map[int64]project.Image
-	last    []int64 // the suggestions the last bulk action decided, for undo
-	classOf map[string]int64
+	// covered are the suggestions one of the person's own boxes already
+	// covers (duplicates.go), flagged on their crops.
+	covered   map[int64]ops.Cover
+	markCover *widget.Button
+	seen      map[int64]bool // suggestions whose cell has been on screen
+	images    map[int64]project.Image
+	last      []int64 // the suggestions the last bulk action decided, for undo
+	classOf   map[string]int64
 
 	mu        sync.Mutex // guards what the crop workers share
 	ctx       context.Context
@@ -115,10 +119,11 @@ func newCropGrid(u *ui, load cropLoader) *cropGrid {
 	g.rejectBtn = widget.NewButtonWithIcon("", theme.CancelIcon(), g.askRejectMarked)
 	g.undoBtn = widget.NewButtonWithIcon("Undo last action", theme.ContentUndoIcon(), func() { g.report(g.undoLast()) })
 	g.undoBtn.Disable()
+	g.markCover = widget.NewButton("Mark covered", g.markCovered)
 	top := container.NewHBox(widget.NewLabel("Class"), g.classSel, widget.NewLabel("Source"), g.sourceSel, g.ascending)
-	actions := container.NewHBox(g.acceptBtn, g.rejectBtn, g.undoBtn, layout.NewSpacer(),
+	actions := container.NewHBox(g.acceptBtn, g.rejectBtn, g.markCover, g.undoBtn, layout.NewSpacer(),
 		widget.NewLabel("Click a crop (or Space on it) to mark it wrong."))
-	g.win.SetContent(container.NewBorder(container.NewVBox(top, g.info), actions, nil, nil, g.grid))
+	g.win.SetContent(withClose(g.win, container.NewBorder(container.NewVBox(top, g.info), actions, nil, nil, g.grid)))
 	g.win.Resize(fyne.NewSize(1100, 800))
 	g.win.SetOnClosed(func() {
 		g.mu.Lock()
@@ -222,6 +227,14 @@ func (g *cropGrid) reload() error {
 			return cmp.Or(cmp.Compare(b.Score, a.Score), cmp.Compare(a.ID, b.ID))
 		})
 	}
+	g.covered = map[int64]ops.Cover{}
+	if g.u.me.ID != 0 {
+		own, err := g.u.st.Labels(context.Background(), project.LabelFilter{AnnotatorID: g.u.me.ID, ClassID: g.classID})
+		if err != nil {
+			return fmt.Errorf("read %s's labels: %w", g.u.me.Name, err)
+		}
+		g.covered = ops.CoveredSuggestions(gs, own, g.u.dupIoU)
+	}
 	images := make(map[int64]project.Image, len(g.u.images))
 	for _, im := range g.u.images {
 		images[im.ID] = im
@@ -240,6 +253,15 @@ func (g *cropGrid) reload() error {
 	g.grid.Refresh()
 	g.updateCounts()
 	return nil
+}
+
+// markCovered marks every covered suggestion wrong, for "Reject marked".
+func (g *cropGrid) markCovered() {
+	for id := range g.covered {
+		g.marked[id] = true
+	}
+	g.grid.Refresh()
+	g.updateCounts()
 }
 
 // toggle marks the i-th suggestion of the list wrong, or unmarks it.
@@ -278,6 +300,12 @@ func (g *cropGrid) updateCounts() {
 	} else {
 		g.rejectBtn.Enable()
 	}
+	g.markCover.SetText(fmt.Sprintf("Mark covered (%d)", len(g.covered)))
+	if len(g.covered) == 0 {
+		g.markCover.Disable()
+	} else {
+		g.markCover.Enable()
+	}
 	if g.classID == 0 {
 		g.info.SetText("No class chosen.")
 		return
@@ -286,8 +314,8 @@ func (g *cropGrid) updateCounts() {
 	if g.ascending.Checked {
 		order = "lowest score first"
 	}
-	g.info.SetText(fmt.Sprintf("%s of class %s (%s), %s; %d marked wrong. The buttons act on every suggestion in this list, also those not scrolled to yet.",
-		ops.Plural(len(g.items), "pending suggestion"), g.u.classBy[g.classID].Name, g.sourceWords(), order, nm))
+	g.info.SetText(fmt.Sprintf("%s of class %s (%s), %s; %d marked wrong; %d already covered by your own boxes (IoU ≥ %.2f). The buttons act on every suggestion in this list, also those not scrolled to yet.",
+		ops.Plural(len(g.items), "pending suggestion"), g.u.classBy[g.classID].Name, g.sourceWords(), order, nm, len(g.covered), g.u.dupIoU))
 }
 
 func (g *cropGrid) sourceWords() string {
@@ -439,7 +467,11 @@ func (g *cropGrid) updateCell(i widget.GridWrapItemID, o fyne.CanvasObject) {
 		}
 	}
 	g.mu.Unlock()
-	c.show(img, fmt.Sprintf("%.2f", s.Score), g.marked[s.ID])
+	score := fmt.Sprintf("%.2f", s.Score)
+	if _, ok := g.covered[s.ID]; ok {
+		score += " · covered"
+	}
+	c.show(img, score, g.marked[s.ID])
 }
 
 // work makes wanted crops, newest request first (the cells the reviewer

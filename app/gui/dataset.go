@@ -51,21 +51,12 @@ func (u *ui) pathField(files, folders bool, placeholder string) (*widget.Entry, 
 	buttons := container.NewHBox()
 	if files {
 		buttons.Add(widget.NewButton("File…", func() {
-			dialog.ShowFileOpen(func(r fyne.URIReadCloser, err error) {
-				if err == nil && r != nil {
-					r.Close()
-					e.SetText(r.URI().Path())
-				}
-			}, u.win)
+			showFileOpen(u.win, "Choose a file", nil, e.SetText)
 		}))
 	}
 	if folders {
 		buttons.Add(widget.NewButton("Folder…", func() {
-			dialog.ShowFolderOpen(func(l fyne.ListableURI, err error) {
-				if err == nil && l != nil {
-					e.SetText(l.Path())
-				}
-			}, u.win)
+			showFolderOpen(u.win, "Choose a folder", "Choose", e.SetText)
 		}))
 	}
 	return e, container.NewBorder(nil, nil, nil, buttons, e)

@@ -8,7 +8,6 @@ import (
 	"strconv"
 
 	"fyne.io/fyne/v2"
-	fcanvas "fyne.io/fyne/v2/canvas"
 	"fyne.io/fyne/v2/container"
 	"fyne.io/fyne/v2/dialog"
 	"fyne.io/fyne/v2/theme"
@@ -35,8 +34,8 @@ type evalScreen struct {
 	progress                        *widget.ProgressBarInfinite
 	headline                        *widget.Label
 
-	prImg, confImg     *fcanvas.Image
-	prPlot, confPlot   *plot.Plot
+	prChart, confChart *chartView
+	tabs               *container.AppTabs
 	classes, cellBoxes *sortTable
 	cellRow, cellCol   *widget.Select
 
@@ -100,15 +99,12 @@ func newEvalScreen(u *ui) *evalScreen {
 	s.progress.Hide()
 	s.headline = widget.NewLabel("Pick the ground truth and the model's source, then Evaluate. Only images the ground-truth annotator labelled or marked done count.")
 	s.headline.Wrapping = fyne.TextWrapWord
-	s.prImg = &fcanvas.Image{FillMode: fcanvas.ImageFillContain}
-	s.prImg.SetMinSize(fyne.NewSize(360, 280))
-	s.confImg = &fcanvas.Image{FillMode: fcanvas.ImageFillContain}
-	s.confImg.SetMinSize(fyne.NewSize(360, 280))
+	s.prChart = newChartView(fyne.NewSize(360, 280))
+	s.confChart = newChartView(fyne.NewSize(360, 280))
 	s.classes = newSortTable([]string{"class", "truth", "predictions", "TP", "FP", "AP", "AP50", "AP75", "precision", "recall", "F1", "best F1", "at score"}, nil)
 	s.cellRow = widget.NewSelect(nil, func(string) { s.listCell() })
 	s.cellCol = widget.NewSelect(nil, func(string) { s.listCell() })
 	s.cellBoxes = newSortTable([]string{"image", "truth box", "predicted box", "score", "IoU"}, s.openCell)
-	s.cellBoxes.SetColumnWidths(220, 180, 180)
 
 	form := container.NewGridWithColumns(4,
 		widget.NewLabel("Ground truth"), s.truth, widget.NewLabel("Model (source)"), s.source,
@@ -119,14 +115,14 @@ func newEvalScreen(u *ui) *evalScreen {
 		return widget.NewButtonWithIcon("Save chart as PNG…", theme.DocumentSaveIcon(), func() { s.savePlot(get(), name) })
 	}
 	charts := container.NewGridWithColumns(2,
-		container.NewBorder(nil, save(func() *plot.Plot { return s.prPlot }, "precision-recall.png"), nil, nil, s.prImg),
-		container.NewBorder(nil, save(func() *plot.Plot { return s.confPlot }, "confusion.png"), nil, nil, s.confImg))
+		container.NewBorder(nil, save(s.prChart.Plot, "precision-recall.png"), nil, nil, s.prChart),
+		container.NewBorder(nil, container.NewHBox(save(s.confChart.Plot, "confusion.png"), widget.NewLabel("Click a cell to list its boxes.")), nil, nil, s.confChart))
 	classTab := container.NewBorder(nil, widget.NewButtonWithIcon("Save table as CSV…", theme.DocumentSaveIcon(), func() { s.saveCSV(s.classes, "classes.csv") }), nil, nil, s.classes.Object())
 	cellTab := container.NewBorder(container.NewHBox(widget.NewLabel("Ground truth"), s.cellRow, widget.NewLabel("predicted as"), s.cellCol),
 		container.NewHBox(widget.NewButtonWithIcon("Save table as CSV…", theme.DocumentSaveIcon(), func() { s.saveCSV(s.cellBoxes, "boxes.csv") }),
 			widget.NewLabel("Click a row to open the image with both boxes.")), nil, nil, s.cellBoxes.Object())
-	tabs := container.NewAppTabs(container.NewTabItem("Charts", charts), container.NewTabItem("Classes", classTab), container.NewTabItem("Boxes behind a cell", cellTab))
-	s.win.SetContent(container.NewBorder(container.NewPadded(controls), nil, nil, nil, tabs))
+	s.tabs = container.NewAppTabs(container.NewTabItem("Charts", charts), container.NewTabItem("Classes", classTab), container.NewTabItem("Boxes behind a cell", cellTab))
+	s.win.SetContent(container.NewBorder(container.NewPadded(controls), nil, nil, nil, s.tabs))
 	s.win.Resize(fyne.NewSize(1100, 820))
 	return s
 }
@@ -194,11 +190,7 @@ func (s *evalScreen) show() {
 			c.Precision, c.Recall, c.F1, c.BestF1, c.BestF1Threshold})
 	}
 	s.classes.SetRows(rows, keys)
-	if p, err := s.prCurves(); err == nil {
-		s.prPlot = p
-		s.prImg.Image, _ = ops.PlotImage(p, chartW, chartH)
-		s.prImg.Refresh()
-	}
+	s.prChart.SetChart(s.prCurves)
 	var names []string
 	for _, c := range s.conf.Classes {
 		names = append(names, d.ClassName[c])
@@ -212,19 +204,27 @@ func (s *evalScreen) show() {
 			counts[i][j] = float64(v)
 		}
 	}
-	if p, err := ops.ConfusionPlot("Ground truth × prediction", "ground truth", "predicted", rowNames, colNames, counts); err == nil {
-		s.confPlot = p
-		s.confImg.Image, _ = ops.PlotImage(p, chartW, chartH)
-		s.confImg.Refresh()
-	}
+	s.confChart.SetChart(func(st ops.ChartStyle) (*plot.Plot, error) {
+		return ops.ConfusionPlot(st, "Ground truth × prediction", "ground truth", "predicted", rowNames, colNames, counts)
+	})
+	s.confChart.SetMatrix(len(rowNames), len(colNames), s.chooseCell)
 	s.cellRow.SetOptions(rowNames)
 	s.cellCol.SetOptions(colNames)
 }
 
+// chooseCell shows the boxes behind cell (row, col) of the confusion
+// matrix, as choosing its row and column does.
+func (s *evalScreen) chooseCell(row, col int) {
+	s.cellRow.SetSelectedIndex(row)
+	s.cellCol.SetSelectedIndex(col)
+	s.tabs.SelectIndex(2)
+}
+
 // prCurves draws every class's precision/recall curve on one chart.
-func (s *evalScreen) prCurves() (*plot.Plot, error) {
-	p := plot.New()
+func (s *evalScreen) prCurves(st ops.ChartStyle) (*plot.Plot, error) {
+	p := st.NewPlot()
 	p.Title.Text = "Precision and recall"
+	p.Add(st.Grid()) // under the curves
 	p.X.Label.Text, p.Y.Label.Text = "recall", "precision"
 	p.X.Min, p.X.Max, p.Y.Min, p.Y.Max = 0, 1, 0, 1
 	for i, c := range s.res.Classes {
@@ -246,7 +246,6 @@ func (s *evalScreen) prCurves() (*plot.Plot, error) {
 		p.Legend.Add(fmt.Sprintf("%s (AP %s)", s.data.ClassName[c.ClassID], ops.F4(c.AP)), l)
 	}
 	p.Legend.Top, p.Legend.Left = false, true
-	p.Add(plotter.NewGrid())
 	return p, nil
 }
 

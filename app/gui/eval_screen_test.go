@@ -27,8 +27,8 @@ func TestEvaluationScreen(t *testing.T) {
 	case <-time.After(20 * time.Second):
 		t.Fatal("the evaluation did not finish")
 	}
-	if !strings.Contains(s.headline.Text, "mAP") || s.prImg.Image == nil || s.confImg.Image == nil {
-		t.Fatalf("headline %q, charts %v %v", s.headline.Text, s.prImg.Image != nil, s.confImg.Image != nil)
+	if !strings.Contains(s.headline.Text, "mAP") || s.prChart.Plot() == nil || s.confChart.Plot() == nil {
+		t.Fatalf("headline %q, charts %v %v", s.headline.Text, s.prChart.Plot() != nil, s.confChart.Plot() != nil)
 	}
 	// The diagonal cell of the first class: true positives with both boxes.
 	s.cellRow.SetSelectedIndex(0)

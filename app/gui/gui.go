@@ -19,16 +19,21 @@ import (
 	"fmt"
 	"image/color"
 	"io"
+	"log"
+	"net"
 	"os"
 	"path/filepath"
 	"runtime"
+	"strconv"
 	"strings"
+	"time"
 
 	"fyne.io/fyne/v2"
 	fyneapp "fyne.io/fyne/v2/app"
 	fcanvas "fyne.io/fyne/v2/canvas"
 	"fyne.io/fyne/v2/container"
 	"fyne.io/fyne/v2/dialog"
+	"fyne.io/fyne/v2/driver/desktop"
 	"fyne.io/fyne/v2/layout"
 	"fyne.io/fyne/v2/theme"
 	"fyne.io/fyne/v2/widget"
@@ -43,10 +48,11 @@ import (
 // empty, labelling as annotator (empty: the remembered name, or ask), and
 // returns when the window closes.
 func Run(path, annotator string, stderr io.Writer) int {
-	if why := noDisplay(runtime.GOOS, os.Getenv); why != "" {
+	if why := noDisplay(runtime.GOOS, os.Getenv, net.DialTimeout); why != "" {
 		fmt.Fprintf(stderr, "boxwright: %s\n", why)
 		return 1
 	}
+	log.SetOutput(&quietLog{w: stderr})
 	a := fyneapp.NewWithID("app.boxwright.desktop")
 	u := newUI(a)
 	u.annotatorFlag = annotator
@@ -69,16 +75,59 @@ func Run(path, annotator string, stderr io.Writer) int {
 }
 
 // noDisplay says why no window can open, or "": on Linux and the BSDs a
-// window needs an X or Wayland display, and without one the toolkit
-// panics instead of saying so.
-func noDisplay(goos string, getenv func(string) string) string {
+// window needs an X display (this build draws through X11; Wayland desktops
+// offer one through XWayland), and without a reachable one the toolkit
+// panics instead of saying so. dial is net.DialTimeout in use.
+func noDisplay(goos string, getenv func(string) string, dial func(network, addr string, d time.Duration) (net.Conn, error)) string {
 	switch goos {
 	case "linux", "freebsd", "openbsd", "netbsd":
-		if getenv("DISPLAY") == "" && getenv("WAYLAND_DISPLAY") == "" {
-			return "no display to open a window on (neither DISPLAY nor WAYLAND_DISPLAY is set): run it in a desktop session, or use the command-line commands (boxwright help); boxwright demo DIR --no-open makes the demo without opening it"
-		}
+	default:
+		return ""
 	}
+	const headless = "run it in a desktop session, or use the command-line commands (boxwright help); boxwright demo DIR --no-open makes the demo without opening it"
+	d := getenv("DISPLAY")
+	if d == "" {
+		return "no display to open a window on (DISPLAY is not set): " + headless
+	}
+	network, addr, ok := xDisplayAddr(d)
+	if !ok {
+		return fmt.Sprintf("DISPLAY=%q is not a display name like :0 or host:0: %s", d, headless)
+	}
+	c, err := dial(network, addr, 2*time.Second)
+	if err != nil && network == "unix" && goos == "linux" {
+		c, err = dial("unix", "@"+addr, 2*time.Second) // the abstract socket X servers also offer
+	}
+	if err != nil {
+		return fmt.Sprintf("cannot reach the display DISPLAY=%s (%s %s): %s", d, network, addr, headless)
+	}
+	c.Close()
 	return ""
+}
+
+// xDisplayAddr turns an X display name ([host]:number[.screen]) into the
+// socket the X server listens on (X11 convention: unix socket
+// /tmp/.X11-unix/X<number>, or TCP port 6000+number on a named host).
+func xDisplayAddr(d string) (network, addr string, ok bool) {
+	colon := strings.LastIndex(d, ":")
+	if colon < 0 {
+		return "", "", false
+	}
+	host, num := d[:colon], d[colon+1:]
+	if dot := strings.IndexByte(num, '.'); dot >= 0 {
+		num = num[:dot]
+	}
+	n, err := strconv.Atoi(num)
+	if err != nil || n < 0 {
+		return "", "", false
+	}
+	switch {
+	case strings.HasPrefix(host, "/"): // a socket path given whole
+		return "unix", d[:colon] + ":" + num, true
+	case host == "" || host == "unix":
+		return "unix", fmt.Sprintf("/tmp/.X11-unix/X%d", n), true
+	default:
+		return "tcp", net.JoinHostPort(strings.TrimPrefix(host, "tcp/"), strconv.Itoa(6000+n)), true
+	}
 }
 
 // ui is the main window and the open project.
@@ -125,6 +174,9 @@ type ui struct {
 	others   *widget.Check
 	guides   *widget.Check
 	body     *fyne.Container // the screen shown in the window: welcome or project
+	// panels holds the image list, image and class panel (layoutPanels).
+	panels, leftPanel, centre *fyne.Container
+	hideList, hideClasses     bool
 
 	selected int   // index into images of the image on screen, -1 none
 	imageID  int64 // its ID
@@ -138,6 +190,13 @@ type ui struct {
 	suggestionEdits     map[int64]project.Suggestion
 	showSuggestions     *widget.Check
 	suggestionThreshold float64
+	// dupIoU is the overlap with an own box of the same class at which a
+	// new, accepted or corrected box is asked about (duplicates.go).
+	dupIoU float64
+	// overlapAsk is the overlap question on screen, if any (for tests).
+	overlapAsk *overlapQuestion
+	// escDialog is the open dialog Esc closes; keysDialog the keys overlay.
+	escDialog, keysDialog dialog.Dialog
 
 	similar    *similarRun  // the last exemplar search, for its live threshold
 	training   *trainScreen // the training window, while it is open
@@ -170,16 +229,18 @@ func newUI(a fyne.App) *ui {
 	u.bar = newClassBar(u.win, func() backend.Project { return u.st }, u.classesChanged, u.pickClass)
 	u.undoBtn = widget.NewButtonWithIcon("", theme.ContentUndoIcon(), u.undo)
 	u.redoBtn = widget.NewButtonWithIcon("", theme.ContentRedoIcon(), u.redo)
-	u.others = widget.NewCheck("Others", func(on bool) { u.view.SetShowReadOnly(on) })
+	u.others = widget.NewCheck("Others", func(on bool) { u.view.SetShowReadOnly(on); u.giveKeysBack() })
 	u.others.SetChecked(true)
 	u.suggestionThreshold = defaultSuggestionThreshold
+	u.dupIoU = a.Preferences().FloatWithFallback(dupIoUPref, ops.DefaultDuplicateIoU)
 	u.suggestionEdits = map[int64]project.Suggestion{}
-	u.showSuggestions = widget.NewCheck("Suggestions", func(bool) { u.refreshBoxes() })
+	u.showSuggestions = widget.NewCheck("Suggestions", func(bool) { u.refreshBoxes(); u.giveKeysBack() })
 	u.showSuggestions.SetChecked(true)
 	u.guides = widget.NewCheck("Guides", func(on bool) {
 		if u.view.Guides() != on {
 			u.view.SetGuides(on)
 		}
+		u.giveKeysBack()
 	})
 	u.compareNote = widget.NewLabel("")
 	u.compareNote.Wrapping = fyne.TextWrapWord
@@ -212,23 +273,30 @@ func (u *ui) askClose() {
 }
 
 func (u *ui) menu() *fyne.MainMenu {
+	// keyed items show their Ctrl shortcut in the menu (addShortcuts
+	// binds the same keys on the window).
+	keyed := func(label string, k fyne.KeyName, m fyne.KeyModifier, f func()) *fyne.MenuItem {
+		it := fyne.NewMenuItem(label, f)
+		it.Shortcut = &desktop.CustomShortcut{KeyName: k, Modifier: fyne.KeyModifierShortcutDefault | m}
+		return it
+	}
 	file := fyne.NewMenu("Project",
-		fyne.NewMenuItem("New project…", u.askNew),
-		fyne.NewMenuItem("Open project…", u.askOpen),
+		keyed("New project…", fyne.KeyN, 0, u.askNew),
+		keyed("Open project…", fyne.KeyO, 0, u.askOpen),
 		fyne.NewMenuItemSeparator(),
-		fyne.NewMenuItem("Add image folder…", u.askAddFolder),
+		keyed("Add image folder…", fyne.KeyI, 0, u.askAddFolder),
 		fyne.NewMenuItem("Add image files…", u.askAddFile),
 		fyne.NewMenuItem("Find moved images…", u.askRelink),
 		fyne.NewMenuItemSeparator(),
 		fyne.NewMenuItem("Change annotator…", u.askAnnotator),
 	)
 	edit := fyne.NewMenu("Edit",
-		fyne.NewMenuItem("Undo (Ctrl+Z)", u.undo),
-		fyne.NewMenuItem("Redo (Ctrl+Shift+Z)", u.redo),
+		keyed("Undo", fyne.KeyZ, 0, u.undo),
+		keyed("Redo", fyne.KeyZ, fyne.KeyModifierShift, u.redo),
 		fyne.NewMenuItemSeparator(),
 		fyne.NewMenuItem("Duplicate box (D)", u.duplicate),
 		fyne.NewMenuItem("Delete box (Delete)", u.deleteSelected),
-		fyne.NewMenuItem("Delete all my boxes on this image (Ctrl+Delete)", u.deleteAll),
+		keyed("Delete all my boxes on this image", fyne.KeyDelete, 0, u.deleteAll),
 		fyne.NewMenuItem("Give all my boxes on this image the current class", func() { u.classAll(u.current) }),
 	)
 	images := fyne.NewMenu("Images",
@@ -250,26 +318,31 @@ func (u *ui) menu() *fyne.MainMenu {
 		fyne.NewMenuItem("Guide lines (G)", func() { u.view.TypedRune('g') }),
 		fyne.NewMenuItem("Class-name tags (T)", func() { u.view.TypedRune('t') }),
 		fyne.NewMenuItem("Other annotators' boxes (O)", func() { u.others.SetChecked(!u.others.Checked) }),
+		fyne.NewMenuItemSeparator(),
+		keyed("Show or hide the image list", fyne.KeyB, fyne.KeyModifierShift, func() { u.togglePanel(true) }),
+		keyed("Show or hide the class panel", fyne.KeyK, fyne.KeyModifierShift, func() { u.togglePanel(false) }),
 	)
 	data := fyne.NewMenu("Dataset",
-		fyne.NewMenuItem("Import labels…", u.askImport),
-		fyne.NewMenuItem("Export dataset…", u.askExport),
+		keyed("Import labels…", fyne.KeyL, 0, u.askImport),
+		keyed("Export dataset…", fyne.KeyE, 0, u.askExport),
 		fyne.NewMenuItemSeparator(),
-		fyne.NewMenuItem("Annotator agreement… (Ctrl+G)", u.showAgreement),
+		keyed("Annotator agreement…", fyne.KeyG, 0, u.showAgreement),
 	)
 	sugg := fyne.NewMenu("Suggestions",
 		fyne.NewMenuItem("Import predictions…", u.askImportSuggestions),
-		fyne.NewMenuItem("Find objects like the selected box… (Ctrl+F)", u.askFindSimilar),
-		fyne.NewMenuItem("Train a detector on this project… (Ctrl+T)", u.showTraining),
+		keyed("Find objects like the selected box…", fyne.KeyF, 0, u.askFindSimilar),
+		keyed("Train a detector on this project…", fyne.KeyT, 0, u.showTraining),
 		fyne.NewMenuItemSeparator(),
 		fyne.NewMenuItem("Accept selected suggestion (A)", u.acceptSuggestion),
 		fyne.NewMenuItem("Reject selected suggestion (Z)", u.rejectSuggestion),
 		fyne.NewMenuItem("Accept all on this image above the threshold (Shift+A)", u.acceptAllAbove),
 		fyne.NewMenuItem("Score threshold…", u.askSuggestionThreshold),
 		fyne.NewMenuItem("Accept or reject many…", u.askBulkReview),
+		fyne.NewMenuItem("Reject suggestions my boxes already cover…", u.askRejectCovered),
+		fyne.NewMenuItem("Duplicate warning…", u.askDupIoU),
 		fyne.NewMenuItemSeparator(),
-		fyne.NewMenuItem("Review one by one… (Ctrl+R)", u.showReviewQueue),
-		fyne.NewMenuItem("Review as a grid of crops… (Ctrl+J)", u.showCropGrid),
+		keyed("Review one by one…", fyne.KeyR, 0, u.showReviewQueue),
+		keyed("Review as a grid of crops…", fyne.KeyJ, 0, u.showCropGrid),
 		fyne.NewMenuItem("What the decisions tell us…", u.showSuggestionStats),
 		fyne.NewMenuItem("Evaluate the model against ground truth…", u.showEvaluation),
 	)
@@ -298,7 +371,7 @@ func (u *ui) welcome() fyne.CanvasObject {
 }
 
 func (u *ui) projectScreen() fyne.CanvasObject {
-	left := container.NewBorder(container.NewVBox(u.summary, u.nav.filters()), nil, nil, nil, u.nav.list)
+	u.leftPanel = container.NewBorder(container.NewVBox(u.summary, u.nav.filters()), nil, nil, nil, u.nav.list)
 	tools := container.NewHBox(u.undoBtn, u.redoBtn, widget.NewSeparator(),
 		widget.NewButtonWithIcon("", theme.ZoomFitIcon(), u.view.FitToWindow),
 		widget.NewButton("1:1", func() { u.view.TypedRune('r') }),
@@ -307,11 +380,13 @@ func (u *ui) projectScreen() fyne.CanvasObject {
 		u.zoom, widget.NewSeparator(), u.guides, u.others, u.showSuggestions, layout.NewSpacer(),
 		widget.NewButtonWithIcon("Done", theme.ConfirmIcon(), func() { u.markAndGo(project.StatusDone) }),
 		widget.NewButtonWithIcon("Keys", theme.HelpIcon(), u.showKeys))
-	centre := container.NewBorder(container.NewVBox(tools, u.compareBar), nil, nil, nil, u.view)
-	inner := container.NewHSplit(centre, u.bar.Object())
-	inner.Offset = 0.8
-	split := container.NewHSplit(left, inner)
-	split.Offset = 0.2
+	// On a narrow window the toolbar scrolls sideways instead of setting
+	// the window's minimum width.
+	toolbar := container.NewHScroll(tools)
+	toolbar.SetMinSize(fyne.NewSize(0, tools.MinSize().Height))
+	u.centre = container.NewBorder(container.NewVBox(toolbar, u.compareBar), nil, nil, nil, u.view)
+	u.panels = container.NewStack()
+	u.layoutPanels()
 	bottom := container.NewBorder(nil, nil, nil, container.NewHBox(u.saved, u.retry), u.status)
 	var top fyne.CanvasObject
 	if u.readOnlyWhy != "" {
@@ -321,7 +396,39 @@ func (u *ui) projectScreen() fyne.CanvasObject {
 		u.banner = container.NewStack(fcanvas.NewRectangle(withAlpha(theme.Color(theme.ColorNameWarning), 0x40)), msg)
 		top = u.banner
 	}
-	return container.NewBorder(top, bottom, nil, nil, split)
+	return container.NewBorder(top, bottom, nil, nil, u.panels)
+}
+
+// layoutPanels places the image list, the image and the class panel, as
+// the person has chosen to show them (View ▸ Image list, Class panel);
+// the dividers between them can be dragged.
+func (u *ui) layoutPanels() {
+	var o fyne.CanvasObject = u.centre
+	if !u.hideClasses {
+		inner := container.NewHSplit(u.centre, u.bar.Object())
+		inner.Offset = 0.8
+		o = inner
+	}
+	if !u.hideList {
+		split := container.NewHSplit(u.leftPanel, o)
+		split.Offset = 0.2
+		o = split
+	}
+	u.panels.Objects = []fyne.CanvasObject{o}
+	u.panels.Refresh()
+}
+
+// togglePanel shows or hides the image list (list) or the class panel.
+func (u *ui) togglePanel(list bool) {
+	if u.panels == nil {
+		return
+	}
+	if list {
+		u.hideList = !u.hideList
+	} else {
+		u.hideClasses = !u.hideClasses
+	}
+	u.layoutPanels()
 }
 
 // openProject closes any open project and shows the one at path.
@@ -341,6 +448,7 @@ func (u *ui) openProject(path string) error {
 	}
 	u.closeProject()
 	u.st, u.path, u.readOnlyWhy = traceWrites(s, u.trace), path, why
+	projectFolder = filepath.Dir(path)
 	u.me, u.sess, u.current = project.Annotator{}, nil, 0
 	if err := u.reload(); err != nil {
 		return err
@@ -353,8 +461,12 @@ func (u *ui) openProject(path string) error {
 	if len(u.images) > 0 {
 		u.selectIndex(0)
 	} else {
+		u.view.SetImage(nil)
+		u.view.SetItems(nil)
 		u.view.SetMessage("This project has no images yet: Project ▸ Add image folder… (Ctrl+I)")
 	}
+	u.pointer = ""
+	u.updateStatus()
 	u.reportMissing()
 	return nil
 }
@@ -409,10 +521,6 @@ func (u *ui) reload() error {
 	if err != nil {
 		return err
 	}
-	counts, err := u.st.Counts(ctx)
-	if err != nil {
-		return err
-	}
 	as, err := u.st.Annotators(ctx)
 	if err != nil {
 		return err
@@ -440,9 +548,26 @@ func (u *ui) reload() error {
 	for _, t := range tal {
 		u.tally(t.ImageID, t.ClassID, t.AnnotatorID, t.N)
 	}
+	u.updateSummary()
+	u.nav.reload()
+	u.updateClassBar()
+	return nil
+}
+
+// updateSummary writes the project summary from the counts in memory,
+// which every edit and decision keeps current.
+func (u *ui) updateSummary() {
+	labels, pending, mine := 0, 0, 0
+	for _, c := range u.perImg {
+		labels += c.Labels
+		pending += c.Pending
+	}
+	for _, by := range u.byAnnotator {
+		mine += by[u.me.ID]
+	}
 	var parts []string
 	byStatus := map[project.ImageStatus]int{}
-	for _, im := range ims {
+	for _, im := range u.images {
 		byStatus[im.Status]++
 	}
 	for _, st := range project.ImageStatuses {
@@ -450,14 +575,16 @@ func (u *ui) reload() error {
 			parts = append(parts, fmt.Sprintf("%d %s", n, statusWord(st)))
 		}
 	}
-	if u.me.ID != 0 && len(parts) > 0 {
-		parts[0] = u.me.Name + ": " + parts[0]
+	text := fmt.Sprintf("%s, %s, %s", ops.Plural(len(u.images), "image"), ops.Plural(labels, "label"), ops.Plural(pending, "pending suggestion"))
+	if u.me.ID != 0 {
+		text += fmt.Sprintf("\n%s: %s", u.me.Name, ops.Plural(mine, "label"))
+		if len(parts) > 0 {
+			text += " · " + strings.Join(parts, " · ")
+		}
+	} else if len(parts) > 0 {
+		text += "\n" + strings.Join(parts, " · ")
 	}
-	u.summary.SetText(fmt.Sprintf("%s, %s, %d pending suggestions\n%s", ops.Plural(counts.Images, "image"), ops.Plural(counts.Labels, "label"),
-		counts.Suggestions[project.SuggestionPending], strings.Join(parts, " · ")))
-	u.nav.reload()
-	u.updateClassBar()
-	return nil
+	u.summary.SetText(text)
 }
 
 // tally adds n labels of a class by an annotator on an image to the

@@ -31,6 +31,8 @@ func (u *ui) addShortcuts() {
 	c.AddShortcut(&fyne.ShortcutRedo{}, func(fyne.Shortcut) { u.redo() })
 	add(fyne.KeyZ, ctrl|fyne.KeyModifierShift, u.redo)
 	add(fyne.KeyDelete, ctrl, u.deleteAll)
+	add(fyne.KeyB, ctrl|fyne.KeyModifierShift, func() { u.togglePanel(true) })
+	add(fyne.KeyK, ctrl|fyne.KeyModifierShift, func() { u.togglePanel(false) })
 	// Ctrl+arrows resize the selected box by its bottom-right corner.
 	for _, k := range []struct {
 		name   fyne.KeyName
@@ -52,8 +54,8 @@ func (u *ui) addShortcuts() {
 	}
 	// With nothing focused the view gets the keys: it handles its own and
 	// hands the rest back to typedKey and typedRune.
-	c.SetOnTypedKey(u.view.TypedKey)
-	c.SetOnTypedRune(u.view.TypedRune)
+	c.SetOnTypedKey(u.typedKeyTop)
+	c.SetOnTypedRune(u.typedRuneTop)
 }
 
 // typedKey handles the keys the view leaves to the window.
@@ -119,8 +121,10 @@ func (u *ui) classByKey(r rune) (project.Class, bool) {
 
 func (u *ui) showKeys() {
 	t := widget.NewTextGridFromString(keysHelp)
-	d := dialog.NewCustom("Keys and mouse", "Close", container.NewVScroll(t), u.win)
-	d.Resize(fyne.NewSize(720, 620))
+	d := dialog.NewCustom("Keys and mouse", "Close (Esc or H)", container.NewVScroll(t), u.win)
+	d.Resize(fyne.NewSize(min(720, dialogSize(u.win).Width), min(620, dialogSize(u.win).Height)))
+	u.keysDialog = d
+	u.escClosable(d)
 	d.Show()
 }
 
@@ -170,5 +174,7 @@ IMAGES
 PROJECT
   Ctrl+O open   Ctrl+N new   Ctrl+I add images   Ctrl+L import labels
   Ctrl+E export dataset   Ctrl+G annotator agreement   H, ? or F1   this help
+  Ctrl+Shift+B / Ctrl+Shift+K   hide or show the image list / the class panel
+  (the dividers between the panels can be dragged; Esc or H closes this help)
 
 Every edit is saved at once; the status bar says "saved".`

@@ -146,6 +146,7 @@ func (u *ui) createBox(b project.Box) {
 	k, err := u.sess.Create(context.Background(), u.imageID, u.current, b)
 	u.afterEdit(err)
 	u.view.Select(k)
+	u.checkDrawn(k, b, u.current)
 }
 
 // edit changes the given boxes of the image on screen.
@@ -312,6 +313,7 @@ func (u *ui) recount() {
 		u.images[u.selected].Status = project.StatusStarted // as the store did
 	}
 	u.nav.refreshImage(u.imageID)
+	u.updateSummary()
 }
 
 func (u *ui) updateUndo() {
@@ -334,6 +336,16 @@ func (u *ui) updateUndo() {
 // updateStatus writes the status line: image, pointer, selection, zoom.
 func (u *ui) updateStatus() {
 	if u.st == nil || u.selected < 0 || u.selected >= len(u.images) {
+		// Nothing on screen: say so, never the last project's image.
+		switch {
+		case u.st == nil:
+			u.status.SetText("")
+		case len(u.images) == 0:
+			u.status.SetText("No images yet: Project ▸ Add image folder… (Ctrl+I)")
+		default:
+			u.status.SetText("No image chosen: pick one in the list on the left.")
+		}
+		u.zoom.SetText("")
 		return
 	}
 	im := u.images[u.selected]
@@ -362,7 +374,13 @@ func (u *ui) updateClassBar() {
 	for c, n := range u.byClass[u.imageID] {
 		here[c] = n
 	}
-	u.bar.SetData(u.classes, here, u.classTotal, u.current)
+	mine := map[int64]int{}
+	for k, n := range u.byPair[u.imageID] {
+		if u.me.ID != 0 && k[1] == u.me.ID {
+			mine[k[0]] += n
+		}
+	}
+	u.bar.SetData(u.classes, mine, here, u.classTotal, u.current, u.me.Name)
 }
 
 func (u *ui) classesChanged() {

@@ -88,6 +88,7 @@ func (u *ui) setStatus(s project.ImageStatus) bool {
 	}
 	im.Status = s
 	u.nav.refreshImage(im.ID)
+	u.updateSummary()
 	u.savedNow()
 	return true
 }

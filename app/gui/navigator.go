@@ -65,6 +65,7 @@ func newNavigator(u *ui) *navigator {
 	pick := func(string) {
 		if !n.quiet {
 			n.apply()
+			u.giveKeysBack()
 		}
 	}
 	n.status = widget.NewSelect(nil, pick)

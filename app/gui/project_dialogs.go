@@ -5,11 +5,8 @@ import (
 	"fmt"
 	"os"
 	"path/filepath"
-	"strings"
 
-	"fyne.io/fyne/v2"
 	"fyne.io/fyne/v2/dialog"
-	"fyne.io/fyne/v2/storage"
 
 	"boxwright/app/backend"
 	"boxwright/app/ops"
@@ -32,50 +29,16 @@ func (u *ui) reportMissing() {
 }
 
 func (u *ui) askOpen() {
-	d := dialog.NewFileOpen(func(r fyne.URIReadCloser, err error) {
-		if err != nil || r == nil {
-			return
-		}
-		r.Close()
-		if err := u.openProject(r.URI().Path()); err != nil {
-			u.showError(err)
-		}
-	}, u.win)
-	d.SetFilter(storage.NewExtensionFileFilter([]string{backend.Extension}))
-	d.Show()
-}
-
-func (u *ui) askNew() {
-	d := dialog.NewFileSave(func(w fyne.URIWriteCloser, err error) {
-		if err != nil || w == nil {
-			return
-		}
-		path := w.URI().Path()
-		w.Close()
-		os.Remove(path) // the dialog made an empty file; Create refuses to overwrite
-		if !strings.HasSuffix(path, backend.Extension) {
-			path += backend.Extension
-		}
-		s, err := backend.Create(path)
-		if err != nil {
-			u.showError(err)
-			return
-		}
-		s.Close()
+	showFileOpen(u.win, "Open a project", []string{backend.Extension}, func(path string) {
 		if err := u.openProject(path); err != nil {
 			u.showError(err)
 		}
-	}, u.win)
-	d.SetFileName("project" + backend.Extension)
-	d.Show()
+	})
 }
 
 func (u *ui) askDemo() {
-	dialog.ShowFolderOpen(func(l fyne.ListableURI, err error) {
-		if err != nil || l == nil {
-			return
-		}
-		dir := filepath.Join(l.Path(), "boxwright-demo")
+	showFolderOpen(u.win, "Folder to make the demo project in", "Make it here", func(parent string) {
+		dir := filepath.Join(parent, "boxwright-demo")
 		path := filepath.Join(dir, ops.DemoProjectName)
 		if _, err := os.Stat(path); err == nil {
 			if err := u.openProject(path); err != nil {
@@ -90,43 +53,30 @@ func (u *ui) askDemo() {
 				u.showError(err)
 			}
 		})
-	}, u.win)
+	})
 }
 
 func (u *ui) askAddFolder() {
 	if !u.haveProject() {
 		return
 	}
-	dialog.ShowFolderOpen(func(l fyne.ListableURI, err error) {
-		if err == nil && l != nil {
-			u.intake([]string{l.Path()}, false)
-		}
-	}, u.win)
+	showFolderOpen(u.win, "Add a folder of images", "Add", func(dir string) { u.intake([]string{dir}, false) })
 }
 
 func (u *ui) askAddFile() {
 	if !u.haveProject() {
 		return
 	}
-	d := dialog.NewFileOpen(func(r fyne.URIReadCloser, err error) {
-		if err == nil && r != nil {
-			r.Close()
-			u.intake([]string{r.URI().Path()}, false)
-		}
-	}, u.win)
-	d.SetFilter(storage.NewExtensionFileFilter([]string{".jpg", ".jpeg", ".png", ".gif", ".bmp", ".tif", ".tiff", ".webp"}))
-	d.Show()
+	showFileOpen(u.win, "Add an image file", []string{".jpg", ".jpeg", ".png", ".gif", ".bmp", ".tif", ".tiff", ".webp"}, func(path string) {
+		u.intake([]string{path}, false)
+	})
 }
 
 func (u *ui) askRelink() {
 	if u.st == nil {
 		return
 	}
-	dialog.ShowFolderOpen(func(l fyne.ListableURI, err error) {
-		if err == nil && l != nil {
-			u.intake([]string{l.Path()}, true)
-		}
-	}, u.win)
+	showFolderOpen(u.win, "Look for moved images in a folder", "Search", func(dir string) { u.intake([]string{dir}, true) })
 }
 
 // intake adds (or, with relinkOnly, finds) images as a background job and

@@ -32,6 +32,7 @@ func askSavePlot(win fyne.Window, p *plot.Plot, name, nothingYet string) {
 	}, win)
 	d.SetFileName(name)
 	d.SetFilter(storage.NewExtensionFileFilter([]string{".png"}))
+	prepareFileDialog(d, win, "Save the chart as PNG", "Save")
 	d.Show()
 }
 
@@ -49,6 +50,7 @@ func askSaveCSV(win fyne.Window, t *sortTable, name string) {
 	}, win)
 	d.SetFileName(name)
 	d.SetFilter(storage.NewExtensionFileFilter([]string{".csv"}))
+	prepareFileDialog(d, win, "Save the table as CSV", "Save")
 	d.Show()
 }
 

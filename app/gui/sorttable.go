@@ -7,10 +7,12 @@ import (
 	"io"
 	"math"
 	"slices"
+	"strings"
 	"unicode"
 	"unicode/utf8"
 
 	"fyne.io/fyne/v2"
+	"fyne.io/fyne/v2/container"
 	"fyne.io/fyne/v2/theme"
 	"fyne.io/fyne/v2/widget"
 )
@@ -26,24 +28,37 @@ type sortTable struct {
 	sortCol int // -1: rows in the order given
 	desc    bool
 
-	widths map[int]float32 // set by SetColumnWidths; others fit their content
-	onRow  func(row int)
-	table  *widget.Table
+	widths  map[int]float32 // set by SetColumnWidths; others fit their content
+	colW    []float32       // the width each column was given
+	leading map[int]bool    // columns aligned as text whatever their keys
+	cut     bool            // some cell may be wider than its column
+	onRow   func(row int)
+	table   *widget.Table
+	detail  *widget.Label // the chosen row in full, when cells are cut short
+	obj     fyne.CanvasObject
 }
 
 // Auto-fitted columns stay within these widths so one long name cannot
-// push the rest off screen.
+// push the rest off screen; a cell cut short is shown whole in the detail
+// line under the table when its row is chosen.
 const (
 	sortTableMinWidth = 56
 	sortTableMaxWidth = 360
 	sortTableFitRows  = 500 // rows measured when fitting a column
+	sortTableSlack    = 2   // pixels beyond a label's minimum width, against rounding
 )
+
+// sortTableCutHint is the detail line before a row is chosen.
+const sortTableCutHint = "Some values are cut short: choose a row to read it whole here."
 
 // newSortTable returns an empty table with the given column headers.
 // onRow, when not nil, is called with the index (into the rows given to
 // SetRows) of a row that is clicked or chosen with the keyboard.
 func newSortTable(headers []string, onRow func(row int)) *sortTable {
-	t := &sortTable{headers: slices.Clone(headers), sortCol: -1, onRow: onRow, widths: map[int]float32{}}
+	t := &sortTable{headers: slices.Clone(headers), sortCol: -1, onRow: onRow, widths: map[int]float32{}, leading: map[int]bool{}}
+	t.detail = widget.NewLabel("")
+	t.detail.Wrapping = fyne.TextWrapWord
+	t.detail.Hide()
 	t.table = widget.NewTable(
 		func() (int, int) { return len(t.order), len(t.headers) },
 		func() fyne.CanvasObject {
@@ -64,16 +79,52 @@ func newSortTable(headers []string, onRow func(row int)) *sortTable {
 	t.table.OnSelected = func(id widget.TableCellID) {
 		// Unselect at once so that clicking the same row again reports again.
 		t.table.Unselect(id)
-		if id.Row >= 0 && id.Row < len(t.order) && t.onRow != nil {
+		if id.Row < 0 || id.Row >= len(t.order) {
+			return
+		}
+		if t.cut {
+			t.detail.SetText(t.rowText(t.order[id.Row]))
+		}
+		if t.onRow != nil {
 			t.onRow(t.order[id.Row])
 		}
 	}
+	t.obj = container.NewBorder(nil, t.detail, nil, nil, t.table)
 	t.fitColumns()
 	return t
 }
 
-// Object is the table to place in a layout.
-func (t *sortTable) Object() fyne.CanvasObject { return t.table }
+// Object is the table, with its detail line, to place in a layout.
+func (t *sortTable) Object() fyne.CanvasObject { return t.obj }
+
+// rowText is row r in full: "header: value" for each column.
+func (t *sortTable) rowText(r int) string {
+	parts := make([]string, len(t.headers))
+	for c, h := range t.headers {
+		parts[c] = h + ": " + t.cell(r, c)
+	}
+	return strings.Join(parts, "   ·   ")
+}
+
+// SetTextColumns aligns the given columns to the leading edge, as text,
+// even where their cells have numeric sort keys (a verbal band sorted by
+// its number).
+func (t *sortTable) SetTextColumns(cols ...int) {
+	for _, c := range cols {
+		t.leading[c] = true
+	}
+	t.table.Refresh()
+}
+
+// FullWidth is the width that shows every column side by side.
+func (t *sortTable) FullWidth() float32 {
+	pad := theme.Current().Size(theme.SizeNamePadding) // the table's separators
+	w := float32(0)
+	for _, c := range t.colW {
+		w += c + pad
+	}
+	return w
+}
 
 func (t *sortTable) updateCell(id widget.TableCellID, o fyne.CanvasObject) {
 	l := o.(*widget.Label)
@@ -84,7 +135,7 @@ func (t *sortTable) updateCell(id widget.TableCellID, o fyne.CanvasObject) {
 	r := t.order[id.Row]
 	// Numbers line up on the right, as on paper.
 	align := fyne.TextAlignLeading
-	if !math.IsNaN(t.key(r, id.Col)) {
+	if !math.IsNaN(t.key(r, id.Col)) && !t.leading[id.Col] {
 		align = fyne.TextAlignTrailing
 	}
 	if l.Alignment != align {
@@ -136,6 +187,12 @@ func (t *sortTable) SetRows(rows [][]string, keys [][]float64) {
 	t.resort()
 	t.fitColumns()
 	t.table.Refresh()
+	if t.cut {
+		t.detail.SetText(sortTableCutHint)
+		t.detail.Show()
+	} else {
+		t.detail.Hide()
+	}
 }
 
 // SortBy orders the rows by column col (a col outside the headers restores
@@ -288,21 +345,32 @@ func compareDigits(a, b string) int {
 }
 
 // fitColumns sizes each column without a fixed width to its header and the
-// widest of its first cells.
+// widest of its first cells, as a label and a header button measure them,
+// within sortTableMinWidth..sortTableMaxWidth.
 func (t *sortTable) fitColumns() {
 	th := theme.Current()
 	size := th.Size(theme.SizeNameText)
-	pad := th.Size(theme.SizeNameInnerPadding)
-	icon := th.Size(theme.SizeNameInlineIcon)
+	// A label adds the same padding to any text; measure it once. Its
+	// ellipsis sets in already when the text fills it exactly (Fyne 2.7.1,
+	// seen in the table tests), so give each cell sortTableSlack more.
+	probe := widget.NewLabel("M")
+	lpad := probe.MinSize().Width - fyne.MeasureText("M", size, fyne.TextStyle{}).Width + sortTableSlack
+	t.colW = make([]float32, len(t.headers))
+	t.cut = len(t.rows) > sortTableFitRows
 	for c, h := range t.headers {
-		if w, ok := t.widths[c]; ok {
-			t.table.SetColumnWidth(c, w)
-			continue
-		}
-		w := fyne.MeasureText(h, size, fyne.TextStyle{}).Width + icon + 3*pad
+		// Room for the sort direction's icon whether or not it shows.
+		hb := widget.NewButtonWithIcon(h, theme.MenuDropDownIcon(), nil)
+		hb.IconPlacement = widget.ButtonIconTrailingText
+		need := hb.MinSize().Width
 		for r := 0; r < len(t.rows) && r < sortTableFitRows; r++ {
-			w = max(w, fyne.MeasureText(t.cell(r, c), size, fyne.TextStyle{}).Width+2*pad)
+			need = max(need, fyne.MeasureText(t.cell(r, c), size, fyne.TextStyle{}).Width+lpad)
 		}
-		t.table.SetColumnWidth(c, min(max(w, sortTableMinWidth), sortTableMaxWidth))
+		w, fixed := t.widths[c]
+		if !fixed {
+			w = min(max(need, sortTableMinWidth), sortTableMaxWidth)
+		}
+		t.cut = t.cut || need > w
+		t.colW[c] = w
+		t.table.SetColumnWidth(c, w)
 	}
 }

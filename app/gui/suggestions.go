@@ -10,7 +10,6 @@ import (
 	"strings"
 
 	"fyne.io/fyne/v2"
-	fcanvas "fyne.io/fyne/v2/canvas"
 	"fyne.io/fyne/v2/container"
 	"fyne.io/fyne/v2/dialog"
 	"fyne.io/fyne/v2/storage"
@@ -200,28 +199,43 @@ func (u *ui) showSuggestionStats() {
 	if !u.haveProject() {
 		return
 	}
+	if sw := u.newStatsWindow(); sw != nil {
+		sw.win.Show()
+	}
+}
+
+// statsWindow is the window of what the decisions tell us; table and
+// chart are nil when there are no suggestions.
+type statsWindow struct {
+	win     fyne.Window
+	table   *sortTable
+	chart   *chartView
+	summary *widget.Label
+}
+
+// newStatsWindow makes the statistics window, not yet shown; nil after a
+// failure it has reported.
+func (u *ui) newStatsWindow() *statsWindow {
 	stats, names, err := ops.CollectReviewStats(context.Background(), u.st, "")
 	if err != nil {
 		u.showError(err)
-		return
+		return nil
 	}
 	w := u.app.NewWindow("Boxwright — what the decisions tell us")
 	if len(stats) == 0 {
 		w.SetContent(container.NewCenter(widget.NewLabel("No suggestions yet: Suggestions ▸ Import predictions…")))
 		w.Resize(fyne.NewSize(500, 200))
-		w.Show()
-		return
+		return &statsWindow{win: w}
 	}
 	var opts []string
 	for _, s := range stats {
 		opts = append(opts, s.Source)
 	}
 	table := newSortTable([]string{"class", "in", "accepted", "corrected", "rejected", "pending", "mean IoU of corrections"}, nil)
-	chart := &fcanvas.Image{FillMode: fcanvas.ImageFillContain}
-	chart.SetMinSize(fyne.NewSize(480, 320))
+	chart := newChartView(fyne.NewSize(400, 300))
 	summary := widget.NewLabel("")
 	summary.Wrapping = fyne.TextWrapWord
-	var plotNow *plot.Plot
+	var split *container.Split
 	var binsNow []suggest.Bin
 	show := func(i int) {
 		s := stats[i]
@@ -233,26 +247,18 @@ func (u *ui) showSuggestionStats() {
 			keys = append(keys, []float64{math.NaN(), float64(c.In), float64(c.Accepted), float64(c.Corrected), float64(c.Rejected), float64(c.Pending), c.MeanCorrectedIoU})
 		}
 		table.SetRows(rows, keys)
-		if s.Suggested.OK {
-			summary.SetText(fmt.Sprintf("On the evidence so far, suggestions of %s scoring %.3f or more were kept (accepted or corrected) %s of the time — %d decisions. Pending suggestions are never counted as right or wrong.",
-				s.Source, s.Suggested.Score, ops.Pct(s.Suggested.Rate), s.Suggested.N))
-		} else {
-			summary.SetText(fmt.Sprintf("No score of %s keeps %.0f %% of suggestions yet (%d decisions). Pending suggestions are never counted as right or wrong.", s.Source, 100*ops.KeepRate, s.Suggested.N))
+		if split != nil {
+			split.Refresh() // the table's width may have changed
 		}
+		summary.SetText(s.ThresholdAdvice())
 		binsNow = s.Reliability
-		if p, err := reliabilityPlot(s.Source, s.Reliability); err == nil {
-			plotNow = p
-			chart.Image, _ = ops.PlotImage(p, chartW, chartH)
-		}
-		chart.Refresh()
+		source, bins := s.Source, s.Reliability
+		chart.SetChart(func(st ops.ChartStyle) (*plot.Plot, error) { return reliabilityPlotStyled(st, source, bins) })
 	}
 	pick := widget.NewSelect(opts, func(string) {})
 	pick.OnChanged = func(string) { show(pick.SelectedIndex()) }
 	saveChart := widget.NewButtonWithIcon("Save chart as PNG…", theme.DocumentSaveIcon(), func() {
-		if plotNow == nil {
-			return
-		}
-		askSavePlot(w, plotNow, "reliability.png", "Pick a source first.")
+		askSavePlot(w, chart.Plot(), "reliability.png", "Pick a source first.")
 	})
 	saveBins := widget.NewButtonWithIcon("Save bins as CSV…", theme.DocumentSaveIcon(), func() {
 		bt := newSortTable([]string{"score_from", "score_to", "decided", "kept", "kept_rate"}, nil)
@@ -266,22 +272,31 @@ func (u *ui) showSuggestionStats() {
 	saveTable := widget.NewButtonWithIcon("Save table as CSV…", theme.DocumentSaveIcon(), func() { askSaveCSV(w, table, "decisions.csv") })
 	top := container.NewVBox(container.NewBorder(nil, nil, widget.NewLabel("Source"), nil, pick), summary)
 	right := container.NewBorder(nil, container.NewHBox(saveChart, saveBins), nil, nil, chart)
-	left := container.NewBorder(nil, saveTable, nil, nil, table.Object())
-	split := container.NewHSplit(left, right)
+	// The table keeps the width of all its columns; the chart takes the rest.
+	left := container.New(atLeastWidth{func() float32 { return table.FullWidth() + theme.Size(theme.SizeNameScrollBar) }},
+		container.NewBorder(nil, saveTable, nil, nil, table.Object()))
+	split = container.NewHSplit(left, right)
 	split.Offset = 0.55
 	w.SetContent(container.NewBorder(container.NewPadded(top), nil, nil, nil, split))
-	w.Resize(fyne.NewSize(1100, 640))
 	pick.SetSelectedIndex(0)
-	w.Show()
+	// Wide enough for the whole table beside a readable chart.
+	w.Resize(w.Content().MinSize().Max(fyne.NewSize(1100, 640)))
+	return &statsWindow{win: w, table: table, chart: chart, summary: summary}
 }
 
 // reliabilityPlot draws the share of decided suggestions kept per score
 // bin, with the number of decisions on each bar.
 func reliabilityPlot(source string, bins []suggest.Bin) (*plot.Plot, error) {
-	p := plot.New()
-	p.Title.Text = "Kept (accepted or corrected) by score — " + source
+	return reliabilityPlotStyled(chartStyle(), source, bins)
+}
+
+// reliabilityPlotStyled is reliabilityPlot in a chart style.
+func reliabilityPlotStyled(st ops.ChartStyle, source string, bins []suggest.Bin) (*plot.Plot, error) {
+	p := st.NewPlot()
+	p.Title.Text = "Share kept by score" // the source is chosen above the chart
+	p.Add(st.Grid())                     // under the data
 	p.X.Label.Text = "score"
-	p.Y.Label.Text = "share kept"
+	p.Y.Label.Text = "share kept (accepted or corrected)"
 	p.Y.Min, p.Y.Max = 0, 1
 	p.X.Min, p.X.Max = 0, 1
 	var xys plotter.XYs
@@ -300,20 +315,25 @@ func reliabilityPlot(source string, bins []suggest.Bin) (*plot.Plot, error) {
 	if err != nil {
 		return nil, err
 	}
+	line.Color, points.Color = st.Accent(), st.Accent()
 	p.Add(line, points)
 	lab, err := plotter.NewLabels(plotter.XYLabels{XYs: xys, Labels: labels})
 	if err == nil {
+		for i := range lab.TextStyle {
+			lab.TextStyle[i] = st.TextStyle(0.9, false)
+		}
+		lab.Offset = vg.Point{X: vg.Points(4), Y: vg.Points(4)}
 		p.Add(lab)
 	}
 	// The share the suggested threshold promises, as a dashed guide.
 	target, err := plotter.NewLine(plotter.XYs{{X: 0, Y: ops.KeepRate}, {X: 1, Y: ops.KeepRate}})
 	if err == nil {
 		target.Dashes = []vg.Length{vg.Points(4), vg.Points(3)}
+		target.Color = st.Foreground
 		p.Add(target)
 		p.Legend.Add(fmt.Sprintf("%.0f %% kept", 100*ops.KeepRate), target)
-		p.Legend.Top, p.Legend.Left = false, true
+		p.Legend.Top, p.Legend.Left = true, true // the points rise to the right
 	}
-	p.Add(plotter.NewGrid())
 	return p, nil
 }
 
@@ -327,4 +347,23 @@ func plotterLinePoints(xys plotter.XYs) (*plotter.Line, *plotter.Scatter, error)
 		return nil, nil, err
 	}
 	return l, s, nil
+}
+
+// atLeastWidth lays its objects over each other at least w() wide.
+type atLeastWidth struct{ w func() float32 }
+
+func (l atLeastWidth) Layout(objs []fyne.CanvasObject, size fyne.Size) {
+	for _, o := range objs {
+		o.Move(fyne.Position{})
+		o.Resize(size)
+	}
+}
+
+func (l atLeastWidth) MinSize(objs []fyne.CanvasObject) fyne.Size {
+	var m fyne.Size
+	for _, o := range objs {
+		m = m.Max(o.MinSize())
+	}
+	m.Width = max(m.Width, l.w())
+	return m
 }

@@ -58,6 +58,7 @@ func (u *ui) reloadSuggestions() {
 	}
 	c.Pending = max(0, c.Pending+len(u.suggestions)-before)
 	u.perImg[u.imageID] = c
+	u.updateSummary()
 }
 
 // suggestion is a pending suggestion as the person has edited it so far.
@@ -79,6 +80,7 @@ func (u *ui) suggestionItems() []canvas.Item {
 		return nil
 	}
 	var out []canvas.Item
+	covered := u.coveredHere()
 	for _, g := range u.suggestions {
 		g, _ = u.suggestion(g.ID)
 		c := u.classBy[g.ClassID]
@@ -86,7 +88,11 @@ func (u *ui) suggestionItems() []canvas.Item {
 		if _, edited := u.suggestionEdits[g.ID]; edited {
 			caption += " (edited)"
 		}
-		out = append(out, canvas.Item{Key: suggestionKey(g.ID), Box: g.Box, Color: c.Color, Caption: caption, Short: fmt.Sprintf("%.2f", g.Score), Suggestion: true})
+		cv, isCovered := covered[g.ID]
+		if isCovered {
+			caption += fmt.Sprintf(" · covered by yours (IoU %.2f)", cv.IoU)
+		}
+		out = append(out, canvas.Item{Key: suggestionKey(g.ID), Box: g.Box, Color: c.Color, Caption: caption, Short: fmt.Sprintf("%.2f", g.Score), Suggestion: true, Covered: isCovered})
 	}
 	return out
 }
@@ -122,7 +128,7 @@ func decisionFor(g project.Suggestion, accept bool) project.Decision {
 
 func (u *ui) acceptSuggestion() {
 	if g, ok := u.selectedSuggestion(); ok && u.needAnnotator() {
-		u.review("accept a suggestion", []project.Decision{decisionFor(g, true)})
+		u.decideChecked(g)
 	}
 }
 
@@ -133,29 +139,67 @@ func (u *ui) rejectSuggestion() {
 }
 
 // acceptAllAbove accepts every pending suggestion on the image with a
-// score at or above the threshold.
+// score at or above the threshold; those that repeat one of the person's
+// own boxes are asked about first.
 func (u *ui) acceptAllAbove() {
 	if !u.needAnnotator() {
 		return
 	}
-	var ds []project.Decision
+	covered := u.coveredHere()
+	var fresh, repeats []project.Decision
 	for _, g := range u.suggestions {
 		g, _ = u.suggestion(g.ID)
-		if g.Score >= u.suggestionThreshold {
-			ds = append(ds, decisionFor(g, true))
+		if g.Score < u.suggestionThreshold {
+			continue
+		}
+		if _, ok := covered[g.ID]; ok {
+			repeats = append(repeats, decisionFor(g, true))
+		} else {
+			fresh = append(fresh, decisionFor(g, true))
 		}
 	}
-	if len(ds) == 0 {
+	if len(fresh)+len(repeats) == 0 {
 		u.status.SetText(fmt.Sprintf("No pending suggestion on this image scores %.2f or more.", u.suggestionThreshold))
 		return
 	}
-	u.review(fmt.Sprintf("accept %s scoring ≥ %.2f", ops.Plural(len(ds), "suggestion"), u.suggestionThreshold), ds)
+	what := func(n int) string {
+		return fmt.Sprintf("accept %s scoring ≥ %.2f", ops.Plural(n, "suggestion"), u.suggestionThreshold)
+	}
+	if len(repeats) == 0 {
+		u.review(what(len(fresh)), fresh)
+		return
+	}
+	img := u.imageID
+	rejects := make([]project.Decision, len(repeats))
+	for i, d := range repeats {
+		rejects[i] = project.Decision{SuggestionID: d.SuggestionID}
+	}
+	u.askOverlap("Some suggestions repeat your boxes",
+		fmt.Sprintf("%s of the %d scoring %.2f or more overlap one of your own boxes of their class by IoU %.2f or more. Two boxes on one object both go into the training set.",
+			ops.Plural(len(repeats), "suggestion"), len(fresh)+len(repeats), u.suggestionThreshold, u.dupIoU),
+		overlapChoice{fmt.Sprintf("Accept %d, reject the %d repeats", len(fresh), len(repeats)), func() {
+			if u.imageID == img {
+				u.review(fmt.Sprintf("accept %d, reject %d repeating own boxes", len(fresh), len(repeats)), append(append([]project.Decision(nil), fresh...), rejects...))
+			}
+		}},
+		overlapChoice{fmt.Sprintf("Accept %d, leave the repeats pending", len(fresh)), func() {
+			if u.imageID == img && len(fresh) > 0 {
+				u.review(what(len(fresh)), fresh)
+			}
+		}},
+		overlapChoice{"Accept all, keep both", func() {
+			if u.imageID == img {
+				u.review(what(len(fresh)+len(repeats)), append(append([]project.Decision(nil), fresh...), repeats...))
+			}
+		}},
+	)
 }
 
 // review stores decisions as one undoable step and redraws.
-func (u *ui) review(what string, ds []project.Decision) {
+func (u *ui) review(what string, ds []project.Decision) error {
 	err := u.sess.Decide(context.Background(), u.imageID, what, ds)
 	u.afterReview(len(ds), err)
+	return err
 }
 
 func (u *ui) afterReview(n int, err error) {
@@ -163,8 +207,11 @@ func (u *ui) afterReview(n int, err error) {
 		dialog.ShowError(err, u.win)
 	}
 	u.reloadSuggestions()
-	u.afterEdit(nil)
+	u.recount()
+	u.refreshBoxes()
+	u.updateUndo()
 	if err == nil {
+		u.savedNow()
 		u.status.SetText(fmt.Sprintf("Decided %s; Ctrl+Z undoes it.", ops.Plural(n, "suggestion")))
 	}
 }
@@ -206,6 +253,8 @@ func (u *ui) askBulkReview() {
 	scope := widget.NewRadioGroup([]string{"this image", "the whole project"}, nil)
 	scope.SetSelected("the whole project")
 	preview := widget.NewLabel("")
+	skipCovered := widget.NewCheck("leave pending those my own boxes already cover", nil)
+	skipCovered.SetChecked(true)
 	query := func() (project.SuggestionQuery, error) {
 		v, err := strconv.ParseFloat(strings.TrimSpace(score.Text), 64)
 		if err != nil || v < 0 || v > 1 {
@@ -254,7 +303,7 @@ func (u *ui) askBulkReview() {
 	update()
 	d := dialog.NewForm("Accept or reject many suggestions", "Do it", "Cancel", []*widget.FormItem{
 		widget.NewFormItem("Action", action), widget.NewFormItem("Score", score), widget.NewFormItem("Class", class),
-		widget.NewFormItem("Where", scope), widget.NewFormItem("", preview)}, func(ok bool) {
+		widget.NewFormItem("Where", scope), widget.NewFormItem("Repeats", skipCovered), widget.NewFormItem("", preview)}, func(ok bool) {
 		if !ok {
 			return
 		}
@@ -266,7 +315,8 @@ func (u *ui) askBulkReview() {
 		if q.MaxScore < 0 {
 			return
 		}
-		if err := u.bulkReview(q, action.Selected == "accept those scoring at least"); err != nil {
+		accept := action.Selected == "accept those scoring at least"
+		if err := u.bulkReview(q, accept, accept && skipCovered.Checked); err != nil {
 			u.showError(err)
 		}
 	}, u.win)
@@ -274,17 +324,38 @@ func (u *ui) askBulkReview() {
 	d.Show()
 }
 
-// bulkReview decides every suggestion the query selects, as one step.
-func (u *ui) bulkReview(q project.SuggestionQuery, accept bool) error {
+// bulkReview decides every suggestion the query selects, as one step;
+// skipCovered leaves those an own box already covers pending.
+func (u *ui) bulkReview(q project.SuggestionQuery, accept, skipCovered bool) error {
 	gs, err := u.st.QuerySuggestions(context.Background(), q)
 	if err != nil {
 		return err
 	}
-	ds := make([]project.Decision, len(gs))
 	for i, g := range gs {
 		if e, ok := u.suggestionEdits[g.ID]; ok {
-			g = e
+			gs[i] = e
 		}
+	}
+	skipped := 0
+	if skipCovered {
+		if err := u.sess.Flush(context.Background()); err != nil {
+			return fmt.Errorf("your last edits are not saved yet: %w", err)
+		}
+		own, err := u.st.Labels(context.Background(), project.LabelFilter{AnnotatorID: u.me.ID})
+		if err != nil {
+			return err
+		}
+		cov := ops.CoveredSuggestions(gs, own, u.dupIoU)
+		kept := gs[:0]
+		for _, g := range gs {
+			if _, ok := cov[g.ID]; !ok {
+				kept = append(kept, g)
+			}
+		}
+		skipped, gs = len(gs)-len(kept), kept
+	}
+	ds := make([]project.Decision, len(gs))
+	for i, g := range gs {
 		ds[i] = decisionFor(g, accept)
 	}
 	verb := "reject"
@@ -301,6 +372,9 @@ func (u *ui) bulkReview(q project.SuggestionQuery, accept bool) error {
 		}
 	}
 	u.afterReview(len(ds), nil)
+	if skipped > 0 {
+		u.status.SetText(fmt.Sprintf("Decided %s; left %d pending that your own boxes already cover. Ctrl+Z undoes it.", ops.Plural(len(ds), "suggestion"), skipped))
+	}
 	return nil
 }
 

@@ -12,7 +12,6 @@ import (
 	"time"
 
 	"fyne.io/fyne/v2"
-	fcanvas "fyne.io/fyne/v2/canvas"
 	"fyne.io/fyne/v2/container"
 	"fyne.io/fyne/v2/dialog"
 	"fyne.io/fyne/v2/theme"
@@ -44,18 +43,16 @@ type trainScreen struct {
 	suggest    *widget.Button
 	where      *widget.Select
 	status     *widget.Label
-	lossImg    *fcanvas.Image
-	apImg      *fcanvas.Image
+	lossChart  *chartView
+	apChart    *chartView
 	epochs     *sortTable
 
-	mu       sync.Mutex
-	paused   bool
-	resume   chan struct{}
-	stop     context.CancelFunc
-	running  bool
-	curve    []project.Epoch
-	lossPlot *plot.Plot
-	apPlot   *plot.Plot
+	mu      sync.Mutex
+	paused  bool
+	resume  chan struct{}
+	stop    context.CancelFunc
+	running bool
+	curve   []project.Epoch
 }
 
 // showTraining opens the training window (one per main window).
@@ -110,16 +107,14 @@ func newTrainScreen(u *ui) *trainScreen {
 	s.where.SetSelected(whereUnlabelled)
 	s.status = widget.NewLabel("Learns the chosen annotator's boxes. Labelling goes on in the main window while it trains.")
 	s.status.Wrapping = fyne.TextWrapWord
-	s.lossImg = &fcanvas.Image{FillMode: fcanvas.ImageFillContain}
-	s.lossImg.SetMinSize(fyne.NewSize(380, 260))
-	s.apImg = &fcanvas.Image{FillMode: fcanvas.ImageFillContain}
-	s.apImg.SetMinSize(fyne.NewSize(380, 260))
+	s.lossChart = newChartView(fyne.NewSize(380, 260))
+	s.apChart = newChartView(fyne.NewSize(380, 260))
 	s.epochs = newSortTable([]string{"epoch", "loss", "val AP50", "seconds"}, nil)
 	saveLoss := widget.NewButtonWithIcon("Loss chart as PNG…", theme.DocumentSaveIcon(), func() {
-		askSavePlot(s.win, s.lossPlot, "training-loss.png", "No epoch has finished yet.")
+		askSavePlot(s.win, s.lossChart.Plot(), "training-loss.png", "No epoch has finished yet.")
 	})
 	saveAP := widget.NewButtonWithIcon("AP50 chart as PNG…", theme.DocumentSaveIcon(), func() {
-		askSavePlot(s.win, s.apPlot, "validation-ap50.png", "No epoch has finished yet.")
+		askSavePlot(s.win, s.apChart.Plot(), "validation-ap50.png", "No epoch has finished yet.")
 	})
 	saveCSV := widget.NewButtonWithIcon("Epochs as CSV…", theme.DocumentSaveIcon(), func() { askSaveCSV(s.win, s.epochs, "learning-curve.csv") })
 	form := widget.NewForm(
@@ -136,7 +131,7 @@ func newTrainScreen(u *ui) *trainScreen {
 	top := container.NewVBox(form, s.rotations, s.cont,
 		container.NewHBox(s.start, s.pause, s.cancel),
 		container.NewBorder(nil, nil, container.NewHBox(s.suggest, widget.NewLabel("on")), nil, s.where), s.status, caution)
-	charts := container.NewGridWithColumns(2, s.lossImg, s.apImg)
+	charts := container.NewGridWithColumns(2, s.lossChart, s.apChart)
 	bottom := container.NewHBox(saveLoss, saveAP, saveCSV)
 	s.win.SetContent(container.NewBorder(top, bottom, nil, nil, container.NewVSplit(charts, s.epochs.Object())))
 	s.win.Resize(fyne.NewSize(860, 760))
@@ -311,19 +306,14 @@ func (s *trainScreen) showCurve() {
 		keys = append(keys, []float64{float64(e.Epoch), e.Loss, e.ValAP50, e.Seconds})
 	}
 	s.epochs.SetRows(rows, keys)
-	lp, ap, err := ops.LearningCurvePlots(curve)
-	if err != nil {
-		return
-	}
-	s.lossPlot, s.apPlot = lp, ap
-	if img, err := ops.PlotImage(lp, 480, 320); err == nil {
-		s.lossImg.Image = img
-		s.lossImg.Refresh()
-	}
-	if img, err := ops.PlotImage(ap, 480, 320); err == nil {
-		s.apImg.Image = img
-		s.apImg.Refresh()
-	}
+	s.lossChart.SetChart(func(st ops.ChartStyle) (*plot.Plot, error) {
+		lp, _, err := ops.LearningCurvePlots(st, curve)
+		return lp, err
+	})
+	s.apChart.SetChart(func(st ops.ChartStyle) (*plot.Plot, error) {
+		_, ap, err := ops.LearningCurvePlots(st, curve)
+		return ap, err
+	})
 }
 
 // Where the current model may look.

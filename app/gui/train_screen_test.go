@@ -41,8 +41,8 @@ func TestTrainingWindow(t *testing.T) {
 
 	s.curve = []project.Epoch{{Epoch: 1, Loss: 4, ValAP50: math.NaN(), Seconds: 10}, {Epoch: 2, Loss: 2, ValAP50: 0.4, Seconds: 20}}
 	s.showCurve()
-	if s.lossImg.Image == nil || s.apImg.Image == nil || len(s.epochs.rows) != 2 {
-		t.Errorf("curve not shown: %v %v %d rows", s.lossImg.Image != nil, s.apImg.Image != nil, len(s.epochs.rows))
+	if s.lossChart.Plot() == nil || s.apChart.Plot() == nil || len(s.epochs.rows) != 2 {
+		t.Errorf("curve not shown: %v %v %d rows", s.lossChart.Plot() != nil, s.apChart.Plot() != nil, len(s.epochs.rows))
 	}
 
 	// Pause blocks the gate; resume releases it; cancel ends it.

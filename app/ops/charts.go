@@ -32,24 +32,38 @@ var (
 	rampDark  = color.RGBA{0x08, 0x30, 0x6b, 0xff}
 )
 
-// blueRamp is a palette.Palette of n colours from rampLight to rampDark.
-type blueRamp struct{ n int }
+// On a dark background the ramp runs the other way, from a blue barely
+// off the background to a light blue: more is brighter there.
+var (
+	rampDarkLow  = color.RGBA{0x1f, 0x2a, 0x38, 0xff}
+	rampDarkHigh = color.RGBA{0x9e, 0xca, 0xe1, 0xff}
+)
+
+// blueRamp is a palette.Palette of n colours from lo to hi.
+type blueRamp struct {
+	n      int
+	lo, hi color.RGBA
+}
 
 // Colors implements palette.Palette.
 func (r blueRamp) Colors() []color.Color {
 	n := max(r.n, 2)
 	cs := make([]color.Color, n)
 	for i := range cs {
-		cs[i] = rampColor(float64(i) / float64(n-1))
+		cs[i] = mixRamp(r.lo, r.hi, float64(i)/float64(n-1))
 	}
 	return cs
 }
 
 var _ palette.Palette = blueRamp{}
 
-// rampColor returns the ramp colour at t in [0,1] (0 lightest, 1 darkest);
-// t outside the range is clamped.
-func rampColor(t float64) color.RGBA {
+// rampColor returns the light theme's ramp colour at t in [0,1] (0
+// lightest, 1 darkest); t outside the range is clamped.
+func rampColor(t float64) color.RGBA { return mixRamp(rampLight, rampDark, t) }
+
+// mixRamp returns the colour a fraction t of the way from lo to hi, t
+// clamped to [0,1].
+func mixRamp(lo, hi color.RGBA, t float64) color.RGBA {
 	if math.IsNaN(t) || t < 0 {
 		t = 0
 	}
@@ -57,7 +71,7 @@ func rampColor(t float64) color.RGBA {
 	mix := func(a, b uint8) uint8 {
 		return uint8(math.Round(float64(a) + t*(float64(b)-float64(a))))
 	}
-	return color.RGBA{mix(rampLight.R, rampDark.R), mix(rampLight.G, rampDark.G), mix(rampLight.B, rampDark.B), 0xff}
+	return color.RGBA{mix(lo.R, hi.R), mix(lo.G, hi.G), mix(lo.B, hi.B), 0xff}
 }
 
 // relativeLuminance is the WCAG 2 relative luminance of c, 0 (black) to 1 (white).
@@ -105,7 +119,7 @@ func formatCount(v float64) string {
 // written in each cell, rowNames down the y axis (first row at the top) and
 // colNames along the x axis. counts must have len(rowNames) rows of
 // len(colNames) finite, non-negative values.
-func ConfusionPlot(title, rowLabel, colLabel string, rowNames, colNames []string, counts [][]float64) (*plot.Plot, error) {
+func ConfusionPlot(st ChartStyle, title, rowLabel, colLabel string, rowNames, colNames []string, counts [][]float64) (*plot.Plot, error) {
 	if len(rowNames) == 0 || len(colNames) == 0 {
 		return nil, errors.New("confusion matrix: no rows or no columns")
 	}
@@ -125,13 +139,14 @@ func ConfusionPlot(title, rowLabel, colLabel string, rowNames, colNames []string
 		}
 	}
 
-	p := plot.New()
+	p := st.NewPlot()
 	p.Title.Text = title
 	p.Y.Label.Text = rowLabel
 	p.X.Label.Text = colLabel
 
 	grid := matrixGrid{counts}
-	hm := plotter.NewHeatMap(grid, blueRamp{256})
+	rlo, rhi := st.ramp()
+	hm := plotter.NewHeatMap(grid, blueRamp{256, rlo, rhi})
 	hm.Min = 0
 	// An all-zero matrix would make the palette scale infinite; any positive
 	// Max keeps every cell at the light end.
@@ -154,10 +169,11 @@ func ConfusionPlot(title, rowLabel, colLabel string, rowNames, colNames []string
 	k := 0
 	for _, row := range counts {
 		for _, v := range row {
-			st := &cells.TextStyle[k]
-			st.XAlign = draw.XCenter
-			st.YAlign = draw.YCenter
-			st.Color = cellTextColor(rampColor(v / hm.Max))
+			ts := &cells.TextStyle[k]
+			*ts = st.TextStyle(1, false)
+			ts.XAlign = draw.XCenter
+			ts.YAlign = draw.YCenter
+			ts.Color = cellTextColor(mixRamp(rlo, rhi, v/hm.Max))
 			k++
 		}
 	}
@@ -188,7 +204,7 @@ func ConfusionPlot(title, rowLabel, colLabel string, rowNames, colNames []string
 
 // IoUHistogramPlot draws the IoU histogram of matched pairs: bins[i] counts
 // pairs with IoU in [i/n, (i+1)/n). A dashed vertical line marks threshold.
-func IoUHistogramPlot(title string, bins []int, threshold float64) (*plot.Plot, error) {
+func IoUHistogramPlot(st ChartStyle, title string, bins []int, threshold float64) (*plot.Plot, error) {
 	if len(bins) == 0 {
 		return nil, errors.New("IoU histogram: no bins")
 	}
@@ -206,13 +222,15 @@ func IoUHistogramPlot(title string, bins []int, threshold float64) (*plot.Plot, 
 		top = max(top, c)
 	}
 
-	p := plot.New()
+	p := st.NewPlot()
 	p.Title.Text = title
 	p.X.Label.Text = "IoU"
 	p.Y.Label.Text = "pairs"
+	p.Y.Tick.Marker = IntegerTicks{} // pairs are counted
 
-	h := &plotter.Histogram{Bins: hb, Width: w, FillColor: rampColor(0.6), LineStyle: plotter.DefaultLineStyle}
-	h.LineStyle.Color = rampDark
+	lo, hi := st.ramp()
+	h := &plotter.Histogram{Bins: hb, Width: w, FillColor: mixRamp(lo, hi, 0.6), LineStyle: plotter.DefaultLineStyle}
+	h.LineStyle.Color = hi
 	p.Add(h)
 
 	// Headroom above the tallest bar for the threshold's label.
@@ -221,7 +239,7 @@ func IoUHistogramPlot(title string, bins []int, threshold float64) (*plot.Plot, 
 	if err != nil {
 		return nil, fmt.Errorf("IoU histogram: threshold line: %w", err)
 	}
-	line.Color = color.RGBA{0x20, 0x20, 0x20, 0xff}
+	line.Color = st.Foreground
 	line.Width = vg.Points(1.5)
 	line.Dashes = []vg.Length{vg.Points(5), vg.Points(3)}
 	p.Add(line)
@@ -233,6 +251,7 @@ func IoUHistogramPlot(title string, bins []int, threshold float64) (*plot.Plot, 
 	if err != nil {
 		return nil, fmt.Errorf("IoU histogram: threshold label: %w", err)
 	}
+	lbl.TextStyle[0] = st.TextStyle(1, false)
 	lbl.TextStyle[0].YAlign = draw.YTop
 	if threshold > 0.7 {
 		// Keep the label inside the plot near the right edge.
@@ -284,8 +303,9 @@ func SavePlotPNG(p *plot.Plot, w, h int, path string) error {
 
 // LearningCurvePlots draws a training run's loss and validation AP50 per
 // epoch, as two charts (their scales differ).
-func LearningCurvePlots(epochs []project.Epoch) (loss, ap *plot.Plot, err error) {
-	loss, ap = plot.New(), plot.New()
+func LearningCurvePlots(st ChartStyle, epochs []project.Epoch) (loss, ap *plot.Plot, err error) {
+	loss, ap = st.NewPlot(), st.NewPlot()
+	loss.X.Tick.Marker, ap.X.Tick.Marker = IntegerTicks{}, IntegerTicks{} // epochs are counted
 	loss.Title.Text, ap.Title.Text = "Training loss", "Validation AP50"
 	loss.X.Label.Text, ap.X.Label.Text = "epoch", "epoch"
 	loss.Y.Label.Text, ap.Y.Label.Text = "loss", "AP50"
@@ -304,7 +324,7 @@ func LearningCurvePlots(epochs []project.Epoch) (loss, ap *plot.Plot, err error)
 		p   *plot.Plot
 		xys plotter.XYs
 	}{{loss, ls}, {ap, as}} {
-		c.p.Add(plotter.NewGrid())
+		c.p.Add(st.Grid())
 		if len(c.xys) == 0 {
 			continue
 		}
@@ -312,6 +332,8 @@ func LearningCurvePlots(epochs []project.Epoch) (loss, ap *plot.Plot, err error)
 		if err != nil {
 			return nil, nil, err
 		}
+		line.Color = st.Accent()
+		points.Color = st.Accent()
 		c.p.Add(line, points)
 	}
 	return loss, ap, nil

@@ -62,9 +62,19 @@ func TestChartRampEndsAndOrder(t *testing.T) {
 		}
 		prev = l
 	}
-	cs := blueRamp{5}.Colors()
+	cs := blueRamp{5, rampLight, rampDark}.Colors()
 	if len(cs) != 5 || !near(cs[0], rampLight, 0) || !near(cs[4], rampDark, 0) {
 		t.Errorf("blueRamp{5} = %v", cs)
+	}
+	// The dark theme's ramp brightens monotonically instead: more is
+	// brighter on a dark background.
+	prev = math.Inf(-1)
+	for i := 0; i <= 20; i++ {
+		l := relativeLuminance(mixRamp(rampDarkLow, rampDarkHigh, float64(i)/20))
+		if l <= prev {
+			t.Fatalf("dark ramp: luminance not increasing at step %d: %v after %v", i, l, prev)
+		}
+		prev = l
 	}
 	// Text contrast: dark text on the light end, light text on the dark end.
 	if cellTextColor(rampColor(0)) != color.Black || cellTextColor(rampColor(1)) != color.White {
@@ -76,7 +86,7 @@ func TestChartConfusionCellsShowTheirCounts(t *testing.T) {
 	rows := []string{"cat", "dog"}
 	cols := []string{"cat", "dog", "missed"}
 	counts := [][]float64{{9, 0, 1}, {2, 5, 0}}
-	p, err := ConfusionPlot("Confusion", "ground truth", "prediction", rows, cols, counts)
+	p, err := ConfusionPlot(LightChartStyle(), "Confusion", "ground truth", "prediction", rows, cols, counts)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -113,7 +123,7 @@ func TestChartConfusionCellsShowTheirCounts(t *testing.T) {
 }
 
 func TestChartConfusionAllZeros(t *testing.T) {
-	p, err := ConfusionPlot("", "", "", []string{"a"}, []string{"a"}, [][]float64{{0}})
+	p, err := ConfusionPlot(LightChartStyle(), "", "", "", []string{"a"}, []string{"a"}, [][]float64{{0}})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -129,7 +139,7 @@ func TestChartConfusionAllZeros(t *testing.T) {
 
 func TestChartIoUHistogram(t *testing.T) {
 	bins := []int{0, 1, 3, 8, 20, 12, 4, 2, 0, 0}
-	p, err := IoUHistogramPlot("IoU of matched pairs", bins, 0.55)
+	p, err := IoUHistogramPlot(LightChartStyle(), "IoU of matched pairs", bins, 0.55)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -170,7 +180,7 @@ func TestChartIoUHistogram(t *testing.T) {
 }
 
 func TestChartSavePNG(t *testing.T) {
-	p, err := IoUHistogramPlot("", []int{1, 2, 3}, 0.5)
+	p, err := IoUHistogramPlot(LightChartStyle(), "", []int{1, 2, 3}, 0.5)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -226,7 +236,7 @@ func TestChartBadInput(t *testing.T) {
 		"NaN":             {two, two, [][]float64{{1, math.NaN()}, {3, 4}}},
 		"infinite":        {two, two, [][]float64{{1, math.Inf(1)}, {3, 4}}},
 	} {
-		if _, err := ConfusionPlot("", "", "", c.rows, c.cols, c.counts); err == nil {
+		if _, err := ConfusionPlot(LightChartStyle(), "", "", "", c.rows, c.cols, c.counts); err == nil {
 			t.Errorf("confusion matrix %s: no error", name)
 		}
 	}
@@ -240,11 +250,11 @@ func TestChartBadInput(t *testing.T) {
 		"threshold below":  {[]int{1}, -0.1},
 		"threshold is NaN": {[]int{1}, math.NaN()},
 	} {
-		if _, err := IoUHistogramPlot("", c.bins, c.thr); err == nil {
+		if _, err := IoUHistogramPlot(LightChartStyle(), "", c.bins, c.thr); err == nil {
 			t.Errorf("IoU histogram %s: no error", name)
 		}
 	}
-	p, _ := IoUHistogramPlot("", []int{1}, 0.5)
+	p, _ := IoUHistogramPlot(LightChartStyle(), "", []int{1}, 0.5)
 	if _, err := PlotImage(p, 0, 10); err == nil {
 		t.Error("zero width rendered")
 	}

@@ -195,6 +195,56 @@ const reliabilityBins = 10
 // KeepRate is the share of kept suggestions the threshold promises.
 const KeepRate = 0.95
 
+// MinThresholdDecisions is the fewest decisions a score threshold is
+// offered on. Below 20, even a record of nothing but kept suggestions has a
+// Wilson 95 % interval reaching under 84 % (20/(20+1.96²) = 0.839), too
+// wide to stand behind a promise of KeepRate; 20 is our choice, stated so
+// that people can weigh it.
+const MinThresholdDecisions = 20
+
+// Decided counts the suggestions of the source that were accepted,
+// corrected or rejected, and of them the kept (accepted or corrected).
+func (rs ReviewStats) Decided() (decided, kept int) {
+	for _, c := range rs.Summary {
+		kept += c.Accepted + c.Corrected
+		decided += c.Accepted + c.Corrected + c.Rejected
+	}
+	return decided, kept
+}
+
+// EnoughEvidence reports whether the suggested threshold rests on at
+// least MinThresholdDecisions decisions.
+func (rs ReviewStats) EnoughEvidence() bool {
+	return rs.Suggested.OK && rs.Suggested.N >= MinThresholdDecisions
+}
+
+// ThresholdAdvice says in a sentence or two what the decisions so far say
+// about a score threshold for the source: the threshold only when it rests
+// on enough decisions, always the 95 % Wilson interval of the kept share.
+func (rs ReviewStats) ThresholdAdvice() string {
+	const pending = " Pending suggestions are never counted as right or wrong."
+	decided, kept := rs.Decided()
+	t := rs.Suggested
+	switch {
+	case decided == 0:
+		return fmt.Sprintf("No suggestion of %s has been decided yet; a score threshold is offered from %s on.", rs.Source, Plural(MinThresholdDecisions, "decision")) + pending
+	case !t.OK:
+		return fmt.Sprintf("No score of %s keeps %.0f %% of suggestions yet: %d of %s kept (%s).", rs.Source, 100*KeepRate, kept, Plural(decided, "decision"), keptShare(kept, decided)) + pending
+	case !rs.EnoughEvidence():
+		return fmt.Sprintf("Not enough evidence for a score threshold yet: suggestions of %s scoring %.3f or more were kept in %d of %s (%s); a threshold is offered from %s on.",
+			rs.Source, t.Score, t.Kept, Plural(t.N, "decision"), keptShare(t.Kept, t.N), Plural(MinThresholdDecisions, "decision")) + pending
+	default:
+		return fmt.Sprintf("On the evidence so far, suggestions of %s scoring %.3f or more were kept (accepted or corrected) in %d of %s (%s).",
+			rs.Source, t.Score, t.Kept, Plural(t.N, "decision"), keptShare(t.Kept, t.N)) + pending
+	}
+}
+
+// keptShare is "97.0 %, 95 % Wilson interval 91.6–99.0 %".
+func keptShare(kept, n int) string {
+	ci := project.WilsonInterval(kept, n, project.Z95)
+	return fmt.Sprintf("%s, 95 %% Wilson interval %.1f–%s", Pct(float64(kept)/float64(n)), 100*ci[0], Pct(ci[1]))
+}
+
 // CollectReviewStats reads the review decisions of a source ("" for all)
 // and summarises them per source and class, with the class names.
 func CollectReviewStats(ctx context.Context, st backend.Project, source string) ([]ReviewStats, map[int64]string, error) {
@@ -234,9 +284,11 @@ func CollectReviewStats(ctx context.Context, st backend.Project, source string) 
 		for _, b := range rs.Reliability {
 			rs.Bins = append(rs.Bins, map[string]any{"from": b.Lo, "to": b.Hi, "decided": b.Decided, "kept": b.Kept, "kept_rate": Num(b.Rate)})
 		}
-		rs.Threshold = map[string]any{"score": nil, "kept_rate": nil, "decisions": rs.Suggested.N, "target": KeepRate}
+		rs.Threshold = map[string]any{"score": nil, "kept_rate": nil, "kept_ci95": nil, "decisions": rs.Suggested.N, "target": KeepRate,
+			"min_decisions": MinThresholdDecisions, "enough_evidence": rs.EnoughEvidence()}
 		if rs.Suggested.OK {
 			rs.Threshold["score"], rs.Threshold["kept_rate"] = rs.Suggested.Score, rs.Suggested.Rate
+			rs.Threshold["kept_ci95"] = Interval(project.WilsonInterval(rs.Suggested.Kept, rs.Suggested.N, project.Z95))
 		}
 		out = append(out, rs)
 	}

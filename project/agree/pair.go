@@ -4,6 +4,7 @@ import (
 	"cmp"
 	"fmt"
 	"math"
+	"slices"
 	"sort"
 )
 
@@ -116,13 +117,7 @@ func ComparePair(images []ImageLabels, a, b int, opt Options) PairReport {
 	}
 	r.F1 = f1(r.Matched, r.NA, r.NB)
 	r.IoU = summarise(ious)
-	sort.SliceStable(r.PerImage, func(i, j int) bool {
-		x, y := r.PerImage[i], r.PerImage[j]
-		if x.Errors != y.Errors {
-			return x.Errors > y.Errors
-		}
-		return cmp.Less(x.MeanIoU, y.MeanIoU) // NaN (no matched pair) first
-	})
+	slices.SortStableFunc(r.PerImage, func(x, y ImageAgreement) int { return WorstFirst(x.dispute(), y.dispute()) })
 
 	r.Classes = classOrder(opt.Classes, seen)
 	idx := map[int64]int{}
@@ -307,3 +302,28 @@ func Quantile(sorted []float64, p float64) float64 {
 	}
 	return sorted[i] + (h-lo)*(sorted[i+1]-sorted[i])
 }
+
+// Dispute is how much two or more annotators disagree on one image: the
+// key of every worst-first list of images.
+type Dispute struct {
+	Errors  int     // unmatched boxes and class disagreements
+	F1      float64 // detection F1 on the image (the lowest over pairs)
+	MeanIoU float64 // mean IoU of its matched pairs (the lowest over pairs)
+}
+
+// WorstFirst orders images worst first, for the command line's most
+// disputed images and the report window's image table alike: more
+// disagreements first, then the lower F1, then the lower mean IoU; a NaN
+// (no box, no matched pair) counts as the lowest. Sort stably with it:
+// images that tie keep the order they were given in.
+func WorstFirst(a, b Dispute) int {
+	if c := cmp.Compare(b.Errors, a.Errors); c != 0 {
+		return c
+	}
+	if c := cmp.Compare(a.F1, b.F1); c != 0 { // cmp.Compare puts NaN first
+		return c
+	}
+	return cmp.Compare(a.MeanIoU, b.MeanIoU)
+}
+
+func (ia ImageAgreement) dispute() Dispute { return Dispute{ia.Errors, ia.F1, ia.MeanIoU} }

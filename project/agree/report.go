@@ -1,11 +1,10 @@
 package agree
 
 import (
-	"cmp"
 	"fmt"
 	"math"
 	"runtime"
-	"sort"
+	"slices"
 	"sync"
 
 	"boxwright/project"
@@ -241,7 +240,10 @@ type WorstImage struct {
 	Name    string
 	Errors  int     // unmatched boxes and class disagreements, summed over pairs
 	F1      float64 // the lowest pairwise F1 on the image
+	MeanIoU float64 // the lowest pairwise mean IoU of matched pairs on the image
 }
+
+func (w WorstImage) dispute() Dispute { return Dispute{w.Errors, w.F1, w.MeanIoU} }
 
 // Worst ranks images by disagreement summed over every pair of
 // annotators, worst first, at most limit of them (limit <= 0: all).
@@ -252,13 +254,16 @@ func (r Report) Worst(limit int) []WorstImage {
 		for _, im := range p.PerImage {
 			w, ok := by[im.ImageID]
 			if !ok {
-				w = &WorstImage{ImageID: im.ImageID, Name: im.Name, F1: math.Inf(1)}
+				w = &WorstImage{ImageID: im.ImageID, Name: im.Name, F1: math.Inf(1), MeanIoU: math.Inf(1)}
 				by[im.ImageID] = w
 				order = append(order, im.ImageID)
 			}
 			w.Errors += im.Errors
 			if !math.IsNaN(im.F1) && im.F1 < w.F1 {
 				w.F1 = im.F1
+			}
+			if !math.IsNaN(im.MeanIoU) && im.MeanIoU < w.MeanIoU {
+				w.MeanIoU = im.MeanIoU
 			}
 		}
 	}
@@ -268,14 +273,12 @@ func (r Report) Worst(limit int) []WorstImage {
 		if math.IsInf(w.F1, 1) {
 			w.F1 = math.NaN()
 		}
+		if math.IsInf(w.MeanIoU, 1) {
+			w.MeanIoU = math.NaN()
+		}
 		out = append(out, w)
 	}
-	sort.SliceStable(out, func(i, j int) bool {
-		if out[i].Errors != out[j].Errors {
-			return out[i].Errors > out[j].Errors
-		}
-		return cmp.Less(out[i].F1, out[j].F1) // NaN first
-	})
+	slices.SortStableFunc(out, func(x, y WorstImage) int { return WorstFirst(x.dispute(), y.dispute()) })
 	if limit > 0 && len(out) > limit {
 		out = out[:limit]
 	}
