@@ -364,13 +364,15 @@ func (v *View) bounds() Bounds {
 // suggestionHitBias is how much larger than one of the person's own
 // boxes a suggestion under the pointer may be and still win the press:
 // a suggestion drawn over an own box of about its size is what the
-// person sees and means (a covered one is not: it is drawn faded).
+// person sees and means. A covered one is drawn faded under the own box:
+// it must be that much smaller to win.
 const suggestionHitBias = 1.5
 
 // editableHits are the keys of the boxes a person may pick at the image
 // point (x, y), the one a press takes first: the smallest, where a
-// suggestion (not Covered) counts as suggestionHitBias times smaller;
-// on a tie the person's own box, then the one later in the list.
+// suggestion counts as suggestionHitBias times smaller, a Covered one as
+// that much larger (the own box drawn over it wins); on a tie the
+// person's own box, then the one later in the list.
 func (v *View) editableHits(x, y float64) []int64 {
 	type hit struct {
 		i    int
@@ -383,7 +385,10 @@ func (v *View) editableHits(x, y float64) []int64 {
 			continue
 		}
 		h := hit{i: i, area: it.Box.Area(), own: !it.Suggestion}
-		if it.Suggestion && !it.Covered {
+		switch {
+		case it.Suggestion && it.Covered:
+			h.area *= suggestionHitBias
+		case it.Suggestion:
 			h.area /= suggestionHitBias
 		}
 		hits = append(hits, h)

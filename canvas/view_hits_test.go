@@ -103,6 +103,13 @@ func TestSuggestionOverOwnBoxOfAboutItsSizeWinsThePress(t *testing.T) {
 	if len(*got) != 1 || (*got)[0].key != own.Key {
 		t.Errorf("with a covered suggestion a drag inside moved %+v, want the own box", *got)
 	}
+	inner := covered
+	inner.Box = project.Rect(52, 51, 149, 128) // a little smaller than the own box
+	v.SetItems([]Item{inner, own})
+	moveInside()
+	if len(*got) != 1 || (*got)[0].key != own.Key {
+		t.Errorf("with a covered suggestion a little inside the own box a drag moved %+v, want the own box", *got)
+	}
 	big := sugg
 	big.Box = project.Rect(0, 0, 250, 200) // 6× the own box
 	v.SetItems([]Item{big, own})
