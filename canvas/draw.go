@@ -125,3 +125,15 @@ func suggestionBox(dst *image.RGBA, b project.Box, lw int, c color.NRGBA) {
 	ring(dst, x0-1, y0-1, x1+1, y1+1, lw+2, color.NRGBA{0, 0, 0, 0x70}, 0)
 	ring(dst, x0, y0, x1, y1, lw, c, 2)
 }
+
+// coveredBox draws a suggestion that one of the person's own boxes
+// already covers: a thin, faint dotted outline without fill or halo, so
+// that it does not compete with the own box.
+func coveredBox(dst *image.RGBA, b project.Box, lw int, c color.NRGBA) {
+	x0, y0, x1, y1, ok := screenRect(dst, b, 0)
+	if !ok {
+		return
+	}
+	c.A = 0x70
+	ring(dst, x0, y0, x1, y1, max(1, lw/2), c, 2)
+}

@@ -435,3 +435,25 @@ func TestFitPullsBoxInside(t *testing.T) {
 		}
 	}
 }
+
+func TestKeepCentreLetsAnEdgeReachTheMiddle(t *testing.T) {
+	// 4000×3000 at scale 1 in 800×600: offsets within
+	// [400-4000, 400] × [300-3000, 300], so the image covers the middle.
+	cases := []struct{ in, want [2]float64 }{
+		{[2]float64{400, 300}, [2]float64{400, 300}},         // the top-left corner in the middle
+		{[2]float64{900, 900}, [2]float64{400, 300}},         // past it: held
+		{[2]float64{-3600, -2700}, [2]float64{-3600, -2700}}, // the bottom-right corner in the middle
+		{[2]float64{-9000, -9000}, [2]float64{-3600, -2700}},
+	}
+	for _, c := range cases {
+		k := Transform{Scale: 1, OffsetX: c.in[0], OffsetY: c.in[1]}.KeepCentre(4000, 3000, 800, 600)
+		if k.OffsetX != c.want[0] || k.OffsetY != c.want[1] {
+			t.Errorf("KeepCentre from %v: (%g,%g), want %v", c.in, k.OffsetX, k.OffsetY, c.want)
+		}
+	}
+	// A small image may sit anywhere that covers the middle.
+	k := Transform{Scale: 1, OffsetX: 380, OffsetY: 0}.KeepCentre(100, 50, 800, 600)
+	if k.OffsetX != 380 || k.OffsetY != 250 {
+		t.Errorf("small image kept at (%g,%g), want (380,250)", k.OffsetX, k.OffsetY)
+	}
+}

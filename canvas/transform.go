@@ -85,16 +85,43 @@ func (t Transform) Pan(dx, dy float64) Transform {
 // is smaller than the view it is centred, otherwise it covers the view
 // (no empty margin on one side while image is hidden on the other).
 func (t Transform) Keep(imgW, imgH, viewW, viewH float64) Transform {
-	t.OffsetX = keepAxis(t.OffsetX, imgW*t.Scale, viewW)
-	t.OffsetY = keepAxis(t.OffsetY, imgH*t.Scale, viewH)
+	return t.keep(imgW, imgH, viewW, viewH, false, nil)
+}
+
+// KeepCentre limits panning less than Keep: the image only has to cover
+// the middle of the view, so that any image point, one on an edge too,
+// can be brought to the middle.
+func (t Transform) KeepCentre(imgW, imgH, viewW, viewH float64) Transform {
+	return t.keep(imgW, imgH, viewW, viewH, true, nil)
+}
+
+// keep applies Keep (centre false) or KeepCentre. With from set (a
+// transform of the same scale that t was panned from), an axis on which
+// from was already outside the limits may move towards them but not
+// further away: after a zoom that kept the point under the pointer
+// exactly, the next pan does not make the image jump.
+func (t Transform) keep(imgW, imgH, viewW, viewH float64, centre bool, from *Transform) Transform {
+	lox, hix := keepRange(imgW*t.Scale, viewW, centre)
+	loy, hiy := keepRange(imgH*t.Scale, viewH, centre)
+	if from != nil {
+		lox, hix = math.Min(lox, from.OffsetX), math.Max(hix, from.OffsetX)
+		loy, hiy = math.Min(loy, from.OffsetY), math.Max(hiy, from.OffsetY)
+	}
+	t.OffsetX = clampF(t.OffsetX, lox, hix)
+	t.OffsetY = clampF(t.OffsetY, loy, hiy)
 	return t
 }
 
-func keepAxis(off, size, view float64) float64 {
-	if size <= view {
-		return (view - size) / 2
+// keepRange is the interval of offsets allowed along one axis for an
+// image size pixels long (on screen) in a view view pixels long.
+func keepRange(size, view float64, centre bool) (lo, hi float64) {
+	switch {
+	case centre:
+		return view/2 - size, view / 2
+	case size <= view:
+		return (view - size) / 2, (view - size) / 2
 	}
-	return math.Min(0, math.Max(view-size, off))
+	return view - size, 0
 }
 
 // Visible is the part of an imgW×imgH image that a viewW×viewH view

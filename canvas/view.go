@@ -14,10 +14,19 @@ import (
 
 // Item is one box the view shows.
 type Item struct {
-	Key     int64 // the caller's identity of the box; never 0
-	Box     project.Box
-	Color   color.NRGBA
+	Key   int64 // the caller's identity of the box; never 0
+	Box   project.Box
+	Color color.NRGBA
+	// Caption is the box's tag in full, shown when the box is selected,
+	// under the pointer, or large enough on screen for it.
 	Caption string
+	// Short is the tag of a box too small on screen for its Caption (for
+	// example only the class name, or only a suggestion's score); empty:
+	// the Caption is short already. A box too small even for this gets
+	// no tag until the pointer is over it. Tags are placed where they
+	// cover no other tag and none of the person's own boxes, else left
+	// out.
+	Short string
 	// ReadOnly boxes (another annotator's) are drawn as a second, dashed
 	// layer and cannot be selected or edited.
 	ReadOnly bool
@@ -29,8 +38,16 @@ type Item struct {
 	Marked bool
 	// Suggestion boxes are a model's proposals: selectable and editable
 	// like the person's own, but drawn dotted with a tinted fill so that
-	// nobody takes them for labels.
+	// nobody takes them for labels. A press inside a suggestion picks it
+	// before one of the person's own boxes of about its size beneath it.
+	// A hidden suggestion layer is simply not passed to SetItems: then
+	// nothing of it is drawn or hit.
 	Suggestion bool
+	// Covered marks a suggestion that one of the person's own boxes
+	// already covers: it is drawn faded (a thin, light dotted outline,
+	// no fill, at most its Short tag) and stays selectable, but a press
+	// on the own box beneath it picks the own box.
+	Covered bool
 }
 
 // View shows one image with its boxes and lets a person zoom, pan, draw,
@@ -57,6 +74,12 @@ type View struct {
 	// Limits sets the minimum box side and pixel snapping; W and H are
 	// taken from the image.
 	Limits Bounds
+	// PanPastEdges lets pans and SetTransform take the image past its
+	// edges as far as it still covers the middle of the view (see
+	// Transform.KeepCentre), so that a box at an edge can be shown in the
+	// middle. Off: the image covers the view, or is centred where it is
+	// smaller (Transform.Keep).
+	PanPastEdges bool
 
 	mu   sync.Mutex // guards what the raster generator reads
 	pyr  *Pyramid
@@ -73,6 +96,7 @@ type View struct {
 
 	ptr     fyne.Position
 	ptrIn   bool
+	hover   int64 // key of the box under the pointer (its tag shows in full)
 	gesture gesture
 	shift   bool
 	space   bool
@@ -100,8 +124,12 @@ func (v *View) SetImage(p *Pyramid) {
 	}
 	v.mu.Unlock()
 	v.gesture = gesture{}
-	v.refit()
+	v.hover = 0
+	changed := v.refit()
 	v.Refresh()
+	if changed {
+		v.transformChanged()
+	}
 }
 
 // Image is the pyramid shown now.
@@ -117,6 +145,10 @@ func (v *View) SetItems(items []Item) {
 	v.mu.Lock()
 	v.items = append(v.items[:0:0], items...)
 	v.mu.Unlock()
+	v.hover = 0
+	if v.ptrIn {
+		v.hover = v.keyUnder(v.Transform().ToImage(float64(v.ptr.X), float64(v.ptr.Y)))
+	}
 	if v.sel != 0 {
 		if i := v.index(v.sel); i < 0 || v.items[i].ReadOnly {
 			v.sel = 0
@@ -174,6 +206,15 @@ func (v *View) viewChanged() {
 	}
 }
 
+// transformChanged reports a new zoom or pan: OnView, and OnPointer with
+// the image point now under a pointer that did not move.
+func (v *View) transformChanged() {
+	v.viewChanged()
+	if v.ptrIn {
+		v.pointerAt(v.ptr)
+	}
+}
+
 // SetNames shows or hides the class-name tags of the boxes.
 func (v *View) SetNames(on bool) {
 	v.noNames = !on
@@ -206,15 +247,27 @@ func (v *View) Transform() Transform {
 }
 
 // SetTransform sets the zoom and pan (clamped to the zoom limits and kept
-// on the image); the view stops following the window size.
+// on the image, see PanPastEdges); the view stops following the window
+// size.
 func (v *View) SetTransform(t Transform) {
-	s := v.Size()
 	t.Scale = ClampScale(t.Scale)
+	v.setTransform(v.kept(t, nil, v.Size()))
+}
+
+// setTransform shows t as it is and reports it.
+func (v *View) setTransform(t Transform) {
 	v.mu.Lock()
-	v.t, v.fit = t.Keep(v.w, v.h, float64(s.Width), float64(s.Height)), false
+	v.t, v.fit = t, false
 	v.mu.Unlock()
 	v.Refresh()
-	v.viewChanged()
+	v.transformChanged()
+}
+
+// kept applies the pan limits for a view of size s. With from set (the
+// transform t was panned from), an axis already outside them may only
+// move towards them.
+func (v *View) kept(t Transform, from *Transform, s fyne.Size) Transform {
+	return t.keep(v.w, v.h, float64(s.Width), float64(s.Height), v.PanPastEdges, from)
 }
 
 // FitToWindow shows the whole image, and keeps doing so when the window
@@ -225,12 +278,15 @@ func (v *View) FitToWindow() {
 	v.mu.Unlock()
 	v.refit()
 	v.Refresh()
-	v.viewChanged()
+	v.transformChanged()
 }
 
-// ZoomBy zooms by factor around the screen point (sx, sy).
+// ZoomBy zooms by factor around the screen point (sx, sy): the image
+// point under it stays exactly where it is. A point beside the image
+// zooms around the nearest point of the image, so that the image can
+// never be zoomed out of sight.
 func (v *View) ZoomBy(factor float64, sx, sy float64) {
-	v.SetTransform(v.Transform().ZoomAt(factor, sx, sy))
+	v.scaleAround(v.Transform().Scale*factor, sx, sy)
 }
 
 // ActualPixels shows one image pixel per screen pixel, keeping the image
@@ -240,28 +296,54 @@ func (v *View) ActualPixels(sx, sy float64) {
 	if c := fyne.CurrentApp().Driver().CanvasForObject(v); c != nil && c.Scale() > 0 {
 		scale = 1 / float64(c.Scale()) // one device pixel per image pixel
 	}
-	v.SetTransform(v.Transform().ScaleAt(scale, sx, sy))
+	v.scaleAround(scale, sx, sy)
 }
 
-func (v *View) refit() {
+// scaleAround sets the scale keeping the image point under (sx, sy), or
+// the image point nearest to it, fixed. The pan limits are not applied:
+// they would move that point (the first zoom step out of a fitted view
+// would otherwise re-centre the short side); the next pan moves towards
+// them (see kept).
+func (v *View) scaleAround(scale, sx, sy float64) {
+	t := v.Transform()
+	if t.Scale == 0 || v.w == 0 || v.h == 0 {
+		return
+	}
+	x0, y0 := t.ToScreen(0, 0)
+	x1, y1 := t.ToScreen(v.w, v.h)
+	v.setTransform(t.ScaleAt(scale, clampF(sx, x0, x1), clampF(sy, y0, y1)))
+}
+
+// refit fits the image to the view when the view follows the window
+// size; it says whether the transform changed.
+func (v *View) refit() bool {
 	s := v.Size()
 	v.mu.Lock()
-	if v.fit {
-		v.t = Fit(v.w, v.h, float64(s.Width), float64(s.Height))
+	defer v.mu.Unlock()
+	if !v.fit {
+		return false
 	}
-	v.mu.Unlock()
+	old := v.t
+	v.t = Fit(v.w, v.h, float64(s.Width), float64(s.Height))
+	return v.t != old
 }
 
-// Resize keeps a fitted image fitted.
+// Resize keeps a fitted image fitted, keeps a zoomed one on the image,
+// and reports a changed transform (OnView, OnPointer) so that what shows
+// the zoom is current.
 func (v *View) Resize(s fyne.Size) {
 	v.BaseWidget.Resize(s)
 	v.mu.Lock()
+	old := v.t
 	if !v.fit {
-		v.t = v.t.Keep(v.w, v.h, float64(s.Width), float64(s.Height))
+		v.t = v.kept(v.t, &old, s)
 	}
 	v.mu.Unlock()
 	v.refit()
 	v.Refresh()
+	if v.Transform() != old {
+		v.transformChanged()
+	}
 }
 
 func (v *View) index(key int64) int {
@@ -279,18 +361,51 @@ func (v *View) bounds() Bounds {
 	return b
 }
 
-// editable are the indices of the boxes a person may pick.
+// suggestionHitBias is how much larger than one of the person's own
+// boxes a suggestion under the pointer may be and still win the press:
+// a suggestion drawn over an own box of about its size is what the
+// person sees and means. A covered one is drawn faded under the own box:
+// it must be that much smaller to win.
+const suggestionHitBias = 1.5
+
+// editableHits are the keys of the boxes a person may pick at the image
+// point (x, y), the one a press takes first: the smallest, where a
+// suggestion counts as suggestionHitBias times smaller, a Covered one as
+// that much larger (the own box drawn over it wins); on a tie the
+// person's own box, then the one later in the list.
 func (v *View) editableHits(x, y float64) []int64 {
-	var boxes []project.Box
-	var keys []int64
-	for _, it := range v.items {
-		if !it.ReadOnly {
-			boxes, keys = append(boxes, it.Box), append(keys, it.Key)
-		}
+	type hit struct {
+		i    int
+		area float64
+		own  bool
 	}
-	var out []int64
-	for _, i := range HitTest(boxes, x, y) {
-		out = append(out, keys[i])
+	var hits []hit
+	for i, it := range v.items {
+		if it.ReadOnly || !it.Box.Contains(x, y) {
+			continue
+		}
+		h := hit{i: i, area: it.Box.Area(), own: !it.Suggestion}
+		switch {
+		case it.Suggestion && it.Covered:
+			h.area *= suggestionHitBias
+		case it.Suggestion:
+			h.area /= suggestionHitBias
+		}
+		hits = append(hits, h)
+	}
+	sort.SliceStable(hits, func(a, b int) bool {
+		ha, hb := hits[a], hits[b]
+		switch {
+		case ha.area != hb.area:
+			return ha.area < hb.area
+		case ha.own != hb.own:
+			return ha.own
+		}
+		return ha.i > hb.i
+	})
+	out := make([]int64, len(hits))
+	for k, h := range hits {
+		out[k] = v.items[h.i].Key
 	}
 	return out
 }
@@ -370,7 +485,8 @@ func (v *View) editSelected(f func(Bounds, project.Box) project.Box) {
 
 // PanBy pans by (dx, dy) screen units.
 func (v *View) PanBy(dx, dy float64) {
-	v.SetTransform(v.Transform().Pan(dx, dy))
+	t := v.Transform()
+	v.setTransform(v.kept(t.Pan(dx, dy), &t, v.Size()))
 }
 
 var _ fyne.Draggable = (*View)(nil)

@@ -46,12 +46,23 @@ func (v *View) begin(pos fyne.Position, secondary bool) {
 		return
 	}
 	t := v.Transform()
+	// The nearest handle within reach: any of the selected box's, or a
+	// corner of any editable box (the selected one wins a tie).
+	sx, sy := float64(pos.X), float64(pos.Y)
+	hi, hh, hd := v.cornerUnder(t, sx, sy)
 	if i := v.index(v.sel); i >= 0 {
-		h := PickHandle(t.BoxToScreen(v.items[i].Box), float64(pos.X), float64(pos.Y), handleRadius)
-		if h != HandleNone && h != HandleInside {
-			v.gesture.kind, v.gesture.key, v.gesture.handle, v.gesture.orig = gestureResize, v.sel, h, v.items[i].Box
-			return
+		sb := t.BoxToScreen(v.items[i].Box)
+		if h := PickHandle(sb, sx, sy, handleRadius); h != HandleNone && h != HandleInside {
+			if px, py := HandlePoint(sb, h); hi < 0 || math.Max(math.Abs(sx-px), math.Abs(sy-py)) <= hd {
+				hi, hh = i, h
+			}
 		}
+	}
+	if hi >= 0 {
+		key := v.items[hi].Key
+		v.Select(key)
+		v.gesture.kind, v.gesture.key, v.gesture.handle, v.gesture.orig = gestureResize, key, hh, v.items[hi].Box
+		return
 	}
 	x, y := t.ToImage(float64(pos.X), float64(pos.Y))
 	hits := v.editableHits(x, y)
@@ -68,6 +79,42 @@ func (v *View) begin(pos fyne.Position, secondary bool) {
 	}
 	v.Select(0)
 	v.gesture.kind = gestureDraw
+}
+
+// cornerMinSide is the smallest on-screen side of an unselected box whose
+// corners a press takes hold of: a smaller box is moved by a press
+// anywhere on it (once selected, its handles resize it).
+const cornerMinSide = 3 * handleRadius
+
+// cornerUnder finds the editable box, selected or not, whose corner
+// handle is nearest the screen point (sx, sy) within handleRadius, the
+// point on the box (its handles are not drawn: a drag started just
+// beside a box draws a new one, as it must in a crowded scene): a press
+// there resizes that box rather than moving it. Ties go to the smaller box. It returns the index (-1 when
+// none), the corner and its distance (in the sense of PickHandle).
+func (v *View) cornerUnder(t Transform, sx, sy float64) (int, Handle, float64) {
+	best, bestH, bestD, bestA := -1, HandleNone, math.Inf(1), math.Inf(1)
+	for i, it := range v.items {
+		if it.ReadOnly {
+			continue
+		}
+		b := t.BoxToScreen(it.Box)
+		if b.Width() < cornerMinSide || b.Height() < cornerMinSide ||
+			!b.Contains(sx, sy) {
+			continue
+		}
+		for _, h := range [4]Handle{HandleTopLeft, HandleTopRight, HandleBottomRight, HandleBottomLeft} {
+			hx, hy := HandlePoint(b, h)
+			d := math.Max(math.Abs(sx-hx), math.Abs(sy-hy))
+			if d > handleRadius {
+				continue
+			}
+			if a := b.Area(); d < bestD || (d == bestD && a < bestA) {
+				best, bestH, bestD, bestA = i, h, d, a
+			}
+		}
+	}
+	return best, bestH, bestD
 }
 
 func (v *View) drag(pos fyne.Position, delta fyne.Delta) {
@@ -181,6 +228,7 @@ func (v *View) MouseMoved(ev *desktop.MouseEvent) {
 // MouseOut is part of desktop.Hoverable.
 func (v *View) MouseOut() {
 	v.ptrIn = false
+	v.setHover(0)
 	if v.OnPointer != nil {
 		v.OnPointer(0, 0, false)
 	}
@@ -191,9 +239,12 @@ func (v *View) MouseOut() {
 
 func (v *View) pointerAt(p fyne.Position) {
 	v.ptr, v.ptrIn = p, true
+	x, y := v.Transform().ToImage(float64(p.X), float64(p.Y))
 	if v.OnPointer != nil {
-		x, y := v.Transform().ToImage(float64(p.X), float64(p.Y))
 		v.OnPointer(x, y, x >= 0 && y >= 0 && x < v.w && y < v.h)
+	}
+	if v.pyr != nil {
+		v.setHover(v.keyUnder(x, y))
 	}
 	if v.guides && v.r != nil {
 		v.r.layoutGuides(v.Size())

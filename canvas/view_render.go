@@ -4,11 +4,9 @@ import (
 	"image"
 	"image/color"
 	"math"
-	"sort"
 
 	"fyne.io/fyne/v2"
 	fcanvas "fyne.io/fyne/v2/canvas"
-	"fyne.io/fyne/v2/theme"
 
 	"boxwright/project"
 )
@@ -23,15 +21,18 @@ func (v *View) CreateRenderer() fyne.WidgetRenderer {
 	return r
 }
 
-// maxCaptions bounds the caption objects: beyond it only the largest
-// boxes on screen get one, so 2,000 boxes stay quick.
+// maxCaptions bounds the tag objects: beyond it the boxes placed last
+// (the smaller ones of each layer) get none, so 2,000 boxes stay quick.
 const maxCaptions = 300
 
 var viewBackground = color.RGBA{0x2a, 0x2c, 0x30, 0xff}
 
+// caption is one tag: a rectangle in the box's colour with its text.
 type caption struct {
 	tag  *fcanvas.Rectangle
 	text *fcanvas.Text
+	key  int64 // the item it shows
+	own  bool  // one of the person's own boxes
 }
 
 type viewRenderer struct {
@@ -47,8 +48,8 @@ type viewRenderer struct {
 	guideY  *fcanvas.Line
 	objs    []fyne.CanvasObject
 
-	captionItems []Item
-	drawn        rasterState // what the raster shows, to skip needless redraws
+	tags  tagLayout
+	drawn rasterState // what the raster shows, to skip needless redraws
 }
 
 // rasterState is everything the raster's pixels depend on.
@@ -121,84 +122,64 @@ func (r *viewRenderer) draw(w, h int) image.Image {
 	sel := v.sel
 	_, editing, drafting := v.draft()
 	lw := int(math.Max(1, math.Round(2*k)))
-	for _, it := range items {
-		if it.Key == sel || (drafting && it.Key == editing) {
-			continue // drawn as objects above the raster
-		}
-		sb := dt.BoxToScreen(it.Box)
-		if it.Marked && (showOther || !it.ReadOnly) {
-			markBox(r.buf, sb, lw)
-		}
-		if it.Suggestion {
-			suggestionBox(r.buf, sb, lw, it.Color)
-			continue
-		}
-		if it.ReadOnly {
-			if showOther {
-				dash := it.Dash
-				if dash == 0 {
-					dash = 6
-				}
-				strokeBox(r.buf, sb, lw, it.Color, dash)
+	// Layers from the bottom: the others' boxes, covered suggestions,
+	// suggestions, and the person's own boxes last, on top of them all.
+	for layer := range 4 {
+		for _, it := range items {
+			if itemLayer(it) != layer || it.Key == sel || (drafting && it.Key == editing) {
+				continue // the selection is drawn as objects above the raster
 			}
-			continue
+			sb := dt.BoxToScreen(it.Box)
+			if it.Marked && (showOther || !it.ReadOnly) {
+				markBox(r.buf, sb, lw)
+			}
+			switch {
+			case it.Suggestion && it.Covered:
+				coveredBox(r.buf, sb, lw, it.Color)
+			case it.Suggestion:
+				suggestionBox(r.buf, sb, lw, it.Color)
+			case it.ReadOnly:
+				if showOther {
+					dash := it.Dash
+					if dash == 0 {
+						dash = 6
+					}
+					strokeBox(r.buf, sb, lw, it.Color, dash)
+				}
+			default:
+				strokeBox(r.buf, sb, lw, it.Color, 0)
+			}
 		}
-		strokeBox(r.buf, sb, lw, it.Color, 0)
 	}
 	return r.buf
 }
 
+// itemLayer is the drawing layer of an item, 0 the lowest: the others'
+// boxes, covered suggestions, suggestions, the person's own boxes.
+func itemLayer(it Item) int {
+	switch {
+	case it.ReadOnly:
+		return 0
+	case it.Suggestion && it.Covered:
+		return 1
+	case it.Suggestion:
+		return 2
+	}
+	return 3
+}
+
 func (r *viewRenderer) rebuild() {
-	v := r.v
-	r.msg.Text = v.message
-	shown := v.pyr != nil
-	// Captions: editable boxes first, then the read-only layer; larger
-	// boxes first when there are too many.
-	type capItem struct {
-		it   Item
-		area float64
-	}
-	var want []capItem
-	if shown && !v.noNames {
-		for _, it := range v.items {
-			if it.Caption == "" || (it.ReadOnly && !v.showOther) {
-				continue
-			}
-			want = append(want, capItem{it, it.Box.Area()})
-		}
-		if len(want) > maxCaptions {
-			sort.SliceStable(want, func(a, b int) bool {
-				if want[a].it.Key == v.sel {
-					return true
-				}
-				return want[a].area > want[b].area
-			})
-			want = want[:maxCaptions]
-		}
-	}
-	for len(r.caps) < len(want) {
-		r.caps = append(r.caps, caption{tag: fcanvas.NewRectangle(color.Black), text: fcanvas.NewText("", color.Black)})
-	}
-	r.caps = r.caps[:len(want)]
-	r.captionItems = r.captionItems[:0]
-	for _, c := range want {
-		r.captionItems = append(r.captionItems, c.it)
-	}
-	for i, c := range want {
-		cp := r.caps[i]
-		cp.text.Text = c.it.Caption
-		cp.text.TextSize = theme.CaptionTextSize()
-		cp.text.TextStyle = fyne.TextStyle{Italic: c.it.ReadOnly || c.it.Suggestion, Bold: c.it.Suggestion}
-		col := c.it.Color
-		if c.it.ReadOnly {
-			col.A = 0xc0
-		}
-		cp.tag.FillColor = col
-		cp.text.Color = readableOn(c.it.Color)
-	}
+	r.msg.Text = r.v.message
 	r.objs = append(r.objs[:0], r.raster)
 	for _, c := range r.caps {
-		r.objs = append(r.objs, c.tag, c.text)
+		if !c.own {
+			r.objs = append(r.objs, c.tag, c.text)
+		}
+	}
+	for _, c := range r.caps { // the person's own tags above the others'
+		if c.own {
+			r.objs = append(r.objs, c.tag, c.text)
+		}
 	}
 	r.objs = append(r.objs, r.selHalo, r.selBox)
 	for _, h := range r.handles {
@@ -209,43 +190,27 @@ func (r *viewRenderer) rebuild() {
 
 // readableOn picks black or white text for a tag of colour c (relative
 // luminance per ITU-R BT.709 weights; common practice).
-func readableOn(c color.NRGBA) color.Color {
+func readableOn(c color.NRGBA) color.NRGBA {
 	if 0.2126*float64(c.R)+0.7152*float64(c.G)+0.0722*float64(c.B) > 140 {
-		return color.Black
+		return color.NRGBA{A: 0xff}
 	}
-	return color.White
+	return color.NRGBA{0xff, 0xff, 0xff, 0xff}
 }
 
-func (r *viewRenderer) Layout(size fyne.Size) {
+// Layout is part of fyne.WidgetRenderer.
+func (r *viewRenderer) Layout(size fyne.Size) { r.layout(size, true) }
+
+// layout places everything over the raster; with refresh set it
+// refreshes the tags it changed (Refresh refreshes all objects itself).
+func (r *viewRenderer) layout(size fyne.Size, refresh bool) {
 	v := r.v
 	r.raster.Move(fyne.NewPos(0, 0))
 	r.raster.Resize(size)
 	r.msg.Move(fyne.NewPos(0, size.Height/2-r.msg.MinSize().Height/2))
 	r.msg.Resize(fyne.NewSize(size.Width, r.msg.MinSize().Height))
 	t := v.Transform()
-	for i, c := range r.caps {
-		if i >= len(r.captionItems) {
-			break // a rebuild is under way; it lays out again
-		}
-		it := r.captionItems[i]
-		b := it.Box
-		if db, key, ok := v.draft(); ok && key == it.Key {
-			b = db
-		}
-		s := t.BoxToScreen(b)
-		ts := c.text.MinSize()
-		pad := float32(3)
-		tagY := float32(s.Y0) - ts.Height
-		if it.ReadOnly && it.Dash >= 0 {
-			tagY = float32(s.Y1) // below the box, clear of the tag of a solid-lined box
-		} else if tagY < 0 {
-			tagY = float32(s.Y0) // no room above: put the tag inside the box
-		}
-		c.tag.Move(fyne.NewPos(float32(s.X0), tagY))
-		c.tag.Resize(fyne.NewSize(ts.Width+2*pad, ts.Height))
-		c.text.Move(fyne.NewPos(float32(s.X0)+pad, tagY))
-		c.text.Resize(ts)
-	}
+	r.layoutTags(size, t, refresh)
+	r.rebuild()
 	// The selection (or the box being drawn): a halo and the class colour,
 	// with handles on a selected box.
 	var sb project.Box
@@ -275,9 +240,6 @@ func (r *viewRenderer) Layout(size fyne.Size) {
 		h.Resize(fyne.NewSize(8, 8))
 		h.Hidden = !showHandles
 	}
-	for _, c := range r.caps {
-		c.tag.Hidden, c.text.Hidden = v.pyr == nil, v.pyr == nil
-	}
 	r.layoutGuides(size)
 }
 
@@ -301,8 +263,7 @@ func (r *viewRenderer) layoutGuides(size fyne.Size) {
 func (r *viewRenderer) MinSize() fyne.Size { return r.v.MinSize() }
 
 func (r *viewRenderer) Refresh() {
-	r.rebuild()
-	r.Layout(r.v.Size())
+	r.layout(r.v.Size(), false)
 	st := r.state()
 	for _, o := range r.objs {
 		if o == r.raster && st == r.drawn {

@@ -61,7 +61,7 @@ func (c *comparison) items(u *ui) []canvas.Item {
 			if marked {
 				caption += " · unmatched"
 			}
-			out = append(out, canvas.Item{Key: key, Box: b, Color: cl.Color, Caption: caption, ReadOnly: true, Dash: dashOf(a), Marked: marked})
+			out = append(out, canvas.Item{Key: key, Box: b, Color: cl.Color, Caption: caption, Short: c.names[a], ReadOnly: true, Dash: dashOf(a), Marked: marked})
 		}
 	}
 	return out

@@ -107,7 +107,7 @@ func (u *ui) refreshBoxes() {
 			continue
 		}
 		c := u.classBy[l.ClassID]
-		items = append(items, canvas.Item{Key: -l.ID, Box: l.Box, Color: c.Color, Caption: c.Name + " · " + names[l.AnnotatorID], ReadOnly: true})
+		items = append(items, canvas.Item{Key: -l.ID, Box: l.Box, Color: c.Color, Caption: c.Name + " · " + names[l.AnnotatorID], Short: names[l.AnnotatorID], ReadOnly: true})
 	}
 	if u.sess != nil {
 		boxes, err := u.sess.Boxes(context.Background(), u.imageID)

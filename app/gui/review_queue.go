@@ -104,6 +104,7 @@ func newReviewQueue(u *ui) *reviewQueue {
 	q := &reviewQueue{u: u, win: u.app.NewWindow("Boxwright — review suggestions"), decided: map[int64]bool{},
 		counts: map[string]int{}, images: map[int64]project.Image{}}
 	q.view = canvas.NewView()
+	q.view.PanPastEdges = true // an item at the image edge is shown in the middle too
 	q.view.OnChange = q.boxChanged
 	q.view.OnRune = q.typedRune
 	q.view.OnKey = func(e *fyne.KeyEvent) {

@@ -12,6 +12,7 @@ import (
 	"time"
 
 	"fyne.io/fyne/v2"
+	fcanvas "fyne.io/fyne/v2/canvas"
 	"fyne.io/fyne/v2/test"
 
 	"boxwright/app/internal/testkit"
@@ -379,5 +380,51 @@ func BenchmarkReviewQueueNext(b *testing.B) {
 				waitShown(b, shown, next.ID)
 			}
 		})
+	}
+}
+
+// An item near the image edge is shown in the middle of the view (the
+// view pans past the edge; it used to be pushed towards the window's
+// edge), with its tag wholly inside the view.
+func TestReviewQueueCentresItemAtImageEdge(t *testing.T) {
+	u := openDemoForReview(t, testkit.SmallDemo(t))
+	q, shown := newShownQueue(u)
+	if err := q.load(); err != nil {
+		t.Fatal(err)
+	}
+	at, best := -1, math.Inf(1)
+	for i, g := range q.items {
+		im := q.images[g.ImageID]
+		if d := float64(im.Width) - (g.Box.X0+g.Box.X1)/2; d < best { // the right edge: the tag reaches past it
+			at, best = i, d
+		}
+	}
+	if at < 0 || best > 40 {
+		t.Fatalf("the demo has no suggestion within 40 px of an image's right edge (nearest %.0f px)", best)
+	}
+	g := q.items[at]
+	q.pos = at
+	q.show()
+	waitShown(t, shown, g.ID)
+
+	sz := q.view.Size()
+	sx, sy := q.view.Transform().ToScreen((g.Box.X0+g.Box.X1)/2, (g.Box.Y0+g.Box.Y1)/2)
+	if math.Abs(sx-float64(sz.Width)/2) > 1 || math.Abs(sy-float64(sz.Height)/2) > 1 {
+		t.Errorf("item %v centred at (%.1f,%.1f) on screen, want the view's middle (%.1f,%.1f)", g.Box, sx, sy, sz.Width/2, sz.Height/2)
+	}
+	found := false
+	for _, o := range test.WidgetRenderer(q.view).Objects() {
+		txt, ok := o.(*fcanvas.Text)
+		if !ok || !o.Visible() || !strings.HasPrefix(txt.Text, "suggested ") {
+			continue
+		}
+		found = true
+		p, s := o.Position(), o.Size()
+		if p.X < 0 || p.Y < 0 || p.X+s.Width > sz.Width || p.Y+s.Height > sz.Height {
+			t.Errorf("the tag %q lies at %v size %v, not wholly inside the %v view", txt.Text, p, s, sz)
+		}
+	}
+	if !found {
+		t.Errorf("the item's tag is not shown")
 	}
 }

@@ -16,15 +16,16 @@ import (
 
 // contextRegion is the part of the image shown around a box: the box
 // with about its own size on each side, at least reviewContextMin image
-// pixels a side, moved and cut to lie on the image.
+// pixels a side, no larger than the image, centred on the box (past the
+// image edge for a box near it: the view may pan that far, so the box is
+// in the middle and its tag has room).
 func contextRegion(b project.Box, p *canvas.Pyramid) project.Box {
 	w, h := p.Size()
 	side := func(lo, hi, max float64) (float64, float64) {
 		n := math.Max(3*(hi-lo), reviewContextMin)
 		n = math.Min(n, max)
 		c := (lo + hi) / 2
-		a := math.Min(math.Max(c-n/2, 0), max-n)
-		return a, a + n
+		return c - n/2, c + n/2
 	}
 	x0, x1 := side(b.X0, b.X1, float64(w))
 	y0, y1 := side(b.Y0, b.Y1, float64(h))
@@ -70,7 +71,7 @@ func (q *reviewQueue) refreshItems() {
 	items := make([]canvas.Item, 0, len(q.others)+1)
 	for _, l := range q.others {
 		c := q.u.classBy[l.ClassID]
-		items = append(items, canvas.Item{Key: -l.ID, Box: l.Box, Color: c.Color, Caption: c.Name + " · " + names[l.AnnotatorID], ReadOnly: true})
+		items = append(items, canvas.Item{Key: -l.ID, Box: l.Box, Color: c.Color, Caption: c.Name + " · " + names[l.AnnotatorID], Short: names[l.AnnotatorID], ReadOnly: true})
 	}
 	c := q.u.classBy[q.classID]
 	caption := fmt.Sprintf("suggested %s %.2f · %s", c.Name, g.Score, g.Source)
@@ -80,7 +81,7 @@ func (q *reviewQueue) refreshItems() {
 	if q.box != g.Box {
 		caption += " · box edited"
 	}
-	items = append(items, canvas.Item{Key: g.ID, Box: q.box, Color: c.Color, Caption: caption, Dash: 3, Suggestion: true})
+	items = append(items, canvas.Item{Key: g.ID, Box: q.box, Color: c.Color, Caption: caption, Short: fmt.Sprintf("%.2f", g.Score), Dash: 3, Suggestion: true})
 	q.view.SetItems(items)
 }
 

@@ -88,10 +88,11 @@ func (u *ui) suggestionItems() []canvas.Item {
 		if _, edited := u.suggestionEdits[g.ID]; edited {
 			caption += " (edited)"
 		}
-		if cv, ok := covered[g.ID]; ok {
+		cv, isCovered := covered[g.ID]
+		if isCovered {
 			caption += fmt.Sprintf(" · covered by yours (IoU %.2f)", cv.IoU)
 		}
-		out = append(out, canvas.Item{Key: suggestionKey(g.ID), Box: g.Box, Color: c.Color, Caption: caption, Suggestion: true})
+		out = append(out, canvas.Item{Key: suggestionKey(g.ID), Box: g.Box, Color: c.Color, Caption: caption, Short: fmt.Sprintf("%.2f", g.Score), Suggestion: true, Covered: isCovered})
 	}
 	return out
 }
