@@ -4,6 +4,7 @@ import (
 	"image"
 	"image/color"
 	"math"
+	"sync"
 
 	"fyne.io/fyne/v2"
 	fcanvas "fyne.io/fyne/v2/canvas"
@@ -50,6 +51,10 @@ type viewRenderer struct {
 
 	tags  tagLayout
 	drawn rasterState // what the raster shows, to skip needless redraws
+	// layoutMu keeps two layouts apart: the toolkit lays out from its own
+	// goroutine while a caller's SetItems refreshes (in tests, another
+	// goroutine), and both rewrite the tag state.
+	layoutMu sync.Mutex
 }
 
 // rasterState is everything the raster's pixels depend on.
@@ -203,6 +208,8 @@ func (r *viewRenderer) Layout(size fyne.Size) { r.layout(size, true) }
 // layout places everything over the raster; with refresh set it
 // refreshes the tags it changed (Refresh refreshes all objects itself).
 func (r *viewRenderer) layout(size fyne.Size, refresh bool) {
+	r.layoutMu.Lock()
+	defer r.layoutMu.Unlock()
 	v := r.v
 	r.raster.Move(fyne.NewPos(0, 0))
 	r.raster.Resize(size)

@@ -203,7 +203,9 @@ func (r *viewRenderer) setCaption(i int, it Item, text string, ts float32, style
 // retag places the tags again after the box under the pointer changed.
 func (r *viewRenderer) retag() {
 	v := r.v
+	r.layoutMu.Lock()
 	r.layoutTags(v.Size(), v.Transform(), true)
+	r.layoutMu.Unlock()
 	r.rebuild()
 }
 

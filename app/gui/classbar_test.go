@@ -109,8 +109,8 @@ func TestClassBarSetDataRendersRowsAndPicks(t *testing.T) {
 		t.Fatalf("%d rows, want 2", len(f.bar.rows))
 	}
 	want := []struct{ key, name, counts string }{
-		{"1", "car", "1 Ines's, 2 everyone's here · 7 total"},
-		{"2", person.Name, "0 here · 3 total"},
+		{"1", "car", "1 Ines's · 2 all here\n7 in the project"},
+		{"2", person.Name, "0 here\n3 in the project"},
 	}
 	for i, w := range want {
 		r := f.bar.rows[i]

@@ -42,15 +42,16 @@ type classRow struct {
 // countsText says how many boxes of the class are on the image — the
 // person's own (who) and everyone's — and in the whole project.
 func countsText(mine, all, total int, who string) string {
+	inProject := fmt.Sprintf("\n%d in the project", total)
 	switch {
 	case all == 0:
-		return fmt.Sprintf("0 here · %d total", total)
+		return "0 here" + inProject
 	case who == "":
-		return fmt.Sprintf("%d here (everyone) · %d total", all, total)
+		return fmt.Sprintf("%d here (everyone's)", all) + inProject
 	case mine == all:
-		return fmt.Sprintf("%d here, all %s's · %d total", mine, who, total)
+		return fmt.Sprintf("%d here, all %s's", mine, who) + inProject
 	default:
-		return fmt.Sprintf("%d %s's, %d everyone's here · %d total", mine, who, all, total)
+		return fmt.Sprintf("%d %s's · %d all here", mine, who, all) + inProject
 	}
 }
 
