@@ -213,3 +213,46 @@ func TestCropGridFlagsCoveredSuggestions(t *testing.T) {
 		}
 	}
 }
+
+// The review queue says when one of the reviewer's own boxes already
+// covers the item on screen.
+func TestReviewQueueFlagsCoveredItem(t *testing.T) {
+	u := openDemoForReview(t, testkit.SmallDemo(t))
+	q, shown := newShownQueue(u)
+	if err := q.load(); err != nil {
+		t.Fatal(err)
+	}
+	own, err := u.st.Labels(context.Background(), project.LabelFilter{AnnotatorID: u.me.ID})
+	if err != nil {
+		t.Fatal(err)
+	}
+	cov := ops.CoveredSuggestions(q.items, own, u.dupIoU)
+	pos := -1
+	for i, g := range q.items {
+		if _, ok := cov[g.ID]; ok {
+			pos = i
+			break
+		}
+	}
+	if pos < 0 {
+		t.Skip("no covered item in the queue")
+	}
+	q.pos = pos
+	q.show()
+	waitShown(t, shown, q.items[pos].ID)
+	if !strings.Contains(q.status.Text, "already covers it") {
+		t.Errorf("status %q", q.status.Text)
+	}
+	// An item nobody's box covers says nothing of the kind.
+	for i, g := range q.items {
+		if _, ok := cov[g.ID]; !ok {
+			q.pos = i
+			q.show()
+			waitShown(t, shown, g.ID)
+			if strings.Contains(q.status.Text, "covers") {
+				t.Errorf("uncovered item: status %q", q.status.Text)
+			}
+			break
+		}
+	}
+}

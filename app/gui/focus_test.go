@@ -67,7 +67,7 @@ func TestSecondaryWindowCloses(t *testing.T) {
 	u, _ := openDemoAs(t, "Ines")
 	for name, w := range map[string]fyne.Window{
 		"crop grid": newCropGrid(u, nil).win, "agreement": newAgreeScreen(u).win,
-		"evaluation": newEvalScreen(u).win, "training": newTrainScreen(u).win, "statistics": u.newStatsWindow().win,
+		"evaluation": newEvalScreen(u).win, "review queue": newReviewQueue(u).win, "training": newTrainScreen(u).win, "statistics": u.newStatsWindow().win,
 	} {
 		w.Show()
 		closed := false

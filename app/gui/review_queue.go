@@ -175,12 +175,12 @@ func newReviewQueue(u *ui) *reviewQueue {
 		widget.NewLabel("Accept as"), q.itemClass, layout.NewSpacer(),
 		widget.NewButtonWithIcon("Keys", theme.HelpIcon(), q.showKeys))
 	bottom := container.NewVBox(actions, container.NewBorder(nil, nil, nil, q.tally, q.status))
-	q.win.SetContent(container.NewBorder(filters, bottom, nil, nil, container.New(&reviewLayout{q: q}, q.view)))
-	q.win.Resize(fyne.NewSize(1100, 800))
-
 	c := q.win.Canvas()
 	c.SetOnTypedKey(q.view.TypedKey)
 	c.SetOnTypedRune(q.view.TypedRune)
+	// withClose after the key handler, which it passes the other keys to.
+	q.win.SetContent(withClose(q.win, container.NewBorder(filters, bottom, nil, nil, container.New(&reviewLayout{q: q}, q.view))))
+	q.win.Resize(fyne.NewSize(1100, 800))
 	c.AddShortcut(&desktop.CustomShortcut{KeyName: fyne.KeyZ, Modifier: fyne.KeyModifierShortcutDefault}, func(fyne.Shortcut) { q.undo() })
 	q.win.SetOnClosed(func() {
 		if q.cancel != nil {

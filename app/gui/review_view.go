@@ -10,6 +10,7 @@ import (
 	"fyne.io/fyne/v2"
 	"fyne.io/fyne/v2/dialog"
 
+	"boxwright/app/ops"
 	"boxwright/canvas"
 	"boxwright/project"
 )
@@ -81,6 +82,9 @@ func (q *reviewQueue) refreshItems() {
 	if q.box != g.Box {
 		caption += " · box edited"
 	}
+	if cv, ok := q.cover(); ok {
+		caption += fmt.Sprintf(" · covered by yours (IoU %.2f)", cv.IoU)
+	}
 	items = append(items, canvas.Item{Key: g.ID, Box: q.box, Color: c.Color, Caption: caption, Short: fmt.Sprintf("%.2f", g.Score), Dash: 3, Suggestion: true})
 	q.view.SetItems(items)
 }
@@ -132,7 +136,27 @@ func (q *reviewQueue) updateStatus() {
 	if im, ok := q.images[g.ImageID]; ok {
 		name = filepath.Base(im.Path)
 	}
-	q.status.SetText(fmt.Sprintf("item %d of %d · score %.2f · image %s", q.pos+1, len(q.items), g.Score, name))
+	text := fmt.Sprintf("item %d of %d · score %.2f · image %s", q.pos+1, len(q.items), g.Score, name)
+	if cv, ok := q.cover(); ok {
+		text += fmt.Sprintf(" · one of your own boxes already covers it (IoU %.2f): Z rejects it", cv.IoU)
+	}
+	q.status.SetText(text)
+}
+
+// cover is the reviewer's own box of the item's class that the item, as
+// edited, repeats (duplicates.go), if any.
+func (q *reviewQueue) cover() (ops.Cover, bool) {
+	g, ok := q.current()
+	if !ok || q.u.me.ID == 0 || q.othersFor != g.ImageID {
+		return ops.Cover{}, false
+	}
+	own := map[int64]project.Label{}
+	for _, l := range q.others {
+		if l.AnnotatorID == q.u.me.ID {
+			own[l.ID] = l
+		}
+	}
+	return ops.BestCover(q.box, q.classID, own, q.u.dupIoU, 0)
 }
 
 func (q *reviewQueue) endMessage() string {
