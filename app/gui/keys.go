@@ -130,7 +130,9 @@ func (u *ui) showKeys() {
 
 const keysHelp = `DRAWING AND EDITING (click the image first)
   drag on empty image       draw a box of the current class
-  click a box               select it (the smallest box under the pointer)
+  click a box               select it (the smallest box under the pointer;
+                            a suggestion lying over your box of about its size)
+  point at a box            show its whole tag (small boxes show a short tag or none)
   drag inside a box         move it          drag a white handle   resize it
   arrows                    nudge 1 px       Shift+arrows          nudge 10 px
   Ctrl+arrows               resize by the bottom-right corner (Shift: 10 px)
