@@ -21,13 +21,36 @@ type Options struct {
 
 // Defaults of Options.
 const (
-	DefaultThreshold  = 0.6
+	// DefaultThreshold is the threshold of a search whose Options leave it
+	// 0: DefaultThresholdFor(FeatureGray).
+	DefaultThreshold  = DefaultGrayThreshold
 	DefaultNMS        = 0.3
 	DefaultMaxResults = 200
 	// MaxResultsLimit bounds MaxResults: suppressing overlaps costs a
 	// comparison of every peak with every match kept.
 	MaxResultsLimit = 10000
 )
+
+// Defaults a person starts from (MEASURED below).
+const (
+	DefaultFeature           = FeatureGray
+	DefaultGrayThreshold     = 0.6
+	DefaultGradientThreshold = 0.6
+	DefaultColorThreshold    = 0.6
+)
+
+// DefaultThresholdFor is the threshold a person starts from with feature f.
+// The scores of different features are not on one scale, so each has its
+// own.
+func DefaultThresholdFor(f Feature) float64 {
+	switch f {
+	case FeatureGradient:
+		return DefaultGradientThreshold
+	case FeatureColor:
+		return DefaultColorThreshold
+	}
+	return DefaultGrayThreshold
+}
 
 // DefaultScales are 0.8 to 1.25 in five geometric steps (…, 1, …): a copy a
 // fifth smaller or a quarter larger than the exemplar is still found.
