@@ -248,7 +248,9 @@ func (r *similarRun) build() {
 	r.discard = widget.NewButton("Discard", r.discardPreview)
 	r.feature.SetSelected(similarFeatureName(exemplar.DefaultFeature))
 
-	label := func(s string) fyne.CanvasObject { return widget.NewLabelWithStyle(s, fyne.TextAlignTrailing, fyne.TextStyle{Bold: true}) }
+	label := func(s string) fyne.CanvasObject {
+		return widget.NewLabelWithStyle(s, fyne.TextAlignTrailing, fyne.TextStyle{Bold: true})
+	}
 	form := container.New(layout.NewFormLayout(),
 		label("Examples"), r.which,
 		label("Search"), r.where,
