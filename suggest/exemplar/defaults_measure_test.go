@@ -34,7 +34,8 @@ import (
 // Visual Object Classes (VOC) Challenge", IJCV 88(2), 2010, section 4.2;
 // project/eval's VOC protocol implements it). Counts are pooled over the
 // exemplars of a class. It prints the table and asserts nothing; it runs
-// only when BOXWRIGHT_MEASURE_EXEMPLAR is set (minutes on two cores):
+// only when BOXWRIGHT_MEASURE_EXEMPLAR is set (minutes on two cores);
+// BOXWRIGHT_MEASURE_FRAMES=N searches only the first N frames:
 //
 //	BOXWRIGHT_MEASURE_EXEMPLAR=1 go test -run TestMeasureDefaults -v -timeout 60m ./suggest/exemplar/
 func TestMeasureDefaults(t *testing.T) {
@@ -51,6 +52,13 @@ func TestMeasureDefaults(t *testing.T) {
 	}
 	ctx := context.Background()
 	sc := demo.Generate(demo.Config{Seed: 1})
+	if v := os.Getenv("BOXWRIGHT_MEASURE_FRAMES"); v != "" {
+		n, err := strconv.Atoi(v)
+		if err != nil || n < 1 || n > len(sc.Frames) {
+			t.Fatalf("BOXWRIGHT_MEASURE_FRAMES=%q: want a whole number from 1 to %d", v, len(sc.Frames))
+		}
+		sc.Frames = sc.Frames[:n]
+	}
 	paths, err := sc.WriteImages(ctx, t.TempDir(), nil)
 	if err != nil {
 		t.Fatal(err)
@@ -74,7 +82,7 @@ func TestMeasureDefaults(t *testing.T) {
 	for i, name := range demo.Classes {
 		classes[i] = project.Class{ID: int64(i + 1), Name: name}
 	}
-	ines := sc.Annotators[demo.Careful].Labels
+	ines := sc.Annotators[demo.Careful].Labels[:len(frames)]
 	load := func(_ context.Context, im project.Image) (image.Image, error) { return frames[im.ID-1], nil }
 	features := []Feature{FeatureGray, FeatureGradient, FeatureColor}
 	var thresholds []float64
