@@ -176,7 +176,7 @@ func (u *ui) showSimilarPanel(r *similarRun) {
 			u.similar, u.similarWin = nil, nil
 		}
 	})
-	w.Resize(fyne.NewSize(600, 720))
+	w.Resize(fyne.NewSize(640, 760))
 	u.similar, u.similarWin = r, w
 	w.Show()
 	u.win.RequestFocus()
@@ -202,7 +202,7 @@ func (r *similarRun) build() {
 	r.scales.SetText("0.8:1.25:5")
 	r.thr = widget.NewSlider(similarFloor, 0.95)
 	r.thr.Step = 0.01
-	r.thrName = widget.NewLabel("")
+	r.thrName = widget.NewLabelWithStyle("", fyne.TextAlignTrailing, fyne.TextStyle{Bold: true})
 	r.thrValue = widget.NewLabel("")
 	r.hint = widget.NewLabel("")
 	r.hint.Wrapping = fyne.TextWrapWord
@@ -265,7 +265,7 @@ func (r *similarRun) build() {
 		form, r.hint, container.NewHBox(layout.NewSpacer(), r.search),
 		widget.NewSeparator(), r.status, r.cap_, r.noteLabel)
 	bottom := container.NewHBox(r.discard, layout.NewSpacer(), r.keep)
-	r.w.SetContent(container.NewPadded(container.NewBorder(top, bottom, nil, nil, r.list)))
+	r.w.SetContent(container.NewPadded(container.NewBorder(top, container.NewPadded(bottom), nil, nil, r.list)))
 	r.showPreview()
 }
 
@@ -422,6 +422,11 @@ func (r *similarRun) showPreview() {
 	}
 	r.status.SetText(fmt.Sprintf("%s at %s ≥ %.2f on %d of %s. Nothing is stored until you keep them.",
 		plural(len(hits), "match"), r.selectedFeature().ScoreName(), r.thr.Value, len(r.rows), ops.Plural(len(r.images), "image")))
+	if len(hits) == 0 && len(r.result.Proposals) > 0 {
+		best := slices.MaxFunc(r.result.Proposals, func(a, b suggest.Proposal) int { return cmp.Compare(a.Score, b.Score) }).Score
+		r.status.SetText(fmt.Sprintf("No match at %s ≥ %.2f; the best scored %.2f. Nothing is stored; lower the threshold to see weaker matches.",
+			r.selectedFeature().ScoreName(), r.thr.Value, best))
+	}
 	if found := r.result.Found(r.thr.Value); found > len(hits) {
 		r.cap_.SetText(fmt.Sprintf("Showing the best %s of %s matches: at most %d per image are kept. Raise the threshold for fewer, better ones.",
 			thousands(len(hits)), thousands(found), r.result.MaxResults))
