@@ -5,6 +5,7 @@ import (
 	"context"
 	"fmt"
 	"image"
+	"math"
 	"slices"
 	"strconv"
 	"strings"
@@ -424,8 +425,10 @@ func (r *similarRun) showPreview() {
 		plural(len(hits), "match"), r.selectedFeature().ScoreName(), r.thr.Value, len(r.rows), ops.Plural(len(r.images), "image")))
 	if len(hits) == 0 && len(r.result.Proposals) > 0 {
 		best := slices.MaxFunc(r.result.Proposals, func(a, b suggest.Proposal) int { return cmp.Compare(a.Score, b.Score) }).Score
+		// Rounded down, so that the best is never shown at the threshold
+		// it missed.
 		r.status.SetText(fmt.Sprintf("No match at %s ≥ %.2f; the best scored %.2f. Nothing is stored; lower the threshold to see weaker matches.",
-			r.selectedFeature().ScoreName(), r.thr.Value, best))
+			r.selectedFeature().ScoreName(), r.thr.Value, math.Floor(best*100)/100))
 	}
 	if found := r.result.Found(r.thr.Value); found > len(hits) {
 		r.cap_.SetText(fmt.Sprintf("Showing the best %s of %s matches: at most %d per image are kept. Raise the threshold for fewer, better ones.",

@@ -201,10 +201,10 @@ func TestFindSimilarScoreFollowsTheComparison(t *testing.T) {
 		}
 	}
 	r.feature.SetSelected(similarFeatureName(exemplar.FeatureColor))
-	r.thr.SetValue(0.5)
+	r.thr.SetValue(similarFloor)
 	test.Tap(r.search)
 	waitSearched(t, r)
-	if !slices.ContainsFunc(panelTexts(r), func(s string) bool { return strings.Contains(s, " at colour NCC ≥ 0.50 on ") }) {
+	if !slices.ContainsFunc(panelTexts(r), func(s string) bool { return strings.Contains(s, " at colour NCC ≥ 0.40") }) {
 		t.Errorf("after a colour search the panel says %q", panelTexts(r))
 	}
 }
