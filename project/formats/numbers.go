@@ -16,10 +16,15 @@ const (
 	// the finest edge a person can place on a 1000× zoom, and far above
 	// float64 noise on any image (1e-11 px at 100,000 px).
 	PixelDecimals = 6
-	// Centre-normalised values (fractions of the image's width or height)
-	// are rounded to the decimals that keep the same 1e-6 px on that side:
-	// PixelDecimals plus the digits of the side (10 decimals on a side of
-	// 1000 to 9999 px); see normalisedDecimals.
+	// CentrePixelDecimals rounds computed centre-normalised values
+	// (fractions of the image's width or height, 0..1) to the decimals that
+	// hold 1e-10 px on that side: CentrePixelDecimals plus the digits of
+	// the side (13 decimals on a side of 100 to 999 px; see
+	// normalisedDecimals). Finer than PixelDecimals because such a
+	// fraction of a stored corner (308.86/960 = 0.32172916…) has no short
+	// form, and reading it back should give the stored corner, not one
+	// rounded to 1e-6 px; still coarser than float64 noise (1e-16).
+	CentrePixelDecimals = 10
 )
 
 // roundDecimals rounds v to d decimals. For |v|·10^d below 2^53 the result
@@ -41,9 +46,10 @@ func roundDecimals(v float64, d int) float64 {
 func roundPixels(v float64) float64 { return roundDecimals(v, PixelDecimals) }
 
 // normalisedDecimals is the number of decimals that hold a fraction of a
-// side of n px to 1e-PixelDecimals px: PixelDecimals plus the digits of n.
+// side of n px to 1e-CentrePixelDecimals px: CentrePixelDecimals plus the
+// digits of n.
 func normalisedDecimals(n int) int {
-	d := PixelDecimals
+	d := CentrePixelDecimals
 	for ; n > 0; n /= 10 {
 		d++
 	}
@@ -51,5 +57,5 @@ func normalisedDecimals(n int) int {
 }
 
 // roundNormalised rounds a computed fraction of a side of n px so that it
-// stays within half of 1e-PixelDecimals px.
+// stays within half of 1e-CentrePixelDecimals px.
 func roundNormalised(v float64, n int) float64 { return roundDecimals(v, normalisedDecimals(n)) }

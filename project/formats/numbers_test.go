@@ -10,9 +10,9 @@ import (
 )
 
 // writtenTol is how close a box read back from a written file is to the
-// box written: computed values are rounded to 1e-PixelDecimals px (a
-// centre-normalised corner adds two rounded fractions, each within half of
-// it), plus float64 slack on reading.
+// box written: computed pixel values are rounded to 1e-PixelDecimals px
+// (centre-normalised ones finer, to 1e-CentrePixelDecimals px), plus
+// float64 slack on reading.
 var writtenTol = math.Pow10(-PixelDecimals) + 1e-9
 
 // A box whose numbers are short decimals is written with short decimals in
@@ -94,12 +94,13 @@ func TestRoundDecimals(t *testing.T) {
 		{123.4567896, 6, "123.45679"},
 		{1e300, 6, "1e+300"},
 		{0.060046875000000004, 10, "0.060046875"},
+		{0.06057291666666676, normalisedDecimals(960), "0.0605729166667"}, // from the demo export: a width X1−X0 of 58.15 px over 960
 	} {
 		if got := fmtNum(roundDecimals(c.v, c.d)); got != c.want {
 			t.Errorf("roundDecimals(%v, %d) = %s, want %s", c.v, c.d, got, c.want)
 		}
 	}
-	if normalisedDecimals(640) != PixelDecimals+3 || normalisedDecimals(4032) != PixelDecimals+4 {
+	if normalisedDecimals(640) != CentrePixelDecimals+3 || normalisedDecimals(4032) != CentrePixelDecimals+4 {
 		t.Errorf("normalisedDecimals: %d for 640, %d for 4032", normalisedDecimals(640), normalisedDecimals(4032))
 	}
 }
