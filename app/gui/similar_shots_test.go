@@ -76,12 +76,12 @@ func TestSimilarShots(t *testing.T) {
 	r.thr.SetValue(similarFloor)
 	save("preview-floor", r.w.Canvas())
 	r.where.SetSelected(similarAll)
-	r.thr.SetValue(0.7)
+	r.thr.SetValue(exemplar.DefaultThresholdFor(r.selectedFeature()))
 	r.result = nil
 	test.Tap(r.search)
 	for i := 0; r.result == nil; i++ {
-		if i == 2400 {
-			t.Fatal("the search of the project did not finish within 120 s")
+		if i == 6000 {
+			t.Fatal("the search of the project did not finish within 300 s")
 		}
 		time.Sleep(50 * time.Millisecond)
 	}
@@ -91,6 +91,6 @@ func TestSimilarShots(t *testing.T) {
 	time.Sleep(300 * time.Millisecond)
 	save("kept", r.w.Canvas())
 	save("main-after-keep", u.win.Canvas())
-	r.feature.SetSelected(similarFeatureName(exemplar.FeatureColor))
-	save("panel-colour", r.w.Canvas())
+	r.feature.SetSelected(similarFeatureName(exemplar.FeatureGray))
+	save("panel-gray", r.w.Canvas())
 }
