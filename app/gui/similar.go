@@ -99,6 +99,7 @@ type similarRun struct {
 	list               *widget.List
 	search             *widget.Button
 	keep, discard      *widget.Button
+	top                *fyne.Container // settings and counts, laid out again as notes come and go
 }
 
 // similarImageRow is one image of the preview.
@@ -261,12 +262,12 @@ func (r *similarRun) build() {
 		label("Scales (from:to:steps)"), r.scales,
 		r.thrName, container.NewBorder(nil, nil, nil, r.thrValue, r.thr),
 	)
-	top := container.NewVBox(
+	r.top = container.NewVBox(
 		widget.NewLabelWithStyle("Find objects like this "+cls.Name, fyne.TextAlignLeading, fyne.TextStyle{Bold: true}),
 		form, r.hint, container.NewHBox(layout.NewSpacer(), r.search),
 		widget.NewSeparator(), r.status, r.cap_, r.noteLabel)
 	bottom := container.NewHBox(r.discard, layout.NewSpacer(), r.keep)
-	r.w.SetContent(container.NewPadded(container.NewBorder(top, container.NewPadded(bottom), nil, nil, r.list)))
+	r.w.SetContent(container.NewPadded(container.NewBorder(r.top, container.NewPadded(bottom), nil, nil, r.list)))
 	r.showPreview()
 }
 
@@ -382,9 +383,11 @@ func (r *similarRun) previewed() []suggest.Proposal {
 // showPreview brings the preview, its counts and buttons up to date with
 // the last search and the threshold.
 func (r *similarRun) showPreview() {
-	if r.status == nil || r.list == nil {
+	if r.status == nil || r.list == nil || r.top == nil {
 		return // still being built
 	}
+	// Notes shown or hidden change the panel's layout.
+	defer r.w.Content().Refresh()
 	if r.note != "" {
 		r.noteLabel.SetText(strings.ToUpper(r.note[:1]) + r.note[1:] + ".")
 		r.noteLabel.Show()
