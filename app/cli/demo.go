@@ -6,6 +6,7 @@ import (
 	"io"
 	"os"
 	"path/filepath"
+	"time"
 
 	"boxwright/app/ops"
 	"boxwright/assets/demo"
@@ -29,12 +30,7 @@ func cmdDemo(args []string, stdout, stderr io.Writer, window Window) error {
 	} else {
 		ctx, stop := interruptible()
 		defer stop()
-		if err := ops.MakeDemo(ctx, pos[0], demo.Config{Seed: *seed, Images: *images}, func(done, total int) {
-			fmt.Fprintf(stderr, "\rdrawing images %d / %d", done, total)
-			if done == total {
-				fmt.Fprintln(stderr)
-			}
-		}); err != nil {
+		if err := ops.MakeDemo(ctx, pos[0], demo.Config{Seed: *seed, Images: *images}, demoProgress(stderr, time.Now)); err != nil {
 			return err
 		}
 		fmt.Fprintf(stdout, "wrote %s\n", path)
@@ -46,4 +42,41 @@ func cmdDemo(args []string, stdout, stderr io.Writer, window Window) error {
 		return errWindowSaidWhy
 	}
 	return nil
+}
+
+// demoProgressEvery is how often the demo's progress is written as a line
+// of its own when stderr is not a terminal (a pipe, a log file).
+const demoProgressEvery = 2 * time.Second
+
+// demoProgress reports the drawing of the demo images on stderr. On a
+// terminal one line is rewritten in place (\r); anywhere else, where a \r
+// would pile every update onto one line, it writes whole lines: the first
+// image, then at most one line every demoProgressEvery, and the last.
+func demoProgress(stderr io.Writer, now func() time.Time) func(done, total int) {
+	if isTerminal(stderr) {
+		return func(done, total int) {
+			fmt.Fprintf(stderr, "\rdrawing images %d / %d", done, total)
+			if done == total {
+				fmt.Fprintln(stderr)
+			}
+		}
+	}
+	var last time.Time
+	return func(done, total int) {
+		t := now()
+		if done == 1 || done == total || t.Sub(last) >= demoProgressEvery {
+			fmt.Fprintf(stderr, "drawing images %d / %d\n", done, total)
+			last = t
+		}
+	}
+}
+
+// isTerminal reports whether w is a terminal (a character device).
+func isTerminal(w io.Writer) bool {
+	f, ok := w.(*os.File)
+	if !ok {
+		return false
+	}
+	fi, err := f.Stat()
+	return err == nil && fi.Mode()&os.ModeCharDevice != 0
 }

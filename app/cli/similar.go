@@ -46,7 +46,7 @@ func cmdSimilar(args []string, stdout, stderr io.Writer) error {
 	feature := fs.String("feature", "gray", "gray, gradient (robust to lighting) or color")
 	save := fs.Bool("save", false, "store the matches as pending suggestions of source \"exemplar\"")
 	asJSON := fs.Bool("json", false, "print JSON")
-	const synopsis = "similar PROJECT.boxw --image PATH --exemplar x0,y0,x1,y1 [--class NAME] [--threshold 0.6] [--max-results 200] [--scales 0.8:1.25:5] [--rotations] [--feature gray|gradient|color] [--save] [--json]"
+	const synopsis = "similar PROJECT.boxw --image PATH --exemplar x0,y0,x1,y1 [--class NAME] [--threshold 0.85] [--max-results 200] [--scales 0.8:1.25:5] [--rotations] [--feature gray|gradient|color] [--save] [--json]"
 	pos, err := parse(fs, args, 1, 1, synopsis)
 	if err != nil {
 		return err

@@ -271,8 +271,9 @@ func centreClassCount(n int) string {
 }
 
 // WriteCentreText writes the boxes of rec as one centre-normalised text
-// file, one line per box, with numbers in the shortest form that reads back
-// to the same float64. The class index is the position of the box's class
+// file, one line per box. The four computed fractions are rounded to 1e-10
+// px of their side (CentrePixelDecimals), the score is written in the
+// shortest form that reads back to the same float64. The class index is the position of the box's class
 // in classes; a class not in classes is an error. The score column is
 // written for boxes with HasScore. The layout holds no XML flags, poses or
 // crowd marks. A box whose centre lies outside the image or that is wider
@@ -305,6 +306,12 @@ func WriteCentreText(w io.Writer, rec ImageRecord, classes []string) error {
 		}
 		if br.HasScore && !(br.Score >= -centreTolerance && br.Score <= 1+centreTolerance) {
 			return fmt.Errorf("writing centre-normalised text for %s: box %d score %v is outside 0..1", rec.Name, i, br.Score)
+		}
+		// Computed values: rounded to 1e-10 px of their side (CentrePixelDecimals).
+		cx, bw = roundNormalised(cx, rec.Width), roundNormalised(bw, rec.Width)
+		cy, bh = roundNormalised(cy, rec.Height), roundNormalised(bh, rec.Height)
+		if bw <= 0 || bh <= 0 {
+			return fmt.Errorf("writing centre-normalised text for %s: box %d %v is narrower or lower than 1e-%d px, which the file cannot hold", rec.Name, i, br.Box, CentrePixelDecimals)
 		}
 		b.WriteString(strconv.Itoa(k))
 		for _, f := range [4]float64{cx, cy, bw, bh} {

@@ -69,7 +69,7 @@ func TestCentreTextWorkedExamples(t *testing.T) {
 // TestCentreTextAgainstPython writes boxes with WriteCentreText and has
 // Python (Debian python3, standard library float parsing) compute
 // (cx-w/2)*W, (cy-h/2)*H, (cx+w/2)*W, (cy+h/2)*H from our lines; the
-// results must equal our boxes to 1e-9.
+// results must equal our boxes to writtenTol.
 func TestCentreTextAgainstPython(t *testing.T) {
 	classes := []string{"a", "b", "c"}
 	rec := ImageRecord{Name: "p.jpg", Width: 1237, Height: 911, Boxes: []BoxRecord{
@@ -103,13 +103,13 @@ with open(path) as fh:
 		t.Fatalf("python found %d boxes, want %d", len(boxes), len(rec.Boxes))
 	}
 	for i, w := range rec.Boxes {
-		if names[i] != w.Class || !boxesClose(boxes[i], w.Box, 1e-9) {
+		if names[i] != w.Class || !boxesClose(boxes[i], w.Box, writtenTol) {
 			t.Errorf("box %d: python computed %s %v, we wrote %s %v", i, names[i], boxes[i], w.Class, w.Box)
 		}
 	}
 }
 
-// TestCentreTextRoundTrip checks Read(Write(rec)) == rec, boxes to 1e-9
+// TestCentreTextRoundTrip checks Read(Write(rec)) == rec, boxes to writtenTol
 // pixels. Invented data (round trip).
 func TestCentreTextRoundTrip(t *testing.T) {
 	classes := []string{"person", "car", "traffic light"}
@@ -136,7 +136,7 @@ func TestCentreTextRoundTrip(t *testing.T) {
 		}
 		for i, w := range rec.Boxes {
 			g := got[i]
-			if g.Class != w.Class || g.HasScore != w.HasScore || g.Score != w.Score || !boxesClose(g.Box, w.Box, 1e-9) {
+			if g.Class != w.Class || g.HasScore != w.HasScore || g.Score != w.Score || !boxesClose(g.Box, w.Box, writtenTol) {
 				t.Errorf("%s box %d: got %+v, want %+v", rec.Name, i, g, w)
 			}
 		}

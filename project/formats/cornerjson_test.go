@@ -131,7 +131,7 @@ func sampleDataset() *Dataset {
 	}
 }
 
-// TestCornerJSONRoundTrip checks Read(Write(ds)) == ds, boxes to 1e-9
+// TestCornerJSONRoundTrip checks Read(Write(ds)) == ds, boxes to writtenTol
 // (invented data, round trip).
 func TestCornerJSONRoundTrip(t *testing.T) {
 	ds := sampleDataset()
@@ -170,7 +170,7 @@ func TestCornerJSONRoundTrip(t *testing.T) {
 			if gb.Class != wb.Class || gb.Crowd != wb.Crowd || gb.HasScore != wb.HasScore || gb.Score != wb.Score {
 				t.Errorf("image %d box %d = %+v, want %+v", i, j, gb, wb)
 			}
-			if !boxClose(gb.Box, wb.Box, 1e-9) {
+			if !boxClose(gb.Box, wb.Box, writtenTol) {
 				t.Errorf("image %d box %d = %v, want %v", i, j, gb.Box, wb.Box)
 			}
 		}
@@ -232,7 +232,7 @@ func TestWriteCornerJSONRefuses(t *testing.T) {
 // TestCornerJSONAgainstPython cross-checks the convention with Python's
 // standard json module (Debian's /usr/bin/python3, Python 3.11 on Debian
 // 12): it reads our output and computes each box's corners as x, y, x+w,
-// y+h, which must match ours to 1e-9.
+// y+h, which must match ours to writtenTol.
 func TestCornerJSONAgainstPython(t *testing.T) {
 	const py = "/usr/bin/python3"
 	if _, err := os.Stat(py); err != nil {
@@ -286,7 +286,7 @@ for a in d["annotations"]:
 			}
 		}
 		pb := project.Box{X0: c[0], Y0: c[1], X1: c[2], Y1: c[3]}
-		if rec[0] != wantImg[n] || rec[1] != want[n].Class || !boxClose(pb, want[n].Box, 1e-9) {
+		if rec[0] != wantImg[n] || rec[1] != want[n].Class || !boxClose(pb, want[n].Box, writtenTol) {
 			t.Errorf("box %d: python %v %q %q, ours %v %q %q", n, pb, rec[0], rec[1], want[n].Box, wantImg[n], want[n].Class)
 		}
 		n++

@@ -13,8 +13,10 @@ import (
 // WriteCornerJSON writes ds as corner/size JSON. Images, categories and
 // annotations get ids from 1 in the order of ds.Images, ds.Classes and the
 // boxes; area is width*height; iscrowd is 1 for crowd boxes; a box with a
-// score carries it as "score". Numbers are written so that they read back
-// exactly, and the output depends only on ds. It refuses a dataset that
+// score carries it as "score". Stored numbers (x, y, score) are written so
+// that they read back exactly; the computed width, height and area are
+// rounded to PixelDecimals first, so that no float noise reaches the file.
+// The output depends only on ds. It refuses a dataset that
 // ReadCornerJSON would reject (unknown or duplicate classes, duplicate or
 // empty image names, non-positive image sizes, invalid boxes).
 func WriteCornerJSON(w io.Writer, ds *Dataset) error {
@@ -99,6 +101,11 @@ func WriteCornerJSON(w io.Writer, ds *Dataset) error {
 		for _, b := range im.Boxes {
 			id++
 			x, y, w, h := fromBox(b.Box)
+			// x and y are stored values; w, h and the area are computed.
+			w, h = roundPixels(w), roundPixels(h)
+			if w <= 0 || h <= 0 {
+				return fmt.Errorf("write corner/size JSON: image %q: box %v is narrower or lower than 1e-%d px, which the file cannot hold", im.Name, b.Box, PixelDecimals)
+			}
 			line = append(line, `    {"id": `...)
 			line = strconv.AppendInt(line, int64(id), 10)
 			line = append(line, `, "image_id": `...)
@@ -113,7 +120,7 @@ func WriteCornerJSON(w io.Writer, ds *Dataset) error {
 				line = appendJSONFloat(line, v)
 			}
 			line = append(line, `], "area": `...)
-			line = appendJSONFloat(line, w*h)
+			line = appendJSONFloat(line, roundPixels(w*h))
 			line = append(line, `, "iscrowd": `...)
 			if b.Crowd {
 				line = append(line, '1')

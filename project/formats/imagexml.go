@@ -48,8 +48,11 @@ func xmlIndicesToBox(xmin, ymin, xmax, ymax float64) project.Box {
 // boxToXMLIndices is the inverse of xmlIndicesToBox:
 //
 //	Box{X0: 0, Y0: 0, X1: 10, Y1: 10}  →  xmin=1, ymin=1, xmax=10, ymax=10
+//
+// xmin and ymin are computed, so they are rounded to PixelDecimals
+// (0.1−1+1 is 0.09999999999999998 in float64, written as 0.1).
 func boxToXMLIndices(b project.Box) (xmin, ymin, xmax, ymax float64) {
-	return b.X0 + 1, b.Y0 + 1, b.X1, b.Y1
+	return roundPixels(b.X0 + 1), roundPixels(b.Y0 + 1), b.X1, b.Y1
 }
 
 // xmlNode is one element of a parsed per-image XML file, with the line its
@@ -528,8 +531,9 @@ func (l *latin1Reader) Read(p []byte) (int, error) {
 // WriteImageXML writes rec as one per-image XML file: an XML header, then
 // the <annotation> element indented with two spaces. The output depends
 // only on rec. Depth 0 is written as 3. Coordinates are written as integers
-// when integral and as shortest decimals otherwise, so reading the file
-// back gives the same boxes. Class names, the file name and poses are read
+// when integral and as shortest decimals otherwise; xmin and ymin, computed
+// as X0+1 and Y0+1, are rounded to PixelDecimals first, so reading the file
+// back gives the same boxes to 1e-6 px. Class names, the file name and poses are read
 // back trimmed of surrounding space. Boxes less than one pixel wide or high
 // cannot be held by 1-based inclusive indices and are an error.
 func WriteImageXML(w io.Writer, rec ImageRecord) error {
@@ -595,10 +599,11 @@ func writeXMLText(b *bytes.Buffer, indent, tag, text string) {
 	b.WriteString("</" + tag + ">\n")
 }
 
-// snapToMax returns hi when lo exceeds it by no more than rounding error,
-// and lo otherwise.
+// snapToMax returns hi when lo exceeds it by no more than rounding error
+// (float64's, or half the 1e-PixelDecimals that lo was rounded to), and
+// lo otherwise.
 func snapToMax(lo, hi float64) float64 {
-	if lo > hi && lo-hi <= 1e-9*math.Max(1, math.Abs(hi)) {
+	if lo > hi && lo-hi <= math.Max(1e-9*math.Max(1, math.Abs(hi)), 0.5*math.Pow10(-PixelDecimals)) {
 		return hi
 	}
 	return lo

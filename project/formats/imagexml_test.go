@@ -193,7 +193,7 @@ func TestImageXMLLatin1(t *testing.T) {
 // TestImageXMLAgainstElementTree writes records with WriteImageXML and
 // reads them with Python's xml.etree.ElementTree (Debian python3, standard
 // library), which prints xmin-1, ymin-1, xmax, ymax; those must equal our
-// boxes to 1e-9.
+// boxes to writtenTol.
 func TestImageXMLAgainstElementTree(t *testing.T) {
 	dir := t.TempDir()
 	recs := []ImageRecord{
@@ -236,13 +236,13 @@ for f in sys.argv[1:]:
 		t.Fatalf("python found %d boxes, want %d", len(boxes), len(want))
 	}
 	for i, w := range want {
-		if names[i] != w.Class || !boxesClose(boxes[i], w.Box, 1e-9) {
+		if names[i] != w.Class || !boxesClose(boxes[i], w.Box, writtenTol) {
 			t.Errorf("box %d: python read %s %v, we wrote %s %v", i, names[i], boxes[i], w.Class, w.Box)
 		}
 	}
 }
 
-// TestImageXMLRoundTrip checks Read(Write(rec)) == rec, boxes to 1e-9.
+// TestImageXMLRoundTrip checks Read(Write(rec)) == rec, boxes to writtenTol.
 // Invented data (round trip).
 func TestImageXMLRoundTrip(t *testing.T) {
 	recs := []ImageRecord{
@@ -273,7 +273,7 @@ func TestImageXMLRoundTrip(t *testing.T) {
 		}
 		for i, w := range rec.Boxes {
 			g := got.Boxes[i]
-			if g.Class != w.Class || g.Pose != w.Pose || g.Difficult != w.Difficult || g.Truncated != w.Truncated || !boxesClose(g.Box, w.Box, 1e-9) {
+			if g.Class != w.Class || g.Pose != w.Pose || g.Difficult != w.Difficult || g.Truncated != w.Truncated || !boxesClose(g.Box, w.Box, writtenTol) {
 				t.Errorf("%s box %d: got %+v, want %+v", rec.Name, i, g, w)
 			}
 		}

@@ -58,6 +58,20 @@ func (f Feature) String() string {
 	return fmt.Sprintf("Feature(%d)", int(f))
 }
 
+// ScoreName is the name of the score a search with f computes: "NCC" for
+// gray (zero-mean normalised cross-correlation of luma), "gradient NCC"
+// (the same of the Sobel gradient magnitude), "colour NCC" (the mean of the
+// NCC of the R, G and B planes; see NCCPlanes).
+func (f Feature) ScoreName() string {
+	switch f {
+	case FeatureGradient:
+		return "gradient NCC"
+	case FeatureColor:
+		return "colour NCC"
+	}
+	return "NCC"
+}
+
 // ParseFeature reads a feature name: "gray", "gradient" or "color".
 func ParseFeature(s string) (Feature, error) {
 	switch strings.ToLower(strings.TrimSpace(s)) {

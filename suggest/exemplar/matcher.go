@@ -5,6 +5,7 @@ import (
 	"errors"
 	"fmt"
 	"image"
+	"slices"
 
 	"boxwright/project"
 	"boxwright/suggest"
@@ -47,25 +48,67 @@ func LargestImage(images []project.Image) image.Point {
 }
 
 // Suggest searches each image for the exemplars and proposes the matches
-// that do not overlap a label already there. The templates are cut from
-// ExemplarImage once, at the scales PlanScales keeps for the exemplar image
-// and the largest of images; on that image the exemplars themselves are
-// left out.
+// that do not overlap a label already there, at most MaxResults per image.
+// The templates are cut from ExemplarImage once, at the scales PlanScales
+// keeps for the exemplar image and the largest of images; on that image the
+// exemplars themselves are left out.
 func (m *Matcher) Suggest(ctx context.Context, images []project.Image, classes []project.Class, progress func(done, total int)) ([]suggest.Proposal, error) {
+	res, err := m.Search(ctx, images, classes, progress)
+	return res.Proposals, err
+}
+
+// Result is what Matcher.Search found.
+type Result struct {
+	// Proposals are the best MaxResults matches of each image that do not
+	// overlap a label already there, best first within an image.
+	Proposals []suggest.Proposal
+	// Scores holds, per image searched, the score of every such match,
+	// those beyond the cut too, best first: how many a threshold keeps
+	// before the cut. On a busy image not every weak candidate is refined,
+	// so beyond the cut the count is a lower bound.
+	Scores map[int64][]float64
+	// MaxResults is the cut the search ran with, per image.
+	MaxResults int
+}
+
+// Found counts the matches scoring at least threshold, on all images,
+// before the cut to MaxResults per image.
+func (r Result) Found(threshold float64) int {
+	n := 0
+	for _, sc := range r.Scores {
+		n += countAtLeast(sc, threshold)
+	}
+	return n
+}
+
+// countAtLeast counts the scores, sorted best first, at or above t.
+func countAtLeast(desc []float64, t float64) int {
+	n, _ := slices.BinarySearchFunc(desc, t, func(s, t float64) int {
+		if s >= t {
+			return -1
+		}
+		return 1
+	})
+	return n
+}
+
+// Search is Suggest that also says how many matches each image held before
+// the cut to MaxResults.
+func (m *Matcher) Search(ctx context.Context, images []project.Image, classes []project.Class, progress func(done, total int)) (Result, error) {
 	if m.ClassID == 0 {
-		return nil, errors.New("exemplar matcher: no class")
+		return Result{}, errors.New("exemplar matcher: no class")
 	}
 	opt, err := m.Options.withDefaults()
 	if err != nil {
-		return nil, err
+		return Result{}, err
 	}
 	if m.ExemplarImage == nil {
-		return nil, fmt.Errorf("exemplar matcher: image %d: no pixels for the exemplars", m.ExemplarImageID)
+		return Result{}, fmt.Errorf("exemplar matcher: image %d: no pixels for the exemplars", m.ExemplarImageID)
 	}
 	exPlanes := Planes(m.ExemplarImage, opt.Feature)
 	set, err := newTemplateSet(ctx, exPlanes, m.Exemplars, opt, LargestImage(images))
 	if err != nil {
-		return nil, fmt.Errorf("exemplar matcher: image %d: %w", m.ExemplarImageID, err)
+		return Result{}, fmt.Errorf("exemplar matcher: image %d: %w", m.ExemplarImageID, err)
 	}
 	var className string
 	for _, c := range classes {
@@ -76,10 +119,10 @@ func (m *Matcher) Suggest(ctx context.Context, images []project.Image, classes [
 	if progress == nil {
 		progress = func(int, int) {}
 	}
-	var out []suggest.Proposal
+	res := Result{Scores: map[int64][]float64{}, MaxResults: opt.MaxResults}
 	for i, im := range images {
 		if err := ctx.Err(); err != nil {
-			return nil, err
+			return Result{}, err
 		}
 		var (
 			planes  []Plane
@@ -89,36 +132,41 @@ func (m *Matcher) Suggest(ctx context.Context, images []project.Image, classes [
 			planes, exclude = exPlanes, m.Exemplars
 		} else {
 			if m.Load == nil {
-				return nil, fmt.Errorf("exemplar matcher: no loader for image %d (%s)", im.ID, im.Path)
+				return Result{}, fmt.Errorf("exemplar matcher: no loader for image %d (%s)", im.ID, im.Path)
 			}
 			img, err := m.Load(ctx, im)
 			if err != nil {
 				if ctx.Err() != nil {
-					return nil, ctx.Err()
+					return Result{}, ctx.Err()
 				}
-				return nil, fmt.Errorf("exemplar matcher: loading image %d (%s): %w", im.ID, im.Path, err)
+				return Result{}, fmt.Errorf("exemplar matcher: loading image %d (%s): %w", im.ID, im.Path, err)
 			}
 			planes = Planes(img, opt.Feature)
 		}
 		matches, err := set.search(ctx, planes, exclude, -1)
 		if err != nil {
 			if ctx.Err() != nil {
-				return nil, ctx.Err()
+				return Result{}, ctx.Err()
 			}
-			return nil, fmt.Errorf("exemplar matcher: image %d (%s): %w", im.ID, im.Path, err)
+			return Result{}, fmt.Errorf("exemplar matcher: image %d (%s): %w", im.ID, im.Path, err)
 		}
 		var existing []project.Box
 		if m.Existing != nil {
 			// Without them, places already labelled would be proposed again.
 			if existing, err = m.Existing(im.ID); err != nil {
-				return nil, fmt.Errorf("exemplar matcher: reading the labels on image %d (%s): %w", im.ID, im.Path, err)
+				return Result{}, fmt.Errorf("exemplar matcher: reading the labels on image %d (%s): %w", im.ID, im.Path, err)
 			}
 		}
+		scores := []float64{}
 		for _, mt := range matches {
 			if overlapsAny(mt.Box, existing, existingIoU) {
 				continue
 			}
-			out = append(out, suggest.Proposal{
+			scores = append(scores, mt.Score)
+			if len(scores) > opt.MaxResults {
+				continue
+			}
+			res.Proposals = append(res.Proposals, suggest.Proposal{
 				ImageID:   im.ID,
 				ClassID:   m.ClassID,
 				ClassName: className,
@@ -127,7 +175,8 @@ func (m *Matcher) Suggest(ctx context.Context, images []project.Image, classes [
 				Where:     fmt.Sprintf("image %d, exemplar %d, scale %.3g, %d°", im.ID, mt.Exemplar+1, mt.Scale, mt.Rotation),
 			})
 		}
+		res.Scores[im.ID] = append(res.Scores[im.ID], scores...)
 		progress(i+1, len(images))
 	}
-	return out, nil
+	return res, nil
 }

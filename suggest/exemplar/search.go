@@ -78,7 +78,11 @@ func searchImage(ctx context.Context, img image.Image, exemplars []project.Box, 
 	if err != nil {
 		return nil, err
 	}
-	return set.search(ctx, planes, exemplars, level)
+	ms, err := set.search(ctx, planes, exemplars, level)
+	if err != nil {
+		return nil, err
+	}
+	return ms[:min(len(ms), opt.MaxResults)], nil
 }
 
 // coarseLevel is the deepest pyramid level at which the smallest template
@@ -91,8 +95,9 @@ func (s *templateSet) coarseLevel(iw, ih int) int {
 	return l
 }
 
-// search correlates the set with the image planes; matches overlapping an
-// exclude box by more than half are dropped. level < 0 chooses the coarse
+// search correlates the set with the image planes and returns every match
+// that survives suppression, best first, without the MaxResults cut;
+// matches overlapping an exclude box by more than half are dropped. level < 0 chooses the coarse
 // level, 0 searches exhaustively, above 0 forces that level (for tests).
 func (s *templateSet) search(ctx context.Context, planes []Plane, exclude []project.Box, level int) ([]Match, error) {
 	if len(planes) == 0 || planes[0].W == 0 || planes[0].H == 0 {
@@ -131,7 +136,7 @@ func (s *templateSet) search(ctx context.Context, planes []Plane, exclude []proj
 	if err != nil {
 		return nil, err
 	}
-	return s.finish(ctx, slices.Concat(found...), exclude)
+	return s.suppress(ctx, slices.Concat(found...), exclude)
 }
 
 // exhaustive returns the local maxima of the full-resolution map at or
@@ -176,7 +181,8 @@ func (s *templateSet) coarseToFine(ctx context.Context, t *template, pyramid [][
 		keep++
 	}
 	// A busy image could hand thousands of weak candidates over; more than
-	// a few times MaxResults cannot survive suppression anyway.
+	// a few times MaxResults are not refined, so the count of matches
+	// beyond the cut (Result.Found) is then a lower bound.
 	keep = min(keep, coarseTopK+4*s.opt.MaxResults)
 	f := 1 << level
 	full := pyramid[0]
@@ -256,37 +262,88 @@ func (t *template) match(x, y int, v float32) Match {
 }
 
 // finish orders the matches, suppresses overlaps, drops the exemplars and
-// keeps MaxResults. The suppression is greedy NMS (as suggest.NMS) over
-// the ordered matches, stopped once MaxResults are kept: a box's fate
-// depends only on the boxes before it, so stopping early changes nothing,
-// and a busy map's many thousand peaks cost MaxResults comparisons each
-// instead of one per kept box. Exemplars still suppress what they overlap.
+// keeps the best MaxResults: suppress, cut to MaxResults.
 func (s *templateSet) finish(ctx context.Context, ms []Match, exclude []project.Box) ([]Match, error) {
+	out, err := s.suppress(ctx, ms, exclude)
+	if err != nil {
+		return nil, err
+	}
+	return out[:min(len(out), s.opt.MaxResults)], nil
+}
+
+// suppress orders the matches best first, suppresses overlaps and drops the
+// exemplars, keeping every match that survives (no cap, so that a caller
+// can say how many a cap left out). The suppression is greedy NMS (as
+// suggest.NMS) over the ordered matches; a grid of the boxes kept so far
+// finds the few a match can overlap, so a busy map's many thousand peaks
+// cost a handful of comparisons each. Exemplars still suppress what they
+// overlap.
+func (s *templateSet) suppress(ctx context.Context, ms []Match, exclude []project.Box) ([]Match, error) {
 	// A total order, so that ties do not depend on goroutine timing.
 	slices.SortFunc(ms, func(a, b Match) int {
 		return cmp.Or(cmp.Compare(b.Score, a.Score), cmp.Compare(a.Box.Y0, b.Box.Y0), cmp.Compare(a.Box.X0, b.Box.X0),
 			cmp.Compare(a.Scale, b.Scale), cmp.Compare(a.Rotation, b.Rotation), cmp.Compare(a.Exemplar, b.Exemplar))
 	})
-	var kept []project.Box
+	side := 1.0
+	for _, m := range ms {
+		side = max(side, m.Box.Width(), m.Box.Height())
+	}
+	kept := newBoxGrid(side)
 	var out []Match
 	for i, m := range ms {
-		if len(out) == s.opt.MaxResults {
-			break
-		}
 		if i%1024 == 0 {
 			if err := ctx.Err(); err != nil {
 				return nil, err
 			}
 		}
-		if overlapsAny(m.Box, kept, s.opt.NMS) {
+		if kept.overlaps(m.Box, s.opt.NMS) {
 			continue
 		}
-		kept = append(kept, m.Box)
+		kept.add(m.Box)
 		if !overlapsAny(m.Box, exclude, exemplarIoU) {
 			out = append(out, m)
 		}
 	}
 	return out, nil
+}
+
+// boxGrid holds boxes in square cells of a side at least as long as any
+// box's, so that the boxes a box can overlap share one of its cells.
+type boxGrid struct {
+	side  float64
+	cells map[[2]int][]project.Box
+}
+
+func newBoxGrid(side float64) *boxGrid {
+	return &boxGrid{side: side, cells: map[[2]int][]project.Box{}}
+}
+
+// span is the range of cells b touches.
+func (g *boxGrid) span(b project.Box) (x0, y0, x1, y1 int) {
+	return int(math.Floor(b.X0 / g.side)), int(math.Floor(b.Y0 / g.side)), int(math.Floor(b.X1 / g.side)), int(math.Floor(b.Y1 / g.side))
+}
+
+// add files b in every cell it touches.
+func (g *boxGrid) add(b project.Box) {
+	x0, y0, x1, y1 := g.span(b)
+	for y := y0; y <= y1; y++ {
+		for x := x0; x <= x1; x++ {
+			g.cells[[2]int{x, y}] = append(g.cells[[2]int{x, y}], b)
+		}
+	}
+}
+
+// overlaps reports whether b overlaps a box of the grid by more than iou.
+func (g *boxGrid) overlaps(b project.Box, iou float64) bool {
+	x0, y0, x1, y1 := g.span(b)
+	for y := y0; y <= y1; y++ {
+		for x := x0; x <= x1; x++ {
+			if overlapsAny(b, g.cells[[2]int{x, y}], iou) {
+				return true
+			}
+		}
+	}
+	return false
 }
 
 // overlapsAny reports whether b overlaps one of the boxes by more than iou.

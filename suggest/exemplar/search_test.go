@@ -1,6 +1,7 @@
 package exemplar
 
 import (
+	"cmp"
 	"context"
 	"errors"
 	"image"
@@ -466,5 +467,37 @@ func TestMatcherSuggestStopsWhenExistingFails(t *testing.T) {
 	_, err := m.Suggest(context.Background(), images, []project.Class{{ID: 9, Name: "crate"}}, nil)
 	if err == nil || !strings.Contains(err.Error(), "disk I/O error") || !strings.Contains(err.Error(), "reading the labels on image") {
 		t.Errorf("error %v", err)
+	}
+}
+
+// Search cuts each image's matches to MaxResults after leaving out the
+// labels already there, and says how many there were before the cut, so
+// that a caller can state the cut: image 1 holds two copies besides the
+// exemplar, image 2 three, one of them labelled already (matcherScene).
+func TestMatcherSearchStatesTheCut(t *testing.T) {
+	m, images := matcherScene()
+	m.Options.MaxResults = 1
+	res, err := m.Search(context.Background(), images, nil, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	per := map[int64]int{}
+	for _, p := range res.Proposals {
+		per[p.ImageID]++
+	}
+	if per[1] != 1 || per[2] != 1 || res.MaxResults != 1 {
+		t.Errorf("kept %v per image with a cut of %d, want one on each", per, res.MaxResults)
+	}
+	for id, want := range map[int64]int{1: 2, 2: 2} {
+		sc := res.Scores[id]
+		if len(sc) != want || !slices.IsSortedFunc(sc, func(a, b float64) int { return cmp.Compare(b, a) }) {
+			t.Errorf("image %d: scores %v, want %d best first", id, sc, want)
+		}
+	}
+	if n := res.Found(DefaultThreshold); n != 4 {
+		t.Errorf("Found(%.2f) = %d, want 4", DefaultThreshold, n)
+	}
+	if n := res.Found(1.01); n != 0 {
+		t.Errorf("Found above 1 = %d", n)
 	}
 }
