@@ -267,7 +267,7 @@ func (r *similarRun) build() {
 		form, r.hint, container.NewHBox(layout.NewSpacer(), r.search),
 		widget.NewSeparator(), r.status, r.cap_, r.noteLabel)
 	bottom := container.NewHBox(r.discard, layout.NewSpacer(), r.keep)
-	r.w.SetContent(container.NewPadded(container.NewBorder(r.top, container.NewPadded(bottom), nil, nil, r.list)))
+	r.w.SetContent(withClose(r.w, container.NewPadded(container.NewBorder(r.top, container.NewPadded(bottom), nil, nil, r.list))))
 	r.showPreview()
 }
 
