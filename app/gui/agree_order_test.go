@@ -7,7 +7,6 @@ import (
 	"path/filepath"
 	"slices"
 	"testing"
-	"time"
 
 	"fyne.io/fyne/v2"
 	"fyne.io/fyne/v2/test"
@@ -41,17 +40,7 @@ func openDemoWith(t *testing.T, cfg demo.Config) (*ui, string) {
 // compareNow runs the agreement window's comparison and waits for it.
 func compareNow(t *testing.T, s *agreeScreen) {
 	t.Helper()
-	done := make(chan error, 1)
-	s.done = func(err error) { done <- err }
-	s.compute()
-	select {
-	case err := <-done:
-		if err != nil {
-			t.Fatal(err)
-		}
-	case <-time.After(30 * time.Second):
-		t.Fatal("the comparison did not finish")
-	}
+	computeAndWait(t, "the comparison did not finish", &s.done, s.compute)
 }
 
 // The Images tab lists the images in the order of the command line's

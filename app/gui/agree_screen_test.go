@@ -5,7 +5,6 @@ import (
 	"encoding/csv"
 	"strings"
 	"testing"
-	"time"
 
 	"fyne.io/fyne/v2"
 	"fyne.io/fyne/v2/test"
@@ -35,17 +34,7 @@ func TestAgreementScreenReportsAndOpensImages(t *testing.T) {
 	if s == nil || len(s.who.Selected) != 2 {
 		t.Fatalf("the report should open with the first two annotators ticked")
 	}
-	done := make(chan error, 1)
-	s.done = func(err error) { done <- err }
-	s.compute()
-	select {
-	case err := <-done:
-		if err != nil {
-			t.Fatal(err)
-		}
-	case <-time.After(20 * time.Second):
-		t.Fatal("the comparison did not finish")
-	}
+	computeAndWait(t, "the comparison did not finish", &s.done, s.compute)
 	for _, want := range []string{"Ines vs Tomas", "Cohen's kappa", "Landis & Koch 1977", "Detection F1"} {
 		if !strings.Contains(s.headline.Text, want) {
 			t.Errorf("headline lacks %q: %s", want, s.headline.Text)

@@ -4,7 +4,6 @@ import (
 	"image/color"
 	"strings"
 	"testing"
-	"time"
 
 	"fyne.io/fyne/v2"
 	"fyne.io/fyne/v2/test"
@@ -20,17 +19,7 @@ func evalDone(t *testing.T, u *ui) *evalScreen {
 	t.Helper()
 	s := newEvalScreen(u)
 	s.truth.SetSelected("Ines")
-	done := make(chan error, 1)
-	s.done = func(err error) { done <- err }
-	s.compute()
-	select {
-	case err := <-done:
-		if err != nil {
-			t.Fatal(err)
-		}
-	case <-time.After(20 * time.Second):
-		t.Fatal("the evaluation did not finish")
-	}
+	computeAndWait(t, "the evaluation did not finish", &s.done, s.compute)
 	return s
 }
 

@@ -16,17 +16,7 @@ func TestEvaluationScreen(t *testing.T) {
 	if s.source.Selected == "" {
 		t.Fatal("no source offered")
 	}
-	done := make(chan error, 1)
-	s.done = func(err error) { done <- err }
-	s.compute()
-	select {
-	case err := <-done:
-		if err != nil {
-			t.Fatal(err)
-		}
-	case <-time.After(20 * time.Second):
-		t.Fatal("the evaluation did not finish")
-	}
+	computeAndWait(t, "the evaluation did not finish", &s.done, s.compute)
 	if !strings.Contains(s.headline.Text, "mAP") || s.prChart.Plot() == nil || s.confChart.Plot() == nil {
 		t.Fatalf("headline %q, charts %v %v", s.headline.Text, s.prChart.Plot() != nil, s.confChart.Plot() != nil)
 	}
@@ -51,4 +41,22 @@ func TestEvaluationScreen(t *testing.T) {
 		return n
 	}
 	waitFor(t, "the pair's 2 boxes ringed", func() bool { return marked() == 2 })
+}
+
+// computeAndWait starts a report window's computation (compute, which
+// reports through *done) and fails the test with fail if it does not end
+// within 30 s or ends in an error.
+func computeAndWait(t *testing.T, fail string, done *func(error), compute func()) {
+	t.Helper()
+	ch := make(chan error, 1)
+	*done = func(err error) { ch <- err }
+	compute()
+	select {
+	case err := <-ch:
+		if err != nil {
+			t.Fatal(err)
+		}
+	case <-time.After(30 * time.Second):
+		t.Fatal(fail)
+	}
 }

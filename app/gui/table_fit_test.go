@@ -3,7 +3,6 @@ package gui
 import (
 	"strings"
 	"testing"
-	"time"
 
 	"fyne.io/fyne/v2"
 	fcanvas "fyne.io/fyne/v2/canvas"
@@ -104,17 +103,7 @@ func TestEvaluationTablesFitTheirValues(t *testing.T) {
 	u.app.Settings().SetTheme(theme.DefaultTheme()) // the sizes people see, not the test theme's
 	s := newEvalScreen(u)
 	s.truth.SetSelected("Ines")
-	done := make(chan error, 1)
-	s.done = func(err error) { done <- err }
-	s.compute()
-	select {
-	case err := <-done:
-		if err != nil {
-			t.Fatal(err)
-		}
-	case <-time.After(20 * time.Second):
-		t.Fatal("the evaluation did not finish")
-	}
+	computeAndWait(t, "the evaluation did not finish", &s.done, s.compute)
 	s.cellRow.SetSelectedIndex(0)
 	s.cellCol.SetSelectedIndex(0)
 	s.win.Resize(fyne.NewSize(2400, 900))
