@@ -8,9 +8,6 @@ import (
 	"slices"
 	"testing"
 
-	"fyne.io/fyne/v2"
-	"fyne.io/fyne/v2/test"
-
 	"boxwright/app/cli"
 	"boxwright/app/ops"
 	"boxwright/assets/demo"
@@ -24,17 +21,7 @@ func openDemoWith(t *testing.T, cfg demo.Config) (*ui, string) {
 		t.Fatal(err)
 	}
 	path := filepath.Join(dir, ops.DemoProjectName)
-	u := newUI(test.NewTempApp(t))
-	u.annotatorFlag = "Ines"
-	u.win.Resize(fyne.NewSize(1200, 800))
-	decoded := make(chan error, 10)
-	u.decoded = func(_ int64, err error) { decoded <- err }
-	if err := u.openProject(path); err != nil {
-		t.Fatal(err)
-	}
-	t.Cleanup(u.closeProject)
-	waitDecoded(t, decoded)
-	return u, path
+	return openPathAs(t, path, "Ines"), path
 }
 
 // compareNow runs the agreement window's comparison and waits for it.

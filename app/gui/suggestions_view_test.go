@@ -19,6 +19,13 @@ import (
 func openDemoAs(t *testing.T, who string) (*ui, string) {
 	t.Helper()
 	path := testkit.SmallDemo(t)
+	return openPathAs(t, path, who), path
+}
+
+// openPathAs opens the project at path in a 1200×800 test window as who
+// and waits for the first image to be shown.
+func openPathAs(t *testing.T, path, who string) *ui {
+	t.Helper()
 	u := newUI(test.NewTempApp(t))
 	u.annotatorFlag = who
 	u.win.Resize(fyne.NewSize(1200, 800))
@@ -29,7 +36,7 @@ func openDemoAs(t *testing.T, who string) (*ui, string) {
 	}
 	t.Cleanup(u.closeProject)
 	waitDecoded(t, decoded)
-	return u, path
+	return u
 }
 
 func stateOf(t *testing.T, u *ui, id int64) project.Suggestion {
