@@ -16,6 +16,7 @@ import (
 	"io"
 	"os"
 	"os/signal"
+	"time"
 
 	"boxwright/app/backend"
 )
@@ -128,15 +129,18 @@ func writeJSON(w io.Writer, v any) error {
 	return enc.Encode(v)
 }
 
-// progressPrinter reports long intakes on stderr, every 100 files.
+// progressPrinter reports long intakes (200 files or more) on stderr:
+// every 100 files on a terminal, in whole lines elsewhere (lineProgress).
 func progressPrinter(stderr io.Writer, quiet *bool) func(done, total int) {
+	var p func(done, total int)
 	return func(done, total int) {
-		if !*quiet && total >= 200 && (done%100 == 0 || done == total) {
-			fmt.Fprintf(stderr, "\r%d / %d files", done, total)
-			if done == total {
-				fmt.Fprintln(stderr)
-			}
+		if *quiet || total < 200 || (done%100 != 0 && done != total) {
+			return
 		}
+		if p == nil {
+			p = lineProgress(stderr, time.Now, "%d / %d files")
+		}
+		p(done, total)
 	}
 }
 

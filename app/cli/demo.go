@@ -53,20 +53,28 @@ const demoProgressEvery = 2 * time.Second
 // would pile every update onto one line, it writes whole lines: the first
 // image, then at most one line every demoProgressEvery, and the last.
 func demoProgress(stderr io.Writer, now func() time.Time) func(done, total int) {
+	return lineProgress(stderr, now, "drawing images %d / %d")
+}
+
+// lineProgress reports done of total with format (two %d): on a terminal
+// one line rewritten in place, elsewhere whole lines — the first, at most
+// one every demoProgressEvery, and the last.
+func lineProgress(stderr io.Writer, now func() time.Time, format string) func(done, total int) {
 	if isTerminal(stderr) {
 		return func(done, total int) {
-			fmt.Fprintf(stderr, "\rdrawing images %d / %d", done, total)
+			fmt.Fprintf(stderr, "\r"+format, done, total)
 			if done == total {
 				fmt.Fprintln(stderr)
 			}
 		}
 	}
 	var last time.Time
+	first := true
 	return func(done, total int) {
 		t := now()
-		if done == 1 || done == total || t.Sub(last) >= demoProgressEvery {
-			fmt.Fprintf(stderr, "drawing images %d / %d\n", done, total)
-			last = t
+		if first || done == total || t.Sub(last) >= demoProgressEvery {
+			fmt.Fprintf(stderr, format+"\n", done, total)
+			last, first = t, false
 		}
 	}
 }

@@ -59,3 +59,16 @@ func TestDemoProgressThrottled(t *testing.T) {
 		t.Errorf("lines %q, want %q", lines, want)
 	}
 }
+
+// add-images reports a long intake in whole lines off a terminal too.
+func TestIntakeProgressOffATerminal(t *testing.T) {
+	var b strings.Builder
+	quiet := false
+	p := progressPrinter(&b, &quiet)
+	for done := 1; done <= 300; done++ {
+		p(done, 300)
+	}
+	if s := b.String(); strings.Contains(s, "\r") || !strings.HasPrefix(s, "100 / 300 files\n") || !strings.HasSuffix(s, "300 / 300 files\n") {
+		t.Errorf("progress %q", s)
+	}
+}
