@@ -39,14 +39,14 @@ func cmdSimilar(args []string, stdout, stderr io.Writer) error {
 	imgName := fs.String("image", "", "the project image to search (its path or file name)")
 	ex := fs.String("exemplar", "", "the example box x0,y0,x1,y1 in image pixels")
 	className := fs.String("class", "", "the class of the example (needed with --save)")
-	threshold := floatAbove(fs, "threshold", exemplar.DefaultThreshold, 0, 1, "lowest normalised cross-correlation of a match")
+	threshold := floatAbove(fs, "threshold", exemplar.DefaultThreshold, 0, 1, fmt.Sprintf("lowest score of a match (default by --feature: gray %.2f, gradient %.2f, color %.2f)", exemplar.DefaultGrayThreshold, exemplar.DefaultGradientThreshold, exemplar.DefaultColorThreshold))
 	maxResults := intIn(fs, "max-results", exemplar.DefaultMaxResults, 1, exemplar.MaxResultsLimit, "matches kept, best first")
 	scales := fs.String("scales", "0.8:1.25:5", "scales FROM:TO:STEPS (geometric)")
 	rotations := fs.Bool("rotations", false, "also try the example turned by 90°, 180° and 270°")
 	feature := fs.String("feature", "gray", "gray, gradient (robust to lighting) or color")
 	save := fs.Bool("save", false, "store the matches as pending suggestions of source \"exemplar\"")
 	asJSON := fs.Bool("json", false, "print JSON")
-	const synopsis = "similar PROJECT.boxw --image PATH --exemplar x0,y0,x1,y1 [--class NAME] [--threshold 0.85] [--max-results 200] [--scales 0.8:1.25:5] [--rotations] [--feature gray|gradient|color] [--save] [--json]"
+	const synopsis = "similar PROJECT.boxw --image PATH --exemplar x0,y0,x1,y1 [--class NAME] [--threshold S] [--max-results 200] [--scales 0.8:1.25:5] [--rotations] [--feature gray|gradient|color] [--save] [--json]"
 	pos, err := parse(fs, args, 1, 1, synopsis)
 	if err != nil {
 		return err
@@ -64,6 +64,12 @@ func cmdSimilar(args []string, stdout, stderr io.Writer) error {
 	feat, err := exemplar.ParseFeature(*feature)
 	if err != nil {
 		return usageError(err.Error())
+	}
+	// Each comparison's score has its own measured default (options.go).
+	thresholdSet := false
+	fs.Visit(func(f *flag.Flag) { thresholdSet = thresholdSet || f.Name == "threshold" })
+	if !thresholdSet {
+		*threshold = exemplar.DefaultThresholdFor(feat)
 	}
 	if *save && *className == "" {
 		return usageError("--save needs --class: suggestions belong to a class")
@@ -142,7 +148,7 @@ func cmdSimilar(args []string, stdout, stderr io.Writer) error {
 		return writeJSON(stdout, map[string]any{"image": im.Path, "exemplar": []float64{box.X0, box.Y0, box.X1, box.Y1}, "matches": out, "saved": *save,
 			"scales_searched": plan.Searched, "scales_dropped": dropped, "max_results_reached": full})
 	}
-	fmt.Fprintf(stdout, "%s in %s at NCC ≥ %.2f\n", ops.Plural(len(matches), "match"), im.Path, *threshold)
+	fmt.Fprintf(stdout, "%s in %s at %s ≥ %.2f\n", ops.Plural(len(matches), "match"), im.Path, feat.ScoreName(), *threshold)
 	if note := plan.Summary(); note != "" {
 		fmt.Fprintf(stdout, "%s\n", note)
 	}

@@ -194,3 +194,22 @@ func TestSimilarStopsOnCtrlC(t *testing.T) {
 		t.Errorf("%d suggestions stored by an interrupted search", len(gs))
 	}
 }
+
+// Without --threshold each comparison takes its own measured default, and
+// the summary names the comparison's score.
+func TestSimilarDefaultThresholdFollowsTheFeature(t *testing.T) {
+	path := testkit.SmallDemo(t)
+	im, ex := testkit.Exemplar(t, path)
+	b := ex.Box
+	corners := fmt.Sprintf("%g,%g,%g,%g", b.X0, b.Y0, b.X1, b.Y1)
+	for _, c := range []struct {
+		feature string
+		f       exemplar.Feature
+	}{{"gray", exemplar.FeatureGray}, {"gradient", exemplar.FeatureGradient}, {"color", exemplar.FeatureColor}} {
+		out := mustCLI(t, "similar", path, "--image", im.Path, "--exemplar", corners, "--feature", c.feature, "--max-results", "3")
+		want := fmt.Sprintf("at %s ≥ %.2f", c.f.ScoreName(), exemplar.DefaultThresholdFor(c.f))
+		if !strings.Contains(out, want) {
+			t.Errorf("--feature %s: %q, want %q", c.feature, out, want)
+		}
+	}
+}

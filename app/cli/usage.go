@@ -36,7 +36,7 @@ Commands:
   suggestions stats PROJECT.boxw [--source NAME] [--json]
                                         what the review decisions say per source
   similar PROJECT.boxw --image PATH --exemplar x0,y0,x1,y1 [--class NAME]
-        [--threshold 0.85] [--max-results 200] [--scales 0.8:1.25:5]
+        [--threshold S] [--max-results 200] [--scales 0.8:1.25:5]
         [--rotations] [--feature gray|gradient|color] [--save] [--json]
                                         objects like the example in one image
   eval PROJECT.boxw --truth ANNOTATOR (--source NAME | --predictions FILE)
