@@ -110,11 +110,10 @@ func cmdSuggestionsStats(args []string, stdout io.Writer, synopsis string) error
 		for _, b := range s.Reliability {
 			fmt.Fprintf(stdout, "  %.1f–%.1f %9d  %s\n", b.Lo, b.Hi, b.Decided, ops.Pct(b.Rate))
 		}
-		if s.Suggested.OK {
-			fmt.Fprintf(stdout, "  at or above score %.3f, %s of %d decided suggestions were kept (target %.0f %%)\n", s.Suggested.Score, ops.Pct(s.Suggested.Rate), s.Suggested.N, 100*ops.KeepRate)
-		} else {
-			fmt.Fprintf(stdout, "  no score threshold keeps %.0f %% yet (%d decisions)\n", 100*ops.KeepRate, s.Suggested.N)
-		}
+		// The window's advice, with its minimum of decisions and the
+		// Wilson interval; the closing line below says the pending rule.
+		advice := strings.TrimSpace(strings.Replace(s.ThresholdAdvice(), "Pending suggestions are never counted as right or wrong.", "", 1))
+		fmt.Fprintf(stdout, "  %s\n", advice)
 	}
 	fmt.Fprintln(stdout, "Pending suggestions are never counted as right or wrong.")
 	return nil
