@@ -62,6 +62,18 @@ func addSynthetic(t testing.TB, u *ui, n int) project.Class {
 	return c
 }
 
+// waitIdle waits until the grid's crop workers have delivered all they
+// were asked for. The test driver runs their fyne.Do deliveries on the
+// workers' goroutines, so the test must not touch the grid meanwhile.
+func waitIdle(t testing.TB, g *cropGrid) {
+	t.Helper()
+	waitFor(t, "crop workers idle", func() bool {
+		g.mu.Lock()
+		defer g.mu.Unlock()
+		return g.running == 0
+	})
+}
+
 // waitFor polls cond for up to 10 s.
 func waitFor(t testing.TB, what string, cond func() bool) {
 	t.Helper()
@@ -87,7 +99,7 @@ func TestCropGridLoadsOnlyVisibleCrops(t *testing.T) {
 		t.Fatalf("grid lists %d suggestions, want at least 5000", len(g.items))
 	}
 	waitFor(t, "first crops made", func() bool { return cl.calls.Load() > 0 && g.loaded() > 0 })
-	time.Sleep(100 * time.Millisecond) // let the workers drain what was asked for
+	waitIdle(t, g)
 	first := g.loaded()
 	t.Logf("first screen: %d crops asked for, %d loads", first, cl.calls.Load())
 	// 1100×800 shows some 7×5 cells of 128 px; a screenful plus a row.
@@ -104,14 +116,14 @@ func TestCropGridLoadsOnlyVisibleCrops(t *testing.T) {
 	// finds the crops in the cache.
 	for s := 1; s <= 5; s++ {
 		g.grid.ScrollToOffset(float32(s) * 700)
+		waitIdle(t, g)
 	}
-	time.Sleep(100 * time.Millisecond)
 	after := g.loaded()
 	if after <= first || after > 6*first+50 {
 		t.Errorf("after scrolling five screens %d crops were asked for (first screen %d)", after, first)
 	}
 	g.grid.ScrollToTop()
-	time.Sleep(50 * time.Millisecond)
+	waitIdle(t, g)
 	cl.mu.Lock()
 	for id, n := range cl.ids {
 		if n > 1 {
@@ -143,12 +155,16 @@ func TestCropGridMarksAndDecides(t *testing.T) {
 	if len(g.items) < 3 {
 		t.Fatalf("the busiest class has %d pending suggestions", len(g.items))
 	}
+	waitIdle(t, g)
 	class := g.classID
 	items := append([]project.Suggestion(nil), g.items...)
 
 	g.toggle(0)
+	waitIdle(t, g)
 	g.toggle(2)
+	waitIdle(t, g)
 	g.toggle(2) // unmarked again
+	waitIdle(t, g)
 	if len(g.marked) != 1 || !g.marked[items[0].ID] {
 		t.Fatalf("marks %v", g.marked)
 	}
@@ -158,6 +174,7 @@ func TestCropGridMarksAndDecides(t *testing.T) {
 	if err := g.rejectMarked(); err != nil {
 		t.Fatal(err)
 	}
+	waitIdle(t, g)
 	if st := state(t, u, items[0].ID); st != project.SuggestionRejected {
 		t.Errorf("marked suggestion is %s after reject, want rejected", st)
 	}
@@ -173,9 +190,11 @@ func TestCropGridMarksAndDecides(t *testing.T) {
 	// Mark one, accept the rest: they become the reviewer's labels.
 	keep := g.items[0]
 	g.toggle(0)
+	waitIdle(t, g)
 	if err := g.acceptRest(); err != nil {
 		t.Fatal(err)
 	}
+	waitIdle(t, g)
 	if st := state(t, u, keep.ID); st != project.SuggestionPending {
 		t.Errorf("marked suggestion is %s after accept-rest, want pending", st)
 	}

@@ -192,6 +192,7 @@ func TestCropGridFlagsCoveredSuggestions(t *testing.T) {
 	if err := g.refreshClasses(); err != nil {
 		t.Fatal(err)
 	}
+	waitIdle(t, g)
 	own, err := u.st.Labels(context.Background(), project.LabelFilter{AnnotatorID: u.me.ID, ClassID: g.classID})
 	if err != nil {
 		t.Fatal(err)
