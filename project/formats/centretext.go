@@ -308,10 +308,17 @@ func WriteCentreText(w io.Writer, rec ImageRecord, classes []string) error {
 			return fmt.Errorf("writing centre-normalised text for %s: box %d score %v is outside 0..1", rec.Name, i, br.Score)
 		}
 		// Computed values: rounded to 1e-10 px of their side (CentrePixelDecimals).
-		cx, bw = roundNormalised(cx, rec.Width), roundNormalised(bw, rec.Width)
-		cy, bh = roundNormalised(cy, rec.Height), roundNormalised(bh, rec.Height)
+		// A side narrower than that precision keeps its exact value rather
+		// than becoming 0, which the reader would refuse.
+		cx, cy = roundNormalised(cx, rec.Width), roundNormalised(cy, rec.Height)
+		if r := roundNormalised(bw, rec.Width); r > 0 {
+			bw = r
+		}
+		if r := roundNormalised(bh, rec.Height); r > 0 {
+			bh = r
+		}
 		if bw <= 0 || bh <= 0 {
-			return fmt.Errorf("writing centre-normalised text for %s: box %d %v is narrower or lower than 1e-%d px, which the file cannot hold", rec.Name, i, br.Box, CentrePixelDecimals)
+			return fmt.Errorf("writing centre-normalised text for %s: box %d %v has no width or no height", rec.Name, i, br.Box)
 		}
 		b.WriteString(strconv.Itoa(k))
 		for _, f := range [4]float64{cx, cy, bw, bh} {

@@ -102,9 +102,9 @@ func WriteCornerJSON(w io.Writer, ds *Dataset) error {
 			id++
 			x, y, w, h := fromBox(b.Box)
 			// x and y are stored values; w, h and the area are computed.
-			w, h = roundPixels(w), roundPixels(h)
+			w, h = roundSide(w), roundSide(h)
 			if w <= 0 || h <= 0 {
-				return fmt.Errorf("write corner/size JSON: image %q: box %v is narrower or lower than 1e-%d px, which the file cannot hold", im.Name, b.Box, PixelDecimals)
+				return fmt.Errorf("write corner/size JSON: image %q: box %v has no width or no height", im.Name, b.Box)
 			}
 			line = append(line, `    {"id": `...)
 			line = strconv.AppendInt(line, int64(id), 10)

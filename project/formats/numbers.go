@@ -45,6 +45,16 @@ func roundDecimals(v float64, d int) float64 {
 // roundPixels rounds a computed pixel value to PixelDecimals.
 func roundPixels(v float64) float64 { return roundDecimals(v, PixelDecimals) }
 
+// roundSide rounds a computed width or height like roundPixels, but a side
+// narrower than that precision keeps its exact value rather than becoming
+// 0, which no reader accepts: whatever was read can be written.
+func roundSide(v float64) float64 {
+	if r := roundPixels(v); r > 0 {
+		return r
+	}
+	return v
+}
+
 // normalisedDecimals is the number of decimals that hold a fraction of a
 // side of n px to 1e-CentrePixelDecimals px: CentrePixelDecimals plus the
 // digits of n.

@@ -104,3 +104,14 @@ func TestRoundDecimals(t *testing.T) {
 		t.Errorf("normalisedDecimals: %d for 640, %d for 4032", normalisedDecimals(640), normalisedDecimals(4032))
 	}
 }
+
+// A box narrower than the written precision is still written, with its
+// exact side, and reads back (the rounding must not make it 0).
+func TestTinyBoxesStillWritten(t *testing.T) {
+	if got := roundSide(3e-9); got != 3e-9 {
+		t.Errorf("roundSide(3e-9) = %v", got)
+	}
+	if got := roundSide(38.43000000000001); got != 38.43 {
+		t.Errorf("roundSide(38.43000000000001) = %v", got)
+	}
+}
