@@ -149,14 +149,19 @@ func (u *ui) checkDrawn(k int64, b project.Box, classID int64) {
 // coveredHere maps each pending suggestion on screen (as edited) that an
 // own box already covers to that cover.
 func (u *ui) coveredHere() map[int64]ops.Cover {
-	out := map[int64]ops.Cover{}
 	if u.sess == nil || u.imageID == 0 || len(u.suggestions) == 0 {
-		return out
+		return map[int64]ops.Cover{}
 	}
 	own, err := u.sess.Boxes(context.Background(), u.imageID)
 	if err != nil {
-		return out
+		return map[int64]ops.Cover{}
 	}
+	return u.coveredBy(own)
+}
+
+// coveredBy is coveredHere with the person's boxes on screen given.
+func (u *ui) coveredBy(own map[int64]project.Label) map[int64]ops.Cover {
+	out := map[int64]ops.Cover{}
 	for _, g := range u.suggestions {
 		g, _ = u.suggestion(g.ID)
 		if c, ok := ops.BestCover(g.Box, g.ClassID, own, u.dupIoU, 0); ok {

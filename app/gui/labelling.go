@@ -109,8 +109,10 @@ func (u *ui) refreshBoxes() {
 		c := u.classBy[l.ClassID]
 		items = append(items, canvas.Item{Key: -l.ID, Box: l.Box, Color: c.Color, Caption: c.Name + " · " + names[l.AnnotatorID], Short: names[l.AnnotatorID], ReadOnly: true})
 	}
+	var boxes map[int64]project.Label
 	if u.sess != nil {
-		boxes, err := u.sess.Boxes(context.Background(), u.imageID)
+		var err error
+		boxes, err = u.sess.Boxes(context.Background(), u.imageID)
 		if err != nil {
 			u.showError(err)
 		}
@@ -120,7 +122,7 @@ func (u *ui) refreshBoxes() {
 			items = append(items, canvas.Item{Key: k, Box: l.Box, Color: c.Color, Caption: c.Name})
 		}
 	}
-	items = append(items, u.suggestionItems()...)
+	items = append(items, u.suggestionItems(boxes)...)
 	u.view.SetItems(items)
 	u.updateClassBar()
 	u.updateStatus()

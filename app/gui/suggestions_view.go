@@ -75,12 +75,14 @@ func (u *ui) suggestion(id int64) (project.Suggestion, bool) {
 }
 
 // suggestionItems are the pending suggestions as view items.
-func (u *ui) suggestionItems() []canvas.Item {
+// own are the person's boxes on screen, for the covered mark (refreshBoxes
+// has just read them; reading again would cost a query per edit).
+func (u *ui) suggestionItems(own map[int64]project.Label) []canvas.Item {
 	if !u.showSuggestions.Checked {
 		return nil
 	}
 	var out []canvas.Item
-	covered := u.coveredHere()
+	covered := u.coveredBy(own)
 	for _, g := range u.suggestions {
 		g, _ = u.suggestion(g.ID)
 		c := u.classBy[g.ClassID]
