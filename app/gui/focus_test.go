@@ -1,6 +1,7 @@
 package gui
 
 import (
+	"sync/atomic"
 	"testing"
 
 	"fyne.io/fyne/v2"
@@ -12,6 +13,11 @@ import (
 // at once (they used to go to the check until the image was clicked).
 func TestKeysWorkAfterClickingAToolbarCheck(t *testing.T) {
 	u, _ := openDemoAs(t, "Ines")
+	// Each step decodes the next image in the background, and the test
+	// driver delivers it on that goroutine: wait for it before going on.
+	var shown atomic.Int64
+	shown.Store(u.imageID)
+	u.decoded = func(id int64, _ error) { shown.Store(id) }
 	c := u.win.Canvas()
 	for i, w := range []fyne.Focusable{u.showSuggestions, u.others, u.guides} {
 		before := u.selected
@@ -27,7 +33,7 @@ func TestKeysWorkAfterClickingAToolbarCheck(t *testing.T) {
 		if u.selected != want {
 			t.Errorf("after check %d: %s moved from image %d to %d", i, key, before, u.selected)
 		}
-		waitFor(t, "the next image shown", func() bool { return u.view.Image() != nil })
+		waitFor(t, "the next image shown", func() bool { return shown.Load() == u.imageID })
 	}
 	u.nav.status.SetSelected(u.nav.status.Options[0])
 	if _, isSelect := c.Focused().(*widget.Select); isSelect {
