@@ -1,6 +1,9 @@
 package project
 
-import "errors"
+import (
+	"errors"
+	"fmt"
+)
 
 // Errors that storage returns, wrapped with what was being done; test with
 // errors.Is.
@@ -21,3 +24,20 @@ var (
 	// than a writer waits.
 	ErrBusy = errors.New("project is busy")
 )
+
+// Explained returns an error whose text is the formatted message alone,
+// for a message that already says what is wrong and what to do, while
+// errors.Is still finds kind (and anything the message wraps with %w).
+// Appending kind's own short text (": invalid") would add nothing a
+// person needs.
+func Explained(kind error, format string, a ...any) error {
+	return &explained{inner: fmt.Errorf(format, a...), kind: kind}
+}
+
+type explained struct {
+	inner error
+	kind  error
+}
+
+func (e *explained) Error() string   { return e.inner.Error() }
+func (e *explained) Unwrap() []error { return []error{e.inner, e.kind} }

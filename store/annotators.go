@@ -56,7 +56,7 @@ func (s *Store) AnnotatorByName(ctx context.Context, name string) (project.Annot
 // AddAnnotator stores a new annotator.
 func (s *Store) AddAnnotator(ctx context.Context, name string) (project.Annotator, error) {
 	if err := project.ValidateName("annotator", name); err != nil {
-		return project.Annotator{}, fmt.Errorf("add annotator: %v: %w", err, project.ErrInvalid)
+		return project.Annotator{}, project.Explained(project.ErrInvalid, "add annotator: %v", err)
 	}
 	a := project.Annotator{Name: name, Created: s.now()}
 	res, err := s.exec(ctx, "INSERT INTO annotators(name, created_at) VALUES (?, ?)", name, formatTime(a.Created))
@@ -79,7 +79,7 @@ func (s *Store) EnsureAnnotator(ctx context.Context, name string) (project.Annot
 // RenameAnnotator changes an annotator's name; the labels stay theirs.
 func (s *Store) RenameAnnotator(ctx context.Context, id int64, name string) error {
 	if err := project.ValidateName("annotator", name); err != nil {
-		return fmt.Errorf("rename annotator: %v: %w", err, project.ErrInvalid)
+		return project.Explained(project.ErrInvalid, "rename annotator: %v", err)
 	}
 	res, err := s.exec(ctx, "UPDATE annotators SET name = ? WHERE id = ?", name, id)
 	if err != nil {

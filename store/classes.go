@@ -27,7 +27,7 @@ func validHotKey(k string) error {
 		return nil
 	}
 	if len(k) != 1 || !strings.ContainsAny(strings.ToLower(k), "0123456789abcdefghijklmnopqrstuvwxyz") {
-		return fmt.Errorf("hot key %q must be one digit or letter: %w", k, project.ErrInvalid)
+		return project.Explained(project.ErrInvalid, "hot key %q must be one digit or letter", k)
 	}
 	return nil
 }
@@ -72,7 +72,7 @@ func (s *Store) ClassByName(ctx context.Context, name string) (project.Class, er
 // the next palette colour; an empty hot key takes the next free digit.
 func (s *Store) AddClass(ctx context.Context, c project.Class) (project.Class, error) {
 	if err := project.ValidateName("class", c.Name); err != nil {
-		return c, fmt.Errorf("add class: %v: %w", err, project.ErrInvalid)
+		return c, project.Explained(project.ErrInvalid, "add class: %v", err)
 	}
 	if err := validHotKey(c.HotKey); err != nil {
 		return c, fmt.Errorf("add class %q: %w", c.Name, err)
@@ -134,7 +134,7 @@ func freeDigit(ctx context.Context, tx *sql.Tx) string {
 // UpdateClass renames, recolours or re-keys a class; its labels keep it.
 func (s *Store) UpdateClass(ctx context.Context, c project.Class) error {
 	if err := project.ValidateName("class", c.Name); err != nil {
-		return fmt.Errorf("update class %d: %v: %w", c.ID, err, project.ErrInvalid)
+		return project.Explained(project.ErrInvalid, "update class %d: %v", c.ID, err)
 	}
 	if err := validHotKey(c.HotKey); err != nil {
 		return fmt.Errorf("update class %q: %w", c.Name, err)
@@ -169,7 +169,7 @@ func (s *Store) DeleteClass(ctx context.Context, id int64, opts project.DeleteCl
 		return fmt.Errorf("delete class: %w", err)
 	}
 	if opts.MoveTo == id {
-		return fmt.Errorf("merge class %q: cannot merge a class into itself: %w", c.Name, project.ErrInvalid)
+		return project.Explained(project.ErrInvalid, "merge class %q: cannot merge a class into itself", c.Name)
 	}
 	err = s.tx(ctx, func(tx *sql.Tx) error {
 		var labels, suggestions int

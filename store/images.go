@@ -87,8 +87,8 @@ func (s *Store) AddImage(ctx context.Context, im project.Image) (project.Image, 
 		im.Added = s.now()
 	}
 	if !im.Status.Valid() || im.Width <= 0 || im.Height <= 0 || im.Orientation < 1 || im.Orientation > 8 || len(im.SHA256) != 64 {
-		return im, fmt.Errorf("add image %s: status %q, size %dx%d, orientation %d, hash %q: %w",
-			im.Path, im.Status, im.Width, im.Height, im.Orientation, im.SHA256, project.ErrInvalid)
+		return im, project.Explained(project.ErrInvalid, "add image %s: not a valid image record (status %q, size %dx%d, orientation %d, hash %q)",
+			im.Path, im.Status, im.Width, im.Height, im.Orientation, im.SHA256)
 	}
 	res, err := s.exec(ctx, "INSERT INTO images(path, sha256, width, height, orientation, status, added_at) VALUES (?, ?, ?, ?, ?, ?, ?)",
 		im.Path, im.SHA256, im.Width, im.Height, im.Orientation, string(im.Status), formatTime(im.Added))
@@ -104,7 +104,7 @@ func (s *Store) AddImage(ctx context.Context, im project.Image) (project.Image, 
 func (s *Store) SetImageStatus(ctx context.Context, imageID, annotatorID int64, st project.ImageStatus, by int64) error {
 	what := fmt.Sprintf("set status of image %d for annotator %d", imageID, annotatorID)
 	if !st.Valid() {
-		return fmt.Errorf("%s: unknown status %q: %w", what, st, project.ErrInvalid)
+		return project.Explained(project.ErrInvalid, "%s: unknown status %q", what, st)
 	}
 	var reviewer any
 	if st == project.StatusReviewed && by != 0 {

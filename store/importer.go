@@ -22,7 +22,7 @@ func (s *Store) ImportDataset(ctx context.Context, ds *formats.Dataset, opts pro
 	}
 	rep := project.ImportReport{Annotator: opts.Annotator, ClassesCreated: []string{}, Unmatched: []string{}}
 	if err := project.ValidateName("annotator", opts.Annotator); err != nil {
-		return rep, fmt.Errorf("import: %v: %w", err, project.ErrInvalid)
+		return rep, project.Explained(project.ErrInvalid, "import: %v", err)
 	}
 	ims, err := s.Images(ctx)
 	if err != nil {
@@ -46,12 +46,12 @@ func (s *Store) ImportDataset(ctx context.Context, ds *formats.Dataset, opts pro
 		}
 	}
 	if n := len(rep.Unmatched); n > 0 && !opts.SkipUnmatched {
-		return rep, fmt.Errorf("import (nothing was stored): %s no image in the project: %s; add the images (--images DIR) or import the rest with --skip-unmatched: %w",
-			unmatchedCount(n), listSome(rep.Unmatched, 5), project.ErrInvalid)
+		return rep, project.Explained(project.ErrInvalid, "import (nothing was stored): %s no image in the project: %s; add the images (--images DIR) or import the rest with --skip-unmatched",
+			unmatchedCount(n), listSome(rep.Unmatched, 5))
 	}
 	if len(ds.Images) > 0 && len(rep.Unmatched) == len(ds.Images) {
-		return rep, fmt.Errorf("import (nothing was stored): none of the file's %d image records matches an image in the project, for example %s: %w",
-			len(ds.Images), rep.Unmatched[0], project.ErrInvalid)
+		return rep, project.Explained(project.ErrInvalid, "import (nothing was stored): none of the file's %d image records matches an image in the project, for example %s",
+			len(ds.Images), rep.Unmatched[0])
 	}
 	err = s.tx(ctx, func(tx *sql.Tx) error {
 		annID, err := ensureAnnotatorTx(ctx, tx, opts.Annotator, formatTime(s.now()))
@@ -124,9 +124,9 @@ func (s *Store) ImportDataset(ctx context.Context, ds *formats.Dataset, opts pro
 			}
 		}
 		if repeats > 0 {
-			return fmt.Errorf("%d of the file's boxes (the first at %s) are stored already for annotator %q, on the same image with the same class and corners: "+
-				"was this file imported before? Replace that annotator's imported boxes on the file's images (--again replace) or add these as well (--again append): %w",
-				repeats, firstRepeat, opts.Annotator, project.ErrDuplicate)
+			return project.Explained(project.ErrDuplicate, "%d of the file's boxes (the first at %s) are stored already for annotator %q, on the same image with the same class and corners: "+
+				"was this file imported before? Replace that annotator's imported boxes on the file's images (--again replace) or add these as well (--again append)",
+				repeats, firstRepeat, opts.Annotator)
 		}
 		return ins.flush()
 	})
@@ -151,7 +151,7 @@ func ensureAnnotatorTx(ctx context.Context, tx *sql.Tx, name, now string) (int64
 
 func addClassTx(ctx context.Context, tx *sql.Tx, name string) (int64, error) {
 	if err := project.ValidateName("class", name); err != nil {
-		return 0, fmt.Errorf("%v: %w", err, project.ErrInvalid)
+		return 0, project.Explained(project.ErrInvalid, "%v", err)
 	}
 	c, err := insertClassTx(ctx, tx, project.Class{Name: name})
 	return c.ID, err
@@ -295,5 +295,5 @@ func againRule(ctx context.Context, tx *sql.Tx, annID int64, imageIDs []int64, o
 	case project.ImportAgainRefuse:
 		return readPrior(ctx, tx, annID)
 	}
-	return nil, fmt.Errorf("unknown choice %q for boxes stored before (refuse, replace or append): %w", opts.Again, project.ErrInvalid)
+	return nil, project.Explained(project.ErrInvalid, "unknown choice %q for boxes stored before (refuse, replace or append)", opts.Again)
 }

@@ -70,7 +70,7 @@ func (s *Store) Label(ctx context.Context, id int64) (project.Label, error) {
 
 func checkBox(b project.Box) error {
 	if !b.Valid() {
-		return fmt.Errorf("box %v has no area or a non-finite coordinate: %w", b, project.ErrInvalid)
+		return project.Explained(project.ErrInvalid, "box %v has no area or a non-finite coordinate", b)
 	}
 	return nil
 }
@@ -106,7 +106,7 @@ func (s *Store) insertLabel(ctx context.Context, tx *sql.Tx, l project.Label) (p
 		l.Origin = project.OriginDrawn
 	}
 	if !l.Origin.Valid() {
-		return l, fmt.Errorf("add label: unknown origin %q: %w", l.Origin, project.ErrInvalid)
+		return l, project.Explained(project.ErrInvalid, "add label: unknown origin %q", l.Origin)
 	}
 	if err := checkBox(l.Box); err != nil {
 		return l, fmt.Errorf("add label: %w", err)

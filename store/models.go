@@ -32,7 +32,7 @@ func encodeEpochs(es []project.Epoch) (string, error) {
 			rows[i].ValAP50 = &v
 		}
 		if math.IsNaN(e.Loss) || math.IsInf(e.Loss, 0) {
-			return "", fmt.Errorf("epoch %d: loss %v is not a number: %w", e.Epoch, e.Loss, project.ErrInvalid)
+			return "", project.Explained(project.ErrInvalid, "epoch %d: loss %v is not a number", e.Epoch, e.Loss)
 		}
 	}
 	b, err := json.Marshal(rows)
@@ -78,11 +78,11 @@ func scanModel(row interface{ Scan(...any) error }, extra ...any) (project.Model
 		m.ValAP50 = ap.Float64
 	}
 	if err := json.Unmarshal([]byte(classes), &m.Classes); err != nil {
-		return m, fmt.Errorf("model %q: its class list is damaged: %v: %w", m.Name, err, project.ErrInvalid)
+		return m, project.Explained(project.ErrInvalid, "model %q: its class list is damaged: %v", m.Name, err)
 	}
 	var err error
 	if m.Epochs, err = decodeEpochs(epochs); err != nil {
-		return m, fmt.Errorf("model %q: its learning curve is damaged: %v: %w", m.Name, err, project.ErrInvalid)
+		return m, project.Explained(project.ErrInvalid, "model %q: its learning curve is damaged: %v", m.Name, err)
 	}
 	return m, nil
 }
@@ -93,13 +93,13 @@ func checkModel(m project.Model) error {
 	}
 	switch {
 	case m.Architecture == "":
-		return fmt.Errorf("model %q: no architecture: %w", m.Name, project.ErrInvalid)
+		return project.Explained(project.ErrInvalid, "model %q: no architecture", m.Name)
 	case len(m.Classes) == 0:
-		return fmt.Errorf("model %q: no classes: %w", m.Name, project.ErrInvalid)
+		return project.Explained(project.ErrInvalid, "model %q: no classes", m.Name)
 	case m.InputSize <= 0:
-		return fmt.Errorf("model %q: input size %d: %w", m.Name, m.InputSize, project.ErrInvalid)
+		return project.Explained(project.ErrInvalid, "model %q: input size %d", m.Name, m.InputSize)
 	case len(m.Weights) == 0:
-		return fmt.Errorf("model %q: no weights: %w", m.Name, project.ErrInvalid)
+		return project.Explained(project.ErrInvalid, "model %q: no weights", m.Name)
 	}
 	return nil
 }
@@ -217,7 +217,7 @@ func (s *Store) modelWhere(ctx context.Context, what, where string, args ...any)
 		return m, fmt.Errorf("read %s: %w", what, err)
 	}
 	if weightsSum(weights) != sum {
-		return m, fmt.Errorf("read %s: its weights are damaged (checksum mismatch); train it again or delete it: %w", what, project.ErrInvalid)
+		return m, project.Explained(project.ErrInvalid, "read %s: its weights are damaged (checksum mismatch); train it again or delete it", what)
 	}
 	m.Weights = weights
 	return m, nil

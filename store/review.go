@@ -60,7 +60,7 @@ func (s *Store) ReplaceSuggestionsOn(ctx context.Context, source string, imageID
 	}
 	for i, g := range gs {
 		if !on[g.ImageID] {
-			return project.SuggestionImportReport{Source: source}, fmt.Errorf("suggestion %d is on image %d, which is not among the images replaced: %w", i, g.ImageID, project.ErrInvalid)
+			return project.SuggestionImportReport{Source: source}, project.Explained(project.ErrInvalid, "suggestion %d is on image %d, which is not among the images replaced", i, g.ImageID)
 		}
 	}
 	if imageIDs == nil {
@@ -80,7 +80,7 @@ func (s *Store) importSuggestions(ctx context.Context, source string, onImages [
 		return project.SuggestionImportReport{Source: source}, fmt.Errorf("import suggestions of %q (nothing was stored): %w", source, err)
 	}
 	if strings.TrimSpace(source) == "" || source != strings.TrimSpace(source) {
-		return fail(fmt.Errorf("source name %q is empty or starts or ends with a space: %w", source, project.ErrInvalid))
+		return fail(project.Explained(project.ErrInvalid, "source name %q is empty or starts or ends with a space", source))
 	}
 	if onImages == nil && len(gs) == 0 {
 		// An empty import would silently delete every pending suggestion
@@ -91,8 +91,8 @@ func (s *Store) importSuggestions(ctx context.Context, source string, onImages [
 			return fail(s.translate(err))
 		}
 		if pending > 0 {
-			return fail(fmt.Errorf("no suggestions to import (an empty file, or every prediction filtered out), and importing nothing would delete the source's %d pending suggestions: %w",
-				pending, project.ErrInvalid))
+			return fail(project.Explained(project.ErrInvalid, "no suggestions to import (an empty file, or every prediction filtered out), and importing nothing would delete the source's %d pending suggestions",
+				pending))
 		}
 	}
 	err := s.tx(ctx, func(tx *sql.Tx) error {
@@ -227,13 +227,13 @@ func dropReviewIndexForBulk(ctx context.Context, tx *sql.Tx, source string, addi
 
 func checkImportedSuggestion(g project.Suggestion, source string, images, classes map[int64]bool) error {
 	if g.Source != "" && g.Source != source {
-		return fmt.Errorf("its source %q is not the imported source %q: %w", g.Source, source, project.ErrInvalid)
+		return project.Explained(project.ErrInvalid, "its source %q is not the imported source %q", g.Source, source)
 	}
 	if err := checkBox(g.Box); err != nil {
 		return err
 	}
 	if math.IsNaN(g.Score) || math.IsInf(g.Score, 0) {
-		return fmt.Errorf("score %v is not a finite number: %w", g.Score, project.ErrInvalid)
+		return project.Explained(project.ErrInvalid, "score %v is not a finite number", g.Score)
 	}
 	if !images[g.ImageID] {
 		return fmt.Errorf("image %d: %w", g.ImageID, project.ErrNotFound)
@@ -267,10 +267,10 @@ func suggestionWhere(q project.SuggestionQuery) (string, []any, error) {
 		state = project.SuggestionPending
 	}
 	if !state.Valid() {
-		return "", nil, fmt.Errorf("unknown suggestion state %q: %w", state, project.ErrInvalid)
+		return "", nil, project.Explained(project.ErrInvalid, "unknown suggestion state %q", state)
 	}
 	if math.IsNaN(q.MinScore) || math.IsNaN(q.MaxScore) {
-		return "", nil, fmt.Errorf("score bound is not a number: %w", project.ErrInvalid)
+		return "", nil, project.Explained(project.ErrInvalid, "score bound is not a number")
 	}
 	conds, args := []string{"state = ?"}, []any{string(state)}
 	if q.Source != "" {
@@ -378,7 +378,7 @@ func (s *Store) Decide(ctx context.Context, reviewerID int64, ds []project.Decis
 				return fmt.Errorf("suggestion %d: %w", d.SuggestionID, s.translate(err))
 			}
 			if g.State != project.SuggestionPending {
-				return fmt.Errorf("suggestion %d is no longer pending (it was %s): %w", g.ID, g.State, project.ErrInvalid)
+				return project.Explained(project.ErrInvalid, "suggestion %d is no longer pending (it was %s)", g.ID, g.State)
 			}
 			if !d.Accept {
 				if _, err := mark.ExecContext(ctx, string(project.SuggestionRejected), reviewerID, now, nil, 0.0, g.ID); err != nil {
@@ -446,7 +446,7 @@ func (s *Store) Undecide(ctx context.Context, suggestionIDs []int64) error {
 				return fmt.Errorf("suggestion %d: %w", id, s.translate(err))
 			}
 			if project.SuggestionState(state) == project.SuggestionPending {
-				return fmt.Errorf("suggestion %d is pending, there is no decision to undo: %w", id, project.ErrInvalid)
+				return project.Explained(project.ErrInvalid, "suggestion %d is pending, there is no decision to undo", id)
 			}
 			if label.Valid {
 				if _, err := drop.ExecContext(ctx, label.Int64); err != nil {

@@ -131,7 +131,7 @@ func existingFile(path string) error {
 	// project; only Create does that. (A WAL-mode project always has its
 	// header in the main file, so an empty one is never a project.)
 	if st.Size() == 0 {
-		return fmt.Errorf("open project %s: the file is empty (0 bytes), not a project; boxwright new makes one: %w", path, ErrNotProject)
+		return project.Explained(ErrNotProject, "open project %s: the file is empty (0 bytes), not a project; boxwright new makes one", path)
 	}
 	return nil
 }
@@ -457,7 +457,7 @@ func translateCode(err error) error {
 		case sqlite3.ErrConstraintForeignKey:
 			return fmt.Errorf("%v: %w", err, project.ErrInUse)
 		case sqlite3.ErrConstraintCheck, sqlite3.ErrConstraintNotNull:
-			return fmt.Errorf("%v: %w", err, project.ErrInvalid)
+			return project.Explained(project.ErrInvalid, "%v", err)
 		}
 		switch se.Code {
 		case sqlite3.ErrCorrupt, sqlite3.ErrNotADB:

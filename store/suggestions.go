@@ -85,7 +85,7 @@ func (s *Store) AddSuggestions(ctx context.Context, gs []project.Suggestion) ([]
 				return fmt.Errorf("suggestion %d: %w", i, err)
 			}
 			if strings.TrimSpace(g.Source) == "" {
-				return fmt.Errorf("suggestion %d: source name is empty: %w", i, project.ErrInvalid)
+				return project.Explained(project.ErrInvalid, "suggestion %d: source name is empty", i)
 			}
 			res, err := stmt.ExecContext(ctx, g.ImageID, g.ClassID, g.Box.X0, g.Box.Y0, g.Box.X1, g.Box.Y1, g.Score, g.Source,
 				string(project.SuggestionPending), now)

@@ -215,6 +215,18 @@ func TestRelinkCommandFindsMovedImages(t *testing.T) {
 
 // Only new makes a project: info, add-images and import refuse an empty
 // file by name and leave it empty.
+// noBareKind fails when a message that already says what is wrong ends in
+// the bare name of its kind of error (": invalid"), which tells a person
+// nothing more.
+func noBareKind(t *testing.T, msg string) {
+	t.Helper()
+	for _, kind := range []string{": invalid", ": not a Boxwright project", ": already exists"} {
+		if strings.HasSuffix(strings.TrimSpace(msg), kind) && len(msg) > 80 {
+			t.Errorf("message ends in %q: %s", kind, msg)
+		}
+	}
+}
+
 func TestEmptyFileIsNoProject(t *testing.T) {
 	dir := t.TempDir()
 	empty := filepath.Join(dir, "empty.boxw")
@@ -228,6 +240,7 @@ func TestEmptyFileIsNoProject(t *testing.T) {
 		if code != 1 || !strings.Contains(errs, "empty") || !strings.Contains(errs, "boxwright new") {
 			t.Errorf("boxwright %s: exit %d, %q", strings.Join(args, " "), code, errs)
 		}
+		noBareKind(t, errs)
 	}
 	if st, err := os.Stat(empty); err != nil || st.Size() != 0 {
 		t.Errorf("the empty file was changed: %v", err)

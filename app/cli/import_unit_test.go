@@ -52,6 +52,7 @@ func TestImportIsOneUnit(t *testing.T) {
 	if code != 1 || !strings.Contains(errs, "zz.jpg") || !strings.Contains(errs, "--skip-unmatched") {
 		t.Fatalf("import with a record of no image: exit %d, %q", code, errs)
 	}
+	noBareKind(t, errs)
 	if out := mustCLI(t, "info", p); strings.Contains(out, "Omar") {
 		t.Fatalf("the failed import created the annotator:\n%s", out)
 	}

@@ -50,6 +50,7 @@ func TestSilentChoicesAreStated(t *testing.T) {
 	if code != 1 || !strings.Contains(errs, "2 of the file's boxes") || !strings.Contains(errs, "--again replace") {
 		t.Errorf("importing the same file twice: exit %d, %q", code, errs)
 	}
+	noBareKind(t, errs)
 	omar := func() int {
 		var r struct {
 			Annotators []struct {

@@ -146,7 +146,7 @@ func (b *classBar) done() {
 // add stores a new class; the store gives it a palette colour and a free key.
 func (b *classBar) add(name string) error {
 	if err := project.ValidateName("class", name); err != nil {
-		return fmt.Errorf("%v: %w", err, project.ErrInvalid)
+		return project.Explained(project.ErrInvalid, "%v", err)
 	}
 	st, err := b.open()
 	if err != nil {
@@ -161,7 +161,7 @@ func (b *classBar) add(name string) error {
 
 func (b *classBar) rename(id int64, name string) error {
 	if err := project.ValidateName("class", name); err != nil {
-		return fmt.Errorf("%v: %w", err, project.ErrInvalid)
+		return project.Explained(project.ErrInvalid, "%v", err)
 	}
 	st, err := b.open()
 	if err != nil {
@@ -205,7 +205,7 @@ func (b *classBar) recolour(id int64, col color.NRGBA) error {
 // merge moves every label and suggestion of fromID into intoID and removes fromID.
 func (b *classBar) merge(fromID, intoID int64) error {
 	if fromID == intoID {
-		return fmt.Errorf("a class cannot be merged into itself: %w", project.ErrInvalid)
+		return project.Explained(project.ErrInvalid, "a class cannot be merged into itself")
 	}
 	st, err := b.open()
 	if err != nil {

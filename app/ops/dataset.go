@@ -48,7 +48,7 @@ func loadDataset(ctx context.Context, s backend.Project, layout formats.Layout, 
 
 // UnknownLayout is the error for a layout name that no reader knows.
 func UnknownLayout(layout formats.Layout) error {
-	return fmt.Errorf("unknown layout %q: use json (corner/size JSON), xml (per-image XML) or txt (centre-normalised text): %w", layout, project.ErrInvalid)
+	return project.Explained(project.ErrInvalid, "unknown layout %q: use json (corner/size JSON), xml (per-image XML) or txt (centre-normalised text)", layout)
 }
 
 // KnownLayout says whether labels can be read in the layout.
@@ -112,8 +112,8 @@ func RunImport(ctx context.Context, s backend.Project, j ImportJob) (res ImportR
 		return res, err
 	}
 	if len(unreadable) > 0 && !j.SkipUnmatched {
-		return res, fmt.Errorf("import (nothing was stored): %s no image in the project, for example %s; add the images (--images DIR) or import the rest with --skip-unmatched: %w",
-			Plural(len(unreadable), "label file")+" match", unreadable[0], project.ErrInvalid)
+		return res, project.Explained(project.ErrInvalid, "import (nothing was stored): %s no image in the project, for example %s; add the images (--images DIR) or import the rest with --skip-unmatched",
+			Plural(len(unreadable), "label file")+" match", unreadable[0])
 	}
 	rep, err := s.ImportDataset(ctx, ds, project.ImportOptions{Annotator: j.Annotator, CreateClasses: j.Create, Strict: j.Strict, Source: filepath.Base(j.Src),
 		ClassMap: j.ClassMap, SkipUnmatched: j.SkipUnmatched, Again: j.Again})

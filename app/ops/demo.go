@@ -25,8 +25,8 @@ func MakeDemo(ctx context.Context, dir string, cfg demo.Config, progress func(do
 	// The demo writes images/ and the project into dir: never over files
 	// someone else put there.
 	if entries, err := os.ReadDir(dir); err == nil && len(entries) > 0 {
-		return fmt.Errorf("make demo: %s is not empty (the demo writes %s and %s there): give a new or empty folder: %w",
-			dir, filepath.Join(dir, "images"), filepath.Join(dir, DemoProjectName), project.ErrInvalid)
+		return project.Explained(project.ErrInvalid, "make demo: %s is not empty (the demo writes %s and %s there): give a new or empty folder",
+			dir, filepath.Join(dir, "images"), filepath.Join(dir, DemoProjectName))
 	}
 	sc := demo.Generate(cfg)
 	imgDir := filepath.Join(dir, "images")

@@ -221,8 +221,8 @@ func LoadModel(ctx context.Context, st backend.Project, name string) (project.Mo
 		ids[i] = cl.ID
 	}
 	if len(missing) > 0 {
-		return pm, nil, nil, fmt.Errorf("model %q predicts classes the project no longer has (%s): retrain it on the current classes: %w",
-			pm.Name, strings.Join(missing, ", "), project.ErrInvalid)
+		return pm, nil, nil, project.Explained(project.ErrInvalid, "model %q predicts classes the project no longer has (%s): retrain it on the current classes",
+			pm.Name, strings.Join(missing, ", "))
 	}
 	return pm, m, ids, nil
 }

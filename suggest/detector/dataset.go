@@ -68,7 +68,7 @@ type Candidate struct {
 func Prepare(cands []Candidate, classes []project.Class, opt DataOptions) (TrainingSet, error) {
 	var ts TrainingSet
 	if opt.Validation < 0 || opt.Validation > 0.9 || math.IsNaN(opt.Validation) {
-		return ts, fmt.Errorf("validation share %v: give a number from 0 to 0.9: %w", opt.Validation, project.ErrInvalid)
+		return ts, project.Explained(project.ErrInvalid, "validation share %v: give a number from 0 to 0.9", opt.Validation)
 	}
 	minBoxes := opt.MinBoxes
 	if minBoxes <= 0 {
@@ -107,7 +107,7 @@ func Prepare(cands []Candidate, classes []project.Class, opt DataOptions) (Train
 			case !ok:
 				return ts, fmt.Errorf("class %q is not in the project: %w", name, project.ErrNotFound)
 			case slices.ContainsFunc(chosen, func(x project.Class) bool { return x.ID == c.ID }):
-				return ts, fmt.Errorf("class %q is named twice: %w", name, project.ErrInvalid)
+				return ts, project.Explained(project.ErrInvalid, "class %q is named twice", name)
 			case count[c.ID] == 0:
 				ts.Skipped = append(ts.Skipped, fmt.Sprintf("%s: no boxes", name))
 			case count[c.ID] < minBoxes:
@@ -117,7 +117,7 @@ func Prepare(cands []Candidate, classes []project.Class, opt DataOptions) (Train
 			}
 		}
 		if len(few) > 0 {
-			return ts, fmt.Errorf("too few boxes to train: %s; each class needs at least %d: %w", strings.Join(few, ", "), minBoxes, project.ErrInvalid)
+			return ts, project.Explained(project.ErrInvalid, "too few boxes to train: %s; each class needs at least %d", strings.Join(few, ", "), minBoxes)
 		}
 	}
 	if len(chosen) == 0 {
@@ -125,7 +125,7 @@ func Prepare(cands []Candidate, classes []project.Class, opt DataOptions) (Train
 		if len(ts.Skipped) > 0 {
 			why = strings.Join(ts.Skipped, "; ")
 		}
-		return ts, fmt.Errorf("nothing to train on: %s: %w", why, project.ErrInvalid)
+		return ts, project.Explained(project.ErrInvalid, "nothing to train on: %s", why)
 	}
 	index := map[int64]int{}
 	for i, c := range chosen {

@@ -24,15 +24,15 @@ func EncodeModel(m *Model) ([]byte, error) {
 // says so; nothing is guessed.
 func DecodeModel(pm project.Model) (*Model, error) {
 	if pm.Architecture != Architecture {
-		return nil, fmt.Errorf("model %q is of architecture %q, which this program does not run (it runs %q): train a new one: %w",
-			pm.Name, pm.Architecture, Architecture, project.ErrInvalid)
+		return nil, project.Explained(project.ErrInvalid, "model %q is of architecture %q, which this program does not run (it runs %q): train a new one",
+			pm.Name, pm.Architecture, Architecture)
 	}
 	if len(pm.Classes) == 0 || pm.InputSize <= 0 {
-		return nil, fmt.Errorf("model %q has no classes or input size: %w", pm.Name, project.ErrInvalid)
+		return nil, project.Explained(project.ErrInvalid, "model %q has no classes or input size", pm.Name)
 	}
 	net := NewNet(len(pm.Classes), pm.Seed)
 	if err := nn.ReadParams(bytes.NewReader(pm.Weights), net.State(), nil); err != nil {
-		return nil, fmt.Errorf("model %q: its weights cannot be read: %v: %w", pm.Name, err, project.ErrInvalid)
+		return nil, project.Explained(project.ErrInvalid, "model %q: its weights cannot be read: %v", pm.Name, err)
 	}
 	return &Model{Net: net, Classes: pm.Classes, InputSize: pm.InputSize}, nil
 }

@@ -100,7 +100,7 @@ type cached struct {
 func Train(ctx context.Context, ts TrainingSet, opt TrainOptions) (Result, error) {
 	var res Result
 	if opt.Epochs <= 0 && opt.Budget <= 0 {
-		return res, fmt.Errorf("train: give a number of epochs or a time budget: %w", project.ErrInvalid)
+		return res, project.Explained(project.ErrInvalid, "train: give a number of epochs or a time budget")
 	}
 	if opt.Load == nil {
 		return res, errors.New("train: no image loader")
@@ -120,7 +120,7 @@ func Train(ctx context.Context, ts TrainingSet, opt TrainOptions) (Result, error
 	var net *Net
 	if opt.From != nil {
 		if opt.From.InputSize != long || !slices.Equal(opt.From.Classes, ts.Classes) {
-			return res, fmt.Errorf("train: the model to continue predicts %v at %d px, this run %v at %d px: %w", opt.From.Classes, opt.From.InputSize, ts.Classes, long, project.ErrInvalid)
+			return res, project.Explained(project.ErrInvalid, "train: the model to continue predicts %v at %d px, this run %v at %d px", opt.From.Classes, opt.From.InputSize, ts.Classes, long)
 		}
 		net = opt.From.Net
 	} else {
@@ -137,7 +137,7 @@ func Train(ctx context.Context, ts TrainingSet, opt TrainOptions) (Result, error
 		return res, err
 	}
 	if len(train) == 0 {
-		return res, fmt.Errorf("train: none of the %d training images could be read: %w", len(ts.Train), project.ErrInvalid)
+		return res, project.Explained(project.ErrInvalid, "train: none of the %d training images could be read", len(ts.Train))
 	}
 	for _, c := range append(append([]cached{}, train...), val...) {
 		if c.img != nil {
