@@ -102,7 +102,7 @@ func WriteCornerJSON(w io.Writer, ds *Dataset) error {
 			id++
 			x, y, w, h := fromBox(b.Box)
 			// x and y are stored values; w, h and the area are computed.
-			w, h = roundSide(w), roundSide(h)
+			w, h = roundSide(w, b.Box.X0, b.Box.X1), roundSide(h, b.Box.Y0, b.Box.Y1)
 			if w <= 0 || h <= 0 {
 				return fmt.Errorf("write corner/size JSON: image %q: box %v has no width or no height", im.Name, b.Box)
 			}

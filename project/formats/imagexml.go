@@ -49,10 +49,10 @@ func xmlIndicesToBox(xmin, ymin, xmax, ymax float64) project.Box {
 //
 //	Box{X0: 0, Y0: 0, X1: 10, Y1: 10}  →  xmin=1, ymin=1, xmax=10, ymax=10
 //
-// xmin and ymin are computed, so they are rounded to PixelDecimals
+// xmin and ymin are computed, so their float64 noise is dropped
 // (0.1−1+1 is 0.09999999999999998 in float64, written as 0.1).
 func boxToXMLIndices(b project.Box) (xmin, ymin, xmax, ymax float64) {
-	return roundPixels(b.X0 + 1), roundPixels(b.Y0 + 1), b.X1, b.Y1
+	return dropNoise(b.X0+1, math.Max(math.Abs(b.X0), 1)), dropNoise(b.Y0+1, math.Max(math.Abs(b.Y0), 1)), b.X1, b.Y1
 }
 
 // xmlNode is one element of a parsed per-image XML file, with the line its

@@ -9,7 +9,8 @@ import "math"
 // centre-normalised (X0+X1)/2/W) carries the rounding of binary arithmetic:
 // 38.43 stored as a corner and a width of 38.43 computed as 49.2−10.77 is
 // 38.43000000000001 in float64. Such values are rounded to these many
-// decimals before they are written, so that the file says 38.43.
+// decimals before they are written, so that the file says 38.43, where
+// the rounding only removes that noise (dropNoise).
 const (
 	// PixelDecimals rounds computed pixel values (widths, heights, areas,
 	// 1-based indices) to 1e-6 px (1e-6 px² for areas): a thousandth of
@@ -45,14 +46,25 @@ func roundDecimals(v float64, d int) float64 {
 // roundPixels rounds a computed pixel value to PixelDecimals.
 func roundPixels(v float64) float64 { return roundDecimals(v, PixelDecimals) }
 
-// roundSide rounds a computed width or height like roundPixels, but a side
-// narrower than that precision keeps its exact value rather than becoming
-// 0, which no reader accepts: whatever was read can be written.
-func roundSide(v float64) float64 {
-	if r := roundPixels(v); r > 0 {
+// dropNoise rounds a value computed from stored ones to PixelDecimals only
+// when that moves it by no more than the float64 rounding of the
+// arithmetic that made it, at most 4 units in the last place of scale (the
+// largest magnitude that went into it; IEEE 754 round to nearest, common
+// practice). So 49.2−10.77 = 38.43000000000001 is written 38.43, while a
+// real 7e-7 px side, finer than PixelDecimals, keeps its value instead of
+// becoming 1e-6 or 0: whatever was read is written back as it was.
+func dropNoise(v, scale float64) float64 {
+	r := roundPixels(v)
+	if r != 0 && math.Abs(r-v) <= 4*0x1p-52*math.Max(math.Abs(scale), math.Abs(v)) {
 		return r
 	}
 	return v
+}
+
+// roundSide is dropNoise for a width X1−X0 (or a height): scale is the
+// larger corner.
+func roundSide(v, lo, hi float64) float64 {
+	return dropNoise(v, math.Max(math.Abs(lo), math.Abs(hi)))
 }
 
 // normalisedDecimals is the number of decimals that hold a fraction of a

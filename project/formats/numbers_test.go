@@ -108,10 +108,20 @@ func TestRoundDecimals(t *testing.T) {
 // A box narrower than the written precision is still written, with its
 // exact side, and reads back (the rounding must not make it 0).
 func TestTinyBoxesStillWritten(t *testing.T) {
-	if got := roundSide(3e-9); got != 3e-9 {
+	if got := roundSide(3e-9, 0, 3e-9); got != 3e-9 {
 		t.Errorf("roundSide(3e-9) = %v", got)
 	}
-	if got := roundSide(38.43000000000001); got != 38.43 {
-		t.Errorf("roundSide(38.43000000000001) = %v", got)
+	if got := roundSide(49.2-10.77, 10.77, 49.2); got != 38.43 {
+		t.Errorf("roundSide(49.2-10.77) = %v, want 38.43", got)
+	}
+	// Found by fuzzing: a real side finer than PixelDecimals was written
+	// as 1e-6, moving the corner by 3e-7 px.
+	if got := roundSide(7e-7, 0, 7e-7); got != 7e-7 {
+		t.Errorf("roundSide(7e-7) = %v, want 7e-7", got)
+	}
+	// Away from the origin the same side carries the noise of its corners
+	// and is still rounded only by that much.
+	if w := (1000 + 7e-7) - 1000; roundSide(w, 1000, 1000+7e-7) != w {
+		t.Errorf("roundSide(%v) near 1000 changed a real side", w)
 	}
 }
