@@ -21,18 +21,18 @@ func scanAnnotator(row interface{ Scan(...any) error }) (project.Annotator, erro
 func (s *Store) Annotators(ctx context.Context) ([]project.Annotator, error) {
 	rows, err := s.db.QueryContext(ctx, "SELECT id, name, created_at FROM annotators ORDER BY name, id")
 	if err != nil {
-		return nil, fmt.Errorf("list annotators: %w", err)
+		return nil, fmt.Errorf("list annotators: %w", s.damaged(err))
 	}
 	defer rows.Close()
 	var out []project.Annotator
 	for rows.Next() {
 		a, err := scanAnnotator(rows)
 		if err != nil {
-			return nil, fmt.Errorf("list annotators: %w", err)
+			return nil, fmt.Errorf("list annotators: %w", s.damaged(err))
 		}
 		out = append(out, a)
 	}
-	return out, rows.Err()
+	return out, s.damaged(rows.Err())
 }
 
 // Annotator reads one annotator.

@@ -36,18 +36,18 @@ func validHotKey(k string) error {
 func (s *Store) Classes(ctx context.Context) ([]project.Class, error) {
 	rows, err := s.db.QueryContext(ctx, "SELECT "+classCols+" FROM classes ORDER BY position, id")
 	if err != nil {
-		return nil, fmt.Errorf("list classes: %w", err)
+		return nil, fmt.Errorf("list classes: %w", s.damaged(err))
 	}
 	defer rows.Close()
 	var out []project.Class
 	for rows.Next() {
 		c, err := scanClass(rows)
 		if err != nil {
-			return nil, fmt.Errorf("list classes: %w", err)
+			return nil, fmt.Errorf("list classes: %w", s.damaged(err))
 		}
 		out = append(out, c)
 	}
-	return out, rows.Err()
+	return out, s.damaged(rows.Err())
 }
 
 // Class reads one class.
@@ -154,7 +154,7 @@ func (s *Store) UpdateClass(ctx context.Context, c project.Class) error {
 func (s *Store) RenameClass(ctx context.Context, oldName, newName string) error {
 	c, err := s.ClassByName(ctx, oldName)
 	if err != nil {
-		return fmt.Errorf("rename class: %w", err)
+		return fmt.Errorf("rename class: %w", s.damaged(err))
 	}
 	c.Name = newName
 	return s.UpdateClass(ctx, c)
@@ -166,7 +166,7 @@ func (s *Store) RenameClass(ctx context.Context, oldName, newName string) error 
 func (s *Store) DeleteClass(ctx context.Context, id int64, opts project.DeleteClassOptions) error {
 	c, err := s.Class(ctx, id)
 	if err != nil {
-		return fmt.Errorf("delete class: %w", err)
+		return fmt.Errorf("delete class: %w", s.damaged(err))
 	}
 	if opts.MoveTo == id {
 		return project.Explained(project.ErrInvalid, "merge class %q: cannot merge a class into itself", c.Name)
@@ -212,11 +212,11 @@ func (s *Store) DeleteClass(ctx context.Context, id int64, opts project.DeleteCl
 func (s *Store) MergeClass(ctx context.Context, from, into string) error {
 	f, err := s.ClassByName(ctx, from)
 	if err != nil {
-		return fmt.Errorf("merge: %w", err)
+		return fmt.Errorf("merge: %w", s.damaged(err))
 	}
 	t, err := s.ClassByName(ctx, into)
 	if err != nil {
-		return fmt.Errorf("merge: %w", err)
+		return fmt.Errorf("merge: %w", s.damaged(err))
 	}
 	return s.DeleteClass(ctx, f.ID, project.DeleteClassOptions{MoveTo: t.ID})
 }

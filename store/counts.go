@@ -121,7 +121,7 @@ func (s *Store) CountsByImage(ctx context.Context) (map[int64]project.ImageCount
 		SELECT image_id, 0, count(*) FROM suggestions WHERE state = 'pending' GROUP BY image_id)
 		GROUP BY image_id`)
 	if err != nil {
-		return nil, fmt.Errorf("count per image: %w", err)
+		return nil, fmt.Errorf("count per image: %w", s.damaged(err))
 	}
 	defer rows.Close()
 	out := map[int64]project.ImageCounts{}
@@ -129,9 +129,9 @@ func (s *Store) CountsByImage(ctx context.Context) (map[int64]project.ImageCount
 		var id int64
 		var c project.ImageCounts
 		if err := rows.Scan(&id, &c.Labels, &c.Pending); err != nil {
-			return nil, fmt.Errorf("count per image: %w", err)
+			return nil, fmt.Errorf("count per image: %w", s.damaged(err))
 		}
 		out[id] = c
 	}
-	return out, rows.Err()
+	return out, s.damaged(rows.Err())
 }

@@ -74,11 +74,11 @@ func (s *Store) LabelTallies(ctx context.Context) ([]project.LabelTally, error) 
 	for rows.Next() {
 		var t project.LabelTally
 		if err := rows.Scan(&t.ImageID, &t.ClassID, &t.AnnotatorID, &t.N); err != nil {
-			return nil, fmt.Errorf("count labels: %w", err)
+			return nil, fmt.Errorf("count labels: %w", s.damaged(err))
 		}
 		out = append(out, t)
 	}
-	return out, rows.Err()
+	return out, s.damaged(rows.Err())
 }
 
 // ReplaceAnnotatorLabels swaps all labels of an annotator for new ones in

@@ -175,3 +175,26 @@ func labelLeafPage(t *testing.T, path string) int64 {
 	}
 	return n
 }
+
+// A read that meets a damaged page says which file is damaged and how to
+// get the data back, not only SQLite's "database disk image is malformed"
+// (the window showed that alone when the annotators' index was hit).
+func TestReadOfDamagedPageNamesFileAndWayBack(t *testing.T) {
+	path := projectWithLabels(t, 3000)
+	overwritePage(t, path, labelLeafPage(t, path))
+	ro, err := OpenReadOnly(path)
+	if err != nil {
+		t.Fatalf("OpenReadOnly: %v", err)
+	}
+	defer ro.Close()
+	_, err = ro.Labels(bg, project.LabelFilter{})
+	var de *DamagedError
+	if !errors.As(err, &de) {
+		t.Fatalf("Labels over a damaged page: %v (%T), want a DamagedError", err, err)
+	}
+	for _, want := range []string{path, "boxwright recover"} {
+		if !strings.Contains(err.Error(), want) {
+			t.Errorf("message %q lacks %q", err, want)
+		}
+	}
+}

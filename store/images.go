@@ -46,18 +46,18 @@ func (s *Store) ImagesFor(ctx context.Context, annotatorID int64) ([]project.Ima
 func (s *Store) listImages(ctx context.Context, query string, args ...any) ([]project.Image, error) {
 	rows, err := s.db.QueryContext(ctx, query, args...)
 	if err != nil {
-		return nil, fmt.Errorf("list images: %w", err)
+		return nil, fmt.Errorf("list images: %w", s.damaged(err))
 	}
 	defer rows.Close()
 	var out []project.Image
 	for rows.Next() {
 		im, err := scanImage(rows)
 		if err != nil {
-			return nil, fmt.Errorf("list images: %w", err)
+			return nil, fmt.Errorf("list images: %w", s.damaged(err))
 		}
 		out = append(out, im)
 	}
-	return out, rows.Err()
+	return out, s.damaged(rows.Err())
 }
 
 // Image reads one image record.

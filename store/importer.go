@@ -131,7 +131,7 @@ func (s *Store) ImportDataset(ctx context.Context, ds *formats.Dataset, opts pro
 		return ins.flush()
 	})
 	if err != nil {
-		return project.ImportReport{Annotator: opts.Annotator, ClassesCreated: []string{}, Unmatched: []string{}}, fmt.Errorf("import (nothing was stored): %w", err)
+		return project.ImportReport{Annotator: opts.Annotator, ClassesCreated: []string{}, Unmatched: []string{}}, fmt.Errorf("import (nothing was stored): %w", s.damaged(err))
 	}
 	return rep, nil
 }

@@ -45,18 +45,18 @@ func (s *Store) Labels(ctx context.Context, f project.LabelFilter) ([]project.La
 	}
 	rows, err := s.db.QueryContext(ctx, q+" ORDER BY image_id, id", args...)
 	if err != nil {
-		return nil, fmt.Errorf("list labels: %w", err)
+		return nil, fmt.Errorf("list labels: %w", s.damaged(err))
 	}
 	defer rows.Close()
 	var out []project.Label
 	for rows.Next() {
 		l, err := scanLabel(rows)
 		if err != nil {
-			return nil, fmt.Errorf("list labels: %w", err)
+			return nil, fmt.Errorf("list labels: %w", s.damaged(err))
 		}
 		out = append(out, l)
 	}
-	return out, rows.Err()
+	return out, s.damaged(rows.Err())
 }
 
 // Label reads one label.
@@ -109,7 +109,7 @@ func (s *Store) insertLabel(ctx context.Context, tx *sql.Tx, l project.Label) (p
 		return l, project.Explained(project.ErrInvalid, "add label: unknown origin %q", l.Origin)
 	}
 	if err := checkBox(l.Box); err != nil {
-		return l, fmt.Errorf("add label: %w", err)
+		return l, fmt.Errorf("add label: %w", s.damaged(err))
 	}
 	now := s.now()
 	if l.Created.IsZero() {
@@ -128,7 +128,7 @@ func (s *Store) insertLabel(ctx context.Context, tx *sql.Tx, l project.Label) (p
 		if strings.Contains(err.Error(), "FOREIGN KEY") {
 			return l, fmt.Errorf("add label: image %d, class %d or annotator %d does not exist: %w", l.ImageID, l.ClassID, l.AnnotatorID, project.ErrNotFound)
 		}
-		return l, fmt.Errorf("add label: %w", err)
+		return l, fmt.Errorf("add label: %w", s.damaged(err))
 	}
 	l.ID, _ = res.LastInsertId()
 	return l, nil
@@ -217,7 +217,7 @@ func (s *Store) boxesIn(ctx context.Context, annotatorIDs []int64, from, to int6
 		var img int64
 		var b project.BoxRow
 		if err := rows.Scan(&img, &b.AnnotatorID, &b.ClassID, &b.Box.X0, &b.Box.Y0, &b.Box.X1, &b.Box.Y1); err != nil {
-			return nil, fmt.Errorf("read boxes: %w", err)
+			return nil, fmt.Errorf("read boxes: %w", s.damaged(err))
 		}
 		if len(out) == 0 || out[len(out)-1].ImageID != img {
 			out = append(out, project.ImageBoxes{ImageID: img})
@@ -225,5 +225,5 @@ func (s *Store) boxesIn(ctx context.Context, annotatorIDs []int64, from, to int6
 		last := &out[len(out)-1]
 		last.Boxes = append(last.Boxes, b)
 	}
-	return out, rows.Err()
+	return out, s.damaged(rows.Err())
 }

@@ -70,11 +70,11 @@ func (s *Store) migrate(ctx context.Context, l look) error {
 		return err
 	})
 	if err != nil {
-		return fmt.Errorf("preparing schema: %w", err)
+		return fmt.Errorf("preparing schema: %w", s.damaged(err))
 	}
 	current, err := s.SchemaVersion(ctx)
 	if err != nil {
-		return fmt.Errorf("reading schema version: %w", err)
+		return fmt.Errorf("reading schema version: %w", s.damaged(err))
 	}
 	for _, m := range migrations() {
 		if m.version <= current {

@@ -176,7 +176,7 @@ func (s *Store) AddModel(ctx context.Context, m project.Model) (project.Model, e
 // description (training continued from it), by ID.
 func (s *Store) UpdateModel(ctx context.Context, m project.Model) error {
 	if err := checkModel(m); err != nil {
-		return fmt.Errorf("update model: %w", err)
+		return fmt.Errorf("update model: %w", s.damaged(err))
 	}
 	epochs, err := encodeEpochs(m.Epochs)
 	if err != nil {
@@ -202,11 +202,11 @@ func (s *Store) Models(ctx context.Context) ([]project.Model, error) {
 	for rows.Next() {
 		m, err := scanModel(rows)
 		if err != nil {
-			return nil, fmt.Errorf("list models: %w", err)
+			return nil, fmt.Errorf("list models: %w", s.damaged(err))
 		}
 		out = append(out, m)
 	}
-	return out, rows.Err()
+	return out, s.damaged(rows.Err())
 }
 
 func (s *Store) modelWhere(ctx context.Context, what, where string, args ...any) (project.Model, error) {

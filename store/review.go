@@ -296,7 +296,7 @@ func suggestionWhere(q project.SuggestionQuery) (string, []any, error) {
 func (s *Store) CountSuggestions(ctx context.Context, q project.SuggestionQuery) (int, error) {
 	where, args, err := suggestionWhere(q)
 	if err != nil {
-		return 0, fmt.Errorf("count suggestions: %w", err)
+		return 0, fmt.Errorf("count suggestions: %w", s.damaged(err))
 	}
 	var n int
 	if err := s.db.QueryRowContext(ctx, "SELECT count(*) FROM suggestions"+where, args...).Scan(&n); err != nil {
@@ -310,7 +310,7 @@ func (s *Store) CountSuggestions(ctx context.Context, q project.SuggestionQuery)
 func (s *Store) QuerySuggestions(ctx context.Context, q project.SuggestionQuery) ([]project.Suggestion, error) {
 	where, args, err := suggestionWhere(q)
 	if err != nil {
-		return nil, fmt.Errorf("query suggestions: %w", err)
+		return nil, fmt.Errorf("query suggestions: %w", s.damaged(err))
 	}
 	query := "SELECT " + suggestionCols + " FROM suggestions" + where + " ORDER BY score DESC, id"
 	if q.Limit > 0 {
@@ -325,7 +325,7 @@ func (s *Store) QuerySuggestions(ctx context.Context, q project.SuggestionQuery)
 	for rows.Next() {
 		g, err := scanSuggestion(rows)
 		if err != nil {
-			return nil, fmt.Errorf("query suggestions: %w", err)
+			return nil, fmt.Errorf("query suggestions: %w", s.damaged(err))
 		}
 		out = append(out, g)
 	}
@@ -482,7 +482,7 @@ func (s *Store) ReviewRows(ctx context.Context, source string) ([]project.Review
 		var r project.ReviewRow
 		var state string
 		if err := rows.Scan(&r.Source, &r.ClassID, &r.Score, &state, &r.FinalIoU); err != nil {
-			return nil, fmt.Errorf("read review decisions: %w", err)
+			return nil, fmt.Errorf("read review decisions: %w", s.damaged(err))
 		}
 		r.State = project.SuggestionState(state)
 		out = append(out, r)
@@ -504,9 +504,9 @@ func (s *Store) SuggestionSources(ctx context.Context) ([]string, error) {
 	for rows.Next() {
 		var src string
 		if err := rows.Scan(&src); err != nil {
-			return nil, fmt.Errorf("list suggestion sources: %w", err)
+			return nil, fmt.Errorf("list suggestion sources: %w", s.damaged(err))
 		}
 		out = append(out, src)
 	}
-	return out, rows.Err()
+	return out, s.damaged(rows.Err())
 }

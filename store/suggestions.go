@@ -44,18 +44,18 @@ func (s *Store) Suggestions(ctx context.Context, f project.SuggestionFilter) ([]
 	}
 	rows, err := s.db.QueryContext(ctx, q+" ORDER BY image_id, score DESC, id", args...)
 	if err != nil {
-		return nil, fmt.Errorf("list suggestions: %w", err)
+		return nil, fmt.Errorf("list suggestions: %w", s.damaged(err))
 	}
 	defer rows.Close()
 	var out []project.Suggestion
 	for rows.Next() {
 		g, err := scanSuggestion(rows)
 		if err != nil {
-			return nil, fmt.Errorf("list suggestions: %w", err)
+			return nil, fmt.Errorf("list suggestions: %w", s.damaged(err))
 		}
 		out = append(out, g)
 	}
-	return out, rows.Err()
+	return out, s.damaged(rows.Err())
 }
 
 // Suggestion reads one suggestion.
@@ -98,7 +98,7 @@ func (s *Store) AddSuggestions(ctx context.Context, gs []project.Suggestion) ([]
 		return nil
 	})
 	if err != nil {
-		return nil, fmt.Errorf("add suggestions: %w", err)
+		return nil, fmt.Errorf("add suggestions: %w", s.damaged(err))
 	}
 	return ids, nil
 }
