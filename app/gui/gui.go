@@ -140,6 +140,8 @@ type ui struct {
 	// readOnlyWhy, when set, says why the project is open for looking
 	// only (a read-only file or folder, a damaged file); editing is off.
 	readOnlyWhy string
+	// countsMissing: a damaged page kept the label counts from being read.
+	countsMissing bool
 	banner      *fyne.Container
 	images      []project.Image
 	perImg      map[int64]project.ImageCounts
@@ -447,7 +449,7 @@ func (u *ui) openProject(path string) error {
 		return err
 	}
 	u.closeProject()
-	u.st, u.path, u.readOnlyWhy = traceWrites(s, u.trace), path, why
+	u.st, u.path, u.readOnlyWhy, u.countsMissing = traceWrites(s, u.trace), path, why, false
 	projectFolder = filepath.Dir(path)
 	u.me, u.sess, u.current = project.Annotator{}, nil, 0
 	if err := u.reload(); err != nil {
@@ -513,8 +515,11 @@ func (u *ui) reload() error {
 	if err != nil {
 		return err
 	}
+	// On a damaged project opened for looking, counts that sit on a
+	// damaged page are left out rather than refusing the whole window:
+	// the list, classes and annotators are what looking needs.
 	per, err := u.st.CountsByImage(ctx)
-	if err != nil {
+	if err != nil && !u.unreadable(err) {
 		return err
 	}
 	cs, err := u.st.Classes(ctx)
@@ -526,8 +531,11 @@ func (u *ui) reload() error {
 		return err
 	}
 	tal, err := u.st.LabelTallies(ctx)
-	if err != nil {
+	if err != nil && !u.unreadable(err) {
 		return err
+	}
+	if per == nil {
+		per = map[int64]project.ImageCounts{}
 	}
 	for id, c := range per {
 		c.Labels = 0 // counted again from the tallies, which edits keep up to date
@@ -575,9 +583,13 @@ func (u *ui) updateSummary() {
 			parts = append(parts, fmt.Sprintf("%d %s", n, statusWord(st)))
 		}
 	}
-	text := fmt.Sprintf("%s, %s, %s", ops.Plural(len(u.images), "image"), ops.Plural(labels, "label"), ops.Plural(pending, "pending suggestion"))
+	labelText, mineText := ops.Plural(labels, "label"), ops.Plural(mine, "label")
+	if u.countsMissing {
+		labelText, mineText = "labels not counted (damaged file)", "labels not counted"
+	}
+	text := fmt.Sprintf("%s, %s, %s", ops.Plural(len(u.images), "image"), labelText, ops.Plural(pending, "pending suggestion"))
 	if u.me.ID != 0 {
-		text += fmt.Sprintf("\n%s: %s", u.me.Name, ops.Plural(mine, "label"))
+		text += fmt.Sprintf("\n%s: %s", u.me.Name, mineText)
 		if len(parts) > 0 {
 			text += " · " + strings.Join(parts, " · ")
 		}
@@ -625,6 +637,20 @@ func (u *ui) haveProject() bool {
 		dialog.ShowInformation("No project", "Open or create a project first.", u.win)
 	}
 	return u.st != nil
+}
+
+// unreadable says whether err is a damaged page met while looking at a
+// project already open as damaged; the status line then says that some
+// counts could not be read.
+func (u *ui) unreadable(err error) bool {
+	if !errors.Is(err, project.ErrDamaged) || u.st == nil || u.st.Damage() == "" {
+		return false
+	}
+	if !u.countsMissing {
+		u.countsMissing = true
+		u.readOnlyWhy += " Some label counts sit on a damaged page and are not shown."
+	}
+	return true
 }
 
 // readOnlyReason says in plain words why a project opened read-only.

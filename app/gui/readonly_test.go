@@ -47,6 +47,26 @@ func TestDamagedProjectOpensForLookingOnly(t *testing.T) {
 	}
 }
 
+// A damaged page under the labels still lets the window open for looking
+// (it refused with "count labels: … malformed" before); the summary says
+// the counts are missing instead of showing 0 labels.
+func TestDamagedLabelPageStillOpensForLooking(t *testing.T) {
+	path := testkit.SmallDemo(t)
+	testkit.DamagePage(t, path, "labels", 0)
+	u, decoded, err := openWindow(t, path, "Ines")
+	if err != nil {
+		t.Fatalf("a project with a damaged label page should open for looking: %v", err)
+	}
+	defer u.closeProject()
+	waitDecoded(t, decoded)
+	if u.banner == nil || !strings.Contains(u.banner.Objects[1].(*widget.Label).Text, "not shown") {
+		t.Errorf("the banner should say some counts are not shown")
+	}
+	if !strings.Contains(u.summary.Text, "not counted") {
+		t.Errorf("summary %q should say the labels are not counted", u.summary.Text)
+	}
+}
+
 // The window shows the current annotator's own statuses: Ines marking an
 // image skipped does not skip it for Tomas.
 func TestStatusesAreTheAnnotatorsOwn(t *testing.T) {
