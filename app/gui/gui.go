@@ -142,11 +142,11 @@ type ui struct {
 	readOnlyWhy string
 	// countsMissing: a damaged page kept the label counts from being read.
 	countsMissing bool
-	banner      *fyne.Container
-	images      []project.Image
-	perImg      map[int64]project.ImageCounts
-	classes     []project.Class
-	classBy     map[int64]project.Class
+	banner        *fyne.Container
+	images        []project.Image
+	perImg        map[int64]project.ImageCounts
+	classes       []project.Class
+	classBy       map[int64]project.Class
 	// tallies: labels by image, then class or annotator (all annotators).
 	byClass     map[int64]map[int64]int
 	byAnnotator map[int64]map[int64]int
