@@ -39,6 +39,8 @@ ANNOTATOR = "killtest"
 # The image area of the 1280×820 window (window coordinates): the view
 # sits between the image list and the class bar, under the tool bar.
 AREA = (280, 145, 1030, 700)
+# The project schema version dump() reads (store/migrations).
+SCHEMA = 4
 
 
 # ---- the file --------------------------------------------------------------
@@ -48,6 +50,12 @@ def dump(path):
     labels, image statuses and pending suggestions."""
     c = sqlite3.connect(path)
     try:
+        # The queries below follow this schema; a newer one may keep its
+        # data elsewhere (schema 4 moved image status per annotator, and a
+        # check reading the old column reported false losses).
+        version = c.execute("SELECT max(version) FROM schema_migrations").fetchone()[0]
+        if version != SCHEMA:
+            sys.exit(f"killtest: {path} has schema {version}; this check reads schema {SCHEMA}: update dump() first")
         row = c.execute("SELECT id FROM annotators WHERE name = ?", (ANNOTATOR,)).fetchone()
         me = row[0] if row else -1
         mine, others = {}, []
@@ -57,7 +65,10 @@ def dump(path):
                 mine[lid] = (img, cls, origin, sugg or 0, (x0, y0, x1, y1))
             else:
                 others.append((lid, img, cls, ann, x0, y0, x1, y1, origin, sugg))
-        status = dict(c.execute("SELECT id, status FROM images"))
+        # A status belongs to an annotator (schema 4): the window labels
+        # as ANNOTATOR, so theirs is what it acknowledges; no row is "new".
+        status = {img: "new" for (img,) in c.execute("SELECT id FROM images")}
+        status.update(c.execute("SELECT image_id, status FROM image_status WHERE annotator_id = ?", (me,)))
         pending = {img: set() for img in status}
         sugg_image = {}
         for sid, img, state in c.execute("SELECT id, image_id, state FROM suggestions"):
@@ -264,7 +275,10 @@ def control(path, s, images, pre):
         if target is not None:
             dst.execute("UPDATE labels SET x1 = x1 + 0.5 WHERE id = ?", (target,))
         else:
-            dst.execute("UPDATE images SET status = CASE status WHEN 'skipped' THEN 'done' ELSE 'skipped' END WHERE id = ?", (images[-1],))
+            me = dst.execute("SELECT id FROM annotators WHERE name = ?", (ANNOTATOR,)).fetchone()[0]
+            dst.execute("INSERT INTO image_status(image_id, annotator_id, status, updated_at) VALUES (?, ?, 'skipped', '2026-01-01T00:00:00Z') "
+                        "ON CONFLICT(image_id, annotator_id) DO UPDATE SET status = CASE status WHEN 'skipped' THEN 'done' ELSE 'skipped' END",
+                        (images[-1], me))
         dst.commit()
     finally:
         src.close()
