@@ -23,6 +23,9 @@ var (
 	// ErrBusy means another program held the project for writing longer
 	// than a writer waits.
 	ErrBusy = errors.New("project is busy")
+	// ErrNotAllowed means the person's role in a shared project does not
+	// allow the change (the server's row-level security refused it).
+	ErrNotAllowed = errors.New("not allowed for your role in this project")
 )
 
 // Explained returns an error whose text is the formatted message alone,
