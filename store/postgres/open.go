@@ -232,3 +232,8 @@ func redact(err error) string {
 	}
 	return msg
 }
+
+// tx runs fn in one transaction: every edit is its own, all or nothing.
+func (s *Store) tx(ctx context.Context, fn func(pgx.Tx) error) error {
+	return s.translate(pgx.BeginFunc(ctx, s.pool, fn))
+}

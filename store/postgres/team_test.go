@@ -57,14 +57,7 @@ func TestScramVerifierMatchesRFC7677(t *testing.T) {
 // security), with annotators ines and tomas and reviewer rita.
 func teamProject(t *testing.T) (*pgtest.Server, *Store) {
 	t.Helper()
-	srv := pgtest.Start(t)
-	srv.Exec(t, "postgres", `CREATE ROLE olga LOGIN CREATEROLE PASSWORD 'olga-pw'`)
-	srv.Exec(t, "postgres", `CREATE DATABASE harbour OWNER olga`)
-	s, err := Create(bg, srv.DSN("olga", "olga-pw", "harbour"))
-	if err != nil {
-		t.Fatal(err)
-	}
-	t.Cleanup(func() { s.Close() })
+	srv, s := ownerProject(t)
 	for _, m := range []struct{ name, kind string }{{"ines", KindAnnotator}, {"tomas", KindAnnotator}, {"rita", KindReviewer}} {
 		if _, err := s.AddMember(bg, m.name, m.kind, m.name+"-pw"); err != nil {
 			t.Fatal(err)
