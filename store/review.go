@@ -403,6 +403,11 @@ func (s *Store) Decide(ctx context.Context, reviewerID int64, ds []project.Decis
 			if _, err := mark.ExecContext(ctx, string(state), reviewerID, now, labelID, g.Box.IoU(box), g.ID); err != nil {
 				return fmt.Errorf("accept suggestion %d: %w", g.ID, s.translate(err))
 			}
+			// The accepted box is the reviewer's label: like a drawn one,
+			// it starts their work on the image.
+			if err := markStarted(ctx, tx, g.ImageID, reviewerID, now); err != nil {
+				return fmt.Errorf("accept suggestion %d: mark image %d started: %w", g.ID, g.ImageID, s.translate(err))
+			}
 			made[g.ID] = labelID
 		}
 		return nil

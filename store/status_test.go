@@ -114,3 +114,39 @@ func TestStatusMigrationFromProjectWide(t *testing.T) {
 		s.Close()
 	}
 }
+
+// Accepting a suggestion gives the reviewer a label, which starts their
+// work on the image just as drawing one does (the window showed
+// "started" while the file kept "new": the kill test caught it).
+func TestAcceptingStartsTheImage(t *testing.T) {
+	s := newStore(t)
+	im := addImage(t, s, 0)
+	rita, _ := s.AddAnnotator(bg, "Rita")
+	c, _ := s.AddClass(bg, project.Class{Name: "buoy"})
+	ids, err := s.AddSuggestions(bg, []project.Suggestion{
+		{ImageID: im.ID, ClassID: c.ID, Box: project.Box{X0: 1, Y0: 1, X1: 9, Y1: 9}, Score: 0.9, Source: "m"},
+		{ImageID: im.ID, ClassID: c.ID, Box: project.Box{X0: 20, Y0: 1, X1: 29, Y1: 9}, Score: 0.8, Source: "m"},
+	})
+	if err != nil {
+		t.Fatal(err)
+	}
+	statusOf := func() project.ImageStatus {
+		ims, err := s.ImagesFor(bg, rita.ID)
+		if err != nil {
+			t.Fatal(err)
+		}
+		return ims[0].Status
+	}
+	if _, err := s.Decide(bg, rita.ID, []project.Decision{{SuggestionID: ids[1], Accept: false}}); err != nil {
+		t.Fatal(err)
+	}
+	if got := statusOf(); got != project.StatusNew {
+		t.Errorf("after a rejection the image is %s for the reviewer, want new (no label of theirs)", got)
+	}
+	if _, err := s.Decide(bg, rita.ID, []project.Decision{{SuggestionID: ids[0], Accept: true}}); err != nil {
+		t.Fatal(err)
+	}
+	if got := statusOf(); got != project.StatusStarted {
+		t.Errorf("after accepting, the image is %s for the reviewer, want started", got)
+	}
+}
