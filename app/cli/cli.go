@@ -59,6 +59,7 @@ func commands(window Window) map[string]command {
 		"models":      cmdModels,
 		"train":       cmdTrain,
 		"detect":      cmdDetect,
+		"team":        cmdTeam,
 		"demo":        func(args []string, stdout, stderr io.Writer) error { return cmdDemo(args, stdout, stderr, window) },
 	}
 }

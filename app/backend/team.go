@@ -1,0 +1,33 @@
+package backend
+
+import (
+	"context"
+
+	"boxwright/project"
+	"boxwright/store/postgres"
+)
+
+// Team is the membership of a server project.
+type Team interface {
+	Team(ctx context.Context) ([]postgres.Member, error)
+	AddMember(ctx context.Context, name, kind, password string) ([]string, error)
+	RemoveMember(ctx context.Context, name string) ([]string, error)
+	Close() error
+}
+
+// OpenTeam opens a server project's membership; a project file has no
+// team (nor roles), and says so.
+func OpenTeam(ctx context.Context, arg string) (Team, error) {
+	w, err := Locate(arg)
+	if err != nil {
+		return nil, err
+	}
+	if !w.IsServer() {
+		return nil, project.Explained(project.ErrInvalid, "%s is a project file: a team with roles and passwords belongs to a server project (postgres://… or @NAME)", arg)
+	}
+	s, err := postgres.Open(ctx, w.Server) // its errors name the server and database, never the password
+	if err != nil {
+		return nil, err
+	}
+	return s, nil
+}
