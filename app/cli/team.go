@@ -103,4 +103,3 @@ func readNewPassword(name string, stderr io.Writer) (string, error) {
 	}
 	return strings.TrimRight(line, "\r\n"), nil
 }
-
