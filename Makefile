@@ -12,7 +12,7 @@ DEMO_DIR ?= build/demo
 BUILD_DEBS := gcc pkg-config libgl1-mesa-dev libx11-dev libxcursor-dev libxrandr-dev \
               libxinerama-dev libxi-dev libxxf86vm-dev
 TEST_DEBS := xvfb xauth xdotool imagemagick sqlite3 python3-shapely python3-sklearn python3-statsmodels python3-scipy python3-opencv python3-torch \
-             libopenblas-dev
+             libopenblas-dev postgresql
 
 export CGO_ENABLED := 1
 
