@@ -1,6 +1,5 @@
 package project
 
-
 // AssignImages hands each image to k of the annotators, in turn, so that
 // everyone gets the same number of images give or take one and, for
 // k > 1, each annotator is paired with the others about equally often
