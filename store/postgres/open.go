@@ -67,8 +67,9 @@ var ErrNewerSchema = errors.New("the project was made by a newer Boxwright")
 
 // Store is an open server project.
 type Store struct {
-	pool *pgxpool.Pool
-	name string // the connection string without its password, for messages
+	pool  *pgxpool.Pool
+	name  string     // the connection string without its password, for messages
+	cache imageCache // this machine's copies of the image bytes (imagecache.go)
 }
 
 // Open connects to an existing server project and brings its schema up
