@@ -66,6 +66,30 @@ func TestImageCacheEvictsLeastRecentlyUsed(t *testing.T) {
 		t.Error("b fetched again differs")
 	}
 
+	// Many fetches of one image at once share one download and all get
+	// the whole file.
+	if err := s.ClearImageCache(); err != nil {
+		t.Fatal(err)
+	}
+	paths := make(chan string, 8)
+	for range 8 {
+		go func() {
+			p, err := s.FetchImage(bg, ims[3])
+			if err != nil {
+				t.Error(err)
+			}
+			paths <- p
+		}()
+	}
+	for range 8 {
+		if got, _ := os.ReadFile(<-paths); !bytes.Equal(got, files[3]) {
+			t.Error("a fetch at the same time as others got other bytes")
+		}
+	}
+	if use, _ := s.ImageCacheUse(); use.Files != 1 {
+		t.Errorf("after 8 fetches of one image at once: %+v", use)
+	}
+
 	// A damaged copy on the server is refused and nothing is cached.
 	if err := s.ClearImageCache(); err != nil {
 		t.Fatal(err)

@@ -199,3 +199,10 @@ func (s *Store) Thumbnail(ctx context.Context, imageID int64) ([]byte, error) {
 	}
 	return b, nil
 }
+
+// The parts of the domain's storage interface kept in these files.
+var (
+	_ project.ClassStore     = (*Store)(nil)
+	_ project.AnnotatorStore = (*Store)(nil)
+	_ project.ImageStore     = (*Store)(nil)
+)

@@ -118,9 +118,17 @@ func (s *Store) AddImages(ctx context.Context, paths []string, opts project.Inta
 			}
 		}()
 	}
+	// The workers run at most a few files ahead of the report, so that a
+	// cancel stops soon and little is sent after it.
+	ahead := make(chan struct{}, 2*max(1, UploadWorkers))
 	go func() {
 		defer close(next)
 		for i := range files {
+			select {
+			case ahead <- struct{}{}:
+			case <-work.Done():
+				return
+			}
 			select {
 			case next <- i:
 			case <-work.Done():
@@ -161,8 +169,12 @@ func (s *Store) AddImages(ctx context.Context, paths []string, opts project.Inta
 	}
 	for i, f := range files {
 		var r intakeResult
+		if ctx.Err() != nil {
+			return stop(i, fmt.Errorf("adding images: %w", ctx.Err()))
+		}
 		select {
 		case r = <-results[i]:
+			<-ahead
 		case <-ctx.Done():
 			return stop(i, fmt.Errorf("adding images: %w", ctx.Err()))
 		}

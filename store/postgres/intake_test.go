@@ -358,6 +358,42 @@ func TestServerCancelledIntakeLeavesNothingHalfWritten(t *testing.T) {
 		t.Errorf("fetched after the resumed upload: %d bytes, %v", len(got), err)
 	}
 
+	// A file that changes while it is sent is skipped with the reason,
+	// and what was sent of it is removed.
+	changing := imgWrite(t, filepath.Join(t.TempDir(), "changing.png"), imgNoisePNG(t, 60, 60, 6))
+	chunkSent = func(_ string, n int) {
+		if n == 1 {
+			imgWrite(t, changing, imgNoisePNG(t, 60, 60, 7))
+		}
+	}
+	before, _, contents := countChunks(t, s)
+	rep, err = s.AddImages(bg, []string{changing}, project.IntakeOptions{})
+	if err != nil || rep.Added != 0 || len(rep.Failed) != 1 || !strings.Contains(rep.Failed[0].Error, "changed while it was being added") {
+		t.Errorf("a file changing during its upload: %+v %v", rep, err)
+	}
+	if after, _, contentsAfter := countChunks(t, s); after != before || contentsAfter != contents {
+		t.Errorf("a changed file left %d chunks and %d contents (were %d and %d)", after, contentsAfter, before, contents)
+	}
+	// An unfinished upload no one touched for a day is removed by the
+	// next intake; a recent one stays (another client may be sending it).
+	chunkSent = nil
+	s.pool.Exec(bg, `INSERT INTO image_contents(sha256, size, chunks, touched_at) VALUES (repeat('1', 64), 10, 1, now() - interval '25 hours'),
+		(repeat('2', 64), 10, 1, now() - interval '1 hour')`)
+	s.pool.Exec(bg, `INSERT INTO image_chunks(sha256, n, bytes) VALUES (repeat('1', 64), 0, 'abc'), (repeat('2', 64), 0, 'abc')`)
+	if _, err := s.AddImages(bg, nil, project.IntakeOptions{}); err != nil {
+		t.Fatal(err)
+	}
+	var left []string
+	rows, _ := s.pool.Query(bg, "SELECT left(sha256, 1) FROM image_contents WHERE NOT complete ORDER BY 1")
+	for rows.Next() {
+		var k string
+		rows.Scan(&k)
+		left = append(left, k)
+	}
+	if strings.Join(left, ",") != "2" {
+		t.Errorf("unfinished uploads left: %v, want only the recent one", left)
+	}
+
 	// Cancelled between files (the file intake's test), every image
 	// finished is stored and counted, and no more.
 	chunkSent = nil
