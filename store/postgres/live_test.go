@@ -21,16 +21,6 @@ func liveProject(t *testing.T) (*pgtest.Server, *Store) {
 	return srv, s
 }
 
-func openAs(t *testing.T, srv *pgtest.Server, user string) *Store {
-	t.Helper()
-	s, err := Open(bg, srv.DSN(user, user+"-pw", "harbour"))
-	if err != nil {
-		t.Fatal(err)
-	}
-	t.Cleanup(func() { s.Close() })
-	return s
-}
-
 // watcher collects what Watch delivers.
 type watcher struct {
 	mu  sync.Mutex

@@ -70,6 +70,7 @@ type Store struct {
 	pool   *pgxpool.Pool
 	name   string       // the connection string without its password, for messages
 	notice func(string) // SetWaitNotice
+	cache  imageCache   // this machine's copies of the image bytes (imagecache.go)
 }
 
 // Open connects to an existing server project and brings its schema up

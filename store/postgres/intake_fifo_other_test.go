@@ -1,0 +1,7 @@
+//go:build !linux
+
+package postgres
+
+import "errors"
+
+func imgMkfifo(string) error { return errors.New("named pipes are made here only on Linux") }
