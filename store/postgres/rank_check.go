@@ -3,6 +3,7 @@ package postgres
 import (
 	"context"
 	"fmt"
+	"strings"
 
 	"github.com/jackc/pgx/v5"
 
@@ -35,5 +36,9 @@ func (s *Store) ownerOnly(ctx context.Context, q querier, what string) error {
 	if kind == "" {
 		return project.Explained(project.ErrNotAllowed, "%s: %s is not on the team of %s; only an owner of the project may", what, user, s.name)
 	}
-	return project.Explained(project.ErrNotAllowed, "%s: only an owner of the project may; %s is a %s", what, user, kind)
+	article := "a"
+	if strings.ContainsRune("aeiou", rune(kind[0])) {
+		article = "an"
+	}
+	return project.Explained(project.ErrNotAllowed, "%s: only an owner of the project may; %s is %s %s", what, user, article, kind)
 }
