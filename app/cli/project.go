@@ -153,6 +153,26 @@ func cmdClasses(args []string, stdout, stderr io.Writer) error {
 		if len(rest) == 0 {
 			return usageError("usage: boxwright classes PROJECT.boxw add NAME...")
 		}
+		// All or nothing: every name is checked before the first is added.
+		known, err := s.Classes(ctx)
+		if err != nil {
+			return err
+		}
+		exists, given := map[string]bool{}, map[string]bool{}
+		for _, c := range known {
+			exists[c.Name] = true
+		}
+		for _, name := range rest {
+			switch err := project.ValidateName("class", name); {
+			case err != nil:
+				return usageError(err.Error() + " (no class was added)")
+			case given[name]:
+				return usageError(fmt.Sprintf("class %q is given twice (no class was added)", name))
+			case exists[name]:
+				return fmt.Errorf("class %q already exists (no class was added)", name)
+			}
+			given[name] = true
+		}
 		for _, name := range rest {
 			c, err := s.AddClass(ctx, project.Class{Name: name})
 			if err != nil {

@@ -1,0 +1,56 @@
+package cli
+
+import (
+	"path/filepath"
+	"strings"
+	"testing"
+)
+
+// classNames lists the project's classes in their order.
+func classNames(t *testing.T, path string) string {
+	t.Helper()
+	return strings.TrimSpace(mustCLI(t, "classes", path, "list"))
+}
+
+// classes add is all or nothing: a name that exists, is given twice or is
+// not a valid name stops the command before any class is stored.
+func TestClassesAddAllOrNothing(t *testing.T) {
+	path := filepath.Join(t.TempDir(), "p.boxw")
+	mustCLI(t, "new", path)
+	mustCLI(t, "classes", path, "add", "buoy")
+	before := classNames(t, path)
+	for _, c := range []struct {
+		args []string
+		code int
+		want string
+	}{
+		{[]string{"x", "x"}, 2, `class "x" is given twice`},
+		{[]string{"kayak", "buoy"}, 1, `class "buoy" already exists`},
+		{[]string{"kayak", ""}, 2, "class name is empty"},
+	} {
+		code, _, errs := cli(t, append([]string{"classes", path, "add"}, c.args...)...)
+		if code != c.code || !strings.Contains(errs, c.want) || !strings.Contains(errs, "no class was added") {
+			t.Errorf("classes add %q: exit %d, %q; want %d and %q", c.args, code, errs, c.code, c.want)
+		}
+		if got := classNames(t, path); got != before {
+			t.Errorf("classes add %q stored something: %q, was %q", c.args, got, before)
+		}
+	}
+}
+
+// Renaming onto an existing name and deleting a class in use say so in
+// plain words: no SQL, no internal ids, no bare error kind, "1 label".
+func TestClassesMessages(t *testing.T) {
+	path := filepath.Join(t.TempDir(), "p.boxw")
+	mustCLI(t, "new", path)
+	mustCLI(t, "classes", path, "add", "buoy", "kayak")
+	code, _, errs := cli(t, "classes", path, "rename", "buoy", "kayak")
+	if code != 1 || strings.Contains(errs, "UNIQUE") || !strings.Contains(errs, `class "kayak" exists already`) {
+		t.Errorf("rename onto an existing name: exit %d, %q", code, errs)
+	}
+	noBareKind(t, errs)
+	code, _, errs = cli(t, "classes", path, "rename", "buoy", " ")
+	if code != 1 || !strings.Contains(errs, `rename class "buoy": class name is empty`) {
+		t.Errorf("rename to a blank name: exit %d, %q", code, errs)
+	}
+}
