@@ -54,3 +54,26 @@ func TestClassesMessages(t *testing.T) {
 		t.Errorf("rename to a blank name: exit %d, %q", code, errs)
 	}
 }
+
+// relink refuses a folder that is not there or is a file (it used to say
+// "relinked 0, still missing 0" and exit 0, as if it had searched), and
+// lists the files it skipped, each path once.
+func TestRelinkNeedsAFolder(t *testing.T) {
+	dir := t.TempDir()
+	path := filepath.Join(dir, "p.boxw")
+	mustCLI(t, "new", path)
+	for _, c := range []struct{ arg, want string }{
+		{filepath.Join(dir, "nowhere"), "does not exist"},
+		{path, "is not a folder"},
+	} {
+		code, _, errs := cli(t, "relink", path, c.arg)
+		if code != 1 || !strings.Contains(errs, c.arg) || !strings.Contains(errs, c.want) {
+			t.Errorf("relink %s: exit %d, %q; want 1 and %q", c.arg, code, errs, c.want)
+		}
+	}
+	bad := writeFile(t, "bad.jpg", "not a picture")
+	out := mustCLI(t, "relink", path, filepath.Dir(bad))
+	if !strings.Contains(out, "skipped "+bad+": ") || strings.Count(out, bad) != 1 {
+		t.Errorf("relink of a folder with a damaged file says %q; want it skipped with its path once", out)
+	}
+}

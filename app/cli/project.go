@@ -6,6 +6,7 @@ import (
 	"flag"
 	"fmt"
 	"io"
+	"os"
 	"strings"
 	"text/tabwriter"
 
@@ -67,7 +68,7 @@ func printIntake(stdout io.Writer, rep project.IntakeReport, asJSON bool) error 
 	}
 	fmt.Fprintf(stdout, "added %d, duplicates %d, relinked %d, failed %d\n", rep.Added, rep.Duplicates, rep.Relinked, len(rep.Failed))
 	for _, f := range rep.Failed {
-		fmt.Fprintf(stdout, "  skipped %s: %s\n", f.Path, f.Error)
+		fmt.Fprintf(stdout, "  skipped %s: %s\n", f.Path, strings.TrimPrefix(f.Error, f.Path+": "))
 	}
 	return nil
 }
@@ -99,6 +100,15 @@ func cmdRelink(args []string, stdout, stderr io.Writer) error {
 	if err != nil {
 		return err
 	}
+	// A folder that is not there (or is a file) would find nothing and
+	// report "relinked 0" as if it had been searched.
+	if st, err := os.Stat(pos[1]); errors.Is(err, os.ErrNotExist) {
+		return fmt.Errorf("folder %s does not exist: give the folder to search for the moved images", pos[1])
+	} else if err != nil {
+		return fmt.Errorf("folder %s: %w", pos[1], err)
+	} else if !st.IsDir() {
+		return fmt.Errorf("%s is not a folder: give the folder to search for the moved images", pos[1])
+	}
 	s, ctx, done, err := openCLI(pos[0])
 	if err != nil {
 		return err
@@ -116,6 +126,9 @@ func cmdRelink(args []string, stdout, stderr io.Writer) error {
 		return writeJSON(stdout, map[string]any{"relinked": rep.Relinked, "still_missing": len(missing), "failed": rep.Failed})
 	}
 	fmt.Fprintf(stdout, "relinked %d, still missing %d\n", rep.Relinked, len(missing))
+	for _, f := range rep.Failed {
+		fmt.Fprintf(stdout, "  skipped %s: %s\n", f.Path, strings.TrimPrefix(f.Error, f.Path+": "))
+	}
 	return nil
 }
 
