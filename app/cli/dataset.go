@@ -106,7 +106,7 @@ func cmdExport(args []string, stdout, stderr io.Writer) error {
 	annotator := fs.String("annotator", "", "")
 	out := fs.String("out", "", "")
 	split := fs.String("split", "80/10/10", "")
-	seed := fs.Int64("seed", 1, "")
+	seed := seedIn(fs, "seed", 1, "")
 	images := fs.String("images", "copy", "")
 	asJSON := fs.Bool("json", false, "")
 	const synopsis = "export PROJECT.boxw --layout json|xml|txt --annotator NAME --out DIR [--split 80/10/10] [--seed N] [--images copy|link|none] [--json]"

@@ -77,3 +77,28 @@ func TestRelinkNeedsAFolder(t *testing.T) {
 		t.Errorf("relink of a folder with a damaged file says %q; want it skipped with its path once", out)
 	}
 }
+
+// Whole-number flags name their range (the flag package said only "parse
+// error"), and train --epochs -1 is refused as out of range instead of
+// "give --minutes or --epochs".
+func TestWholeNumberFlagsNameTheirRange(t *testing.T) {
+	path := filepath.Join(t.TempDir(), "p.boxw")
+	for _, c := range []struct {
+		args []string
+		want string
+	}{
+		{[]string{"train", path, "--annotator", "A", "--epochs", "-1"}, "-epochs: give a whole number from 1 to 100000"},
+		{[]string{"train", path, "--annotator", "A", "--epochs", "NaN"}, "-epochs: give a whole number from 1 to 100000"},
+		{[]string{"train", path, "--annotator", "A", "--threads", "-1", "--epochs", "1"}, "-threads: give a whole number from 0 to 1024"},
+		{[]string{"train", path, "--annotator", "A", "--seed", "-1", "--epochs", "1"}, "-seed: give a whole number from 0 to 18446744073709551615"},
+		{[]string{"detect", path, "--threads", "x"}, "-threads: give a whole number from 0 to 1024"},
+		{[]string{"export", path, "--layout", "json", "--annotator", "A", "--out", "o", "--seed", "1e3"}, "-seed: give a whole number from -9223372036854775808"},
+		{[]string{"demo", filepath.Join(t.TempDir(), "d"), "--no-open", "--seed", "x"}, "-seed: give a whole number"},
+		{[]string{"demo", filepath.Join(t.TempDir(), "d"), "--no-open", "--images", "0"}, "-images: give a whole number from 1 to 100000"},
+	} {
+		code, _, errs := cli(t, c.args...)
+		if code != 2 || !strings.Contains(errs, c.want) || strings.Contains(errs, "parse error") {
+			t.Errorf("%q: exit %d, %q; want 2 and %q", c.args, code, errs, c.want)
+		}
+	}
+}
