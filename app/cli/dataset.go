@@ -84,7 +84,7 @@ func cmdImport(args []string, stdout, stderr io.Writer) error {
 		fmt.Fprintf(stdout, "images: added %d, already known %d, relinked %d, skipped %d\n", res.ImagesAdded.Added,
 			res.ImagesAdded.Duplicates, res.ImagesAdded.Relinked, len(res.ImagesAdded.Failed))
 	}
-	fmt.Fprintf(stdout, "imported %d labels on %d images for annotator %q; clipped %d boxes to their image\n", rep.Labels, rep.Images, rep.Annotator, rep.Clipped)
+	fmt.Fprintf(stdout, "imported %s on %s for annotator %q; clipped %s at the image edge\n", ops.Plural(rep.Labels, "label"), ops.Plural(rep.Images, "image"), rep.Annotator, ops.Plural(rep.Clipped, "box"))
 	if rep.Replaced > 0 {
 		fmt.Fprintf(stdout, "replaced %s imported before on these images\n", ops.Plural(rep.Replaced, "label"))
 	}
@@ -92,7 +92,7 @@ func cmdImport(args []string, stdout, stderr io.Writer) error {
 		fmt.Fprintf(stdout, "created classes: %s\n", strings.Join(rep.ClassesCreated, ", "))
 	}
 	if len(rep.Unmatched) > 0 {
-		fmt.Fprintf(stdout, "skipped %d records that match no project image (--skip-unmatched):\n", len(rep.Unmatched))
+		fmt.Fprintf(stdout, "skipped %s matching no project image (--skip-unmatched):\n", ops.Plural(len(rep.Unmatched), "record"))
 		for _, u := range rep.Unmatched {
 			fmt.Fprintf(stdout, "  %s\n", u)
 		}

@@ -1,9 +1,13 @@
 package cli
 
 import (
+	"encoding/json"
+	"fmt"
 	"path/filepath"
 	"strings"
 	"testing"
+
+	"boxwright/app/internal/testkit"
 )
 
 // classNames lists the project's classes in their order.
@@ -100,5 +104,29 @@ func TestWholeNumberFlagsNameTheirRange(t *testing.T) {
 		if code != 2 || !strings.Contains(errs, c.want) || strings.Contains(errs, "parse error") {
 			t.Errorf("%q: exit %d, %q; want 2 and %q", c.args, code, errs, c.want)
 		}
+	}
+}
+
+// Counts of one read "1 label", "1 image", "1 box", never "1 labels".
+func TestCountsOfOneAreSingular(t *testing.T) {
+	path := testkit.SmallDemo(t)
+	var ims []struct {
+		Path          string
+		Width, Height int
+	}
+	if err := json.Unmarshal([]byte(mustCLI(t, "images", path, "--json")), &ims); err != nil {
+		t.Fatal(err)
+	}
+	// One box, running over the right edge so that it is clipped.
+	labels := writeFile(t, "one.json", fmt.Sprintf(`{"images":[{"id":1,"file_name":%q,"width":%d,"height":%d}],
+		"categories":[{"id":1,"name":"buoy"}],"annotations":[{"id":1,"image_id":1,"category_id":1,"bbox":[%d,1,20,9]}]}`,
+		ims[0].Path, ims[0].Width, ims[0].Height, ims[0].Width-10))
+	out := mustCLI(t, "import", path, "--layout", "json", "--annotator", "Uma", labels)
+	if !strings.Contains(out, "imported 1 label on 1 image") || !strings.Contains(out, "clipped 1 box ") {
+		t.Errorf("import of one clipped box says %q", out)
+	}
+	out = mustCLI(t, "info", path)
+	if !strings.Contains(out, "1 label;") || strings.Contains(out, " 1 labels") {
+		t.Errorf("info with an annotator of one label says %q", out)
 	}
 }

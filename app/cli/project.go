@@ -335,7 +335,7 @@ func cmdInfo(args []string, stdout, stderr io.Writer) error {
 		fmt.Fprintf(stdout, "  class %-20s %d\n", n.Name, n.Labels)
 	}
 	for _, n := range r.Annotators {
-		fmt.Fprintf(stdout, "  annotator %-16s %d labels; images", n.Name, n.Labels)
+		fmt.Fprintf(stdout, "  annotator %-16s %s; images", n.Name, ops.Plural(n.Labels, "label"))
 		for _, st := range project.ImageStatuses {
 			fmt.Fprintf(stdout, " %s %d", st, r.StatusByAnnotator[n.Name][st])
 		}

@@ -153,7 +153,7 @@ func cmdDetect(args []string, stdout, stderr io.Writer) error {
 	for _, d := range rep.Detections {
 		fmt.Fprintf(stdout, "%s\t%s\t%.1f,%.1f,%.1f,%.1f\t%.3f\n", paths[d.ImageID], names[d.ClassID], d.Box.X0, d.Box.Y0, d.Box.X1, d.Box.Y1, d.Score)
 	}
-	fmt.Fprintf(stdout, "model %s: %d detections on %d images", rep.Model, len(rep.Detections), rep.Images)
+	fmt.Fprintf(stdout, "model %s: %s on %s", rep.Model, ops.Plural(len(rep.Detections), "detection"), ops.Plural(rep.Images, "image"))
 	if *save {
 		fmt.Fprintf(stdout, ", stored as pending suggestions of source %q", rep.Source)
 	}

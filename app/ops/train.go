@@ -290,7 +290,7 @@ func Detect(ctx context.Context, st backend.Project, j DetectJob) (DetectReport,
 func TrainMemory(rep TrainReport) string {
 	s := fmt.Sprintf("images cached %.0f MB, peak heap %.0f MB", float64(rep.CacheBytes)/1e6, float64(rep.PeakHeapBytes)/1e6)
 	if rep.Reloaded > 0 {
-		s += fmt.Sprintf("; %d images did not fit the cache and were read again at each use", rep.Reloaded)
+		s += fmt.Sprintf("; %s read again at each use (the cache was full)", Plural(rep.Reloaded, "image"))
 	}
 	return s
 }
