@@ -3,6 +3,7 @@ package cli
 import (
 	"encoding/json"
 	"fmt"
+	"os"
 	"path/filepath"
 	"strings"
 	"testing"
@@ -129,4 +130,56 @@ func TestCountsOfOneAreSingular(t *testing.T) {
 	if !strings.Contains(out, "1 label;") || strings.Contains(out, " 1 labels") {
 		t.Errorf("info with an annotator of one label says %q", out)
 	}
+}
+
+// Messages say each thing once and end in what to do: no "w: w 1.5", no
+// "eval: eval:", no "class "x": class "x"", no bare "not found".
+func TestMessagesNameThingsOnce(t *testing.T) {
+	path := testkit.SmallDemo(t)
+	labels := filepath.Join(t.TempDir(), "labels")
+	mustCLI(t, "export", path, "--layout", "txt", "--annotator", "Ines", "--out", labels, "--images", "none")
+	var one string
+	if m, _ := filepath.Glob(filepath.Join(labels, "*", "labels", "*.txt")); len(m) > 0 {
+		one = m[0]
+	} else {
+		t.Fatal("the export wrote no label file")
+	}
+	if err := appendLine(one, "0 0.5 0.5 1.5 0.1"); err != nil {
+		t.Fatal(err)
+	}
+	for _, c := range []struct {
+		args []string
+		code int
+		want string
+	}{
+		{[]string{"import", path, "--layout", "txt", "--annotator", "Zed", "--classes", filepath.Join(labels, "classes.txt"), filepath.Dir(one)}, 1, ": w: 1.5 is outside 0..1"},
+		{[]string{"eval", path, "--truth", "Ines", "--source", "x", "--interpolation", "7"}, 2, `eval: --interpolation "7": give all, 11, 101 or step`},
+		{[]string{"eval", path, "--truth", "Ines", "--source", "x", "--protocol", "x"}, 2, `eval: --protocol "x": give voc or coco`},
+		{[]string{"eval", path, "--truth", "Nobody", "--source", "x"}, 1, `ground truth (--truth): annotator "Nobody": not found`},
+		{[]string{"similar", path, "--image", "harbour-001.jpg", "--exemplar", "1,1,9,9", "--class", "zzz", "--save"}, 1, `similar: --class: class "zzz": not found`},
+		{[]string{"similar", path, "--image", "harbour-001.jpg", "--exemplar", "NaN,1,9,9"}, 2, `"NaN" is not a finite number`},
+		{[]string{"detect", path}, 1, "the project has no current model: train one first (boxwright train)"},
+		{[]string{"detect", path, "--model", "nosuch"}, 1, `the project has no model "nosuch" (boxwright models lists the ones it has)`},
+		{[]string{"models", path, "--use", "nosuch"}, 1, `the project has no model "nosuch" (boxwright models lists the ones it has)`},
+	} {
+		code, _, errs := cli(t, c.args...)
+		if code != c.code || !strings.Contains(errs, c.want) {
+			t.Errorf("%q: exit %d, %q; want %d and %q", c.args, code, errs, c.code, c.want)
+		}
+		if strings.HasSuffix(strings.TrimSpace(errs), ": not found") && !strings.Contains(c.want, "not found") {
+			t.Errorf("%q ends in a bare kind: %q", c.args, errs)
+		}
+	}
+}
+
+func appendLine(path, line string) error {
+	f, err := os.OpenFile(path, os.O_APPEND|os.O_WRONLY, 0)
+	if err != nil {
+		return err
+	}
+	if _, err := f.WriteString(line + "\n"); err != nil {
+		f.Close()
+		return err
+	}
+	return f.Close()
 }

@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"image"
 	"io"
+	"math"
 	"strconv"
 	"strings"
 
@@ -22,8 +23,8 @@ func parseCorners(s string) (project.Box, error) {
 	var v [4]float64
 	for i, p := range parts {
 		f, err := strconv.ParseFloat(strings.TrimSpace(p), 64)
-		if err != nil {
-			return project.Box{}, fmt.Errorf("--exemplar: %q is not a number", p)
+		if err != nil || math.IsNaN(f) || math.IsInf(f, 0) {
+			return project.Box{}, fmt.Errorf("--exemplar: %q is not a finite number (give x0,y0,x1,y1 in image pixels)", p)
 		}
 		v[i] = f
 	}
@@ -111,7 +112,7 @@ func cmdSimilar(args []string, stdout, stderr io.Writer) error {
 	var class project.Class
 	if *className != "" {
 		if class, err = st.ClassByName(ctx, *className); err != nil {
-			return fmt.Errorf("--class %q: %w", *className, err)
+			return fmt.Errorf("--class: %w", err)
 		}
 	}
 	img, err := ops.DecodeProjectImage(st, im)

@@ -2,6 +2,7 @@ package ops
 
 import (
 	"context"
+	"errors"
 	"fmt"
 	"image"
 	"math"
@@ -201,7 +202,10 @@ func LoadModel(ctx context.Context, st backend.Project, name string) (project.Mo
 	if name == "" {
 		pm, err = st.CurrentModel(ctx)
 		if err != nil {
-			return pm, nil, nil, fmt.Errorf("no current model: train one first (boxwright train): %w", err)
+			if errors.Is(err, project.ErrNotFound) {
+				return pm, nil, nil, project.Explained(project.ErrNotFound, "the project has no current model: train one first (boxwright train)")
+			}
+			return pm, nil, nil, err
 		}
 	} else if pm, err = st.Model(ctx, name); err != nil {
 		return pm, nil, nil, err
