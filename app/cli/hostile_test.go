@@ -183,3 +183,18 @@ func appendLine(path, line string) error {
 	}
 	return f.Close()
 }
+
+// A text-label folder without a class-names file beside it (or above it)
+// says where it looked and to name one with --classes.
+func TestTextImportWithoutClassNamesSaysWhatToDo(t *testing.T) {
+	path := testkit.SmallDemo(t)
+	labels := filepath.Join(t.TempDir(), "labels")
+	if err := os.MkdirAll(labels, 0o755); err != nil {
+		t.Fatal(err)
+	}
+	code, _, errs := cli(t, "import", path, "--layout", "txt", "--annotator", "Zed", labels)
+	want := "no such file: " + filepath.Join(labels, "classes.txt") + ", nor in the folder above: name the class-names file (--classes FILE)"
+	if code != 1 || !strings.Contains(errs, want) {
+		t.Errorf("text import without classes.txt: exit %d, %q; want %q", code, errs, want)
+	}
+}
