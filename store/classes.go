@@ -83,6 +83,7 @@ func (s *Store) AddClass(ctx context.Context, c project.Class) (project.Class, e
 		c, err = insertClassTx(ctx, tx, c)
 		return err
 	})
+	err = s.translate(err)
 	if errors.Is(err, project.ErrDuplicate) {
 		return c, project.Explained(project.ErrDuplicate, "add class %q: a class of that name exists already", c.Name)
 	}

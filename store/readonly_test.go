@@ -2,6 +2,7 @@ package store
 
 import (
 	"bytes"
+	"database/sql"
 	"errors"
 	"os"
 	"os/exec"
@@ -10,6 +11,8 @@ import (
 	"syscall"
 	"testing"
 	"time"
+
+	"github.com/mattn/go-sqlite3"
 
 	"boxwright/project"
 )
@@ -131,5 +134,29 @@ func readOnlyChecks(t *testing.T, dir string) {
 	entries, _ := os.ReadDir(dir)
 	if len(entries) != 1 {
 		t.Errorf("the folder holds %d entries after the failed write and the read, want only the project", len(entries))
+	}
+}
+
+// A write refused because the file is read-only (for example a project
+// whose write-ahead files exist but whose file this user may not write)
+// names the file and what to do, in every write path that runs in a
+// transaction: not the database's "attempt to write a readonly database:
+// read-only", and whatever the step that met it.
+func TestReadOnlyWriteErrorNamesTheFile(t *testing.T) {
+	path := projectWithLabels(t, 1)
+	s, err := Open(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer s.Close()
+	refused := sqlite3.Error{Code: sqlite3.ErrReadonly, ExtendedCode: sqlite3.ErrReadonlyDbMoved}
+	for _, got := range []error{
+		s.tx(bg, func(*sql.Tx) error { return refused }),
+		s.translate(s.tx(bg, func(*sql.Tx) error { return refused })), // translated twice: the same
+	} {
+		want := "cannot write to " + path + ": the file or its folder is read-only for this user (make both writable, or work on a copy)"
+		if !errors.Is(got, project.ErrReadOnly) || got.Error() != want {
+			t.Errorf("read-only write: %v, want %q", got, want)
+		}
 	}
 }

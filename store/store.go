@@ -404,7 +404,7 @@ func (s *Store) DB() *sql.DB { return s.db }
 func (s *Store) tx(ctx context.Context, fn func(*sql.Tx) error) error {
 	tx, err := s.begin(ctx)
 	if err != nil {
-		return err
+		return s.damaged(err)
 	}
 	if err := fn(tx); err != nil {
 		tx.Rollback()
@@ -414,9 +414,10 @@ func (s *Store) tx(ctx context.Context, fn func(*sql.Tx) error) error {
 }
 
 // damaged turns an error that met a damaged page into a DamagedError
-// naming this file, and leaves every other error as it is.
+// naming this file, and one that met a read-only file into the reason
+// naming it; every other error is left as it is.
 func (s *Store) damaged(err error) error {
-	if errors.Is(translateCode(err), project.ErrDamaged) {
+	if c := translateCode(err); errors.Is(c, project.ErrDamaged) || errors.Is(c, project.ErrReadOnly) {
 		return s.translate(err)
 	}
 	return err
@@ -483,7 +484,9 @@ func (s *Store) translate(err error) error {
 	case errors.Is(err, project.ErrDamaged):
 		return &DamagedError{Path: s.path, Detail: strings.TrimSuffix(err.Error(), ": "+project.ErrDamaged.Error())}
 	case errors.Is(err, project.ErrReadOnly) && !s.readOnly:
-		return fmt.Errorf("cannot write to %s: the file or its folder is read-only for this user: %w", s.path, err)
+		// The database's own words ("attempt to write a readonly
+		// database: read-only") add nothing a person can act on.
+		return project.Explained(project.ErrReadOnly, "cannot write to %s: the file or its folder is read-only for this user (make both writable, or work on a copy)", s.path)
 	case errors.Is(err, project.ErrReadOnly):
 		return fmt.Errorf("%s is open read-only, so nothing can be changed: %w", s.path, project.ErrReadOnly)
 	}
