@@ -198,3 +198,38 @@ func TestTextImportWithoutClassNamesSaysWhatToDo(t *testing.T) {
 		t.Errorf("text import without classes.txt: exit %d, %q; want %q", code, errs, want)
 	}
 }
+
+// One image given two records (by two names in a JSON file, or by two XML
+// files) is refused and nothing is stored; it was imported as "2 images".
+func TestImportRefusesTwoRecordsOfOneImage(t *testing.T) {
+	path := testkit.SmallDemo(t)
+	var ims []struct {
+		Path          string
+		Width, Height int
+	}
+	if err := json.Unmarshal([]byte(mustCLI(t, "images", path, "--json")), &ims); err != nil {
+		t.Fatal(err)
+	}
+	im := ims[0]
+	twoNames := writeFile(t, "two.json", fmt.Sprintf(`{"images":[{"id":1,"file_name":%q,"width":%d,"height":%d},{"id":2,"file_name":%q,"width":%d,"height":%d}],
+		"categories":[{"id":1,"name":"buoy"}],"annotations":[{"id":1,"image_id":1,"category_id":1,"bbox":[1,1,9,9]},{"id":2,"image_id":2,"category_id":1,"bbox":[30,30,9,9]}]}`,
+		im.Path, im.Width, im.Height, filepath.Base(im.Path), im.Width, im.Height))
+	xmlDir := t.TempDir()
+	one := fmt.Sprintf(`<annotation><filename>%s</filename><size><width>%d</width><height>%d</height></size>
+		<object><name>buoy</name><bndbox><xmin>2</xmin><ymin>2</ymin><xmax>9</xmax><ymax>9</ymax></bndbox></object></annotation>`, im.Path, im.Width, im.Height)
+	for _, n := range []string{"a.xml", "b.xml"} {
+		if err := os.WriteFile(filepath.Join(xmlDir, n), []byte(one), 0o644); err != nil {
+			t.Fatal(err)
+		}
+	}
+	before := mustCLI(t, "info", path)
+	for _, c := range [][]string{{"json", twoNames}, {"xml", xmlDir}} {
+		code, _, errs := cli(t, "import", path, "--layout", c[0], "--annotator", "Zed", c[1])
+		if code != 1 || !strings.Contains(errs, "nothing was stored") || !strings.Contains(errs, "are both the project image") {
+			t.Errorf("%s layout, one image twice: exit %d, %q", c[0], code, errs)
+		}
+		if after := mustCLI(t, "info", path); after != before {
+			t.Errorf("%s layout: the failed import changed the project:\n%s\nwas\n%s", c[0], after, before)
+		}
+	}
+}
