@@ -18,6 +18,9 @@ type classMapFlag map[string]string
 
 func (m classMapFlag) String() string { return "" }
 
+// repeatable: --map may be given once per class.
+func (m classMapFlag) repeatable() {}
+
 func (m classMapFlag) Set(v string) error {
 	from, to, ok := strings.Cut(v, "=")
 	if !ok || strings.TrimSpace(from) == "" || strings.TrimSpace(to) == "" {

@@ -233,3 +233,27 @@ func TestImportRefusesTwoRecordsOfOneImage(t *testing.T) {
 		}
 	}
 }
+
+// A flag that takes one value refuses a second, different one before the
+// project is opened (export --annotator Ines --annotator Tomas exported
+// Tomas without a word); the same value twice is harmless, and --map
+// collects one value per class.
+func TestFlagGivenTwice(t *testing.T) {
+	path := testkit.SmallDemo(t)
+	out := filepath.Join(t.TempDir(), "out")
+	for _, args := range [][]string{
+		{"export", path, "--layout", "json", "--annotator", "Ines", "--annotator", "Tomas", "--out", out},
+		{"consensus", path, "--annotators", "Ines,Tomas", "--iou", "0.5", "--iou=0.9"},
+		{"info", path, "--json", "--json=false"},
+	} {
+		code, _, errs := cli(t, args...)
+		if code != 2 || !strings.Contains(errs, "is given twice") || strings.Contains(errs, "invalid value") {
+			t.Errorf("%q: exit %d, %q; want 2 and \"is given twice\"", args, code, errs)
+		}
+	}
+	if _, err := os.Stat(out); err == nil {
+		t.Error("the refused export wrote its folder")
+	}
+	mustCLI(t, "agree", path, "--annotators", "Ines,Tomas", "--iou", "0.5", "--iou", "0.5")
+	mustCLI(t, "info", path, "--json", "--json")
+}
