@@ -126,6 +126,10 @@ func TestCountsOfOneAreSingular(t *testing.T) {
 	if !strings.Contains(out, "imported 1 label on 1 image") || !strings.Contains(out, "clipped 1 box ") {
 		t.Errorf("import of one clipped box says %q", out)
 	}
+	preds := writeFile(t, "one-pred.json", fmt.Sprintf(`[{"file_name":%q,"category":"buoy","bbox":[1,1,20,20],"score":0.9}]`, ims[0].Path))
+	if out := mustCLI(t, "suggestions", "import", path, preds, "--source", "m"); !strings.Contains(out, "added 1 pending suggestion;") {
+		t.Errorf("suggestions import of one prediction says %q", out)
+	}
 	out = mustCLI(t, "info", path)
 	if !strings.Contains(out, "1 label;") || strings.Contains(out, " 1 labels") {
 		t.Errorf("info with an annotator of one label says %q", out)
