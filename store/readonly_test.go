@@ -160,3 +160,40 @@ func TestReadOnlyWriteErrorNamesTheFile(t *testing.T) {
 		}
 	}
 }
+
+// Opening what is not a project file and creating where that cannot be
+// done say so once, in words, without the bare kind at the end ("not a
+// regular file: not a Boxwright project", "open X: no such file or
+// directory").
+func TestOpenAndCreateSayWhy(t *testing.T) {
+	dir := t.TempDir()
+	pipe := filepath.Join(dir, "p.boxw")
+	if err := syscall.Mkfifo(pipe, 0o644); err != nil {
+		t.Skipf("no named pipes here: %v", err)
+	}
+	link := filepath.Join(dir, "gone.boxw")
+	if err := os.Symlink(filepath.Join(dir, "nowhere"), link); err != nil {
+		t.Skipf("no symbolic links here: %v", err)
+	}
+	for _, c := range []struct {
+		err  error
+		kind error
+		want string
+	}{
+		{errOf(Open(pipe)), ErrNotProject, "open project " + pipe + ": it is a named pipe, not a project file"},
+		{errOf(Open(dir)), ErrNotProject, "open project " + dir + ": it is a folder, not a project file"},
+		{errOf(Create(filepath.Join(dir, "no", "p.boxw"))), os.ErrNotExist, "the folder " + filepath.Join(dir, "no") + " does not exist (make it first)"},
+		{errOf(Create(link)), ErrExists, "a link of that name exists, leading nowhere"},
+	} {
+		if c.err == nil || !errors.Is(c.err, c.kind) || !strings.HasSuffix(c.err.Error(), c.want) && !strings.Contains(c.err.Error(), c.want+";") {
+			t.Errorf("%v; want %q (and errors.Is %v)", c.err, c.want, c.kind)
+		}
+	}
+}
+
+func errOf(s *Store, err error) error {
+	if s != nil {
+		s.Close()
+	}
+	return err
+}

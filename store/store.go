@@ -17,6 +17,7 @@ import (
 	"github.com/mattn/go-sqlite3"
 
 	"boxwright/project"
+	"boxwright/project/formats"
 )
 
 // Extension is the file extension of a project file.
@@ -74,7 +75,13 @@ func Create(path string) (*Store, error) {
 	f, err := os.OpenFile(path, os.O_WRONLY|os.O_CREATE|os.O_EXCL, 0o644)
 	if err != nil {
 		if errors.Is(err, os.ErrExist) {
+			if _, serr := os.Stat(path); errors.Is(serr, os.ErrNotExist) {
+				return nil, project.Explained(ErrExists, "create project %s: a link of that name exists, leading nowhere; remove it or choose another name", path)
+			}
 			return nil, fmt.Errorf("create project %s: %w", path, ErrExists)
+		}
+		if dir := filepath.Dir(path); errors.Is(err, os.ErrNotExist) {
+			return nil, project.Explained(os.ErrNotExist, "create project %s: the folder %s does not exist (make it first)", path, dir)
 		}
 		return nil, fmt.Errorf("create project %s: %w", path, err)
 	}
@@ -122,10 +129,10 @@ func existingFile(path string) error {
 		return fmt.Errorf("open project %s: %w", path, err)
 	}
 	if st.IsDir() {
-		return fmt.Errorf("open project %s: is a folder, not a project file: %w", path, ErrNotProject)
+		return project.Explained(ErrNotProject, "open project %s: it is a folder, not a project file", path)
 	}
 	if !st.Mode().IsRegular() {
-		return fmt.Errorf("open project %s: not a regular file: %w", path, ErrNotProject)
+		return project.Explained(ErrNotProject, "open project %s: it is %s, not a project file", path, formats.Kind(st.Mode()))
 	}
 	// SQLite would take an empty file for a new database and make it a
 	// project; only Create does that. (A WAL-mode project always has its
