@@ -1,9 +1,11 @@
 package cli
 
 import (
+	"errors"
 	"flag"
 	"fmt"
 	"io"
+	"os"
 	"path/filepath"
 	"slices"
 	"strings"
@@ -69,6 +71,17 @@ func cmdImport(args []string, stdout, stderr io.Writer) error {
 	if *annotator == "" {
 		*annotator = strings.TrimSuffix(filepath.Base(src), filepath.Ext(src))
 	}
+	// --images must be a folder: anything else used to be "skipped 1"
+	// while the labels were imported without the images meant for them.
+	if *images != "" {
+		if st, err := os.Stat(*images); errors.Is(err, os.ErrNotExist) {
+			return fmt.Errorf("--images %s: no such folder (nothing was imported)", *images)
+		} else if err != nil {
+			return fmt.Errorf("--images %s: %w (nothing was imported)", *images, err)
+		} else if !st.IsDir() {
+			return fmt.Errorf("--images %s is %s, not a folder of images (nothing was imported)", *images, formats.Kind(st.Mode()))
+		}
+	}
 	s, ctx, done, err := openCLI(pos[0])
 	if err != nil {
 		return err
@@ -86,6 +99,9 @@ func cmdImport(args []string, stdout, stderr io.Writer) error {
 	if res.ImagesAdded != nil {
 		fmt.Fprintf(stdout, "images: added %d, already known %d, relinked %d, skipped %d\n", res.ImagesAdded.Added,
 			res.ImagesAdded.Duplicates, res.ImagesAdded.Relinked, len(res.ImagesAdded.Failed))
+		for _, f := range res.ImagesAdded.Failed {
+			fmt.Fprintf(stdout, "  skipped %s: %s\n", f.Path, strings.TrimPrefix(f.Error, f.Path+": "))
+		}
 	}
 	fmt.Fprintf(stdout, "imported %s on %s for annotator %q; clipped %s at the image edge\n", ops.Plural(rep.Labels, "label"), ops.Plural(rep.Images, "image"), rep.Annotator, ops.Plural(rep.Clipped, "box"))
 	if rep.Replaced > 0 {

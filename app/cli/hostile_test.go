@@ -261,3 +261,39 @@ func TestFlagGivenTwice(t *testing.T) {
 	mustCLI(t, "agree", path, "--annotators", "Ines,Tomas", "--iou", "0.5", "--iou", "0.5")
 	mustCLI(t, "info", path, "--json", "--json")
 }
+
+// import --images must name a folder: a file, a pipe or a missing path
+// stops the import before the project is touched (they were "skipped 1"
+// while the labels went in without their images); a folder's skipped
+// files are listed. suggestions import checks --source like detect does.
+func TestImportImagesMustBeAFolder(t *testing.T) {
+	path := testkit.SmallDemo(t)
+	labels := filepath.Join(t.TempDir(), "out")
+	mustCLI(t, "export", path, "--layout", "json", "--annotator", "Ines", "--out", labels, "--images", "none")
+	files, _ := filepath.Glob(filepath.Join(labels, "*", "annotations.json"))
+	if len(files) == 0 {
+		t.Fatal("the export wrote no annotations.json")
+	}
+	before := mustCLI(t, "info", path)
+	for _, c := range []struct{ images, want string }{
+		{files[0], "is a regular file, not a folder of images (nothing was imported)"},
+		{filepath.Join(labels, "nowhere"), "no such folder (nothing was imported)"},
+	} {
+		code, _, errs := cli(t, "import", path, "--layout", "json", "--annotator", "Zed", "--images", c.images, files[0])
+		if code != 1 || !strings.Contains(errs, c.images) || !strings.Contains(errs, c.want) {
+			t.Errorf("--images %s: exit %d, %q; want %q", c.images, code, errs, c.want)
+		}
+	}
+	if after := mustCLI(t, "info", path); after != before {
+		t.Errorf("a refused import changed the project:\n%s", after)
+	}
+	pics := filepath.Dir(writeFile(t, "bad.jpg", "not a picture"))
+	out := mustCLI(t, "import", path, "--layout", "json", "--annotator", "Zed", "--images", pics, files[0])
+	if !strings.Contains(out, "skipped "+filepath.Join(pics, "bad.jpg")+": ") {
+		t.Errorf("import --images with a damaged file says %q; want the file listed", out)
+	}
+	code, _, errs := cli(t, "suggestions", "import", path, files[0], "--source", "a\tb")
+	if code != 2 || !strings.Contains(errs, "control character") {
+		t.Errorf("--source with a tab: exit %d, %q", code, errs)
+	}
+}

@@ -7,6 +7,7 @@ import (
 	"strings"
 
 	"boxwright/app/ops"
+	"boxwright/project"
 	"boxwright/suggest"
 )
 
@@ -42,6 +43,9 @@ func cmdSuggestionsImport(args []string, stdout, stderr io.Writer, synopsis stri
 	}
 	if *source == "" {
 		return usageError("--source NAME is required: every suggestion records where it came from\nusage: boxwright " + synopsis)
+	}
+	if err := project.ValidateName("source", *source); err != nil {
+		return usageError("--source: " + err.Error())
 	}
 	if *create && *drop {
 		return usageError("choose --create-classes or --drop-unknown, not both")
