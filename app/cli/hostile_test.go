@@ -297,3 +297,25 @@ func TestImportImagesMustBeAFolder(t *testing.T) {
 		t.Errorf("--source with a tab: exit %d, %q", code, errs)
 	}
 }
+
+// similar --save with no match says that nothing was stored (it said
+// "stored as pending suggestions", and --json "saved": true).
+func TestSimilarSaveWithoutMatches(t *testing.T) {
+	path, args := similarArgs(t)
+	args = append(args, "--threshold", "1", "--class", "buoy", "--save")
+	before := mustCLI(t, "info", path)
+	out := mustCLI(t, args...)
+	if !strings.HasPrefix(out, "0 matches") {
+		t.Skipf("the example matched at a score of 1: %q", out)
+	}
+	if !strings.Contains(out, "nothing was stored") || strings.Contains(out, "stored as pending") {
+		t.Errorf("similar --save without matches says %q", out)
+	}
+	var rep struct{ Saved bool }
+	if err := json.Unmarshal([]byte(mustCLI(t, append(args, "--json")...)), &rep); err != nil || rep.Saved {
+		t.Errorf("--json without matches: saved %v (%v)", rep.Saved, err)
+	}
+	if after := mustCLI(t, "info", path); after != before {
+		t.Errorf("similar without matches changed the project:\n%s", after)
+	}
+}
