@@ -319,3 +319,16 @@ func TestSimilarSaveWithoutMatches(t *testing.T) {
 		t.Errorf("similar without matches changed the project:\n%s", after)
 	}
 }
+
+// A classes usage mistake exits 2 whatever the file: the action is checked
+// before the project is opened (a missing project said "no such project
+// file", exit 1, for "classes X bogus").
+func TestClassesUsageBeforeOpening(t *testing.T) {
+	missing := filepath.Join(t.TempDir(), "none.boxw")
+	for _, args := range [][]string{{"bogus"}, {"rename", "a"}, {"add"}, {"list", "x"}, {"delete"}} {
+		code, _, errs := cli(t, append([]string{"classes", missing}, args...)...)
+		if code != 2 || !strings.Contains(errs, "usage:") {
+			t.Errorf("classes %q on a missing project: exit %d, %q; want the usage (2)", args, code, errs)
+		}
+	}
+}

@@ -140,6 +140,16 @@ func cmdClasses(args []string, stdout, stderr io.Writer) error {
 	if err != nil {
 		return err
 	}
+	// The action and its arguments are checked before the project is
+	// opened: a usage mistake is one whatever the file.
+	want := map[string]int{"list": 0, "rename": 2, "merge": 2, "delete": 1}
+	if n, ok := want[pos[1]]; ok && len(pos)-2 != n {
+		return usageError("usage: boxwright " + synopsis)
+	} else if !ok && pos[1] != "add" {
+		return usageError(fmt.Sprintf("unknown classes action %q\nusage: boxwright %s", pos[1], synopsis))
+	} else if pos[1] == "add" && len(pos) == 2 {
+		return usageError("usage: boxwright classes PROJECT.boxw add NAME...")
+	}
 	open := openCLI
 	if pos[1] == "list" {
 		open = openReading
