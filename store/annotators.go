@@ -5,6 +5,8 @@ import (
 	"database/sql"
 	"errors"
 	"fmt"
+	"strconv"
+	"strings"
 
 	"boxwright/project"
 )
@@ -47,10 +49,38 @@ func (s *Store) Annotator(ctx context.Context, id int64) (project.Annotator, err
 // AnnotatorByName finds an annotator by exact name.
 func (s *Store) AnnotatorByName(ctx context.Context, name string) (project.Annotator, error) {
 	a, err := scanAnnotator(s.db.QueryRowContext(ctx, "SELECT id, name, created_at FROM annotators WHERE name = ?", name))
+	if err = s.translate(err); errors.Is(err, project.ErrNotFound) {
+		return a, project.Explained(project.ErrNotFound, "annotator %q: not found; %s", name, s.annotatorNames(ctx))
+	}
 	if err != nil {
-		return a, fmt.Errorf("annotator %q: %w", name, s.translate(err))
+		return a, fmt.Errorf("annotator %q: %w", name, err)
 	}
 	return a, nil
+}
+
+// annotatorNames says which annotators the project has, for a message
+// about one it does not have (names are case-sensitive: "ines" is not
+// "Ines").
+func (s *Store) annotatorNames(ctx context.Context) string {
+	rows, err := s.db.QueryContext(ctx, "SELECT name FROM annotators ORDER BY name LIMIT 21")
+	if err != nil {
+		return "the project's annotators could not be listed"
+	}
+	defer rows.Close()
+	var names []string
+	for rows.Next() {
+		var n string
+		if rows.Scan(&n) == nil {
+			names = append(names, strconv.Quote(n))
+		}
+	}
+	switch {
+	case len(names) == 0:
+		return "the project has no annotators yet"
+	case len(names) > 20:
+		return "the project's annotators include " + strings.Join(names[:20], ", ") + " …"
+	}
+	return "the project's annotators are " + strings.Join(names, ", ")
 }
 
 // AddAnnotator stores a new annotator.

@@ -3,6 +3,7 @@ package store
 import (
 	"context"
 	"database/sql"
+	"errors"
 	"fmt"
 	"image/color"
 	"strings"
@@ -82,6 +83,10 @@ func (s *Store) AddClass(ctx context.Context, c project.Class) (project.Class, e
 		c, err = insertClassTx(ctx, tx, c)
 		return err
 	})
+	err = s.translate(err)
+	if errors.Is(err, project.ErrDuplicate) {
+		return c, project.Explained(project.ErrDuplicate, "add class %q: a class of that name exists already", c.Name)
+	}
 	if err != nil {
 		return c, fmt.Errorf("add class %q: %w", c.Name, err)
 	}
@@ -134,15 +139,18 @@ func freeDigit(ctx context.Context, tx *sql.Tx) string {
 // UpdateClass renames, recolours or re-keys a class; its labels keep it.
 func (s *Store) UpdateClass(ctx context.Context, c project.Class) error {
 	if err := project.ValidateName("class", c.Name); err != nil {
-		return project.Explained(project.ErrInvalid, "update class %d: %v", c.ID, err)
+		return project.Explained(project.ErrInvalid, "class %d: %v", c.ID, err)
 	}
 	if err := validHotKey(c.HotKey); err != nil {
 		return fmt.Errorf("update class %q: %w", c.Name, err)
 	}
 	res, err := s.exec(ctx, "UPDATE classes SET name = ?, color = ?, hot_key = ? WHERE id = ?",
 		c.Name, project.FormatColor(c.Color), c.HotKey, c.ID)
+	if err = s.translate(err); errors.Is(err, project.ErrDuplicate) {
+		return project.Explained(project.ErrDuplicate, "class %q exists already: merge the two with classes merge, or choose another name", c.Name)
+	}
 	if err != nil {
-		return fmt.Errorf("update class %q: %w", c.Name, s.translate(err))
+		return fmt.Errorf("update class %q: %w", c.Name, err)
 	}
 	if n, _ := res.RowsAffected(); n == 0 {
 		return fmt.Errorf("update class %d: %w", c.ID, project.ErrNotFound)
@@ -155,6 +163,9 @@ func (s *Store) RenameClass(ctx context.Context, oldName, newName string) error 
 	c, err := s.ClassByName(ctx, oldName)
 	if err != nil {
 		return fmt.Errorf("rename class: %w", s.damaged(err))
+	}
+	if err := project.ValidateName("class", newName); err != nil {
+		return project.Explained(project.ErrInvalid, "rename class %q: %v", oldName, err)
 	}
 	c.Name = newName
 	return s.UpdateClass(ctx, c)
@@ -195,8 +206,8 @@ func (s *Store) DeleteClass(ctx context.Context, id int64, opts project.DeleteCl
 				return err
 			}
 		case labels+suggestions > 0:
-			return fmt.Errorf("it has %d labels and %d suggestions; merge it into another class or delete them with it: %w",
-				labels, suggestions, project.ErrInUse)
+			return project.Explained(project.ErrInUse, "it has %s and %s; merge it into another class or delete them with it",
+				countOf(labels, "label"), countOf(suggestions, "suggestion"))
 		}
 		_, err := tx.ExecContext(ctx, "DELETE FROM classes WHERE id = ?", id)
 		return s.translate(err)
@@ -219,4 +230,12 @@ func (s *Store) MergeClass(ctx context.Context, from, into string) error {
 		return fmt.Errorf("merge: %w", s.damaged(err))
 	}
 	return s.DeleteClass(ctx, f.ID, project.DeleteClassOptions{MoveTo: t.ID})
+}
+
+// countOf says "1 label", "2 labels": a count with its noun.
+func countOf(n int, noun string) string {
+	if n == 1 {
+		return "1 " + noun
+	}
+	return fmt.Sprintf("%d %ss", n, noun)
 }

@@ -6,6 +6,7 @@ import (
 	"database/sql"
 	"encoding/hex"
 	"encoding/json"
+	"errors"
 	"fmt"
 	"math"
 
@@ -213,11 +214,14 @@ func (s *Store) modelWhere(ctx context.Context, what, where string, args ...any)
 	var weights []byte
 	var sum string
 	m, err := scanModel(s.db.QueryRowContext(ctx, "SELECT "+modelCols+", weights, weights_sha256 FROM models WHERE "+where, args...), &weights, &sum)
+	if errors.Is(err, project.ErrNotFound) {
+		return m, project.Explained(project.ErrNotFound, "the project has no %s (boxwright models lists the ones it has)", what)
+	}
 	if err != nil {
-		return m, fmt.Errorf("read %s: %w", what, err)
+		return m, fmt.Errorf("read the %s: %w", what, err)
 	}
 	if weightsSum(weights) != sum {
-		return m, project.Explained(project.ErrInvalid, "read %s: its weights are damaged (checksum mismatch); train it again or delete it", what)
+		return m, project.Explained(project.ErrInvalid, "read the %s: its weights are damaged (checksum mismatch); train it again or delete it", what)
 	}
 	m.Weights = weights
 	return m, nil
@@ -237,7 +241,7 @@ func (s *Store) Model(ctx context.Context, name string) (project.Model, error) {
 
 // CurrentModel reads the current model with its weights.
 func (s *Store) CurrentModel(ctx context.Context) (project.Model, error) {
-	return s.modelWhere(ctx, "the current model", "is_current = 1")
+	return s.modelWhere(ctx, "current model", "is_current = 1")
 }
 
 // SetCurrentModel makes the named model the current one.
@@ -245,7 +249,10 @@ func (s *Store) SetCurrentModel(ctx context.Context, name string) error {
 	return s.tx(ctx, func(tx *sql.Tx) error {
 		var id int64
 		if err := tx.QueryRowContext(ctx, "SELECT id FROM models WHERE name = ?", name).Scan(&id); err != nil {
-			return fmt.Errorf("make model %q current: %w", name, s.translate(err))
+			if err = s.translate(err); errors.Is(err, project.ErrNotFound) {
+				return project.Explained(project.ErrNotFound, "the project has no model %q (boxwright models lists the ones it has)", name)
+			}
+			return fmt.Errorf("make model %q current: %w", name, err)
 		}
 		if _, err := tx.ExecContext(ctx, "UPDATE models SET is_current = 0 WHERE is_current = 1"); err != nil {
 			return err

@@ -2,6 +2,7 @@ package store
 
 import (
 	"bytes"
+	"database/sql"
 	"errors"
 	"os"
 	"os/exec"
@@ -10,6 +11,8 @@ import (
 	"syscall"
 	"testing"
 	"time"
+
+	"github.com/mattn/go-sqlite3"
 
 	"boxwright/project"
 )
@@ -132,4 +135,65 @@ func readOnlyChecks(t *testing.T, dir string) {
 	if len(entries) != 1 {
 		t.Errorf("the folder holds %d entries after the failed write and the read, want only the project", len(entries))
 	}
+}
+
+// A write refused because the file is read-only (for example a project
+// whose write-ahead files exist but whose file this user may not write)
+// names the file and what to do, in every write path that runs in a
+// transaction: not the database's "attempt to write a readonly database:
+// read-only", and whatever the step that met it.
+func TestReadOnlyWriteErrorNamesTheFile(t *testing.T) {
+	path := projectWithLabels(t, 1)
+	s, err := Open(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer s.Close()
+	refused := sqlite3.Error{Code: sqlite3.ErrReadonly, ExtendedCode: sqlite3.ErrReadonlyDbMoved}
+	for _, got := range []error{
+		s.tx(bg, func(*sql.Tx) error { return refused }),
+		s.translate(s.tx(bg, func(*sql.Tx) error { return refused })), // translated twice: the same
+	} {
+		want := "cannot write to " + path + ": the file or its folder is read-only for this user (make both writable, or work on a copy)"
+		if !errors.Is(got, project.ErrReadOnly) || got.Error() != want {
+			t.Errorf("read-only write: %v, want %q", got, want)
+		}
+	}
+}
+
+// Opening what is not a project file and creating where that cannot be
+// done say so once, in words, without the bare kind at the end ("not a
+// regular file: not a Boxwright project", "open X: no such file or
+// directory").
+func TestOpenAndCreateSayWhy(t *testing.T) {
+	dir := t.TempDir()
+	pipe := filepath.Join(dir, "p.boxw")
+	if err := syscall.Mkfifo(pipe, 0o644); err != nil {
+		t.Skipf("no named pipes here: %v", err)
+	}
+	link := filepath.Join(dir, "gone.boxw")
+	if err := os.Symlink(filepath.Join(dir, "nowhere"), link); err != nil {
+		t.Skipf("no symbolic links here: %v", err)
+	}
+	for _, c := range []struct {
+		err  error
+		kind error
+		want string
+	}{
+		{errOf(Open(pipe)), ErrNotProject, "open project " + pipe + ": it is a named pipe, not a project file"},
+		{errOf(Open(dir)), ErrNotProject, "open project " + dir + ": it is a folder, not a project file"},
+		{errOf(Create(filepath.Join(dir, "no", "p.boxw"))), os.ErrNotExist, "the folder " + filepath.Join(dir, "no") + " does not exist (make it first)"},
+		{errOf(Create(link)), ErrExists, "a link of that name exists, leading nowhere"},
+	} {
+		if c.err == nil || !errors.Is(c.err, c.kind) || !strings.HasSuffix(c.err.Error(), c.want) && !strings.Contains(c.err.Error(), c.want+";") {
+			t.Errorf("%v; want %q (and errors.Is %v)", c.err, c.want, c.kind)
+		}
+	}
+}
+
+func errOf(s *Store, err error) error {
+	if s != nil {
+		s.Close()
+	}
+	return err
 }

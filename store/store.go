@@ -17,6 +17,7 @@ import (
 	"github.com/mattn/go-sqlite3"
 
 	"boxwright/project"
+	"boxwright/project/formats"
 )
 
 // Extension is the file extension of a project file.
@@ -74,7 +75,13 @@ func Create(path string) (*Store, error) {
 	f, err := os.OpenFile(path, os.O_WRONLY|os.O_CREATE|os.O_EXCL, 0o644)
 	if err != nil {
 		if errors.Is(err, os.ErrExist) {
+			if _, serr := os.Stat(path); errors.Is(serr, os.ErrNotExist) {
+				return nil, project.Explained(ErrExists, "create project %s: a link of that name exists, leading nowhere; remove it or choose another name", path)
+			}
 			return nil, fmt.Errorf("create project %s: %w", path, ErrExists)
+		}
+		if dir := filepath.Dir(path); errors.Is(err, os.ErrNotExist) {
+			return nil, project.Explained(os.ErrNotExist, "create project %s: the folder %s does not exist (make it first)", path, dir)
 		}
 		return nil, fmt.Errorf("create project %s: %w", path, err)
 	}
@@ -122,10 +129,10 @@ func existingFile(path string) error {
 		return fmt.Errorf("open project %s: %w", path, err)
 	}
 	if st.IsDir() {
-		return fmt.Errorf("open project %s: is a folder, not a project file: %w", path, ErrNotProject)
+		return project.Explained(ErrNotProject, "open project %s: it is a folder, not a project file", path)
 	}
 	if !st.Mode().IsRegular() {
-		return fmt.Errorf("open project %s: not a regular file: %w", path, ErrNotProject)
+		return project.Explained(ErrNotProject, "open project %s: it is %s, not a project file", path, formats.Kind(st.Mode()))
 	}
 	// SQLite would take an empty file for a new database and make it a
 	// project; only Create does that. (A WAL-mode project always has its
@@ -404,7 +411,7 @@ func (s *Store) DB() *sql.DB { return s.db }
 func (s *Store) tx(ctx context.Context, fn func(*sql.Tx) error) error {
 	tx, err := s.begin(ctx)
 	if err != nil {
-		return err
+		return s.damaged(err)
 	}
 	if err := fn(tx); err != nil {
 		tx.Rollback()
@@ -414,9 +421,10 @@ func (s *Store) tx(ctx context.Context, fn func(*sql.Tx) error) error {
 }
 
 // damaged turns an error that met a damaged page into a DamagedError
-// naming this file, and leaves every other error as it is.
+// naming this file, and one that met a read-only file into the reason
+// naming it; every other error is left as it is.
 func (s *Store) damaged(err error) error {
-	if errors.Is(translateCode(err), project.ErrDamaged) {
+	if c := translateCode(err); errors.Is(c, project.ErrDamaged) || errors.Is(c, project.ErrReadOnly) {
 		return s.translate(err)
 	}
 	return err
@@ -483,7 +491,9 @@ func (s *Store) translate(err error) error {
 	case errors.Is(err, project.ErrDamaged):
 		return &DamagedError{Path: s.path, Detail: strings.TrimSuffix(err.Error(), ": "+project.ErrDamaged.Error())}
 	case errors.Is(err, project.ErrReadOnly) && !s.readOnly:
-		return fmt.Errorf("cannot write to %s: the file or its folder is read-only for this user: %w", s.path, err)
+		// The database's own words ("attempt to write a readonly
+		// database: read-only") add nothing a person can act on.
+		return project.Explained(project.ErrReadOnly, "cannot write to %s: the file or its folder is read-only for this user (make both writable, or work on a copy)", s.path)
 	case errors.Is(err, project.ErrReadOnly):
 		return fmt.Errorf("%s is open read-only, so nothing can be changed: %w", s.path, project.ErrReadOnly)
 	}

@@ -183,8 +183,8 @@ func printAgreement(w io.Writer, d ops.AgreementData, rep agree.Report, worst in
 	}
 	fmt.Fprintf(w, "Box agreement at IoU ≥ %.2f, %s matching\n", rep.Threshold, mode)
 	for _, p := range rep.Pairs {
-		fmt.Fprintf(w, "\n%s vs %s: %d images, %d matched pairs, %d only %s, %d only %s, detection F1 %s\n",
-			d.Annotators[p.A].Name, d.Annotators[p.B].Name, p.Images, p.Matched, p.OnlyA, d.Annotators[p.A].Name, p.OnlyB, d.Annotators[p.B].Name, ops.F4(p.F1))
+		fmt.Fprintf(w, "\n%s vs %s: %s, %s, %d only %s, %d only %s, detection F1 %s\n",
+			d.Annotators[p.A].Name, d.Annotators[p.B].Name, ops.Plural(p.Images, "image"), ops.Plural(p.Matched, "matched pair"), p.OnlyA, d.Annotators[p.A].Name, p.OnlyB, d.Annotators[p.B].Name, ops.F4(p.F1))
 		fmt.Fprintf(w, "  IoU of matched pairs: mean %s, median %s, 10th percentile %s, 90th %s\n", ops.F4(p.IoU.Mean), ops.F4(p.IoU.Median), ops.F4(p.IoU.P10), ops.F4(p.IoU.P90))
 		fmt.Fprintf(w, "  Cohen's kappa on the classes of matched pairs: %s, 95 %% CI %s\n", ops.FormatKappa(p.Kappa), ops.CI(p.Kappa.CI95))
 		if p.WeightedKappa != nil {

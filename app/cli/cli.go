@@ -68,9 +68,13 @@ func commands(window Window) map[string]command {
 // checks the number of positionals.
 func parse(fs *flag.FlagSet, args []string, minPos, maxPos int, synopsis string) ([]string, error) {
 	fs.SetOutput(io.Discard)
+	twice := onceEach(fs)
 	var pos []string
 	for {
 		if err := fs.Parse(args); err != nil {
+			if *twice != nil {
+				err = *twice // without the flag package's "invalid value ... for flag"
+			}
 			return nil, usageError(fmt.Sprintf("%v\nusage: boxwright %s", err, synopsis))
 		}
 		args = fs.Args()
@@ -184,4 +188,41 @@ func Run(args []string, stdout, stderr io.Writer, window Window) int {
 		return 1
 	}
 	return 0
+}
+
+// onceEach makes every flag of fs that takes one value refuse a second,
+// different value: "--annotator Ines --annotator Tomas" used to export
+// Tomas's labels without a word. Repeating the same value is harmless and
+// allowed; flags that collect values (--map) say so with repeatable.
+// The refusal is also left in the returned slot.
+func onceEach(fs *flag.FlagSet) *error {
+	var twice error
+	fs.VisitAll(func(f *flag.Flag) {
+		if _, ok := f.Value.(interface{ repeatable() }); !ok {
+			f.Value = &onceValue{Value: f.Value, name: f.Name, twice: &twice}
+		}
+	})
+	return &twice
+}
+
+type onceValue struct {
+	flag.Value
+	name  string
+	first *string
+	twice *error
+}
+
+func (o *onceValue) Set(s string) error {
+	if o.first != nil && *o.first != s {
+		*o.twice = fmt.Errorf("--%s is given twice, as %q and as %q: give it once", o.name, *o.first, s)
+		return *o.twice
+	}
+	o.first = &s
+	return o.Value.Set(s)
+}
+
+// IsBoolFlag keeps a bool flag usable without a value (--json).
+func (o *onceValue) IsBoolFlag() bool {
+	b, ok := o.Value.(interface{ IsBoolFlag() bool })
+	return ok && b.IsBoolFlag()
 }

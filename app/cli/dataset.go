@@ -1,9 +1,11 @@
 package cli
 
 import (
+	"errors"
 	"flag"
 	"fmt"
 	"io"
+	"os"
 	"path/filepath"
 	"slices"
 	"strings"
@@ -17,6 +19,9 @@ import (
 type classMapFlag map[string]string
 
 func (m classMapFlag) String() string { return "" }
+
+// repeatable: --map may be given once per class.
+func (m classMapFlag) repeatable() {}
 
 func (m classMapFlag) Set(v string) error {
 	from, to, ok := strings.Cut(v, "=")
@@ -66,6 +71,17 @@ func cmdImport(args []string, stdout, stderr io.Writer) error {
 	if *annotator == "" {
 		*annotator = strings.TrimSuffix(filepath.Base(src), filepath.Ext(src))
 	}
+	// --images must be a folder: anything else used to be "skipped 1"
+	// while the labels were imported without the images meant for them.
+	if *images != "" {
+		if st, err := os.Stat(*images); errors.Is(err, os.ErrNotExist) {
+			return fmt.Errorf("--images %s: no such folder (nothing was imported)", *images)
+		} else if err != nil {
+			return fmt.Errorf("--images %s: %w (nothing was imported)", *images, err)
+		} else if !st.IsDir() {
+			return fmt.Errorf("--images %s is %s, not a folder of images (nothing was imported)", *images, formats.Kind(st.Mode()))
+		}
+	}
 	s, ctx, done, err := openCLI(pos[0])
 	if err != nil {
 		return err
@@ -83,8 +99,11 @@ func cmdImport(args []string, stdout, stderr io.Writer) error {
 	if res.ImagesAdded != nil {
 		fmt.Fprintf(stdout, "images: added %d, already known %d, relinked %d, skipped %d\n", res.ImagesAdded.Added,
 			res.ImagesAdded.Duplicates, res.ImagesAdded.Relinked, len(res.ImagesAdded.Failed))
+		for _, f := range res.ImagesAdded.Failed {
+			fmt.Fprintf(stdout, "  skipped %s: %s\n", f.Path, strings.TrimPrefix(f.Error, f.Path+": "))
+		}
 	}
-	fmt.Fprintf(stdout, "imported %d labels on %d images for annotator %q; clipped %d boxes to their image\n", rep.Labels, rep.Images, rep.Annotator, rep.Clipped)
+	fmt.Fprintf(stdout, "imported %s on %s for annotator %q; clipped %s at the image edge\n", ops.Plural(rep.Labels, "label"), ops.Plural(rep.Images, "image"), rep.Annotator, ops.Plural(rep.Clipped, "box"))
 	if rep.Replaced > 0 {
 		fmt.Fprintf(stdout, "replaced %s imported before on these images\n", ops.Plural(rep.Replaced, "label"))
 	}
@@ -92,7 +111,7 @@ func cmdImport(args []string, stdout, stderr io.Writer) error {
 		fmt.Fprintf(stdout, "created classes: %s\n", strings.Join(rep.ClassesCreated, ", "))
 	}
 	if len(rep.Unmatched) > 0 {
-		fmt.Fprintf(stdout, "skipped %d records that match no project image (--skip-unmatched):\n", len(rep.Unmatched))
+		fmt.Fprintf(stdout, "skipped %s matching no project image (--skip-unmatched):\n", ops.Plural(len(rep.Unmatched), "record"))
 		for _, u := range rep.Unmatched {
 			fmt.Fprintf(stdout, "  %s\n", u)
 		}
@@ -106,7 +125,7 @@ func cmdExport(args []string, stdout, stderr io.Writer) error {
 	annotator := fs.String("annotator", "", "")
 	out := fs.String("out", "", "")
 	split := fs.String("split", "80/10/10", "")
-	seed := fs.Int64("seed", 1, "")
+	seed := seedIn(fs, "seed", 1, "")
 	images := fs.String("images", "copy", "")
 	asJSON := fs.Bool("json", false, "")
 	const synopsis = "export PROJECT.boxw --layout json|xml|txt --annotator NAME --out DIR [--split 80/10/10] [--seed N] [--images copy|link|none] [--json]"

@@ -15,14 +15,11 @@ import (
 func cmdDemo(args []string, stdout, stderr io.Writer, window Window) error {
 	fs := flag.NewFlagSet("demo", flag.ContinueOnError)
 	noOpen := fs.Bool("no-open", false, "")
-	seed := fs.Int64("seed", 1, "")
-	images := fs.Int("images", demo.DefaultImages, "")
+	seed := seedIn(fs, "seed", 1, "")
+	images := intIn(fs, "images", demo.DefaultImages, 1, 100000, "")
 	pos, err := parse(fs, args, 1, 1, "demo DIR [--no-open] [--seed N] [--images N]")
 	if err != nil {
 		return err
-	}
-	if *images <= 0 || *images > 100000 {
-		return usageError("--images must be between 1 and 100000")
 	}
 	path := filepath.Join(pos[0], ops.DemoProjectName)
 	if _, err := os.Stat(path); err == nil {

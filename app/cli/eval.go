@@ -105,7 +105,7 @@ func printEval(w io.Writer, d ops.EvalData, res eval.Result, opt eval.Options) {
 	if opt.PlusOne {
 		conv = "pixel-inclusive (+1) areas"
 	}
-	fmt.Fprintf(w, "%s against the labels of %s: %d images, %d ground-truth boxes, %d predictions\n", d.Source, d.TruthName, len(d.Images), len(d.Truths), len(d.Preds))
+	fmt.Fprintf(w, "%s against the labels of %s: %s, %s, %s\n", d.Source, d.TruthName, ops.Plural(len(d.Images), "image"), ops.Plural(len(d.Truths), "ground-truth box"), ops.Plural(len(d.Preds), "prediction"))
 	fmt.Fprintf(w, "%s matching, %s, %s AP, %s\n", ops.ProtocolName(opt.Protocol), iou, ops.InterpName(opt.Interpolation), conv)
 	fmt.Fprintln(w, "  class             truth   pred     TP     FP      AP   best F1 at score")
 	for _, c := range res.Classes {
@@ -114,6 +114,6 @@ func printEval(w io.Writer, d ops.EvalData, res eval.Result, opt eval.Options) {
 	fmt.Fprintf(w, "mAP %s   AP50 %s   AP75 %s   AP[.50:.95] %s\n", ops.F4(res.MAP), ops.F4(res.AP50), ops.F4(res.AP75), ops.F4(res.AP50_95))
 	fmt.Fprintf(w, "at score ≥ %.2f: precision %s, recall %s, F1 %s; the best F1 %s is at score %s\n", opt.ScoreThreshold, ops.F4(res.Precision), ops.F4(res.Recall), ops.F4(res.F1), ops.F4(res.BestF1), ops.F4(res.BestF1Threshold))
 	if d.SkippedOff > 0 {
-		fmt.Fprintf(w, "note: %d predictions lie on images %s has not labelled or marked done; they are left out\n", d.SkippedOff, d.TruthName)
+		fmt.Fprintf(w, "note: %s on images %s has not labelled or marked done are left out\n", ops.Plural(d.SkippedOff, "prediction"), d.TruthName)
 	}
 }

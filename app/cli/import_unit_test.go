@@ -58,7 +58,7 @@ func TestImportIsOneUnit(t *testing.T) {
 	}
 	// ...and --skip-unmatched imports the rest, naming every skipped one.
 	out := mustCLI(t, "import", p, "--layout", "json", "--annotator", "Omar", "--skip-unmatched", labels)
-	if !strings.Contains(out, "imported 1 labels") || !strings.Contains(out, "zz.jpg") {
+	if !strings.Contains(out, "imported 1 label on") || !strings.Contains(out, "zz.jpg") {
 		t.Fatalf("--skip-unmatched: %q", out)
 	}
 }

@@ -107,7 +107,7 @@ func (r kappaResult) json() map[string]any {
 
 func (r kappaResult) print(w io.Writer) {
 	if r.units > 0 {
-		fmt.Fprintf(w, "%d units, %d raters, categories %s\n", r.units, r.raters, strings.Join(r.categories, ", "))
+		fmt.Fprintf(w, "%s, %s, categories %s\n", ops.Plural(r.units, "unit"), ops.Plural(r.raters, "rater"), strings.Join(r.categories, ", "))
 	}
 	if k := r.cohen; k != nil {
 		kind := "unweighted"

@@ -124,3 +124,54 @@ func nmsIn(fs *flag.FlagSet, def float64) *float64 {
 	fs.Var(&nmsFlag{v: &v}, "nms", "")
 	return &v
 }
+
+// seedFlag is the seed of a pseudo-random generator: any whole number of
+// its type (signed: int64, or unsigned: uint64), refused by name when it
+// is not one (the flag package says only "parse error").
+type seedFlag struct {
+	signed *int64
+	plain  *uint64
+}
+
+func (f *seedFlag) String() string {
+	switch {
+	case f == nil:
+		return ""
+	case f.signed != nil:
+		return strconv.FormatInt(*f.signed, 10)
+	case f.plain != nil:
+		return strconv.FormatUint(*f.plain, 10)
+	}
+	return ""
+}
+
+func (f *seedFlag) Set(s string) error {
+	if f.signed != nil {
+		x, err := strconv.ParseInt(s, 10, 64)
+		if err != nil {
+			return fmt.Errorf("give a whole number from %d to %d", int64(math.MinInt64), int64(math.MaxInt64))
+		}
+		*f.signed = x
+		return nil
+	}
+	x, err := strconv.ParseUint(s, 10, 64)
+	if err != nil {
+		return fmt.Errorf("give a whole number from 0 to %d", uint64(math.MaxUint64))
+	}
+	*f.plain = x
+	return nil
+}
+
+// seedIn defines a signed seed flag with its default.
+func seedIn(fs *flag.FlagSet, name string, def int64, usage string) *int64 {
+	v := def
+	fs.Var(&seedFlag{signed: &v}, name, usage)
+	return &v
+}
+
+// unsignedSeedIn defines an unsigned seed flag with its default.
+func unsignedSeedIn(fs *flag.FlagSet, name string, def uint64, usage string) *uint64 {
+	v := def
+	fs.Var(&seedFlag{plain: &v}, name, usage)
+	return &v
+}

@@ -6,6 +6,7 @@ import (
 	"flag"
 	"fmt"
 	"io"
+	"os"
 	"strings"
 	"text/tabwriter"
 
@@ -67,7 +68,7 @@ func printIntake(stdout io.Writer, rep project.IntakeReport, asJSON bool) error 
 	}
 	fmt.Fprintf(stdout, "added %d, duplicates %d, relinked %d, failed %d\n", rep.Added, rep.Duplicates, rep.Relinked, len(rep.Failed))
 	for _, f := range rep.Failed {
-		fmt.Fprintf(stdout, "  skipped %s: %s\n", f.Path, f.Error)
+		fmt.Fprintf(stdout, "  skipped %s: %s\n", f.Path, strings.TrimPrefix(f.Error, f.Path+": "))
 	}
 	return nil
 }
@@ -99,6 +100,15 @@ func cmdRelink(args []string, stdout, stderr io.Writer) error {
 	if err != nil {
 		return err
 	}
+	// A folder that is not there (or is a file) would find nothing and
+	// report "relinked 0" as if it had been searched.
+	if st, err := os.Stat(pos[1]); errors.Is(err, os.ErrNotExist) {
+		return fmt.Errorf("folder %s does not exist: give the folder to search for the moved images", pos[1])
+	} else if err != nil {
+		return fmt.Errorf("folder %s: %w", pos[1], err)
+	} else if !st.IsDir() {
+		return fmt.Errorf("%s is not a folder: give the folder to search for the moved images", pos[1])
+	}
 	s, ctx, done, err := openCLI(pos[0])
 	if err != nil {
 		return err
@@ -116,6 +126,9 @@ func cmdRelink(args []string, stdout, stderr io.Writer) error {
 		return writeJSON(stdout, map[string]any{"relinked": rep.Relinked, "still_missing": len(missing), "failed": rep.Failed})
 	}
 	fmt.Fprintf(stdout, "relinked %d, still missing %d\n", rep.Relinked, len(missing))
+	for _, f := range rep.Failed {
+		fmt.Fprintf(stdout, "  skipped %s: %s\n", f.Path, strings.TrimPrefix(f.Error, f.Path+": "))
+	}
 	return nil
 }
 
@@ -126,6 +139,16 @@ func cmdClasses(args []string, stdout, stderr io.Writer) error {
 	pos, err := parse(fs, args, 2, -1, synopsis)
 	if err != nil {
 		return err
+	}
+	// The action and its arguments are checked before the project is
+	// opened: a usage mistake is one whatever the file.
+	want := map[string]int{"list": 0, "rename": 2, "merge": 2, "delete": 1}
+	if n, ok := want[pos[1]]; ok && len(pos)-2 != n {
+		return usageError("usage: boxwright " + synopsis)
+	} else if !ok && pos[1] != "add" {
+		return usageError(fmt.Sprintf("unknown classes action %q\nusage: boxwright %s", pos[1], synopsis))
+	} else if pos[1] == "add" && len(pos) == 2 {
+		return usageError("usage: boxwright classes PROJECT.boxw add NAME...")
 	}
 	open := openCLI
 	if pos[1] == "list" {
@@ -152,6 +175,26 @@ func cmdClasses(args []string, stdout, stderr io.Writer) error {
 	case "add":
 		if len(rest) == 0 {
 			return usageError("usage: boxwright classes PROJECT.boxw add NAME...")
+		}
+		// All or nothing: every name is checked before the first is added.
+		known, err := s.Classes(ctx)
+		if err != nil {
+			return err
+		}
+		exists, given := map[string]bool{}, map[string]bool{}
+		for _, c := range known {
+			exists[c.Name] = true
+		}
+		for _, name := range rest {
+			switch err := project.ValidateName("class", name); {
+			case err != nil:
+				return usageError(err.Error() + " (no class was added)")
+			case given[name]:
+				return usageError(fmt.Sprintf("class %q is given twice (no class was added)", name))
+			case exists[name]:
+				return fmt.Errorf("class %q already exists (no class was added)", name)
+			}
+			given[name] = true
 		}
 		for _, name := range rest {
 			c, err := s.AddClass(ctx, project.Class{Name: name})
@@ -302,7 +345,7 @@ func cmdInfo(args []string, stdout, stderr io.Writer) error {
 		fmt.Fprintf(stdout, "  class %-20s %d\n", n.Name, n.Labels)
 	}
 	for _, n := range r.Annotators {
-		fmt.Fprintf(stdout, "  annotator %-16s %d labels; images", n.Name, n.Labels)
+		fmt.Fprintf(stdout, "  annotator %-16s %s; images", n.Name, ops.Plural(n.Labels, "label"))
 		for _, st := range project.ImageStatuses {
 			fmt.Fprintf(stdout, " %s %d", st, r.StatusByAnnotator[n.Name][st])
 		}

@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"image"
 	"io"
+	"math"
 	"strconv"
 	"strings"
 
@@ -22,8 +23,8 @@ func parseCorners(s string) (project.Box, error) {
 	var v [4]float64
 	for i, p := range parts {
 		f, err := strconv.ParseFloat(strings.TrimSpace(p), 64)
-		if err != nil {
-			return project.Box{}, fmt.Errorf("--exemplar: %q is not a number", p)
+		if err != nil || math.IsNaN(f) || math.IsInf(f, 0) {
+			return project.Box{}, fmt.Errorf("--exemplar: %q is not a finite number (give x0,y0,x1,y1 in image pixels)", p)
 		}
 		v[i] = f
 	}
@@ -111,7 +112,7 @@ func cmdSimilar(args []string, stdout, stderr io.Writer) error {
 	var class project.Class
 	if *className != "" {
 		if class, err = st.ClassByName(ctx, *className); err != nil {
-			return fmt.Errorf("--class %q: %w", *className, err)
+			return fmt.Errorf("--class: %w", err)
 		}
 	}
 	img, err := ops.DecodeProjectImage(st, im)
@@ -145,7 +146,7 @@ func cmdSimilar(args []string, stdout, stderr io.Writer) error {
 		for _, d := range plan.Dropped {
 			dropped = append(dropped, map[string]any{"scale": d.Scale, "why": d.Why})
 		}
-		return writeJSON(stdout, map[string]any{"image": im.Path, "exemplar": []float64{box.X0, box.Y0, box.X1, box.Y1}, "matches": out, "saved": *save,
+		return writeJSON(stdout, map[string]any{"image": im.Path, "exemplar": []float64{box.X0, box.Y0, box.X1, box.Y1}, "matches": out, "saved": *save && len(matches) > 0,
 			"scales_searched": plan.Searched, "scales_dropped": dropped, "max_results_reached": full})
 	}
 	fmt.Fprintf(stdout, "%s in %s at %s ≥ %.2f\n", ops.Plural(len(matches), "match"), im.Path, feat.ScoreName(), *threshold)
@@ -158,7 +159,9 @@ func cmdSimilar(args []string, stdout, stderr io.Writer) error {
 	for _, mt := range matches {
 		fmt.Fprintf(stdout, "  %.3f  [%.0f,%.0f,%.0f,%.0f]  scale %.3g  rotation %d°\n", mt.Score, mt.Box.X0, mt.Box.Y0, mt.Box.X1, mt.Box.Y1, mt.Scale, mt.Rotation)
 	}
-	if *save {
+	if *save && len(matches) == 0 {
+		fmt.Fprintln(stdout, "nothing was stored: no match reached the threshold")
+	} else if *save {
 		fmt.Fprintf(stdout, "stored as pending suggestions of source %q\n", exemplar.Source)
 	}
 	return nil

@@ -7,6 +7,7 @@ import (
 	"strings"
 
 	"boxwright/app/ops"
+	"boxwright/project"
 	"boxwright/suggest"
 )
 
@@ -43,6 +44,9 @@ func cmdSuggestionsImport(args []string, stdout, stderr io.Writer, synopsis stri
 	if *source == "" {
 		return usageError("--source NAME is required: every suggestion records where it came from\nusage: boxwright " + synopsis)
 	}
+	if err := project.ValidateName("source", *source); err != nil {
+		return usageError("--source: " + err.Error())
+	}
 	if *create && *drop {
 		return usageError("choose --create-classes or --drop-unknown, not both")
 	}
@@ -67,7 +71,7 @@ func cmdSuggestionsImport(args []string, stdout, stderr io.Writer, synopsis stri
 	}
 	fmt.Fprintf(stdout, "source %s: read %d, below the minimum score %d, suppressed by NMS %d, unknown class dropped %d, clipped to their image %d\n",
 		res.Source, res.Read, res.BelowScore, res.Suppressed, res.Dropped, res.Clipped)
-	fmt.Fprintf(stdout, "added %d pending suggestions; replaced %d still pending from an earlier import; kept %d already reviewed\n", res.Added, res.ReplacedPending, res.KeptReviewed)
+	fmt.Fprintf(stdout, "added %s; replaced %d still pending from an earlier import; kept %d already reviewed\n", ops.Plural(res.Added, "pending suggestion"), res.ReplacedPending, res.KeptReviewed)
 	if len(res.ClassesCreated) > 0 {
 		fmt.Fprintf(stdout, "new classes: %s\n", strings.Join(res.ClassesCreated, ", "))
 	}

@@ -17,10 +17,10 @@ func cmdTrain(args []string, stdout, stderr io.Writer) error {
 	annotator := fs.String("annotator", "", "learn this annotator's labels (for example consensus)")
 	classes := fs.String("classes", "", "the classes to learn, comma-separated (default: every class with enough boxes)")
 	minutes := floatAbove(fs, "minutes", 0, 0, 7*24*60, "stop after this many minutes (the epoch under way finishes)")
-	epochs := fs.Int("epochs", 0, "stop after this many epochs")
+	epochs := intIn(fs, "epochs", 0, 1, 100000, "stop after this many epochs")
 	validation := floatIn(fs, "validation", 0.2, 0, 0.9, "share of the images held out for validation")
-	seed := fs.Uint64("seed", 1, "seed of the split, the initial weights and the augmentation")
-	threads := fs.Int("threads", 0, "threads for the arithmetic (0: every core)")
+	seed := unsignedSeedIn(fs, "seed", 1, "seed of the split, the initial weights and the augmentation")
+	threads := intIn(fs, "threads", 0, 0, 1024, "threads for the arithmetic (0: every core)")
 	turns := fs.Bool("rotations", false, "the objects' orientation does not matter: also learn from quarter turns")
 	cont := fs.Bool("continue", false, "train the current model further when it has the same classes")
 	asJSON := fs.Bool("json", false, "print JSON")
@@ -34,10 +34,6 @@ func cmdTrain(args []string, stdout, stderr io.Writer) error {
 		return usageError("--annotator is required: a model learns one annotator's labels\nusage: boxwright " + synopsis)
 	case *minutes <= 0 && *epochs <= 0:
 		return usageError("give --minutes or --epochs\nusage: boxwright " + synopsis)
-	case *epochs < 0 || *epochs > 100000:
-		return usageError(fmt.Sprintf("--epochs %d: give a number from 1 to 100000", *epochs))
-	case *threads < 0 || *threads > 1024:
-		return usageError(fmt.Sprintf("--threads %d: give a number from 0 (every core) to 1024", *threads))
 	}
 	nn.SetThreads(*threads)
 	s, ctx, done, err := openCLI(pos[0])
@@ -102,7 +98,7 @@ func cmdDetect(args []string, stdout, stderr io.Writer) error {
 	nms := nmsIn(fs, 0.5)
 	source := fs.String("source", "", "source name of the suggestions (default: the model's name)")
 	save := fs.Bool("save", false, "store the detections as pending suggestions")
-	threads := fs.Int("threads", 0, "threads for the arithmetic (0: every core)")
+	threads := intIn(fs, "threads", 0, 0, 1024, "threads for the arithmetic (0: every core)")
 	asJSON := fs.Bool("json", false, "print JSON")
 	const synopsis = "detect PROJECT.boxw [--model NAME] [--images unlabelled|all] [--min-score S] [--nms IOU|off] [--source NAME] [--save] [--json]"
 	pos, err := parse(fs, args, 1, 1, synopsis)
@@ -112,8 +108,6 @@ func cmdDetect(args []string, stdout, stderr io.Writer) error {
 	switch {
 	case *which != "unlabelled" && *which != "all":
 		return usageError(fmt.Sprintf("--images %q: use unlabelled or all", *which))
-	case *threads < 0 || *threads > 1024:
-		return usageError(fmt.Sprintf("--threads %d: give a number from 0 (every core) to 1024", *threads))
 	}
 	if *source != "" {
 		if err := project.ValidateName("source", *source); err != nil {
@@ -159,7 +153,7 @@ func cmdDetect(args []string, stdout, stderr io.Writer) error {
 	for _, d := range rep.Detections {
 		fmt.Fprintf(stdout, "%s\t%s\t%.1f,%.1f,%.1f,%.1f\t%.3f\n", paths[d.ImageID], names[d.ClassID], d.Box.X0, d.Box.Y0, d.Box.X1, d.Box.Y1, d.Score)
 	}
-	fmt.Fprintf(stdout, "model %s: %d detections on %d images", rep.Model, len(rep.Detections), rep.Images)
+	fmt.Fprintf(stdout, "model %s: %s on %s", rep.Model, ops.Plural(len(rep.Detections), "detection"), ops.Plural(rep.Images, "image"))
 	if *save {
 		fmt.Fprintf(stdout, ", stored as pending suggestions of source %q", rep.Source)
 	}

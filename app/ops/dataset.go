@@ -2,8 +2,10 @@ package ops
 
 import (
 	"context"
+	"errors"
 	"fmt"
 	"io"
+	"io/fs"
 	"os"
 	"path/filepath"
 	"text/tabwriter"
@@ -30,7 +32,8 @@ func loadDataset(ctx context.Context, s backend.Project, layout formats.Layout, 
 		ds, err := formats.LoadImageXMLFolder(src)
 		return ds, nil, err
 	case formats.LayoutText:
-		if classesFile == "" {
+		guessed := classesFile == ""
+		if guessed {
 			classesFile = findClassNames(src)
 		}
 		ims, err := s.Images(ctx)
@@ -38,10 +41,14 @@ func loadDataset(ctx context.Context, s backend.Project, layout formats.Layout, 
 			return nil, nil, err
 		}
 		m := project.NewImageMatcher(ims)
-		return formats.LoadCentreTextFolder(src, classesFile, func(rel string) (string, int, int, bool, string) {
+		ds, unmatched, err := formats.LoadCentreTextFolder(src, classesFile, func(rel string) (string, int, int, bool, string) {
 			im, ok, reason := m.MatchStem(rel)
 			return im.Path, im.Width, im.Height, ok, reason
 		})
+		if _, statErr := os.Stat(src); guessed && statErr == nil && errors.Is(err, fs.ErrNotExist) {
+			err = fmt.Errorf("%w, nor in the folder above: name the class-names file (--classes FILE)", err)
+		}
+		return ds, unmatched, err
 	}
 	return nil, nil, UnknownLayout(layout)
 }

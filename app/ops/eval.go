@@ -41,7 +41,7 @@ func LoadEval(ctx context.Context, st backend.Project, j EvalJob) (EvalData, err
 	d := EvalData{TruthName: j.Truth, Source: j.Source, ClassName: map[int64]string{}, ImageName: map[int64]string{}}
 	a, err := st.AnnotatorByName(ctx, j.Truth)
 	if err != nil {
-		return d, fmt.Errorf("ground truth annotator %q: %w", j.Truth, err)
+		return d, fmt.Errorf("ground truth (--truth): %w", err)
 	}
 	if d.classes, err = st.Classes(ctx); err != nil {
 		return d, err
@@ -127,7 +127,7 @@ func EvalOptions(protocol string, iou float64, interp string, plusOne bool, thre
 	var opt eval.Options
 	p, err := eval.ParseProtocol(protocol)
 	if err != nil {
-		return opt, err
+		return opt, fmt.Errorf("--protocol %q: give voc or coco", protocol)
 	}
 	if iou <= 0 || iou > 1 || math.IsNaN(iou) {
 		return opt, fmt.Errorf("--iou %g: give a number in (0, 1]", iou)
@@ -139,7 +139,7 @@ func EvalOptions(protocol string, iou float64, interp string, plusOne bool, thre
 	}
 	if interp != "" {
 		if opt.Interpolation, err = eval.ParseInterpolation(interp); err != nil {
-			return opt, err
+			return opt, fmt.Errorf("--interpolation %q: give all, 11, 101 or step", interp)
 		}
 	}
 	return opt, nil

@@ -111,7 +111,7 @@ func RunSuggestionImport(ctx context.Context, st backend.Project, j SuggestionJo
 			continue
 		}
 		if !j.Unknown.creates(name) && !j.Unknown.drops(name) {
-			missing = append(missing, fmt.Sprintf("%q (%d boxes)", name, n))
+			missing = append(missing, fmt.Sprintf("%q (%s)", name, Plural(n, "box")))
 		}
 	}
 	if len(missing) > 0 {

@@ -2,6 +2,7 @@ package ops
 
 import (
 	"context"
+	"errors"
 	"fmt"
 	"image"
 	"math"
@@ -201,7 +202,10 @@ func LoadModel(ctx context.Context, st backend.Project, name string) (project.Mo
 	if name == "" {
 		pm, err = st.CurrentModel(ctx)
 		if err != nil {
-			return pm, nil, nil, fmt.Errorf("no current model: train one first (boxwright train): %w", err)
+			if errors.Is(err, project.ErrNotFound) {
+				return pm, nil, nil, project.Explained(project.ErrNotFound, "the project has no current model: train one first (boxwright train)")
+			}
+			return pm, nil, nil, err
 		}
 	} else if pm, err = st.Model(ctx, name); err != nil {
 		return pm, nil, nil, err
@@ -290,7 +294,7 @@ func Detect(ctx context.Context, st backend.Project, j DetectJob) (DetectReport,
 func TrainMemory(rep TrainReport) string {
 	s := fmt.Sprintf("images cached %.0f MB, peak heap %.0f MB", float64(rep.CacheBytes)/1e6, float64(rep.PeakHeapBytes)/1e6)
 	if rep.Reloaded > 0 {
-		s += fmt.Sprintf("; %d images did not fit the cache and were read again at each use", rep.Reloaded)
+		s += fmt.Sprintf("; %s read again at each use (the cache was full)", Plural(rep.Reloaded, "image"))
 	}
 	return s
 }

@@ -113,6 +113,7 @@ func ReadRatings(rd io.Reader, file string) (Ratings, error) {
 		numeric = numeric && isNumber(name)
 	}
 	res := Ratings{Raters: raters}
+	var short []int // lines with fewer cells than raters
 	if numeric {
 		res.Notes = append(res.Notes, fmt.Sprintf("the header (line %d: %s) holds only numbers; it is read as the raters' names. If it is a unit, put a line of rater names above it", hline, strings.Join(raters, ", ")))
 	}
@@ -132,6 +133,9 @@ func ReadRatings(rd io.Reader, file string) (Ratings, error) {
 				return Ratings{}, rr.fail(line, j+1+off, "%q is beyond the %d raters the header names (line %d); cells after the last rater must be empty", cells[j], len(raters), hline)
 			}
 		}
+		if len(cells) < len(raters) {
+			short = append(short, line)
+		}
 		unit := make([]string, len(raters))
 		copy(unit, cells)
 		res.Units = append(res.Units, unit)
@@ -139,6 +143,22 @@ func ReadRatings(rd io.Reader, file string) (Ratings, error) {
 	}
 	if len(res.Units) == 0 {
 		return Ratings{}, rr.fail(hline, 0, "no units after the header: want one line per unit")
+	}
+	// A line with fewer cells than raters (a file cut short, a cell lost)
+	// is read with the missing cells as missing ratings, and said so.
+	if len(short) > 0 {
+		lines := make([]string, len(short))
+		for i, l := range short {
+			lines[i] = strconv.Itoa(l)
+		}
+		if len(lines) > 5 {
+			lines = append(lines[:5], "…")
+		}
+		what := "line " + lines[0] + " holds"
+		if len(short) > 1 {
+			what = fmt.Sprintf("%d lines (%s) hold", len(short), strings.Join(lines, ", "))
+		}
+		res.Notes = append(res.Notes, fmt.Sprintf("%s fewer cells than the %d raters; the missing cells are read as missing ratings", what, len(raters)))
 	}
 	return res, nil
 }

@@ -163,3 +163,23 @@ func TestReadRatingsLinesAndCategories(t *testing.T) {
 		t.Errorf("unknown category on line 3: %v", err)
 	}
 }
+
+// A line with fewer cells than raters (a file cut short) is read with
+// missing ratings, and a note says which lines; full lines and lines with
+// empty cells written out get no note.
+func TestShortRatingLinesAreNoted(t *testing.T) {
+	for _, c := range []struct{ in, want string }{
+		{"r1,r2,r3\na,b,a\na\nb,b,b\n", "line 3 holds fewer cells than the 3 raters; the missing cells are read as missing ratings"},
+		{"r1,r2\na,b\na\nb\n", "2 lines (3, 4) hold fewer cells than the 2 raters"},
+		{"r1,r2\na,b\na,\nb,b\n", ""},
+	} {
+		r, err := ReadRatings(strings.NewReader(c.in), "r.csv")
+		if err != nil {
+			t.Fatalf("%q: %v", c.in, err)
+		}
+		notes := strings.Join(r.Notes, "\n")
+		if (c.want == "") != (notes == "") || !strings.Contains(notes, c.want) {
+			t.Errorf("%q: notes %q, want %q", c.in, notes, c.want)
+		}
+	}
+}

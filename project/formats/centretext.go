@@ -198,20 +198,20 @@ func parseCentreLine(s, file string, line, width, height int, classes []string) 
 	idx := v[0]
 	switch {
 	case idx != math.Trunc(idx):
-		return fail("class_index", "class index %s is not an integer", clip(cols[0]))
+		return fail("class_index", "%s is not a whole number", clip(cols[0]))
 	case idx < 0:
-		return fail("class_index", "class index %s is negative", clip(cols[0]))
+		return fail("class_index", "%s is negative", clip(cols[0]))
 	case idx >= float64(len(classes)):
-		return fail("class_index", "class index %s is beyond the class-names file, which has %s", clip(cols[0]), centreClassCount(len(classes)))
+		return fail("class_index", "%s is beyond the class-names file, which has %s", clip(cols[0]), centreClassCount(len(classes)))
 	}
 
 	for i := 1; i <= 4; i++ {
 		f := v[i]
 		if f < -centreTolerance || f > 1+centreTolerance {
-			return fail(centreFields[i], "%s %s is outside 0..1 (values are relative to the image size)", centreFields[i], clip(cols[i]))
+			return fail(centreFields[i], "%s is outside 0..1 (values are relative to the image size)", clip(cols[i]))
 		}
 		if i >= 3 && f <= 0 {
-			return fail(centreFields[i], "%s %s is not greater than 0", centreFields[i], clip(cols[i]))
+			return fail(centreFields[i], "%s is not greater than 0", clip(cols[i]))
 		}
 	}
 	br := BoxRecord{
@@ -224,7 +224,7 @@ func parseCentreLine(s, file string, line, width, height int, classes []string) 
 	}
 	if len(cols) == 6 {
 		if v[5] < -centreTolerance || v[5] > 1+centreTolerance {
-			return fail("score", "score %s is outside 0..1", clip(cols[5]))
+			return fail("score", "%s is outside 0..1", clip(cols[5]))
 		}
 		br.Score, br.HasScore = v[5], true
 	}

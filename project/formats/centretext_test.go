@@ -198,19 +198,19 @@ func TestReadCentreTextErrors(t *testing.T) {
 		{"four columns", "0 0.5 0.5 0.1", "found 4 columns, expected 5 (class_index cx cy w h) or 6 (with a score)", ""},
 		{"seven columns", "0 0.5 0.5 0.1 0.1 0.9 7", "found 7 columns", ""},
 		{"class text", "cat 0.5 0.5 0.1 0.1", `class_index: "cat" is not a number`, "class_index"},
-		{"class fraction", "1.5 0.5 0.5 0.1 0.1", "class_index: class index 1.5 is not an integer", "class_index"},
-		{"class negative", "-1 0.5 0.5 0.1 0.1", "class_index: class index -1 is negative", "class_index"},
-		{"class beyond", "3 0.5 0.5 0.1 0.1", "class_index: class index 3 is beyond the class-names file, which has 3 classes (indices 0..2)", "class_index"},
+		{"class fraction", "1.5 0.5 0.5 0.1 0.1", "class_index: 1.5 is not a whole number", "class_index"},
+		{"class negative", "-1 0.5 0.5 0.1 0.1", "class_index: -1 is negative", "class_index"},
+		{"class beyond", "3 0.5 0.5 0.1 0.1", "class_index: 3 is beyond the class-names file, which has 3 classes (indices 0..2)", "class_index"},
 		{"cx text", "0 half 0.5 0.1 0.1", `cx: "half" is not a number`, "cx"},
 		{"cy NaN", "0 0.5 NaN 0.1 0.1", `cy: "NaN" is not a finite number`, "cy"},
 		{"w inf", "0 0.5 0.5 inf 0.1", `w: "inf" is not a finite number`, "w"},
 		{"h huge", "0 0.5 0.5 0.1 1e999", `h: "1e999" is not a finite number`, "h"},
-		{"cx above 1", "0 1.01 0.5 0.1 0.1", "cx: cx 1.01 is outside 0..1", "cx"},
-		{"cy below 0", "0 0.5 -0.001 0.1 0.1", "cy: cy -0.001 is outside 0..1", "cy"},
-		{"w zero", "0 0.5 0.5 0 0.1", "w: w 0 is not greater than 0", "w"},
-		{"h negative", "0 0.5 0.5 0.1 -0.0000001", "h: h -0.0000001 is not greater than 0", "h"},
-		{"w pixel coordinates", "0 320 240 64 48", "cx: cx 320 is outside 0..1 (values are relative to the image size)", "cx"},
-		{"score above 1", "0 0.5 0.5 0.1 0.1 87", "score: score 87 is outside 0..1", "score"},
+		{"cx above 1", "0 1.01 0.5 0.1 0.1", "cx: 1.01 is outside 0..1", "cx"},
+		{"cy below 0", "0 0.5 -0.001 0.1 0.1", "cy: -0.001 is outside 0..1", "cy"},
+		{"w zero", "0 0.5 0.5 0 0.1", "w: 0 is not greater than 0", "w"},
+		{"h negative", "0 0.5 0.5 0.1 -0.0000001", "h: -0.0000001 is not greater than 0", "h"},
+		{"w pixel coordinates", "0 320 240 64 48", "cx: 320 is outside 0..1 (values are relative to the image size)", "cx"},
+		{"score above 1", "0 0.5 0.5 0.1 0.1 87", "score: 87 is outside 0..1", "score"},
 		{"score text", "0 0.5 0.5 0.1 0.1 high", `score: "high" is not a number`, "score"},
 		{"tiny box", "0 0.5 0.5 1e-300 0.1", "w: box of size 1e-300 x 0.1 is too small", "w"},
 	}
@@ -246,7 +246,7 @@ func TestReadCentreTextErrors(t *testing.T) {
 		t.Errorf("zero width: %v", err)
 	}
 	_, err = ReadCentreText(strings.NewReader(good), "n.txt", 640, 480, nil)
-	if err == nil || !strings.Contains(err.Error(), "n.txt:1: class_index: class index 0 is beyond the class-names file, which has no classes") {
+	if err == nil || !strings.Contains(err.Error(), "n.txt:1: class_index: 0 is beyond the class-names file, which has no classes") {
 		t.Errorf("no classes: %v", err)
 	}
 }

@@ -102,6 +102,13 @@ type ImageSize func(rel string) (name string, width, height int, ok bool, reason
 // file, resolving each to its image through size. Files without an image
 // are returned as unmatched (with the reason), not read.
 func LoadCentreTextFolder(root, classNamesFile string, size ImageSize) (*Dataset, []string, error) {
+	// The labels first: a pipe or device given as the folder is named as
+	// such, not reported as a class-names file missing beside it.
+	if st, err := os.Stat(root); err != nil {
+		return nil, nil, missing(root, err)
+	} else if m := st.Mode(); !m.IsDir() && !m.IsRegular() {
+		return nil, nil, fmt.Errorf("%s is %s, not a folder or file of labels", root, Kind(m))
+	}
 	cf, err := OpenFile(classNamesFile)
 	if err != nil {
 		return nil, nil, fmt.Errorf("read class names: %w", err)

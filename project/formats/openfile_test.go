@@ -3,6 +3,8 @@
 package formats
 
 import (
+	"errors"
+	"io/fs"
 	"os"
 	"path/filepath"
 	"strings"
@@ -40,4 +42,35 @@ func TestOpenFileRefusesWhatIsNotAFile(t *testing.T) {
 		t.Fatal(err)
 	}
 	f.Close()
+}
+
+// A missing file and a link to nothing are said in words ("stat X: no
+// such file or directory" said neither which), and stay fs.ErrNotExist.
+func TestOpenFileSaysWhatIsMissing(t *testing.T) {
+	dir := t.TempDir()
+	gone := filepath.Join(dir, "gone.txt")
+	link := filepath.Join(dir, "link.txt")
+	if err := os.Symlink(gone, link); err != nil {
+		t.Skipf("no symbolic links here: %v", err)
+	}
+	for path, want := range map[string]string{gone: "no such file: " + gone, link: link + " is a link to " + gone + ", which does not exist"} {
+		_, err := OpenFile(path)
+		if err == nil || err.Error() != want || !errors.Is(err, fs.ErrNotExist) {
+			t.Errorf("OpenFile(%s): %v, want %q", path, err, want)
+		}
+	}
+}
+
+// The text layout names a pipe given as its label folder as a pipe, not
+// as a class-names file missing beside it.
+func TestCentreTextFolderRefusesAPipe(t *testing.T) {
+	dir := t.TempDir()
+	pipe := filepath.Join(dir, "labels")
+	if err := syscall.Mkfifo(pipe, 0o644); err != nil {
+		t.Skipf("no named pipes here: %v", err)
+	}
+	_, _, err := LoadCentreTextFolder(pipe, filepath.Join(dir, "classes.txt"), nil)
+	if err == nil || !strings.Contains(err.Error(), pipe+" is a named pipe") {
+		t.Errorf("LoadCentreTextFolder on a pipe: %v", err)
+	}
 }
