@@ -67,6 +67,10 @@ type ImageStore interface {
 	MissingImages(ctx context.Context) ([]Image, error)
 	// ImagePath is the image's file on this machine.
 	ImagePath(im Image) string
+	// FetchImage makes sure the image's file is on this machine and
+	// returns its path: a server project fetches the bytes first (call it
+	// off the window's event thread); a file project only says where.
+	FetchImage(ctx context.Context, im Image) (string, error)
 }
 
 // LabelFilter selects labels; zero fields select everything.

@@ -537,7 +537,7 @@ func (g *cropGrid) cropFromImage(ctx context.Context, s project.Suggestion) (ima
 	if !ok || st == nil {
 		return nil, fmt.Errorf("image %d: %w", s.ImageID, project.ErrNotFound)
 	}
-	p, err := g.u.cache.Get(ctx, im.ID, st.ImagePath(im))
+	p, err := g.u.cache.Get(ctx, im.ID, fileOf(st, im))
 	if err != nil {
 		return nil, err
 	}

@@ -118,7 +118,7 @@ func benchNextImage(b *testing.B, path string, prefetch bool) {
 		wait()
 		if prefetch {
 			next := u.images[u.nav.shown[u.nav.rowOf(cur)+1]]
-			if _, err := u.cache.Get(ctx, next.ID, u.st.ImagePath(next)); err != nil {
+			if _, err := u.cache.Get(ctx, next.ID, fileOf(u.st, next)); err != nil {
 				b.Fatal(err)
 			}
 		}

@@ -133,9 +133,9 @@ func (u *ui) showImage(i int) {
 	}
 	u.view.SetMessage("Loading " + filepath.Base(im.Path) + "…")
 	u.updateStatus()
-	path := u.st.ImagePath(im)
+	where := fileOf(u.st, im)
 	go func() {
-		p, err := u.cache.Get(ctx, im.ID, path)
+		p, err := u.cache.Get(ctx, im.ID, where)
 		fyne.Do(func() {
 			if ctx.Err() != nil {
 				return // the user moved on
@@ -167,7 +167,7 @@ func (u *ui) prefetchAround(i int) {
 	for _, d := range []int{1, -1} {
 		if j := r + d; r >= 0 && j >= 0 && j < len(u.nav.shown) {
 			im := u.images[u.nav.shown[j]]
-			u.cache.Prefetch(im.ID, u.st.ImagePath(im))
+			u.cache.Prefetch(im.ID, fileOf(u.st, im))
 		}
 	}
 }

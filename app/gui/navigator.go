@@ -49,8 +49,8 @@ type navigator struct {
 }
 
 type thumbJob struct {
-	id   int64
-	path string
+	id    int64
+	where locate
 }
 
 func newNavigator(u *ui) *navigator {
@@ -208,7 +208,7 @@ func (n *navigator) updateRow(row widget.ListItemID, o fyne.CanvasObject) {
 	t, ok := n.thumbs[im.ID]
 	n.mu.Unlock()
 	if !ok {
-		n.request(im.ID, st.ImagePath(im))
+		n.request(im.ID, fileOf(st, im))
 	}
 	if thumb.Image != t {
 		thumb.Image = t
@@ -236,7 +236,7 @@ var backgroundThumbnails = true
 
 // request asks for a thumbnail; the newest requests are served first,
 // since those are the rows on screen.
-func (n *navigator) request(id int64, path string) {
+func (n *navigator) request(id int64, where locate) {
 	if !backgroundThumbnails {
 		return
 	}
@@ -247,7 +247,7 @@ func (n *navigator) request(id int64, path string) {
 			return
 		}
 	}
-	n.want = append(n.want, thumbJob{id, path})
+	n.want = append(n.want, thumbJob{id, where})
 	if len(n.want) > 64 {
 		n.want = n.want[len(n.want)-64:] // rows long scrolled past
 	}
@@ -272,7 +272,7 @@ func (n *navigator) thumbWorker() {
 			var t image.Image
 			if p := n.u.cache.Ready(j.id); p != nil {
 				t = imagefile.Thumbnail(p.Level(p.Levels()-1), thumbSide)
-			} else if img, _, err := imagefile.Decode(j.path, imagefile.DefaultMaxPixels); err == nil {
+			} else if img, err := decodeAt(j.where); err == nil {
 				t = imagefile.Thumbnail(img, thumbSide)
 			} else {
 				t = image.NewRGBA(image.Rect(0, 0, 4, 3)) // unreadable: an empty tile, the row says why when opened
@@ -292,6 +292,15 @@ func (n *navigator) thumbWorker() {
 			})
 		}
 	}
+}
+
+func decodeAt(where locate) (image.Image, error) {
+	path, err := where()
+	if err != nil {
+		return nil, err
+	}
+	img, _, err := imagefile.Decode(path, imagefile.DefaultMaxPixels)
+	return img, err
 }
 
 // refreshImage redraws the row of one image.

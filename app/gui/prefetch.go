@@ -7,6 +7,7 @@ import (
 	"time"
 
 	"boxwright/canvas"
+	"boxwright/project"
 	"boxwright/store/imagefile"
 )
 
@@ -36,8 +37,17 @@ func newImageCache() *imageCache {
 		}}
 }
 
+// locate finds an image's file on this machine; it runs in the decoding
+// goroutine, since a server project may fetch the bytes first.
+type locate func() (string, error)
+
+// fileOf is the locate step of an image of st.
+func fileOf(st project.ImageStore, im project.Image) locate {
+	return func() (string, error) { return st.FetchImage(context.Background(), im) }
+}
+
 // start returns the entry for an image, beginning its decode when absent.
-func (c *imageCache) start(id int64, path string) *cacheEntry {
+func (c *imageCache) start(id int64, where locate) *cacheEntry {
 	c.mu.Lock()
 	defer c.mu.Unlock()
 	e, ok := c.entries[id]
@@ -48,7 +58,11 @@ func (c *imageCache) start(id int64, path string) *cacheEntry {
 	e = &cacheEntry{done: make(chan struct{}), used: time.Now()}
 	c.entries[id] = e
 	go func() {
-		img, err := c.decode(path, imagefile.DefaultMaxPixels)
+		path, err := where()
+		var img image.Image
+		if err == nil {
+			img, err = c.decode(path, imagefile.DefaultMaxPixels)
+		}
 		if err == nil {
 			e.pyr, err = canvas.NewPyramid(context.Background(), img)
 		}
@@ -65,8 +79,8 @@ func (c *imageCache) start(id int64, path string) *cacheEntry {
 }
 
 // Get waits for the image's pyramid (or ctx).
-func (c *imageCache) Get(ctx context.Context, id int64, path string) (*canvas.Pyramid, error) {
-	e := c.start(id, path)
+func (c *imageCache) Get(ctx context.Context, id int64, where locate) (*canvas.Pyramid, error) {
+	e := c.start(id, where)
 	select {
 	case <-e.done:
 		return e.pyr, e.err
@@ -91,7 +105,7 @@ func (c *imageCache) Ready(id int64) *canvas.Pyramid {
 }
 
 // Prefetch starts decoding an image that will probably be shown next.
-func (c *imageCache) Prefetch(id int64, path string) { c.start(id, path) }
+func (c *imageCache) Prefetch(id int64, where locate) { c.start(id, where) }
 
 // trim drops the least recently used decoded entries beyond keep or the
 // byte budget.

@@ -483,9 +483,9 @@ func (q *reviewQueue) show() {
 	q.updateStatus()
 	ctx, cancel := context.WithCancel(context.Background())
 	q.cancel = cancel
-	path := q.u.st.ImagePath(im)
+	where := fileOf(q.u.st, im)
 	go func() {
-		p, err := q.u.cache.Get(ctx, im.ID, path)
+		p, err := q.u.cache.Get(ctx, im.ID, where)
 		fyne.Do(func() {
 			if ctx.Err() != nil {
 				return // the reviewer moved on

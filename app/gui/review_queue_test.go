@@ -369,7 +369,7 @@ func BenchmarkReviewQueueNext(b *testing.B) {
 				im := q.images[next.ImageID]
 				if mode == "cold" {
 					u.cache.Clear()
-				} else if _, err := u.cache.Get(ctx, im.ID, u.st.ImagePath(im)); err != nil {
+				} else if _, err := u.cache.Get(ctx, im.ID, fileOf(u.st, im)); err != nil {
 					b.Fatal(err)
 				}
 				for len(shown) > 0 {

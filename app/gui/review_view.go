@@ -102,7 +102,7 @@ func (q *reviewQueue) prefetch() {
 		}
 		n++
 		if im, ok := q.images[g.ImageID]; ok {
-			q.u.cache.Prefetch(im.ID, q.u.st.ImagePath(im))
+			q.u.cache.Prefetch(im.ID, fileOf(q.u.st, im))
 		}
 	}
 }

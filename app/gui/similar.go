@@ -336,7 +336,7 @@ func (u *ui) findSimilar(r *similarRun, ex []project.Box, exImg image.Image, ims
 	classID := r.classID
 	m := &exemplar.Matcher{ClassID: classID, Exemplars: ex, ExemplarImage: exImg, ExemplarImageID: r.imageID, Options: opt,
 		Load: func(ctx context.Context, im project.Image) (image.Image, error) {
-			if p, err := u.cache.Get(ctx, im.ID, st.ImagePath(im)); err == nil {
+			if p, err := u.cache.Get(ctx, im.ID, fileOf(st, im)); err == nil {
 				return p.Level(0), nil
 			}
 			return ops.DecodeProjectImage(st, im)

@@ -13,7 +13,11 @@ import (
 
 // DecodeProjectImage decodes an image of the project as displayed.
 func DecodeProjectImage(st backend.Project, im project.Image) (image.Image, error) {
-	img, _, err := imagefile.Decode(st.ImagePath(im), imagefile.DefaultMaxPixels)
+	path, err := st.FetchImage(context.Background(), im)
+	if err != nil {
+		return nil, err
+	}
+	img, _, err := imagefile.Decode(path, imagefile.DefaultMaxPixels)
 	return img, err
 }
 
