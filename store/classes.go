@@ -213,7 +213,11 @@ func (s *Store) DeleteClass(ctx context.Context, id int64, opts project.DeleteCl
 		return s.translate(err)
 	})
 	if err != nil {
-		return fmt.Errorf("delete class %q: %w", c.Name, err)
+		verb := "delete class"
+		if opts.MoveTo != 0 {
+			verb = "merge class"
+		}
+		return fmt.Errorf("%s %q: %w", verb, c.Name, err)
 	}
 	return nil
 }

@@ -23,7 +23,7 @@ func cmdEval(args []string, stdout, stderr io.Writer) error {
 	plusOne := fs.Bool("plus-one", false, "pixel-inclusive areas (x2−x1+1)·(y2−y1+1), as older toolkits")
 	threshold := floatIn(fs, "threshold", 0.5, 0, 1, "score at which precision, recall and F1 are given")
 	asJSON := fs.Bool("json", false, "print JSON")
-	const synopsis = "eval PROJECT.boxw --truth ANNOTATOR (--source NAME | --predictions FILE) [--protocol voc|coco] [--iou 0.5] [--interpolation all|11|101] [--plus-one] [--threshold 0.5] [--json]"
+	const synopsis = "eval PROJECT.boxw --truth ANNOTATOR (--source NAME | --predictions FILE) [--protocol voc|coco] [--iou 0.5] [--interpolation all|11|101|step] [--plus-one] [--threshold 0.5] [--json]"
 	pos, err := parse(fs, args, 1, 1, synopsis)
 	if err != nil {
 		return err

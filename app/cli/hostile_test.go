@@ -333,3 +333,15 @@ func TestClassesUsageBeforeOpening(t *testing.T) {
 		}
 	}
 }
+
+// add-images exits 1 when not one of the paths given could be taken (it
+// exited 0 with "failed 1"); a partial intake still exits 0.
+func TestAddImagesFailsWhenNothingIsTaken(t *testing.T) {
+	dir := t.TempDir()
+	p := filepath.Join(dir, "p.boxw")
+	mustCLI(t, "new", p)
+	code, out, errs := cli(t, "add-images", p, filepath.Join(dir, "nonexistent.jpg"))
+	if code != 1 || !strings.Contains(errs, "nothing was added") || !strings.Contains(out, "failed 1") {
+		t.Errorf("add-images of a missing file: exit %d, stdout %q, stderr %q", code, out, errs)
+	}
+}

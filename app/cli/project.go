@@ -90,6 +90,11 @@ func cmdAddImages(args []string, stdout, stderr io.Writer) error {
 	if perr := printIntake(stdout, rep, *asJSON); perr != nil {
 		return perr
 	}
+	if err == nil && rep.Added+rep.Duplicates+rep.Relinked == 0 && len(rep.Failed) > 0 {
+		// Nothing named could be taken: a script must not read that as
+		// success.
+		return fmt.Errorf("nothing was added: every path given failed (%s)", ops.Plural(len(rep.Failed), "file"))
+	}
 	return err
 }
 

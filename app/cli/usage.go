@@ -40,7 +40,7 @@ Commands:
         [--rotations] [--feature gray|gradient|color] [--save] [--json]
                                         objects like the example in one image
   eval PROJECT.boxw --truth ANNOTATOR (--source NAME | --predictions FILE)
-        [--protocol voc|coco] [--iou 0.5] [--interpolation all|11|101]
+        [--protocol voc|coco] [--iou 0.5] [--interpolation all|11|101|step]
         [--plus-one] [--threshold 0.5] [--json]
                                         score a model against ground truth
   agree PROJECT.boxw --annotators A,B[,C...] [--iou 0.5] [--class-aware]
