@@ -31,6 +31,15 @@ func TestSilentChoicesAreStated(t *testing.T) {
 	}
 	mustCLI(t, "suggestions", "import", path, preds, "--source", "m", "--nms", "off")
 
+	// A prediction repeated exactly is kept, and said (evaluation would
+	// count the copy as a false positive).
+	twice := filepath.Join(dir, "twice.json")
+	os.WriteFile(twice, []byte(fmt.Sprintf(`[{"file_name":%q,"category":"buoy","bbox":[1,1,20,20],"score":0.9},
+		{"file_name":%q,"category":"buoy","bbox":[1,1,20,20],"score":0.9}]`, ims[0].Path, ims[0].Path)), 0o644)
+	if code, _, errs := cli(t, "suggestions", "import", path, twice, "--source", "m2"); code != 0 || !strings.Contains(errs, "1 prediction repeat") {
+		t.Errorf("an exact repeat: exit %d, stderr %q; want a warning", code, errs)
+	}
+
 	// An empty prediction list would delete the source's pending
 	// suggestions: refused.
 	empty := filepath.Join(dir, "empty.json")

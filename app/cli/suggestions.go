@@ -72,6 +72,9 @@ func cmdSuggestionsImport(args []string, stdout, stderr io.Writer, synopsis stri
 	fmt.Fprintf(stdout, "source %s: read %d, below the minimum score %d, suppressed by NMS %d, unknown class dropped %d, clipped to their image %d\n",
 		res.Source, res.Read, res.BelowScore, res.Suppressed, res.Dropped, res.Clipped)
 	fmt.Fprintf(stdout, "added %s; replaced %d still pending from an earlier import; kept %d already reviewed\n", ops.Plural(res.Added, "pending suggestion"), res.ReplacedPending, res.KeptReviewed)
+	if res.Repeats > 0 && *nms <= 0 {
+		fmt.Fprintf(stderr, "boxwright: warning: %s repeat an earlier one exactly (same image, class, box and score) and were kept; --nms 0.99 drops such copies\n", ops.Plural(res.Repeats, "prediction"))
+	}
 	if len(res.ClassesCreated) > 0 {
 		fmt.Fprintf(stdout, "new classes: %s\n", strings.Join(res.ClassesCreated, ", "))
 	}

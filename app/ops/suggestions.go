@@ -39,12 +39,37 @@ type SuggestionJob struct {
 // SuggestionResult is what an import did.
 type SuggestionResult struct {
 	project.SuggestionImportReport
-	Read           int      `json:"read"`
-	BelowScore     int      `json:"below_min_score"`
-	Suppressed     int      `json:"suppressed_by_nms"`
-	Dropped        int      `json:"dropped_unknown_class"`
-	Clipped        int      `json:"clipped_to_image"`
+	Read       int `json:"read"`
+	BelowScore int `json:"below_min_score"`
+	Suppressed int `json:"suppressed_by_nms"`
+	Dropped    int `json:"dropped_unknown_class"`
+	Clipped    int `json:"clipped_to_image"`
+	// Repeats counts predictions identical to an earlier one of the file
+	// (image, class, box and score): kept, and said, since a model does
+	// not usually emit one box twice and evaluation would count the copy
+	// as a false positive.
+	Repeats        int      `json:"exact_repeats"`
 	ClassesCreated []string `json:"classes_created"`
+}
+
+// exactRepeats counts proposals identical to an earlier one.
+func exactRepeats(ps []suggest.Proposal) int {
+	type key struct {
+		image int64
+		class string
+		box   project.Box
+		score float64
+	}
+	seen := make(map[key]bool, len(ps))
+	n := 0
+	for _, p := range ps {
+		k := key{p.ImageID, p.ClassName, p.Box, p.Score}
+		if seen[k] {
+			n++
+		}
+		seen[k] = true
+	}
+	return n
 }
 
 // unknownClasses lists the class names proposals use that the project
@@ -91,7 +116,7 @@ func RunSuggestionImport(ctx context.Context, st backend.Project, j SuggestionJo
 	if err != nil {
 		return res, err
 	}
-	res.Read, res.Clipped = len(ps), src.Clipped()
+	res.Read, res.Clipped, res.Repeats = len(ps), src.Clipped(), exactRepeats(ps)
 	if j.Probe != nil {
 		j.Probe(unknownClasses(ps))
 		return res, nil
