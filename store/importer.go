@@ -216,7 +216,7 @@ func (l *labelInserter) flush() error {
 	if err != nil {
 		// Name the batch's first record; the checks before insertion make a
 		// database refusal here rare.
-		return fmt.Errorf("%s (or one of the %d records after it): %w", l.where[0], n-1, translateCode(err))
+		return fmt.Errorf("%s (or one of the %d records after it): %w", l.where[0], n-1, missingRef(translateCode(err), "its image, class or annotator"))
 	}
 	l.args, l.where = l.args[:0], l.where[:0]
 	return nil

@@ -3,6 +3,7 @@ package store
 import (
 	"context"
 	"database/sql"
+	"errors"
 	"fmt"
 	"runtime"
 	"sort"
@@ -66,6 +67,18 @@ func (s *Store) Label(ctx context.Context, id int64) (project.Label, error) {
 		return l, fmt.Errorf("label %d: %w", id, s.translate(err))
 	}
 	return l, nil
+}
+
+// missingRef turns the refusal of a foreign key on an insert or update
+// (translated as ErrInUse, which is what it means on a delete) into
+// ErrNotFound naming what does not exist: a label or suggestion that
+// points at a missing image, class or annotator refers to nothing, it is
+// not "still in use".
+func missingRef(err error, what string) error {
+	if errors.Is(err, project.ErrInUse) {
+		return fmt.Errorf("%s does not exist: %w", what, project.ErrNotFound)
+	}
+	return err
 }
 
 func checkBox(b project.Box) error {
