@@ -102,6 +102,9 @@ func (s *Store) ReplaceAnnotatorLabels(ctx context.Context, annotatorID int64, l
 			if err := checkBox(l.Box); err != nil {
 				return fmt.Errorf("label %d of %d: %w", i+1, len(labels), err)
 			}
+			if err := checkScore(l.Score); err != nil {
+				return fmt.Errorf("label %d of %d: %w", i+1, len(labels), err)
+			}
 			if err := ins.add(fmt.Sprintf("label %d of %d", i+1, len(labels)), l.ImageID, l.ClassID, annotatorID,
 				l.Box.X0, l.Box.Y0, l.Box.X1, l.Box.Y1, string(l.Origin), l.Source, l.Score, now, now); err != nil {
 				return err

@@ -110,6 +110,9 @@ func (s *Store) ImportDataset(ctx context.Context, ds *formats.Dataset, opts pro
 				if !box.Valid() {
 					return fmt.Errorf("%s: box %v has no area", b.Where, b.Box)
 				}
+				if err := checkScore(b.Score); err != nil {
+					return fmt.Errorf("%s: %w", b.Where, err)
+				}
 				if prior[im.ID][priorKey{id, box}] {
 					if repeats == 0 {
 						firstRepeat = b.Where

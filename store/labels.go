@@ -5,6 +5,7 @@ import (
 	"database/sql"
 	"errors"
 	"fmt"
+	"math"
 	"runtime"
 	"sort"
 	"strings"
@@ -81,6 +82,16 @@ func missingRef(err error, what string) error {
 	return err
 }
 
+// checkScore refuses a score that is not a finite number: SQLite would
+// turn NaN into a NOT NULL failure and keep infinities, which no
+// statistic can use.
+func checkScore(v float64) error {
+	if math.IsNaN(v) || math.IsInf(v, 0) {
+		return project.Explained(project.ErrInvalid, "score %v is not a finite number", v)
+	}
+	return nil
+}
+
 func checkBox(b project.Box) error {
 	if !b.Valid() {
 		return project.Explained(project.ErrInvalid, "box %v has no area or a non-finite coordinate", b)
@@ -123,6 +134,9 @@ func (s *Store) insertLabel(ctx context.Context, tx *sql.Tx, l project.Label) (p
 	}
 	if err := checkBox(l.Box); err != nil {
 		return l, fmt.Errorf("add label: %w", s.damaged(err))
+	}
+	if err := checkScore(l.Score); err != nil {
+		return l, fmt.Errorf("add label: %w", err)
 	}
 	now := s.now()
 	if l.Created.IsZero() {

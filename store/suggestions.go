@@ -84,6 +84,9 @@ func (s *Store) AddSuggestions(ctx context.Context, gs []project.Suggestion) ([]
 			if err := checkBox(g.Box); err != nil {
 				return fmt.Errorf("suggestion %d: %w", i, err)
 			}
+			if err := checkScore(g.Score); err != nil {
+				return fmt.Errorf("suggestion %d: %w", i, err)
+			}
 			if strings.TrimSpace(g.Source) == "" {
 				return project.Explained(project.ErrInvalid, "suggestion %d: source name is empty", i)
 			}

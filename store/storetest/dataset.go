@@ -2,6 +2,7 @@ package storetest
 
 import (
 	"errors"
+	"math"
 	"slices"
 	"strings"
 
@@ -105,6 +106,9 @@ func importAllOrNothing(e *env) {
 			project.ImportOptions{Annotator: "x"}, "80×100"},
 		{"a bad created class after good ones", &formats.Dataset{Images: []formats.ImageRecord{rec("a.jpg", 100, 80, bx("new one", 0, 0, 5, 5, "a0"), bx(" bad", 0, 0, 5, 5, "a1"))}},
 			project.ImportOptions{Annotator: "x", CreateClasses: true}, "a1"},
+		{"infinite score", &formats.Dataset{Images: []formats.ImageRecord{rec("a.jpg", 100, 80, bx("buoy", 0, 0, 5, 5, "a0"),
+			formats.BoxRecord{Class: "buoy", Box: box(1, 1, 5, 5), Score: math.Inf(1), HasScore: true, Where: "a7"})}},
+			project.ImportOptions{Annotator: "x"}, "a7"},
 		{"no annotator", &formats.Dataset{Images: []formats.ImageRecord{rec("a.jpg", 100, 80)}}, project.ImportOptions{}, "annotator"},
 		{"unknown again", &formats.Dataset{Images: []formats.ImageRecord{rec("a.jpg", 100, 80, bx("buoy", 0, 0, 5, 5, "a0"))}},
 			project.ImportOptions{Annotator: "x", Again: "twice"}, "twice"},

@@ -2,6 +2,7 @@ package storetest
 
 import (
 	"errors"
+	"fmt"
 	"math"
 	"slices"
 
@@ -17,6 +18,7 @@ func init() {
 		testCase{"ReplaceAnnotatorLabels", replaceAnnotatorLabels},
 		testCase{"LabelTallies", labelTallies},
 		testCase{"BoxesByImage", boxesByImage},
+		testCase{"NonFiniteScoresRefused", nonFiniteScores},
 	)
 }
 
@@ -333,18 +335,39 @@ func boxesByImage(e *env) {
 	}
 	check("annotator a", []int64{a.ID}, want)
 	check("annotators a and b", []int64{b.ID, a.ID}, wantAB)
-	all := map[int64][]project.BoxRow{}
-	for _, ib := range func() []project.ImageBoxes { g, _ := e.b.BoxesByImage(e.ctx, nil); return g }() {
-		all[ib.ImageID] = ib.Boxes
-	}
-	n := 0
-	for _, bs := range all {
-		n += len(bs)
-	}
-	if n != 40 {
-		e.t.Errorf("all annotators: %d boxes, want 40", n)
+
+	for name, ids := range map[string][]int64{"nil": nil, "empty": {}} {
+		got, err := e.b.BoxesByImage(e.ctx, ids)
+		e.fatal("boxes by image", err)
+		n := 0
+		for _, ib := range got {
+			n += len(ib.Boxes)
+		}
+		if n != 40 {
+			e.t.Errorf("annotators %s (everyone): %d boxes, want 40", name, n)
+		}
 	}
 	if got, err := e.b.BoxesByImage(e.ctx, []int64{99999}); err != nil || len(got) != 0 {
 		e.t.Errorf("boxes of an unknown annotator: %+v %v", got, err)
 	}
+}
+
+// A score is a finite number: NaN and infinities are refused (ErrInvalid)
+// wherever a label or suggestion is stored, whatever the column type of a
+// backend would take.
+func nonFiniteScores(e *env) {
+	ims := e.images(1)
+	c := e.class("buoy")
+	a := e.annotator("ana")
+	before := e.snapshot()
+	for _, v := range []float64{math.NaN(), math.Inf(1), math.Inf(-1)} {
+		l := project.Label{ImageID: ims[0].ID, ClassID: c.ID, AnnotatorID: a.ID, Box: box(1, 1, 5, 5), Origin: project.OriginAccepted, Score: v}
+		_, err := e.b.ApplyLabelChange(e.ctx, project.LabelChange{Insert: []project.Label{l}})
+		e.wantErr(fmt.Sprintf("a label scored %v", v), err, project.ErrInvalid)
+		e.wantErr(fmt.Sprintf("a batch of labels scored %v", v), e.b.AddLabels(e.ctx, []project.Label{l}), project.ErrInvalid)
+		e.wantErr(fmt.Sprintf("a swap with labels scored %v", v), e.b.ReplaceAnnotatorLabels(e.ctx, a.ID, []project.Label{l}), project.ErrInvalid)
+		_, err = e.b.AddSuggestions(e.ctx, []project.Suggestion{{ImageID: ims[0].ID, ClassID: c.ID, Box: box(1, 1, 5, 5), Score: v, Source: "det"}})
+		e.wantErr(fmt.Sprintf("a suggestion scored %v", v), err, project.ErrInvalid)
+	}
+	e.unchanged("non-finite scores", before)
 }
