@@ -13,6 +13,14 @@
 // Every check goes through the Backend interface alone. What only one
 // backend has (pragmas, file damage, recovery, locks, row-level security)
 // stays in that backend's own tests.
+//
+// A backend that keeps image bytes itself runs RunWith(t, ServerBackend,
+// open); open must give each subtest a new, empty project (a new database)
+// opened by a role that may do everything (the owner). Images reach it
+// only through AddImages of real files under t.TempDir(); their Path must
+// end in the file's name (dataset records are matched by it), and lists
+// "by name" and "by path" are in code-point order. The suite closes each
+// backend when its subtest ends.
 package storetest
 
 import (
