@@ -98,10 +98,16 @@ func (s *Store) AddAnnotator(ctx context.Context, name string) (project.Annotato
 }
 
 // EnsureAnnotator returns the annotator of that name, adding it if new.
+// When another connection adds the name between the look-up and the
+// insert, the insert's duplicate is that annotator.
 func (s *Store) EnsureAnnotator(ctx context.Context, name string) (project.Annotator, error) {
 	a, err := s.AnnotatorByName(ctx, name)
-	if errors.Is(err, project.ErrNotFound) {
-		return s.AddAnnotator(ctx, name)
+	if !errors.Is(err, project.ErrNotFound) {
+		return a, err
+	}
+	a, err = s.AddAnnotator(ctx, name)
+	if errors.Is(err, project.ErrDuplicate) {
+		return s.AnnotatorByName(ctx, name)
 	}
 	return a, err
 }

@@ -33,7 +33,7 @@ func (s *Store) ApplyLabelChange(ctx context.Context, c project.LabelChange) ([]
 			res, err := tx.ExecContext(ctx, "UPDATE labels SET class_id = ?, x0 = ?, y0 = ?, x1 = ?, y1 = ?, updated_at = ? WHERE id = ?",
 				l.ClassID, l.Box.X0, l.Box.Y0, l.Box.X1, l.Box.Y1, now, l.ID)
 			if err != nil {
-				return fmt.Errorf("update label %d: %w", l.ID, s.translate(err))
+				return fmt.Errorf("update label %d: %w", l.ID, missingRef(s.translate(err), fmt.Sprintf("class %d", l.ClassID)))
 			}
 			if n, _ := res.RowsAffected(); n == 0 {
 				return fmt.Errorf("update label %d: %w", l.ID, project.ErrNotFound)
@@ -100,6 +100,9 @@ func (s *Store) ReplaceAnnotatorLabels(ctx context.Context, annotatorID int64, l
 				l.Origin = project.OriginImported
 			}
 			if err := checkBox(l.Box); err != nil {
+				return fmt.Errorf("label %d of %d: %w", i+1, len(labels), err)
+			}
+			if err := checkScore(l.Score); err != nil {
 				return fmt.Errorf("label %d of %d: %w", i+1, len(labels), err)
 			}
 			if err := ins.add(fmt.Sprintf("label %d of %d", i+1, len(labels)), l.ImageID, l.ClassID, annotatorID,

@@ -120,6 +120,9 @@ func (s *Store) ImportDataset(ctx context.Context, ds *formats.Dataset, opts pro
 				if !box.Valid() {
 					return fmt.Errorf("%s: box %v has no area", b.Where, b.Box)
 				}
+				if err := checkScore(b.Score); err != nil {
+					return fmt.Errorf("%s: %w", b.Where, err)
+				}
 				if prior[im.ID][priorKey{id, box}] {
 					if repeats == 0 {
 						firstRepeat = b.Where
@@ -226,7 +229,7 @@ func (l *labelInserter) flush() error {
 	if err != nil {
 		// Name the batch's first record; the checks before insertion make a
 		// database refusal here rare.
-		return fmt.Errorf("%s (or one of the %d records after it): %w", l.where[0], n-1, translateCode(err))
+		return fmt.Errorf("%s (or one of the %d records after it): %w", l.where[0], n-1, missingRef(translateCode(err), "its image, class or annotator"))
 	}
 	l.args, l.where = l.args[:0], l.where[:0]
 	return nil

@@ -3,7 +3,9 @@ package store
 import (
 	"context"
 	"database/sql"
+	"errors"
 	"fmt"
+	"math"
 	"runtime"
 	"sort"
 	"strings"
@@ -68,6 +70,28 @@ func (s *Store) Label(ctx context.Context, id int64) (project.Label, error) {
 	return l, nil
 }
 
+// missingRef turns the refusal of a foreign key on an insert or update
+// (translated as ErrInUse, which is what it means on a delete) into
+// ErrNotFound naming what does not exist: a label or suggestion that
+// points at a missing image, class or annotator refers to nothing, it is
+// not "still in use".
+func missingRef(err error, what string) error {
+	if errors.Is(err, project.ErrInUse) {
+		return fmt.Errorf("%s does not exist: %w", what, project.ErrNotFound)
+	}
+	return err
+}
+
+// checkScore refuses a score that is not a finite number: SQLite would
+// turn NaN into a NOT NULL failure and keep infinities, which no
+// statistic can use.
+func checkScore(v float64) error {
+	if math.IsNaN(v) || math.IsInf(v, 0) {
+		return project.Explained(project.ErrInvalid, "score %v is not a finite number", v)
+	}
+	return nil
+}
+
 func checkBox(b project.Box) error {
 	if !b.Valid() {
 		return project.Explained(project.ErrInvalid, "box %v has no area or a non-finite coordinate", b)
@@ -110,6 +134,9 @@ func (s *Store) insertLabel(ctx context.Context, tx *sql.Tx, l project.Label) (p
 	}
 	if err := checkBox(l.Box); err != nil {
 		return l, fmt.Errorf("add label: %w", s.damaged(err))
+	}
+	if err := checkScore(l.Score); err != nil {
+		return l, fmt.Errorf("add label: %w", err)
 	}
 	now := s.now()
 	if l.Created.IsZero() {

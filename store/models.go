@@ -90,7 +90,7 @@ func scanModel(row interface{ Scan(...any) error }, extra ...any) (project.Model
 
 func checkModel(m project.Model) error {
 	if err := project.ValidateName("model", m.Name); err != nil {
-		return err
+		return project.Explained(project.ErrInvalid, "%v", err)
 	}
 	switch {
 	case m.Architecture == "":

@@ -232,8 +232,8 @@ func checkImportedSuggestion(g project.Suggestion, source string, images, classe
 	if err := checkBox(g.Box); err != nil {
 		return err
 	}
-	if math.IsNaN(g.Score) || math.IsInf(g.Score, 0) {
-		return project.Explained(project.ErrInvalid, "score %v is not a finite number", g.Score)
+	if err := checkScore(g.Score); err != nil {
+		return err
 	}
 	if !images[g.ImageID] {
 		return fmt.Errorf("image %d: %w", g.ImageID, project.ErrNotFound)

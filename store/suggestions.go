@@ -84,13 +84,16 @@ func (s *Store) AddSuggestions(ctx context.Context, gs []project.Suggestion) ([]
 			if err := checkBox(g.Box); err != nil {
 				return fmt.Errorf("suggestion %d: %w", i, err)
 			}
+			if err := checkScore(g.Score); err != nil {
+				return fmt.Errorf("suggestion %d: %w", i, err)
+			}
 			if strings.TrimSpace(g.Source) == "" {
 				return project.Explained(project.ErrInvalid, "suggestion %d: source name is empty", i)
 			}
 			res, err := stmt.ExecContext(ctx, g.ImageID, g.ClassID, g.Box.X0, g.Box.Y0, g.Box.X1, g.Box.Y1, g.Score, g.Source,
 				string(project.SuggestionPending), now)
 			if err != nil {
-				return fmt.Errorf("suggestion %d (image %d, class %d): %w", i, g.ImageID, g.ClassID, s.translate(err))
+				return fmt.Errorf("suggestion %d: %w", i, missingRef(s.translate(err), fmt.Sprintf("image %d or class %d", g.ImageID, g.ClassID)))
 			}
 			id, _ := res.LastInsertId()
 			ids = append(ids, id)
