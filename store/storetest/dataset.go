@@ -44,14 +44,15 @@ func importDataset(e *env) {
 	scored.Score, scored.HasScore = 0.625, true
 	ds := &formats.Dataset{Classes: []string{"buoy", "kayak"}, Images: []formats.ImageRecord{
 		rec("a.jpg", 100, 80, bx("buoy", 1, 2, 11, 12, "annotations[0]"), bx("kayak", 90, 70, 120, 90, "annotations[1]")),
-		rec("b.jpg", 0, 0, scored), // no size in the file: not checked
-		// The same image again: its boxes add up; "float" is mapped to buoy.
-		rec("b.jpg", 50, 40, bx("float", 2, 2, 4, 4, "annotations[3]")),
+		// No size in the file: not checked; "float" is mapped to buoy. (A
+		// second record of one image is refused: see the all-or-nothing
+		// cases.)
+		rec("b.jpg", 0, 0, scored, bx("float", 2, 2, 4, 4, "annotations[3]")),
 	}}
 	rep, err := e.b.ImportDataset(e.ctx, ds, project.ImportOptions{Annotator: "old-team", CreateClasses: true, Source: "f.json",
 		ClassMap: map[string]string{"float": "buoy"}})
 	e.fatal("import", err)
-	if rep.Annotator != "old-team" || rep.Images != 3 || rep.Labels != 4 || rep.Clipped != 1 || !slices.Equal(rep.ClassesCreated, []string{"kayak"}) ||
+	if rep.Annotator != "old-team" || rep.Images != 2 || rep.Labels != 4 || rep.Clipped != 1 || !slices.Equal(rep.ClassesCreated, []string{"kayak"}) ||
 		len(rep.Unmatched) != 0 || rep.Replaced != 0 {
 		e.t.Fatalf("report %+v", rep)
 	}
@@ -110,6 +111,8 @@ func importAllOrNothing(e *env) {
 			formats.BoxRecord{Class: "buoy", Box: box(1, 1, 5, 5), Score: math.Inf(1), HasScore: true, Where: "a7"})}},
 			project.ImportOptions{Annotator: "x"}, "a7"},
 		{"no annotator", &formats.Dataset{Images: []formats.ImageRecord{rec("a.jpg", 100, 80)}}, project.ImportOptions{}, "annotator"},
+		{"one image in two records", &formats.Dataset{Images: []formats.ImageRecord{rec("b.jpg", 50, 40, bx("buoy", 0, 0, 5, 5, "a0")), rec("b.jpg", 50, 40, bx("buoy", 1, 1, 5, 5, "a1"))}},
+			project.ImportOptions{Annotator: "x"}, "give each image one record"},
 		{"unknown again", &formats.Dataset{Images: []formats.ImageRecord{rec("a.jpg", 100, 80, bx("buoy", 0, 0, 5, 5, "a0"))}},
 			project.ImportOptions{Annotator: "x", Again: "twice"}, "twice"},
 	} {
