@@ -206,8 +206,15 @@ type lockedSuggestion struct {
 // same suggestion waits here for the first to commit, then reads the
 // suggestion as the first left it.
 func (s *Store) lockSuggestions(ctx context.Context, tx pgx.Tx, ids []int64) (map[int64]lockedSuggestion, error) {
+	if _, err := tx.Exec(ctx, "SELECT id FROM suggestions WHERE id = ANY($1) ORDER BY id FOR UPDATE", ids); err != nil {
+		return nil, s.translate(err)
+	}
+	// Read after the locks are held, in a statement of its own: a row a
+	// lock waited for is then read as committed, with the name of who
+	// decided it (a join in the locking statement would re-read only
+	// the locked row and keep the reviewer as it was before the wait).
 	cols := strings.ReplaceAll("s."+suggestionCols, ", ", ", s.")
-	rows, err := tx.Query(ctx, "SELECT "+cols+", coalesce(a.name, '') FROM suggestions s LEFT JOIN annotators a ON a.id = s.reviewer_id WHERE s.id = ANY($1) ORDER BY s.id FOR UPDATE OF s", ids)
+	rows, err := tx.Query(ctx, "SELECT "+cols+", coalesce(a.name, '') FROM suggestions s LEFT JOIN annotators a ON a.id = s.reviewer_id WHERE s.id = ANY($1)", ids)
 	if err != nil {
 		return nil, s.translate(err)
 	}
