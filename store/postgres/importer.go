@@ -47,7 +47,7 @@ func (s *Store) ImportDataset(ctx context.Context, ds *formats.Dataset, opts pro
 		if err != nil {
 			return err
 		}
-		annID, err := ensureAnnotatorTx(ctx, tx, opts.Annotator)
+		annID, err := ensureAnnotatorTx(ctx, s, tx, opts.Annotator)
 		if err != nil {
 			return err
 		}
@@ -156,16 +156,16 @@ func classIDs(ctx context.Context, tx pgx.Tx) (map[string]int64, error) {
 	return m, err
 }
 
-func ensureAnnotatorTx(ctx context.Context, tx pgx.Tx, name string) (int64, error) {
+func ensureAnnotatorTx(ctx context.Context, s *Store, tx pgx.Tx, name string) (int64, error) {
 	var id int64
 	err := tx.QueryRow(ctx, "SELECT id FROM annotators WHERE name = $1", name).Scan(&id)
 	if errors.Is(err, pgx.ErrNoRows) {
 		err = tx.QueryRow(ctx, "INSERT INTO annotators(name) VALUES ($1) RETURNING id", name).Scan(&id)
 		if err != nil {
-			return 0, fmt.Errorf("add annotator %q (adding annotators needs the reviewer or owner role): %w", name, err)
+			return 0, fmt.Errorf("add annotator %q (adding annotators needs the reviewer or owner role): %w", name, s.translate(err))
 		}
 	}
-	return id, err
+	return id, s.translate(err)
 }
 
 // importClassTx adds a class the dataset names, as adding a class does:
@@ -194,7 +194,7 @@ func importClassTx(ctx context.Context, s *Store, tx pgx.Tx, name string, n int)
 	err = tx.QueryRow(ctx, "INSERT INTO classes(name, color, hot_key, position) SELECT $1, $2, $3, coalesce(max(position), -1) + 1 FROM classes RETURNING id",
 		name, project.FormatColor(project.PaletteColor(n)), key).Scan(&id)
 	if err != nil {
-		return 0, fmt.Errorf("add class %q (adding classes needs the owner role): %w", name, err)
+		return 0, fmt.Errorf("add class %q (adding classes needs the owner role): %w", name, s.translate(err))
 	}
 	return id, nil
 }
