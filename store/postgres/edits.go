@@ -195,7 +195,7 @@ func (s *Store) ReplaceAnnotatorLabels(ctx context.Context, annotatorID int64, l
 		if err := checkLabelRefs(ctx, tx, mine); err != nil {
 			return err
 		}
-		return rows.insert(ctx, s, tx)
+		return rows.insertBulk(ctx, s, tx)
 	})
 	if err != nil {
 		return fmt.Errorf("replace labels of annotator %d (nothing was changed): %w", annotatorID, err)

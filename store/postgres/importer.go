@@ -117,7 +117,7 @@ func (s *Store) ImportDataset(ctx context.Context, ds *formats.Dataset, opts pro
 				"was this file imported before? Replace that annotator's imported boxes on the file's images (--again replace) or add these as well (--again append)",
 				repeats, firstRepeat, opts.Annotator)
 		}
-		return rows.insert(ctx, s, tx)
+		return rows.insertBulk(ctx, s, tx)
 	})
 	if err != nil {
 		return project.ImportReport{Annotator: opts.Annotator, ClassesCreated: []string{}, Unmatched: []string{}}, fmt.Errorf("import (nothing was stored): %w", err)

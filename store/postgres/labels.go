@@ -107,7 +107,7 @@ func (s *Store) AddLabels(ctx context.Context, ls []project.Label) error {
 		if err := checkLabelRefs(ctx, tx, ls); err != nil {
 			return err
 		}
-		return rows.insert(ctx, s, tx)
+		return rows.insertBulk(ctx, s, tx)
 	})
 	if err != nil {
 		return fmt.Errorf("add labels (nothing was stored): %w", err)
@@ -215,11 +215,20 @@ func (r *labelRows) add(where string, l project.Label) {
 
 func (r *labelRows) len() int { return len(r.where) }
 
+// labelInsertSQL inserts rows with the IDs given ($1).
 const labelInsertSQL = `INSERT INTO labels(id, image_id, class_id, annotator_id, x0, y0, x1, y1, origin, source, score, suggestion_id, created_at, updated_at)
 	SELECT id, i, c, a, x0, y0, x1, y1, o, src, sc, nullif(sg, 0), coalesce(cr, now()), now()
 	FROM unnest($1::bigint[], $2::bigint[], $3::bigint[], $4::bigint[], $5::float8[], $6::float8[], $7::float8[], $8::float8[],
 	            $9::text[], $10::text[], $11::float8[], $12::bigint[], $13::timestamptz[])
 	     AS t(id, i, c, a, x0, y0, x1, y1, o, src, sc, sg, cr)`
+
+// labelInsertDefaultSQL is labelInsertSQL for rows whose IDs the caller
+// does not need: the column's default numbers them.
+const labelInsertDefaultSQL = `INSERT INTO labels(image_id, class_id, annotator_id, x0, y0, x1, y1, origin, source, score, suggestion_id, created_at, updated_at)
+	SELECT i, c, a, x0, y0, x1, y1, o, src, sc, nullif(sg, 0), coalesce(cr, now()), now()
+	FROM unnest($1::bigint[], $2::bigint[], $3::bigint[], $4::float8[], $5::float8[], $6::float8[], $7::float8[],
+	            $8::text[], $9::text[], $10::float8[], $11::bigint[], $12::timestamptz[])
+	     AS t(i, c, a, x0, y0, x1, y1, o, src, sc, sg, cr)`
 
 // insert stores the rows with new IDs (r.id, in row order afterwards).
 func (r *labelRows) insert(ctx context.Context, s *Store, tx pgx.Tx) error {
@@ -228,14 +237,31 @@ func (r *labelRows) insert(ctx context.Context, s *Store, tx pgx.Tx) error {
 		return fmt.Errorf("numbering labels: %w", s.translate(err))
 	}
 	r.id = ids
+	return r.write(ctx, s, tx)
+}
+
+// insertBulk stores the rows without reading their IDs back, for bulk
+// writes that need none (taking the IDs first costs a round trip of
+// one row per label).
+func (r *labelRows) insertBulk(ctx context.Context, s *Store, tx pgx.Tx) error {
+	r.id = nil
+	return r.write(ctx, s, tx)
+}
+
+func (r *labelRows) write(ctx context.Context, s *Store, tx pgx.Tx) error {
 	for start := 0; start < r.len(); start += labelBatch {
 		if err := ctx.Err(); err != nil {
 			return err
 		}
 		end := min(start+labelBatch, r.len())
-		_, err := tx.Exec(ctx, labelInsertSQL, r.id[start:end], r.image[start:end], r.class[start:end], r.annotator[start:end],
+		args := []any{r.image[start:end], r.class[start:end], r.annotator[start:end],
 			r.x0[start:end], r.y0[start:end], r.x1[start:end], r.y1[start:end], r.origin[start:end], r.source[start:end],
-			r.score[start:end], r.suggestion[start:end], r.created[start:end])
+			r.score[start:end], r.suggestion[start:end], r.created[start:end]}
+		q := labelInsertDefaultSQL
+		if r.id != nil {
+			q, args = labelInsertSQL, append([]any{r.id[start:end]}, args...)
+		}
+		_, err := tx.Exec(ctx, q, args...)
 		if err != nil {
 			return fmt.Errorf("%s (or one of the %d records after it): %w", r.where[start], end-start-1, labelRefusal(s, err))
 		}

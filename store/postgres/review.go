@@ -94,7 +94,7 @@ func (s *Store) importSuggestions(ctx context.Context, source string, onImages [
 			// Row-level security hid them from the DELETE: not a reviewer.
 			return project.Explained(project.ErrNotAllowed, "%d pending suggestions of %q are not yours to replace: importing suggestions needs the reviewer or owner role", left, source)
 		}
-		if _, err := insertSuggestions(ctx, s, tx, source, gs); err != nil {
+		if _, err := insertSuggestions(ctx, s, tx, source, gs, false); err != nil {
 			return err
 		}
 		rep.Added = len(gs)

@@ -102,7 +102,7 @@ func (s *Store) AddSuggestions(ctx context.Context, gs []project.Suggestion) ([]
 			return err
 		}
 		var err error
-		ids, err = insertSuggestions(ctx, s, tx, "", gs)
+		ids, err = insertSuggestions(ctx, s, tx, "", gs, true)
 		return err
 	})
 	if err != nil {
@@ -141,12 +141,15 @@ func checkSuggestionRefs(ctx context.Context, q querier, gs []project.Suggestion
 const suggestionBatch = 10000
 
 // insertSuggestions stores gs as pending suggestions (of source, or each
-// of its own source when source is "") in multi-row INSERTs and returns
-// their IDs in order.
-func insertSuggestions(ctx context.Context, s *Store, tx pgx.Tx, source string, gs []project.Suggestion) ([]int64, error) {
-	ids, err := newIDs(ctx, tx, "suggestions", len(gs))
-	if err != nil {
-		return nil, fmt.Errorf("numbering suggestions: %w", s.translate(err))
+// of its own source when source is "") in multi-row INSERTs and, with
+// wantIDs, returns their IDs in order.
+func insertSuggestions(ctx context.Context, s *Store, tx pgx.Tx, source string, gs []project.Suggestion, wantIDs bool) ([]int64, error) {
+	var ids []int64
+	if wantIDs {
+		var err error
+		if ids, err = newIDs(ctx, tx, "suggestions", len(gs)); err != nil {
+			return nil, fmt.Errorf("numbering suggestions: %w", s.translate(err))
+		}
 	}
 	for start := 0; start < len(gs); start += suggestionBatch {
 		if err := ctx.Err(); err != nil {
@@ -166,11 +169,17 @@ func insertSuggestions(ctx context.Context, s *Store, tx pgx.Tx, source string, 
 			}
 			sources = append(sources, src)
 		}
+		// Without IDs given, the NULL array leaves them to the column's
+		// default.
+		var given []int64
+		if ids != nil {
+			given = ids[start:end]
+		}
 		_, err := tx.Exec(ctx, `INSERT INTO suggestions(id, image_id, class_id, x0, y0, x1, y1, score, source, state)
-			SELECT id, i, c, x0, y0, x1, y1, sc, src, 'pending'
-			FROM unnest($1::bigint[], $2::bigint[], $3::bigint[], $4::float8[], $5::float8[], $6::float8[], $7::float8[], $8::float8[], $9::text[])
+			SELECT coalesce(id, nextval(pg_get_serial_sequence('suggestions', 'id'))), i, c, x0, y0, x1, y1, sc, src, 'pending'
+			FROM unnest(coalesce($1::bigint[], array_fill(NULL::bigint, ARRAY[cardinality($2::bigint[])])), $2::bigint[], $3::bigint[], $4::float8[], $5::float8[], $6::float8[], $7::float8[], $8::float8[], $9::text[])
 			     AS t(id, i, c, x0, y0, x1, y1, sc, src)`,
-			ids[start:end], imgs, classes, x0, y0, x1, y1, score, sources)
+			given, imgs, classes, x0, y0, x1, y1, score, sources)
 		if err != nil {
 			return nil, fmt.Errorf("suggestions %d to %d: %w", start, end-1, s.translate(err))
 		}
