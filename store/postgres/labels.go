@@ -15,6 +15,14 @@ import (
 	"boxwright/project"
 )
 
+// The parts of project.Store this package's label, review and model
+// files implement.
+var (
+	_ project.LabelStore      = (*Store)(nil)
+	_ project.SuggestionStore = (*Store)(nil)
+	_ project.ModelStore      = (*Store)(nil)
+)
+
 // querier is what a pool and a transaction both offer.
 type querier interface {
 	Exec(ctx context.Context, sql string, args ...any) (pgconn.CommandTag, error)
