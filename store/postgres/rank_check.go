@@ -5,15 +5,8 @@ import (
 	"fmt"
 	"strings"
 
-	"github.com/jackc/pgx/v5"
-
 	"boxwright/project"
 )
-
-// querier is what a pool, a connection and a transaction share.
-type querier interface {
-	QueryRow(context.Context, string, ...any) pgx.Row
-}
 
 // ownerOnly refuses, with a message that says who may, a project-wide
 // change (classes, images) by a member who is not an owner. The server's

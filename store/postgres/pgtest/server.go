@@ -18,6 +18,7 @@ import (
 	"sort"
 	"strconv"
 	"strings"
+	"sync"
 	"testing"
 	"time"
 )
@@ -75,7 +76,7 @@ func Start(tb testing.TB) *Server {
 		}
 	}
 	hba := filepath.Join(s.dir, "hba.conf")
-	if err := s.run("initdb", "-D", s.data(), "-U", Admin, "-E", "UTF8", "--locale=C", "--no-sync", "--auth=trust"); err != nil {
+	if err := s.initData(); err != nil {
 		tb.Fatalf("initdb: %v", err)
 	}
 	conf := fmt.Sprintf("local all %s trust\nlocal all all scram-sha-256\n", Admin)
@@ -93,6 +94,49 @@ func Start(tb testing.TB) *Server {
 }
 
 func (s *Server) data() string { return filepath.Join(s.dir, "data") }
+
+// template is a data folder made by initdb once per test process and
+// copied for each server: initdb takes most of a server's start-up.
+var template struct {
+	sync.Mutex
+	dir string
+}
+
+// initData fills the server's data folder: a copy of the process's
+// template, made first when there is none.
+func (s *Server) initData() error {
+	template.Lock()
+	defer template.Unlock()
+	if template.dir == "" {
+		// Test processes cannot clean up after themselves at exit; the
+		// templates of runs long over are removed here instead.
+		old, _ := filepath.Glob(filepath.Join(os.TempDir(), "boxwright-pgtemplate-*"))
+		for _, o := range old {
+			if st, err := os.Stat(o); err == nil && time.Since(st.ModTime()) > 6*time.Hour {
+				os.RemoveAll(o)
+			}
+		}
+		dir, err := os.MkdirTemp("", "boxwright-pgtemplate-")
+		if err != nil {
+			return err
+		}
+		if s.asUser != "" {
+			os.Chmod(dir, 0o755)
+			exec.Command("chown", s.asUser, dir).Run()
+		}
+		t := &Server{bin: s.bin, dir: dir, asUser: s.asUser}
+		if err := t.run("initdb", "-D", t.data(), "-U", Admin, "-E", "UTF8", "--locale=C", "--no-sync", "--auth=trust"); err != nil {
+			os.RemoveAll(dir)
+			return err
+		}
+		template.dir = t.data()
+	}
+	// cp -a keeps the owner and the 0700 mode the server insists on.
+	if out, err := exec.Command("cp", "-a", template.dir, s.data()).CombinedOutput(); err != nil {
+		return fmt.Errorf("copying the template data folder: %v: %s", err, out)
+	}
+	return nil
+}
 func (s *Server) log() string  { return filepath.Join(s.dir, "server.log") }
 
 func (s *Server) start() error {
