@@ -137,7 +137,7 @@ func (s *Server) initData() error {
 	}
 	return nil
 }
-func (s *Server) log() string  { return filepath.Join(s.dir, "server.log") }
+func (s *Server) log() string { return filepath.Join(s.dir, "server.log") }
 
 func (s *Server) start() error {
 	opts := fmt.Sprintf("-k %s -c listen_addresses='' -p %d -c hba_file=%s -c fsync=off -c max_connections=100",
