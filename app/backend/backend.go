@@ -6,10 +6,12 @@ package backend
 import (
 	"context"
 	"errors"
+	"time"
 
 	"boxwright/project"
 	"boxwright/project/formats"
 	"boxwright/store"
+	"boxwright/store/postgres"
 )
 
 // Extension is the file name extension of a project file.
@@ -40,8 +42,37 @@ type Project interface {
 
 var _ Project = (*store.Store)(nil)
 
-// Open opens an existing project and brings its schema up to date.
+// connectWithin bounds how long opening a server project may take before
+// it is given up with "cannot be reached".
+const connectWithin = 30 * time.Second
+
+// server opens (or, with create, makes) a server project.
+func server(w Where, create bool) (Project, error) {
+	ctx, cancel := context.WithTimeout(context.Background(), connectWithin)
+	defer cancel()
+	var s *postgres.Store
+	var err error
+	if create {
+		s, err = postgres.Create(ctx, w.Server)
+	} else {
+		s, err = postgres.Open(ctx, w.Server)
+	}
+	if err != nil {
+		return nil, err
+	}
+	return s, nil
+}
+
+// Open opens an existing project and brings its schema up to date. path
+// is a project file, a postgres:// URL or @NAME (see Locate).
 func Open(path string) (Project, error) {
+	w, err := Locate(path)
+	if err != nil {
+		return nil, err
+	}
+	if w.IsServer() {
+		return server(w, false)
+	}
 	s, err := store.Open(path)
 	if err != nil {
 		return nil, err
@@ -55,6 +86,15 @@ func Open(path string) (Project, error) {
 // is wrong). A project of an older schema is brought up to date first
 // when it can be written.
 func OpenForReading(path string) (Project, error) {
+	w, err := Locate(path)
+	if err != nil {
+		return nil, err
+	}
+	if w.IsServer() {
+		// A server reads without writing; what a member may not change,
+		// its row-level security refuses.
+		return server(w, false)
+	}
 	s, err := store.OpenReadOnly(path)
 	if errors.Is(err, store.ErrOlderSchema) {
 		if s, err := store.Open(path); err == nil {
@@ -67,8 +107,17 @@ func OpenForReading(path string) (Project, error) {
 	return s, nil
 }
 
-// Create makes a new, empty project; it never overwrites anything.
+// Create makes a new, empty project; it never overwrites anything. A
+// server project is made in an empty database, by a role that may create
+// roles (for the project's team role), which becomes its first owner.
 func Create(path string) (Project, error) {
+	w, err := Locate(path)
+	if err != nil {
+		return nil, err
+	}
+	if w.IsServer() {
+		return server(w, true)
+	}
 	s, err := store.Create(path)
 	if err != nil {
 		return nil, err
@@ -85,3 +134,5 @@ func Damaged(path, detail string) error { return &store.DamagedError{Path: path,
 func Recover(ctx context.Context, src, dst string) ([]store.TableRecovery, error) {
 	return store.Recover(ctx, src, dst)
 }
+
+var _ Project = (*postgres.Store)(nil)

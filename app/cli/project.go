@@ -47,18 +47,26 @@ func cmdOpen(args []string, stderr io.Writer, window Window) error {
 
 func cmdNew(args []string, stdout, stderr io.Writer) error {
 	fs := flag.NewFlagSet("new", flag.ContinueOnError)
-	pos, err := parse(fs, args, 1, 1, "new PROJECT.boxw")
+	pos, err := parse(fs, args, 1, 1, "new PROJECT.boxw | new postgres://USER@HOST/DATABASE | new @NAME")
 	if err != nil {
 		return err
 	}
-	if !strings.HasSuffix(pos[0], backend.Extension) {
+	w, err := backend.Locate(pos[0])
+	if err != nil {
+		return err
+	}
+	if !w.IsServer() && !strings.HasSuffix(pos[0], backend.Extension) {
 		return fmt.Errorf("project file %s should end in %s", pos[0], backend.Extension)
 	}
 	s, err := backend.Create(pos[0])
 	if err != nil {
 		return err
 	}
-	fmt.Fprintf(stdout, "created %s\n", pos[0])
+	name := pos[0]
+	if w.IsServer() {
+		name = s.Path() // without its password
+	}
+	fmt.Fprintf(stdout, "created %s\n", name)
 	return s.Close()
 }
 

@@ -61,7 +61,18 @@ func (s *Store) AddAnnotator(ctx context.Context, name string) (project.Annotato
 	if err := project.ValidateName("annotator", name); err != nil {
 		return project.Annotator{}, project.Explained(project.ErrInvalid, "add annotator: %v", err)
 	}
-	a, err := scanAnnotatorRow(s.pool.QueryRow(ctx, "INSERT INTO annotators(name) VALUES ($1) RETURNING "+annotatorColumns, name))
+	var a project.Annotator
+	err := s.tx(ctx, func(tx pgx.Tx) error {
+		var err error
+		a, err = scanAnnotatorRow(tx.QueryRow(ctx, "INSERT INTO annotators(name) VALUES ($1) RETURNING "+annotatorColumns, name))
+		if err != nil {
+			return err
+		}
+		// A member without an annotator yet (the project's maker) who
+		// adds one of their own name labels as it from now on.
+		_, err = tx.Exec(ctx, "UPDATE members SET annotator_id = $1 WHERE role_name = current_user AND role_name = $2 AND annotator_id IS NULL", a.ID, name)
+		return err
+	})
 	if err != nil {
 		return a, fmt.Errorf("add annotator %q: %w", name, s.translate(err))
 	}

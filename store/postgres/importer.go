@@ -29,10 +29,20 @@ func (s *Store) ImportDataset(ctx context.Context, ds *formats.Dataset, opts pro
 		return rep, err
 	}
 	matcher := project.NewImageMatcher(ims)
+	first := map[int64]formats.ImageRecord{}
 	for _, rec := range ds.Images {
-		if _, ok, reason := matcher.Match(rec.Name); !ok {
+		im, ok, reason := matcher.Match(rec.Name)
+		if !ok {
 			rep.Unmatched = append(rep.Unmatched, fmt.Sprintf("%s (%s): %s", rec.Name, rec.Where, reason))
+			continue
 		}
+		// Two records of one image would be stored side by side without a
+		// word: refused, as in a project file.
+		if prev, twice := first[im.ID]; twice {
+			return rep, project.Explained(project.ErrInvalid, "import (nothing was stored): %s (%s) and %s (%s) are both the project image %s; give each image one record",
+				prev.Name, prev.Where, rec.Name, rec.Where, im.Path)
+		}
+		first[im.ID] = rec
 	}
 	if n := len(rep.Unmatched); n > 0 && !opts.SkipUnmatched {
 		return rep, project.Explained(project.ErrInvalid, "import (nothing was stored): %s no image in the project: %s; add the images (--images DIR) or import the rest with --skip-unmatched",

@@ -99,6 +99,21 @@ func (s *Store) AddImages(ctx context.Context, paths []string, opts project.Inta
 	}
 	files, failed := collectIntakeFiles(paths)
 	rep.Failed = append(rep.Failed, failed...)
+	// IDs are taken in file order before the parallel uploads, so that
+	// images number in the order given whichever upload ends first (as in
+	// a project file); a file that is not added leaves a gap.
+	ids := make([]int64, len(files))
+	if len(files) > 0 {
+		rows, err := s.pool.Query(ctx, "SELECT nextval('images_id_seq') FROM generate_series(1, $1)", len(files))
+		if err != nil {
+			return rep, fmt.Errorf("%s: %w", what, s.translate(err))
+		}
+		got, err := pgx.CollectRows(rows, pgx.RowTo[int64])
+		if err != nil {
+			return rep, fmt.Errorf("%s: %w", what, s.translate(err))
+		}
+		copy(ids, got)
+	}
 
 	results := make([]chan intakeResult, len(files))
 	for i := range results {
@@ -114,7 +129,7 @@ func (s *Store) AddImages(ctx context.Context, paths []string, opts project.Inta
 		go func() {
 			defer wg.Done()
 			for i := range next {
-				results[i] <- s.intakeOne(work, files[i], opts, claims)
+				results[i] <- s.intakeOne(work, files[i], ids[i], opts, claims)
 			}
 		}()
 	}
@@ -227,7 +242,7 @@ func (h *hashClaims) claim(ctx context.Context, sum string) (release func(), err
 // intakeOne takes one file: it reads its header and hash, and when the
 // server needs its bytes decodes it whole (the same check as the SQLite
 // file's Verify), makes its thumbnail and sends it.
-func (s *Store) intakeOne(ctx context.Context, f intakeFile, opts project.IntakeOptions, claims *hashClaims) intakeResult {
+func (s *Store) intakeOne(ctx context.Context, f intakeFile, newID int64, opts project.IntakeOptions, claims *hashClaims) intakeResult {
 	info, err := imagefile.Probe(f.abs, opts.MaxPixels)
 	if err != nil {
 		return intakeResult{failure: err.Error()}
@@ -288,8 +303,8 @@ func (s *Store) intakeOne(ctx context.Context, f intakeFile, opts project.Intake
 			return nil
 		}
 		var id int64
-		err = tx.QueryRow(ctx, `INSERT INTO images(path, sha256, width, height, orientation, thumbnail) VALUES ($1, $2, $3, $4, $5, $6)
-			ON CONFLICT (sha256) DO NOTHING RETURNING id`, f.name, info.SHA256, info.Width, info.Height, info.Orientation, thumb).Scan(&id)
+		err = tx.QueryRow(ctx, `INSERT INTO images(id, path, sha256, width, height, orientation, thumbnail) VALUES ($7, $1, $2, $3, $4, $5, $6)
+			ON CONFLICT (sha256) DO NOTHING RETURNING id`, f.name, info.SHA256, info.Width, info.Height, info.Orientation, thumb, newID).Scan(&id)
 		switch {
 		case errors.Is(err, pgx.ErrNoRows):
 			res.dup = true // another client added it in between

@@ -4,6 +4,7 @@ import (
 	"context"
 	"errors"
 	"fmt"
+	"math"
 	"slices"
 	"strings"
 	"time"
@@ -257,6 +258,13 @@ func (r *labelRows) insertBulk(ctx context.Context, s *Store, tx pgx.Tx) error {
 }
 
 func (r *labelRows) write(ctx context.Context, s *Store, tx pgx.Tx) error {
+	// double precision takes NaN and infinities; a score must be a number
+	// (the file project refuses them too).
+	for i, sc := range r.score {
+		if math.IsNaN(sc) || math.IsInf(sc, 0) {
+			return project.Explained(project.ErrInvalid, "%s: score %v is not a finite number", r.where[i], sc)
+		}
+	}
 	for start := 0; start < r.len(); start += labelBatch {
 		if err := ctx.Err(); err != nil {
 			return err

@@ -327,6 +327,11 @@ func (s *Store) Decide(ctx context.Context, reviewerID int64, ds []project.Decis
 			if err := accepted.insert(ctx, s, tx); err != nil {
 				return err
 			}
+			// The accepted boxes are the reviewer's labels: like drawn
+			// ones, they start the reviewer's work on their images.
+			if err := startImages(ctx, s, tx, accepted.image, accepted.annotator); err != nil {
+				return err
+			}
 			for k, i := range acceptedFor {
 				marks[i].label = accepted.id[k]
 				made[marks[i].id] = accepted.id[k]

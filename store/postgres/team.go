@@ -31,7 +31,7 @@ type Member struct {
 
 // Team lists the members, by role name.
 func (s *Store) Team(ctx context.Context) ([]Member, error) {
-	rows, err := s.pool.Query(ctx, `SELECT m.role_name, a.name, m.kind FROM members m JOIN annotators a ON a.id = m.annotator_id ORDER BY m.role_name`)
+	rows, err := s.pool.Query(ctx, `SELECT m.role_name, coalesce(a.name, ''), m.kind FROM members m LEFT JOIN annotators a ON a.id = m.annotator_id ORDER BY m.role_name`)
 	if err != nil {
 		return nil, fmt.Errorf("list the team: %w", s.translate(err))
 	}
@@ -46,7 +46,7 @@ func (s *Store) Team(ctx context.Context) ([]Member, error) {
 // that is not on the team (a superuser, say).
 func (s *Store) Me(ctx context.Context) (Member, error) {
 	var m Member
-	err := s.pool.QueryRow(ctx, `SELECT m.role_name, a.name, m.kind FROM members m JOIN annotators a ON a.id = m.annotator_id WHERE m.role_name = current_user`).
+	err := s.pool.QueryRow(ctx, `SELECT m.role_name, coalesce(a.name, ''), m.kind FROM members m LEFT JOIN annotators a ON a.id = m.annotator_id WHERE m.role_name = current_user`).
 		Scan(&m.Role, &m.Annotator, &m.Kind)
 	return m, s.translate(err)
 }
@@ -100,7 +100,7 @@ func (s *Store) AddMember(ctx context.Context, name, kind, password string) ([]s
 		}
 		const upsert = `WITH a AS (INSERT INTO annotators(name) VALUES ($1) ON CONFLICT (name) DO UPDATE SET name = EXCLUDED.name RETURNING id)
 			INSERT INTO members(role_name, annotator_id, kind) SELECT $1, id, $2 FROM a
-			ON CONFLICT (role_name) DO UPDATE SET kind = EXCLUDED.kind`
+			ON CONFLICT (role_name) DO UPDATE SET kind = EXCLUDED.kind, annotator_id = EXCLUDED.annotator_id`
 		if _, err := tx.Exec(ctx, upsert, name, kind); err != nil {
 			return err
 		}

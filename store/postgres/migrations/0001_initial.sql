@@ -29,7 +29,9 @@ CREATE TABLE annotators (
 -- owner, each allowed what the ones before it are.
 CREATE TABLE members (
     role_name    text PRIMARY KEY,
-    annotator_id bigint NOT NULL UNIQUE REFERENCES annotators(id),
+    -- NULL until the member first labels (the project's maker, who may
+    -- only manage it): an annotator of the role's name is then linked.
+    annotator_id bigint UNIQUE REFERENCES annotators(id),
     kind         text NOT NULL CHECK (kind IN ('annotator', 'reviewer', 'owner')),
     added_at     timestamptz NOT NULL DEFAULT now()
 );
@@ -141,10 +143,10 @@ CREATE TABLE models (
 );
 CREATE UNIQUE INDEX models_one_current ON models(is_current) WHERE is_current;
 
--- The role that makes the project is its first owner, labelling under
--- its own name (before the rules below exist to refuse it).
-INSERT INTO annotators(name) VALUES (current_user);
-INSERT INTO members(role_name, annotator_id, kind) VALUES (current_user, currval('annotators_id_seq'), 'owner');
+-- The role that makes the project is its first owner (before the rules
+-- below exist to refuse it). It becomes an annotator only when it labels,
+-- so that a new project lists no annotators, as a new file does.
+INSERT INTO members(role_name, kind) VALUES (current_user, 'owner');
 
 -- Who is asking, for the policies: the member's annotator and rank
 -- (0 for a role that is not a member, 1 annotator, 2 reviewer, 3 owner).
