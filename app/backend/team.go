@@ -31,3 +31,6 @@ func OpenTeam(ctx context.Context, arg string) (Team, error) {
 	}
 	return s, nil
 }
+
+// Change is one change a server project announces (see postgres.Watch).
+type Change = postgres.Change

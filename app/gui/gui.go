@@ -142,11 +142,16 @@ type ui struct {
 	readOnlyWhy string
 	// countsMissing: a damaged page kept the label counts from being read.
 	countsMissing bool
-	banner        *fyne.Container
-	images        []project.Image
-	perImg        map[int64]project.ImageCounts
-	classes       []project.Class
-	classBy       map[int64]project.Class
+	// stopWatch ends following a server project's changes.
+	stopWatch func()
+	// onChanges, when set (tests), hears each batch of others' changes
+	// after the screen was brought up to date.
+	onChanges func([]backend.Change)
+	banner    *fyne.Container
+	images    []project.Image
+	perImg    map[int64]project.ImageCounts
+	classes   []project.Class
+	classBy   map[int64]project.Class
 	// tallies: labels by image, then class or annotator (all annotators).
 	byClass     map[int64]map[int64]int
 	byAnnotator map[int64]map[int64]int
@@ -285,6 +290,7 @@ func (u *ui) menu() *fyne.MainMenu {
 	file := fyne.NewMenu("Project",
 		keyed("New project…", fyne.KeyN, 0, u.askNew),
 		keyed("Open project…", fyne.KeyO, 0, u.askOpen),
+		fyne.NewMenuItem("Open server project…", u.askOpenServer),
 		fyne.NewMenuItemSeparator(),
 		keyed("Add image folder…", fyne.KeyI, 0, u.askAddFolder),
 		fyne.NewMenuItem("Add image files…", u.askAddFile),
@@ -448,9 +454,17 @@ func (u *ui) openProject(path string) error {
 	if err != nil {
 		return err
 	}
+	return u.showProject(path, s, why)
+}
+
+// showProject closes any open project and shows s, opened from path (a
+// file, a postgres:// address or @NAME); why says why editing is off.
+func (u *ui) showProject(path string, s backend.Project, why string) error {
 	u.closeProject()
 	u.st, u.path, u.readOnlyWhy, u.countsMissing = traceWrites(s, u.trace), path, why, false
-	projectFolder = filepath.Dir(path)
+	if w, _ := backend.Locate(path); !w.IsServer() {
+		projectFolder = filepath.Dir(path)
+	}
 	u.me, u.sess, u.current = project.Annotator{}, nil, 0
 	if err := u.reload(); err != nil {
 		return err
@@ -470,10 +484,17 @@ func (u *ui) openProject(path string) error {
 	u.pointer = ""
 	u.updateStatus()
 	u.reportMissing()
+	if w, ok := s.(watcher); ok {
+		u.watchChanges(w)
+	}
 	return nil
 }
 
 func (u *ui) closeProject() {
+	if u.stopWatch != nil {
+		u.stopWatch()
+		u.stopWatch = nil
+	}
 	if u.cancelDecode != nil {
 		u.cancelDecode()
 	}

@@ -1,0 +1,135 @@
+package gui
+
+import (
+	"context"
+	"fmt"
+	"strings"
+	"sync"
+	"time"
+
+	"fyne.io/fyne/v2"
+	"fyne.io/fyne/v2/dialog"
+	"fyne.io/fyne/v2/widget"
+
+	"boxwright/app/backend"
+)
+
+// askOpenServer asks for a server project: a postgres:// address or
+// @NAME from the connections file (where a password may be kept).
+func (u *ui) askOpenServer() {
+	e := widget.NewEntry()
+	e.SetPlaceHolder("@harbour  or  postgres://you@server/harbour")
+	file, _ := backend.ConnectionsFile()
+	help := widget.NewLabel("A name from your connections file (" + file + "), written @NAME, " +
+		"or a postgres:// address. Keep passwords in that file (mode 600) or in PostgreSQL's own password file, not here.")
+	help.Wrapping = fyne.TextWrapWord
+	d := dialog.NewForm("Open a server project", "Open", "Cancel", []*widget.FormItem{
+		widget.NewFormItem("Project", e),
+		widget.NewFormItem("", help),
+	}, func(ok bool) {
+		if !ok || strings.TrimSpace(e.Text) == "" {
+			return
+		}
+		arg := strings.TrimSpace(e.Text)
+		u.status.SetText("Connecting to the server…")
+		go func() {
+			// Opening waits for the server: not on the event thread.
+			err := u.openServer(arg)
+			fyne.Do(func() {
+				if err != nil {
+					u.status.SetText("")
+					u.showError(err)
+				}
+			})
+		}()
+	}, u.win)
+	d.SetOnClosed(u.giveKeysBack)
+	d.Resize(fyne.NewSize(560, 0))
+	d.Show()
+}
+
+// openServer opens a server project and shows it (from any goroutine).
+func (u *ui) openServer(arg string) error {
+	s, err := backend.Open(arg)
+	if err != nil {
+		return err
+	}
+	done := make(chan error, 1)
+	fyne.Do(func() { done <- u.showProject(arg, s, "") })
+	return <-done
+}
+
+// watcher is what a project that announces changes offers (a server
+// project); a file project does not.
+type watcher interface {
+	Watch(ctx context.Context, deliver func([]backend.Change)) error
+}
+
+// watchChanges follows what others commit to the open project and brings
+// the screen up to date: the image list's counts and statuses, and the
+// boxes of the image on screen. Changes are gathered for a moment so that
+// one import is one refresh.
+func (u *ui) watchChanges(w watcher) {
+	ctx, cancel := context.WithCancel(context.Background())
+	u.stopWatch = cancel
+	var mu sync.Mutex
+	var pending []backend.Change
+	var timer *time.Timer
+	flush := func() {
+		mu.Lock()
+		got := pending
+		pending = nil
+		timer = nil
+		mu.Unlock()
+		fyne.Do(func() {
+			if ctx.Err() != nil || u.st == nil {
+				return
+			}
+			u.applyChanges(got)
+		})
+	}
+	go w.Watch(ctx, func(cs []backend.Change) {
+		mu.Lock()
+		defer mu.Unlock()
+		pending = append(pending, cs...)
+		if timer == nil {
+			timer = time.AfterFunc(gatherChanges, flush)
+		}
+	})
+}
+
+// gatherChanges is how long changes are gathered before the screen is
+// brought up to date (well within the 2 seconds a team expects).
+var gatherChanges = 250 * time.Millisecond
+
+// applyChanges brings the screen up to date after others' changes: the
+// counts always; the image on screen when it was touched by someone else.
+func (u *ui) applyChanges(cs []backend.Change) {
+	here, others := false, false
+	for _, c := range cs {
+		mine := c.AnnotatorID != 0 && c.AnnotatorID == u.me.ID
+		if c.Table == "*" || !mine {
+			others = true
+			if c.Table == "*" || c.ImageID == u.imageID {
+				here = true
+			}
+		}
+	}
+	if !others {
+		return // our own edits, already on screen
+	}
+	sel := u.imageID
+	if err := u.reload(); err != nil {
+		u.status.SetText(fmt.Sprintf("Could not read others' changes: %v", err))
+		return
+	}
+	if here && sel == u.imageID {
+		u.reloadSuggestions()
+		u.loadOthers()
+		u.refreshBoxes()
+	}
+	u.updateStatus()
+	if u.onChanges != nil {
+		u.onChanges(cs)
+	}
+}

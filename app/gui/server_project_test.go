@@ -1,0 +1,106 @@
+package gui
+
+import (
+	"context"
+	"image"
+	"image/color"
+	"image/jpeg"
+	"os"
+	"path/filepath"
+	"testing"
+	"time"
+
+	"fyne.io/fyne/v2"
+	"fyne.io/fyne/v2/test"
+
+	"boxwright/app/backend"
+	"boxwright/project"
+	"boxwright/store/postgres"
+	"boxwright/store/postgres/pgtest"
+)
+
+// Two windows on one server project, labelling as ines and as tomas: a
+// box ines draws appears in tomas's window among the others' boxes of
+// the image on screen, and in its image counts, without tomas doing
+// anything.
+func TestTwoWindowsSeeEachOther(t *testing.T) {
+	t.Setenv("XDG_CACHE_HOME", t.TempDir()) // the image cache of this test
+	srv := pgtest.Start(t)
+	srv.Exec(t, "postgres", `CREATE ROLE olga LOGIN CREATEROLE PASSWORD 'olga-pw'`)
+	srv.Exec(t, "postgres", `CREATE DATABASE harbour OWNER olga`)
+	ctx := context.Background()
+	owner, err := postgres.Create(ctx, srv.DSN("olga", "olga-pw", "harbour"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	dir := t.TempDir()
+	for i, name := range []string{"a.jpg", "b.jpg"} {
+		img := image.NewRGBA(image.Rect(0, 0, 320, 240))
+		for p := range img.Pix {
+			img.Pix[p] = uint8(40*i + p%7)
+		}
+		img.Set(5, 5, color.White)
+		f, _ := os.Create(filepath.Join(dir, name))
+		jpeg.Encode(f, img, nil)
+		f.Close()
+	}
+	if rep, err := owner.AddImages(ctx, []string{dir}, project.IntakeOptions{}); err != nil || rep.Added != 2 {
+		t.Fatalf("intake: %+v, %v", rep, err)
+	}
+	if _, err := owner.AddClass(ctx, project.Class{Name: "buoy"}); err != nil {
+		t.Fatal(err)
+	}
+	for _, who := range []string{"ines", "tomas"} {
+		if _, err := owner.AddMember(ctx, who, postgres.KindAnnotator, who+"-pw"); err != nil {
+			t.Fatal(err)
+		}
+	}
+	owner.Close()
+
+	open := func(who string) (*ui, chan error) {
+		u := newUI(test.NewTempApp(t))
+		u.annotatorFlag = who
+		u.win.Resize(fyne.NewSize(1000, 700))
+		decoded := make(chan error, 10)
+		u.decoded = func(_ int64, err error) { decoded <- err }
+		if err := u.openProject(srv.URL(who, who+"-pw", "harbour")); err != nil {
+			t.Fatalf("open as %s: %v", who, err)
+		}
+		t.Cleanup(u.closeProject)
+		return u, decoded
+	}
+	ines, inesDecoded := open("ines")
+	tomas, tomasDecoded := open("tomas")
+	waitDecoded(t, inesDecoded)
+	waitDecoded(t, tomasDecoded)
+	heard := make(chan []backend.Change, 10)
+	tomas.onChanges = func(cs []backend.Change) { heard <- cs }
+	if ines.imageID != tomas.imageID || ines.imageID == 0 {
+		t.Fatalf("the windows show images %d and %d", ines.imageID, tomas.imageID)
+	}
+	before := tomas.perImg[tomas.imageID].Labels
+
+	drawn := time.Now()
+	ines.view.OnCreate(project.Box{X0: 10, Y0: 10, X1: 60, Y1: 50})
+	if mine, err := ines.sess.Boxes(ctx, ines.imageID); err != nil || len(mine) != 1 {
+		t.Fatalf("ines's window has %d boxes after drawing one (%v)", len(mine), err)
+	}
+	deadline := time.After(10 * time.Second)
+	for {
+		select {
+		case <-heard:
+		case <-deadline:
+			t.Fatalf("tomas's window did not show ines's box within 10 s (others: %d)", len(tomas.other))
+		}
+		if len(tomas.other) == 1 {
+			break
+		}
+	}
+	t.Logf("ines's box reached tomas's window %v after she drew it", time.Since(drawn).Round(time.Millisecond))
+	if got := tomas.other[0].Box; got != (project.Box{X0: 10, Y0: 10, X1: 60, Y1: 50}) {
+		t.Errorf("tomas sees the box at %v", got)
+	}
+	if got := tomas.perImg[tomas.imageID].Labels; got != before+1 {
+		t.Errorf("tomas's image counts %d labels, want %d", got, before+1)
+	}
+}
