@@ -34,3 +34,11 @@ func OpenTeam(ctx context.Context, arg string) (Team, error) {
 
 // Change is one change a server project announces (see postgres.Watch).
 type Change = postgres.Change
+
+// Member is a person of a server project's team.
+type Member = postgres.Member
+
+// Membership is what a server project says of the person logged in.
+type Membership interface {
+	Me(ctx context.Context) (Member, error)
+}

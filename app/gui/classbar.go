@@ -37,7 +37,12 @@ type classBar struct {
 	list    *fyne.Container
 	empty   *widget.Label
 	buttons []*widget.Button // acting on the current class
-	obj     fyne.CanvasObject
+	addBtn  *widget.Button
+	// lockedWhy, when set, says why this person may not change classes
+	// (their role in a server project); the tools are off and it is shown.
+	lockedWhy string
+	locked    *widget.Label
+	obj       fyne.CanvasObject
 }
 
 // newClassBar makes the panel. store returns the open project's store (nil
@@ -58,16 +63,42 @@ func newClassBar(win fyne.Window, store func() backend.Project, changed func(), 
 	merge := widget.NewButtonWithIcon("Merge…", theme.MoveDownIcon(), b.showMerge)
 	del := widget.NewButtonWithIcon("Delete…", theme.DeleteIcon(), b.showDelete)
 	b.buttons = []*widget.Button{rename, colour, merge, del}
+	b.addBtn = add
 	for _, bt := range b.buttons {
 		bt.Disable()
 	}
+	b.locked = widget.NewLabel("")
+	b.locked.Wrapping = fyne.TextWrapWord
+	b.locked.Importance = widget.LowImportance
+	b.locked.Hide()
 
 	title := widget.NewLabelWithStyle("Classes", fyne.TextAlignLeading, fyne.TextStyle{Bold: true})
-	tools := container.NewGridWithColumns(2, add, rename, colour, merge, del)
+	tools := container.NewVBox(b.locked, container.NewGridWithColumns(2, add, rename, colour, merge, del))
 	width := canvas.NewRectangle(color.Transparent)
 	width.SetMinSize(fyne.NewSize(classBarMinWidth, 0))
 	b.obj = container.NewStack(width, container.NewBorder(title, tools, nil, nil, container.NewVScroll(b.list)))
 	return b
+}
+
+// updateTools turns the class tools on or off: those acting on the
+// current class need one, and all are off (with the reason shown) for a
+// person whose role may not change classes.
+func (b *classBar) updateTools() {
+	for _, bt := range b.buttons {
+		if _, ok := b.currentClass(); ok && b.lockedWhy == "" {
+			bt.Enable()
+		} else {
+			bt.Disable()
+		}
+	}
+	if b.lockedWhy != "" {
+		b.addBtn.Disable()
+		b.locked.SetText(b.lockedWhy)
+		b.locked.Show()
+	} else {
+		b.addBtn.Enable()
+		b.locked.Hide()
+	}
 }
 
 // Object is the panel to put in the window.
@@ -90,6 +121,7 @@ func (b *classBar) SetData(classes []project.Class, mine, onImage, inProject map
 		for _, r := range b.rows {
 			r.update(countsText(mine[r.class.ID], onImage[r.class.ID], inProject[r.class.ID], who), r.class.ID == current)
 		}
+		b.updateTools()
 		return
 	}
 	b.rows = b.rows[:0]
@@ -102,13 +134,7 @@ func (b *classBar) SetData(classes []project.Class, mine, onImage, inProject map
 		b.rows = append(b.rows, r)
 		b.list.Add(r)
 	}
-	for _, bt := range b.buttons {
-		if _, ok := b.currentClass(); ok {
-			bt.Enable()
-		} else {
-			bt.Disable()
-		}
-	}
+	b.updateTools()
 	b.list.Refresh()
 }
 

@@ -386,6 +386,9 @@ func (g *cropGrid) rejectMarked() error {
 // decide stores decisions in one transaction, then reads the list, the
 // counts and the main window again.
 func (g *cropGrid) decide(ds []project.Decision, rejecting bool) error {
+	if err := g.u.mayDecide(); err != nil {
+		return err
+	}
 	u := g.u
 	if len(ds) == 0 {
 		return nil

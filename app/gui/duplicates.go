@@ -233,6 +233,9 @@ func (u *ui) askRejectCovered() {
 
 // rejectCovered rejects gs as one step and brings the screen up to date.
 func (u *ui) rejectCovered(gs []project.Suggestion) error {
+	if err := u.mayDecide(); err != nil {
+		return err
+	}
 	ds := make([]project.Decision, len(gs))
 	for i, g := range gs {
 		ds[i] = decisionFor(g, false)

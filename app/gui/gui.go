@@ -144,6 +144,10 @@ type ui struct {
 	countsMissing bool
 	// stopWatch ends following a server project's changes.
 	stopWatch func()
+	// role is the person's kind of member in a server project ("" for a
+	// project file); ownerItems are the menu items only owners may use.
+	role       string
+	ownerItems []*fyne.MenuItem
 	// onChanges, when set (tests), hears each batch of others' changes
 	// after the screen was brought up to date.
 	onChanges func([]backend.Change)
@@ -287,14 +291,17 @@ func (u *ui) menu() *fyne.MainMenu {
 		it.Shortcut = &desktop.CustomShortcut{KeyName: k, Modifier: fyne.KeyModifierShortcutDefault | m}
 		return it
 	}
+	// Only owners add images to a server project (applyRole).
+	addFolder := keyed("Add image folder…", fyne.KeyI, 0, u.askAddFolder)
+	addFiles := fyne.NewMenuItem("Add image files…", u.askAddFile)
+	relink := fyne.NewMenuItem("Find moved images…", u.askRelink)
+	u.ownerItems = []*fyne.MenuItem{addFolder, addFiles, relink}
 	file := fyne.NewMenu("Project",
 		keyed("New project…", fyne.KeyN, 0, u.askNew),
 		keyed("Open project…", fyne.KeyO, 0, u.askOpen),
 		fyne.NewMenuItem("Open server project…", u.askOpenServer),
 		fyne.NewMenuItemSeparator(),
-		keyed("Add image folder…", fyne.KeyI, 0, u.askAddFolder),
-		fyne.NewMenuItem("Add image files…", u.askAddFile),
-		fyne.NewMenuItem("Find moved images…", u.askRelink),
+		addFolder, addFiles, relink,
 		fyne.NewMenuItemSeparator(),
 		fyne.NewMenuItem("Change annotator…", u.askAnnotator),
 	)
@@ -484,6 +491,7 @@ func (u *ui) showProject(path string, s backend.Project, why string) error {
 	u.pointer = ""
 	u.updateStatus()
 	u.reportMissing()
+	u.applyRole(s)
 	if w, ok := s.(watcher); ok {
 		u.watchChanges(w)
 	}

@@ -380,6 +380,10 @@ func (q *reviewQueue) skip() {
 }
 
 func (q *reviewQueue) decide(g project.Suggestion, d project.Decision, what string) {
+	if err := q.u.mayDecide(); err != nil {
+		q.status.SetText(err.Error())
+		return
+	}
 	u := q.u
 	if u.me.ID == 0 {
 		u.askAnnotator()

@@ -12,6 +12,8 @@ import (
 	"fyne.io/fyne/v2/widget"
 
 	"boxwright/app/backend"
+	"boxwright/project"
+	"boxwright/store/postgres"
 )
 
 // askOpenServer asks for a server project: a postgres:// address or
@@ -132,4 +134,53 @@ func (u *ui) applyChanges(cs []backend.Change) {
 	if u.onChanges != nil {
 		u.onChanges(cs)
 	}
+}
+
+// applyRole reads the person's role in a server project and turns off,
+// with the reason, what the role may not do: the server would refuse it
+// anyway (row-level security), but a person should see it before trying.
+// A project file has no roles.
+func (u *ui) applyRole(s backend.Project) {
+	u.role, u.bar.lockedWhy = "", ""
+	m, ok := s.(backend.Membership)
+	if !ok {
+		return
+	}
+	me, err := m.Me(context.Background())
+	if err != nil {
+		u.role = "none"
+		u.bar.lockedWhy = "You are not on this project's team: you can look, and its owners can add you (boxwright team … add)."
+	} else {
+		u.role = me.Kind
+		if me.Kind != postgres.KindOwner {
+			u.bar.lockedWhy = fmt.Sprintf("Only the project's owners change classes; you are %s here.", withArticle(me.Kind))
+		}
+	}
+	owner := u.role == postgres.KindOwner
+	for _, it := range u.ownerItems {
+		it.Disabled = !owner
+	}
+	if mm := u.win.MainMenu(); mm != nil {
+		mm.Refresh()
+	}
+	u.updateClassBar()
+}
+
+// mayDecide refuses a decision on suggestions by someone whose role in a
+// server project does not allow it, saying so.
+func (u *ui) mayDecide() error {
+	if u.role == "" || u.role == postgres.KindReviewer || u.role == postgres.KindOwner {
+		return nil
+	}
+	return project.Explained(project.ErrNotAllowed, "Only reviewers and owners decide suggestions; you are %s in this project.", withArticle(u.role))
+}
+
+func withArticle(kind string) string {
+	switch kind {
+	case postgres.KindAnnotator, postgres.KindOwner:
+		return "an " + kind
+	case "none":
+		return "not on the team"
+	}
+	return "a " + kind
 }

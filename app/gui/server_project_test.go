@@ -7,6 +7,7 @@ import (
 	"image/jpeg"
 	"os"
 	"path/filepath"
+	"strings"
 	"testing"
 	"time"
 
@@ -102,5 +103,18 @@ func TestTwoWindowsSeeEachOther(t *testing.T) {
 	}
 	if got := tomas.perImg[tomas.imageID].Labels; got != before+1 {
 		t.Errorf("tomas's image counts %d labels, want %d", got, before+1)
+	}
+
+	// What an annotator may not do is off, with the reason.
+	if !strings.Contains(tomas.bar.lockedWhy, "owners change classes") || !tomas.bar.addBtn.Disabled() {
+		t.Errorf("class tools for an annotator: %q, add disabled %v", tomas.bar.lockedWhy, tomas.bar.addBtn.Disabled())
+	}
+	for _, it := range tomas.ownerItems {
+		if !it.Disabled {
+			t.Errorf("menu item %q is on for an annotator", it.Label)
+		}
+	}
+	if err := tomas.mayDecide(); err == nil || !strings.Contains(err.Error(), "Only reviewers") {
+		t.Errorf("an annotator deciding: %v", err)
 	}
 }

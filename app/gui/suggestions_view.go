@@ -199,6 +199,9 @@ func (u *ui) acceptAllAbove() {
 
 // review stores decisions as one undoable step and redraws.
 func (u *ui) review(what string, ds []project.Decision) error {
+	if err := u.mayDecide(); err != nil {
+		return err
+	}
 	err := u.sess.Decide(context.Background(), u.imageID, what, ds)
 	u.afterReview(len(ds), err)
 	return err
@@ -329,6 +332,9 @@ func (u *ui) askBulkReview() {
 // bulkReview decides every suggestion the query selects, as one step;
 // skipCovered leaves those an own box already covers pending.
 func (u *ui) bulkReview(q project.SuggestionQuery, accept, skipCovered bool) error {
+	if err := u.mayDecide(); err != nil {
+		return err
+	}
 	gs, err := u.st.QuerySuggestions(context.Background(), q)
 	if err != nil {
 		return err

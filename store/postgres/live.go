@@ -29,12 +29,16 @@ var Everything = Change{Table: "*"}
 var PollEvery = 2 * time.Second
 
 // Watch delivers the changes committed by anyone (this client too) until
-// ctx ends, as they arrive (a caller that redraws gathers them first). It listens on a connection of its own
-// (LISTEN boxwright). When that connection is cut it delivers Everything
-// once it is back (what was announced meanwhile is lost), and while it
-// cannot listen it polls a fingerprint of the tables every PollEvery.
+// ctx ends, as they arrive (a caller that redraws gathers them first). It
+// listens on a connection of its own (LISTEN boxwright). Once listening
+// has begun it delivers Everything, for what was committed before; when
+// the connection is cut it delivers Everything again once it is back
+// (what was announced meanwhile is lost), and while it cannot listen it
+// polls a fingerprint of the tables every PollEvery.
 func (s *Store) Watch(ctx context.Context, deliver func([]Change)) error {
-	missed, failures := false, 0
+	// What was committed between the caller's reading and the first
+	// LISTEN is not announced to it: it hears Everything first as well.
+	missed, failures := true, 0
 	var last string
 	for ctx.Err() == nil {
 		heard := false
