@@ -16,7 +16,7 @@ TEST_DEBS := xvfb xauth xdotool imagemagick sqlite3 python3-shapely python3-skle
 
 export CGO_ENABLED := 1
 
-.PHONY: run test deps test-deps build vet unit fuzz smoke killtest bench clean
+.PHONY: run test deps test-deps build vet unit fuzz smoke killtest loadtest bench clean
 
 run: deps build
 	./$(BIN) demo $(DEMO_DIR)
@@ -60,6 +60,12 @@ KILLTEST_SEED ?=
 killtest: build
 	@.ci/debs.sh xvfb xdotool sqlite3
 	.ci/killtest.sh $(BIN) $(KILLTEST_RUNS) $(KILLTEST_SEED)
+
+# Load test of server projects at the issue's size (not part of `make test`:
+# about 2 minutes): 60 s of 20 members editing across a server restart, and
+# readers during a 200,000-box import.
+loadtest: test-deps
+	BOXWRIGHT_LOAD_SECONDS=60 $(GO) test ./store/postgres -run 'TeamLoad|ReadersDuringBigImport' -v -count=1
 
 bench:
 	$(GO) test -run '^$$' -bench . -benchtime 5x ./store/... ./assets/...
