@@ -42,3 +42,13 @@ type Member = postgres.Member
 type Membership interface {
 	Me(ctx context.Context) (Member, error)
 }
+
+// Claim is a live "I am labelling this image" of a server project.
+type Claim = postgres.Claim
+
+// Claimer is a project where people claim the images they work on.
+type Claimer interface {
+	Claim(ctx context.Context, imageID, annotatorID int64) ([]Claim, error)
+	Release(ctx context.Context, imageID, annotatorID int64) error
+	Claims(ctx context.Context) ([]Claim, error)
+}

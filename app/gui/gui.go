@@ -148,6 +148,14 @@ type ui struct {
 	// project file); ownerItems are the menu items only owners may use.
 	role       string
 	ownerItems []*fyne.MenuItem
+	// raw is the open project as opened (u.st may wrap it for the edit
+	// trace); claimed is the image this person claims, stopClaim ends the
+	// claim, alsoHere names the others on the image on screen.
+	raw       backend.Project
+	claimed   int64
+	stopClaim func()
+	alsoHere  string
+	claimsBy  map[int64][]string // others on each image, for the list
 	// onChanges, when set (tests), hears each batch of others' changes
 	// after the screen was brought up to date.
 	onChanges func([]backend.Change)
@@ -468,7 +476,7 @@ func (u *ui) openProject(path string) error {
 // file, a postgres:// address or @NAME); why says why editing is off.
 func (u *ui) showProject(path string, s backend.Project, why string) error {
 	u.closeProject()
-	u.st, u.path, u.readOnlyWhy, u.countsMissing = traceWrites(s, u.trace), path, why, false
+	u.st, u.raw, u.path, u.readOnlyWhy, u.countsMissing = traceWrites(s, u.trace), s, path, why, false
 	if w, _ := backend.Locate(path); !w.IsServer() {
 		projectFolder = filepath.Dir(path)
 	}
@@ -499,6 +507,7 @@ func (u *ui) showProject(path string, s backend.Project, why string) error {
 }
 
 func (u *ui) closeProject() {
+	u.releaseClaim()
 	if u.stopWatch != nil {
 		u.stopWatch()
 		u.stopWatch = nil

@@ -365,6 +365,9 @@ func (u *ui) updateStatus() {
 	if u.me.ID == 0 {
 		parts = append(parts, "no annotator chosen: Project ▸ Change annotator…")
 	}
+	if u.alsoHere != "" {
+		parts = append(parts, u.alsoHere)
+	}
 	u.status.SetText(strings.Join(parts, "   ·   "))
 	u.zoom.SetText(fmt.Sprintf("%.0f %%", 100*u.view.Transform().Scale))
 }

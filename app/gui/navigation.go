@@ -120,6 +120,7 @@ func (u *ui) showImage(i int) {
 	}
 	ctx, cancel := context.WithCancel(context.Background())
 	u.cancelDecode = cancel
+	u.claimShown(im.ID)
 	u.loadOthers()
 	u.loadSuggestions()
 	if p := u.cache.Ready(im.ID); p != nil {

@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"image"
 	"path/filepath"
+	"strings"
 	"sync"
 
 	"fyne.io/fyne/v2"
@@ -203,7 +204,11 @@ func (n *navigator) updateRow(row widget.ListItemID, o fyne.CanvasObject) {
 	text := box.Objects[0].(*fyne.Container)
 	thumb := box.Objects[1].(*fcanvas.Image)
 	text.Objects[0].(*widget.Label).SetText(filepath.Base(im.Path))
-	text.Objects[1].(*widget.Label).SetText(rowDetail(im, u.perImg[im.ID]))
+	detail := rowDetail(im, u.perImg[im.ID])
+	if on := u.claimsBy[im.ID]; len(on) > 0 {
+		detail += " · " + strings.Join(on, ", ") + " on it"
+	}
+	text.Objects[1].(*widget.Label).SetText(detail)
 	n.mu.Lock()
 	t, ok := n.thumbs[im.ID]
 	n.mu.Unlock()

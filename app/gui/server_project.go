@@ -125,6 +125,12 @@ func (u *ui) applyChanges(cs []backend.Change) {
 		u.status.SetText(fmt.Sprintf("Could not read others' changes: %v", err))
 		return
 	}
+	for _, c := range cs {
+		if c.Table == "claims" || c.Table == "*" {
+			u.readClaims()
+			break
+		}
+	}
 	if here && sel == u.imageID {
 		u.reloadSuggestions()
 		u.loadOthers()
@@ -183,4 +189,110 @@ func withArticle(kind string) string {
 		return "not on the team"
 	}
 	return "a " + kind
+}
+
+// claimRenew is how often the claim on the image on screen is renewed
+// (it lapses after postgres.ClaimLasts without one).
+var claimRenew = time.Minute
+
+// claimShown claims the image on screen in a server project, releasing
+// the one before, and says in the status line who else is on it; the
+// claim is renewed while the image stays on screen.
+func (u *ui) claimShown(imageID int64) {
+	c, ok := u.claimer()
+	if !ok || u.me.ID == 0 {
+		return
+	}
+	if u.stopClaim != nil {
+		u.stopClaim()
+	}
+	ctx, cancel := context.WithCancel(context.Background())
+	prev, me := u.claimed, u.me.ID
+	u.claimed, u.alsoHere = imageID, ""
+	u.stopClaim = cancel
+	go func() {
+		if prev != 0 && prev != imageID {
+			c.Release(context.Background(), prev, me)
+		}
+		for {
+			others, err := c.Claim(ctx, imageID, me)
+			if err == nil {
+				fyne.Do(func() {
+					if ctx.Err() == nil && u.imageID == imageID {
+						u.alsoHere = alsoOnIt(others)
+						u.updateStatus()
+					}
+				})
+			}
+			select {
+			case <-ctx.Done():
+				return
+			case <-time.After(claimRenew):
+			}
+		}
+	}()
+}
+
+// releaseClaim ends this person's claim before the project closes.
+func (u *ui) releaseClaim() {
+	if u.stopClaim != nil {
+		u.stopClaim()
+	}
+	if c, ok := u.claimer(); ok && u.claimed != 0 && u.me.ID != 0 {
+		ctx, cancel := context.WithTimeout(context.Background(), 2*time.Second)
+		c.Release(ctx, u.claimed, u.me.ID)
+		cancel()
+	}
+	u.stopClaim, u.claimed, u.alsoHere = nil, 0, ""
+}
+
+// claimer is the open project's claims, when it has them (through the
+// edit trace's wrapper too).
+func (u *ui) claimer() (backend.Claimer, bool) {
+	c, ok := u.raw.(backend.Claimer)
+	return c, ok
+}
+
+func alsoOnIt(cs []backend.Claim) string {
+	if len(cs) == 0 {
+		return ""
+	}
+	names := make([]string, len(cs))
+	for i, c := range cs {
+		names[i] = fmt.Sprintf("%s (since %s)", c.Annotator, c.Since.Local().Format("15:04"))
+	}
+	return "also on this image: " + strings.Join(names, ", ")
+}
+
+// readClaims reads who is on which image (off the event thread) and
+// shows it in the image list.
+func (u *ui) readClaims() {
+	c, ok := u.claimer()
+	if !ok {
+		return
+	}
+	me := u.me.ID
+	go func() {
+		cs, err := c.Claims(context.Background())
+		if err != nil {
+			return // the list keeps what it showed; the next change tries again
+		}
+		by := map[int64][]string{}
+		byImage := map[int64][]backend.Claim{}
+		for _, cl := range cs {
+			if cl.AnnotatorID != me {
+				by[cl.ImageID] = append(by[cl.ImageID], cl.Annotator)
+				byImage[cl.ImageID] = append(byImage[cl.ImageID], cl)
+			}
+		}
+		fyne.Do(func() {
+			if u.me.ID != me {
+				return // the annotator changed meanwhile
+			}
+			u.claimsBy = by
+			u.alsoHere = alsoOnIt(byImage[u.imageID])
+			u.nav.list.Refresh()
+			u.updateStatus()
+		})
+	}()
 }

@@ -105,6 +105,14 @@ func TestTwoWindowsSeeEachOther(t *testing.T) {
 		t.Errorf("tomas's image counts %d labels, want %d", got, before+1)
 	}
 
+	// Both claim the image they look at, and each is told of the other.
+	waitFor(t, "tomas's window names ines on his image", func() bool {
+		return strings.Contains(tomas.status.Text, "also on this image: ines")
+	})
+	if !strings.Contains(tomas.status.Text, "ines") {
+		t.Errorf("status line %q", tomas.status.Text)
+	}
+
 	// What an annotator may not do is off, with the reason.
 	if !strings.Contains(tomas.bar.lockedWhy, "owners change classes") || !tomas.bar.addBtn.Disabled() {
 		t.Errorf("class tools for an annotator: %q, add disabled %v", tomas.bar.lockedWhy, tomas.bar.addBtn.Disabled())
