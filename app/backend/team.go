@@ -52,3 +52,9 @@ type Claimer interface {
 	Release(ctx context.Context, imageID, annotatorID int64) error
 	Claims(ctx context.Context) ([]Claim, error)
 }
+
+// Assigner hands a server project's images out to annotators.
+type Assigner interface {
+	Assign(ctx context.Context, imageIDs, annotatorIDs []int64, k int) (map[int64][]int64, error)
+	Assignments(ctx context.Context) (map[int64][]int64, error)
+}

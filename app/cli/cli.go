@@ -60,6 +60,7 @@ func commands(window Window) map[string]command {
 		"train":       cmdTrain,
 		"detect":      cmdDetect,
 		"team":        cmdTeam,
+		"assign":      cmdAssign,
 		"demo":        func(args []string, stdout, stderr io.Writer) error { return cmdDemo(args, stdout, stderr, window) },
 	}
 }

@@ -52,3 +52,41 @@ func TestTeamCommand(t *testing.T) {
 		t.Errorf("team on a file: exit %d, %q", code, errs)
 	}
 }
+
+// assign hands every image to k of the annotators named, and --show
+// reads it back; a file project is refused.
+func TestAssignCommand(t *testing.T) {
+	srv := pgtest.Start(t)
+	srv.Exec(t, "postgres", `CREATE ROLE olga LOGIN CREATEROLE PASSWORD 'olga-pw'`)
+	srv.Exec(t, "postgres", `CREATE DATABASE harbour OWNER olga`)
+	s, err := postgres.Create(context.Background(), srv.DSN("olga", "olga-pw", "harbour"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, who := range []string{"ines", "tomas", "rita"} {
+		if _, err := s.AddMember(context.Background(), who, postgres.KindAnnotator, who+"-pw"); err != nil {
+			t.Fatal(err)
+		}
+	}
+	s.Close()
+	srv.Exec(t, "harbour", `INSERT INTO images(path, sha256, width, height, orientation)
+		SELECT 'im' || g || '.jpg', lpad(to_hex(g), 64, '0'), 64, 48, 1 FROM generate_series(1, 9) g`)
+	url := srv.URL("olga", "olga-pw", "harbour")
+	out := mustCLI(t, "assign", url, "--annotators", "ines,tomas,rita", "--each", "2")
+	for _, want := range []string{"9 images assigned", "ines                 6 images", "tomas                6 images", "rita                 6 images"} {
+		if !strings.Contains(out, want) {
+			t.Errorf("assign printed:\n%s\nwant %q", out, want)
+		}
+	}
+	if out := mustCLI(t, "assign", url, "--show"); !strings.Contains(out, "9 images assigned") {
+		t.Errorf("assign --show:\n%s", out)
+	}
+	if code, _, errs := cli(t, "assign", url, "--annotators", "ines", "--each", "2"); code != 2 || !strings.Contains(errs, "at most the 1") {
+		t.Errorf("--each above the annotators: exit %d, %q", code, errs)
+	}
+	file := filepath.Join(t.TempDir(), "p.boxw")
+	mustCLI(t, "new", file)
+	if code, _, errs := cli(t, "assign", file, "--show"); code != 1 || !strings.Contains(errs, "server project") {
+		t.Errorf("assign on a file: exit %d, %q", code, errs)
+	}
+}

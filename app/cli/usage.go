@@ -8,7 +8,8 @@ With no command, opens the window.
 
 Commands:
   open PROJECT.boxw [--annotator NAME]  open a project in the window
-  new PROJECT.boxw                      create an empty project (never overwrites)
+  new PROJECT.boxw | postgres://… | @NAME
+                                        create an empty project (never overwrites)
   add-images PROJECT.boxw PATH...       add image files and folders (recursive)
         [--max-megapixels N] [--json]
   relink PROJECT.boxw FOLDER [--json]   find moved image files by their content
@@ -60,7 +61,14 @@ Commands:
   models PROJECT.boxw [--use NAME] [--json]
                                         the detectors trained here (--use: make current)
   demo DIR [--no-open] [--seed N]       make the invented harbour demo in DIR
+  team PROJECT list | add NAME --role annotator|reviewer|owner | remove NAME
+                                        the members of a server project
+  assign PROJECT --annotators A,B[,C...] [--each K] | assign PROJECT --show
+                                        hand a server project's images out
   help                                  this text
+
+A PROJECT is a file (PROJECT.boxw), a server project's postgres://USER@HOST/DB
+address, or @NAME from the connections file (README: working as a team).
 
 Every command exits non-zero with a message on stderr when it fails.
 `
