@@ -212,14 +212,10 @@ func (s *Store) connectError(err error) error {
 	return fmt.Errorf("%s: %v", s.name, redact(err))
 }
 
-// describe names a connection for messages: user, host, port, database;
-// never the password.
+// describe names a connection for messages: database, server and user;
+// never the password. "harbour on db.example.org:5432 (as ines)".
 func describe(c *pgx.ConnConfig) string {
-	host := c.Host
-	if strings.HasPrefix(host, "/") {
-		host = "socket " + host
-	}
-	return fmt.Sprintf("postgres://%s@%s:%d/%s", c.User, host, c.Port, c.Database)
+	return fmt.Sprintf("%s on %s:%d (as %s)", c.Database, c.Host, c.Port, c.User)
 }
 
 // redact keeps a password that a parse error quotes out of the message.
