@@ -24,7 +24,10 @@ import (
 // box ines draws appears in tomas's window among the others' boxes of
 // the image on screen, and in its image counts, without tomas doing
 // anything.
-func TestTwoWindowsSeeEachOther(t *testing.T) {
+// teamServer is a server project on a private server with two images,
+// a class buoy and annotators ines and tomas (passwords NAME-pw).
+func teamServer(t *testing.T) *pgtest.Server {
+	t.Helper()
 	t.Setenv("XDG_CACHE_HOME", t.TempDir()) // the image cache of this test
 	srv := pgtest.Start(t)
 	srv.Exec(t, "postgres", `CREATE ROLE olga LOGIN CREATEROLE PASSWORD 'olga-pw'`)
@@ -58,20 +61,29 @@ func TestTwoWindowsSeeEachOther(t *testing.T) {
 	}
 	owner.Close()
 
-	open := func(who string) (*ui, chan error) {
-		u := newUI(test.NewTempApp(t))
-		u.annotatorFlag = who
-		u.win.Resize(fyne.NewSize(1000, 700))
-		decoded := make(chan error, 10)
-		u.decoded = func(_ int64, err error) { decoded <- err }
-		if err := u.openProject(srv.URL(who, who+"-pw", "harbour")); err != nil {
-			t.Fatalf("open as %s: %v", who, err)
-		}
-		t.Cleanup(u.closeProject)
-		return u, decoded
+	return srv
+}
+
+// openServerAs opens the server project in a test window as who.
+func openServerAs(t *testing.T, srv *pgtest.Server, who string) (*ui, chan error) {
+	t.Helper()
+	u := newUI(test.NewTempApp(t))
+	u.annotatorFlag = who
+	u.win.Resize(fyne.NewSize(1000, 700))
+	decoded := make(chan error, 10)
+	u.decoded = func(_ int64, err error) { decoded <- err }
+	if err := u.openProject(srv.URL(who, who+"-pw", "harbour")); err != nil {
+		t.Fatalf("open as %s: %v", who, err)
 	}
-	ines, inesDecoded := open("ines")
-	tomas, tomasDecoded := open("tomas")
+	t.Cleanup(u.closeProject)
+	return u, decoded
+}
+
+func TestTwoWindowsSeeEachOther(t *testing.T) {
+	srv := teamServer(t)
+	ctx := context.Background()
+	ines, inesDecoded := openServerAs(t, srv, "ines")
+	tomas, tomasDecoded := openServerAs(t, srv, "tomas")
 	waitDecoded(t, inesDecoded)
 	waitDecoded(t, tomasDecoded)
 	heard := make(chan []backend.Change, 10)
@@ -124,5 +136,35 @@ func TestTwoWindowsSeeEachOther(t *testing.T) {
 	}
 	if err := tomas.mayDecide(); err == nil || !strings.Contains(err.Error(), "Only reviewers") {
 		t.Errorf("an annotator deciding: %v", err)
+	}
+}
+
+// The server restarting under an open window: the edit made while it is
+// down is kept, the status bar says it is not saved, and the retry path
+// writes it once the server is back; nothing is lost.
+func TestServerRestartLosesNoEdit(t *testing.T) {
+	old := retryEvery
+	retryEvery = 200 * time.Millisecond
+	defer func() { retryEvery = old }()
+	srv := teamServer(t)
+	ines, decoded := openServerAs(t, srv, "ines")
+	waitDecoded(t, decoded)
+	ines.view.OnCreate(project.Box{X0: 10, Y0: 10, X1: 60, Y1: 50})
+	srv.Stop()
+	ines.view.OnCreate(project.Box{X0: 100, Y0: 100, X1: 150, Y1: 140})
+	if !strings.Contains(ines.saved.Text, "NOT SAVED") {
+		t.Errorf("status while the server is down: %q", ines.saved.Text)
+	}
+	t.Logf("down: saved %q, unsaved %d, status %q", ines.saved.Text, ines.sess.Unsaved(), ines.status.Text)
+	srv.Start(t)
+	waitFor(t, "the edit is written after the restart", func() bool { return ines.sess.Unsaved() == 0 })
+	s, err := postgres.Open(context.Background(), srv.DSN("olga", "olga-pw", "harbour"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer s.Close()
+	ls, err := s.Labels(context.Background(), project.LabelFilter{})
+	if err != nil || len(ls) != 2 {
+		t.Fatalf("labels after the restart: %d, %v; want both boxes", len(ls), err)
 	}
 }

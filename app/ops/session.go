@@ -114,6 +114,12 @@ func (s *Session) load(ctx context.Context, imageID int64) (map[int64]project.La
 	}
 	ls, err := s.st.Labels(ctx, project.LabelFilter{ImageID: imageID, AnnotatorID: s.annotator.ID})
 	if err != nil {
+		// A server that cannot be reached for a moment: work on from what
+		// was read last, so that the edit is kept and queued rather than
+		// lost (the retry path writes it when the server is back).
+		if doc, ok := s.docs[imageID]; ok {
+			return doc, nil
+		}
 		return nil, err
 	}
 	doc := map[int64]project.Label{}

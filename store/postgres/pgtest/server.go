@@ -154,6 +154,15 @@ func (s *Server) Stop() {
 	s.run("pg_ctl", "stop", "-w", "-m", "fast", "-D", s.data())
 }
 
+// Start starts a server that Stop stopped (a test of a server that is
+// down for a while).
+func (s *Server) Start(tb testing.TB) {
+	tb.Helper()
+	if err := s.start(); err != nil {
+		tb.Fatal(err)
+	}
+}
+
 // Restart stops and starts the server as an administrator's
 // `pg_ctl restart -m fast` would, cutting every open connection.
 func (s *Server) Restart(tb testing.TB) {
