@@ -58,3 +58,12 @@ type Assigner interface {
 	Assign(ctx context.Context, imageIDs, annotatorIDs []int64, k int) (map[int64][]int64, error)
 	Assignments(ctx context.Context) (map[int64][]int64, error)
 }
+
+// CacheUse is what a server project's image cache on this machine holds.
+type CacheUse = postgres.CacheUse
+
+// ImageCache is a server project's cache of image bytes on this machine.
+type ImageCache interface {
+	ImageCacheUse() (CacheUse, error)
+	ClearImageCache() error
+}

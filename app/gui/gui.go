@@ -312,6 +312,7 @@ func (u *ui) menu() *fyne.MainMenu {
 		addFolder, addFiles, relink,
 		fyne.NewMenuItemSeparator(),
 		fyne.NewMenuItem("Change annotator…", u.askAnnotator),
+		fyne.NewMenuItem("Image cache…", u.showImageCache),
 	)
 	edit := fyne.NewMenu("Edit",
 		keyed("Undo", fyne.KeyZ, 0, u.undo),

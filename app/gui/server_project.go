@@ -8,10 +8,12 @@ import (
 	"time"
 
 	"fyne.io/fyne/v2"
+	"fyne.io/fyne/v2/container"
 	"fyne.io/fyne/v2/dialog"
 	"fyne.io/fyne/v2/widget"
 
 	"boxwright/app/backend"
+	"boxwright/app/ops"
 	"boxwright/project"
 	"boxwright/store/postgres"
 )
@@ -295,4 +297,52 @@ func (u *ui) readClaims() {
 			u.updateStatus()
 		})
 	}()
+}
+
+// showImageCache shows how much of this machine's image cache a server
+// project's images take, with a button to empty it (images are fetched
+// again when shown).
+func (u *ui) showImageCache() {
+	c, ok := u.raw.(backend.ImageCache)
+	if !ok {
+		dialog.ShowInformation("Image cache", "A project file's images are read where they lie; only a server project's images are cached on this machine.", u.win)
+		return
+	}
+	use, err := c.ImageCacheUse()
+	if err != nil {
+		u.showError(err)
+		return
+	}
+	text := widget.NewLabel(fmt.Sprintf("%s of images (%s) in\n%s\nThe oldest are removed beyond %s.",
+		humanBytes(use.Bytes), ops.Plural(use.Files, "file"), use.Dir, humanBytes(use.Limit)))
+	text.Wrapping = fyne.TextWrapWord
+	var d dialog.Dialog
+	clear := widget.NewButton("Empty the cache", func() {
+		if err := c.ClearImageCache(); err != nil {
+			u.showError(err)
+			return
+		}
+		d.Hide()
+		u.status.SetText("Image cache emptied: images are fetched from the server again when shown.")
+	})
+	d = dialog.NewCustom("Image cache", "Close", container.NewVBox(text, clear), u.win)
+	d.SetOnClosed(u.giveKeysBack)
+	d.Resize(fyne.NewSize(520, 0))
+	d.Show()
+}
+
+// humanBytes writes a size in the largest binary unit that keeps it at
+// or above 1 (common practice: KiB, MiB, GiB).
+func humanBytes(n int64) string {
+	const unit = 1024
+	if n < unit {
+		return fmt.Sprintf("%d bytes", n)
+	}
+	v, suffix := float64(n), []string{"KiB", "MiB", "GiB", "TiB"}
+	i := -1
+	for v >= unit && i < len(suffix)-1 {
+		v /= unit
+		i++
+	}
+	return fmt.Sprintf("%.1f %s", v, suffix[i])
 }

@@ -125,6 +125,17 @@ func TestTwoWindowsSeeEachOther(t *testing.T) {
 		t.Errorf("status line %q", tomas.status.Text)
 	}
 
+	// The image cache holds the two images tomas's window fetched.
+	tomas.showImageCache()
+	if c, ok := tomas.raw.(backend.ImageCache); !ok {
+		t.Error("a server project has no image cache")
+	} else if use, err := c.ImageCacheUse(); err != nil || use.Files < 1 {
+		t.Errorf("image cache %+v, %v", use, err)
+	}
+	if got := humanBytes(3 << 20); got != "3.0 MiB" {
+		t.Errorf("humanBytes(3 MiB) = %q", got)
+	}
+
 	// What an annotator may not do is off, with the reason.
 	if !strings.Contains(tomas.bar.lockedWhy, "owners change classes") || !tomas.bar.addBtn.Disabled() {
 		t.Errorf("class tools for an annotator: %q, add disabled %v", tomas.bar.lockedWhy, tomas.bar.addBtn.Disabled())
