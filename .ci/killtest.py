@@ -124,6 +124,11 @@ def apply_intent(s, it, sugg_image):
             s.pending.get(sugg_image.get(d["suggestion"]), set()).discard(d["suggestion"])
             if d["accept"] and "label" in d:
                 s.anon.append(lab(d["label"]))
+                # The accepted box is the reviewer's label: it starts the
+                # image for them, as a drawn one does.
+                img = d["label"]["image"]
+                if s.status.get(img) == "new":
+                    s.status[img] = "started"
     elif op == "undecide":
         ids = set(it["suggestions"])
         for sid in ids:
