@@ -5,6 +5,7 @@ import (
 	"encoding/csv"
 	"strings"
 	"testing"
+	"time"
 
 	"fyne.io/fyne/v2"
 	"fyne.io/fyne/v2/test"
@@ -94,8 +95,19 @@ func TestAgreementScreenReportsAndOpensImages(t *testing.T) {
 
 func waitDecodedOrShown(t *testing.T, ch <-chan error, u *ui, id int64) {
 	t.Helper()
-	if u.imageID == id && u.view.Image() != nil {
-		return
+	// The channel may still hold the decode of an image shown before
+	// (a stale event let the test count the boxes of no image): wait for
+	// this image itself to be on screen.
+	deadline := time.After(10 * time.Second)
+	for u.imageID != id || u.view.Image() == nil {
+		select {
+		case err := <-ch:
+			if err != nil {
+				t.Fatalf("decoding the image for display: %v", err)
+			}
+		case <-deadline:
+			t.Fatalf("image %d was not shown within 10 s", id)
+		case <-time.After(10 * time.Millisecond):
+		}
 	}
-	waitDecoded(t, ch)
 }
