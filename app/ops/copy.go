@@ -771,7 +771,9 @@ const cleanupWithin = time.Minute
 func copyToServer(ctx context.Context, src backend.Project, target string, opts CopyOptions) (rep CopyReport, err error) {
 	dst, err := backend.Create(target)
 	if err != nil {
-		return rep, fmt.Errorf("copy to %s: %w", target, err)
+		// The error names the server without the password that target
+		// may hold.
+		return rep, fmt.Errorf("copy: %w", err)
 	}
 	defer dst.Close()
 	mark, ok := dst.(CopyMarker)
