@@ -141,6 +141,14 @@ func (c *copier) classes(ctx context.Context) error {
 		if err != nil {
 			return fmt.Errorf("copy class %q: %w", cl.Name, err)
 		}
+		if cl.HotKey == "" && got.HotKey != "" {
+			// A class without a key gets a free one when added: take it
+			// back at once, before a later class needs it.
+			got.HotKey = ""
+			if err := c.dst.UpdateClass(ctx, got); err != nil {
+				return fmt.Errorf("copy class %q: %w", cl.Name, err)
+			}
+		}
 		c.class[cl.ID] = got.ID
 		c.opts.progress(CopyStageClasses, i+1, len(cs))
 	}

@@ -48,7 +48,8 @@ func (c *copyServer) database(t *testing.T) string {
 // richDemo is the demo with every kind of thing a copy must carry:
 // suggestions accepted, corrected, rejected and left pending, an accepted
 // label edited after its review, one deleted after it, imported labels
-// with a source and score, a class with a hot key and colour of its own,
+// with a source and score, a class with a colour of its own and the hot
+// key another class gave up,
 // a status set back to new, and two models (the older current).
 func richDemo(t *testing.T) string {
 	t.Helper()
@@ -65,7 +66,15 @@ func richDemo(t *testing.T) string {
 	defer s.Close()
 	ines, _ := s.AnnotatorByName(ctx, "Ines")
 	tomas, _ := s.AnnotatorByName(ctx, "Tomas")
-	buoy, err := s.AddClass(ctx, project.Class{Name: "mooring", Color: color.NRGBA{R: 10, G: 200, B: 30, A: 255}, HotKey: "m"})
+	// The first class loses its key and the new one takes it: a copy
+	// that let the store give the first class a free key would clash.
+	first, _ := s.ClassByName(ctx, "sailboat")
+	key := first.HotKey
+	first.HotKey = ""
+	if err := s.UpdateClass(ctx, first); err != nil {
+		t.Fatal(err)
+	}
+	buoy, err := s.AddClass(ctx, project.Class{Name: "mooring", Color: color.NRGBA{R: 10, G: 200, B: 30, A: 255}, HotKey: key})
 	if err != nil {
 		t.Fatal(err)
 	}
