@@ -271,6 +271,30 @@ func (c *copier) images(ctx context.Context) error {
 	return nil
 }
 
+// correctedBox is the box to replay the correction of g with, so that the
+// suggestion gets back its FinalIoU (its IoU with the box it was corrected
+// to, which review statistics read). The label's box is that box unless
+// the label was edited after the review or deleted; then the corrected
+// box is lost, and one with the same IoU stands in for it: g's box
+// narrowed to that share of its width (the IoU of a box with a part of
+// itself is the part's share of its area), or beside it for an IoU of 0.
+// The label is then brought to its current box.
+func correctedBox(g project.Suggestion, label project.Box, hasLabel bool) project.Box {
+	if hasLabel && g.Box.IoU(label) == g.FinalIoU {
+		return label
+	}
+	b := g.Box
+	switch w := b.X1 - b.X0; {
+	case g.FinalIoU > 0 && g.FinalIoU < 1:
+		b.X1 = b.X0 + w*g.FinalIoU
+	case g.FinalIoU <= 0:
+		b.X0, b.X1 = b.X1+1, b.X1+1+w
+	case hasLabel:
+		return label
+	}
+	return b
+}
+
 // imageName is the name an image keeps in a copy: its relative path, or
 // the base name of an absolute one (or of one that climbs out of its
 // folder).
@@ -432,17 +456,17 @@ func (c *copier) labels(ctx context.Context) error {
 	accept := func(g project.Suggestion, l project.Label, hasLabel bool) {
 		d := project.Decision{SuggestionID: c.sug[g.ID], Accept: true}
 		if g.State == project.SuggestionCorrected {
-			box, class := g.Box, g.ClassID
+			class := g.ClassID
 			if hasLabel {
-				box, class = l.Box, l.ClassID
+				class = l.ClassID
 			}
-			if box == g.Box && class == g.ClassID {
-				// The label was edited back to the suggestion after it was
-				// corrected: decide with a box a little off so that the
-				// state stays corrected, then bring it back below.
-				box.X1 = box.X0 + (box.X1-box.X0)*0.999
+			d.Box, d.ClassID = correctedBox(g, l.Box, hasLabel), c.class[class]
+			if d.Box == g.Box && class == g.ClassID {
+				// Corrected, yet box and class are the suggestion's again
+				// (edited back since): a box a little off keeps the state;
+				// the label is brought back below.
+				d.Box.X1 = d.Box.X0 + (d.Box.X1-d.Box.X0)*0.999
 			}
-			d.Box, d.ClassID = box, c.class[class]
 		}
 		decisions = append(decisions, d)
 		replays = append(replays, replay{target: l, sug: d.SuggestionID})

@@ -107,13 +107,20 @@ func richDemo(t *testing.T) string {
 		{SuggestionID: gs[6].ID},
 	})
 	must(err)
-	// gs[0]'s label moved after review, gs[4]'s deleted.
+	// gs[0]'s label (accepted) and gs[2]'s (corrected) moved after
+	// review, gs[4]'s (accepted) and gs[7]'s (corrected) deleted.
+	shrunk := gs[7].Box
+	shrunk.Y1 -= 4
+	made3, err := s.Decide(ctx, ines.ID, []project.Decision{{SuggestionID: gs[7].ID, Accept: true, Box: shrunk}})
+	must(err)
 	edited, err := s.Label(ctx, made2[gs[0].ID])
 	must(err)
 	edited.Box.X0 += 2
-	_, err = s.ApplyLabelChange(ctx, project.LabelChange{Update: []project.Label{edited}, Delete: []int64{made2[gs[4].ID]}})
+	edited2, err := s.Label(ctx, made[gs[2].ID])
 	must(err)
-	_ = made
+	edited2.Box.Y0 += 1.5
+	_, err = s.ApplyLabelChange(ctx, project.LabelChange{Update: []project.Label{edited, edited2}, Delete: []int64{made2[gs[4].ID], made3[gs[7].ID]}})
+	must(err)
 	ims, _ := s.Images(ctx)
 	must(s.SetImageStatus(ctx, ims[len(ims)-1].ID, ines.ID, project.StatusNew, 0))
 	must(s.SetImageStatus(ctx, ims[len(ims)-1].ID, tomas.ID, project.StatusSkipped, 0))
@@ -186,7 +193,7 @@ func takeSnapshot(t *testing.T, path string) snapshot {
 			l.Box, l.Origin, l.Source, l.Score, sugKey[l.SuggestionID]))
 	}
 	for _, g := range gs {
-		sn.Suggestions = append(sn.Suggestions, fmt.Sprintf("%s %s by %q label=%v iou=%.6f", sugKey[g.ID], g.State, annName[g.ReviewerID], g.LabelID != 0, g.FinalIoU))
+		sn.Suggestions = append(sn.Suggestions, fmt.Sprintf("%s %s by %q label=%v iou=%.12f", sugKey[g.ID], g.State, annName[g.ReviewerID], g.LabelID != 0, g.FinalIoU))
 	}
 	ms, _ := s.Models(ctx)
 	for _, m := range ms {
@@ -259,7 +266,7 @@ func TestCopyRoundTrip(t *testing.T) {
 
 	url := pg.database(t)
 	rep, stages := copyInto(t, orig, url)
-	if rep.Images != 6 || rep.Models != 2 || rep.Decided != 7 {
+	if rep.Images != 6 || rep.Models != 2 || rep.Decided != 8 {
 		t.Errorf("report to the server: %+v", rep)
 	}
 	for _, st := range []string{CopyStageClasses, CopyStageImages, CopyStageSuggestions, CopyStageLabels, CopyStageModels} {
