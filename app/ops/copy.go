@@ -414,6 +414,7 @@ func (c *copier) labels(ctx context.Context) error {
 		reviewer  int64 // of decisions
 		updates   []project.Label
 		done      int
+		madeLabel = map[int64]int64{} // by target suggestion
 	)
 	flushPlain := func() error {
 		if len(plain) == 0 {
@@ -436,9 +437,11 @@ func (c *copier) labels(ctx context.Context) error {
 			return fmt.Errorf("copy decisions: %w", err)
 		}
 		for _, d := range decisions {
-			if _, ok := got[d.SuggestionID]; !ok {
+			id, ok := got[d.SuggestionID]
+			if !ok {
 				return fmt.Errorf("copy decisions: suggestion %d made no label", d.SuggestionID)
 			}
+			madeLabel[d.SuggestionID] = id
 		}
 		c.rep.Decided += len(decisions)
 		done += len(decisions)
@@ -446,11 +449,13 @@ func (c *copier) labels(ctx context.Context) error {
 		c.opts.progress(CopyStageLabels, done, len(ls))
 		return nil
 	}
-	// labelOf maps target suggestion IDs back to the source label of each
-	// replayed acceptance, for the updates after.
+	// Each replayed acceptance with the label it must end as, for the
+	// updates after; madeLabel has the labels Decide made, by target
+	// suggestion.
 	type replay struct {
-		target project.Label // as it must end
-		sug    int64         // target suggestion
+		target project.Label      // as it must end
+		made   project.Decision   // as decided
+		g      project.Suggestion // the source suggestion
 	}
 	var replays []replay
 	accept := func(g project.Suggestion, l project.Label, hasLabel bool) {
@@ -469,7 +474,7 @@ func (c *copier) labels(ctx context.Context) error {
 			}
 		}
 		decisions = append(decisions, d)
-		replays = append(replays, replay{target: l, sug: d.SuggestionID})
+		replays = append(replays, replay{target: l, made: d, g: g})
 	}
 	for _, l := range ls {
 		if ctx.Err() != nil {
@@ -542,40 +547,36 @@ func (c *copier) labels(ctx context.Context) error {
 			return fmt.Errorf("copy decisions: %w", err)
 		}
 		c.rep.Decided += len(byReviewer[r])
+		var del []int64
 		for _, s := range gone {
 			if id, ok := got[s]; ok {
-				if _, err := c.dst.ApplyLabelChange(ctx, project.LabelChange{Delete: []int64{id}}); err != nil {
-					return fmt.Errorf("copy decisions: remove the label of suggestion %d that was deleted in the source: %w", s, err)
-				}
+				del = append(del, id)
+			}
+		}
+		if len(del) > 0 {
+			if _, err := c.dst.ApplyLabelChange(ctx, project.LabelChange{Delete: del}); err != nil {
+				return fmt.Errorf("copy decisions: remove the %d labels deleted in the source after review: %w", len(del), err)
 			}
 		}
 	}
-	// Bring the labels made by review to their current box and class.
-	if len(replays) > 0 {
-		now, err := c.dst.Suggestions(ctx, project.SuggestionFilter{})
-		if err != nil {
-			return fmt.Errorf("copy decisions: %w", err)
+	// Bring the labels made by review to their current box and class
+	// (the box and class of a decision are the suggestion's where zero).
+	for _, r := range replays {
+		box, class := r.made.Box, r.made.ClassID
+		if box == (project.Box{}) {
+			box = r.g.Box
 		}
-		labelOf := map[int64]int64{}
-		for _, g := range now {
-			labelOf[g.ID] = g.LabelID
+		if class == 0 {
+			class = c.class[r.g.ClassID]
 		}
-		for _, r := range replays {
-			id := labelOf[r.sug]
-			cur, err := c.dst.Label(ctx, id)
-			if err != nil {
-				return fmt.Errorf("copy decisions: label of suggestion %d: %w", r.sug, err)
-			}
-			want := c.class[r.target.ClassID]
-			if cur.Box != r.target.Box || cur.ClassID != want {
-				cur.Box, cur.ClassID = r.target.Box, want
-				updates = append(updates, cur)
-			}
+		want := project.Label{ID: madeLabel[r.made.SuggestionID], Box: r.target.Box, ClassID: c.class[r.target.ClassID]}
+		if want.Box != box || want.ClassID != class {
+			updates = append(updates, want)
 		}
-		if len(updates) > 0 {
-			if _, err := c.dst.ApplyLabelChange(ctx, project.LabelChange{Update: updates}); err != nil {
-				return fmt.Errorf("copy labels edited after review: %w", err)
-			}
+	}
+	if len(updates) > 0 {
+		if _, err := c.dst.ApplyLabelChange(ctx, project.LabelChange{Update: updates}); err != nil {
+			return fmt.Errorf("copy labels edited after review: %w", err)
 		}
 	}
 	c.rep.Labels = len(ls)
