@@ -176,7 +176,9 @@ func (c *copier) annotators(ctx context.Context) error {
 // file refers to the source's files; one filled from a server gets the
 // bytes written under opts.ImageDir with the images' names; a server gets
 // the bytes uploaded under the images' names (relative paths kept, an
-// absolute path by its base name).
+// absolute path by its base name), from a temporary folder of links to
+// the files (of copies, when they come from another server's bounded
+// image cache).
 func (c *copier) images(ctx context.Context) error {
 	ims, err := c.src.Images(ctx)
 	if err != nil {
@@ -213,7 +215,13 @@ func (c *copier) images(ctx context.Context) error {
 			if err := os.MkdirAll(filepath.Dir(link), 0o755); err != nil {
 				return fmt.Errorf("copy image %s: %w", im.Path, err)
 			}
-			if err := os.Symlink(local, link); err != nil {
+			if fromServer {
+				// The image cache is bounded: a copy of the bytes, not a
+				// link, so that later fetches cannot evict them first.
+				if err := copyFile(local, link); err != nil {
+					return fmt.Errorf("copy image %s: %w", im.Path, err)
+				}
+			} else if err := os.Symlink(local, link); err != nil {
 				return fmt.Errorf("copy image %s: %w", im.Path, err)
 			}
 		case fromServer:
