@@ -2,7 +2,7 @@
 // table in commands; each family of commands has its own file (project.go:
 // new, open, add-images, relink, classes, info, images; dataset.go: import,
 // export; suggestions.go; similar.go; eval.go; agree.go: agree, consensus;
-// kappa.go; demo.go). A command parses its flags with parse, does its work
+// kappa.go; copy.go; demo.go). A command parses its flags with parse, does its work
 // through package ops, and prints text or JSON; the window is handed in by
 // main, so this package needs no GUI toolkit.
 package cli
@@ -61,6 +61,7 @@ func commands(window Window) map[string]command {
 		"detect":      cmdDetect,
 		"team":        cmdTeam,
 		"assign":      cmdAssign,
+		"copy":        cmdCopy,
 		"demo":        func(args []string, stdout, stderr io.Writer) error { return cmdDemo(args, stdout, stderr, window) },
 	}
 }

@@ -60,6 +60,8 @@ Commands:
                                         run the current (or named) model
   models PROJECT.boxw [--use NAME] [--json]
                                         the detectors trained here (--use: make current)
+  copy FROM TO [--json]                 copy a whole project into a new one, between files
+                                        and servers (postgres://... or @NAME), all or nothing
   demo DIR [--no-open] [--seed N]       make the invented harbour demo in DIR
   team PROJECT list | add NAME --role annotator|reviewer|owner | remove NAME
                                         the members of a server project

@@ -105,6 +105,12 @@ func open(ctx context.Context, dsn string, create bool) (*Store, error) {
 		s.pool.Close()
 		return nil, err
 	}
+	if !create {
+		if err := s.checkCopyFinished(ctx); err != nil {
+			s.pool.Close()
+			return nil, err
+		}
+	}
 	return s, nil
 }
 
