@@ -67,3 +67,9 @@ type ImageCache interface {
 	ImageCacheUse() (CacheUse, error)
 	ClearImageCache() error
 }
+
+// Thumbnails are small pictures a server project stores once for every
+// member, so that an image list needs no image's bytes.
+type Thumbnails interface {
+	Thumbnail(ctx context.Context, imageID int64) ([]byte, error)
+}

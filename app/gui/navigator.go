@@ -1,6 +1,8 @@
 package gui
 
 import (
+	"bytes"
+	"context"
 	"fmt"
 	"image"
 	"path/filepath"
@@ -14,6 +16,7 @@ import (
 	"fyne.io/fyne/v2/theme"
 	"fyne.io/fyne/v2/widget"
 
+	"boxwright/app/backend"
 	"boxwright/app/ops"
 	"boxwright/project"
 	"boxwright/store/imagefile"
@@ -50,8 +53,8 @@ type navigator struct {
 }
 
 type thumbJob struct {
-	id    int64
-	where locate
+	id   int64
+	load func() (image.Image, error)
 }
 
 func newNavigator(u *ui) *navigator {
@@ -213,7 +216,7 @@ func (n *navigator) updateRow(row widget.ListItemID, o fyne.CanvasObject) {
 	t, ok := n.thumbs[im.ID]
 	n.mu.Unlock()
 	if !ok {
-		n.request(im.ID, fileOf(st, im))
+		n.request(im.ID, n.thumbSource(st, im))
 	}
 	if thumb.Image != t {
 		thumb.Image = t
@@ -241,7 +244,7 @@ var backgroundThumbnails = true
 
 // request asks for a thumbnail; the newest requests are served first,
 // since those are the rows on screen.
-func (n *navigator) request(id int64, where locate) {
+func (n *navigator) request(id int64, load func() (image.Image, error)) {
 	if !backgroundThumbnails {
 		return
 	}
@@ -252,7 +255,7 @@ func (n *navigator) request(id int64, where locate) {
 			return
 		}
 	}
-	n.want = append(n.want, thumbJob{id, where})
+	n.want = append(n.want, thumbJob{id, load})
 	if len(n.want) > 64 {
 		n.want = n.want[len(n.want)-64:] // rows long scrolled past
 	}
@@ -277,7 +280,7 @@ func (n *navigator) thumbWorker() {
 			var t image.Image
 			if p := n.u.cache.Ready(j.id); p != nil {
 				t = imagefile.Thumbnail(p.Level(p.Levels()-1), thumbSide)
-			} else if img, err := decodeAt(j.where); err == nil {
+			} else if img, err := j.load(); err == nil {
 				t = imagefile.Thumbnail(img, thumbSide)
 			} else {
 				t = image.NewRGBA(image.Rect(0, 0, 4, 3)) // unreadable: an empty tile, the row says why when opened
@@ -299,13 +302,35 @@ func (n *navigator) thumbWorker() {
 	}
 }
 
-func decodeAt(where locate) (image.Image, error) {
-	path, err := where()
-	if err != nil {
-		return nil, err
+// thumbSource reads the picture an image's thumbnail is made from: a
+// server project's stored thumbnail (no image bytes are fetched for the
+// list), else the image itself.
+func (n *navigator) thumbSource(st backend.Project, im project.Image) func() (image.Image, error) {
+	fromFile := func() (image.Image, error) {
+		path, err := fileOf(st, im)()
+		if err != nil {
+			return nil, err
+		}
+		img, _, err := imagefile.Decode(path, imagefile.DefaultMaxPixels)
+		return img, err
 	}
-	img, _, err := imagefile.Decode(path, imagefile.DefaultMaxPixels)
-	return img, err
+	th, ok := st.(backend.Thumbnails)
+	if !ok {
+		if raw, isRaw := n.u.raw.(backend.Thumbnails); isRaw {
+			th, ok = raw, true // st wraps it for the edit trace
+		}
+	}
+	if !ok {
+		return fromFile
+	}
+	return func() (image.Image, error) {
+		if b, err := th.Thumbnail(context.Background(), im.ID); err == nil && len(b) > 0 {
+			if img, _, err := image.Decode(bytes.NewReader(b)); err == nil {
+				return img, nil
+			}
+		}
+		return fromFile() // none stored, or unreadable: made from the image
+	}
 }
 
 // refreshImage redraws the row of one image.

@@ -136,6 +136,12 @@ func TestTwoWindowsSeeEachOther(t *testing.T) {
 		t.Errorf("humanBytes(3 MiB) = %q", got)
 	}
 
+	// The image list's thumbnails are the server's stored ones (192 px
+	// at most), not made from the 320 px image.
+	if img, err := tomas.nav.thumbSource(tomas.st, tomas.images[1])(); err != nil || img.Bounds().Dx() > 192 {
+		t.Errorf("thumbnail source: %v, %v; want the stored thumbnail", img.Bounds(), err)
+	}
+
 	// What an annotator may not do is off, with the reason.
 	if !strings.Contains(tomas.bar.lockedWhy, "owners change classes") || !tomas.bar.addBtn.Disabled() {
 		t.Errorf("class tools for an annotator: %q, add disabled %v", tomas.bar.lockedWhy, tomas.bar.addBtn.Disabled())
