@@ -156,6 +156,7 @@ type ui struct {
 	stopClaim func()
 	alsoHere  string
 	claimsBy  map[int64][]string // others on each image, for the list
+	assigned  map[int64]bool     // images handed to this person (nil: none handed out)
 	// onChanges, when set (tests), hears each batch of others' changes
 	// after the screen was brought up to date.
 	onChanges func([]backend.Change)
@@ -303,7 +304,8 @@ func (u *ui) menu() *fyne.MainMenu {
 	addFolder := keyed("Add image folder…", fyne.KeyI, 0, u.askAddFolder)
 	addFiles := fyne.NewMenuItem("Add image files…", u.askAddFile)
 	relink := fyne.NewMenuItem("Find moved images…", u.askRelink)
-	u.ownerItems = []*fyne.MenuItem{addFolder, addFiles, relink}
+	handOut := fyne.NewMenuItem("Hand out images…", u.askHandOut)
+	u.ownerItems = []*fyne.MenuItem{addFolder, addFiles, relink, handOut}
 	file := fyne.NewMenu("Project",
 		keyed("New project…", fyne.KeyN, 0, u.askNew),
 		keyed("Open project…", fyne.KeyO, 0, u.askOpen),
@@ -333,6 +335,8 @@ func (u *ui) menu() *fyne.MainMenu {
 		fyne.NewMenuItemSeparator(),
 		fyne.NewMenuItem("First image (Home)", func() { u.selectIndex(0) }),
 		fyne.NewMenuItem("Last image (End)", func() { u.selectIndex(len(u.images) - 1) }),
+		fyne.NewMenuItemSeparator(),
+		handOut,
 	)
 	view := fyne.NewMenu("View",
 		fyne.NewMenuItem("Fit image to window (F)", u.view.FitToWindow),
@@ -501,6 +505,8 @@ func (u *ui) showProject(path string, s backend.Project, why string) error {
 	u.updateStatus()
 	u.reportMissing()
 	u.applyRole(s)
+	u.readAssignments()
+	u.nav.reload()
 	if w, ok := s.(watcher); ok {
 		u.watchChanges(w)
 	}

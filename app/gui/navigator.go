@@ -33,6 +33,9 @@ const (
 	anyStatus    = "any status"
 	anyClass     = "any class"
 	anyAnnotator = "anyone"
+	// handedToMe shows the images a server project's owner handed to
+	// the person (Images ▸ Hand out images…).
+	handedToMe = "handed to me"
 )
 
 // navigator is the image list beside the view: thumbnails, status, box
@@ -101,6 +104,9 @@ func (n *navigator) reload() {
 		cls = append(cls, "with "+c.Name)
 	}
 	who := []string{anyAnnotator}
+	if u.assigned != nil {
+		who = append(who, handedToMe)
+	}
 	for _, a := range u.annotators {
 		who = append(who, "labelled by "+a.Name)
 	}
@@ -150,6 +156,9 @@ func (n *navigator) apply() {
 	n.shown = n.shown[:0]
 	for i, im := range u.images {
 		if n.status.Selected != anyStatus && n.status.Selected != "" && statusWord(im.Status) != n.status.Selected {
+			continue
+		}
+		if n.who.Selected == handedToMe && !u.assigned[im.ID] {
 			continue
 		}
 		switch {

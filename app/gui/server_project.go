@@ -3,6 +3,8 @@ package gui
 import (
 	"context"
 	"fmt"
+	"slices"
+	"strconv"
 	"strings"
 	"sync"
 	"time"
@@ -133,6 +135,13 @@ func (u *ui) applyChanges(cs []backend.Change) {
 			break
 		}
 	}
+	for _, c := range cs {
+		if c.Table == "assignments" || c.Table == "*" {
+			u.readAssignments()
+			u.nav.reload()
+			break
+		}
+	}
 	if here && sel == u.imageID {
 		u.reloadSuggestions()
 		u.loadOthers()
@@ -150,6 +159,16 @@ func (u *ui) applyChanges(cs []backend.Change) {
 // A project file has no roles.
 func (u *ui) applyRole(s backend.Project) {
 	u.role, u.bar.lockedWhy = "", ""
+	defer func() {
+		allowed := u.role == "" || u.role == postgres.KindOwner
+		for _, it := range u.ownerItems {
+			it.Disabled = !allowed
+		}
+		if mm := u.win.MainMenu(); mm != nil {
+			mm.Refresh()
+		}
+		u.updateClassBar()
+	}()
 	m, ok := s.(backend.Membership)
 	if !ok {
 		return
@@ -164,14 +183,6 @@ func (u *ui) applyRole(s backend.Project) {
 			u.bar.lockedWhy = fmt.Sprintf("Only the project's owners change classes; you are %s here.", withArticle(me.Kind))
 		}
 	}
-	owner := u.role == postgres.KindOwner
-	for _, it := range u.ownerItems {
-		it.Disabled = !owner
-	}
-	if mm := u.win.MainMenu(); mm != nil {
-		mm.Refresh()
-	}
-	u.updateClassBar()
 }
 
 // mayDecide refuses a decision on suggestions by someone whose role in a
@@ -345,4 +356,79 @@ func humanBytes(n int64) string {
 		i++
 	}
 	return fmt.Sprintf("%.1f %s", v, suffix[i])
+}
+
+// readAssignments reads which images were handed to this person (a server
+// project; nil for a file, which has no assignments) for the image list's
+// "handed to me".
+func (u *ui) readAssignments() {
+	a, ok := u.raw.(backend.Assigner)
+	if !ok {
+		u.assigned = nil
+		return
+	}
+	plan, err := a.Assignments(context.Background())
+	if err != nil {
+		return // kept as it was; the next change tries again
+	}
+	mine := map[int64]bool{}
+	for im, to := range plan {
+		if slices.Contains(to, u.me.ID) {
+			mine[im] = true
+		}
+	}
+	u.assigned = mine
+}
+
+// askHandOut asks an owner to hand the images out: to which annotators,
+// and to how many of them each image goes.
+func (u *ui) askHandOut() {
+	a, ok := u.raw.(backend.Assigner)
+	if !ok || !u.haveProject() {
+		dialog.ShowInformation("Hand out images", "Images are handed out in a server project; in a project file everyone sees every image.", u.win)
+		return
+	}
+	var names []string
+	for _, an := range u.annotators {
+		names = append(names, an.Name)
+	}
+	who := widget.NewCheckGroup(names, nil)
+	each := widget.NewEntry()
+	each.SetText("1")
+	note := widget.NewLabel("Each image goes to this many of the annotators ticked, spread evenly: 1 gives disjoint batches; all of them, an agreement study. Earlier hand-outs of the images are replaced.")
+	note.Wrapping = fyne.TextWrapWord
+	d := dialog.NewForm("Hand out images", "Hand out", "Cancel", []*widget.FormItem{
+		widget.NewFormItem("Annotators", who),
+		widget.NewFormItem("Each image to", each),
+		widget.NewFormItem("", note),
+	}, func(ok bool) {
+		if !ok {
+			return
+		}
+		k, err := strconv.Atoi(strings.TrimSpace(each.Text))
+		if err != nil || k < 1 || k > len(who.Selected) {
+			u.showError(fmt.Errorf("each image goes to a whole number of the %d annotators ticked, from 1 to %d", len(who.Selected), max(1, len(who.Selected))))
+			return
+		}
+		var ids, ims []int64
+		for _, an := range u.annotators {
+			if slices.Contains(who.Selected, an.Name) {
+				ids = append(ids, an.ID)
+			}
+		}
+		for _, im := range u.images {
+			ims = append(ims, im.ID)
+		}
+		plan, err := a.Assign(context.Background(), ims, ids, k)
+		if err != nil {
+			u.showError(err)
+			return
+		}
+		u.readAssignments()
+		u.nav.reload()
+		u.status.SetText(fmt.Sprintf("%s handed out, each to %d of %s.", ops.Plural(len(plan), "image"), k, strings.Join(who.Selected, ", ")))
+	}, u.win)
+	d.SetOnClosed(u.giveKeysBack)
+	d.Resize(fyne.NewSize(520, 0))
+	d.Show()
 }

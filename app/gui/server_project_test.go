@@ -185,3 +185,41 @@ func TestServerRestartLosesNoEdit(t *testing.T) {
 		t.Fatalf("labels after the restart: %d, %v; want both boxes", len(ls), err)
 	}
 }
+
+// An owner hands the images out in the window; the annotator's image list
+// can then show only the images handed to them, and follows a new
+// hand-out by itself.
+func TestHandOutImages(t *testing.T) {
+	srv := teamServer(t)
+	srv.Exec(t, "postgres", `ALTER ROLE olga PASSWORD 'olga-pw'`)
+	olga := newUI(test.NewTempApp(t))
+	olga.win.Resize(fyne.NewSize(1000, 700))
+	if err := olga.openProject(srv.URL("olga", "olga-pw", "harbour")); err != nil {
+		t.Fatal(err)
+	}
+	t.Cleanup(olga.closeProject)
+	for _, it := range olga.ownerItems {
+		if it.Disabled {
+			t.Errorf("%q is off for the owner", it.Label)
+		}
+	}
+	tomas, decoded := openServerAs(t, srv, "tomas")
+	waitDecoded(t, decoded)
+	if len(tomas.assigned) != 0 {
+		t.Fatalf("handed to tomas before any hand-out: %v", tomas.assigned)
+	}
+	a := olga.raw.(backend.Assigner)
+	var ids []int64
+	for _, an := range olga.annotators {
+		ids = append(ids, an.ID)
+	}
+	ims := []int64{olga.images[0].ID, olga.images[1].ID}
+	if _, err := a.Assign(context.Background(), ims, ids, 1); err != nil {
+		t.Fatal(err)
+	}
+	waitFor(t, "tomas's window hears of the hand-out", func() bool { return len(tomas.assigned) == 1 })
+	tomas.nav.who.SetSelected(handedToMe)
+	if len(tomas.nav.shown) != 1 {
+		t.Errorf("handed to me shows %d images, want 1", len(tomas.nav.shown))
+	}
+}
