@@ -20,6 +20,7 @@ import (
 func (s *Store) ExportImages(ctx context.Context, annotatorID int64) ([]string, []formats.ExportImage, error) {
 	var classes []string
 	var out []formats.ExportImage
+	var exported []project.Image // the image of each out entry
 	err := pgx.BeginTxFunc(ctx, s.pool, pgx.TxOptions{IsoLevel: pgx.RepeatableRead, AccessMode: pgx.ReadOnly}, func(tx pgx.Tx) error {
 		rows, err := tx.Query(ctx, "SELECT id, name FROM classes ORDER BY position, id")
 		if err != nil {
@@ -71,28 +72,22 @@ func (s *Store) ExportImages(ctx context.Context, annotatorID int64) ([]string, 
 			}
 			out = append(out, formats.ExportImage{
 				Record: formats.ImageRecord{Name: im.Path, Width: im.Width, Height: im.Height, Depth: 3, Boxes: boxes, Where: im.Path},
-				File:   s.exportFile(im),
 				Key:    im.SHA256,
 			})
+			exported = append(exported, im)
 		}
 		return nil
 	})
 	if err != nil {
 		return nil, nil, fmt.Errorf("gather labels of annotator %d for export: %w", annotatorID, s.translate(err))
 	}
+	// The files are fetched into this machine's cache after the read,
+	// not while it holds the snapshot.
+	for i, im := range exported {
+		out[i].File = s.ImagePath(im)
+	}
 	if classes == nil {
 		classes = []string{}
 	}
 	return classes, out, nil
-}
-
-// exportFile is the image's file on this machine. Where a server
-// project's images lie on a client (its image cache) is the business of
-// the images part of this package (ImagePath); until the Store has that
-// method, File is left empty.
-func (s *Store) exportFile(im project.Image) string {
-	if p, ok := any(s).(interface{ ImagePath(project.Image) string }); ok {
-		return p.ImagePath(im)
-	}
-	return ""
 }
