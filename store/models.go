@@ -2,9 +2,7 @@ package store
 
 import (
 	"context"
-	"crypto/sha256"
 	"database/sql"
-	"encoding/hex"
 	"encoding/json"
 	"errors"
 	"fmt"
@@ -14,51 +12,6 @@ import (
 )
 
 const modelCols = "id, name, architecture, classes, input_size, trained_on, seed, epochs, val_ap50, is_current, created_at, updated_at"
-
-// epochRow is an Epoch as stored: JSON has no NaN, so an unknown AP50 is
-// null.
-type epochRow struct {
-	Epoch   int      `json:"epoch"`
-	Loss    float64  `json:"loss"`
-	ValAP50 *float64 `json:"val_ap50"`
-	Seconds float64  `json:"seconds"`
-}
-
-func encodeEpochs(es []project.Epoch) (string, error) {
-	rows := make([]epochRow, len(es))
-	for i, e := range es {
-		rows[i] = epochRow{Epoch: e.Epoch, Loss: e.Loss, Seconds: e.Seconds}
-		if !math.IsNaN(e.ValAP50) && !math.IsInf(e.ValAP50, 0) {
-			v := e.ValAP50
-			rows[i].ValAP50 = &v
-		}
-		if math.IsNaN(e.Loss) || math.IsInf(e.Loss, 0) {
-			return "", project.Explained(project.ErrInvalid, "epoch %d: loss %v is not a number", e.Epoch, e.Loss)
-		}
-	}
-	b, err := json.Marshal(rows)
-	return string(b), err
-}
-
-func decodeEpochs(s string) ([]project.Epoch, error) {
-	var rows []epochRow
-	if err := json.Unmarshal([]byte(s), &rows); err != nil {
-		return nil, err
-	}
-	out := make([]project.Epoch, len(rows))
-	for i, r := range rows {
-		out[i] = project.Epoch{Epoch: r.Epoch, Loss: r.Loss, Seconds: r.Seconds, ValAP50: math.NaN()}
-		if r.ValAP50 != nil {
-			out[i].ValAP50 = *r.ValAP50
-		}
-	}
-	return out, nil
-}
-
-func weightsSum(b []byte) string {
-	sum := sha256.Sum256(b)
-	return hex.EncodeToString(sum[:])
-}
 
 // scanModel reads the modelCols of a row, and extra destinations after
 // them.
@@ -82,27 +35,10 @@ func scanModel(row interface{ Scan(...any) error }, extra ...any) (project.Model
 		return m, project.Explained(project.ErrInvalid, "model %q: its class list is damaged: %v", m.Name, err)
 	}
 	var err error
-	if m.Epochs, err = decodeEpochs(epochs); err != nil {
+	if m.Epochs, err = project.DecodeEpochs(epochs); err != nil {
 		return m, project.Explained(project.ErrInvalid, "model %q: its learning curve is damaged: %v", m.Name, err)
 	}
 	return m, nil
-}
-
-func checkModel(m project.Model) error {
-	if err := project.ValidateName("model", m.Name); err != nil {
-		return project.Explained(project.ErrInvalid, "%v", err)
-	}
-	switch {
-	case m.Architecture == "":
-		return project.Explained(project.ErrInvalid, "model %q: no architecture", m.Name)
-	case len(m.Classes) == 0:
-		return project.Explained(project.ErrInvalid, "model %q: no classes", m.Name)
-	case m.InputSize <= 0:
-		return project.Explained(project.ErrInvalid, "model %q: input size %d", m.Name, m.InputSize)
-	case len(m.Weights) == 0:
-		return project.Explained(project.ErrInvalid, "model %q: no weights", m.Name)
-	}
-	return nil
 }
 
 func nullAP(v float64) any {
@@ -134,7 +70,7 @@ func (s *Store) AddModel(ctx context.Context, m project.Model) (project.Model, e
 				}
 			}
 		}
-		if err := checkModel(m); err != nil {
+		if err := m.Check(); err != nil {
 			return err
 		}
 		var count int
@@ -151,7 +87,7 @@ func (s *Store) AddModel(ctx context.Context, m project.Model) (project.Model, e
 		if err != nil {
 			return err
 		}
-		epochs, err := encodeEpochs(m.Epochs)
+		epochs, err := project.EncodeEpochs(m.Epochs)
 		if err != nil {
 			return err
 		}
@@ -160,7 +96,7 @@ func (s *Store) AddModel(ctx context.Context, m project.Model) (project.Model, e
 		res, err := tx.ExecContext(ctx, `INSERT INTO models(name, architecture, classes, input_size, trained_on, seed, epochs, val_ap50, weights, weights_sha256, is_current, created_at, updated_at)
 			VALUES (?,?,?,?,?,?,?,?,?,?,?,?,?)`,
 			m.Name, m.Architecture, string(classes), m.InputSize, m.TrainedOn, int64(m.Seed), epochs, nullAP(m.ValAP50),
-			m.Weights, weightsSum(m.Weights), boolInt(m.Current), formatTime(now), formatTime(now))
+			m.Weights, project.WeightsSum(m.Weights), boolInt(m.Current), formatTime(now), formatTime(now))
 		if err != nil {
 			return s.translate(err)
 		}
@@ -176,10 +112,10 @@ func (s *Store) AddModel(ctx context.Context, m project.Model) (project.Model, e
 // UpdateModel replaces a model's weights, learning curve, figures and
 // description (training continued from it), by ID.
 func (s *Store) UpdateModel(ctx context.Context, m project.Model) error {
-	if err := checkModel(m); err != nil {
+	if err := m.Check(); err != nil {
 		return fmt.Errorf("update model: %w", s.damaged(err))
 	}
-	epochs, err := encodeEpochs(m.Epochs)
+	epochs, err := project.EncodeEpochs(m.Epochs)
 	if err != nil {
 		return fmt.Errorf("update model %q: %w", m.Name, err)
 	}
@@ -189,7 +125,7 @@ func (s *Store) UpdateModel(ctx context.Context, m project.Model) error {
 	}
 	return s.updateOne(ctx, fmt.Sprintf("update model %q", m.Name),
 		`UPDATE models SET classes = ?, input_size = ?, trained_on = ?, seed = ?, epochs = ?, val_ap50 = ?, weights = ?, weights_sha256 = ?, updated_at = ? WHERE id = ?`,
-		string(classes), m.InputSize, m.TrainedOn, int64(m.Seed), epochs, nullAP(m.ValAP50), m.Weights, weightsSum(m.Weights), formatTime(s.now()), m.ID)
+		string(classes), m.InputSize, m.TrainedOn, int64(m.Seed), epochs, nullAP(m.ValAP50), m.Weights, project.WeightsSum(m.Weights), formatTime(s.now()), m.ID)
 }
 
 // Models lists the models, oldest first, without their weights.
@@ -220,7 +156,7 @@ func (s *Store) modelWhere(ctx context.Context, what, where string, args ...any)
 	if err != nil {
 		return m, fmt.Errorf("read the %s: %w", what, err)
 	}
-	if weightsSum(weights) != sum {
+	if project.WeightsSum(weights) != sum {
 		return m, project.Explained(project.ErrInvalid, "read the %s: its weights are damaged (checksum mismatch); train it again or delete it", what)
 	}
 	m.Weights = weights

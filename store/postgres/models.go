@@ -2,8 +2,6 @@ package postgres
 
 import (
 	"context"
-	"crypto/sha256"
-	"encoding/hex"
 	"encoding/json"
 	"fmt"
 	"math"
@@ -14,52 +12,6 @@ import (
 )
 
 const modelCols = "id, name, architecture, classes, input_size, trained_on, seed, epochs, val_ap50, is_current, created_at, updated_at"
-
-// epochRow is an Epoch as stored: JSON has no NaN, so an unknown AP50 is
-// null (the same text as in the file backend, so that a copy between
-// backends moves it unchanged).
-type epochRow struct {
-	Epoch   int      `json:"epoch"`
-	Loss    float64  `json:"loss"`
-	ValAP50 *float64 `json:"val_ap50"`
-	Seconds float64  `json:"seconds"`
-}
-
-func encodeEpochs(es []project.Epoch) (string, error) {
-	rows := make([]epochRow, len(es))
-	for i, e := range es {
-		rows[i] = epochRow{Epoch: e.Epoch, Loss: e.Loss, Seconds: e.Seconds}
-		if !math.IsNaN(e.ValAP50) && !math.IsInf(e.ValAP50, 0) {
-			v := e.ValAP50
-			rows[i].ValAP50 = &v
-		}
-		if math.IsNaN(e.Loss) || math.IsInf(e.Loss, 0) {
-			return "", project.Explained(project.ErrInvalid, "epoch %d: loss %v is not a number", e.Epoch, e.Loss)
-		}
-	}
-	b, err := json.Marshal(rows)
-	return string(b), err
-}
-
-func decodeEpochs(s string) ([]project.Epoch, error) {
-	var rows []epochRow
-	if err := json.Unmarshal([]byte(s), &rows); err != nil {
-		return nil, err
-	}
-	out := make([]project.Epoch, len(rows))
-	for i, r := range rows {
-		out[i] = project.Epoch{Epoch: r.Epoch, Loss: r.Loss, Seconds: r.Seconds, ValAP50: math.NaN()}
-		if r.ValAP50 != nil {
-			out[i].ValAP50 = *r.ValAP50
-		}
-	}
-	return out, nil
-}
-
-func weightsSum(b []byte) string {
-	sum := sha256.Sum256(b)
-	return hex.EncodeToString(sum[:])
-}
 
 // scanModel reads the modelCols of a row, and extra destinations after
 // them.
@@ -82,27 +34,10 @@ func scanModel(row pgx.Row, extra ...any) (project.Model, error) {
 		return m, project.Explained(project.ErrInvalid, "model %q: its class list is damaged: %v", m.Name, err)
 	}
 	var err error
-	if m.Epochs, err = decodeEpochs(epochs); err != nil {
+	if m.Epochs, err = project.DecodeEpochs(epochs); err != nil {
 		return m, project.Explained(project.ErrInvalid, "model %q: its learning curve is damaged: %v", m.Name, err)
 	}
 	return m, nil
-}
-
-func checkModel(m project.Model) error {
-	if err := project.ValidateName("model", m.Name); err != nil {
-		return project.Explained(project.ErrInvalid, "%v", err)
-	}
-	switch {
-	case m.Architecture == "":
-		return project.Explained(project.ErrInvalid, "model %q: no architecture", m.Name)
-	case len(m.Classes) == 0:
-		return project.Explained(project.ErrInvalid, "model %q: no classes", m.Name)
-	case m.InputSize <= 0:
-		return project.Explained(project.ErrInvalid, "model %q: input size %d", m.Name, m.InputSize)
-	case len(m.Weights) == 0:
-		return project.Explained(project.ErrInvalid, "model %q: no weights", m.Name)
-	}
-	return nil
 }
 
 func nullAP(v float64) *float64 {
@@ -139,7 +74,7 @@ func (s *Store) AddModel(ctx context.Context, m project.Model) (project.Model, e
 				}
 			}
 		}
-		if err := checkModel(m); err != nil {
+		if err := m.Check(); err != nil {
 			return err
 		}
 		var count int
@@ -156,14 +91,14 @@ func (s *Store) AddModel(ctx context.Context, m project.Model) (project.Model, e
 		if err != nil {
 			return err
 		}
-		epochs, err := encodeEpochs(m.Epochs)
+		epochs, err := project.EncodeEpochs(m.Epochs)
 		if err != nil {
 			return err
 		}
 		return tx.QueryRow(ctx, `INSERT INTO models(name, architecture, classes, input_size, trained_on, seed, epochs, val_ap50, weights, weights_sha256, is_current)
 			VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11) RETURNING id, created_at, updated_at`,
 			m.Name, m.Architecture, string(classes), m.InputSize, m.TrainedOn, int64(m.Seed), epochs, nullAP(m.ValAP50),
-			m.Weights, weightsSum(m.Weights), m.Current).Scan(&m.ID, &m.Created, &m.Updated)
+			m.Weights, project.WeightsSum(m.Weights), m.Current).Scan(&m.ID, &m.Created, &m.Updated)
 	})
 	if err != nil {
 		return project.Model{}, fmt.Errorf("store model %q: %w", m.Name, err)
@@ -175,10 +110,10 @@ func (s *Store) AddModel(ctx context.Context, m project.Model) (project.Model, e
 // UpdateModel replaces a model's weights, learning curve, figures and
 // description (training continued from it), by ID.
 func (s *Store) UpdateModel(ctx context.Context, m project.Model) error {
-	if err := checkModel(m); err != nil {
+	if err := m.Check(); err != nil {
 		return fmt.Errorf("update model: %w", err)
 	}
-	epochs, err := encodeEpochs(m.Epochs)
+	epochs, err := project.EncodeEpochs(m.Epochs)
 	if err != nil {
 		return fmt.Errorf("update model %q: %w", m.Name, err)
 	}
@@ -188,7 +123,7 @@ func (s *Store) UpdateModel(ctx context.Context, m project.Model) error {
 	}
 	return s.tx(ctx, func(tx pgx.Tx) error {
 		tag, err := tx.Exec(ctx, `UPDATE models SET classes = $1, input_size = $2, trained_on = $3, seed = $4, epochs = $5, val_ap50 = $6, weights = $7, weights_sha256 = $8, updated_at = now() WHERE id = $9`,
-			string(classes), m.InputSize, m.TrainedOn, int64(m.Seed), epochs, nullAP(m.ValAP50), m.Weights, weightsSum(m.Weights), m.ID)
+			string(classes), m.InputSize, m.TrainedOn, int64(m.Seed), epochs, nullAP(m.ValAP50), m.Weights, project.WeightsSum(m.Weights), m.ID)
 		if err != nil {
 			return fmt.Errorf("update model %q: %w", m.Name, s.translate(err))
 		}
@@ -233,7 +168,7 @@ func (s *Store) modelWhere(ctx context.Context, what, where string, args ...any)
 	if err != nil {
 		return m, fmt.Errorf("read %s: %w", what, s.translate(err))
 	}
-	if weightsSum(weights) != sum {
+	if project.WeightsSum(weights) != sum {
 		return m, project.Explained(project.ErrInvalid, "read %s: its weights are damaged (checksum mismatch); train it again or delete it", what)
 	}
 	m.Weights = weights
