@@ -4,16 +4,13 @@ import (
 	"context"
 	"errors"
 	"fmt"
-	"io/fs"
 	"os"
 	"path/filepath"
 	"runtime"
-	"sort"
 	"strings"
 	"sync"
 
 	"boxwright/project"
-	"boxwright/project/formats"
 	"boxwright/store/imagefile"
 )
 
@@ -32,7 +29,11 @@ func (s *Store) AddImages(ctx context.Context, paths []string, opts project.Inta
 	if opts.MaxPixels == 0 {
 		opts.MaxPixels = imagefile.DefaultMaxPixels
 	}
-	files, failed := collectFiles(paths)
+	found, failed := imagefile.Collect(paths)
+	files := make([]string, len(found))
+	for i, f := range found {
+		files[i] = f.Abs
+	}
 	rep.Failed = append(rep.Failed, failed...)
 
 	type probed struct {
@@ -136,95 +137,6 @@ func (s *Store) intakeOne(ctx context.Context, path string, info imagefile.Info,
 // collectFiles expands folders into the image files under them, sorted.
 // Files named explicitly are taken whatever their extension, so that a
 // wrong file gets a reason rather than silence.
-// notAFile says why something that is neither a folder nor a regular file
-// is not read ("" for a regular file): opening a named pipe would wait
-// forever for a writer, and a device has no end.
-func notAFile(m fs.FileMode) string {
-	if m.IsRegular() {
-		return ""
-	}
-	return formats.Kind(m) + ", not an image file; skipped without reading it"
-}
-
-func collectFiles(paths []string) ([]string, []project.IntakeFailure) {
-	var files []string
-	var failed []project.IntakeFailure
-	seen := map[string]bool{}
-	add := func(p string) {
-		if abs, err := filepath.Abs(p); err == nil && !seen[abs] {
-			seen[abs] = true
-			files = append(files, abs)
-		}
-	}
-	for _, root := range paths {
-		st, err := os.Stat(root)
-		if err != nil {
-			failed = append(failed, project.IntakeFailure{Path: root, Error: describeStatError(err)})
-			continue
-		}
-		if !st.IsDir() {
-			if why := notAFile(st.Mode()); why != "" {
-				failed = append(failed, project.IntakeFailure{Path: root, Error: why})
-				continue
-			}
-			add(root)
-			continue
-		}
-		var found []string
-		err = filepath.WalkDir(root, func(p string, d fs.DirEntry, err error) error {
-			if err != nil {
-				failed = append(failed, project.IntakeFailure{Path: p, Error: describeStatError(err)})
-				if d != nil && d.IsDir() {
-					return fs.SkipDir
-				}
-				return nil
-			}
-			if d.IsDir() && p != root && strings.HasPrefix(d.Name(), ".") {
-				return fs.SkipDir // hidden folders hold caches and version control
-			}
-			switch t := d.Type(); {
-			case t.IsRegular():
-				if imagefile.IsImageName(d.Name()) {
-					found = append(found, p)
-				}
-			case t&fs.ModeSymlink != 0:
-				// Followed to a regular file; a link to a folder is not
-				// walked (it could loop).
-				st, err := os.Stat(p)
-				switch {
-				case err != nil:
-					failed = append(failed, project.IntakeFailure{Path: p, Error: "a link to nothing (its target is missing); skipped"})
-				case st.Mode().IsRegular() && imagefile.IsImageName(d.Name()):
-					found = append(found, p)
-				case !st.IsDir() && !st.Mode().IsRegular():
-					failed = append(failed, project.IntakeFailure{Path: p, Error: notAFile(st.Mode())})
-				}
-			case !t.IsDir():
-				failed = append(failed, project.IntakeFailure{Path: p, Error: notAFile(t)})
-			}
-			return nil
-		})
-		if err != nil {
-			failed = append(failed, project.IntakeFailure{Path: root, Error: err.Error()})
-		}
-		sort.Strings(found)
-		for _, p := range found {
-			add(p)
-		}
-	}
-	return files, failed
-}
-
-func describeStatError(err error) string {
-	switch {
-	case errors.Is(err, fs.ErrNotExist):
-		return "no such file or folder"
-	case errors.Is(err, fs.ErrPermission):
-		return "permission denied"
-	}
-	return err.Error()
-}
-
 // storedPath is the path as recorded: relative to the project folder, with
 // forward slashes, when the file lies under it; absolute otherwise.
 func (s *Store) storedPath(abs string) string {

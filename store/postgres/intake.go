@@ -9,17 +9,12 @@ import (
 	"fmt"
 	"image/jpeg"
 	"io"
-	"io/fs"
 	"os"
-	"path/filepath"
-	"sort"
-	"strings"
 	"sync"
 
 	"github.com/jackc/pgx/v5"
 
 	"boxwright/project"
-	"boxwright/project/formats"
 	"boxwright/store/imagefile"
 )
 
@@ -57,10 +52,9 @@ var chunkSent func(sha string, n int)
 // image's pixels until its thumbnail is made).
 var decodeSlots = make(chan struct{}, 2)
 
-type intakeFile struct {
-	abs  string // the file
-	name string // the path recorded: relative to the folder given, from its own name
-}
+// intakeFile is a file an intake takes (imagefile.Collect): Abs the file,
+// Name the path recorded, relative to the folder given, from its own name.
+type intakeFile = imagefile.Found
 
 type intakeResult struct {
 	failure  string // why the file was skipped
@@ -97,7 +91,7 @@ func (s *Store) AddImages(ctx context.Context, paths []string, opts project.Inta
 		AND NOT EXISTS (SELECT 1 FROM images i WHERE i.sha256 = c.sha256)`); err != nil {
 		return rep, fmt.Errorf("%s: removing unfinished uploads: %w", what, s.translate(err))
 	}
-	files, failed := collectIntakeFiles(paths)
+	files, failed := imagefile.Collect(paths)
 	rep.Failed = append(rep.Failed, failed...)
 	// IDs are taken in file order before the parallel uploads, so that
 	// images number in the order given whichever upload ends first (as in
@@ -175,7 +169,7 @@ func (s *Store) AddImages(ctx context.Context, paths []string, opts project.Inta
 			select {
 			case r := <-results[j]:
 				if r.added != 0 || r.relinked != nil {
-					apply(files[j].abs, r)
+					apply(files[j].Abs, r)
 				}
 			default:
 			}
@@ -197,9 +191,9 @@ func (s *Store) AddImages(ctx context.Context, paths []string, opts project.Inta
 			if ctx.Err() != nil {
 				r.err = ctx.Err()
 			}
-			return stop(i+1, fmt.Errorf("adding image %s: %w", f.abs, r.err))
+			return stop(i+1, fmt.Errorf("adding image %s: %w", f.Abs, r.err))
 		}
-		apply(f.abs, r)
+		apply(f.Abs, r)
 		if opts.Progress != nil {
 			opts.Progress(i+1, len(files))
 		}
@@ -243,7 +237,7 @@ func (h *hashClaims) claim(ctx context.Context, sum string) (release func(), err
 // server needs its bytes decodes it whole (the same check as the SQLite
 // file's Verify), makes its thumbnail and sends it.
 func (s *Store) intakeOne(ctx context.Context, f intakeFile, newID int64, opts project.IntakeOptions, claims *hashClaims) intakeResult {
-	info, err := imagefile.Probe(f.abs, opts.MaxPixels)
+	info, err := imagefile.Probe(f.Abs, opts.MaxPixels)
 	if err != nil {
 		return intakeResult{failure: err.Error()}
 	}
@@ -273,11 +267,11 @@ func (s *Store) intakeOne(ctx context.Context, f intakeFile, newID int64, opts p
 		}
 	}
 
-	thumb, info, err := decodeWithThumbnail(f.abs, opts.MaxPixels, info)
+	thumb, info, err := decodeWithThumbnail(f.Abs, opts.MaxPixels, info)
 	if err != nil {
 		return intakeResult{failure: err.Error()}
 	}
-	if why, err := s.sendContent(ctx, f.abs, info); err != nil || why != "" {
+	if why, err := s.sendContent(ctx, f.Abs, info); err != nil || why != "" {
 		return intakeResult{failure: why, err: err}
 	}
 	var res intakeResult
@@ -304,7 +298,7 @@ func (s *Store) intakeOne(ctx context.Context, f intakeFile, newID int64, opts p
 		}
 		var id int64
 		err = tx.QueryRow(ctx, `INSERT INTO images(id, path, sha256, width, height, orientation, thumbnail) VALUES ($7, $1, $2, $3, $4, $5, $6)
-			ON CONFLICT (sha256) DO NOTHING RETURNING id`, f.name, info.SHA256, info.Width, info.Height, info.Orientation, thumb, newID).Scan(&id)
+			ON CONFLICT (sha256) DO NOTHING RETURNING id`, f.Name, info.SHA256, info.Width, info.Height, info.Orientation, thumb, newID).Scan(&id)
 		switch {
 		case errors.Is(err, pgx.ErrNoRows):
 			res.dup = true // another client added it in between
@@ -436,105 +430,4 @@ func (s *Store) MissingImages(ctx context.Context) ([]project.Image, error) {
 func (s *Store) Relink(ctx context.Context, dir string, opts project.IntakeOptions) (project.IntakeReport, error) {
 	opts.RelinkOnly = true
 	return s.AddImages(ctx, []string{dir}, opts)
-}
-
-// collectIntakeFiles expands folders into the image files under them,
-// sorted, as the SQLite file's intake does: files named explicitly are
-// taken whatever their extension, so that a wrong file gets a reason
-// rather than silence; hidden folders are not walked; named pipes,
-// devices and links to nothing are skipped with a reason, never opened.
-func collectIntakeFiles(paths []string) ([]intakeFile, []project.IntakeFailure) {
-	var files []intakeFile
-	var failed []project.IntakeFailure
-	seen := map[string]bool{}
-	add := func(p, name string) {
-		if abs, err := filepath.Abs(p); err == nil && !seen[abs] {
-			seen[abs] = true
-			files = append(files, intakeFile{abs, filepath.ToSlash(name)})
-		}
-	}
-	for _, root := range paths {
-		st, err := os.Stat(root)
-		if err != nil {
-			failed = append(failed, project.IntakeFailure{Path: root, Error: describeFileError(err)})
-			continue
-		}
-		if !st.IsDir() {
-			if why := notARegularFile(st.Mode()); why != "" {
-				failed = append(failed, project.IntakeFailure{Path: root, Error: why})
-				continue
-			}
-			add(root, filepath.Base(root))
-			continue
-		}
-		absRoot, _ := filepath.Abs(root)
-		base := filepath.Dir(absRoot)
-		var found []string
-		err = filepath.WalkDir(root, func(p string, d fs.DirEntry, err error) error {
-			if err != nil {
-				failed = append(failed, project.IntakeFailure{Path: p, Error: describeFileError(err)})
-				if d != nil && d.IsDir() {
-					return fs.SkipDir
-				}
-				return nil
-			}
-			if d.IsDir() && p != root && strings.HasPrefix(d.Name(), ".") {
-				return fs.SkipDir // hidden folders hold caches and version control
-			}
-			switch t := d.Type(); {
-			case t.IsRegular():
-				if imagefile.IsImageName(d.Name()) {
-					found = append(found, p)
-				}
-			case t&fs.ModeSymlink != 0:
-				// Followed to a regular file; a link to a folder is not
-				// walked (it could loop).
-				st, err := os.Stat(p)
-				switch {
-				case err != nil:
-					failed = append(failed, project.IntakeFailure{Path: p, Error: "a link to nothing (its target is missing); skipped"})
-				case st.Mode().IsRegular() && imagefile.IsImageName(d.Name()):
-					found = append(found, p)
-				case !st.IsDir() && !st.Mode().IsRegular():
-					failed = append(failed, project.IntakeFailure{Path: p, Error: notARegularFile(st.Mode())})
-				}
-			case !t.IsDir():
-				failed = append(failed, project.IntakeFailure{Path: p, Error: notARegularFile(t)})
-			}
-			return nil
-		})
-		if err != nil {
-			failed = append(failed, project.IntakeFailure{Path: root, Error: err.Error()})
-		}
-		sort.Strings(found)
-		for _, p := range found {
-			abs, _ := filepath.Abs(p)
-			name, err := filepath.Rel(base, abs)
-			if err != nil {
-				name = filepath.Base(abs)
-			}
-			add(p, name)
-		}
-	}
-	return files, failed
-}
-
-// notARegularFile says why something that is neither a folder nor a
-// regular file is not read ("" for a regular file): opening a named pipe
-// would wait forever for a writer, and a device has no end.
-func notARegularFile(m fs.FileMode) string {
-	if m.IsRegular() {
-		return ""
-	}
-	return formats.Kind(m) + ", not an image file; skipped without reading it"
-}
-
-func describeFileError(err error) string {
-	switch {
-	case errors.Is(err, fs.ErrNotExist):
-		return "no such file or folder"
-	case errors.Is(err, fs.ErrPermission):
-		return "permission denied"
-	}
-	return err.Error()
 }
