@@ -29,28 +29,10 @@ func (s *Store) ImportDataset(ctx context.Context, ds *formats.Dataset, opts pro
 		return rep, err
 	}
 	matcher := project.NewImageMatcher(ims)
-	first := map[int64]formats.ImageRecord{}
-	for _, rec := range ds.Images {
-		im, ok, reason := matcher.Match(rec.Name)
-		if !ok {
-			rep.Unmatched = append(rep.Unmatched, fmt.Sprintf("%s (%s): %s", rec.Name, rec.Where, reason))
-			continue
-		}
-		// Two records of one image would be stored side by side without a
-		// word: refused, as in a project file.
-		if prev, twice := first[im.ID]; twice {
-			return rep, project.Explained(project.ErrInvalid, "import (nothing was stored): %s (%s) and %s (%s) are both the project image %s; give each image one record",
-				prev.Name, prev.Where, rec.Name, rec.Where, im.Path)
-		}
-		first[im.ID] = rec
-	}
-	if n := len(rep.Unmatched); n > 0 && !opts.SkipUnmatched {
-		return rep, project.Explained(project.ErrInvalid, "import (nothing was stored): %s no image in the project: %s; add the images (--images DIR) or import the rest with --skip-unmatched",
-			unmatchedCount(n), listSome(rep.Unmatched, 5))
-	}
-	if len(ds.Images) > 0 && len(rep.Unmatched) == len(ds.Images) {
-		return rep, project.Explained(project.ErrInvalid, "import (nothing was stored): none of the file's %d image records matches an image in the project, for example %s",
-			len(ds.Images), rep.Unmatched[0])
+	// Nothing is stored unless the records match the project's images
+	// (formats.MatchImages says the rules).
+	if rep.Unmatched, err = formats.MatchImages(ds, matcher, opts.SkipUnmatched); err != nil {
+		return rep, err
 	}
 	err = s.tx(ctx, func(tx pgx.Tx) error {
 		classID, err := classIDs(ctx, tx)
@@ -216,21 +198,6 @@ func contains(list []string, v string) bool {
 		}
 	}
 	return false
-}
-
-func unmatchedCount(n int) string {
-	if n == 1 {
-		return "1 record matches"
-	}
-	return fmt.Sprintf("%d records match", n)
-}
-
-// listSome joins the first n items and says how many more there are.
-func listSome(items []string, n int) string {
-	if len(items) <= n {
-		return strings.Join(items, "; ")
-	}
-	return strings.Join(items[:n], "; ") + fmt.Sprintf("; and %d more", len(items)-n)
 }
 
 // priorLabels are the annotator's labels on the images an import covers,
