@@ -146,8 +146,12 @@ type ui struct {
 	stopWatch func()
 	// role is the person's kind of member in a server project ("" for a
 	// project file); ownerItems are the menu items only owners may use.
-	role       string
-	ownerItems []*fyne.MenuItem
+	role          string
+	ownerItems    []*fyne.MenuItem
+	reviewerItems []*fyne.MenuItem
+	// itemLabels keeps each role-limited item's own label, to which the
+	// reason is added while the item is off.
+	itemLabels map[*fyne.MenuItem]string
 	// raw is the open project as opened (u.st may wrap it for the edit
 	// trace); claimed is the image this person claims, stopClaim ends the
 	// claim, alsoHere names the others on the image on screen.
@@ -356,21 +360,29 @@ func (u *ui) menu() *fyne.MainMenu {
 		fyne.NewMenuItemSeparator(),
 		keyed("Annotator agreement…", fyne.KeyG, 0, u.showAgreement),
 	)
-	sugg := fyne.NewMenu("Suggestions",
+	// Only reviewers (and owners) decide suggestions in a server project.
+	reviewing := []*fyne.MenuItem{
 		fyne.NewMenuItem("Import predictions…", u.askImportSuggestions),
-		keyed("Find objects like the selected box…", fyne.KeyF, 0, u.askFindSimilar),
-		keyed("Train a detector on this project…", fyne.KeyT, 0, u.showTraining),
-		fyne.NewMenuItemSeparator(),
 		fyne.NewMenuItem("Accept selected suggestion (A)", u.acceptSuggestion),
 		fyne.NewMenuItem("Reject selected suggestion (Z)", u.rejectSuggestion),
 		fyne.NewMenuItem("Accept all on this image above the threshold (Shift+A)", u.acceptAllAbove),
-		fyne.NewMenuItem("Score threshold…", u.askSuggestionThreshold),
 		fyne.NewMenuItem("Accept or reject many…", u.askBulkReview),
 		fyne.NewMenuItem("Reject suggestions my boxes already cover…", u.askRejectCovered),
-		fyne.NewMenuItem("Duplicate warning…", u.askDupIoU),
-		fyne.NewMenuItemSeparator(),
 		keyed("Review one by one…", fyne.KeyR, 0, u.showReviewQueue),
 		keyed("Review as a grid of crops…", fyne.KeyJ, 0, u.showCropGrid),
+	}
+	u.reviewerItems = reviewing
+	sugg := fyne.NewMenu("Suggestions",
+		reviewing[0],
+		keyed("Find objects like the selected box…", fyne.KeyF, 0, u.askFindSimilar),
+		keyed("Train a detector on this project…", fyne.KeyT, 0, u.showTraining),
+		fyne.NewMenuItemSeparator(),
+		reviewing[1], reviewing[2], reviewing[3],
+		fyne.NewMenuItem("Score threshold…", u.askSuggestionThreshold),
+		reviewing[4], reviewing[5],
+		fyne.NewMenuItem("Duplicate warning…", u.askDupIoU),
+		fyne.NewMenuItemSeparator(),
+		reviewing[6], reviewing[7],
 		fyne.NewMenuItem("What the decisions tell us…", u.showSuggestionStats),
 		fyne.NewMenuItem("Evaluate the model against ground truth…", u.showEvaluation),
 	)

@@ -160,10 +160,10 @@ func (u *ui) applyChanges(cs []backend.Change) {
 func (u *ui) applyRole(s backend.Project) {
 	u.role, u.bar.lockedWhy = "", ""
 	defer func() {
-		allowed := u.role == "" || u.role == postgres.KindOwner
-		for _, it := range u.ownerItems {
-			it.Disabled = !allowed
-		}
+		owner := u.role == "" || u.role == postgres.KindOwner
+		reviewer := owner || u.role == postgres.KindReviewer
+		u.limitItems(u.ownerItems, owner, "owners only")
+		u.limitItems(u.reviewerItems, reviewer, "reviewers only")
 		if mm := u.win.MainMenu(); mm != nil {
 			mm.Refresh()
 		}
@@ -431,4 +431,24 @@ func (u *ui) askHandOut() {
 	d.SetOnClosed(u.giveKeysBack)
 	d.Resize(fyne.NewSize(520, 0))
 	d.Show()
+}
+
+// limitItems turns menu items on, or off with the reason in their label.
+func (u *ui) limitItems(items []*fyne.MenuItem, allowed bool, why string) {
+	if u.itemLabels == nil {
+		u.itemLabels = map[*fyne.MenuItem]string{}
+	}
+	for _, it := range items {
+		label, ok := u.itemLabels[it]
+		if !ok {
+			label = it.Label
+			u.itemLabels[it] = label
+		}
+		it.Disabled = !allowed
+		if allowed {
+			it.Label = label
+		} else {
+			it.Label = label + " (" + why + ")"
+		}
+	}
 }

@@ -146,9 +146,9 @@ func TestTwoWindowsSeeEachOther(t *testing.T) {
 	if !strings.Contains(tomas.bar.lockedWhy, "owners change classes") || !tomas.bar.addBtn.Disabled() {
 		t.Errorf("class tools for an annotator: %q, add disabled %v", tomas.bar.lockedWhy, tomas.bar.addBtn.Disabled())
 	}
-	for _, it := range tomas.ownerItems {
-		if !it.Disabled {
-			t.Errorf("menu item %q is on for an annotator", it.Label)
+	for _, it := range append(tomas.ownerItems, tomas.reviewerItems...) {
+		if !it.Disabled || !strings.Contains(it.Label, "only)") {
+			t.Errorf("menu item %q is on for an annotator, or says no reason", it.Label)
 		}
 	}
 	if err := tomas.mayDecide(); err == nil || !strings.Contains(err.Error(), "Only reviewers") {
