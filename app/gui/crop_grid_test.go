@@ -11,6 +11,7 @@ import (
 	"time"
 
 	"fyne.io/fyne/v2"
+	"fyne.io/fyne/v2/test"
 
 	"boxwright/app/internal/testkit"
 	"boxwright/canvas"
@@ -92,6 +93,10 @@ func TestCropGridLoadsOnlyVisibleCrops(t *testing.T) {
 	g := newCropGrid(u, cl.load)
 	g.win.Resize(fyne.NewSize(1100, 800))
 	g.win.Show()
+	// The grid's renderer is made here, before any crop worker runs: the
+	// test driver runs the workers' redraws on their goroutines, and a
+	// renderer made there raced the scrolling below (a nil offset hook).
+	test.WidgetRenderer(g.grid)
 	if err := g.setClass(c.ID); err != nil {
 		t.Fatal(err)
 	}
@@ -297,6 +302,7 @@ func BenchmarkCropGridScroll(b *testing.B) {
 	g := newCropGrid(u, cl.load)
 	g.win.Resize(fyne.NewSize(1100, 800))
 	g.win.Show()
+	test.WidgetRenderer(g.grid) // made before the workers run (see above)
 	if err := g.setClass(c.ID); err != nil {
 		b.Fatal(err)
 	}
