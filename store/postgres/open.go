@@ -14,6 +14,7 @@ import (
 	"sort"
 	"strconv"
 	"strings"
+	"time"
 
 	"github.com/jackc/pgx/v5"
 	"github.com/jackc/pgx/v5/pgconn"
@@ -165,7 +166,7 @@ func (s *Store) migrate(ctx context.Context, create bool) error {
 		if m.version <= current {
 			continue
 		}
-		err := pgx.BeginFunc(ctx, conn, func(tx pgx.Tx) error {
+		err := inTx(ctx, conn, func(tx pgx.Tx) error {
 			if _, err := tx.Exec(ctx, `CREATE TABLE IF NOT EXISTS schema_migrations (
 				version integer PRIMARY KEY, name text NOT NULL, applied_at timestamptz NOT NULL DEFAULT now())`); err != nil {
 				return err
@@ -239,5 +240,26 @@ func redact(err error) string {
 
 // tx runs fn in one transaction: every edit is its own, all or nothing.
 func (s *Store) tx(ctx context.Context, fn func(pgx.Tx) error) error {
-	return s.translate(pgx.BeginFunc(ctx, s.pool, fn))
+	return s.translate(inTx(ctx, s.pool, fn))
+}
+
+// inTx is pgx.BeginFunc with a commit that a cancel does not cut off.
+// Once fn's work is done the COMMIT goes out whatever happens to ctx: a
+// cancel arriving while it is on the wire would otherwise close the
+// connection with the outcome unknown, and the server may still commit
+// what the caller was told had failed.
+func inTx(ctx context.Context, db interface {
+	Begin(context.Context) (pgx.Tx, error)
+}, fn func(pgx.Tx) error) error {
+	tx, err := db.Begin(ctx)
+	if err != nil {
+		return err
+	}
+	settle, done := context.WithTimeout(context.WithoutCancel(ctx), 30*time.Second)
+	defer done()
+	defer tx.Rollback(settle) // a no-op after the commit
+	if err := fn(tx); err != nil {
+		return err
+	}
+	return tx.Commit(settle)
 }

@@ -67,7 +67,7 @@ func (s *Store) AddMember(ctx context.Context, name, kind, password string) ([]s
 	}
 	role := pgx.Identifier{name}.Sanitize()
 	var ran []string
-	err := pgx.BeginFunc(ctx, s.pool, func(tx pgx.Tx) error {
+	err := inTx(ctx, s.pool, func(tx pgx.Tx) error {
 		team := pgx.Identifier{teamRole(s.database(ctx, tx))}.Sanitize()
 		var exists bool
 		if err := tx.QueryRow(ctx, "SELECT EXISTS (SELECT 1 FROM pg_roles WHERE rolname = $1)", name).Scan(&exists); err != nil {
@@ -118,7 +118,7 @@ func (s *Store) AddMember(ctx context.Context, name, kind, password string) ([]s
 // projects on the server) and so do the labels they made.
 func (s *Store) RemoveMember(ctx context.Context, name string) ([]string, error) {
 	var ran []string
-	err := pgx.BeginFunc(ctx, s.pool, func(tx pgx.Tx) error {
+	err := inTx(ctx, s.pool, func(tx pgx.Tx) error {
 		tag, err := tx.Exec(ctx, "DELETE FROM members WHERE role_name = $1", name)
 		if err != nil {
 			return err
