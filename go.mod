@@ -17,7 +17,9 @@ require (
 	github.com/jackc/pgservicefile v0.0.0-20240606120523-5a60cdf6a761 // indirect
 	github.com/jackc/puddle/v2 v2.2.3 // indirect
 	github.com/rogpeppe/go-internal v1.16.0 // indirect
+	github.com/yalue/onnxruntime_go v1.26.0 // indirect
 	golang.org/x/sync v0.25.0 // indirect
+	google.golang.org/protobuf v1.36.12 // indirect
 )
 
 require (
