@@ -92,7 +92,7 @@ func nonNil(s []string) []string {
 
 func cmdDetect(args []string, stdout, stderr io.Writer) error {
 	fs := flag.NewFlagSet("detect", flag.ContinueOnError)
-	model := fs.String("model", "", "the model to run (default: the current one)")
+	model := fs.String("model", "", "the stored model to run (default: the current one), or an ONNX file (FILE.onnx)")
 	which := fs.String("images", "unlabelled", "unlabelled (images without labels, not skipped) or all")
 	minScore := floatIn(fs, "min-score", 0.3, 0, 1, "keep detections scoring at least this")
 	nms := nmsIn(fs, 0.5)
@@ -100,7 +100,11 @@ func cmdDetect(args []string, stdout, stderr io.Writer) error {
 	save := fs.Bool("save", false, "store the detections as pending suggestions")
 	threads := intIn(fs, "threads", 0, 0, 1024, "threads for the arithmetic (0: every core)")
 	asJSON := fs.Bool("json", false, "print JSON")
-	const synopsis = "detect PROJECT.boxw [--model NAME] [--images unlabelled|all] [--min-score S] [--nms IOU|off] [--source NAME] [--save] [--json]"
+	file := fileModelFlags(fs)
+	const synopsis = "detect PROJECT.boxw [--model NAME] [--images unlabelled|all] [--min-score S] [--nms IOU|off] [--source NAME] [--save] [--json]\n" +
+		"       boxwright detect PROJECT.boxw --model FILE.onnx [--layout auto|" + onnxLayouts + "] [--input WxH] [--letterbox[=false]] [--names FILE]\n" +
+		"              [--onnxruntime LIB] [--describe] [--images unlabelled|all] [--limit N] [--min-score S] [--nms IOU|off]\n" +
+		"              [--map FROM=TO]... [--create-classes|--drop-unknown] [--save] [--json]"
 	pos, err := parse(fs, args, 1, 1, synopsis)
 	if err != nil {
 		return err
@@ -108,6 +112,12 @@ func cmdDetect(args []string, stdout, stderr io.Writer) error {
 	switch {
 	case *which != "unlabelled" && *which != "all":
 		return usageError(fmt.Sprintf("--images %q: use unlabelled or all", *which))
+	}
+	if isModelFile(*model) {
+		return detectWithModelFile(fs, pos[0], *model, file, *which == "all", *minScore, *nms, *save, *asJSON, *threads, stdout, stderr)
+	}
+	if err := file.refuseWithStoredModel(fs); err != nil {
+		return err
 	}
 	if *source != "" {
 		if err := project.ValidateName("source", *source); err != nil {

@@ -245,18 +245,8 @@ func Detect(ctx context.Context, st backend.Project, j DetectJob) (DetectReport,
 	}
 	ims := j.Images
 	if ims == nil {
-		all, err := st.Images(ctx)
-		if err != nil {
+		if ims, err = UnlabelledImages(ctx, st, j.All); err != nil {
 			return rep, err
-		}
-		counts, err := st.CountsByImage(ctx)
-		if err != nil {
-			return rep, err
-		}
-		for _, im := range all {
-			if j.All || (im.Status != project.StatusSkipped && counts[im.ID].Labels == 0) {
-				ims = append(ims, im)
-			}
 		}
 	}
 	classes, err := st.Classes(ctx)

@@ -24,7 +24,7 @@ SPEC.json:
    "nms_iou": t,                    per-class NMS at IoU t; t <= 0: none
    "max_detections": k,
    "multi_label": false,            true: every class >= s of a candidate
-   "letterbox": {"scale": r, "pad_x": px, "pad_y": py,   (optional:
+   "letterbox": {"scale": r, ("scale_x", "scale_y": per axis, default r) "pad_x": px, "pad_y": py,   (optional:
                  "image_width": iw, "image_height": ih}}  default 1, 0,
                                                            0, W, H)
 
@@ -48,8 +48,8 @@ The decoding, step by step (in float64, from the float32 outputs):
      detections: box, score and class (rounded) as given.
      Best class only (the first of equal bests, as numpy's argmax) unless
      multi_label, then every class; kept if score >= min_score.
-  2. The best max_detections of them: a stable sort by score, descending
-     (ties keep candidate order).
+  2. The best MAX_CANDIDATES (30000) of them: a stable sort by score,
+     descending (ties keep candidate order).
   3. Back to image pixels: x = (x_in - pad_x) / scale, y = (y_in - pad_y)
      / scale, clamped to [0, image_width] x [0, image_height]; boxes under
      1 px wide or high after clamping are dropped.
@@ -57,7 +57,7 @@ The decoding, step by step (in float64, from the float32 outputs):
      scores, score_threshold 0, nms_threshold nms_iou) (it keeps scores > 0
      and suppresses IoU > nms_iou, in float32).
   5. The survivors sorted by score, descending, stably (ties in the order
-     of step 2).
+     of step 2), and the first max_detections kept.
 """
 
 import json
@@ -68,6 +68,9 @@ import numpy as np
 import onnx
 
 LAYOUTS = ("centre-scores", "centre-objectness-scores", "corners-scores", "detections")
+
+
+MAX_CANDIDATES = 30000  # common practice for dense detectors
 
 
 def fail(msg):
@@ -142,17 +145,18 @@ def decode(spec, t):
     boxes, scores, classes = candidates(spec, t)
     keep = scores >= float(spec["min_score"])
     boxes, scores, classes = boxes[keep], scores[keep], classes[keep]
-    order = np.argsort(-scores, kind="stable")[: int(spec["max_detections"])]
+    order = np.argsort(-scores, kind="stable")[:MAX_CANDIDATES]
     boxes, scores, classes = boxes[order], scores[order], classes[order]
     lb = spec.get("letterbox") or {}
     r = float(lb.get("scale", 1.0))
+    rx, ry = float(lb.get("scale_x", r)), float(lb.get("scale_y", r))
     px, py = float(lb.get("pad_x", 0.0)), float(lb.get("pad_y", 0.0))
     iw, ih = float(lb.get("image_width", spec["width"])), float(lb.get("image_height", spec["height"]))
     b = np.empty_like(boxes)
-    b[:, 0] = np.clip((boxes[:, 0] - px) / r, 0, iw)
-    b[:, 2] = np.clip((boxes[:, 2] - px) / r, 0, iw)
-    b[:, 1] = np.clip((boxes[:, 1] - py) / r, 0, ih)
-    b[:, 3] = np.clip((boxes[:, 3] - py) / r, 0, ih)
+    b[:, 0] = np.clip((boxes[:, 0] - px) / rx, 0, iw)
+    b[:, 2] = np.clip((boxes[:, 2] - px) / rx, 0, iw)
+    b[:, 1] = np.clip((boxes[:, 1] - py) / ry, 0, ih)
+    b[:, 3] = np.clip((boxes[:, 3] - py) / ry, 0, ih)
     big = ((b[:, 2] - b[:, 0]) >= 1) & ((b[:, 3] - b[:, 1]) >= 1)
     b, scores, classes = b[big], scores[big], classes[big]
     idx = np.arange(len(scores))
@@ -165,7 +169,7 @@ def decode(spec, t):
             res = cv2.dnn.NMSBoxes(xywh, [float(s) for s in scores[sel]], 0.0, t_nms)
             kept.extend(int(sel[i]) for i in np.array(res).flatten())
         idx = np.array(sorted(kept), dtype=np.int64)
-    idx = idx[np.argsort(-scores[idx], kind="stable")]
+    idx = idx[np.argsort(-scores[idx], kind="stable")][: int(spec["max_detections"])]
     return [{"class": int(classes[i]), "score": float(scores[i]), "box": [float(v) for v in b[i]]} for i in idx]
 
 

@@ -1,0 +1,106 @@
+package onnx
+
+import (
+	"image"
+	"image/color"
+	"math"
+
+	"golang.org/x/image/draw"
+
+	"boxwright/project"
+)
+
+// Letterbox is where an image lands in the model's input: scaled to
+// Width×Height pixels (each side on its own, so that the content's edges
+// fall on whole input pixels and the mapping back is exact) at offset
+// (Left, Top), the rest padding.
+type Letterbox struct {
+	ImageW, ImageH int // the image
+	InputW, InputH int // the model's input
+	Width, Height  int // the scaled image inside the input
+	Left, Top      int // its offset
+}
+
+// FitLetterbox places an image of w×h pixels in an input of inW×inH:
+// "letterbox" keeps the aspect ratio (the scale min(inW/w, inH/h), each
+// scaled side rounded to whole pixels) and aligns "centre" or "top-left";
+// "stretch" fills the input.
+func FitLetterbox(w, h, inW, inH int, resize, align string) Letterbox {
+	lb := Letterbox{ImageW: w, ImageH: h, InputW: inW, InputH: inH, Width: inW, Height: inH}
+	if resize == "stretch" {
+		return lb
+	}
+	r := min(float64(inW)/float64(w), float64(inH)/float64(h))
+	lb.Width = max(1, min(inW, int(math.Round(float64(w)*r))))
+	lb.Height = max(1, min(inH, int(math.Round(float64(h)*r))))
+	if align == "centre" {
+		lb.Left, lb.Top = (inW-lb.Width)/2, (inH-lb.Height)/2
+	}
+	return lb
+}
+
+// Scale is input pixels per image pixel on each axis.
+func (lb Letterbox) Scale() (sx, sy float64) {
+	return float64(lb.Width) / float64(lb.ImageW), float64(lb.Height) / float64(lb.ImageH)
+}
+
+// ToInput maps a box from image pixels to input pixels.
+func (lb Letterbox) ToInput(b project.Box) project.Box {
+	return project.Box{X0: lb.xIn(b.X0), Y0: lb.yIn(b.Y0), X1: lb.xIn(b.X1), Y1: lb.yIn(b.Y1)}
+}
+
+// ToImage maps a box from input pixels back to image pixels (not clamped).
+func (lb Letterbox) ToImage(b project.Box) project.Box {
+	return project.Box{X0: lb.xImg(b.X0), Y0: lb.yImg(b.Y0), X1: lb.xImg(b.X1), Y1: lb.yImg(b.Y1)}
+}
+
+// The mappings multiply by whole pixel counts and divide by whole pixel
+// counts, in that order, so that the image's edges map to the content's
+// edges exactly and back.
+func (lb Letterbox) xIn(x float64) float64 {
+	return x*float64(lb.Width)/float64(lb.ImageW) + float64(lb.Left)
+}
+func (lb Letterbox) yIn(y float64) float64 {
+	return y*float64(lb.Height)/float64(lb.ImageH) + float64(lb.Top)
+}
+func (lb Letterbox) xImg(x float64) float64 {
+	return (x - float64(lb.Left)) * float64(lb.ImageW) / float64(lb.Width)
+}
+func (lb Letterbox) yImg(y float64) float64 {
+	return (y - float64(lb.Top)) * float64(lb.ImageH) / float64(lb.Height)
+}
+
+// Tensor renders img into the model's input as NCHW float32 planes:
+// scaled into the letterbox (bilinear, the detector's own resampling),
+// padded with the description's grey, channels in its order, each value
+// (v·Scale − Mean[c]) / Std[c].
+func (lb Letterbox) Tensor(img image.Image, in Input) []float32 {
+	dst := image.NewRGBA(image.Rect(0, 0, lb.InputW, lb.InputH))
+	if p := uint8(math.Round(*in.Pad)); p != 0 {
+		draw.Draw(dst, dst.Bounds(), image.NewUniform(color.RGBA{p, p, p, 255}), image.Point{}, draw.Src)
+	}
+	b := img.Bounds()
+	draw.ApproxBiLinear.Scale(dst, image.Rect(lb.Left, lb.Top, lb.Left+lb.Width, lb.Top+lb.Height), img, b, draw.Src, nil)
+	w, h := lb.InputW, lb.InputH
+	out := make([]float32, 3*w*h)
+	order := [3]int{0, 1, 2}
+	if in.Channels == "bgr" {
+		order = [3]int{2, 1, 0}
+	}
+	var mul, add [3]float32
+	for c := range 3 {
+		mul[c] = float32(in.Scale / in.Std[c])
+		add[c] = float32(-in.Mean[c] / in.Std[c])
+	}
+	for y := 0; y < h; y++ {
+		row := dst.Pix[y*dst.Stride:]
+		for x := 0; x < w; x++ {
+			p := row[4*x:]
+			i := y*w + x
+			for c := range 3 {
+				out[c*w*h+i] = float32(p[order[c]])*mul[c] + add[c]
+			}
+		}
+	}
+	return out
+}
