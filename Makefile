@@ -8,20 +8,31 @@ DEMO_DIR ?= build/demo
 # smoke test under a virtual X server; shapely is the reference for the IoU check,
 # scikit-learn, statsmodels and SciPy for the agreement statistics and matching,
 # OpenCV for non-maximum suppression, PyTorch for the detector's layer checks,
-# OpenBLAS for the detector's optional `-tags openblas` GEMM.
+# OpenBLAS for the detector's optional `-tags openblas` GEMM, ONNX (python3-onnx)
+# to build the test detectors that ONNX Runtime runs.
 BUILD_DEBS := gcc pkg-config libgl1-mesa-dev libx11-dev libxcursor-dev libxrandr-dev \
               libxinerama-dev libxi-dev libxxf86vm-dev
-TEST_DEBS := xvfb xauth xdotool imagemagick sqlite3 python3-shapely python3-sklearn python3-statsmodels python3-scipy python3-opencv python3-torch \
+TEST_DEBS := xvfb xauth xdotool imagemagick sqlite3 python3-shapely python3-sklearn python3-statsmodels python3-scipy python3-opencv python3-torch python3-onnx \
              libopenblas-dev postgresql
 
 export CGO_ENABLED := 1
 
-.PHONY: run test deps test-deps build vet unit fuzz smoke killtest loadtest bench clean
+# ONNX Runtime's shared library, loaded at run time by `detect --model
+# FILE.onnx` (the program builds and runs without it): the Linux x64 build
+# inside the npm package onnxruntime-node. The binding
+# (github.com/yalue/onnxruntime_go v1.26.0) asks for C API version 24,
+# which ONNX Runtime 1.24 and later serve.
+ORT_VERSION := 1.30.0
+ORT_SHA256  := ffb75a925ba05e47b235bb66e3e3911714a80b328a9c9425539feb204aa32a23
+ORT_LIB     := build/onnxruntime/libonnxruntime.so.1
+export BOXWRIGHT_ONNXRUNTIME ?= $(CURDIR)/$(ORT_LIB)
+
+.PHONY: run test deps test-deps onnxruntime build vet unit fuzz smoke killtest loadtest bench clean
 
 run: deps build
 	./$(BIN) demo $(DEMO_DIR)
 
-test: deps test-deps vet unit fuzz smoke
+test: deps test-deps onnxruntime vet unit fuzz smoke
 
 build:
 	$(GO) build -o $(BIN) ./app
@@ -75,6 +86,11 @@ deps:
 
 test-deps:
 	@.ci/debs.sh $(TEST_DEBS)
+
+onnxruntime: $(ORT_LIB)
+
+$(ORT_LIB):
+	@.ci/fetch-onnxruntime.sh $(ORT_VERSION) $(dir $(ORT_LIB)) $(ORT_SHA256)
 
 clean:
 	rm -rf bin build
