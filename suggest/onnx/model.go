@@ -384,12 +384,18 @@ func Open(path string, opt OpenOptions) (*Model, error) {
 	}
 	plan, err := planLayout(d.Output.Layout, outs, len(m.Classes))
 	if err != nil {
-		m.Close()
-		return nil, fmt.Errorf("model %s: %w", path, err)
+		// Names of the wrong count are the likelier mistake when the
+		// shapes fit without them.
+		if p, err2 := planLayout(d.Output.Layout, outs, 0); err2 == nil && p.classes > 0 {
+			plan = p
+		} else {
+			m.Close()
+			return nil, fmt.Errorf("model %s: %w", path, err)
+		}
 	}
 	if plan.classes > 0 && len(m.Classes) != plan.classes {
 		m.Close()
-		return nil, project.Explained(project.ErrInvalid, "model %s: %s names %d classes, but its outputs (%s) have %d", path, m.ClassesFrom, len(m.Classes), describeOutputs(outs), plan.classes)
+		return nil, project.Explained(project.ErrInvalid, "model %s: %s names %d classes, but its outputs (%s) read as layout %s have %d", path, m.ClassesFrom, len(m.Classes), describeOutputs(outs), plan.layout, plan.classes)
 	}
 	m.plan = plan
 	m.Desc.Output.Layout = plan.layout

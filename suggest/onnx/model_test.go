@@ -12,108 +12,28 @@ import (
 	"os/exec"
 	"path/filepath"
 	"strings"
-	"sync"
 	"testing"
 
 	"boxwright/project"
+	"boxwright/suggest/onnx/onnxtest"
 )
 
-const python = "/usr/bin/python3"
+const python = onnxtest.Python
 
-// testRuntime finds ONNX Runtime's library for the tests: $BOXWRIGHT_ONNXRUNTIME
-// (make test sets it) or the module's build/onnxruntime/ (make
-// onnxruntime). Without it the tests that run models are skipped, and
-// fail under CI.
 func testRuntime(t *testing.T) string {
 	t.Helper()
-	p := os.Getenv(RuntimeEnv)
-	if p == "" {
-		p = filepath.Join(moduleRoot(t), "build", "onnxruntime", RuntimeLibrary)
-	}
-	if _, err := os.Stat(p); err != nil {
-		if os.Getenv("CI") != "" {
-			t.Fatalf("CI must fetch ONNX Runtime (make onnxruntime) for this check: %v", err)
-		}
-		t.Skipf("ONNX Runtime is not fetched (make onnxruntime): %v", err)
-	}
+	p := onnxtest.Runtime(t)
 	if _, err := LoadRuntime(p); err != nil {
 		t.Fatal(err)
 	}
 	return p
 }
 
-func moduleRoot(t *testing.T) string {
-	dir, _ := os.Getwd()
-	for d := dir; d != filepath.Dir(d); d = filepath.Dir(d) {
-		if _, err := os.Stat(filepath.Join(d, "go.mod")); err == nil {
-			return d
-		}
-	}
-	t.Fatalf("no go.mod above %s", dir)
-	return ""
-}
-
-func needPython(t *testing.T, modules string) {
-	t.Helper()
-	if err := exec.Command(python, "-c", "import "+modules).Run(); err != nil {
-		if os.Getenv("CI") != "" {
-			t.Fatalf("CI must install %s for this check: %v", modules, err)
-		}
-		t.Skipf("%s not installed", modules)
-	}
-}
-
-var built struct {
-	once sync.Once
-	dir  string
-	list []builtModel
-	err  error
-}
-
-type builtModel struct {
-	File    string   `json:"file"`
-	Layout  string   `json:"layout"`
-	Width   any      `json:"width"`
-	Height  any      `json:"height"`
-	Classes int      `json:"num_classes"`
-	Names   []string `json:"names"`
-	Outputs []struct {
-		Name string `json:"name"`
-	} `json:"outputs"`
-}
-
-// testModels builds the test detectors once per run with Debian's
-// python3-onnx (testdata/build_models.py): nothing is downloaded.
-func testModels(t *testing.T) (string, []builtModel) {
-	t.Helper()
-	needPython(t, "onnx, cv2, numpy")
-	built.once.Do(func() {
-		built.dir, built.err = os.MkdirTemp("", "boxwright-onnx-models-")
-		if built.err != nil {
-			return
-		}
-		out, err := exec.Command(python, "testdata/build_models.py", built.dir).CombinedOutput()
-		if err != nil {
-			built.err = fmt.Errorf("build_models.py: %v\n%s", err, out)
-			return
-		}
-		b, err := os.ReadFile(filepath.Join(built.dir, "models.json"))
-		if err == nil {
-			err = json.Unmarshal(b, &built.list)
-		}
-		built.err = err
-	})
-	if built.err != nil {
-		t.Fatal(built.err)
-	}
-	return built.dir, built.list
-}
+func testModels(t *testing.T) (string, []onnxtest.Model) { return onnxtest.Models(t) }
 
 func TestMain(m *testing.M) {
 	code := m.Run()
-	if built.dir != "" {
-		os.RemoveAll(built.dir)
-	}
+	onnxtest.Cleanup()
 	os.Exit(code)
 }
 
@@ -291,8 +211,10 @@ func TestBadModelsRefused(t *testing.T) {
 		{"dynamic_input.onnx", OpenOptions{}, "its height and width are left open; give the input size (--input WxH"},
 		{"no_layout.onnx", OpenOptions{}, "the outputs output0 [1×7×5×5] fit no output layout (detections: wants N × 6"},
 		{"centre_scores.onnx", OpenOptions{Names: []string{"a", "b", "c", "d"}, NamesFile: "four.txt"}, "fit no output layout"},
-		{"corners_scores.onnx", OpenOptions{Names: []string{"a", "b"}, NamesFile: "two.txt"}, "corners-scores: wants 2 scores per box (the classes named), found 3"},
-		{"detections.onnx", OpenOptions{Desc: &Description{Output: Output{Layout: LayoutCentreScores}}}, "centre-scores: wants 4+3 values per candidate"},
+		{"centre_scores.onnx", OpenOptions{Names: []string{"a", "b", "c", "d"}, NamesFile: "four.txt", Desc: &Description{Output: Output{Layout: LayoutCentreScores}}},
+			"names file four.txt names 4 classes, but its outputs (output0 [1×384×7]) read as layout centre-scores have 3"},
+		{"corners_scores.onnx", OpenOptions{Names: []string{"a", "b"}, NamesFile: "two.txt"}, "names file two.txt names 2 classes, but its outputs (boxes [1×384×4], scores [1×384×3]) read as layout corners-scores have 3"},
+		{"detections.onnx", OpenOptions{Desc: &Description{Output: Output{Layout: LayoutCentreScores}}}, "names file names.txt names 3 classes, but its outputs (dets [1×24×6]) read as layout centre-scores have 2"},
 	}
 	for _, c := range cases {
 		err := open(c.file, c.opt)
