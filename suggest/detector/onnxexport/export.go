@@ -262,7 +262,10 @@ func (g *graph) network(n *detector.Net) error {
 		}
 		x := g.conv(name+".conv", in, conv)
 		x = g.node("BatchNormalization", name+".bn", []string{x, g.param(bn.Gamma), g.param(bn.Beta), g.param(bn.RunningMean), g.param(bn.RunningVar)},
-			attrFloat("epsilon", float32(bn.Eps)), attrFloat("momentum", float32(bn.Momentum)))
+			// ONNX's momentum is the running estimates' share kept at each
+			// step, PyTorch's (and nn's) the share taken from the batch;
+			// inference reads neither.
+			attrFloat("epsilon", float32(bn.Eps)), attrFloat("momentum", float32(1-bn.Momentum)))
 		return g.node("Relu", name+".relu", []string{x}), nil
 	}
 	head := func(name, out, in string) (string, error) {
@@ -270,7 +273,7 @@ func (g *graph) network(n *detector.Net) error {
 		if !ok {
 			return "", fmt.Errorf("head %s is not a convolution", name)
 		}
-		return g.convNamed(out, in, conv), nil
+		return g.conv(out, in, conv), nil
 	}
 	var err error
 	chain := func(x string, names ...string) string {
@@ -313,9 +316,8 @@ func (g *graph) network(n *detector.Net) error {
 	return err
 }
 
-func (g *graph) conv(name, in string, c *nn.Conv2D[float32]) string { return g.convNamed(name, in, c) }
-
-func (g *graph) convNamed(out, in string, c *nn.Conv2D[float32]) string {
+// conv adds a convolution whose output is named out.
+func (g *graph) conv(out, in string, c *nn.Conv2D[float32]) string {
 	inputs := []string{in, g.param(c.Weight)}
 	if c.Bias != nil {
 		inputs = append(inputs, g.param(c.Bias))

@@ -18,11 +18,14 @@ import (
 	"testing"
 	"time"
 
+	"google.golang.org/protobuf/proto"
+
 	"boxwright/assets/demo"
 	"boxwright/project"
 	"boxwright/suggest/detector"
 	"boxwright/suggest/detector/nn"
 	"boxwright/suggest/onnx"
+	"boxwright/suggest/onnx/onnxpb"
 )
 
 const py = "/usr/bin/python3"
@@ -59,7 +62,25 @@ info = {"ir": m.ir_version, "opsets": [[o.domain, o.version] for o in m.opset_im
         "ops": sorted({n.op_type for n in m.graph.node}),
         "initializers": [i.name for i in m.graph.initializer],
         "inputs": [[i.name, dims(i)] for i in m.graph.input],
-        "outputs": [[o.name, dims(o)] for o in m.graph.output], "shapes": {}}
+        "outputs": [[o.name, dims(o)] for o in m.graph.output], "shapes": {}, "resize": []}
+# Each Resize node, run by the ONNX project's own reference implementation
+# of the operator (the code its backend test data is made with) on a small
+# random array, must repeat every pixel in a 2x2 block (nn.Upsample2x).
+from onnx import numpy_helper
+from onnx.backend.test.case.node.resize import interpolate_nd, nearest_coeffs
+inits = {i.name: numpy_helper.to_array(i) for i in m.graph.initializer}
+for n in m.graph.node:
+    if n.op_type != "Resize":
+        continue
+    a = {x.name: onnx.helper.get_attribute_value(x) for x in n.attribute}
+    a = {k: v.decode() if isinstance(v, bytes) else v for k, v in a.items()}
+    x = np.random.RandomState(1).rand(1, 2, 3, 5).astype(np.float32)
+    mode = a.pop("nearest_mode", "round_prefer_floor")
+    ok = a.pop("mode", "nearest") == "nearest" and not a.keys() - {"coordinate_transformation_mode"}
+    if ok:
+        y = interpolate_nd(x, lambda r: nearest_coeffs(r, mode=mode), scale_factors=list(inits[n.input[2]]), **a)
+        ok = bool(np.array_equal(y, x.repeat(2, axis=2).repeat(2, axis=3)))
+    info["resize"].append([n.name, ok])
 if tensor:
     net = cv2.dnn.readNetFromONNX(model)
     net.setInput(np.fromfile(tensor, dtype="<f4").reshape(1, 3, h, w), "image")
@@ -81,6 +102,7 @@ type refInfo struct {
 	Inputs      [][]any           `json:"inputs"`
 	Outputs     [][]any           `json:"outputs"`
 	Shapes      map[string][]int  `json:"shapes"`
+	Resize      [][]any           `json:"resize"`
 	outs        map[string][]float32
 	elapsedSecs float64
 }
@@ -193,8 +215,11 @@ func demoSample(seed int64, w, h, long int) (image.Image, detector.Sample) {
 
 // TestExportPassesONNXChecker: the ONNX project's checker accepts the file
 // (full check: structure, operator schemas of opset 13 and strict shape
-// inference against the declared shapes), and onnx.load reads back the
-// opset, IR version, metadata, names and shapes Export writes.
+// inference against the declared shapes), onnx.load reads back the opset,
+// IR version, metadata, names and shapes Export writes, and the ONNX
+// project's reference Resize, given the file's attributes, repeats pixels
+// as nn.Upsample2x does (OpenCV 4.6 reads only the mode of a Resize, so
+// the comparisons with it cannot tell coordinate modes apart).
 func TestExportPassesONNXChecker(t *testing.T) {
 	needReference(t)
 	m := randomModel(1)
@@ -228,6 +253,10 @@ func TestExportPassesONNXChecker(t *testing.T) {
 	wantIO(info.Inputs, []any{"image", []int{1, 3, 192, 256}})
 	wantIO(info.Outputs, []any{"boxes", []int{1, h * w, 4}}, []any{"scores", []int{1, h * w, 4}},
 		[]any{"heat_logits", []int{1, 4, h, w}}, []any{"box_log_distances", []int{1, 4, h, w}})
+	resize, _ := json.Marshal(info.Resize)
+	if string(resize) != `[["up1",true],["up2",true]]` {
+		t.Errorf("Resize nodes checked with the ONNX reference implementation: %s, want up1 and up2 both a 2×2 repeat", resize)
+	}
 	for _, p := range m.Net.State() {
 		if !slices.Contains(info.Inits, p.Name) {
 			t.Errorf("no initializer %q", p.Name)
@@ -576,5 +605,59 @@ func TestDescribe(t *testing.T) {
 	}
 	if maxDiff > 1e-5 {
 		t.Errorf("Describe's normalisation differs from PrepareImage's by %.3g", maxDiff)
+	}
+}
+
+// TestExportStructure reads the file back with the Go types of onnx.proto
+// (no Python needed): version, opset, outputs in order, metadata, and every
+// weight and batch-norm statistic stored under its parameter name with its
+// shape and exact values.
+func TestExportStructure(t *testing.T) {
+	m := randomModel(2)
+	b, err := Export(m, "harbour-v3", 128, 96)
+	if err != nil {
+		t.Fatal(err)
+	}
+	var mp onnxpb.ModelProto
+	if err := proto.Unmarshal(b, &mp); err != nil {
+		t.Fatal(err)
+	}
+	if mp.GetIrVersion() != 8 || len(mp.GetOpsetImport()) != 1 || mp.GetOpsetImport()[0].GetDomain() != "" || mp.GetOpsetImport()[0].GetVersion() != 13 {
+		t.Errorf("IR %d, opsets %v", mp.GetIrVersion(), mp.GetOpsetImport())
+	}
+	if mp.GetProducerName() != "Boxwright" || mp.GetGraph().GetName() != "harbour-v3" {
+		t.Errorf("producer %q, graph %q", mp.GetProducerName(), mp.GetGraph().GetName())
+	}
+	var outs []string
+	for _, o := range mp.GetGraph().GetOutput() {
+		outs = append(outs, o.GetName())
+	}
+	if !slices.Equal(outs, []string{"boxes", "scores", "heat_logits", "box_log_distances"}) {
+		t.Errorf("outputs %v", outs)
+	}
+	meta := map[string]string{}
+	for _, p := range mp.GetMetadataProps() {
+		meta[p.GetKey()] = p.GetValue()
+	}
+	if meta["classes"] != `["sailboat","motorboat","buoy","kayak"]` || meta["boxwright.architecture"] != detector.Architecture {
+		t.Errorf("metadata %v", meta)
+	}
+	inits := map[string]*onnxpb.TensorProto{}
+	for _, in := range mp.GetGraph().GetInitializer() {
+		inits[in.GetName()] = in
+	}
+	for _, p := range m.Net.State() {
+		in := inits[p.Name]
+		if in == nil {
+			t.Errorf("no initializer %s", p.Name)
+			continue
+		}
+		dims := make([]int64, len(p.Shape))
+		for i, d := range p.Shape {
+			dims[i] = int64(d)
+		}
+		if !slices.Equal(in.GetDims(), dims) || in.GetDataType() != int32(onnxpb.TensorProto_FLOAT) || !slices.Equal(f32From(in.GetRawData()), p.W) {
+			t.Errorf("initializer %s: dims %v type %d, or its values differ from the parameter's", p.Name, in.GetDims(), in.GetDataType())
+		}
 	}
 }
