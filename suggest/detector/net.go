@@ -73,6 +73,42 @@ func (n *Net) layers() []layer {
 	return []layer{n.e1, n.e2, n.e3, n.e4, n.e5, n.e6, n.e7, n.d1, n.d2, n.trunk, n.heat, n.box}
 }
 
+// Layer returns a named part of the network, for exporters that rebuild
+// Forward's graph in another format: the conv → batch norm → ReLU blocks
+// "e1" … "e7", "d1", "d2" and "trunk" (each an *nn.Sequential of
+// *nn.Conv2D, *nn.BatchNorm2D and *nn.ReLU) and the 1×1 heads "heat" and
+// "box" (*nn.Conv2D); nil for any other name. Forward says how they
+// connect; Architecture changes when that does.
+func (n *Net) Layer(name string) layer {
+	switch name {
+	case "e1":
+		return n.e1
+	case "e2":
+		return n.e2
+	case "e3":
+		return n.e3
+	case "e4":
+		return n.e4
+	case "e5":
+		return n.e5
+	case "e6":
+		return n.e6
+	case "e7":
+		return n.e7
+	case "d1":
+		return n.d1
+	case "d2":
+		return n.d2
+	case "trunk":
+		return n.trunk
+	case "heat":
+		return n.heat
+	case "box":
+		return n.box
+	}
+	return nil
+}
+
 // Params lists every learnable parameter in a fixed order.
 func (n *Net) Params() []*nn.Param[float32] {
 	var ps []*nn.Param[float32]
