@@ -10,6 +10,7 @@ import (
 
 	"boxwright/app/ops"
 	"boxwright/project"
+	"boxwright/suggest/detector/onnxexport"
 )
 
 // modelRecord is one model as "models --json" prints it.
@@ -38,11 +39,16 @@ func modelJSON(m project.Model) modelRecord {
 }
 
 // cmdModels lists the detectors stored in the project.
+const modelsSynopsis = "models PROJECT.boxw [--use NAME] [--json]\n       boxwright models PROJECT.boxw export [NAME] --out FILE.onnx [--input WxH] [--json]"
+
 func cmdModels(args []string, stdout, stderr io.Writer) error {
+	if len(args) >= 2 && args[1] == "export" {
+		return cmdModelsExport(args[0], args[2:], stdout)
+	}
 	fs := flag.NewFlagSet("models", flag.ContinueOnError)
 	asJSON := fs.Bool("json", false, "")
 	use := fs.String("use", "", "make this model the current one first")
-	pos, err := parse(fs, args, 1, 1, "models PROJECT.boxw [--use NAME] [--json]")
+	pos, err := parse(fs, args, 1, 1, modelsSynopsis)
 	if err != nil {
 		return err
 	}
@@ -92,5 +98,50 @@ func cmdModels(args []string, stdout, stderr io.Writer) error {
 		return err
 	}
 	fmt.Fprintln(stdout, "* current model")
+	return nil
+}
+
+// cmdModelsExport writes a stored model as ONNX with its description.
+func cmdModelsExport(projectPath string, args []string, stdout io.Writer) error {
+	fs := flag.NewFlagSet("models export", flag.ContinueOnError)
+	out := fs.String("out", "", "the ONNX file to write")
+	input := fs.String("input", "", "the input frame WxH (multiples of 32; default: the frame of the project's commonest image size)")
+	asJSON := fs.Bool("json", false, "")
+	pos, err := parse(fs, args, 0, 1, modelsSynopsis)
+	if err != nil {
+		return err
+	}
+	if *out == "" {
+		return usageError("--out FILE.onnx is required\nusage: boxwright " + modelsSynopsis)
+	}
+	w, h := 0, 0
+	if *input != "" {
+		if w, h, err = parseSize("input", *input); err != nil {
+			return err
+		}
+		if w%32 != 0 || h%32 != 0 {
+			return usageError(fmt.Sprintf("--input %s: the detector halves its input five times: give multiples of 32", *input))
+		}
+	}
+	name := ""
+	if len(pos) == 1 {
+		name = pos[0]
+	}
+	s, ctx, done, err := openReading(projectPath)
+	if err != nil {
+		return err
+	}
+	defer done()
+	rep, err := ops.ExportModel(ctx, s, name, *out, w, h)
+	if err != nil {
+		return err
+	}
+	if *asJSON {
+		return writeJSON(stdout, map[string]any{"model": rep.Model, "out": rep.Path, "description": rep.Description, "width": rep.Width, "height": rep.Height,
+			"bytes": rep.Bytes, "frame": rep.Frame, "opset": onnxexport.Opset})
+	}
+	fmt.Fprintf(stdout, "model %s: wrote %s (%d bytes, ONNX opset %d, input %d×%d: %s) and its description %s\n",
+		rep.Model, rep.Path, rep.Bytes, onnxexport.Opset, rep.Width, rep.Height, rep.Frame, rep.Description)
+	fmt.Fprintln(stdout, "its suggestions carry its mistakes: review them as any model's")
 	return nil
 }

@@ -58,8 +58,16 @@ Commands:
   detect PROJECT.boxw [--model NAME] [--images unlabelled|all] [--min-score S]
         [--nms IOU|off] [--source NAME] [--save] [--json]
                                         run the current (or named) model
+  detect PROJECT.boxw --model FILE.onnx [--layout auto|detections|corners-scores|
+        centre-objectness-scores|centre-scores] [--input WxH] [--letterbox[=false]]
+        [--names FILE] [--onnxruntime LIB] [--describe] [--images unlabelled|all]
+        [--limit N] [--min-score S] [--nms IOU|off] [--map FROM=TO]...
+        [--create-classes|--drop-unknown] [--save] [--json]
+                                        run your own ONNX detector (README: your own model)
   models PROJECT.boxw [--use NAME] [--json]
                                         the detectors trained here (--use: make current)
+  models PROJECT.boxw export [NAME] --out FILE.onnx [--input WxH] [--json]
+                                        write a trained detector as ONNX, described beside it
   copy FROM TO [--json]                 copy a whole project into a new one, between files
                                         and servers (postgres://... or @NAME), all or nothing
   demo DIR [--no-open] [--seed N]       make the invented harbour demo in DIR

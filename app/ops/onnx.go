@@ -4,11 +4,13 @@ import (
 	"context"
 	"fmt"
 	"image"
+	"os"
 	"sort"
 	"strings"
 
 	"boxwright/app/backend"
 	"boxwright/project"
+	"boxwright/suggest/detector/onnxexport"
 	"boxwright/suggest/onnx"
 )
 
@@ -180,6 +182,74 @@ func RunModel(ctx context.Context, st backend.Project, j ModelRunJob) (ModelRunR
 	}
 	if rep.Saved, err = st.ReplaceSuggestionsOn(ctx, rep.Source, onImages, rep.Detections); err != nil {
 		return rep, err
+	}
+	return rep, nil
+}
+
+// ModelExport is what an export of a stored model wrote.
+type ModelExport struct {
+	Model, Path, Description string
+	Width, Height            int
+	Bytes                    int
+	// Frame says where the input size came from.
+	Frame string
+}
+
+// ExportModel writes a stored model (the current one when name is empty)
+// as an ONNX file with its description beside it. The input frame is
+// width×height, or, when 0, the frame of the project's most common image
+// size, which the model then sees exactly as in its own runs. Nothing is
+// written over an existing file, and a failed export leaves neither file.
+func ExportModel(ctx context.Context, st backend.Project, name, out string, width, height int) (ModelExport, error) {
+	pm, m, _, err := LoadModel(ctx, st, name)
+	if err != nil {
+		return ModelExport{}, err
+	}
+	rep := ModelExport{Model: pm.Name, Path: out, Description: onnx.DescriptionPath(out), Width: width, Height: height, Frame: "given"}
+	if width == 0 {
+		ims, err := st.Images(ctx)
+		if err != nil {
+			return rep, err
+		}
+		if len(ims) == 0 {
+			return rep, project.Explained(project.ErrInvalid, "the project has no images to take an input size from: give one (--input WxH, multiples of 32)")
+		}
+		type size struct{ w, h int }
+		count := map[size]int{}
+		best := size{}
+		for _, im := range ims {
+			s := size{im.Width, im.Height}
+			count[s]++
+			if count[s] > count[best] || (count[s] == count[best] && (s.w*s.h > best.w*best.h)) {
+				best = s
+			}
+		}
+		rep.Width, rep.Height = onnxexport.Frame(m, best.w, best.h)
+		rep.Frame = fmt.Sprintf("the frame of the project's commonest image size, %d×%d (%d of %s)", best.w, best.h, count[best], Plural(len(ims), "image"))
+	}
+	b, err := onnxexport.Export(m, pm.Name, rep.Width, rep.Height)
+	if err != nil {
+		return rep, err
+	}
+	rep.Bytes = len(b)
+	for _, p := range []string{out, rep.Description} {
+		if _, err := os.Lstat(p); err == nil {
+			return rep, project.Explained(project.ErrInvalid, "%s exists already: choose another name or remove it first", p)
+		}
+	}
+	tmp := out + ".partial"
+	if err := os.WriteFile(tmp, b, 0o644); err != nil {
+		os.Remove(tmp)
+		return rep, fmt.Errorf("export model %q: %w", pm.Name, err)
+	}
+	if err := onnxexport.Describe(m, rep.Width, rep.Height).Write(rep.Description); err != nil {
+		os.Remove(tmp)
+		return rep, fmt.Errorf("export model %q: %w", pm.Name, err)
+	}
+	if err := os.Rename(tmp, out); err != nil {
+		os.Remove(tmp)
+		os.Remove(rep.Description)
+		return rep, fmt.Errorf("export model %q: %w", pm.Name, err)
 	}
 	return rep, nil
 }

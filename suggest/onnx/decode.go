@@ -275,10 +275,6 @@ func classID(v float32, classes int, tensor string, row int) (int, error) {
 	return c, nil
 }
 
-// maxCandidates bounds what goes into the suppression (common practice:
-// dense detectors keep the best few tens of thousands).
-const maxCandidates = 30000
-
 // Detection is a box found on an image, in image pixels.
 type Detection struct {
 	Box   project.Box
@@ -290,9 +286,9 @@ type Detection struct {
 // back through the letterbox, clamped to the image, boxes under a pixel
 // dropped, per-class NMS at nmsIoU (≤ 0: none), then the best
 // maxDetections, best first (ties in candidate order).
-func Finish(cs []Candidate, lb Letterbox, nmsIoU float64, maxDetections int) []Detection {
+func Finish(cs []Candidate, lb Letterbox, nmsIoU float64, maxCandidates, maxDetections int) []Detection {
 	sort.SliceStable(cs, func(i, j int) bool { return cs[i].Score > cs[j].Score })
-	if len(cs) > maxCandidates {
+	if maxCandidates > 0 && len(cs) > maxCandidates {
 		cs = cs[:maxCandidates]
 	}
 	byClass := map[int][]Detection{}

@@ -136,7 +136,7 @@ func TestFinish(t *testing.T) {
 		{Box: project.Box{X0: -10, Y0: 20, X1: 5, Y1: 30}, Class: 1, Score: 0.3}, // clamped to the image
 		{Box: project.Box{X0: 50, Y0: 80, X1: 60, Y1: 90}, Class: 1, Score: 0.8}, // in the padding: dropped
 	}
-	got := Finish(cs, lb, 0.5, 10)
+	got := Finish(cs, lb, 0.5, 0, 10)
 	want := []Detection{
 		{Box: project.Box{X0: 22, Y0: 10, X1: 40, Y1: 30}, Class: 0, Score: 0.9},
 		{Box: project.Box{X0: 22, Y0: 10, X1: 40, Y1: 30}, Class: 1, Score: 0.4},
@@ -150,8 +150,13 @@ func TestFinish(t *testing.T) {
 			t.Errorf("%d: got %+v, want %+v", i, got[i], want[i])
 		}
 	}
-	if got := Finish(cs, lb, -1, 2); len(got) != 2 || got[0].Score != 0.9 || got[1].Score != 0.5 {
+	if got := Finish(cs, lb, -1, 0, 2); len(got) != 2 || got[0].Score != 0.9 || got[1].Score != 0.5 {
 		t.Errorf("no suppression, capped at 2: %+v", got)
+	}
+	// Two candidates into the suppression: the best of class 0 and the
+	// best of class 1 (the cap comes before the suppression).
+	if got := Finish(cs, lb, 0.5, 2, 10); len(got) != 1 || got[0].Score != 0.9 {
+		t.Errorf("two candidates, one in the image: %+v", got)
 	}
 }
 

@@ -35,8 +35,11 @@ type Description struct {
 	// NMSIoU is the IoU of per-class non-maximum suppression (default
 	// 0.5; negative: none, for models whose outputs are suppressed).
 	NMSIoU float64 `json:"nms_iou,omitempty"`
-	// MaxDetections caps the boxes per image, best first, before the
-	// suppression (default 100).
+	// MaxCandidates caps the candidates that go into the suppression,
+	// best first (default 30000, common practice for dense detectors).
+	MaxCandidates int `json:"max_candidates,omitempty"`
+	// MaxDetections caps the boxes per image after the suppression, best
+	// first (default 100).
 	MaxDetections int `json:"max_detections,omitempty"`
 }
 
@@ -143,6 +146,9 @@ func (d Description) Defaults() Description {
 	if d.NMSIoU == 0 {
 		d.NMSIoU = 0.5 // common practice
 	}
+	if d.MaxCandidates == 0 {
+		d.MaxCandidates = 30000
+	}
 	if d.MaxDetections == 0 {
 		d.MaxDetections = 100
 	}
@@ -193,6 +199,9 @@ func (d Description) Check(where string) error {
 	}
 	if !(d.NMSIoU <= 1) || math.IsNaN(d.NMSIoU) {
 		return bad("nms_iou", "%v: at most 1 (negative: no suppression)", d.NMSIoU)
+	}
+	if d.MaxCandidates < 1 || d.MaxCandidates > 1000000 {
+		return bad("max_candidates", "%d: from 1 to 1000000", d.MaxCandidates)
 	}
 	if d.MaxDetections < 1 || d.MaxDetections > 100000 {
 		return bad("max_detections", "%d: from 1 to 100000", d.MaxDetections)

@@ -590,7 +590,7 @@ func (m *Model) DetectPrepared(x []float32, lb Letterbox) ([]Detection, error) {
 	if err != nil {
 		return nil, err
 	}
-	return Finish(cs, lb, m.Desc.NMSIoU, m.Desc.MaxDetections), nil
+	return Finish(cs, lb, m.Desc.NMSIoU, m.Desc.MaxCandidates, m.Desc.MaxDetections), nil
 }
 
 // Candidates decodes raw outputs (checked against the fitted layout: a

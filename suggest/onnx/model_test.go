@@ -80,7 +80,7 @@ func reference(t *testing.T, m *Model, x []float32, lb Letterbox) refOutput {
 	sx, sy := lb.Scale()
 	spec := map[string]any{"model": m.Path, "input": in, "height": m.Desc.Input.Height, "width": m.Desc.Input.Width,
 		"layout": m.Desc.Output.Layout, "tensors": m.outputs, "num_classes": len(m.Classes), "min_score": m.Desc.MinScore,
-		"nms_iou": m.Desc.NMSIoU, "max_detections": m.Desc.MaxDetections, "multi_label": m.Desc.Output.MultiLabel,
+		"nms_iou": m.Desc.NMSIoU, "max_candidates": m.Desc.MaxCandidates, "max_detections": m.Desc.MaxDetections, "multi_label": m.Desc.Output.MultiLabel,
 		"letterbox": map[string]any{"scale_x": sx, "scale_y": sy, "pad_x": lb.Left, "pad_y": lb.Top, "image_width": lb.ImageW, "image_height": lb.ImageH}}
 	b, _ := json.Marshal(spec)
 	sp := filepath.Join(dir, "spec.json")
@@ -146,7 +146,7 @@ func TestModelsAgainstOpenCV(t *testing.T) {
 				if err != nil {
 					t.Fatal(err)
 				}
-				got := Finish(cs, lb, m.Desc.NMSIoU, m.Desc.MaxDetections)
+				got := Finish(cs, lb, m.Desc.NMSIoU, m.Desc.MaxCandidates, m.Desc.MaxDetections)
 				ref := reference(t, m, x, lb)
 				for _, o := range outs {
 					r := ref.Outputs[o.Name]

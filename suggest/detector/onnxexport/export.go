@@ -110,6 +110,7 @@ func Describe(m *detector.Model, width, height int) onnx.Description {
 		Classes:       append([]string(nil), m.Classes...),
 		MinScore:      DefaultMinScore,
 		NMSIoU:        DefaultNMSIoU,
+		MaxCandidates: DefaultMaxDetections, // the own pass keeps its best peaks before the suppression
 		MaxDetections: DefaultMaxDetections,
 	}
 }

@@ -22,6 +22,7 @@ SPEC.json:
    "num_classes": C,
    "min_score": s,                  keep scores >= s
    "nms_iou": t,                    per-class NMS at IoU t; t <= 0: none
+   "max_candidates": m,             (optional, default 30000)
    "max_detections": k,
    "multi_label": false,            true: every class >= s of a candidate
    "letterbox": {"scale": r, ("scale_x", "scale_y": per axis, default r) "pad_x": px, "pad_y": py,   (optional:
@@ -48,7 +49,7 @@ The decoding, step by step (in float64, from the float32 outputs):
      detections: box, score and class (rounded) as given.
      Best class only (the first of equal bests, as numpy's argmax) unless
      multi_label, then every class; kept if score >= min_score.
-  2. The best MAX_CANDIDATES (30000) of them: a stable sort by score,
+  2. The best max_candidates (default 30000) of them: a stable sort by score,
      descending (ties keep candidate order).
   3. Back to image pixels: x = (x_in - pad_x) / scale, y = (y_in - pad_y)
      / scale, clamped to [0, image_width] x [0, image_height]; boxes under
@@ -145,7 +146,7 @@ def decode(spec, t):
     boxes, scores, classes = candidates(spec, t)
     keep = scores >= float(spec["min_score"])
     boxes, scores, classes = boxes[keep], scores[keep], classes[keep]
-    order = np.argsort(-scores, kind="stable")[:MAX_CANDIDATES]
+    order = np.argsort(-scores, kind="stable")[: int(spec.get("max_candidates", MAX_CANDIDATES))]
     boxes, scores, classes = boxes[order], scores[order], classes[order]
     lb = spec.get("letterbox") or {}
     r = float(lb.get("scale", 1.0))
