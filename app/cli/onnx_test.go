@@ -181,7 +181,7 @@ func TestExportedDetectorRunsBack(t *testing.T) {
 		t.Errorf("export over an existing file: exit %d, %q", code, errs)
 	}
 	type det struct {
-		Image, Class           string
+		Image, Class          string
 		X0, Y0, X1, Y1, Score float64
 	}
 	var own, back struct {
