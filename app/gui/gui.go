@@ -370,10 +370,12 @@ func (u *ui) menu() *fyne.MainMenu {
 		fyne.NewMenuItem("Reject suggestions my boxes already cover…", u.askRejectCovered),
 		keyed("Review one by one…", fyne.KeyR, 0, u.showReviewQueue),
 		keyed("Review as a grid of crops…", fyne.KeyJ, 0, u.showCropGrid),
+		fyne.NewMenuItem("Run a model…", u.askRunModel),
 	}
 	u.reviewerItems = reviewing
 	sugg := fyne.NewMenu("Suggestions",
 		reviewing[0],
+		reviewing[8],
 		keyed("Find objects like the selected box…", fyne.KeyF, 0, u.askFindSimilar),
 		keyed("Train a detector on this project…", fyne.KeyT, 0, u.showTraining),
 		fyne.NewMenuItemSeparator(),

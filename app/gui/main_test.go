@@ -3,11 +3,15 @@ package gui
 import (
 	"os"
 	"testing"
+
+	"boxwright/suggest/onnx/onnxtest"
 )
 
 func TestMain(m *testing.M) {
 	backgroundThumbnails = false // see its comment; TestThumbnailsAreMade turns it on
-	os.Exit(m.Run())
+	code := m.Run()
+	onnxtest.Cleanup()
+	os.Exit(code)
 }
 
 // The image list gets its thumbnails in the background.

@@ -134,8 +134,23 @@ func (u *ui) probeAndImport(j ops.SuggestionJob) {
 // askUnknownClasses asks, for each class the file names and the project
 // lacks, whether to create it, map it to a project class or drop it.
 func (u *ui) askUnknownClasses(j ops.SuggestionJob, unknown map[string]int) {
-	names := make([]string, 0, len(unknown))
-	for n := range unknown {
+	labels := map[string]string{}
+	for n, c := range unknown {
+		labels[n] = fmt.Sprintf("%s (%d boxes)", n, c)
+	}
+	u.askClassRules("Import", labels, func(r ops.UnknownClassRule) {
+		j.Unknown = r
+		u.importSuggestions(j)
+	}, nil)
+}
+
+// askClassRules asks what to do with each class name the project lacks
+// (labels: name → how to show it): create it, drop its boxes or map it to
+// a project class; then calls use with the rules chosen, or cancelled
+// (when set) if the person cancels.
+func (u *ui) askClassRules(confirm string, labels map[string]string, use func(ops.UnknownClassRule), cancelled func()) {
+	names := make([]string, 0, len(labels))
+	for n := range labels {
 		names = append(names, n)
 	}
 	sort.Strings(names)
@@ -149,24 +164,27 @@ func (u *ui) askUnknownClasses(j ops.SuggestionJob, unknown map[string]int) {
 		s := widget.NewSelect(choices, nil)
 		s.SetSelected("create it")
 		sel[n] = s
-		items = append(items, widget.NewFormItem(fmt.Sprintf("%s (%d boxes)", n, unknown[n]), s))
+		items = append(items, widget.NewFormItem(labels[n], s))
 	}
-	d := dialog.NewForm("Classes the project does not have", "Import", "Cancel", items, func(ok bool) {
+	d := dialog.NewForm("Classes the project does not have", confirm, "Cancel", items, func(ok bool) {
 		if !ok {
+			if cancelled != nil {
+				cancelled()
+			}
 			return
 		}
-		j.Unknown = ops.UnknownClassRule{Map: map[string]string{}, CreateNames: map[string]bool{}, DropNames: map[string]bool{}}
+		r := ops.UnknownClassRule{Map: map[string]string{}, CreateNames: map[string]bool{}, DropNames: map[string]bool{}}
 		for n, s := range sel {
 			switch {
 			case s.Selected == "create it":
-				j.Unknown.CreateNames[n] = true
+				r.CreateNames[n] = true
 			case s.Selected == "drop its boxes":
-				j.Unknown.DropNames[n] = true
+				r.DropNames[n] = true
 			default:
-				j.Unknown.Map[n] = strings.TrimPrefix(s.Selected, "map to ")
+				r.Map[n] = strings.TrimPrefix(s.Selected, "map to ")
 			}
 		}
-		u.importSuggestions(j)
+		use(r)
 	}, u.win)
 	d.Resize(fyne.NewSize(520, 160+50*float32(len(names))))
 	d.Show()
