@@ -4,15 +4,17 @@
 GO       ?= go
 BIN      := bin/boxwright
 DEMO_DIR ?= build/demo
-# Debian packages for cgo (SQLite, OpenGL/GLFW window) and for the window
+# Debian packages for cgo (SQLite, OpenGL/GLFW window, libjpeg-turbo's JPEG decoder;
+# `-tags noturbojpeg` builds without it) and for the window
 # smoke test under a virtual X server; shapely is the reference for the IoU check,
 # scikit-learn, statsmodels and SciPy for the agreement statistics and matching,
 # OpenCV for non-maximum suppression, PyTorch for the detector's layer checks,
 # OpenBLAS for the detector's optional `-tags openblas` GEMM, ONNX (python3-onnx)
-# to build the test detectors that ONNX Runtime runs.
+# to build the test detectors that ONNX Runtime runs, djpeg (libjpeg-turbo-progs)
+# as the reference of the scaled JPEG decode.
 BUILD_DEBS := gcc pkg-config libgl1-mesa-dev libx11-dev libxcursor-dev libxrandr-dev \
-              libxinerama-dev libxi-dev libxxf86vm-dev
-TEST_DEBS := xvfb xauth xdotool imagemagick sqlite3 python3-shapely python3-sklearn python3-statsmodels python3-scipy python3-opencv python3-torch python3-onnx \
+              libxinerama-dev libxi-dev libxxf86vm-dev libturbojpeg0-dev
+TEST_DEBS := xvfb xauth xdotool imagemagick sqlite3 python3-shapely python3-sklearn python3-statsmodels python3-scipy python3-opencv python3-torch python3-onnx libjpeg-turbo-progs \
              libopenblas-dev postgresql
 
 export CGO_ENABLED := 1
@@ -41,6 +43,7 @@ vet:
 	@test -z "$$(gofmt -l $$(git ls-files '*.go' 2>/dev/null || find . -name '*.go'))" || { echo "gofmt would change:"; gofmt -l .; exit 1; }
 	$(GO) vet ./...
 	$(GO) vet -tags openblas ./suggest/detector/nn/...
+	$(GO) vet -tags noturbojpeg ./store/imagefile/...
 
 unit:
 	$(GO) test ./...

@@ -6,10 +6,12 @@ require (
 	fyne.io/fyne/v2 v2.7.1
 	github.com/jackc/pgx/v5 v5.13.0
 	github.com/mattn/go-sqlite3 v1.14.53
+	github.com/yalue/onnxruntime_go v1.26.0
 	golang.org/x/image v0.48.0
 	golang.org/x/term v0.48.0
 	gonum.org/v1/gonum v0.17.0
 	gonum.org/v1/plot v0.17.0
+	google.golang.org/protobuf v1.36.12
 )
 
 require (
@@ -17,9 +19,7 @@ require (
 	github.com/jackc/pgservicefile v0.0.0-20240606120523-5a60cdf6a761 // indirect
 	github.com/jackc/puddle/v2 v2.2.3 // indirect
 	github.com/rogpeppe/go-internal v1.16.0 // indirect
-	github.com/yalue/onnxruntime_go v1.26.0 // indirect
 	golang.org/x/sync v0.25.0 // indirect
-	google.golang.org/protobuf v1.36.12 // indirect
 )
 
 require (

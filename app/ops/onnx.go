@@ -131,7 +131,10 @@ func RunModel(ctx context.Context, st backend.Project, j ModelRunJob) (ModelRunR
 	if j.Limit > 0 && len(ims) > j.Limit {
 		ims = ims[:j.Limit]
 	}
-	r := &onnx.Runner{Model: m, Load: func(ctx context.Context, im project.Image) (image.Image, error) { return DecodeProjectImage(st, im) }}
+	r := &onnx.Runner{Model: m, Load: func(ctx context.Context, im project.Image) (image.Image, error) {
+		w, h := m.MinSize(im.Width, im.Height)
+		return DecodeProjectImageAtLeast(st, im, w, h)
+	}}
 	ps, err := r.Suggest(ctx, ims, nil, j.Progress)
 	var onImages []int64
 	for _, im := range ims {

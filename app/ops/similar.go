@@ -21,6 +21,19 @@ func DecodeProjectImage(st backend.Project, im project.Image) (image.Image, erro
 	return img, err
 }
 
+// DecodeProjectImageAtLeast decodes an image for a consumer that needs
+// only minW×minH of its pixels as displayed (a detector's input): JPEGs
+// at a DCT-domain scale (imagefile.DecodeAtLeast), so the image may be
+// smaller than im.Width×im.Height.
+func DecodeProjectImageAtLeast(st backend.Project, im project.Image, minW, minH int) (image.Image, error) {
+	path, err := st.FetchImage(context.Background(), im)
+	if err != nil {
+		return nil, err
+	}
+	img, _, err := imagefile.DecodeAtLeast(path, imagefile.DefaultMaxPixels, minW, minH)
+	return img, err
+}
+
 // StoreExemplarMatches replaces the exemplar's pending suggestions on the
 // searched images by the matches.
 func StoreExemplarMatches(ctx context.Context, st backend.Project, classID int64, byImage map[int64][]exemplar.Match) error {

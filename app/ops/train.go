@@ -254,7 +254,12 @@ func Detect(ctx context.Context, st backend.Project, j DetectJob) (DetectReport,
 		return rep, err
 	}
 	sg := &detector.Suggester{Model: m, Source: rep.Source, MinScore: j.MinScore, NMS: j.NMS,
-		Load: func(ctx context.Context, im project.Image) (image.Image, error) { return DecodeProjectImage(st, im) }}
+		Load: func(ctx context.Context, im project.Image) (image.Image, error) {
+			// The network sees the image at its input size: a JPEG is
+			// decoded at the smallest DCT scale that keeps that much.
+			w, h, _ := detector.Frame(im.Width, im.Height, m.InputSize)
+			return DecodeProjectImageAtLeast(st, im, min(w, im.Width), min(h, im.Height))
+		}}
 	ps, err := sg.Suggest(ctx, ims, classes, j.Progress)
 	var onImages []int64
 	for _, im := range ims {

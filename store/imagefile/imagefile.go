@@ -127,6 +127,49 @@ func Decode(path string, maxPixels int64) (image.Image, Info, error) {
 	return Orient(img, info.Orientation), info, nil
 }
 
+// DecodeAtLeast is Decode for a consumer that needs only minW×minH pixels
+// of the image as displayed (a detector's input, a thumbnail): a JPEG is
+// decoded by libjpeg-turbo at the smallest of its DCT-domain scales
+// (1/8 … 8/8) that is at least that large, which costs a fraction of a
+// full decode; other formats, and builds without libjpeg-turbo, decode at
+// full size. The image may so be smaller than Info's size, by a factor
+// that is not the same on both axes to the pixel (sides round up). The
+// file is not hashed (Info.SHA256 is empty).
+func DecodeAtLeast(path string, maxPixels int64, minW, minH int) (image.Image, Info, error) {
+	f, size, err := open(path)
+	if err != nil {
+		return nil, Info{}, err
+	}
+	defer f.Close()
+	info, err := probe(f, size, path, maxPixels)
+	if err != nil {
+		return nil, Info{}, err
+	}
+	var img image.Image
+	if info.Format == "jpeg" && TurboJPEG {
+		data := make([]byte, size)
+		if _, err := f.ReadAt(data, 0); err != nil {
+			return nil, Info{}, fmt.Errorf("reading image %s: %w", path, err)
+		}
+		if info.Orientation >= 5 { // stored sideways
+			minW, minH = minH, minW
+		}
+		rgba, ok, err := turboScaled(data, minW, minH)
+		switch {
+		case ok && err != nil:
+			return nil, Info{}, fail(path, ErrUnreadable, "the JPEG data is damaged: %v", err)
+		case ok:
+			img = rgba
+		}
+	}
+	if img == nil {
+		if img, err = decodePixels(io.NewSectionReader(f, 0, size), info.Format); err != nil {
+			return nil, Info{}, decodeError(path, info.Format, err)
+		}
+	}
+	return Orient(img, info.Orientation), info, nil
+}
+
 // Verify is Probe that also decodes every pixel and throws them away, so
 // that a file whose header and end marker are intact but whose image data
 // is damaged (a flipped byte in the compressed data, a wrong checksum, a

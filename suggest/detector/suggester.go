@@ -16,8 +16,8 @@ type Suggester struct {
 	Model *Model
 	// Source is the suggestions' source name (the stored model's name).
 	Source string
-	// Load reads an image; a failure is recorded in Failed and the run
-	// goes on.
+	// Load reads an image, at its size (im.Width×im.Height) or smaller;
+	// a failure is recorded in Failed and the run goes on.
 	Load     func(ctx context.Context, im project.Image) (image.Image, error)
 	MinScore float64
 	// NMS is the IoU of per-class non-maximum suppression (0: none).
@@ -55,7 +55,11 @@ func (s *Suggester) Suggest(ctx context.Context, images []project.Image, classes
 			s.Failed[im.ID] = fmt.Sprintf("%s: %v", im.Path, err)
 			continue
 		}
-		for _, d := range s.Model.DetectImage(img, topK, s.MinScore, s.NMS) {
+		w, h := im.Width, im.Height
+		if w <= 0 || h <= 0 {
+			w, h = img.Bounds().Dx(), img.Bounds().Dy()
+		}
+		for _, d := range s.Model.DetectScaled(img, w, h, topK, s.MinScore, s.NMS) {
 			name := s.Model.Classes[d.Class]
 			out = append(out, suggest.Proposal{ImageID: im.ID, ClassID: ids[name], ClassName: name, Box: d.Box, Score: d.Score,
 				Where: fmt.Sprintf("image %d (%s), model %s", im.ID, im.Path, s.Source)})

@@ -392,15 +392,22 @@ func validate(ctx context.Context, m *Model, val []cached, load func(context.Con
 // in the image's pixels at or above minScore, after per-class NMS at nmsIoU
 // (0: none).
 func (m *Model) DetectImage(img image.Image, topK int, minScore, nmsIoU float64) []Detection {
+	b := img.Bounds()
+	return m.DetectScaled(img, b.Dx(), b.Dy(), topK, minScore, nmsIoU)
+}
+
+// DetectScaled is DetectImage on a smaller copy of an image of w×h pixels
+// (a JPEG decoded at a DCT-domain scale): the boxes are in the image's
+// own pixels.
+func (m *Model) DetectScaled(img image.Image, w, h int, topK int, minScore, nmsIoU float64) []Detection {
 	s, sc := PrepareImage(img, nil, nil, m.InputSize)
+	sc *= float64(img.Bounds().Dx()) / float64(w)
 	x := nn.New[float32](1, 3, s.H, s.W, s.Pixels)
 	out := m.Net.Forward(x, false)
-	h, w := out.Heat.H, out.Heat.W
 	heat := make([]float32, len(out.Heat.Data))
 	for i, v := range out.Heat.Data {
 		heat[i] = float32(1 / (1 + math.Exp(-float64(v))))
 	}
-	ds := Decode(heat, out.Box.Data, m.Net.Classes, h, w, topK, minScore)
-	b := img.Bounds()
-	return ToImage(ds, sc, b.Dx(), b.Dy(), nmsIoU)
+	ds := Decode(heat, out.Box.Data, m.Net.Classes, out.Heat.H, out.Heat.W, topK, minScore)
+	return ToImage(ds, sc, w, h, nmsIoU)
 }

@@ -1,8 +1,10 @@
 package onnx
 
 import (
+	"cmp"
 	"fmt"
 	"math"
+	"slices"
 	"sort"
 	"strings"
 
@@ -10,15 +12,15 @@ import (
 	"boxwright/suggest"
 )
 
-// Output is one output tensor of a run, as float32 (class ids of integer
+// RawOutput is one output tensor of a run, as float32 (class ids of integer
 // type are converted: they are small).
-type output struct {
+type RawOutput struct {
 	Name  string
 	Shape []int64
 	Data  []float32
 }
 
-func (o output) String() string { return fmt.Sprintf("%s %s", o.Name, shapeString(o.Shape)) }
+func (o RawOutput) String() string { return fmt.Sprintf("%s %s", o.Name, shapeString(o.Shape)) }
 
 func shapeString(s []int64) string {
 	parts := make([]string, len(s))
@@ -62,7 +64,7 @@ type layoutPlan struct {
 // that fits) to the outputs; classes is the number of class names known
 // (0: unknown), which settles the shapes that two layouts could both
 // explain. The error lists the shapes found and the layouts tried.
-func planLayout(layout string, outs []output, classes int) (layoutPlan, error) {
+func planLayout(layout string, outs []RawOutput, classes int) (layoutPlan, error) {
 	tried := Layouts
 	if layout != LayoutAuto {
 		tried = []string{layout}
@@ -95,7 +97,7 @@ func planLayout(layout string, outs []output, classes int) (layoutPlan, error) {
 	return layoutPlan{}, project.Explained(project.ErrInvalid, "the outputs %s fit no output layout (%s)", strings.Join(found, ", "), strings.Join(why, "; "))
 }
 
-func fitLayout(layout string, outs []output, classes int) (layoutPlan, error) {
+func fitLayout(layout string, outs []RawOutput, classes int) (layoutPlan, error) {
 	p := layoutPlan{layout: layout}
 	switch layout {
 	case LayoutCentreScores, LayoutCentreObjectness:
@@ -177,7 +179,7 @@ func fitLayout(layout string, outs []output, classes int) (layoutPlan, error) {
 // is at least minScore (each class that passes when multiLabel, else the
 // best class), boxes in input pixels. A class id outside 0..classes-1 is
 // an error naming the row.
-func (p layoutPlan) candidates(outs []output, o Output, inW, inH int, classes int, minScore float64) ([]Candidate, error) {
+func (p layoutPlan) candidates(outs []RawOutput, o Output, inW, inH int, classes int, minScore float64) ([]Candidate, error) {
 	var out []Candidate
 	sx, sy := 1.0, 1.0
 	if o.Normalised {
@@ -287,7 +289,7 @@ type Detection struct {
 // dropped, per-class NMS at nmsIoU (≤ 0: none), then the best
 // maxDetections, best first (ties in candidate order).
 func Finish(cs []Candidate, lb Letterbox, nmsIoU float64, maxCandidates, maxDetections int) []Detection {
-	sort.SliceStable(cs, func(i, j int) bool { return cs[i].Score > cs[j].Score })
+	slices.SortStableFunc(cs, func(a, b Candidate) int { return cmp.Compare(b.Score, a.Score) })
 	if maxCandidates > 0 && len(cs) > maxCandidates {
 		cs = cs[:maxCandidates]
 	}
@@ -320,7 +322,7 @@ func Finish(cs []Candidate, lb Letterbox, nmsIoU float64, maxCandidates, maxDete
 			out = append(out, list[i])
 		}
 	}
-	sort.SliceStable(out, func(i, j int) bool { return out[i].Score > out[j].Score })
+	slices.SortStableFunc(out, func(a, b Detection) int { return cmp.Compare(b.Score, a.Score) })
 	if maxDetections > 0 && len(out) > maxDetections {
 		out = out[:maxDetections]
 	}

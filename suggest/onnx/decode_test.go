@@ -11,9 +11,9 @@ import (
 // Auto-detection from shapes alone, with and without the number of
 // classes known, and the ambiguous shapes refused with what fits.
 func TestPlanLayoutFromShapes(t *testing.T) {
-	one := func(shape ...int64) []output { return []output{{Name: "out", Shape: shape}} }
+	one := func(shape ...int64) []RawOutput { return []RawOutput{{Name: "out", Shape: shape}} }
 	cases := []struct {
-		outs       []output
+		outs       []RawOutput
 		classes    int
 		layout     string
 		transposed bool
@@ -25,8 +25,8 @@ func TestPlanLayoutFromShapes(t *testing.T) {
 		{one(1, 300, 8), 3, LayoutCentreObjectness, false, 300, 3, ""},
 		{one(300, 8), 3, LayoutCentreObjectness, false, 300, 3, ""},
 		{one(1, 20, 6), 3, LayoutDetections, false, 20, 0, ""},
-		{[]output{{Name: "b", Shape: []int64{1, 50, 4}}, {Name: "s", Shape: []int64{1, 50, 3}}}, 0, LayoutCornersScores, false, 50, 3, ""},
-		{[]output{{Name: "b", Shape: []int64{1, 50, 4}}, {Name: "s", Shape: []int64{1, 50}}, {Name: "i", Shape: []int64{1, 50}}}, 3, LayoutCornersScores, false, 50, 0, ""},
+		{[]RawOutput{{Name: "b", Shape: []int64{1, 50, 4}}, {Name: "s", Shape: []int64{1, 50, 3}}}, 0, LayoutCornersScores, false, 50, 3, ""},
+		{[]RawOutput{{Name: "b", Shape: []int64{1, 50, 4}}, {Name: "s", Shape: []int64{1, 50}}, {Name: "i", Shape: []int64{1, 50}}}, 3, LayoutCornersScores, false, 50, 0, ""},
 		// Without names, one tensor cannot say whether it holds an objectness.
 		{one(1, 300, 8), 0, "", false, 0, 0, "fit more than one layout: centre-objectness-scores (3 classes) or centre-scores (4 classes)"},
 		// Six values: a detection, or a box and two class scores.
@@ -84,7 +84,7 @@ func TestCandidatesByLayout(t *testing.T) {
 		if tr {
 			shape = []int64{1, 6, 2}
 		}
-		outs := []output{{Name: "o", Shape: shape, Data: flat(rows, tr)}}
+		outs := []RawOutput{{Name: "o", Shape: shape, Data: flat(rows, tr)}}
 		p, err := planLayout(LayoutCentreScores, outs, 2)
 		if err != nil {
 			t.Fatal(err)
@@ -99,14 +99,14 @@ func TestCandidatesByLayout(t *testing.T) {
 		}
 	}
 	// Objectness × class score: 0.5 × 0.9 passes 0.25, 0.5 × 0.3 does not.
-	obj := []output{{Name: "o", Shape: []int64{1, 1, 7}, Data: []float32{50, 40, 20, 10, 0.5, 0.9, 0.3}}}
+	obj := []RawOutput{{Name: "o", Shape: []int64{1, 1, 7}, Data: []float32{50, 40, 20, 10, 0.5, 0.9, 0.3}}}
 	p, _ := planLayout(LayoutCentreObjectness, obj, 2)
 	got, _ := p.candidates(obj, Output{}, 100, 100, 2, 0.25)
 	if len(got) != 1 || got[0].Class != 0 || got[0].Score != float64(float32(0.5))*float64(float32(0.9)) {
 		t.Errorf("objectness: %+v", got)
 	}
 	// Normalised corners with class ids; an id outside the names is named.
-	cs := []output{{Name: "boxes", Shape: []int64{1, 2, 4}, Data: []float32{0.1, 0.2, 0.5, 0.6, 0, 0, 0.5, 0.5}},
+	cs := []RawOutput{{Name: "boxes", Shape: []int64{1, 2, 4}, Data: []float32{0.1, 0.2, 0.5, 0.6, 0, 0, 0.5, 0.5}},
 		{Name: "scores", Shape: []int64{1, 2}, Data: []float32{0.8, 0.9}}, {Name: "ids", Shape: []int64{1, 2}, Data: []float32{2, 1}}}
 	p, _ = planLayout(LayoutCornersScores, cs, 3)
 	got, err := p.candidates(cs, Output{Normalised: true}, 200, 100, 3, 0.25)
@@ -117,7 +117,7 @@ func TestCandidatesByLayout(t *testing.T) {
 		t.Errorf("class id outside the names: %v", err)
 	}
 	// Detections: rows with no score are padding.
-	ds := []output{{Name: "dets", Shape: []int64{1, 2, 6}, Data: []float32{1, 2, 30, 40, 0.7, 1, 0, 0, 0, 0, 0, 0}}}
+	ds := []RawOutput{{Name: "dets", Shape: []int64{1, 2, 6}, Data: []float32{1, 2, 30, 40, 0.7, 1, 0, 0, 0, 0, 0, 0}}}
 	p, _ = planLayout(LayoutDetections, ds, 0)
 	got, err = p.candidates(ds, Output{}, 100, 100, 3, 0)
 	if err != nil || len(got) != 1 || got[0].Class != 1 || got[0].Box != (project.Box{X0: 1, Y0: 2, X1: 30, Y1: 40}) {

@@ -102,3 +102,31 @@ func TestLetterboxTensor(t *testing.T) {
 		t.Errorf("padding: %v %v", at(0, 0, 0), at(2, 3, 3))
 	}
 }
+
+// The one-pass RGBA path gives the values of the general path (the
+// image scaled by golang.org/x/image/draw's ApproxBiLinear, then
+// normalised) to the bit, for odd sizes up and down, both alignments,
+// both channel orders and a grey pad.
+func TestTensorRGBAMatchesDraw(t *testing.T) {
+	r := rand.New(rand.NewPCG(9, 9))
+	for range 60 {
+		w, h := 1+r.IntN(300), 1+r.IntN(300)
+		src := image.NewRGBA(image.Rect(0, 0, w, h))
+		for i := range src.Pix {
+			src.Pix[i] = uint8(r.IntN(256))
+		}
+		for i := 3; i < len(src.Pix); i += 4 {
+			src.Pix[i] = 255
+		}
+		pad := float64(r.IntN(256))
+		in := Input{Pad: &pad, Channels: []string{"rgb", "bgr"}[r.IntN(2)], Scale: 1.0 / 255, Mean: []float64{0.1, 0.45, 0.3}, Std: []float64{0.2, 0.25, 0.5}}
+		lb := FitLetterbox(w*(1+r.IntN(3)), h*(1+r.IntN(3)), 1+r.IntN(200), 1+r.IntN(200), "letterbox", []string{"centre", "top-left"}[r.IntN(2)])
+		fast := lb.Tensor(src, in)
+		slow := lb.Tensor(struct{ image.Image }{src}, in) // not *image.RGBA: the general path
+		for i := range fast {
+			if fast[i] != slow[i] {
+				t.Fatalf("%d×%d into %+v, %s: value %d is %v, the general path %v", w, h, lb, in.Channels, i, fast[i], slow[i])
+			}
+		}
+	}
+}

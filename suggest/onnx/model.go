@@ -369,6 +369,9 @@ func Open(path string, opt OpenOptions) (*Model, error) {
 	if opt.Threads > 0 {
 		so.SetIntraOpNumThreads(opt.Threads)
 	}
+	// The runtime's threads would otherwise spin between runs and starve
+	// the goroutines that decode the next images.
+	so.AddSessionConfigEntry("session.intra_op.allow_spinning", "0")
 	m.session, err = ort.NewDynamicAdvancedSessionWithONNXData(data, []string{m.input}, m.outputs, so)
 	if err != nil {
 		return nil, project.Explained(project.ErrInvalid, "model %s: ONNX Runtime %s cannot load it: %v", path, ort.GetVersion(), err)
@@ -377,7 +380,7 @@ func Open(path string, opt OpenOptions) (*Model, error) {
 	// (a model may leave them open) before any image is touched.
 	in := m.Desc.Input
 	blank := image.NewRGBA(image.Rect(0, 0, in.Width, in.Height))
-	outs, err := m.run(FitLetterbox(in.Width, in.Height, in.Width, in.Height, in.Resize, in.Align).Tensor(blank, in))
+	outs, err := m.Infer(FitLetterbox(in.Width, in.Height, in.Width, in.Height, in.Resize, in.Align).Tensor(blank, in))
 	if err != nil {
 		m.Close()
 		return nil, err
@@ -402,7 +405,7 @@ func Open(path string, opt OpenOptions) (*Model, error) {
 	return m, nil
 }
 
-func describeOutputs(outs []output) string {
+func describeOutputs(outs []RawOutput) string {
 	s := make([]string, len(outs))
 	for i, o := range outs {
 		s[i] = o.String()
@@ -521,8 +524,9 @@ func tensorNames(ts []Tensor) string {
 	return strings.Join(s, ", ")
 }
 
-// run feeds one input tensor and returns the outputs decoded.
-func (m *Model) run(x []float32) ([]output, error) {
+// Infer runs the model on one input tensor (Prepare) and returns the
+// outputs it decodes, raw.
+func (m *Model) Infer(x []float32) ([]RawOutput, error) {
 	d := m.Desc.Input
 	in, err := ort.NewTensor(ort.NewShape(1, 3, int64(d.Height), int64(d.Width)), x)
 	if err != nil {
@@ -543,9 +547,9 @@ func (m *Model) run(x []float32) ([]output, error) {
 	if err != nil {
 		return nil, fmt.Errorf("model %s: running it: %w", m.Path, err)
 	}
-	outs := make([]output, len(vals))
+	outs := make([]RawOutput, len(vals))
 	for i, v := range vals {
-		o := output{Name: m.outputs[i], Shape: []int64(v.GetShape())}
+		o := RawOutput{Name: m.outputs[i], Shape: []int64(v.GetShape())}
 		switch t := v.(type) {
 		case *ort.Tensor[float32]:
 			o.Data = append([]float32(nil), t.GetData()...)
@@ -575,14 +579,29 @@ func (m *Model) Detect(img image.Image) ([]Detection, error) {
 // beside) the inference.
 func (m *Model) Prepare(img image.Image) ([]float32, Letterbox) {
 	b := img.Bounds()
+	return m.PrepareScaled(img, b.Dx(), b.Dy())
+}
+
+// PrepareScaled is Prepare for a smaller copy of an image of w×h pixels
+// (a JPEG decoded at a DCT-domain scale): the letterbox, and so the boxes,
+// are of the image itself.
+func (m *Model) PrepareScaled(img image.Image, w, h int) ([]float32, Letterbox) {
 	d := m.Desc.Input
-	lb := FitLetterbox(b.Dx(), b.Dy(), d.Width, d.Height, d.Resize, d.Align)
+	lb := FitLetterbox(w, h, d.Width, d.Height, d.Resize, d.Align)
 	return lb.Tensor(img, d), lb
+}
+
+// MinSize is the size of an image of w×h pixels inside the model's input:
+// the least of its pixels a run needs.
+func (m *Model) MinSize(w, h int) (int, int) {
+	d := m.Desc.Input
+	lb := FitLetterbox(w, h, d.Width, d.Height, d.Resize, d.Align)
+	return min(lb.Width, w), min(lb.Height, h)
 }
 
 // DetectPrepared runs the model on a prepared input and decodes it.
 func (m *Model) DetectPrepared(x []float32, lb Letterbox) ([]Detection, error) {
-	outs, err := m.run(x)
+	outs, err := m.Infer(x)
 	if err != nil {
 		return nil, err
 	}
@@ -595,7 +614,7 @@ func (m *Model) DetectPrepared(x []float32, lb Letterbox) ([]Detection, error) {
 
 // Candidates decodes raw outputs (checked against the fitted layout: a
 // model whose output shapes change from run to run is refused).
-func (m *Model) Candidates(outs []output, lb Letterbox) ([]Candidate, error) {
+func (m *Model) Candidates(outs []RawOutput, lb Letterbox) ([]Candidate, error) {
 	plan, err := planLayout(m.plan.layout, outs, len(m.Classes))
 	if err != nil {
 		return nil, fmt.Errorf("model %s: %w", m.Path, err)

@@ -138,7 +138,7 @@ func TestModelsAgainstOpenCV(t *testing.T) {
 			}
 			for what, pic := range pictures {
 				x, lb := m.Prepare(pic)
-				outs, err := m.run(x)
+				outs, err := m.Infer(x)
 				if err != nil {
 					t.Fatal(err)
 				}

@@ -16,8 +16,9 @@ import (
 // project's class ID where the project has that class.
 type Runner struct {
 	Model *Model
-	// Load reads an image (pixels as displayed); a failure is recorded in
-	// Failed and the run goes on.
+	// Load reads an image (pixels as displayed), at its size
+	// (im.Width×im.Height) or smaller (MinSize says how small it may be);
+	// a failure is recorded in Failed and the run goes on.
 	Load func(ctx context.Context, im project.Image) (image.Image, error)
 	// Workers read and prepare images ahead of the model (0: 2).
 	Workers int
@@ -73,7 +74,11 @@ func (r *Runner) Suggest(ctx context.Context, images []project.Image, classes []
 					slots[i] <- prepared{err: err}
 					continue
 				}
-				x, lb := r.Model.Prepare(img)
+				w, h := images[i].Width, images[i].Height
+				if w <= 0 || h <= 0 {
+					w, h = img.Bounds().Dx(), img.Bounds().Dy()
+				}
+				x, lb := r.Model.PrepareScaled(img, w, h)
 				slots[i] <- prepared{x: x, lb: lb}
 			}
 		}()
@@ -95,36 +100,76 @@ func (r *Runner) Suggest(ctx context.Context, images []project.Image, classes []
 	}()
 	defer wg.Wait()
 
+	// The model runs back to back; decoding its outputs, the letterbox
+	// and the suppression happen beside the next run, in order.
+	type inferred struct {
+		i    int
+		outs []RawOutput
+		lb   Letterbox
+		err  error // the image could not be read
+	}
+	finish := make(chan inferred, 2)
 	var out []suggest.Proposal
+	finished := make(chan error, 1)
+	go func() {
+		var ferr error
+		for f := range finish {
+			if ferr != nil {
+				continue
+			}
+			im := images[f.i]
+			if f.err != nil {
+				r.mu.Lock()
+				r.Failed[im.ID] = fmt.Sprintf("%s: %v", im.Path, f.err)
+				r.mu.Unlock()
+			} else {
+				cs, err := r.Model.Candidates(f.outs, f.lb)
+				if err != nil {
+					ferr = fmt.Errorf("image %d (%s): %w", im.ID, im.Path, err)
+					continue
+				}
+				for _, d := range Finish(cs, f.lb, r.Model.Desc.NMSIoU, r.Model.Desc.MaxCandidates, r.Model.Desc.MaxDetections) {
+					name := r.Model.Classes[d.Class]
+					out = append(out, suggest.Proposal{ImageID: im.ID, ClassID: ids[name], ClassName: name, Box: d.Box, Score: d.Score,
+						Where: fmt.Sprintf("image %d (%s), model %s", im.ID, im.Path, r.Model.Path)})
+				}
+			}
+			if progress != nil {
+				progress(f.i+1, len(images))
+			}
+		}
+		finished <- ferr
+	}()
+	stop := func(err error) ([]suggest.Proposal, error) {
+		close(finish)
+		if ferr := <-finished; err == nil {
+			err = ferr
+		}
+		if err != nil {
+			return nil, err
+		}
+		return out, nil
+	}
 	for i, im := range images {
 		var p prepared
 		select {
 		case p = <-slots[i]:
 			<-ahead
 		case <-ctx.Done():
-			return nil, ctx.Err()
+			return stop(ctx.Err())
 		}
 		if err := ctx.Err(); err != nil {
-			return nil, err
+			return stop(err)
 		}
 		if p.err != nil {
-			r.mu.Lock()
-			r.Failed[im.ID] = fmt.Sprintf("%s: %v", im.Path, p.err)
-			r.mu.Unlock()
-		} else {
-			ds, err := r.Model.DetectPrepared(p.x, p.lb)
-			if err != nil {
-				return nil, fmt.Errorf("image %d (%s): %w", im.ID, im.Path, err)
-			}
-			for _, d := range ds {
-				name := r.Model.Classes[d.Class]
-				out = append(out, suggest.Proposal{ImageID: im.ID, ClassID: ids[name], ClassName: name, Box: d.Box, Score: d.Score,
-					Where: fmt.Sprintf("image %d (%s), model %s", im.ID, im.Path, r.Model.Path)})
-			}
+			finish <- inferred{i: i, err: p.err}
+			continue
 		}
-		if progress != nil {
-			progress(i+1, len(images))
+		outs, err := r.Model.Infer(p.x)
+		if err != nil {
+			return stop(fmt.Errorf("image %d (%s): %w", im.ID, im.Path, err))
 		}
+		finish <- inferred{i: i, outs: outs, lb: p.lb}
 	}
-	return out, nil
+	return stop(nil)
 }
