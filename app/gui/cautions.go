@@ -18,4 +18,6 @@ Agreement figures: the verbal bands shown beside agreement figures are conventio
 
 Model figures and suggestions: average precision and suggested score thresholds describe this model on these images as labelled here, not performance elsewhere. Suggestions accepted in bulk carry the model's mistakes into the ground truth; review samples of them.
 
+Models from elsewhere: a detector run from an ONNX file brings the biases of the data it was trained on. Its suggestions are proposals to check; its source name records the file and its version, so keep that with any dataset you hand on.
+
 Safety: datasets for safety-relevant detectors need the validation that their field's standards require; Boxwright's figures do not replace it.`
