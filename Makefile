@@ -26,7 +26,8 @@ export CGO_ENABLED := 1
 # which ONNX Runtime 1.24 and later serve.
 ORT_VERSION := 1.30.0
 ORT_SHA256  := ffb75a925ba05e47b235bb66e3e3911714a80b328a9c9425539feb204aa32a23
-ORT_LIB     := build/onnxruntime/libonnxruntime.so.1
+ORT_DIR     := build/onnxruntime
+ORT_LIB     := $(ORT_DIR)/libonnxruntime.so.1
 export BOXWRIGHT_ONNXRUNTIME ?= $(CURDIR)/$(ORT_LIB)
 
 .PHONY: run test deps test-deps onnxruntime build vet unit fuzz smoke killtest loadtest bench clean
@@ -93,7 +94,7 @@ test-deps:
 onnxruntime: $(ORT_LIB)
 
 $(ORT_LIB):
-	@.ci/fetch-onnxruntime.sh $(ORT_VERSION) $(dir $(ORT_LIB)) $(ORT_SHA256)
+	@.ci/fetch-onnxruntime.sh $(ORT_VERSION) $(ORT_DIR) $(ORT_SHA256)
 
 clean:
 	rm -rf bin build
