@@ -106,3 +106,35 @@ func NMS(boxes []project.Box, scores []float64, iou float64) []int {
 	}
 	return kept
 }
+
+// NMSByClass is NMS within each class: the indices of the boxes kept,
+// class by class in ascending order, each class's best first. An iou of 0
+// or less keeps every box, in input order within its class.
+func NMSByClass(boxes []project.Box, scores []float64, classes []int, iou float64) []int {
+	byClass := map[int][]int{}
+	for i, c := range classes {
+		byClass[c] = append(byClass[c], i)
+	}
+	order := make([]int, 0, len(byClass))
+	for c := range byClass {
+		order = append(order, c)
+	}
+	slices.Sort(order)
+	var out []int
+	for _, c := range order {
+		idx := byClass[c]
+		if iou <= 0 {
+			out = append(out, idx...)
+			continue
+		}
+		bs := make([]project.Box, len(idx))
+		ss := make([]float64, len(idx))
+		for k, i := range idx {
+			bs[k], ss[k] = boxes[i], scores[i]
+		}
+		for _, k := range NMS(bs, ss, iou) {
+			out = append(out, idx[k])
+		}
+	}
+	return out
+}

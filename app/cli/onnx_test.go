@@ -13,6 +13,17 @@ import (
 	"boxwright/suggest/onnx/onnxtest"
 )
 
+// modelRunJSON is what detect --model --json prints, in part.
+type modelRunJSON struct {
+	Source     string           `json:"source"`
+	Layout     string           `json:"layout"`
+	Images     int              `json:"images"`
+	Classes    []string         `json:"classes"`
+	Detections []map[string]any `json:"detections"`
+	Dropped    int              `json:"dropped_unknown_class"`
+	Created    []string         `json:"classes_created"`
+}
+
 func suggestionCount(t *testing.T, path string) (int, int) {
 	t.Helper()
 	s, err := backend.OpenForReading(path)
@@ -80,15 +91,7 @@ func TestDetectWithModelFile(t *testing.T) {
 		t.Fatalf("refused runs changed the suggestions: %d → %d", before, n)
 	}
 
-	var rep struct {
-		Source     string           `json:"source"`
-		Layout     string           `json:"layout"`
-		Images     int              `json:"images"`
-		Classes    []string         `json:"classes"`
-		Detections []map[string]any `json:"detections"`
-		Dropped    int              `json:"dropped_unknown_class"`
-		Created    []string         `json:"classes_created"`
-	}
+	var rep modelRunJSON
 	out := mustCLI(t, with("--map", "rover=sailboat", "--drop-unknown", "--json")...)
 	if err := json.Unmarshal([]byte(out), &rep); err != nil {
 		t.Fatalf("%v in %s", err, out)
@@ -106,15 +109,7 @@ func TestDetectWithModelFile(t *testing.T) {
 	}
 
 	out = mustCLI(t, with("--create-classes", "--save", "--limit", "2", "--describe", "--json")...)
-	rep = struct {
-		Source     string           `json:"source"`
-		Layout     string           `json:"layout"`
-		Images     int              `json:"images"`
-		Classes    []string         `json:"classes"`
-		Detections []map[string]any `json:"detections"`
-		Dropped    int              `json:"dropped_unknown_class"`
-		Created    []string         `json:"classes_created"`
-	}{}
+	rep = modelRunJSON{}
 	json.Unmarshal([]byte(out), &rep)
 	if rep.Images != 2 || len(rep.Created) != 3 || !strings.HasPrefix(rep.Source, "onnx:centre_scores.onnx@") {
 		t.Errorf("created and saved: %+v", rep)

@@ -231,35 +231,22 @@ func isPeak(p []float32, w, h, x, y int) bool {
 // input pixels per image pixel), clamps them to it, and applies per-class
 // non-maximum suppression at nmsIoU (0: none).
 func ToImage(ds []Detection, scale float64, imgW, imgH int, nmsIoU float64) []Detection {
-	var out []Detection
-	byClass := map[int][]Detection{}
+	var in []Detection
+	var boxes []project.Box
+	var scores []float64
+	var classes []int
 	for _, d := range ds {
 		b := project.Box{X0: d.Box.X0 / scale, Y0: d.Box.Y0 / scale, X1: d.Box.X1 / scale, Y1: d.Box.Y1 / scale}.Clamp(float64(imgW), float64(imgH))
 		if b.Width() < 1 || b.Height() < 1 {
 			continue
 		}
 		d.Box = b
-		byClass[d.Class] = append(byClass[d.Class], d)
+		in = append(in, d)
+		boxes, scores, classes = append(boxes, b), append(scores, d.Score), append(classes, d.Class)
 	}
-	classes := make([]int, 0, len(byClass))
-	for k := range byClass {
-		classes = append(classes, k)
-	}
-	sort.Ints(classes)
-	for _, k := range classes {
-		list := byClass[k]
-		if nmsIoU <= 0 {
-			out = append(out, list...)
-			continue
-		}
-		boxes := make([]project.Box, len(list))
-		scores := make([]float64, len(list))
-		for i, d := range list {
-			boxes[i], scores[i] = d.Box, d.Score
-		}
-		for _, i := range suggest.NMS(boxes, scores, nmsIoU) {
-			out = append(out, list[i])
-		}
+	out := make([]Detection, 0, len(in))
+	for _, i := range suggest.NMSByClass(boxes, scores, classes, nmsIoU) {
+		out = append(out, in[i])
 	}
 	sort.SliceStable(out, func(i, j int) bool { return out[i].Score > out[j].Score })
 	return out

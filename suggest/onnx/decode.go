@@ -5,7 +5,6 @@ import (
 	"fmt"
 	"math"
 	"slices"
-	"sort"
 	"strings"
 
 	"boxwright/project"
@@ -293,34 +292,21 @@ func Finish(cs []Candidate, lb Letterbox, nmsIoU float64, maxCandidates, maxDete
 	if maxCandidates > 0 && len(cs) > maxCandidates {
 		cs = cs[:maxCandidates]
 	}
-	byClass := map[int][]Detection{}
-	var order []int
+	var ds []Detection
+	var boxes []project.Box
+	var scores []float64
+	var classes []int
 	for _, c := range cs {
 		b := lb.ToImage(c.Box).Clamp(float64(lb.ImageW), float64(lb.ImageH))
 		if b.Width() < 1 || b.Height() < 1 || math.IsNaN(b.X0+b.Y0+b.X1+b.Y1) {
 			continue
 		}
-		if _, ok := byClass[c.Class]; !ok {
-			order = append(order, c.Class)
-		}
-		byClass[c.Class] = append(byClass[c.Class], Detection{Box: b, Class: c.Class, Score: c.Score})
+		ds = append(ds, Detection{Box: b, Class: c.Class, Score: c.Score})
+		boxes, scores, classes = append(boxes, b), append(scores, c.Score), append(classes, c.Class)
 	}
-	sort.Ints(order)
-	var out []Detection
-	for _, k := range order {
-		list := byClass[k]
-		if nmsIoU <= 0 {
-			out = append(out, list...)
-			continue
-		}
-		boxes := make([]project.Box, len(list))
-		scores := make([]float64, len(list))
-		for i, d := range list {
-			boxes[i], scores[i] = d.Box, d.Score
-		}
-		for _, i := range suggest.NMS(boxes, scores, nmsIoU) {
-			out = append(out, list[i])
-		}
+	out := make([]Detection, 0, len(ds))
+	for _, i := range suggest.NMSByClass(boxes, scores, classes, nmsIoU) {
+		out = append(out, ds[i])
 	}
 	slices.SortStableFunc(out, func(a, b Detection) int { return cmp.Compare(b.Score, a.Score) })
 	if maxDetections > 0 && len(out) > maxDetections {

@@ -150,34 +150,12 @@ func (lb Letterbox) tensorRGBA(src *image.RGBA, in Input) []float32 {
 	xscale := float64(sw) / float64(lb.Width)
 	x0s, x1s := make([]int, lb.Width), make([]int, lb.Width)
 	f0s, f1s := make([]float64, lb.Width), make([]float64, lb.Width)
-	for dx := int32(0); dx < int32(lb.Width); dx++ {
-		sx := float64((float64(dx)+0.5)*xscale) - 0.5
-		sx0 := int32(sx)
-		xFrac0 := sx - float64(sx0)
-		xFrac1 := 1 - xFrac0
-		sx1 := sx0 + 1
-		if sx < 0 {
-			sx0, sx1 = 0, 0
-			xFrac0, xFrac1 = 0, 1
-		} else if sx1 > sw-1 {
-			sx0, sx1 = sw-1, sw-1
-			xFrac0, xFrac1 = 1, 0
-		}
+	for dx := range int32(lb.Width) {
+		sx0, sx1, xFrac0, xFrac1 := tap(dx, xscale, sw)
 		x0s[dx], x1s[dx], f0s[dx], f1s[dx] = 4*int(sx0), 4*int(sx1), xFrac0, xFrac1
 	}
-	for dy := int32(0); dy < int32(lb.Height); dy++ {
-		sy := float64((float64(dy)+0.5)*yscale) - 0.5
-		sy0 := int32(sy)
-		yFrac0 := sy - float64(sy0)
-		yFrac1 := 1 - yFrac0
-		sy1 := sy0 + 1
-		if sy < 0 {
-			sy0, sy1 = 0, 0
-			yFrac0, yFrac1 = 0, 1
-		} else if sy1 > sh-1 {
-			sy0, sy1 = sh-1, sh-1
-			yFrac0, yFrac1 = 1, 0
-		}
+	for dy := range int32(lb.Height) {
+		sy0, sy1, yFrac0, yFrac1 := tap(dy, yscale, sh)
 		row0 := src.Pix[int(sy0)*src.Stride:]
 		row1 := src.Pix[int(sy1)*src.Stride:]
 		o := (lb.Top+int(dy))*w + lb.Left
@@ -201,4 +179,22 @@ func (lb Letterbox) tensorRGBA(src *image.RGBA, in Input) []float32 {
 		}
 	}
 	return out
+}
+
+// tap is ApproxBiLinear's sampling of destination pixel d along an axis
+// of n source pixels at scale (source pixels per destination pixel): the
+// two source pixels and their weights, clamped at the edges.
+func tap(d int32, scale float64, n int32) (i0, i1 int32, f0, f1 float64) {
+	s := float64((float64(d)+0.5)*scale) - 0.5
+	i0 = int32(s)
+	f0 = s - float64(i0)
+	f1 = 1 - f0
+	i1 = i0 + 1
+	if s < 0 {
+		return 0, 0, 0, 1
+	}
+	if i1 > n-1 {
+		return n - 1, n - 1, 1, 0
+	}
+	return i0, i1, f0, f1
 }
