@@ -1,11 +1,9 @@
 package cli
 
 import (
-	"errors"
 	"flag"
 	"fmt"
 	"io"
-	"os"
 	"strconv"
 	"strings"
 
@@ -79,11 +77,8 @@ func parseSize(flagName, v string) (int, int, error) {
 // modelDescription is the model's description file (or the defaults)
 // with the flags given on top.
 func modelDescription(fs *flag.FlagSet, path string, f *modelFileFlags, minScore, nms float64) (onnx.Description, error) {
-	d, err := onnx.ReadDescription(onnx.DescriptionPath(path))
-	switch {
-	case errors.Is(err, os.ErrNotExist):
-		d = onnx.Description{}.Defaults()
-	case err != nil:
+	d, err := onnx.DescriptionOf(path)
+	if err != nil {
 		return d, err
 	}
 	var ferr error

@@ -2,9 +2,7 @@ package gui
 
 import (
 	"context"
-	"errors"
 	"fmt"
-	"os"
 	"strconv"
 	"strings"
 
@@ -170,11 +168,8 @@ func modelSummary(m *onnx.Model, classes []project.Class) string {
 // dialog's fields on top.
 func (f *modelRunForm) description() (onnx.Description, error) {
 	path := strings.TrimSpace(f.path.Text)
-	d, err := onnx.ReadDescription(onnx.DescriptionPath(path))
-	switch {
-	case errors.Is(err, os.ErrNotExist):
-		d = onnx.Description{}.Defaults()
-	case err != nil:
+	d, err := onnx.DescriptionOf(path)
+	if err != nil {
 		return d, err
 	}
 	if v := strings.TrimSpace(f.input.Text); v != "" && v != fromModel {

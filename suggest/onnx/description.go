@@ -6,6 +6,7 @@ import (
 	"errors"
 	"fmt"
 	"io"
+	"io/fs"
 	"math"
 	"os"
 	"strings"
@@ -250,6 +251,16 @@ func ReadDescription(path string) (Description, error) {
 		return Description{}, project.Explained(project.ErrInvalid, "model description %s: larger than %d MiB; a description is a small JSON file", path, maxDescription>>20)
 	}
 	return ParseDescription(b, path)
+}
+
+// DescriptionOf reads the description kept beside a model file, or, when
+// there is none, the defaults.
+func DescriptionOf(model string) (Description, error) {
+	d, err := ReadDescription(DescriptionPath(model))
+	if errors.Is(err, fs.ErrNotExist) {
+		return Description{}.Defaults(), nil
+	}
+	return d, err
 }
 
 // ParseDescription reads a description from JSON (where names it in

@@ -86,15 +86,7 @@ func (lb Letterbox) Tensor(img image.Image, in Input) []float32 {
 	draw.ApproxBiLinear.Scale(dst, image.Rect(lb.Left, lb.Top, lb.Left+lb.Width, lb.Top+lb.Height), img, b, draw.Src, nil)
 	w, h := lb.InputW, lb.InputH
 	out := make([]float32, 3*w*h)
-	order := [3]int{0, 1, 2}
-	if in.Channels == "bgr" {
-		order = [3]int{2, 1, 0}
-	}
-	var mul, add [3]float32
-	for c := range 3 {
-		mul[c] = float32(in.Scale / in.Std[c])
-		add[c] = float32(-in.Mean[c] / in.Std[c])
-	}
+	order, mul, add := in.normalisation()
 	for y := 0; y < h; y++ {
 		row := dst.Pix[y*dst.Stride:]
 		for x := 0; x < w; x++ {
@@ -116,15 +108,7 @@ func (lb Letterbox) Tensor(img image.Image, in Input) []float32 {
 func (lb Letterbox) tensorRGBA(src *image.RGBA, in Input) []float32 {
 	w, h := lb.InputW, lb.InputH
 	out := make([]float32, 3*w*h)
-	order := [3]int{0, 1, 2}
-	if in.Channels == "bgr" {
-		order = [3]int{2, 1, 0}
-	}
-	var mul, add [3]float32
-	for c := range 3 {
-		mul[c] = float32(in.Scale / in.Std[c])
-		add[c] = float32(-in.Mean[c] / in.Std[c])
-	}
+	order, mul, add := in.normalisation()
 	p := float32(uint8(math.Round(*in.Pad)))
 	for c := range 3 {
 		v := p*mul[c] + add[c]
@@ -197,4 +181,18 @@ func tap(d int32, scale float64, n int32) (i0, i1 int32, f0, f1 float64) {
 		return n - 1, n - 1, 1, 0
 	}
 	return i0, i1, f0, f1
+}
+
+// normalisation is the input's channel order (the source channel of each
+// plane) and each plane's v·mul + add.
+func (in Input) normalisation() (order [3]int, mul, add [3]float32) {
+	order = [3]int{0, 1, 2}
+	if in.Channels == "bgr" {
+		order = [3]int{2, 1, 0}
+	}
+	for c := range 3 {
+		mul[c] = float32(in.Scale / in.Std[c])
+		add[c] = float32(-in.Mean[c] / in.Std[c])
+	}
+	return order, mul, add
 }
