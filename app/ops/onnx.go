@@ -2,6 +2,7 @@ package ops
 
 import (
 	"context"
+	"errors"
 	"fmt"
 	"image"
 	"os"
@@ -10,6 +11,7 @@ import (
 
 	"boxwright/app/backend"
 	"boxwright/project"
+	"boxwright/suggest"
 	"boxwright/suggest/detector/onnxexport"
 	"boxwright/suggest/onnx"
 )
@@ -43,6 +45,9 @@ type ModelRunReport struct {
 	ClassesCreated []string
 	Failed         []string
 	Saved          project.SuggestionImportReport
+	// Stored counts the images whose suggestions were stored (all of
+	// Images unless the run was cancelled or failed).
+	Stored int
 }
 
 // UnlabelledImages lists the images without labels that are not skipped,
@@ -113,8 +118,8 @@ func classPlan(ctx context.Context, st backend.Project, names []string, rule Unk
 }
 
 // RunModel runs a model file over images and, with Save, stores what it
-// finds as pending suggestions (classes to create are created only then,
-// once every image has been read).
+// finds as pending suggestions as it goes (classes to create are created
+// with the first images stored): a cancel keeps every image finished.
 func RunModel(ctx context.Context, st backend.Project, j ModelRunJob) (ModelRunReport, error) {
 	m := j.Model
 	rep := ModelRunReport{Model: m.Path, Source: m.Source(), Layout: m.Desc.Output.Layout, ClassNames: map[int64]string{}}
@@ -131,63 +136,99 @@ func RunModel(ctx context.Context, st backend.Project, j ModelRunJob) (ModelRunR
 	if j.Limit > 0 && len(ims) > j.Limit {
 		ims = ims[:j.Limit]
 	}
+	index := map[string]int{}
+	for i, n := range m.Classes {
+		index[n] = i
+	}
+	// With Save, what is found is stored every saveEvery images, so that a
+	// cancel (or a failure) keeps every image finished before it; the
+	// classes to create are created with the first images stored.
+	var batch []project.Suggestion
+	var batchIDs []int64
+	created := map[int64]int64{}
+	flush := func(ctx context.Context) error {
+		if !j.Save || len(batchIDs) == 0 {
+			return nil
+		}
+		if len(toCreate) > 0 && len(created) == 0 {
+			for i, name := range toCreate {
+				c, err := st.AddClass(ctx, project.Class{Name: name})
+				if err != nil {
+					return fmt.Errorf("create class %q: %w", name, err)
+				}
+				created[-int64(i+1)] = c.ID
+				rep.ClassNames[c.ID] = name
+				rep.ClassesCreated = append(rep.ClassesCreated, name)
+			}
+		}
+		for i, g := range batch {
+			if g.ClassID < 0 {
+				batch[i].ClassID = created[g.ClassID]
+			}
+		}
+		saved, err := st.ReplaceSuggestionsOn(ctx, rep.Source, batchIDs, batch)
+		if err != nil {
+			return err
+		}
+		rep.Saved.Source = saved.Source
+		rep.Saved.Added += saved.Added
+		rep.Saved.ReplacedPending += saved.ReplacedPending
+		rep.Saved.KeptReviewed += saved.KeptReviewed
+		rep.Stored += len(batchIDs)
+		batch, batchIDs = nil, nil
+		return nil
+	}
 	r := &onnx.Runner{Model: m, Load: func(ctx context.Context, im project.Image) (image.Image, error) {
 		w, h := m.MinSize(im.Width, im.Height)
 		return DecodeProjectImageAtLeast(st, im, w, h)
 	}}
-	ps, err := r.Suggest(ctx, ims, nil, j.Progress)
-	var onImages []int64
+	r.OnImage = func(im project.Image, ps []suggest.Proposal) error {
+		rep.Images++
+		for _, p := range ps {
+			id := ids[index[p.ClassName]]
+			if id == 0 {
+				rep.Dropped++
+				continue
+			}
+			g := project.Suggestion{ImageID: p.ImageID, ClassID: id, Box: p.Box, Score: ClampScore(p.Score), Source: rep.Source, State: project.SuggestionPending}
+			rep.Detections = append(rep.Detections, g)
+			batch = append(batch, g)
+			rep.ClassNames[id] = p.ClassName
+			if to, ok := j.Unknown.Map[p.ClassName]; ok {
+				rep.ClassNames[id] = to
+			}
+		}
+		batchIDs = append(batchIDs, im.ID)
+		if len(batchIDs) >= saveEvery {
+			return flush(ctx)
+		}
+		return nil
+	}
+	_, err = r.Suggest(ctx, ims, nil, j.Progress)
 	for _, im := range ims {
 		if why, bad := r.Failed[im.ID]; bad {
 			rep.Failed = append(rep.Failed, why)
-		} else {
-			onImages = append(onImages, im.ID)
+		}
+	}
+	// What was finished before a cancel is stored all the same.
+	if err == nil || errors.Is(err, context.Canceled) {
+		if ferr := flush(context.WithoutCancel(ctx)); ferr != nil {
+			return rep, ferr
 		}
 	}
 	if err != nil {
 		return rep, err
 	}
-	index := map[string]int{}
-	for i, n := range m.Classes {
-		index[n] = i
-	}
-	for _, p := range ps {
-		id := ids[index[p.ClassName]]
-		if id == 0 {
-			rep.Dropped++
-			continue
-		}
-		rep.Detections = append(rep.Detections, project.Suggestion{ImageID: p.ImageID, ClassID: id, Box: p.Box,
-			Score: ClampScore(p.Score), Source: rep.Source, State: project.SuggestionPending})
-		rep.ClassNames[id] = p.ClassName
-		if to, ok := j.Unknown.Map[p.ClassName]; ok {
-			rep.ClassNames[id] = to
-		}
-	}
-	rep.Images = len(onImages)
-	if !j.Save || len(onImages) == 0 {
-		return rep, nil
-	}
-	created := map[int64]int64{}
-	for i, name := range toCreate {
-		c, err := st.AddClass(ctx, project.Class{Name: name})
-		if err != nil {
-			return rep, fmt.Errorf("create class %q: %w", name, err)
-		}
-		created[-int64(i+1)] = c.ID
-		rep.ClassNames[c.ID] = name
-		rep.ClassesCreated = append(rep.ClassesCreated, name)
-	}
 	for i, d := range rep.Detections {
-		if d.ClassID < 0 {
+		if d.ClassID < 0 && created[d.ClassID] != 0 {
 			rep.Detections[i].ClassID = created[d.ClassID]
 		}
 	}
-	if rep.Saved, err = st.ReplaceSuggestionsOn(ctx, rep.Source, onImages, rep.Detections); err != nil {
-		return rep, err
-	}
 	return rep, nil
 }
+
+// saveEvery is how many images a model run stores at a time.
+const saveEvery = 25
 
 // ModelExport is what an export of a stored model wrote.
 type ModelExport struct {

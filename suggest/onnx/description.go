@@ -107,6 +107,14 @@ const (
 // Layouts lists the output layouts, in the order auto-detection tries them.
 var Layouts = []string{LayoutDetections, LayoutCornersScores, LayoutCentreObjectness, LayoutCentreScores}
 
+// MaxInputSide and MaxInputPixels bound a model's input: its tensor of
+// 3 × 16.8 million float32 is 200 MB, far above a detector's (640×640
+// is common practice).
+const (
+	MaxInputSide   = 16384
+	MaxInputPixels = 4096 * 4096
+)
+
 // DescriptionPath is where the description of a model file is kept:
 // beside it, "model.onnx" → "model.onnx.description.json".
 func DescriptionPath(model string) string { return model + ".description.json" }
@@ -166,8 +174,11 @@ func (d Description) Check(where string) error {
 		return bad("format", "is %q; a model description says %q", d.Format, DescriptionFormat)
 	}
 	in := d.Input
-	if in.Width < 0 || in.Height < 0 || in.Width > 16384 || in.Height > 16384 || (in.Width == 0) != (in.Height == 0) {
-		return bad("input.width/height", "%d×%d: give both, each 1 to 16384 pixels, or neither (from the model)", in.Width, in.Height)
+	if in.Width < 0 || in.Height < 0 || in.Width > MaxInputSide || in.Height > MaxInputSide || (in.Width == 0) != (in.Height == 0) {
+		return bad("input.width/height", "%d×%d: give both, each 1 to %d pixels, or neither (from the model)", in.Width, in.Height, MaxInputSide)
+	}
+	if in.Width*in.Height > MaxInputPixels {
+		return bad("input.width/height", "%d×%d: more than %d pixels, more than any detector's input", in.Width, in.Height, MaxInputPixels)
 	}
 	if in.Resize != "letterbox" && in.Resize != "stretch" {
 		return bad("input.resize", "%q: use letterbox or stretch", in.Resize)

@@ -456,8 +456,8 @@ func (m *Model) fitInput(g Graph) error {
 	case (w > 0 && int64(d.Input.Width) != w) || (h > 0 && int64(d.Input.Height) != h):
 		return bad("the model takes %d×%d, but %d×%d was given", w, h, d.Input.Width, d.Input.Height)
 	}
-	if d.Input.Width > 16384 || d.Input.Height > 16384 {
-		return bad("%d×%d is larger than this program feeds (16384 a side)", d.Input.Width, d.Input.Height)
+	if d.Input.Width > MaxInputSide || d.Input.Height > MaxInputSide || d.Input.Width*d.Input.Height > MaxInputPixels {
+		return bad("%d×%d is larger than this program feeds (%d pixels a side, %d in all)", d.Input.Width, d.Input.Height, MaxInputSide, MaxInputPixels)
 	}
 	m.input = in.Name
 	return nil

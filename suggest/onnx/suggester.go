@@ -24,6 +24,10 @@ type Runner struct {
 	Workers int
 	// Failed holds, by image ID, why an image was skipped in the last run.
 	Failed map[int64]string
+	// OnImage, when set, is called in image order with each image read and
+	// its proposals, as soon as they are known (to store them as the run
+	// goes); an error stops the run.
+	OnImage func(im project.Image, ps []suggest.Proposal) error
 
 	mu sync.Mutex
 }
@@ -128,10 +132,17 @@ func (r *Runner) Suggest(ctx context.Context, images []project.Image, classes []
 					ferr = fmt.Errorf("image %d (%s): %w", im.ID, im.Path, err)
 					continue
 				}
+				first := len(out)
 				for _, d := range Finish(cs, f.lb, r.Model.Desc.NMSIoU, r.Model.Desc.MaxCandidates, r.Model.Desc.MaxDetections) {
 					name := r.Model.Classes[d.Class]
 					out = append(out, suggest.Proposal{ImageID: im.ID, ClassID: ids[name], ClassName: name, Box: d.Box, Score: d.Score,
 						Where: fmt.Sprintf("image %d (%s), model %s", im.ID, im.Path, r.Model.Path)})
+				}
+				if r.OnImage != nil {
+					if err := r.OnImage(im, out[first:]); err != nil {
+						ferr = err
+						continue
+					}
 				}
 			}
 			if progress != nil {
