@@ -82,8 +82,9 @@ killtest: build
 loadtest: test-deps
 	BOXWRIGHT_LOAD_SECONDS=60 $(GO) test ./store/postgres -run 'TeamLoad|ReadersDuringBigImport' -v -count=1
 
-bench:
+bench: onnxruntime
 	$(GO) test -run '^$$' -bench . -benchtime 5x ./store/... ./assets/...
+	$(GO) test -run '^$$' -bench ModelOnDemo -benchtime 20x -count 3 ./app/ops/
 
 deps:
 	@.ci/debs.sh $(BUILD_DEBS)
