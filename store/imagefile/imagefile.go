@@ -157,7 +157,7 @@ func DecodeAtLeast(path string, maxPixels int64, minW, minH int) (image.Image, I
 		rgba, ok, err := turboScaled(data, minW, minH)
 		switch {
 		case ok && err != nil:
-			return nil, Info{}, fail(path, ErrUnreadable, "the JPEG data is damaged: %v", err)
+			return nil, Info{}, decodeError(path, "jpeg", err)
 		case ok:
 			img = rgba
 		}
@@ -203,9 +203,9 @@ func read(path string, maxPixels int64, keep bool) (image.Image, Info, error) {
 		n := verifyBudget.acquire(int64(info.StoredWidth) * int64(info.StoredHeight))
 		defer verifyBudget.release(n)
 	}
-	img, err := decodePixels(io.NewSectionReader(f, 0, size), info.Format)
+	img, err := decodeFull(f, size, path, info.Format)
 	if err != nil {
-		return nil, Info{}, decodeError(path, info.Format, err)
+		return nil, Info{}, err
 	}
 	if b := img.Bounds(); b.Dx() != info.StoredWidth || b.Dy() != info.StoredHeight {
 		return nil, Info{}, fail(path, ErrUnreadable, "the %s header says %d×%d pixels but the picture is %d×%d; the file is damaged",
@@ -348,6 +348,31 @@ func decodeConfig(r *io.SectionReader) (image.Config, string, error) {
 		return cfg, "tiff", err
 	}
 	return image.DecodeConfig(bufio.NewReader(r))
+}
+
+// decodeFull decodes every pixel of a file probe has identified: JPEGs by
+// libjpeg-turbo where the build has it (about three times faster than
+// image/jpeg), the rest, and JPEGs libjpeg-turbo does not take (CMYK),
+// by Go's decoders.
+func decodeFull(f *os.File, size int64, path, format string) (image.Image, error) {
+	if format == "jpeg" && TurboJPEG {
+		data := make([]byte, size)
+		if _, err := f.ReadAt(data, 0); err != nil {
+			return nil, fmt.Errorf("reading image %s: %w", path, err)
+		}
+		rgba, ok, err := turboScaled(data, 0, 0)
+		switch {
+		case ok && err != nil:
+			return nil, decodeError(path, "jpeg", err)
+		case ok:
+			return rgba, nil
+		}
+	}
+	img, err := decodePixels(io.NewSectionReader(f, 0, size), format)
+	if err != nil {
+		return nil, decodeError(path, format, err)
+	}
+	return img, nil
 }
 
 // decodePixels decodes an image of a format probe has already identified.

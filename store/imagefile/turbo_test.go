@@ -6,11 +6,14 @@ import (
 	"errors"
 	"fmt"
 	"image"
+	"image/jpeg"
 	"io"
 	"os"
 	"os/exec"
 	"strings"
 	"testing"
+
+	"boxwright/assets/demo"
 )
 
 // djpeg runs libjpeg-turbo's own command-line decoder (Debian's
@@ -142,4 +145,51 @@ func BenchmarkDecodeAtLeast(b *testing.B) {
 func newSection(f *os.File) *io.SectionReader {
 	st, _ := f.Stat()
 	return io.NewSectionReader(f, 0, st.Size())
+}
+
+// BenchmarkDecode12MP: a 4000×3000 JPEG (a frame of the invented harbour
+// demo at its quality) decoded at full size by Go's image/jpeg, by Decode
+// (libjpeg-turbo through cgo, with the probe) and, side by side in the same
+// run, by libjpeg-turbo's own djpeg (Debian libjpeg-turbo-progs, writing
+// to /dev/null; its process start included); and at the 1/8 scale a
+// thumbnail or a zoomed-out view needs.
+func BenchmarkDecode12MP(b *testing.B) {
+	img := demo.Generate(demo.Config{Seed: 1, Images: 1, Width: 4000, Height: 3000}).Render(0)
+	var buf bytes.Buffer
+	if err := jpeg.Encode(&buf, img, &jpeg.Options{Quality: demo.JPEGQuality}); err != nil {
+		b.Fatal(err)
+	}
+	path := writeFile(b, "12mp.jpg", buf.Bytes())
+	b.Run("go-image-jpeg", func(b *testing.B) {
+		for b.Loop() {
+			f, _ := os.Open(path)
+			if _, err := decodePixels(newSection(f), "jpeg"); err != nil {
+				b.Fatal(err)
+			}
+			f.Close()
+		}
+	})
+	b.Run("boxwright-full", func(b *testing.B) {
+		for b.Loop() {
+			if _, _, err := DecodeAtLeast(path, 0, 0, 0); err != nil {
+				b.Fatal(err)
+			}
+		}
+	})
+	if _, err := exec.LookPath("djpeg"); err == nil {
+		b.Run("djpeg-full", func(b *testing.B) {
+			for b.Loop() {
+				if err := exec.Command("djpeg", "-outfile", "/dev/null", path).Run(); err != nil {
+					b.Fatal(err)
+				}
+			}
+		})
+	}
+	b.Run("boxwright-1/8", func(b *testing.B) {
+		for b.Loop() {
+			if _, _, err := DecodeAtLeast(path, 0, 500, 375); err != nil {
+				b.Fatal(err)
+			}
+		}
+	})
 }
