@@ -325,11 +325,7 @@ func (u *ui) runModel(m *onnx.Model, ims []project.Image, rule ops.UnknownClassR
 			Progress: func(done, total int) { progress(float64(done) / float64(total)) }})
 		return err
 	}, func() {
-		if err := u.reload(); err != nil {
-			u.showError(err)
-		}
-		u.loadSuggestions()
-		u.refreshBoxes()
+		u.showNewSuggestions()
 		msg := fmt.Sprintf("%s on %s, pending review as source %q.", ops.Plural(len(rep.Detections), "suggestion"), ops.Plural(rep.Images, "image"), rep.Source)
 		if rep.Images == 0 && len(rep.Failed) == 0 {
 			msg = "Every image has labels or is skipped, so there was nothing to run on: choose this image, the next N or every image."

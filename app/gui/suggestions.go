@@ -190,6 +190,16 @@ func (u *ui) askClassRules(confirm string, labels map[string]string, use func(op
 	d.Show()
 }
 
+// showNewSuggestions reads the project again after suggestions were
+// stored and shows the current image's.
+func (u *ui) showNewSuggestions() {
+	if err := u.reload(); err != nil {
+		u.showError(err)
+	}
+	u.loadSuggestions()
+	u.refreshBoxes()
+}
+
 func (u *ui) importSuggestions(j ops.SuggestionJob) {
 	st := u.st
 	var res ops.SuggestionResult
@@ -198,11 +208,7 @@ func (u *ui) importSuggestions(j ops.SuggestionJob) {
 		res, err = ops.RunSuggestionImport(ctx, st, j, func(done, total int) { progress(float64(done) / float64(total)) })
 		return err
 	}, func() {
-		if err := u.reload(); err != nil {
-			u.showError(err)
-		}
-		u.loadSuggestions()
-		u.refreshBoxes()
+		u.showNewSuggestions()
 		msg := fmt.Sprintf("Source %s: %d read, %d added as pending suggestions.\n%d below the minimum score, %d suppressed by NMS, %d of unknown classes dropped, %d clipped to their image.\nReplaced %d still pending from an earlier import; kept %d already reviewed.",
 			res.Source, res.Read, res.Added, res.BelowScore, res.Suppressed, res.Dropped, res.Clipped, res.ReplacedPending, res.KeptReviewed)
 		if len(res.ClassesCreated) > 0 {

@@ -145,27 +145,12 @@ func DecodeAtLeast(path string, maxPixels int64, minW, minH int) (image.Image, I
 	if err != nil {
 		return nil, Info{}, err
 	}
-	var img image.Image
-	if info.Format == "jpeg" && TurboJPEG {
-		data := make([]byte, size)
-		if _, err := f.ReadAt(data, 0); err != nil {
-			return nil, Info{}, fmt.Errorf("reading image %s: %w", path, err)
-		}
-		if info.Orientation >= 5 { // stored sideways
-			minW, minH = minH, minW
-		}
-		rgba, ok, err := turboScaled(data, minW, minH)
-		switch {
-		case ok && err != nil:
-			return nil, Info{}, decodeError(path, "jpeg", err)
-		case ok:
-			img = rgba
-		}
+	if info.Orientation >= 5 { // stored sideways
+		minW, minH = minH, minW
 	}
-	if img == nil {
-		if img, err = decodePixels(io.NewSectionReader(f, 0, size), info.Format); err != nil {
-			return nil, Info{}, decodeError(path, info.Format, err)
-		}
+	img, err := decodeScaled(f, size, path, info.Format, minW, minH)
+	if err != nil {
+		return nil, Info{}, err
 	}
 	return Orient(img, info.Orientation), info, nil
 }
@@ -204,7 +189,7 @@ func read(path string, maxPixels int64, keep bool) (image.Image, Info, error) {
 		n := verifyBudget.acquire(int64(info.StoredWidth) * int64(info.StoredHeight))
 		defer verifyBudget.release(n)
 	}
-	img, err := decodeFull(f, size, path, info.Format)
+	img, err := decodeScaled(f, size, path, info.Format, 0, 0)
 	if err != nil {
 		return nil, Info{}, err
 	}
@@ -351,20 +336,21 @@ func decodeConfig(r *io.SectionReader) (image.Config, string, error) {
 	return image.DecodeConfig(bufio.NewReader(r))
 }
 
-// decodeFull decodes every pixel of a file probe has identified: JPEGs by
-// libjpeg-turbo where the build has it (about three times faster than
-// image/jpeg), the rest, and JPEGs libjpeg-turbo does not take (CMYK),
-// by Go's decoders.
-func decodeFull(f *os.File, size int64, path, format string) (image.Image, error) {
+// decodeScaled decodes a file probe has identified, at least minW×minH of
+// its stored pixels (0×0: full size): JPEGs by libjpeg-turbo where the
+// build has it (a DCT-domain scale when smaller will do; at full size
+// about three times faster than image/jpeg), the rest, and JPEGs
+// libjpeg-turbo does not take (CMYK), by Go's decoders at full size.
+func decodeScaled(f *os.File, size int64, path, format string, minW, minH int) (image.Image, error) {
 	if format == "jpeg" && TurboJPEG {
 		data := make([]byte, size)
 		if _, err := f.ReadAt(data, 0); err != nil {
 			return nil, fmt.Errorf("reading image %s: %w", path, err)
 		}
-		rgba, ok, err := turboScaled(data, 0, 0)
+		rgba, ok, err := turboScaled(data, minW, minH)
 		switch {
 		case ok && err != nil:
-			return nil, decodeError(path, "jpeg", err)
+			return nil, decodeError(path, format, err)
 		case ok:
 			return rgba, nil
 		}
