@@ -30,7 +30,7 @@ ORT_DIR     := build/onnxruntime
 ORT_LIB     := $(ORT_DIR)/libonnxruntime.so.1
 export BOXWRIGHT_ONNXRUNTIME ?= $(CURDIR)/$(ORT_LIB)
 
-.PHONY: run test deps test-deps onnxruntime build vet unit fuzz smoke killtest loadtest bench clean
+.PHONY: run test deps test-deps onnxruntime build vet unit fuzz smoke killtest loadtest bench bench-go clean
 
 run: deps build
 	./$(BIN) demo $(DEMO_DIR)
@@ -82,7 +82,17 @@ killtest: build
 loadtest: test-deps
 	BOXWRIGHT_LOAD_SECONDS=60 $(GO) test ./store/postgres -run 'TeamLoad|ReadersDuringBigImport' -v -count=1
 
-bench: onnxruntime
+# The performance table: each benchmark and its reference tool (from
+# Debian, installed by test-deps) run alternately, BENCH_ROUNDS rounds each
+# side, in one invocation; medians, ratios and goals in one table
+# (app/internal/benchtable). BENCH_ONLY=text runs the rows naming it.
+BENCH_ROUNDS ?= 5
+BENCH_ONLY   ?=
+bench: deps test-deps onnxruntime
+	$(GO) run ./app/internal/benchtable -rounds $(BENCH_ROUNDS) -only '$(BENCH_ONLY)'
+
+# Every other benchmark of the store, the demo and a model run, as go test prints them.
+bench-go: onnxruntime
 	$(GO) test -run '^$$' -bench . -benchtime 5x ./store/... ./assets/...
 	$(GO) test -run '^$$' -bench ModelOnDemo -benchtime 20x -count 3 ./app/ops/
 

@@ -10,6 +10,7 @@ import (
 	"io"
 	"os"
 	"os/exec"
+	"path/filepath"
 	"strings"
 	"testing"
 
@@ -164,6 +165,12 @@ func BenchmarkDecode12MP(b *testing.B) {
 		b.Fatal(err)
 	}
 	path := writeFile(b, "12mp.jpg", buf.Bytes())
+	if dir := os.Getenv("BENCH_DATA"); dir != "" {
+		// The same file for compare_djpeg.py (make bench).
+		if err := os.WriteFile(filepath.Join(dir, "12mp.jpg"), buf.Bytes(), 0o644); err != nil {
+			b.Fatal(err)
+		}
+	}
 	b.Run("go-image-jpeg", func(b *testing.B) { benchGoJPEG(b, path) })
 	b.Run("boxwright-full", func(b *testing.B) {
 		for b.Loop() {
