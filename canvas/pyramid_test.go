@@ -1,6 +1,7 @@
 package canvas
 
 import (
+	"bytes"
 	"context"
 	"errors"
 	"fmt"
@@ -458,5 +459,41 @@ func TestPyramidConversionMatchesImageDraw(t *testing.T) {
 			}
 		}
 		diffRGBA(t, name+" vs At", p.Level(0), at)
+	}
+}
+
+// AdoptPyramid builds the same levels as NewPyramid; it takes a packed
+// RGBA at the origin as level 0 itself and copies anything else.
+func TestAdoptPyramidMatchesNewPyramid(t *testing.T) {
+	src := image.NewRGBA(image.Rect(0, 0, 601, 333))
+	for i := range src.Pix {
+		src.Pix[i] = uint8(i*7 + i/13)
+	}
+	want := mustPyramid(t, src)
+	sub := src.SubImage(image.Rect(10, 20, 300, 200)).(*image.RGBA)
+	for _, c := range []struct {
+		name  string
+		img   *image.RGBA
+		adopt bool
+	}{{"packed at the origin", src, true}, {"sub-image", sub, false}} {
+		got, err := AdoptPyramid(context.Background(), c.img)
+		if err != nil {
+			t.Fatal(err)
+		}
+		ref := want
+		if !c.adopt {
+			ref = mustPyramid(t, c.img)
+		}
+		if got.Levels() != ref.Levels() {
+			t.Fatalf("%s: %d levels, want %d", c.name, got.Levels(), ref.Levels())
+		}
+		for i := 0; i < ref.Levels(); i++ {
+			if !bytes.Equal(got.Level(i).Pix, ref.Level(i).Pix) || got.Level(i).Rect != ref.Level(i).Rect {
+				t.Errorf("%s: level %d differs", c.name, i)
+			}
+		}
+		if adopted := &got.Level(0).Pix[0] == &c.img.Pix[0]; adopted != c.adopt {
+			t.Errorf("%s: level 0 adopted = %v, want %v", c.name, adopted, c.adopt)
+		}
 	}
 }

@@ -64,7 +64,8 @@ func (c *imageCache) start(id int64, where locate) *cacheEntry {
 			img, err = c.decode(path, imagefile.DefaultMaxPixels)
 		}
 		if err == nil {
-			e.pyr, err = canvas.NewPyramid(context.Background(), img)
+			// The decoded image is ours alone: level 0 without a copy.
+			e.pyr, err = canvas.AdoptPyramid(context.Background(), img)
 		}
 		c.mu.Lock()
 		e.err = err

@@ -239,7 +239,9 @@ func runGo(bin string, sd side, data string, threads int, s *sample) error {
 	}
 	cmd := exec.Command(bin, "-test.run", "^$", "-test.bench", pattern, "-test.benchtime", sd.benchtime, "-test.count", "1")
 	cmd.Dir = sd.pkg
-	cmd.Env = append(os.Environ(), "BENCH_DATA="+data)
+	// The toolkit logs an error for LANG=C; a UTF-8 English tag keeps
+	// the window benchmarks' output clean.
+	cmd.Env = append(os.Environ(), "BENCH_DATA="+data, "LANG=en_GB.UTF-8")
 	var out bytes.Buffer
 	cmd.Stdout = io.MultiWriter(&out)
 	cmd.Stderr = os.Stderr
