@@ -23,7 +23,7 @@ import (
 
 // benchJPEGs writes n distinct 4000×3000 JPEGs (quality 90) of smooth
 // gradients with grain, roughly the size of a 12-megapixel photo.
-func benchJPEGs(b *testing.B, dir string, n int) {
+func benchJPEGs(b testing.TB, dir string, n int) {
 	b.Helper()
 	for i := range n {
 		m := image.NewYCbCr(image.Rect(0, 0, 4000, 3000), image.YCbCrSubsampleRatio420)

@@ -320,7 +320,9 @@ func (n *navigator) thumbSource(st backend.Project, im project.Image) func() (im
 		if err != nil {
 			return nil, err
 		}
-		img, _, err := imagefile.Decode(path, imagefile.DefaultMaxPixels)
+		// A JPEG is decoded at the smallest DCT scale that still covers
+		// the thumbnail: 1/8 of a 12 MP photo is 500×375.
+		img, _, err := imagefile.DecodeAtLeast(path, imagefile.DefaultMaxPixels, thumbSide, thumbSide)
 		return img, err
 	}
 	th, ok := st.(backend.Thumbnails)
