@@ -98,6 +98,13 @@ func rows() []row {
 			goal:    "(context)",
 		},
 		{
+			name:    "image-list thumbnail of a 12 MP JPEG",
+			ours:    side{pkg: "./app/gui", bench: "BenchmarkThumbnail12MP/list", benchtime: "10x"},
+			ref:     side{pkg: "./app/gui", bench: "BenchmarkThumbnail12MP/full-decode", benchtime: "3x"},
+			refName: "full-size decode, then scaled",
+			goal:    "(context)",
+		},
+		{
 			name:       "next image, 12 MP, no prefetch",
 			ours:       side{pkg: "./app/gui", bench: "BenchmarkNextImage12MP/noprefetch", benchtime: "6x"},
 			maxSeconds: 0.15, goal: "≤ 150 ms",
