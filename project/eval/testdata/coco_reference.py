@@ -58,6 +58,10 @@ Usage:
       "exact_levels": the same at recall levels exactly k/100 (not
       COCOeval's; see main)}. --area all|small|medium|large picks the area
       range (default all; also accepted with --runs).
+  coco_reference.py --runs K --full DIR
+      as --runs, with COCOeval's default parameters (evaluate, accumulate
+      and the 12 summary stats: all four area ranges, maxDets 1, 10, 100),
+      the work a default COCOeval run does; "ap" is still stats[0].
 """
 
 import argparse
@@ -146,24 +150,35 @@ class Dataset:
 
 def box_iou(d, g, iscrowd):
     """IoU matrix (len(d) x len(g)); for a crowd truth the union is the
-    detection's area. Elementwise the same operations as the C routine
-    (fmin/fmax of x+w, w*h, i/u), vectorised as the C loop is compiled."""
+    detection's area. The C routine's loop (bbIou) written in Python, after
+    the wrapper's conversion of the box lists to float64 arrays. On the
+    benchmark's small groups (about 4 detections and 1 truth per image and
+    class) this is faster than a vectorised numpy version (1.0 s against
+    1.9 s for the 50,000 groups, identical results), so it does not inflate
+    the reference's time."""
     if len(d) == 0 or len(g) == 0:
         return []
-    d = np.asarray(d, dtype=np.float64)
-    g = np.asarray(g, dtype=np.float64)
-    crowd = np.asarray(iscrowd, dtype=bool)[None, :]
-    da = (d[:, 2] * d[:, 3])[:, None]
-    ga = (g[:, 2] * g[:, 3])[None, :]
-    w = np.minimum(d[:, 0, None] + d[:, 2, None], g[None, :, 0] + g[None, :, 2]) - \
-        np.maximum(d[:, 0, None], g[None, :, 0])
-    h = np.minimum(d[:, 1, None] + d[:, 3, None], g[None, :, 1] + g[None, :, 3]) - \
-        np.maximum(d[:, 1, None], g[None, :, 1])
-    inter = w * h
-    u = np.where(crowd, da, da + ga - inter)
-    with np.errstate(divide='ignore', invalid='ignore'):
-        o = inter / u
-    return np.where((w <= 0) | (h <= 0), 0.0, o)
+    d = np.array(d, dtype=np.double).tolist()
+    g = np.array(g, dtype=np.double).tolist()
+    m, n = len(d), len(g)
+    o = np.zeros((m, n))
+    for gi in range(n):
+        gx, gy, gw, gh = g[gi]
+        ga = gw * gh
+        crowd = iscrowd[gi]
+        for di in range(m):
+            dx, dy, dw, dh = d[di]
+            da = dw * dh
+            w = min(dw + dx, gw + gx) - max(dx, gx)
+            if w <= 0:
+                continue
+            h = min(dh + dy, gh + gy) - max(dy, gy)
+            if h <= 0:
+                continue
+            i = w * h
+            u = da if crowd else da + ga - i
+            o[di, gi] = i / u
+    return o
 
 
 # --- the evaluation, as COCOeval does it for iouType 'bbox' ------------------
@@ -179,6 +194,8 @@ AREA_RANGES = {  # COCOeval's defaults, both ends inclusive
 
 class Params:
     def __init__(self, area='all'):
+        """area: one range for AP at that range; None for COCOeval's
+        default parameters (all four ranges, maxDets 1, 10 and 100)."""
         self.imgIds = []
         self.catIds = []
         self.iouThrs = np.linspace(.5, 0.95, int(np.round((0.95 - .5) / .05)) + 1, endpoint=True)
@@ -186,9 +203,13 @@ class Params:
         # COCOeval's default is maxDets [1, 10, 100] and area ranges
         # all/small/medium/large; AP@[.50:.95] (stats[0]) reads 'all' at 100
         # only, stats[3..5] one of the others.
-        self.maxDets = [100]
-        self.areaRng = [AREA_RANGES[area]]
-        self.areaRngLbl = [area]
+        if area is None:
+            self.maxDets = [1, 10, 100]
+            self.areaRngLbl = ['all', 'small', 'medium', 'large']
+        else:
+            self.maxDets = [100]
+            self.areaRngLbl = [area]
+        self.areaRng = [AREA_RANGES[a] for a in self.areaRngLbl]
         self.useCats = 1
 
 
@@ -401,21 +422,50 @@ class Evaluator:
             'scores': scores,
         }
 
-    def summarize_ap(self):
-        """stats[0] (stats[3..5] for small/medium/large):
-        AP @[ IoU=0.50:0.95 | area | maxDets=100 ]."""
+    def _summarize(self, ap=1, iouThr=None, areaRng='all', maxDets=100):
         p = self.params
-        aind = [i for i, aRng in enumerate(p.areaRngLbl) if aRng == p.areaRngLbl[0]]
-        mind = [i for i, mDet in enumerate(p.maxDets) if mDet == 100]
-        s = self.eval['precision']
-        s = s[:, :, :, aind, mind]
-        if len(s[s > -1]) == 0:
-            mean_s = -1
+        aind = [i for i, aRng in enumerate(p.areaRngLbl) if aRng == areaRng]
+        mind = [i for i, mDet in enumerate(p.maxDets) if mDet == maxDets]
+        if ap == 1:
+            s = self.eval['precision']  # T x R x K x A x M
+            if iouThr is not None:
+                t = np.where(iouThr == p.iouThrs)[0]
+                s = s[t]
+            s = s[:, :, :, aind, mind]
         else:
-            mean_s = np.mean(s[s > -1])
-        self.stats = np.zeros((1,))
-        self.stats[0] = mean_s
-        return mean_s
+            s = self.eval['recall']  # T x K x A x M
+            if iouThr is not None:
+                t = np.where(iouThr == p.iouThrs)[0]
+                s = s[t]
+            s = s[:, :, aind, mind]
+        if len(s[s > -1]) == 0:
+            return -1
+        return np.mean(s[s > -1])
+
+    def summarize_ap(self):
+        """AP @[ IoU=0.50:0.95 | area | maxDets=100 ]: stats[0] for 'all',
+        stats[3..5] for small/medium/large."""
+        return self._summarize(1, areaRng=self.params.areaRngLbl[0], maxDets=self.params.maxDets[-1])
+
+    def summarize(self):
+        """COCOeval's 12 detection stats (without the printing); stats[0]
+        is AP@[.50:.95]."""
+        m = self.params.maxDets
+        self.stats = np.array([
+            self._summarize(1),
+            self._summarize(1, iouThr=.5, maxDets=m[2]),
+            self._summarize(1, iouThr=.75, maxDets=m[2]),
+            self._summarize(1, areaRng='small', maxDets=m[2]),
+            self._summarize(1, areaRng='medium', maxDets=m[2]),
+            self._summarize(1, areaRng='large', maxDets=m[2]),
+            self._summarize(0, maxDets=m[0]),
+            self._summarize(0, maxDets=m[1]),
+            self._summarize(0, maxDets=m[2]),
+            self._summarize(0, areaRng='small', maxDets=m[2]),
+            self._summarize(0, areaRng='medium', maxDets=m[2]),
+            self._summarize(0, areaRng='large', maxDets=m[2]),
+        ])
+        return self.stats[0]
 
 
 # --- input and command line --------------------------------------------------
@@ -459,11 +509,11 @@ def load(directory):
     return gt, dt
 
 
-def run_once(gt, dt, area='all'):
-    e = Evaluator(gt, dt, area)
+def run_once(gt, dt, area='all', full=False):
+    e = Evaluator(gt, dt, None if full else area)
     e.evaluate()
     e.accumulate()
-    ap = e.summarize_ap()
+    ap = e.summarize() if full else e.summarize_ap()
     return e, ap
 
 
@@ -488,8 +538,12 @@ def main():
     ap.add_argument('--threads', type=int, default=0, help='ignored: single-threaded')
     ap.add_argument('--json', action='store_true')
     ap.add_argument('--area', choices=sorted(AREA_RANGES), default='all')
+    ap.add_argument('--full', action='store_true',
+                    help="COCOeval's default parameters: four area ranges, maxDets 1/10/100, 12 stats")
     ap.add_argument('dir')
     a = ap.parse_args()
+    if a.full and (a.json or a.area != 'all'):
+        sys.exit('coco_reference: --full goes with --runs only')
     gt, dt = load(a.dir)
     if a.json:
         e, m = run_once(gt, dt, a.area)
@@ -507,11 +561,11 @@ def main():
         return
     if a.runs < 1:
         sys.exit('coco_reference: --runs K (K >= 1) or --json')
-    run_once(gt, dt, a.area)  # warm-up, untimed
+    run_once(gt, dt, a.area, a.full)  # warm-up, untimed
     m = None
     for _ in range(a.runs):
         t0 = time.perf_counter()
-        _, m = run_once(gt, dt, a.area)
+        _, m = run_once(gt, dt, a.area, a.full)
         print('seconds %.6f' % (time.perf_counter() - t0), flush=True)
     print('ap %.17g' % m)
 
