@@ -7,11 +7,11 @@ import (
 	"errors"
 	"fmt"
 	"math"
+	"math/bits"
 	"runtime"
 	"sync"
 	"sync/atomic"
 
-	"gonum.org/v1/gonum/dsp/fourier"
 )
 
 // nccMethod selects how Σ T'·I is computed; tests force each one.
@@ -113,6 +113,8 @@ func nccTiles(ctx context.Context, p, t Plane, m nccMethod, tm, tn int) (Plane, 
 		if tm < t.H || tn < t.W {
 			tm, tn, _ = planTiles(p.W, p.H, t.W, t.H)
 		}
+		// The FFT takes powers of two.
+		tm, tn = 1<<bits.Len(uint(tm-1)), 1<<bits.Len(uint(tn-1))
 		j.runFFT(tm, tn)
 	} else {
 		j.runDirect()
@@ -361,29 +363,21 @@ func chooseMethod(w, h, tw, th int) nccMethod {
 	return methodDirect
 }
 
-// maxTile bounds one side of an FFT tile.
+// maxTile bounds one side of an FFT tile unless the template needs more.
 const maxTile = 1024
 
-// fftSizes lists the lengths 2^a·3^b·5^c up to maxTile, the ones the FFT
-// handles at full speed.
+// fftSizes lists the powers of two up to maxTile, the lengths the FFT
+// handles.
 var fftSizes = func() []int {
 	var s []int
-	for n := 1; n <= maxTile; n++ {
-		m := n
-		for _, f := range []int{2, 3, 5} {
-			for m%f == 0 {
-				m /= f
-			}
-		}
-		if m == 1 {
-			s = append(s, n)
-		}
+	for n := 1; n <= maxTile; n *= 2 {
+		s = append(s, n)
 	}
 	return s
 }()
 
 // maxTileSamples bounds a tile unless no smaller one fits the template:
-// each worker holds two spectra of 16 bytes per sample.
+// each worker holds two arrays of 8 bytes per sample.
 const maxTileSamples = 1 << 24
 
 // planTiles picks the FFT tile size M×N (rows×columns) for a w×h image and a
@@ -401,10 +395,10 @@ func planTiles(w, h, tw, th int) (m, n int, cost float64) {
 			}
 		}
 		if len(c) == 0 || c[len(c)-1] < full {
-			// Beyond maxTile: one tile the length of the axis (any length
-			// works, if more slowly), so a long template does not get a
-			// tile with a single valid output per row.
-			c = append(c, full)
+			// Beyond maxTile: one tile the length of the axis, rounded up
+			// to a power of two, so a long template does not get a tile
+			// with a single valid output per row.
+			c = append(c, 1<<bits.Len(uint(full-1)))
 		}
 		return c
 	}
@@ -439,132 +433,133 @@ func planTiles(w, h, tw, th int) (m, n int, cost float64) {
 	return best.m, best.n, best.cost
 }
 
-// nccFFTState is one worker's transforms and scratch space.
-type nccFFTState struct {
-	rows *fourier.FFT
-	cols *fourier.CmplxFFT
-	seq  []float64
-	coef [4][]complex128
-	spec []complex128 // column-major: spec[k*ld+r] is row r, frequency k
-	ns   nccNormState
+// fftLanes is the width, in columns, of the strips the column transforms
+// work on: a strip of a 512-row tile (two arrays of 512×64 float64) stays
+// in a core's L2 cache through all the stages.
+const fftLanes = 64
+
+// nccFFTState is one worker's tile pair: two real tiles held as the real
+// and imaginary parts of one complex tile.
+type nccFFTState[F fftFloat] struct {
+	re, im []F
+	ns     nccNormState
 }
 
 // runFFT computes Σ T'·I by FFT cross-correlation in M×N tiles
-// (overlap-save): the template spectrum is computed once, and each tile's
-// circular correlation is exact for its first (M−th+1)×(N−tw+1) outputs.
-func (j *nccJob) runFFT(M, N int) {
+// (overlap-save) of power-of-two sides: the template spectrum is computed
+// once, and each tile's circular correlation is exact for its first
+// (M−th+1)×(N−tw+1) outputs. Tiles go two at a time through one complex
+// transform, one as the real part and one as the imaginary part: the
+// template is real, so the correlation of each comes back in its own part
+// (the product with the conjugate template spectrum is linear, and the
+// inverse of a real tile's product is real).
+func (j *nccJob) runFFT(M, N int) { runFFTTyped[float64](j, M, N) }
+
+func runFFTTyped[F fftFloat](j *nccJob, M, N int) {
 	tw, th := j.t.W, j.t.H
-	K := N/2 + 1
-	// Column stride: padding by one cache line keeps the transposed writes
-	// of a power-of-two M from landing in the same cache sets.
-	ld := M + 4
 	vh, vw := M-th+1, N-tw+1
 	ty, tx := (j.oh+vh-1)/vh, (j.ow+vw-1)/vw
-
-	newState := func() *nccFFTState {
-		s := &nccFFTState{
-			rows: fourier.NewFFT(N),
-			cols: fourier.NewCmplxFFT(M),
-			seq:  make([]float64, N),
-			spec: make([]complex128, K*ld),
+	rows, cols := newFFTPlan[F](N), newFFTPlan[F](M)
+	lanes := min(N, fftLanes)
+	// A tile can be large when the template is: the transforms look at
+	// ctx every four rows and every column strip.
+	forward := func(re, im []F) bool {
+		for r := 0; r < M; r++ {
+			if r%4 == 0 && j.cancelled() {
+				return false
+			}
+			rows.forward1(re[r*N:(r+1)*N], im[r*N:(r+1)*N])
 		}
-		for i := range s.coef {
-			s.coef[i] = make([]complex128, K)
+		for c := 0; c < N; c += lanes {
+			if j.cancelled() {
+				return false
+			}
+			cols.forwardLanes(re[c:], im[c:], N, lanes)
 		}
-		return s
+		return true
 	}
 
 	// Template spectrum, conjugated (correlation, not convolution) and
 	// scaled by 1/(M·N) to undo the unnormalised inverse.
-	tspec := make([]complex128, K*ld)
-	{
-		s := newState()
-		for r := 0; r < M; r++ {
-			clear(s.seq)
-			if r < th {
-				copy(s.seq, j.tz[r*tw:(r+1)*tw])
-			}
-			c := s.rows.Coefficients(s.coef[0], s.seq)
-			for k, v := range c {
-				tspec[k*ld+r] = v
-			}
-		}
-		scale := 1 / (float64(M) * float64(N))
-		col := make([]complex128, M)
-		for k := 0; k < K; k++ {
-			s.cols.Coefficients(col, tspec[k*ld:k*ld+M])
-			for r, v := range col {
-				tspec[k*ld+r] = complex(real(v)*scale, -imag(v)*scale)
-			}
+	tr, ti := make([]F, M*N), make([]F, M*N)
+	for r := 0; r < th; r++ {
+		for c := 0; c < tw; c++ {
+			tr[r*N+c] = F(j.tz[r*tw+c])
 		}
 	}
+	forward(tr, ti)
+	scale := 1 / (F(M) * F(N))
+	for i := range tr {
+		tr[i], ti[i] = tr[i]*scale, -ti[i]*scale
+	}
 
-	nccParallel(ty*tx, j.cancelled, newState, func(s *nccFFTState, i int) {
-		oy, ox := (i/tx)*vh, (i%tx)*vw
-		// Forward row transforms, four rows at a time so that the transposed
-		// writes fill whole cache lines.
-		// A tile can be large when the template is: look at ctx inside it.
-		for r0 := 0; r0 < M; r0 += 4 {
-			if j.cancelled() {
-				return
-			}
-			nr := min(4, M-r0)
-			for q := 0; q < nr; q++ {
-				y := oy + r0 + q
-				if y >= j.p.H {
-					clear(s.coef[q])
-					continue
-				}
-				clear(s.seq)
-				xe := min(j.p.W, ox+N)
-				src := j.p.Pix[y*j.p.W+ox : y*j.p.W+xe]
-				for x, v := range src {
-					s.seq[x] = float64(v)
-				}
-				s.rows.Coefficients(s.coef[q], s.seq)
-			}
-			for k := 0; k < K; k++ {
-				d := s.spec[k*ld+r0 : k*ld+r0+nr]
-				for q := range d {
-					d[q] = s.coef[q][k]
-				}
-			}
+	tiles := ty * tx
+	newState := func() *nccFFTState[F] {
+		return &nccFFTState[F]{re: make([]F, M*N), im: make([]F, M*N)}
+	}
+	off := F(j.offset)
+	load := func(dst []F, tile int) {
+		if tile >= tiles {
+			clear(dst)
+			return
 		}
-		// Column transforms, product with the template spectrum, inverse.
-		for k := 0; k < K; k++ {
-			if k%16 == 0 && j.cancelled() {
-				return
+		oy, ox := (tile/tx)*vh, (tile%tx)*vw
+		xe := min(j.p.W, ox+N)
+		for r := 0; r < M; r++ {
+			d := dst[r*N : (r+1)*N]
+			y := oy + r
+			if y >= j.p.H {
+				clear(d)
+				continue
 			}
-			col := s.spec[k*ld : k*ld+M]
-			s.cols.Coefficients(col, col)
-			ts := tspec[k*ld : k*ld+M]
-			for r := range col {
-				col[r] *= ts[r]
+			src := j.p.Pix[y*j.p.W+ox : y*j.p.W+xe]
+			for x, v := range src {
+				d[x] = F(v) - off
 			}
-			s.cols.Sequence(col, col)
+			clear(d[len(src):])
 		}
-		// Inverse row transforms of the rows that hold valid outputs.
-		yn := min(vh, j.oh-oy)
-		xn := min(vw, j.ow-ox)
-		for r0 := 0; r0 < yn; r0 += 4 {
-			if j.cancelled() {
-				return
-			}
-			nr := min(4, yn-r0)
-			for k := 0; k < K; k++ {
-				d := s.spec[k*ld+r0 : k*ld+r0+nr]
-				for q, v := range d {
-					s.coef[q][k] = v
-				}
-			}
-			for q := 0; q < nr; q++ {
-				s.rows.Sequence(s.seq, s.coef[q])
-				dst := j.out.Pix[(oy+r0+q)*j.ow+ox : (oy+r0+q)*j.ow+ox+xn]
-				for x := range dst {
-					dst[x] = float32(s.seq[x])
-				}
+	}
+	store := func(src []F, tile int, s *nccFFTState[F]) {
+		if tile >= tiles {
+			return
+		}
+		oy, ox := (tile/tx)*vh, (tile%tx)*vw
+		yn, xn := min(vh, j.oh-oy), min(vw, j.ow-ox)
+		for r := 0; r < yn; r++ {
+			dst := j.out.Pix[(oy+r)*j.ow+ox : (oy+r)*j.ow+ox+xn]
+			row := src[r*N : r*N+xn]
+			for x := range dst {
+				dst[x] = float32(row[x])
 			}
 		}
 		j.normalise(&s.ns, ox, ox+xn, oy, oy+yn)
+	}
+
+	nccParallel((tiles+1)/2, j.cancelled, newState, func(s *nccFFTState[F], pair int) {
+		a, b := 2*pair, 2*pair+1
+		load(s.re, a)
+		load(s.im, b)
+		if !forward(s.re, s.im) {
+			return
+		}
+		for i := range s.re {
+			xr, xi := s.re[i], s.im[i]
+			s.re[i], s.im[i] = xr*tr[i]-xi*ti[i], xr*ti[i]+xi*tr[i]
+		}
+		for c := 0; c < N; c += lanes {
+			if j.cancelled() {
+				return
+			}
+			cols.inverseLanes(s.re[c:], s.im[c:], N, lanes)
+		}
+		// Only the rows that hold valid outputs need their inverse.
+		for r := 0; r < vh; r++ {
+			if r%4 == 0 && j.cancelled() {
+				return
+			}
+			rows.inverse1(s.re[r*N:(r+1)*N], s.im[r*N:(r+1)*N])
+		}
+		store(s.re, a, s)
+		store(s.im, b, s)
 	})
 }
