@@ -11,7 +11,7 @@ import (
 	"runtime"
 	"sync"
 	"sync/atomic"
-
+	"unsafe"
 )
 
 // nccMethod selects how Σ T'·I is computed; tests force each one.
@@ -221,58 +221,84 @@ func nccParallel[S any](n int, stop func() bool, newState func() S, f func(s S, 
 
 // nccNormState is the scratch space of normalise.
 type nccNormState struct {
-	s1, s2 []float64
+	c1, c2, p1, p2 []float64
 }
 
 // normalise turns the numerators Σ T'·I already in out over output rows
-// [y0,y1) and columns [x0,x1) into NCC scores. It builds float64 integral
-// images of the input region under those windows only, so the sums stay
-// small and each worker's region stays in cache.
+// [y0,y1) and columns [x0,x1) into NCC scores. The window sums and sums of
+// squares (float64, of the samples less the image mean, so they stay
+// small) slide down the region: per-column sums over the template's
+// height, updated by one row in and one row out, and their prefix sums
+// along the row give every window of an output row. All of it stays in a
+// core's L1 cache, where integral images of a 512×512 tile did not.
 func (j *nccJob) normalise(st *nccNormState, x0, x1, y0, y1 int) {
 	tw, th := j.t.W, j.t.H
-	rw, rh := x1-x0+tw-1, y1-y0+th-1
-	iw := rw + 1
-	need := iw * (rh + 1)
-	if cap(st.s1) < need {
-		st.s1 = make([]float64, need)
-		st.s2 = make([]float64, need)
+	rw := x1 - x0 + tw - 1
+	if cap(st.c1) < rw+1 {
+		st.c1, st.c2 = make([]float64, rw+1), make([]float64, rw+1)
+		st.p1, st.p2 = make([]float64, rw+1), make([]float64, rw+1)
 	}
-	s1, s2 := st.s1[:need], st.s2[:need]
-	clear(s1[:iw])
-	clear(s2[:iw])
-	for y := 0; y < rh; y++ {
-		src := j.p.Pix[(y0+y)*j.p.W+x0 : (y0+y)*j.p.W+x0+rw]
-		up1, up2 := s1[y*iw:(y+1)*iw], s2[y*iw:(y+1)*iw]
-		d1, d2 := s1[(y+1)*iw:(y+2)*iw], s2[(y+1)*iw:(y+2)*iw]
-		d1[0], d2[0] = 0, 0
-		var r1, r2 float64
-		for x, v := range src {
+	c1, c2, p1, p2 := st.c1[:rw], st.c2[:rw], st.p1[:rw+1], st.p2[:rw+1]
+	clear(c1)
+	clear(c2)
+	row := func(y int) []float32 { return j.p.Pix[y*j.p.W+x0 : y*j.p.W+x0+rw] }
+	var total float64 // Σ d² of every row taken in, for the flatness bound
+	for y := y0; y < y0+th; y++ {
+		for x, v := range row(y) {
 			d := float64(v) - j.offset
-			r1 += d
-			r2 += d * d
-			d1[x+1] = up1[x+1] + r1
-			d2[x+1] = up2[x+1] + r2
+			c1[x] += d
+			c2[x] += d * d
+			total += d * d
 		}
 	}
-	n := float64(tw * th)
-	// Rounding in the integral images is a few ulps of the region's total;
-	// a window whose variance is below that is flat.
-	eps := 1e-12 * s2[need-1]
+	invN := 1 / float64(tw*th)
 	for y := y0; y < y1; y++ {
-		a := (y - y0) * iw
-		b := (y - y0 + th) * iw
-		row := j.out.Pix[y*j.ow : (y+1)*j.ow]
-		for x := x0; x < x1; x++ {
-			c := x - x0
-			w1 := s1[b+c+tw] - s1[b+c] - s1[a+c+tw] + s1[a+c]
-			w2 := s2[b+c+tw] - s2[b+c] - s2[a+c+tw] + s2[a+c]
-			v := w2 - w1*w1/n
+		if y > y0 {
+			in, out := row(y+th-1), row(y-1)
+			in, out = in[:len(c1)], out[:len(c1)]
+			for x := range c1 {
+				a, b := float64(in[x])-j.offset, float64(out[x])-j.offset
+				c1[x] += a - b
+				c2[x] += a*a - b*b
+				total += a * a
+			}
+		}
+		var s1, s2 float64
+		p1[0], p2[0] = 0, 0
+		for x := range c1 {
+			s1 += c1[x]
+			s2 += c2[x]
+			p1[x+1], p2[x+1] = s1, s2
+		}
+		// Rounding in the running sums is a few ulps of what passed
+		// through them; a window whose variance is below that is flat.
+		eps := 1e-12 * total
+		dst := j.out.Pix[y*j.ow+x0 : y*j.ow+x1]
+		a1, a2 := p1[:len(dst)], p2[:len(dst)]
+		b1, b2 := p1[tw:tw+len(dst)], p2[tw:tw+len(dst)]
+		for x := range dst {
+			w1 := b1[x] - a1[x]
+			w2 := b2[x] - a2[x]
+			v := w2 - w1*w1*invN
 			if v <= eps+1e-9*w2 {
-				row[x] = 0
+				dst[x] = 0
 				continue
 			}
-			r := float64(row[x]) / math.Sqrt(v*j.tVar)
-			row[x] = float32(max(-1, min(1, r)))
+			// The score is stored as float32: its square root and
+			// quotient in float32 are as exact as the result (SQRTSS
+			// and DIVSS, a third the latency of the float64 ones).
+			q := v * j.tVar
+			if q > math.MaxFloat32 {
+				dst[x] = float32(max(-1, min(1, float64(dst[x])/math.Sqrt(q))))
+				continue
+			}
+			r := dst[x] / float32(math.Sqrt(float64(float32(q))))
+			if r > 1 {
+				r = 1
+			} else if r < -1 {
+				r = -1
+			}
+			dst[x] = r
 		}
 	}
 }
@@ -461,33 +487,23 @@ func runFFTTyped[F fftFloat](j *nccJob, M, N int) {
 	ty, tx := (j.oh+vh-1)/vh, (j.ow+vw-1)/vw
 	rows, cols := newFFTPlan[F](N), newFFTPlan[F](M)
 	lanes := min(N, fftLanes)
-	// A tile can be large when the template is: the transforms look at
-	// ctx every four rows and every column strip.
-	forward := func(re, im []F) bool {
-		for r := 0; r < M; r++ {
-			if r%4 == 0 && j.cancelled() {
-				return false
-			}
-			rows.forward1(re[r*N:(r+1)*N], im[r*N:(r+1)*N])
-		}
-		for c := 0; c < N; c += lanes {
-			if j.cancelled() {
-				return false
-			}
-			cols.forwardLanes(re[c:], im[c:], N, lanes)
-		}
-		return true
-	}
-
+	// Row stride: a power-of-two stride would put a column strip's rows
+	// in a few cache sets; one cache line more spreads them.
+	ld := N + 64/int(unsafe.Sizeof(F(0)))
 	// Template spectrum, conjugated (correlation, not convolution) and
 	// scaled by 1/(M·N) to undo the unnormalised inverse.
-	tr, ti := make([]F, M*N), make([]F, M*N)
+	tr, ti := make([]F, M*ld), make([]F, M*ld)
 	for r := 0; r < th; r++ {
 		for c := 0; c < tw; c++ {
-			tr[r*N+c] = F(j.tz[r*tw+c])
+			tr[r*ld+c] = F(j.tz[r*tw+c])
 		}
 	}
-	forward(tr, ti)
+	for r := 0; r < th; r++ { // the rows below are zero
+		rows.forward1(tr[r*ld:r*ld+N], ti[r*ld:r*ld+N])
+	}
+	for c := 0; c < N; c += lanes {
+		cols.forwardLanes(tr[c:], ti[c:], ld, lanes)
+	}
 	scale := 1 / (F(M) * F(N))
 	for i := range tr {
 		tr[i], ti[i] = tr[i]*scale, -ti[i]*scale
@@ -495,29 +511,23 @@ func runFFTTyped[F fftFloat](j *nccJob, M, N int) {
 
 	tiles := ty * tx
 	newState := func() *nccFFTState[F] {
-		return &nccFFTState[F]{re: make([]F, M*N), im: make([]F, M*N)}
+		return &nccFFTState[F]{re: make([]F, M*ld), im: make([]F, M*ld)}
 	}
 	off := F(j.offset)
-	load := func(dst []F, tile int) {
-		if tile >= tiles {
+	// load puts row r of a tile, less the image mean, into dst.
+	load := func(dst []F, tile, r int) {
+		oy, ox := (tile/tx)*vh, (tile%tx)*vw
+		y := oy + r
+		if tile >= tiles || y >= j.p.H {
 			clear(dst)
 			return
 		}
-		oy, ox := (tile/tx)*vh, (tile%tx)*vw
 		xe := min(j.p.W, ox+N)
-		for r := 0; r < M; r++ {
-			d := dst[r*N : (r+1)*N]
-			y := oy + r
-			if y >= j.p.H {
-				clear(d)
-				continue
-			}
-			src := j.p.Pix[y*j.p.W+ox : y*j.p.W+xe]
-			for x, v := range src {
-				d[x] = F(v) - off
-			}
-			clear(d[len(src):])
+		src := j.p.Pix[y*j.p.W+ox : y*j.p.W+xe]
+		for x, v := range src {
+			dst[x] = F(v) - off
 		}
+		clear(dst[len(src):])
 	}
 	store := func(src []F, tile int, s *nccFFTState[F]) {
 		if tile >= tiles {
@@ -527,7 +537,7 @@ func runFFTTyped[F fftFloat](j *nccJob, M, N int) {
 		yn, xn := min(vh, j.oh-oy), min(vw, j.ow-ox)
 		for r := 0; r < yn; r++ {
 			dst := j.out.Pix[(oy+r)*j.ow+ox : (oy+r)*j.ow+ox+xn]
-			row := src[r*N : r*N+xn]
+			row := src[r*ld : r*ld+xn]
 			for x := range dst {
 				dst[x] = float32(row[x])
 			}
@@ -537,27 +547,44 @@ func runFFTTyped[F fftFloat](j *nccJob, M, N int) {
 
 	nccParallel((tiles+1)/2, j.cancelled, newState, func(s *nccFFTState[F], pair int) {
 		a, b := 2*pair, 2*pair+1
-		load(s.re, a)
-		load(s.im, b)
-		if !forward(s.re, s.im) {
-			return
+		// Each row is transformed as soon as it is loaded, while it is in
+		// cache. A tile can be large when the template is: ctx is looked
+		// at every four rows and every column strip.
+		for r := 0; r < M; r++ {
+			if r%4 == 0 && j.cancelled() {
+				return
+			}
+			re, im := s.re[r*ld:r*ld+N], s.im[r*ld:r*ld+N]
+			load(re, a, r)
+			load(im, b, r)
+			rows.forward1(re, im)
 		}
-		for i := range s.re {
-			xr, xi := s.re[i], s.im[i]
-			s.re[i], s.im[i] = xr*tr[i]-xi*ti[i], xr*ti[i]+xi*tr[i]
-		}
+		// Each strip of columns goes through its forward transform, the
+		// product with the template spectrum and its inverse while it
+		// stays in cache.
 		for c := 0; c < N; c += lanes {
 			if j.cancelled() {
 				return
 			}
-			cols.inverseLanes(s.re[c:], s.im[c:], N, lanes)
+			cols.forwardLanes(s.re[c:], s.im[c:], ld, lanes)
+			for r := 0; r < M; r++ {
+				o := r*ld + c
+				xr, xi := s.re[o:o+lanes], s.im[o:o+lanes]
+				yr, yi := tr[o:o+lanes], ti[o:o+lanes]
+				xi, yr, yi = xi[:len(xr)], yr[:len(xr)], yi[:len(xr)]
+				for i := range xr {
+					pr, pi := xr[i], xi[i]
+					xr[i], xi[i] = pr*yr[i]-pi*yi[i], pr*yi[i]+pi*yr[i]
+				}
+			}
+			cols.inverseLanes(s.re[c:], s.im[c:], ld, lanes)
 		}
 		// Only the rows that hold valid outputs need their inverse.
 		for r := 0; r < vh; r++ {
 			if r%4 == 0 && j.cancelled() {
 				return
 			}
-			rows.inverse1(s.re[r*N:(r+1)*N], s.im[r*N:(r+1)*N])
+			rows.inverse1(s.re[r*ld:r*ld+N], s.im[r*ld:r*ld+N])
 		}
 		store(s.re, a, s)
 		store(s.im, b, s)
