@@ -355,25 +355,28 @@ func (j *nccJob) runDirect() {
 }
 
 // Cost model, in nanoseconds on one core (fitted to BenchmarkNCCPaths and
-// tile-size sweeps on a 2-core x86-64 server, Go 1.26):
+// tile-size sweeps on a 2-core x86-64 server, Go 1.26, with the FFT of
+// fft.go):
 //
 //	direct: costDirect · outW·outH·tw·th   (one multiply-add per tap)
-//	FFT:    per M×N tile, costFFT · M·N·log2(M·N) for the forward and
-//	        inverse transforms plus costTile · M·N for the copies, the
-//	        spectrum product and the tile's normalisation; tiles of
-//	        (M−th+1)×(N−tw+1) outputs cover the map, and with W workers the
-//	        wall time is ⌈tiles/W⌉ tiles, so one huge tile is a bad plan.
+//	FFT:    per M×N tile, costFFT · M·N·log2(M·N) for its half of the
+//	        forward and inverse transform of a tile pair plus costTile · M·N
+//	        for the copies, the spectrum product and the tile's
+//	        normalisation; tiles of (M−th+1)×(N−tw+1) outputs cover the
+//	        map, they go through the transforms two at a time, and with W
+//	        workers the wall time is ⌈pairs/W⌉ pairs, so one huge tile is
+//	        a bad plan.
 //
 // Tiles above maxTileArea samples cost half as much again per sample
-// (measured: the tile and template spectra no longer share a core's cache);
-// a large template needs them, since a tile of its own size or little more
-// leaves only a few valid outputs per tile. The direct path's window sums are the same work on both sides and
-// do not enter the choice.
+// (their column strips no longer fit a core's L2 cache); a large template
+// needs them, since a tile of its own size or little more leaves only a
+// few valid outputs per tile. The direct path's window sums are the same
+// work on both sides and do not enter the choice.
 const (
-	costDirect  = 0.57
-	costFFT     = 3.5
-	costTile    = 15.0
-	maxTileArea = 1 << 18
+	costDirect  = 0.45
+	costFFT     = 0.9
+	costTile    = 4.0
+	maxTileArea = 1 << 20
 	// costOutOfCache multiplies the cost of a tile above maxTileArea.
 	costOutOfCache = 1.5
 )
@@ -438,9 +441,10 @@ func planTiles(w, h, tw, th int) (m, n int, cost float64) {
 		for _, nn := range cands(tw, w) {
 			tx := (ow + nn - tw) / (nn - tw + 1)
 			area := float64(mm) * float64(nn)
-			w := nccWorkers(ty * tx)
-			rounds := (ty*tx + w - 1) / w
-			c := float64(rounds) * area * (costFFT*math.Log2(area) + costTile)
+			pairs := (ty*tx + 1) / 2
+			w := nccWorkers(pairs)
+			rounds := (pairs + w - 1) / w
+			c := 2 * float64(rounds) * area * (costFFT*math.Log2(area) + costTile)
 			if mm*nn > maxTileArea {
 				c *= costOutOfCache
 			}
