@@ -99,6 +99,24 @@ const (
 // replicated), or three colour planes (R, G, B). Transparent pixels count as
 // composited on black, as image.Image's premultiplied colours give them.
 func Planes(img image.Image, f Feature) []Plane {
+	if m, ok := img.(*image.Gray); ok && f != FeatureColor {
+		// One plane, not three equal ones: the same luma, a third of the
+		// work on a 12 MP image.
+		bd := m.Bounds()
+		p := NewPlane(bd.Dx(), bd.Dy())
+		for y := 0; y < p.H; y++ {
+			row := m.Pix[y*m.Stride : y*m.Stride+p.W]
+			dst := p.Pix[y*p.W : (y+1)*p.W]
+			for x, c := range row {
+				v := float64(float32(c))
+				dst[x] = float32(lumaR*v + lumaG*v + lumaB*v)
+			}
+		}
+		if f == FeatureGradient {
+			return []Plane{Sobel(p)}
+		}
+		return []Plane{p}
+	}
 	r, g, b := rgbPlanes(img)
 	switch f {
 	case FeatureColor:

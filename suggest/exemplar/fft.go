@@ -32,8 +32,8 @@ type fftFloat interface{ ~float32 | ~float64 }
 // blocks of size s, with the twiddles w^j, w^2j, w^3j for j < s/4
 // (w = exp(−2πi/s)), or w^j for j < s/2 in a radix-2 stage.
 type fftStage[F fftFloat] struct {
-	s                      int
-	radix2                 bool
+	s                            int
+	radix2                       bool
 	w1r, w1i, w2r, w2i, w3r, w3i []F
 }
 
