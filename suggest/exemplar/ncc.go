@@ -242,37 +242,48 @@ func (j *nccJob) normalise(st *nccNormState, x0, x1, y0, y1 int) {
 	clear(c1)
 	clear(c2)
 	row := func(y int) []float32 { return j.p.Pix[y*j.p.W+x0 : y*j.p.W+x0+rw] }
-	var total float64 // Σ d² of every row taken in, for the flatness bound
+	off := j.offset
 	for y := y0; y < y0+th; y++ {
-		for x, v := range row(y) {
-			d := float64(v) - j.offset
+		r := row(y)
+		r = r[:len(c1)]
+		for x := range c1 {
+			d := float64(r[x]) - off
 			c1[x] += d
 			c2[x] += d * d
-			total += d * d
 		}
 	}
 	invN := 1 / float64(tw*th)
+	var passed float64 // Σ over the rows so far of the band's Σ d²
 	for y := y0; y < y1; y++ {
+		// Slide the column sums down a row (not for the first) and take
+		// their prefix sums, in one pass.
+		var s1, s2 float64
+		p1[0], p2[0] = 0, 0
+		q1, q2 := p1[1:len(c1)+1], p2[1:len(c1)+1]
 		if y > y0 {
 			in, out := row(y+th-1), row(y-1)
 			in, out = in[:len(c1)], out[:len(c1)]
 			for x := range c1 {
-				a, b := float64(in[x])-j.offset, float64(out[x])-j.offset
-				c1[x] += a - b
-				c2[x] += a*a - b*b
-				total += a * a
+				a, b := float64(in[x])-off, float64(out[x])-off
+				u1 := c1[x] + (a - b)
+				u2 := c2[x] + (a*a - b*b)
+				c1[x], c2[x] = u1, u2
+				s1 += u1
+				s2 += u2
+				q1[x], q2[x] = s1, s2
+			}
+		} else {
+			for x := range c1 {
+				s1 += c1[x]
+				s2 += c2[x]
+				q1[x], q2[x] = s1, s2
 			}
 		}
-		var s1, s2 float64
-		p1[0], p2[0] = 0, 0
-		for x := range c1 {
-			s1 += c1[x]
-			s2 += c2[x]
-			p1[x+1], p2[x+1] = s1, s2
-		}
 		// Rounding in the running sums is a few ulps of what passed
-		// through them; a window whose variance is below that is flat.
-		eps := 1e-12 * total
+		// through them (each row th times); a window whose variance is
+		// below that is flat.
+		passed += s2
+		eps := 1e-12 * passed / float64(th)
 		dst := j.out.Pix[y*j.ow+x0 : y*j.ow+x1]
 		a1, a2 := p1[:len(dst)], p2[:len(dst)]
 		b1, b2 := p1[tw:tw+len(dst)], p2[tw:tw+len(dst)]
