@@ -94,10 +94,10 @@ print(cv2.__version__)
 
 // TestSearchFiveScalesEqualsExhaustive: on the five-scale scene the
 // coarse-to-fine Search finds exactly the true copies, and its matches are
-// the exhaustive search's, positions equal and scores within 1e-5; and
+// the exhaustive search's, positions equal and scores within 1e-6; and
 // they are also what the same peak selection (local maxima at or above the
 // threshold, NMS, the exemplar dropped) gives on OpenCV 4.6's exhaustive
-// TM_CCOEFF_NORMED maps at the five scales, scores within 1e-4 (the
+// TM_CCOEFF_NORMED maps at the five scales, scores within refTol (the
 // tolerance of TestNCCAgainstOpenCV).
 func TestSearchFiveScalesEqualsExhaustive(t *testing.T) {
 	img, ex, want := fiveScaleScene(2000, 1500)
@@ -120,18 +120,13 @@ func TestSearchFiveScalesEqualsExhaustive(t *testing.T) {
 	}
 	checkFound(t, "Exhaustive", full, want, 0)
 	checkFound(t, "Search", fast, want, 0)
-	sameMatches(t, "Search", fast, full, 1e-5)
+	sameMatches(t, "Search", fast, full, 1e-6)
 	for _, m := range full {
 		t.Logf("exhaustive: %v scale %g score %.5f", m.Box, m.Scale, m.Score)
 	}
 
+	checkOpenCV(t)
 	py := "/usr/bin/python3"
-	if err := exec.Command(py, "-c", "import cv2, numpy").Run(); err != nil {
-		if os.Getenv("CI") != "" {
-			t.Fatalf("CI must install python3-opencv for this check: %v", err)
-		}
-		t.Skip("python3-opencv is not installed (make test installs it)")
-	}
 	dir := t.TempDir()
 	plane := Planes(img, opt.Feature)[0]
 	job := map[string]any{"img": filepath.Join(dir, "img.f32"), "w": plane.W, "h": plane.H,
@@ -168,6 +163,7 @@ func TestSearchFiveScalesEqualsExhaustive(t *testing.T) {
 		if worst > 1e-3 {
 			t.Errorf("scale %g: Resize differs from cv2.resize by up to %.3g levels", tp.scale, worst)
 		}
+		t.Logf("scale %g: Resize against cv2.resize: worst %.2g levels", tp.scale, worst)
 	}
 	var cands []Match
 	for k, tp := range set.templates {
@@ -182,7 +178,7 @@ func TestSearchFiveScalesEqualsExhaustive(t *testing.T) {
 		t.Fatal(err)
 	}
 	checkFound(t, "OpenCV maps", ref, want, 0)
-	sameMatches(t, "Search against OpenCV", fast, ref, 1e-4)
+	sameMatches(t, "Search against OpenCV", fast, ref, refTol)
 }
 
 // sameMatches: the same matches in the same order, boxes and scales equal,
@@ -193,8 +189,11 @@ func sameMatches(t *testing.T, name string, got, want []Match, tol float64) {
 		t.Errorf("%s: %d matches, want %d", name, len(got), len(want))
 		return
 	}
+	var worst float64
+	defer func() { t.Logf("%s: %d matches, worst score difference %.2g", name, len(got), worst) }()
 	for i := range got {
 		g, w := got[i], want[i]
+		worst = max(worst, math.Abs(g.Score-w.Score))
 		if g.Box != w.Box || g.Scale != w.Scale || math.Abs(g.Score-w.Score) > tol {
 			t.Errorf("%s: match %d %v scale %g score %.6f, want %v scale %g score %.6f", name, i, g.Box, g.Scale, g.Score, w.Box, w.Scale, w.Score)
 		}
