@@ -133,7 +133,7 @@ type nccJob struct {
 	ow, oh int
 	tz     []float64 // template minus its mean
 	tVar   float64   // Σ T'²
-	offset float64   // subtracted before the integral images to keep their sums small
+	offset float64   // subtracted from the samples to keep the sums small
 	out    Plane
 }
 
@@ -159,11 +159,18 @@ func newNCCJob(ctx context.Context, p, t Plane) *nccJob {
 		s2 = 0
 	}
 	j.tVar = s2
+	// Any constant would do (Σ T' = 0); one near the image mean keeps the
+	// sums small. The mean of about 256 evenly spaced rows is near enough
+	// and costs a fraction of the whole image's (10 ms at 12 MP, serial).
 	var ps float64
-	for _, v := range p.Pix {
-		ps += float64(v)
+	var n0 int
+	for y := 0; y < p.H; y += max(1, p.H/256) {
+		for _, v := range p.Pix[y*p.W : (y+1)*p.W] {
+			ps += float64(v)
+		}
+		n0 += p.W
 	}
-	j.offset = ps / float64(len(p.Pix))
+	j.offset = ps / float64(n0)
 	return j
 }
 
