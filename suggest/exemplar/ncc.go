@@ -31,10 +31,10 @@ const (
 // with T' = T − mean(T) and I' = I − mean of the image window under the
 // template. out is (p.W−t.W+1)×(p.H−t.H+1) and its values lie in [−1, 1];
 // where the window or the template has zero variance the value is 0, never
-// NaN. Window sums and sums of squares come from float64 integral images;
-// Σ T'·I comes from a direct sum or a tiled FFT cross-correlation, whichever
-// chooseMethod estimates cheaper. It returns an error when t is empty or
-// larger than p.
+// NaN. Window sums and sums of squares are float64 running sums; Σ T'·I
+// comes from a direct sum or a tiled float64 FFT cross-correlation
+// (fft.go), whichever chooseMethod estimates cheaper. It returns an error
+// when t is empty or larger than p.
 func NCC(p, t Plane) (Plane, error) { return nccTiles(context.Background(), p, t, methodAuto, 0, 0) }
 
 // NCCPlanes sums the per-channel NCC maps of several planes and divides by
