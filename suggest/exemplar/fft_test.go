@@ -1,6 +1,8 @@
 package exemplar
 
 import (
+	"context"
+	"image"
 	"math"
 	"math/bits"
 	"math/rand/v2"
@@ -77,5 +79,40 @@ func TestFFTAgainstDFT(t *testing.T) {
 				}
 			}
 		}
+	}
+}
+
+// TestNCCFFTFaintNextToBright: windows of a faint texture (±0.05 levels)
+// beside bright noise (0..255) share FFT tiles with it; the tiled FFT's
+// scores there must still equal the direct sums' (float64 throughout)
+// within 1e-5. A float32 transform fails this: its rounding is relative to
+// the whole tile's energy, thousands of times a faint window's.
+func TestNCCFFTFaintNextToBright(t *testing.T) {
+	r := rand.New(rand.NewPCG(31, 32))
+	img := randomPlane(r, 600, 300)
+	for y := range 300 {
+		for x := 300; x < 600; x++ {
+			img.Pix[y*600+x] = 128 + 0.1*(r.Float32()-0.5)
+		}
+	}
+	tpl := Crop(img, image.Rect(400, 100, 432, 132))
+	want, err := nccWith(img, tpl, methodDirect)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, tile := range []int{64, 256} {
+		got, err := nccTiles(context.Background(), img, tpl, methodFFT, tile, tile)
+		if err != nil {
+			t.Fatal(err)
+		}
+		var worst float64
+		for i := range want.Pix {
+			d := math.Abs(float64(got.Pix[i] - want.Pix[i]))
+			worst = max(worst, d)
+			if d > 1e-5 {
+				t.Fatalf("tile %d at (%d,%d): FFT %v, direct %v", tile, i%want.W, i/want.W, got.Pix[i], want.Pix[i])
+			}
+		}
+		t.Logf("tile %d: worst |Δ| %.2g", tile, worst)
 	}
 }
