@@ -7,11 +7,11 @@ import (
 	"errors"
 	"fmt"
 	"math"
+	"math/bits"
 	"runtime"
 	"sync"
 	"sync/atomic"
-
-	"gonum.org/v1/gonum/dsp/fourier"
+	"unsafe"
 )
 
 // nccMethod selects how Σ T'·I is computed; tests force each one.
@@ -31,10 +31,10 @@ const (
 // with T' = T − mean(T) and I' = I − mean of the image window under the
 // template. out is (p.W−t.W+1)×(p.H−t.H+1) and its values lie in [−1, 1];
 // where the window or the template has zero variance the value is 0, never
-// NaN. Window sums and sums of squares come from float64 integral images;
-// Σ T'·I comes from a direct sum or a tiled FFT cross-correlation, whichever
-// chooseMethod estimates cheaper. It returns an error when t is empty or
-// larger than p.
+// NaN. Window sums and sums of squares are float64 running sums; Σ T'·I
+// comes from a direct sum or a tiled float64 FFT cross-correlation
+// (fft.go), whichever chooseMethod estimates cheaper. It returns an error
+// when t is empty or larger than p.
 func NCC(p, t Plane) (Plane, error) { return nccTiles(context.Background(), p, t, methodAuto, 0, 0) }
 
 // NCCPlanes sums the per-channel NCC maps of several planes and divides by
@@ -113,6 +113,8 @@ func nccTiles(ctx context.Context, p, t Plane, m nccMethod, tm, tn int) (Plane, 
 		if tm < t.H || tn < t.W {
 			tm, tn, _ = planTiles(p.W, p.H, t.W, t.H)
 		}
+		// The FFT takes powers of two.
+		tm, tn = 1<<bits.Len(uint(tm-1)), 1<<bits.Len(uint(tn-1))
 		j.runFFT(tm, tn)
 	} else {
 		j.runDirect()
@@ -131,7 +133,7 @@ type nccJob struct {
 	ow, oh int
 	tz     []float64 // template minus its mean
 	tVar   float64   // Σ T'²
-	offset float64   // subtracted before the integral images to keep their sums small
+	offset float64   // subtracted from the samples to keep the sums small
 	out    Plane
 }
 
@@ -157,11 +159,18 @@ func newNCCJob(ctx context.Context, p, t Plane) *nccJob {
 		s2 = 0
 	}
 	j.tVar = s2
+	// Any constant would do (Σ T' = 0); one near the image mean keeps the
+	// sums small. The mean of about 256 evenly spaced rows is near enough
+	// and costs a fraction of the whole image's (10 ms at 12 MP, serial).
 	var ps float64
-	for _, v := range p.Pix {
-		ps += float64(v)
+	var n0 int
+	for y := 0; y < p.H; y += max(1, p.H/256) {
+		for _, v := range p.Pix[y*p.W : (y+1)*p.W] {
+			ps += float64(v)
+		}
+		n0 += p.W
 	}
-	j.offset = ps / float64(len(p.Pix))
+	j.offset = ps / float64(n0)
 	return j
 }
 
@@ -219,58 +228,95 @@ func nccParallel[S any](n int, stop func() bool, newState func() S, f func(s S, 
 
 // nccNormState is the scratch space of normalise.
 type nccNormState struct {
-	s1, s2 []float64
+	c1, c2, p1, p2 []float64
 }
 
 // normalise turns the numerators Σ T'·I already in out over output rows
-// [y0,y1) and columns [x0,x1) into NCC scores. It builds float64 integral
-// images of the input region under those windows only, so the sums stay
-// small and each worker's region stays in cache.
+// [y0,y1) and columns [x0,x1) into NCC scores. The window sums and sums of
+// squares (float64, of the samples less the image mean, so they stay
+// small) slide down the region: per-column sums over the template's
+// height, updated by one row in and one row out, and their prefix sums
+// along the row give every window of an output row. All of it stays in a
+// core's L1 cache, where integral images of a 512×512 tile did not.
 func (j *nccJob) normalise(st *nccNormState, x0, x1, y0, y1 int) {
 	tw, th := j.t.W, j.t.H
-	rw, rh := x1-x0+tw-1, y1-y0+th-1
-	iw := rw + 1
-	need := iw * (rh + 1)
-	if cap(st.s1) < need {
-		st.s1 = make([]float64, need)
-		st.s2 = make([]float64, need)
+	rw := x1 - x0 + tw - 1
+	if cap(st.c1) < rw+1 {
+		st.c1, st.c2 = make([]float64, rw+1), make([]float64, rw+1)
+		st.p1, st.p2 = make([]float64, rw+1), make([]float64, rw+1)
 	}
-	s1, s2 := st.s1[:need], st.s2[:need]
-	clear(s1[:iw])
-	clear(s2[:iw])
-	for y := 0; y < rh; y++ {
-		src := j.p.Pix[(y0+y)*j.p.W+x0 : (y0+y)*j.p.W+x0+rw]
-		up1, up2 := s1[y*iw:(y+1)*iw], s2[y*iw:(y+1)*iw]
-		d1, d2 := s1[(y+1)*iw:(y+2)*iw], s2[(y+1)*iw:(y+2)*iw]
-		d1[0], d2[0] = 0, 0
-		var r1, r2 float64
-		for x, v := range src {
-			d := float64(v) - j.offset
-			r1 += d
-			r2 += d * d
-			d1[x+1] = up1[x+1] + r1
-			d2[x+1] = up2[x+1] + r2
+	c1, c2, p1, p2 := st.c1[:rw], st.c2[:rw], st.p1[:rw+1], st.p2[:rw+1]
+	clear(c1)
+	clear(c2)
+	row := func(y int) []float32 { return j.p.Pix[y*j.p.W+x0 : y*j.p.W+x0+rw] }
+	off := j.offset
+	for y := y0; y < y0+th; y++ {
+		r := row(y)
+		r = r[:len(c1)]
+		for x := range c1 {
+			d := float64(r[x]) - off
+			c1[x] += d
+			c2[x] += d * d
 		}
 	}
-	n := float64(tw * th)
-	// Rounding in the integral images is a few ulps of the region's total;
-	// a window whose variance is below that is flat.
-	eps := 1e-12 * s2[need-1]
+	invN := 1 / float64(tw*th)
+	var passed float64 // Σ over the rows so far of the band's Σ d²
 	for y := y0; y < y1; y++ {
-		a := (y - y0) * iw
-		b := (y - y0 + th) * iw
-		row := j.out.Pix[y*j.ow : (y+1)*j.ow]
-		for x := x0; x < x1; x++ {
-			c := x - x0
-			w1 := s1[b+c+tw] - s1[b+c] - s1[a+c+tw] + s1[a+c]
-			w2 := s2[b+c+tw] - s2[b+c] - s2[a+c+tw] + s2[a+c]
-			v := w2 - w1*w1/n
+		// Slide the column sums down a row (not for the first) and take
+		// their prefix sums, in one pass.
+		var s1, s2 float64
+		p1[0], p2[0] = 0, 0
+		q1, q2 := p1[1:len(c1)+1], p2[1:len(c1)+1]
+		if y > y0 {
+			in, out := row(y+th-1), row(y-1)
+			in, out = in[:len(c1)], out[:len(c1)]
+			for x := range c1 {
+				a, b := float64(in[x])-off, float64(out[x])-off
+				u1 := c1[x] + (a - b)
+				u2 := c2[x] + (a*a - b*b)
+				c1[x], c2[x] = u1, u2
+				s1 += u1
+				s2 += u2
+				q1[x], q2[x] = s1, s2
+			}
+		} else {
+			for x := range c1 {
+				s1 += c1[x]
+				s2 += c2[x]
+				q1[x], q2[x] = s1, s2
+			}
+		}
+		// Rounding in the running sums is a few ulps of what passed
+		// through them (each row th times); a window whose variance is
+		// below that is flat.
+		passed += s2
+		eps := 1e-12 * passed / float64(th)
+		dst := j.out.Pix[y*j.ow+x0 : y*j.ow+x1]
+		a1, a2 := p1[:len(dst)], p2[:len(dst)]
+		b1, b2 := p1[tw:tw+len(dst)], p2[tw:tw+len(dst)]
+		for x := range dst {
+			w1 := b1[x] - a1[x]
+			w2 := b2[x] - a2[x]
+			v := w2 - w1*w1*invN
 			if v <= eps+1e-9*w2 {
-				row[x] = 0
+				dst[x] = 0
 				continue
 			}
-			r := float64(row[x]) / math.Sqrt(v*j.tVar)
-			row[x] = float32(max(-1, min(1, r)))
+			// The score is stored as float32: its square root and
+			// quotient in float32 are as exact as the result (SQRTSS
+			// and DIVSS, a third the latency of the float64 ones).
+			q := v * j.tVar
+			if q > math.MaxFloat32 {
+				dst[x] = float32(max(-1, min(1, float64(dst[x])/math.Sqrt(q))))
+				continue
+			}
+			r := dst[x] / float32(math.Sqrt(float64(float32(q))))
+			if r > 1 {
+				r = 1
+			} else if r < -1 {
+				r = -1
+			}
+			dst[x] = r
 		}
 	}
 }
@@ -327,25 +373,28 @@ func (j *nccJob) runDirect() {
 }
 
 // Cost model, in nanoseconds on one core (fitted to BenchmarkNCCPaths and
-// tile-size sweeps on a 2-core x86-64 server, Go 1.26):
+// tile-size sweeps on a 2-core x86-64 server, Go 1.26, with the FFT of
+// fft.go):
 //
 //	direct: costDirect · outW·outH·tw·th   (one multiply-add per tap)
-//	FFT:    per M×N tile, costFFT · M·N·log2(M·N) for the forward and
-//	        inverse transforms plus costTile · M·N for the copies, the
-//	        spectrum product and the tile's normalisation; tiles of
-//	        (M−th+1)×(N−tw+1) outputs cover the map, and with W workers the
-//	        wall time is ⌈tiles/W⌉ tiles, so one huge tile is a bad plan.
+//	FFT:    per M×N tile, costFFT · M·N·log2(M·N) for its half of the
+//	        forward and inverse transform of a tile pair plus costTile · M·N
+//	        for the copies, the spectrum product and the tile's
+//	        normalisation; tiles of (M−th+1)×(N−tw+1) outputs cover the
+//	        map, they go through the transforms two at a time, and with W
+//	        workers the wall time is ⌈pairs/W⌉ pairs, so one huge tile is
+//	        a bad plan.
 //
 // Tiles above maxTileArea samples cost half as much again per sample
-// (measured: the tile and template spectra no longer share a core's cache);
-// a large template needs them, since a tile of its own size or little more
-// leaves only a few valid outputs per tile. The direct path's window sums are the same work on both sides and
-// do not enter the choice.
+// (their column strips no longer fit a core's L2 cache); a large template
+// needs them, since a tile of its own size or little more leaves only a
+// few valid outputs per tile. The direct path's window sums are the same
+// work on both sides and do not enter the choice.
 const (
-	costDirect  = 0.57
-	costFFT     = 3.5
-	costTile    = 15.0
-	maxTileArea = 1 << 18
+	costDirect  = 0.45
+	costFFT     = 0.9
+	costTile    = 4.0
+	maxTileArea = 1 << 20
 	// costOutOfCache multiplies the cost of a tile above maxTileArea.
 	costOutOfCache = 1.5
 )
@@ -361,29 +410,21 @@ func chooseMethod(w, h, tw, th int) nccMethod {
 	return methodDirect
 }
 
-// maxTile bounds one side of an FFT tile.
+// maxTile bounds one side of an FFT tile unless the template needs more.
 const maxTile = 1024
 
-// fftSizes lists the lengths 2^a·3^b·5^c up to maxTile, the ones the FFT
-// handles at full speed.
+// fftSizes lists the powers of two up to maxTile, the lengths the FFT
+// handles.
 var fftSizes = func() []int {
 	var s []int
-	for n := 1; n <= maxTile; n++ {
-		m := n
-		for _, f := range []int{2, 3, 5} {
-			for m%f == 0 {
-				m /= f
-			}
-		}
-		if m == 1 {
-			s = append(s, n)
-		}
+	for n := 1; n <= maxTile; n *= 2 {
+		s = append(s, n)
 	}
 	return s
 }()
 
 // maxTileSamples bounds a tile unless no smaller one fits the template:
-// each worker holds two spectra of 16 bytes per sample.
+// each worker holds two arrays of 8 bytes per sample.
 const maxTileSamples = 1 << 24
 
 // planTiles picks the FFT tile size M×N (rows×columns) for a w×h image and a
@@ -401,10 +442,10 @@ func planTiles(w, h, tw, th int) (m, n int, cost float64) {
 			}
 		}
 		if len(c) == 0 || c[len(c)-1] < full {
-			// Beyond maxTile: one tile the length of the axis (any length
-			// works, if more slowly), so a long template does not get a
-			// tile with a single valid output per row.
-			c = append(c, full)
+			// Beyond maxTile: one tile the length of the axis, rounded up
+			// to a power of two, so a long template does not get a tile
+			// with a single valid output per row.
+			c = append(c, 1<<bits.Len(uint(full-1)))
 		}
 		return c
 	}
@@ -418,9 +459,10 @@ func planTiles(w, h, tw, th int) (m, n int, cost float64) {
 		for _, nn := range cands(tw, w) {
 			tx := (ow + nn - tw) / (nn - tw + 1)
 			area := float64(mm) * float64(nn)
-			w := nccWorkers(ty * tx)
-			rounds := (ty*tx + w - 1) / w
-			c := float64(rounds) * area * (costFFT*math.Log2(area) + costTile)
+			pairs := (ty*tx + 1) / 2
+			w := nccWorkers(pairs)
+			rounds := (pairs + w - 1) / w
+			c := 2 * float64(rounds) * area * (costFFT*math.Log2(area) + costTile)
 			if mm*nn > maxTileArea {
 				c *= costOutOfCache
 			}
@@ -439,132 +481,134 @@ func planTiles(w, h, tw, th int) (m, n int, cost float64) {
 	return best.m, best.n, best.cost
 }
 
-// nccFFTState is one worker's transforms and scratch space.
-type nccFFTState struct {
-	rows *fourier.FFT
-	cols *fourier.CmplxFFT
-	seq  []float64
-	coef [4][]complex128
-	spec []complex128 // column-major: spec[k*ld+r] is row r, frequency k
-	ns   nccNormState
+// fftLanes is the width, in columns, of the strips the column transforms
+// work on: a strip of a 512-row tile (two arrays of 512×64 float64) stays
+// in a core's L2 cache through all the stages.
+const fftLanes = 64
+
+// nccFFTState is one worker's tile pair: two real tiles held as the real
+// and imaginary parts of one complex tile.
+type nccFFTState[F fftFloat] struct {
+	re, im []F
+	ns     nccNormState
 }
 
 // runFFT computes Σ T'·I by FFT cross-correlation in M×N tiles
-// (overlap-save): the template spectrum is computed once, and each tile's
-// circular correlation is exact for its first (M−th+1)×(N−tw+1) outputs.
-func (j *nccJob) runFFT(M, N int) {
+// (overlap-save) of power-of-two sides: the template spectrum is computed
+// once, and each tile's circular correlation is exact for its first
+// (M−th+1)×(N−tw+1) outputs. Tiles go two at a time through one complex
+// transform, one as the real part and one as the imaginary part: the
+// template is real, so the correlation of each comes back in its own part
+// (the product with the conjugate template spectrum is linear, and the
+// inverse of a real tile's product is real).
+func (j *nccJob) runFFT(M, N int) { runFFTTyped[float64](j, M, N) }
+
+func runFFTTyped[F fftFloat](j *nccJob, M, N int) {
 	tw, th := j.t.W, j.t.H
-	K := N/2 + 1
-	// Column stride: padding by one cache line keeps the transposed writes
-	// of a power-of-two M from landing in the same cache sets.
-	ld := M + 4
 	vh, vw := M-th+1, N-tw+1
 	ty, tx := (j.oh+vh-1)/vh, (j.ow+vw-1)/vw
-
-	newState := func() *nccFFTState {
-		s := &nccFFTState{
-			rows: fourier.NewFFT(N),
-			cols: fourier.NewCmplxFFT(M),
-			seq:  make([]float64, N),
-			spec: make([]complex128, K*ld),
-		}
-		for i := range s.coef {
-			s.coef[i] = make([]complex128, K)
-		}
-		return s
-	}
-
+	rows, cols := newFFTPlan[F](N), newFFTPlan[F](M)
+	lanes := min(N, fftLanes)
+	// Row stride: a power-of-two stride would put a column strip's rows
+	// in a few cache sets; one cache line more spreads them.
+	ld := N + 64/int(unsafe.Sizeof(F(0)))
 	// Template spectrum, conjugated (correlation, not convolution) and
 	// scaled by 1/(M·N) to undo the unnormalised inverse.
-	tspec := make([]complex128, K*ld)
-	{
-		s := newState()
-		for r := 0; r < M; r++ {
-			clear(s.seq)
-			if r < th {
-				copy(s.seq, j.tz[r*tw:(r+1)*tw])
-			}
-			c := s.rows.Coefficients(s.coef[0], s.seq)
-			for k, v := range c {
-				tspec[k*ld+r] = v
-			}
-		}
-		scale := 1 / (float64(M) * float64(N))
-		col := make([]complex128, M)
-		for k := 0; k < K; k++ {
-			s.cols.Coefficients(col, tspec[k*ld:k*ld+M])
-			for r, v := range col {
-				tspec[k*ld+r] = complex(real(v)*scale, -imag(v)*scale)
-			}
+	tr, ti := make([]F, M*ld), make([]F, M*ld)
+	for r := 0; r < th; r++ {
+		for c := 0; c < tw; c++ {
+			tr[r*ld+c] = F(j.tz[r*tw+c])
 		}
 	}
+	for r := 0; r < th; r++ { // the rows below are zero
+		rows.forward1(tr[r*ld:r*ld+N], ti[r*ld:r*ld+N])
+	}
+	for c := 0; c < N; c += lanes {
+		cols.forwardLanes(tr[c:], ti[c:], ld, lanes)
+	}
+	scale := 1 / (F(M) * F(N))
+	for i := range tr {
+		tr[i], ti[i] = tr[i]*scale, -ti[i]*scale
+	}
 
-	nccParallel(ty*tx, j.cancelled, newState, func(s *nccFFTState, i int) {
-		oy, ox := (i/tx)*vh, (i%tx)*vw
-		// Forward row transforms, four rows at a time so that the transposed
-		// writes fill whole cache lines.
-		// A tile can be large when the template is: look at ctx inside it.
-		for r0 := 0; r0 < M; r0 += 4 {
-			if j.cancelled() {
-				return
-			}
-			nr := min(4, M-r0)
-			for q := 0; q < nr; q++ {
-				y := oy + r0 + q
-				if y >= j.p.H {
-					clear(s.coef[q])
-					continue
-				}
-				clear(s.seq)
-				xe := min(j.p.W, ox+N)
-				src := j.p.Pix[y*j.p.W+ox : y*j.p.W+xe]
-				for x, v := range src {
-					s.seq[x] = float64(v)
-				}
-				s.rows.Coefficients(s.coef[q], s.seq)
-			}
-			for k := 0; k < K; k++ {
-				d := s.spec[k*ld+r0 : k*ld+r0+nr]
-				for q := range d {
-					d[q] = s.coef[q][k]
-				}
-			}
+	tiles := ty * tx
+	newState := func() *nccFFTState[F] {
+		return &nccFFTState[F]{re: make([]F, M*ld), im: make([]F, M*ld)}
+	}
+	off := F(j.offset)
+	// load puts row r of a tile, less the image mean, into dst.
+	load := func(dst []F, tile, r int) {
+		oy, ox := (tile/tx)*vh, (tile%tx)*vw
+		y := oy + r
+		if tile >= tiles || y >= j.p.H {
+			clear(dst)
+			return
 		}
-		// Column transforms, product with the template spectrum, inverse.
-		for k := 0; k < K; k++ {
-			if k%16 == 0 && j.cancelled() {
-				return
-			}
-			col := s.spec[k*ld : k*ld+M]
-			s.cols.Coefficients(col, col)
-			ts := tspec[k*ld : k*ld+M]
-			for r := range col {
-				col[r] *= ts[r]
-			}
-			s.cols.Sequence(col, col)
+		xe := min(j.p.W, ox+N)
+		src := j.p.Pix[y*j.p.W+ox : y*j.p.W+xe]
+		for x, v := range src {
+			dst[x] = F(v) - off
 		}
-		// Inverse row transforms of the rows that hold valid outputs.
-		yn := min(vh, j.oh-oy)
-		xn := min(vw, j.ow-ox)
-		for r0 := 0; r0 < yn; r0 += 4 {
-			if j.cancelled() {
-				return
-			}
-			nr := min(4, yn-r0)
-			for k := 0; k < K; k++ {
-				d := s.spec[k*ld+r0 : k*ld+r0+nr]
-				for q, v := range d {
-					s.coef[q][k] = v
-				}
-			}
-			for q := 0; q < nr; q++ {
-				s.rows.Sequence(s.seq, s.coef[q])
-				dst := j.out.Pix[(oy+r0+q)*j.ow+ox : (oy+r0+q)*j.ow+ox+xn]
-				for x := range dst {
-					dst[x] = float32(s.seq[x])
-				}
+		clear(dst[len(src):])
+	}
+	store := func(src []F, tile int, s *nccFFTState[F]) {
+		if tile >= tiles {
+			return
+		}
+		oy, ox := (tile/tx)*vh, (tile%tx)*vw
+		yn, xn := min(vh, j.oh-oy), min(vw, j.ow-ox)
+		for r := 0; r < yn; r++ {
+			dst := j.out.Pix[(oy+r)*j.ow+ox : (oy+r)*j.ow+ox+xn]
+			row := src[r*ld : r*ld+xn]
+			for x := range dst {
+				dst[x] = float32(row[x])
 			}
 		}
 		j.normalise(&s.ns, ox, ox+xn, oy, oy+yn)
+	}
+
+	nccParallel((tiles+1)/2, j.cancelled, newState, func(s *nccFFTState[F], pair int) {
+		a, b := 2*pair, 2*pair+1
+		// Each row is transformed as soon as it is loaded, while it is in
+		// cache. A tile can be large when the template is: ctx is looked
+		// at every four rows and every column strip.
+		for r := 0; r < M; r++ {
+			if r%4 == 0 && j.cancelled() {
+				return
+			}
+			re, im := s.re[r*ld:r*ld+N], s.im[r*ld:r*ld+N]
+			load(re, a, r)
+			load(im, b, r)
+			rows.forward1(re, im)
+		}
+		// Each strip of columns goes through its forward transform, the
+		// product with the template spectrum and its inverse while it
+		// stays in cache.
+		for c := 0; c < N; c += lanes {
+			if j.cancelled() {
+				return
+			}
+			cols.forwardLanes(s.re[c:], s.im[c:], ld, lanes)
+			for r := 0; r < M; r++ {
+				o := r*ld + c
+				xr, xi := s.re[o:o+lanes], s.im[o:o+lanes]
+				yr, yi := tr[o:o+lanes], ti[o:o+lanes]
+				xi, yr, yi = xi[:len(xr)], yr[:len(xr)], yi[:len(xr)]
+				for i := range xr {
+					pr, pi := xr[i], xi[i]
+					xr[i], xi[i] = pr*yr[i]-pi*yi[i], pr*yi[i]+pi*yr[i]
+				}
+			}
+			cols.inverseLanes(s.re[c:], s.im[c:], ld, lanes)
+		}
+		// Only the rows that hold valid outputs need their inverse.
+		for r := 0; r < vh; r++ {
+			if r%4 == 0 && j.cancelled() {
+				return
+			}
+			rows.inverse1(s.re[r*ld:r*ld+N], s.im[r*ld:r*ld+N])
+		}
+		store(s.re, a, s)
+		store(s.im, b, s)
 	})
 }

@@ -29,11 +29,12 @@ func writeRaw(path string, p Plane) error {
 }
 
 // BenchmarkNCC12MPOneScale is the exhaustive full-resolution map: a 64×64
-// template over a 4000×3000 gray plane. With NCC_DUMP=dir it also writes
-// dir/image.f32 (4000×3000) and dir/template.f32 (64×64) for compare_ncc.py.
+// template over a 4000×3000 gray plane. With BENCH_DATA=dir it also writes
+// dir/image.f32 (4000×3000) and dir/template.f32 (64×64) for
+// compare_ncc.py --mode one-scale.
 func BenchmarkNCC12MPOneScale(b *testing.B) {
 	img, tpl := benchScene()
-	if dir := os.Getenv("NCC_DUMP"); dir != "" {
+	if dir := os.Getenv("BENCH_DATA"); dir != "" {
 		if err := writeRaw(filepath.Join(dir, "image.f32"), img); err != nil {
 			b.Fatal(err)
 		}

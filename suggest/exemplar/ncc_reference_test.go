@@ -152,19 +152,32 @@ func referenceScenes() []refCase {
 	return cases
 }
 
-// TestNCCAgainstOpenCV compares NCC, through both correlation paths and
-// with small FFT tiles that put many tile edges in the map, with OpenCV
-// 4.6's matchTemplate TM_CCOEFF_NORMED at every position whose window has
-// clearly non-zero variance, within 1e-4. Windows wholly inside a flat
-// region must score exactly 0 (OpenCV's value there depends on the build).
-func TestNCCAgainstOpenCV(t *testing.T) {
-	py := "/usr/bin/python3"
-	if err := exec.Command(py, "-c", "import cv2, numpy").Run(); err != nil {
+// refTol is how far a score may lie from OpenCV 4.6's. It was 1e-4; the
+// worst differences measured are 1.3e-5 (smooth texture, 5×31 template),
+// the same through the direct sum and the FFT (float64 numerators), so
+// they are OpenCV's float32 normalisation: 3e-5 leaves twice that.
+const refTol = 3e-5
+
+// checkOpenCV skips the test when python3-opencv is missing, except under
+// CI, where it fails.
+func checkOpenCV(t *testing.T) {
+	t.Helper()
+	if err := exec.Command("/usr/bin/python3", "-c", "import cv2, numpy").Run(); err != nil {
 		if os.Getenv("CI") != "" {
 			t.Fatalf("CI must install python3-opencv for this check: %v", err)
 		}
 		t.Skip("python3-opencv is not installed (make test installs it)")
 	}
+}
+
+// TestNCCAgainstOpenCV compares NCC, through both correlation paths and
+// with small FFT tiles that put many tile edges in the map, with OpenCV
+// 4.6's matchTemplate TM_CCOEFF_NORMED at every position whose window has
+// clearly non-zero variance, within refTol. Windows wholly inside a flat
+// region must score exactly 0 (OpenCV's value there depends on the build).
+func TestNCCAgainstOpenCV(t *testing.T) {
+	checkOpenCV(t)
+	py := "/usr/bin/python3"
 	dir := t.TempDir()
 	cases := referenceScenes()
 	for i := range cases {
@@ -228,7 +241,7 @@ func TestNCCAgainstOpenCV(t *testing.T) {
 				compared++
 				d := math.Abs(g - float64(w))
 				worst = max(worst, d)
-				if d > 1e-4 && bad < 5 {
+				if d > refTol && bad < 5 {
 					bad++
 					t.Errorf("%s %s at (%d,%d): %v, OpenCV %v", c.name, run.name, i%ow, i/ow, g, w)
 				}

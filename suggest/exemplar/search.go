@@ -402,14 +402,16 @@ func peaks(m Plane, floor float32) []peak {
 func halve(p Plane) Plane {
 	w, h := p.W/2, p.H/2
 	q := NewPlane(w, h)
-	for y := range h {
-		a := p.Pix[2*y*p.W:]
-		b := p.Pix[(2*y+1)*p.W:]
-		row := q.Pix[y*w : (y+1)*w]
-		for x := range row {
-			row[x] = 0.25 * (a[2*x] + a[2*x+1] + b[2*x] + b[2*x+1])
+	parallelRows(h, func(y0, y1 int) {
+		for y := y0; y < y1; y++ {
+			a := p.Pix[2*y*p.W:]
+			b := p.Pix[(2*y+1)*p.W:]
+			row := q.Pix[y*w : (y+1)*w]
+			for x := range row {
+				row[x] = 0.25 * (a[2*x] + a[2*x+1] + b[2*x] + b[2*x+1])
+			}
 		}
-	}
+	})
 	return q
 }
 
