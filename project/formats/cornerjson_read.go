@@ -92,14 +92,12 @@ func ReadCornerJSON(r io.Reader, file string) (*Dataset, error) {
 		}
 		switch key {
 		case "images":
+			var in cjImageIn
+			fields := in.fastFields()
 			return p.array(key, func(k int) error {
 				path := func() string { return "images[" + strconv.Itoa(k) + "]" }
-				raw, start, err := p.value(path)
+				start, err := readElem(p, path, &in, fields)
 				if err != nil {
-					return err
-				}
-				var in cjImageIn
-				if err := p.decode(raw, start, path, &in); err != nil {
 					return err
 				}
 				if m := intField(in.ID); m != "" {
@@ -127,14 +125,12 @@ func ReadCornerJSON(r io.Reader, file string) (*Dataset, error) {
 				return nil
 			})
 		case "categories":
+			var in cjCategoryIn
+			fields := in.fastFields()
 			return p.array(key, func(k int) error {
 				path := func() string { return "categories[" + strconv.Itoa(k) + "]" }
-				raw, start, err := p.value(path)
+				start, err := readElem(p, path, &in, fields)
 				if err != nil {
-					return err
-				}
-				var in cjCategoryIn
-				if err := p.decode(raw, start, path, &in); err != nil {
 					return err
 				}
 				if m := intField(in.ID); m != "" {
@@ -151,14 +147,11 @@ func ReadCornerJSON(r io.Reader, file string) (*Dataset, error) {
 			})
 		case "annotations":
 			var in cjAnnotationIn
+			fields := in.fastFields()
 			return p.array(key, func(k int) error {
 				path := func() string { return "annotations[" + strconv.Itoa(k) + "]" }
-				raw, start, err := p.value(path)
+				start, err := readElem(p, path, &in, fields)
 				if err != nil {
-					return err
-				}
-				in = cjAnnotationIn{}
-				if err := p.decode(raw, start, path, &in); err != nil {
 					return err
 				}
 				if m := intField(in.ID); m != "" {
