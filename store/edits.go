@@ -88,7 +88,7 @@ func (s *Store) ReplaceAnnotatorLabels(ctx context.Context, annotatorID int64, l
 	if err := s.CheckBeforeBulkWrite(ctx); err != nil {
 		return err
 	}
-	return s.tx(ctx, func(tx *sql.Tx) error {
+	return s.bulkTx(ctx, func(tx *sql.Tx) error {
 		if _, err := tx.ExecContext(ctx, "DELETE FROM labels WHERE annotator_id = ?", annotatorID); err != nil {
 			return fmt.Errorf("clear labels of annotator %d: %w", annotatorID, s.translate(err))
 		}

@@ -42,7 +42,7 @@ func (s *Store) ImportDataset(ctx context.Context, ds *formats.Dataset, opts pro
 	if rep.Unmatched, err = formats.MatchImages(ds, matcher, opts.SkipUnmatched); err != nil {
 		return rep, err
 	}
-	err = s.tx(ctx, func(tx *sql.Tx) error {
+	err = s.bulkTx(ctx, func(tx *sql.Tx) error {
 		annID, err := ensureAnnotatorTx(ctx, tx, opts.Annotator, formatTime(s.now()))
 		if err != nil {
 			return err
@@ -146,6 +146,36 @@ func addClassTx(ctx context.Context, tx *sql.Tx, name string) (int64, error) {
 	}
 	c, err := insertClassTx(ctx, tx, project.Class{Name: name})
 	return c.ID, err
+}
+
+// bulkTx is tx for writes of many rows through labelInserter. Each of
+// its multi-row INSERTs keeps an undo record of the pages it changes (a
+// statement journal), so that a refused row takes back only that
+// statement; beyond 64 KiB SQLite keeps it in a temporary file, which
+// for an import of 200,000 labels meant some 50,000 writes. Here it is
+// kept in memory (temp_store = MEMORY, which must be set before the
+// transaction begins, on its connection, and is set back after). The
+// transaction itself is as every other: all or nothing, and durable as
+// the project's journal settings make any commit.
+func (s *Store) bulkTx(ctx context.Context, fn func(*sql.Tx) error) error {
+	conn, err := s.db.Conn(ctx)
+	if err != nil {
+		return s.damaged(err)
+	}
+	defer conn.Close()
+	if _, err := conn.ExecContext(ctx, "PRAGMA temp_store = MEMORY"); err != nil {
+		return s.damaged(err)
+	}
+	defer conn.ExecContext(context.WithoutCancel(ctx), "PRAGMA temp_store = DEFAULT")
+	tx, err := s.beginWith(ctx, conn.BeginTx)
+	if err != nil {
+		return s.damaged(err)
+	}
+	if err := fn(tx); err != nil {
+		tx.Rollback()
+		return s.damaged(err)
+	}
+	return s.damaged(tx.Commit())
 }
 
 // labelInserter writes the labels of one import in multi-row INSERTs:

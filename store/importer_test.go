@@ -242,3 +242,28 @@ func TestReplaceAnnotatorLabelsKeepsOriginsInOrder(t *testing.T) {
 		}
 	}
 }
+
+// An import keeps its statement journals in memory (temp_store 2 while
+// it inserts, seen by a trigger on the rows it writes) and leaves the
+// connection as it found it (temp_store 0, the build's default).
+func TestImportJournalsInMemoryAndRestores(t *testing.T) {
+	s, _, _ := importFixture(t)
+	s.db.SetMaxOpenConns(1) // one connection: the one the import used
+	for _, q := range []string{"CREATE TABLE probe(v INTEGER)",
+		"CREATE TRIGGER probe AFTER INSERT ON labels WHEN NEW.score = 0.125 BEGIN INSERT INTO probe SELECT temp_store FROM pragma_temp_store(); END"} {
+		if _, err := s.db.Exec(q); err != nil {
+			t.Fatal(err)
+		}
+	}
+	ds := &formats.Dataset{Images: []formats.ImageRecord{rec("a.jpg", 100, 80, formats.BoxRecord{Class: "buoy", Box: project.Box{X0: 1, Y0: 1, X1: 5, Y1: 5}, Score: 0.125, HasScore: true, Where: "a0"})}}
+	if _, err := s.ImportDataset(bg, ds, project.ImportOptions{Annotator: "x"}); err != nil {
+		t.Fatal(err)
+	}
+	var during, after int
+	if err := s.db.QueryRow("SELECT v FROM probe").Scan(&during); err != nil || during != 2 {
+		t.Errorf("temp_store during the import: %d, %v; want 2 (MEMORY)", during, err)
+	}
+	if err := s.db.QueryRow("PRAGMA temp_store").Scan(&after); err != nil || after != 0 {
+		t.Errorf("temp_store after the import: %d, %v; want 0 (DEFAULT)", after, err)
+	}
+}
