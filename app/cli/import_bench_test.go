@@ -14,6 +14,7 @@ import (
 	"strings"
 	"syscall"
 	"testing"
+	"time"
 
 	"boxwright/project"
 	"boxwright/project/formats"
@@ -107,7 +108,8 @@ func copyFile(b *testing.B, from, to string) {
 // reading the file, matching, inserting, committing and closing. Each
 // run gets a fresh copy of the project; making the inputs and copying are
 // outside the timing. MiB-peak-rss is the largest resident size a child
-// reached (getrusage's ru_maxrss).
+// reached (getrusage's ru_maxrss), cpu-s/op its user and system time:
+// on a shared machine a steadier figure than the wall time.
 //
 // With BENCH_DATA set, it writes there what store/compare_import.sh
 // needs: the prepared project (project.boxw), the label rows the command
@@ -120,6 +122,7 @@ func BenchmarkImportCommand200k(b *testing.B) {
 		writeImportBenchData(b, prepared, labels, out)
 	}
 	var peak int64
+	var cpu time.Duration
 	b.ResetTimer()
 	for i := 0; i < b.N; i++ {
 		b.StopTimer()
@@ -139,10 +142,12 @@ func BenchmarkImportCommand200k(b *testing.B) {
 		if ru, ok := cmd.ProcessState.SysUsage().(*syscall.Rusage); ok {
 			peak = max(peak, ru.Maxrss) // KiB on Linux
 		}
+		cpu += cmd.ProcessState.UserTime() + cmd.ProcessState.SystemTime()
 		os.Remove(path)
 		b.StartTimer()
 	}
 	b.ReportMetric(float64(peak)/1024, "MiB-peak-rss")
+	b.ReportMetric(cpu.Seconds()/float64(b.N), "cpu-s/op")
 }
 
 // writeImportBenchData imports labels into a copy of the prepared project
