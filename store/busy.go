@@ -20,10 +20,15 @@ const noticeEvery = 5 * time.Second
 // holds the file (through Notice) and keeps trying up to WriteWait, so
 // that a long import elsewhere delays this write instead of failing it.
 func (s *Store) begin(ctx context.Context) (*sql.Tx, error) {
+	return s.beginWith(ctx, s.db.BeginTx)
+}
+
+// beginWith is begin on the connection of beginTx.
+func (s *Store) beginWith(ctx context.Context, beginTx func(context.Context, *sql.TxOptions) (*sql.Tx, error)) (*sql.Tx, error) {
 	start := time.Now()
 	nextNotice := start // first notice when SQLite first hands the wait back
 	for {
-		tx, err := s.db.BeginTx(ctx, nil)
+		tx, err := beginTx(ctx, nil)
 		if err == nil || !isBusy(err) {
 			return tx, s.translate(err)
 		}

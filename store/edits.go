@@ -88,13 +88,13 @@ func (s *Store) ReplaceAnnotatorLabels(ctx context.Context, annotatorID int64, l
 	if err := s.CheckBeforeBulkWrite(ctx); err != nil {
 		return err
 	}
-	return s.tx(ctx, func(tx *sql.Tx) error {
+	return s.bulkTx(ctx, func(tx *sql.Tx) error {
 		if _, err := tx.ExecContext(ctx, "DELETE FROM labels WHERE annotator_id = ?", annotatorID); err != nil {
 			return fmt.Errorf("clear labels of annotator %d: %w", annotatorID, s.translate(err))
 		}
-		ins := newLabelInserter(ctx, tx)
-		defer ins.close()
 		now := formatTime(s.now())
+		ins := newLabelInserter(ctx, tx, annotatorID, project.OriginImported, "", now, now)
+		defer ins.close()
 		for i, l := range labels {
 			if l.Origin == "" {
 				l.Origin = project.OriginImported
@@ -105,8 +105,10 @@ func (s *Store) ReplaceAnnotatorLabels(ctx context.Context, annotatorID int64, l
 			if err := checkScore(l.Score); err != nil {
 				return fmt.Errorf("label %d of %d: %w", i+1, len(labels), err)
 			}
-			if err := ins.add(fmt.Sprintf("label %d of %d", i+1, len(labels)), l.ImageID, l.ClassID, annotatorID,
-				l.Box.X0, l.Box.Y0, l.Box.X1, l.Box.Y1, string(l.Origin), l.Source, l.Score, now, now); err != nil {
+			if err := ins.setOrigin(l.Origin, l.Source); err != nil {
+				return err
+			}
+			if err := ins.add(fmt.Sprintf("label %d of %d", i+1, len(labels)), l.ImageID, l.ClassID, l.Box, l.Score); err != nil {
 				return err
 			}
 		}

@@ -42,7 +42,7 @@ func (s *Store) ImportDataset(ctx context.Context, ds *formats.Dataset, opts pro
 	if rep.Unmatched, err = formats.MatchImages(ds, matcher, opts.SkipUnmatched); err != nil {
 		return rep, err
 	}
-	err = s.tx(ctx, func(tx *sql.Tx) error {
+	err = s.bulkTx(ctx, func(tx *sql.Tx) error {
 		annID, err := ensureAnnotatorTx(ctx, tx, opts.Annotator, formatTime(s.now()))
 		if err != nil {
 			return err
@@ -58,9 +58,9 @@ func (s *Store) ImportDataset(ctx context.Context, ds *formats.Dataset, opts pro
 			return err
 		}
 		repeats, firstRepeat := 0, ""
-		ins := newLabelInserter(ctx, tx)
-		defer ins.close()
 		now := formatTime(s.now())
+		ins := newLabelInserter(ctx, tx, annID, project.OriginImported, opts.Source, now, now)
+		defer ins.close()
 		for i, rec := range ds.Images {
 			if i%1000 == 0 && ctx.Err() != nil {
 				return ctx.Err()
@@ -108,8 +108,7 @@ func (s *Store) ImportDataset(ctx context.Context, ds *formats.Dataset, opts pro
 					}
 					repeats++
 				}
-				if err := ins.add(b.Where, im.ID, id, annID, box.X0, box.Y0, box.X1, box.Y1, string(project.OriginImported),
-					opts.Source, b.Score, now, now); err != nil {
+				if err := ins.add(b.Where, im.ID, id, box, b.Score); err != nil {
 					return err
 				}
 				rep.Labels++
@@ -149,19 +148,57 @@ func addClassTx(ctx context.Context, tx *sql.Tx, name string) (int64, error) {
 	return c.ID, err
 }
 
-// labelInserter writes labels in multi-row INSERTs: for big imports the
-// per-statement overhead, not SQLite, is what costs.
+// bulkTx is tx for writes of many rows through labelInserter. Each of
+// its multi-row INSERTs keeps an undo record of the pages it changes (a
+// statement journal), so that a refused row takes back only that
+// statement; beyond 64 KiB SQLite keeps it in a temporary file, which
+// for an import of 200,000 labels meant some 50,000 writes. Here it is
+// kept in memory (temp_store = MEMORY, which must be set before the
+// transaction begins, on its connection, and is set back after). The
+// transaction itself is as every other: all or nothing, and durable as
+// the project's journal settings make any commit.
+func (s *Store) bulkTx(ctx context.Context, fn func(*sql.Tx) error) error {
+	conn, err := s.db.Conn(ctx)
+	if err != nil {
+		return s.damaged(err)
+	}
+	defer conn.Close()
+	if _, err := conn.ExecContext(ctx, "PRAGMA temp_store = MEMORY"); err != nil {
+		return s.damaged(err)
+	}
+	defer conn.ExecContext(context.WithoutCancel(ctx), "PRAGMA temp_store = DEFAULT")
+	tx, err := s.beginWith(ctx, conn.BeginTx)
+	if err != nil {
+		return s.damaged(err)
+	}
+	if err := fn(tx); err != nil {
+		tx.Rollback()
+		return s.damaged(err)
+	}
+	return s.damaged(tx.Commit())
+}
+
+// labelInserter writes the labels of one import in multi-row INSERTs:
+// for big imports the per-statement and per-value overhead, not SQLite,
+// is what costs. The columns every row of an import shares (annotator,
+// origin, source, times) are parameters ?1 to ?5, bound once per
+// statement; each row has its own 7. A statement is run through Query,
+// which the driver binds and steps in one call into SQLite, where Exec
+// makes one call per value.
 type labelInserter struct {
 	ctx   context.Context
 	tx    *sql.Tx
 	full  *sql.Stmt
-	args  []any
+	args  []any // the shared values, then each row's
 	where []string
 }
 
 const (
-	labelInsertCols = 12
-	labelBatch      = 64 // rows per statement; 768 parameters, well under SQLite's limit
+	labelSharedCols = 5
+	labelRowCols    = 7
+	// rows per statement: 5 + 7*256 = 1797 parameters, well under
+	// SQLite's limit of 32766
+	labelBatch = 256
 )
 
 func labelInsertSQL(rows int) string {
@@ -171,17 +208,36 @@ func labelInsertSQL(rows int) string {
 		if i > 0 {
 			b.WriteByte(',')
 		}
-		b.WriteString("(?,?,?,?,?,?,?,?,?,?,?,?)")
+		p := labelSharedCols + 1 + labelRowCols*i
+		fmt.Fprintf(&b, "(?%d,?%d,?1,?%d,?%d,?%d,?%d,?2,?3,?%d,?4,?5)", p, p+1, p+2, p+3, p+4, p+5, p+6)
 	}
 	return b.String()
 }
 
-func newLabelInserter(ctx context.Context, tx *sql.Tx) *labelInserter {
-	return &labelInserter{ctx: ctx, tx: tx}
+// newLabelInserter writes labels of one annotator, origin and source,
+// created and updated at the same time.
+func newLabelInserter(ctx context.Context, tx *sql.Tx, annotatorID int64, origin project.Origin, source, created, updated string) *labelInserter {
+	args := make([]any, labelSharedCols, labelSharedCols+labelRowCols*labelBatch)
+	args[0], args[1], args[2], args[3], args[4] = annotatorID, string(origin), source, created, updated
+	return &labelInserter{ctx: ctx, tx: tx, args: args, where: make([]string, 0, labelBatch)}
 }
 
-func (l *labelInserter) add(where string, values ...any) error {
-	l.args = append(l.args, values...)
+// setOrigin makes the labels added next of this origin and source; the
+// labels queued before are written first when they differ.
+func (l *labelInserter) setOrigin(origin project.Origin, source string) error {
+	if l.args[1] == string(origin) && l.args[2] == source {
+		return nil
+	}
+	if err := l.flush(); err != nil {
+		return err
+	}
+	l.args[1], l.args[2] = string(origin), source
+	return nil
+}
+
+// add queues a label; where names its record for messages.
+func (l *labelInserter) add(where string, imageID, classID int64, b project.Box, score float64) error {
+	l.args = append(l.args, imageID, classID, b.X0, b.Y0, b.X1, b.Y1, score)
 	l.where = append(l.where, where)
 	if len(l.where) == labelBatch {
 		return l.flush()
@@ -194,6 +250,7 @@ func (l *labelInserter) flush() error {
 	if n == 0 {
 		return nil
 	}
+	var rows *sql.Rows
 	var err error
 	if n == labelBatch {
 		if l.full == nil {
@@ -201,16 +258,19 @@ func (l *labelInserter) flush() error {
 				return err
 			}
 		}
-		_, err = l.full.ExecContext(l.ctx, l.args...)
+		rows, err = l.full.QueryContext(l.ctx, l.args...)
 	} else {
-		_, err = l.tx.ExecContext(l.ctx, labelInsertSQL(n), l.args...)
+		rows, err = l.tx.QueryContext(l.ctx, labelInsertSQL(n), l.args...)
+	}
+	if err == nil {
+		err = rows.Close()
 	}
 	if err != nil {
 		// Name the batch's first record; the checks before insertion make a
 		// database refusal here rare.
 		return fmt.Errorf("%s (or one of the %d records after it): %w", l.where[0], n-1, missingRef(translateCode(err), "its image, class or annotator"))
 	}
-	l.args, l.where = l.args[:0], l.where[:0]
+	l.args, l.where = l.args[:labelSharedCols], l.where[:0]
 	return nil
 }
 

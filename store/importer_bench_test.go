@@ -59,10 +59,10 @@ func BenchmarkImportCornerJSON200k(b *testing.B) {
 		if err != nil || rep.Labels != 200000 {
 			b.Fatalf("import: %d labels, %v", rep.Labels, err)
 		}
+		b.StopTimer()
 		var ms runtime.MemStats
 		runtime.ReadMemStats(&ms)
 		peak = max(peak, ms.HeapSys)
-		b.StopTimer()
 		s.Close()
 		b.StartTimer()
 	}

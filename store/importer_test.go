@@ -1,6 +1,8 @@
 package store
 
 import (
+	"fmt"
+	"strconv"
 	"strings"
 	"testing"
 
@@ -123,5 +125,145 @@ func TestImageMatcher(t *testing.T) {
 	}
 	if _, ok, _ := m.MatchStem("zzz.txt"); ok {
 		t.Errorf("unknown stem matched")
+	}
+}
+
+// manyBoxes makes n boxes on the two images of importFixture (within
+// both), with coordinates and scores that no rounding would keep, and
+// classes that change from box to box.
+func manyBoxes(n int) *formats.Dataset {
+	var a, b []formats.BoxRecord
+	for k := 0; k < n; k++ {
+		x, y := float64(k%40)+1.0/3, float64(k%30)+0.1
+		box := formats.BoxRecord{Class: []string{"buoy", "kayak", "raft"}[k%3], Box: project.Box{X0: x, Y0: y, X1: x + 7.7, Y1: y + 0.3},
+			Score: float64(k%1000) / 999, HasScore: true, Where: "f.json: annotations[" + strconv.Itoa(k) + "]"}
+		if k%2 == 0 {
+			a = append(a, box)
+		} else {
+			b = append(b, box)
+		}
+	}
+	return &formats.Dataset{Images: []formats.ImageRecord{rec("a.jpg", 100, 80, a...), rec("sub/b.jpg", 50, 40, b...)}}
+}
+
+// An import of several statements' worth of boxes (labelBatch rows
+// each) and a partial last one stores every box once, in file order,
+// with its own values and the import's shared ones.
+func TestImportManyBoxesStoresEachOnceInOrder(t *testing.T) {
+	s, a, b := importFixture(t)
+	n := 2*labelBatch + labelBatch/2 + 3
+	ds := manyBoxes(n)
+	rep, err := s.ImportDataset(bg, ds, project.ImportOptions{Annotator: "bulk", CreateClasses: true, Source: "f.json"})
+	if err != nil || rep.Labels != n {
+		t.Fatalf("import: %+v, %v", rep, err)
+	}
+	ann, _ := s.AnnotatorByName(bg, "bulk")
+	classes, _ := s.Classes(bg)
+	name := map[int64]string{}
+	for _, c := range classes {
+		name[c.ID] = c.Name
+	}
+	var prev int64
+	for i, im := range []project.Image{a, b} {
+		ls, err := s.Labels(bg, project.LabelFilter{ImageID: im.ID})
+		want := ds.Images[i].Boxes
+		if err != nil || len(ls) != len(want) {
+			t.Fatalf("image %s: %d labels, want %d (%v)", im.Path, len(ls), len(want), err)
+		}
+		for k, l := range ls {
+			w := want[k]
+			if l.Box != w.Box || l.Score != w.Score || name[l.ClassID] != w.Class || l.AnnotatorID != ann.ID ||
+				l.Origin != project.OriginImported || l.Source != "f.json" || l.SuggestionID != 0 || l.Created.IsZero() || l.Created != l.Updated {
+				t.Fatalf("image %s, label %d: %+v, want %+v", im.Path, k, l, w)
+			}
+			if i == 0 && l.ID <= prev {
+				t.Fatalf("label ids out of file order: %d after %d", l.ID, prev)
+			}
+			prev = l.ID
+		}
+	}
+}
+
+// A refusal by the database in a later statement, full or partial, names
+// that statement's first record and stores nothing.
+func TestImportRefusedBatchNamesItsRecordAndStoresNothing(t *testing.T) {
+	n := 2*labelBatch + 10
+	for _, at := range []int{labelBatch + 5, 2*labelBatch + 7} {
+		s, _, _ := importFixture(t)
+		// A trigger stands in for a constraint the checks before insertion
+		// do not know about.
+		if _, err := s.db.Exec(fmt.Sprintf("CREATE TRIGGER refuse BEFORE INSERT ON labels WHEN NEW.score = %d.0/999 BEGIN SELECT RAISE(ABORT, 'refused by test'); END", at)); err != nil {
+			t.Fatal(err)
+		}
+		ds := manyBoxes(n)
+		_, err := s.ImportDataset(bg, ds, project.ImportOptions{Annotator: "bulk", CreateClasses: true, Source: "f.json"})
+		if err == nil || !strings.Contains(err.Error(), "refused by test") || !strings.Contains(err.Error(), "nothing was stored") ||
+			!strings.Contains(err.Error(), "annotations[") || !strings.Contains(err.Error(), "records after it") {
+			t.Fatalf("refusal at box %d: %v", at, err)
+		}
+		if cnt, _ := s.Counts(bg); cnt.Labels != 0 {
+			t.Fatalf("refusal at box %d left %d labels", at, cnt.Labels)
+		}
+		s.db.Exec("DROP TRIGGER refuse")
+	}
+}
+
+// ReplaceAnnotatorLabels keeps each label's own origin and source, in
+// order, across statements.
+func TestReplaceAnnotatorLabelsKeepsOriginsInOrder(t *testing.T) {
+	s, a, _ := importFixture(t)
+	buoy, _ := s.ClassByName(bg, "buoy")
+	con, _ := s.AddAnnotator(bg, "consensus")
+	var ls []project.Label
+	for k := 0; k < labelBatch+40; k++ {
+		l := project.Label{ImageID: a.ID, ClassID: buoy.ID, Box: project.Box{X0: float64(k % 50), Y0: 1, X1: float64(k%50) + 2.5, Y1: 3}, Score: 0.5}
+		switch k % 7 {
+		case 0:
+			l.Origin, l.Source = project.OriginDrawn, "by hand"
+		case 1, 2:
+			l.Source = "model-b"
+		}
+		ls = append(ls, l)
+	}
+	if err := s.ReplaceAnnotatorLabels(bg, con.ID, ls); err != nil {
+		t.Fatal(err)
+	}
+	got, _ := s.Labels(bg, project.LabelFilter{AnnotatorID: con.ID})
+	if len(got) != len(ls) {
+		t.Fatalf("%d labels, want %d", len(got), len(ls))
+	}
+	for k, g := range got {
+		w := ls[k]
+		if w.Origin == "" {
+			w.Origin = project.OriginImported
+		}
+		if g.Box != w.Box || g.Origin != w.Origin || g.Source != w.Source || g.AnnotatorID != con.ID {
+			t.Fatalf("label %d: %+v, want %+v", k, g, w)
+		}
+	}
+}
+
+// An import keeps its statement journals in memory (temp_store 2 while
+// it inserts, seen by a trigger on the rows it writes) and leaves the
+// connection as it found it (temp_store 0, the build's default).
+func TestImportJournalsInMemoryAndRestores(t *testing.T) {
+	s, _, _ := importFixture(t)
+	s.db.SetMaxOpenConns(1) // one connection: the one the import used
+	for _, q := range []string{"CREATE TABLE probe(v INTEGER)",
+		"CREATE TRIGGER probe AFTER INSERT ON labels WHEN NEW.score = 0.125 BEGIN INSERT INTO probe SELECT temp_store FROM pragma_temp_store(); END"} {
+		if _, err := s.db.Exec(q); err != nil {
+			t.Fatal(err)
+		}
+	}
+	ds := &formats.Dataset{Images: []formats.ImageRecord{rec("a.jpg", 100, 80, formats.BoxRecord{Class: "buoy", Box: project.Box{X0: 1, Y0: 1, X1: 5, Y1: 5}, Score: 0.125, HasScore: true, Where: "a0"})}}
+	if _, err := s.ImportDataset(bg, ds, project.ImportOptions{Annotator: "x"}); err != nil {
+		t.Fatal(err)
+	}
+	var during, after int
+	if err := s.db.QueryRow("SELECT v FROM probe").Scan(&during); err != nil || during != 2 {
+		t.Errorf("temp_store during the import: %d, %v; want 2 (MEMORY)", during, err)
+	}
+	if err := s.db.QueryRow("PRAGMA temp_store").Scan(&after); err != nil || after != 0 {
+		t.Errorf("temp_store after the import: %d, %v; want 0 (DEFAULT)", after, err)
 	}
 }

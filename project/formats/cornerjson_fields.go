@@ -90,9 +90,57 @@ func parseJSONFloat(b []byte) (float64, bool) {
 	if len(b) == 0 || (b[0] != '-' && (b[0] < '0' || b[0] > '9')) {
 		return 0, false
 	}
+	if v, ok := exactDecimal(b); ok {
+		return v, true
+	}
 	v, err := strconv.ParseFloat(string(b), 64)
 	if err != nil || math.IsInf(v, 0) || math.IsNaN(v) {
 		return 0, false
+	}
+	return v, true
+}
+
+// pow10 holds the powers of ten that float64 represents exactly.
+var pow10 = [...]float64{1e0, 1e1, 1e2, 1e3, 1e4, 1e5, 1e6, 1e7, 1e8, 1e9, 1e10, 1e11,
+	1e12, 1e13, 1e14, 1e15, 1e16, 1e17, 1e18, 1e19, 1e20, 1e21, 1e22}
+
+// exactDecimal reads a number of the form -?digits(.digits)? whose digits,
+// without the point, make an integer below 2^53 and which has at most 22
+// digits after the point: both that integer and the power of ten are
+// exact in float64, so one division, which IEEE 754 rounds correctly,
+// gives the correctly rounded value that strconv.ParseFloat gives (the
+// fast path of W. D. Clinger, "How to read floating point numbers
+// accurately", PLDI 1990). Anything else reports false.
+func exactDecimal(b []byte) (float64, bool) {
+	neg := b[0] == '-'
+	if neg {
+		b = b[1:]
+	}
+	var m uint64
+	frac, point, digits := 0, false, 0
+	for _, c := range b {
+		switch {
+		case c >= '0' && c <= '9':
+			m = m*10 + uint64(c-'0')
+			digits++
+			if point {
+				frac++
+			}
+			if digits > 15 {
+				return 0, false // 10^16 > 2^53: leave it to strconv
+			}
+		case c == '.' && !point:
+			point = true
+		default:
+			return 0, false
+		}
+	}
+	if digits == 0 || frac > 22 {
+		return 0, false
+	}
+	v := float64(m) / pow10[frac]
+	if neg {
+		v = -v
 	}
 	return v, true
 }

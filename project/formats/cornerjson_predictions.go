@@ -53,14 +53,11 @@ func ReadPredictionList(r io.Reader, file string) ([]Prediction, error) {
 		wl    whereList
 		in    cjPredictionIn
 	)
+	fields := in.fastFields()
 	err := p.array("", func(k int) error {
 		path := func() string { return "[" + strconv.Itoa(k) + "]" }
-		raw, start, err := p.value(path)
+		start, err := readElem(p, path, &in, fields)
 		if err != nil {
-			return err
-		}
-		in = cjPredictionIn{}
-		if err := p.decode(raw, start, path, &in); err != nil {
 			return err
 		}
 		if in.ImageID.bad || (in.ImageID.set && in.ImageID.v <= 0) {
