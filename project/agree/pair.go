@@ -4,8 +4,11 @@ import (
 	"cmp"
 	"fmt"
 	"math"
+	"runtime"
 	"slices"
 	"sort"
+	"sync"
+	"sync/atomic"
 )
 
 // HistogramBins is the number of equal IoU bins over [0, 1].
@@ -68,39 +71,57 @@ const NoObjectCaveat = "Unmatched boxes are counted as a \"no object\" answer of
 
 // ComparePair matches annotators a and b on every image and sums up.
 func ComparePair(images []ImageLabels, a, b int, opt Options) PairReport {
-	r := PairReport{A: a, B: b}
-	var ious []float64
-	type pairClass struct{ ca, cb int64 }
-	var pairs []pairClass
-	var unA, unB []int64
-	seen := map[int64]bool{}
+	r, _, _ := comparePair(images, a, b, opt)
+	return r
+}
+
+type pairClass struct{ ca, cb int64 }
+
+// pairPart is the matching of a run of images, in image order: the
+// images where either annotator drew (at index[i] of the run), their
+// matched pairs' classes and IoUs and the classes of the boxes left over.
+type pairPart struct {
+	perImage []ImageAgreement
+	index    []int
+	pairs    []pairClass
+	ious     []float64
+	unA, unB []int64
+	seen     map[int64]bool
+}
+
+func (m *matcher) comparePart(images []ImageLabels, offset, a, b int, opt Options) pairPart {
+	p := pairPart{seen: map[int64]bool{}}
+	n := 0
 	for _, im := range images {
+		n += min(len(labelsOf(im, a).Boxes), len(labelsOf(im, b).Boxes))
+	}
+	p.pairs, p.ious = make([]pairClass, 0, n), make([]float64, 0, n)
+	for ii, im := range images {
 		la, lb := labelsOf(im, a), labelsOf(im, b)
 		if len(la.Boxes)+len(lb.Boxes) == 0 {
 			continue
 		}
-		r.Images++
-		m := MatchBoxes(la.Boxes, lb.Boxes, la.Classes, lb.Classes, opt.threshold(), opt.ClassAware)
+		mt := m.match(la.Boxes, lb.Boxes, la.Classes, lb.Classes, opt.threshold(), opt.ClassAware)
 		ia := ImageAgreement{ImageID: im.ImageID, Name: im.Name, A: len(la.Boxes), B: len(lb.Boxes),
-			Matched: len(m.Pairs), OnlyA: len(m.OnlyA), OnlyB: len(m.OnlyB), Match: m}
+			Matched: len(mt.Pairs), OnlyA: len(mt.OnlyA), OnlyB: len(mt.OnlyB), Match: mt}
 		sum := 0.0
-		for _, p := range m.Pairs {
-			ca, cb := la.Classes[p.A], lb.Classes[p.B]
-			pairs = append(pairs, pairClass{ca, cb})
-			seen[ca], seen[cb] = true, true
-			ious = append(ious, p.IoU)
-			sum += p.IoU
+		for _, pr := range mt.Pairs {
+			ca, cb := la.Classes[pr.A], lb.Classes[pr.B]
+			p.pairs = append(p.pairs, pairClass{ca, cb})
+			p.seen[ca], p.seen[cb] = true, true
+			p.ious = append(p.ious, pr.IoU)
+			sum += pr.IoU
 			if ca != cb {
 				ia.ClassDisagreements++
 			}
 		}
-		for _, i := range m.OnlyA {
-			unA = append(unA, la.Classes[i])
-			seen[la.Classes[i]] = true
+		for _, i := range mt.OnlyA {
+			p.unA = append(p.unA, la.Classes[i])
+			p.seen[la.Classes[i]] = true
 		}
-		for _, j := range m.OnlyB {
-			unB = append(unB, lb.Classes[j])
-			seen[lb.Classes[j]] = true
+		for _, j := range mt.OnlyB {
+			p.unB = append(p.unB, lb.Classes[j])
+			p.seen[lb.Classes[j]] = true
 		}
 		ia.F1 = f1(ia.Matched, ia.A, ia.B)
 		ia.MeanIoU = math.NaN()
@@ -108,16 +129,87 @@ func ComparePair(images []ImageLabels, a, b int, opt Options) PairReport {
 			ia.MeanIoU = sum / float64(ia.Matched)
 		}
 		ia.Errors = ia.OnlyA + ia.OnlyB + ia.ClassDisagreements
-		r.PerImage = append(r.PerImage, ia)
+		p.perImage = append(p.perImage, ia)
+		p.index = append(p.index, offset+ii)
+	}
+	return p
+}
+
+// matchParts matches a and b on runs of images, in parallel on the
+// available cores; the parts come back in image order.
+func matchParts(images []ImageLabels, a, b int, opt Options) []pairPart {
+	workers := runtime.GOMAXPROCS(0)
+	parts := 1
+	if workers > 1 && len(images) >= 128 {
+		parts = min(4*workers, len(images)/32)
+	}
+	out := make([]pairPart, parts)
+	var next atomic.Int64
+	work := func() {
+		m := matcher{pairs: arena[Pair]{chunk: 4096}, indices: arena[int]{chunk: 4096}}
+		for {
+			p := int(next.Add(1) - 1)
+			if p >= parts {
+				return
+			}
+			lo, hi := p*len(images)/parts, (p+1)*len(images)/parts
+			out[p] = m.comparePart(images[lo:hi], lo, a, b, opt)
+		}
+	}
+	if parts == 1 {
+		work()
+		return out
+	}
+	var wg sync.WaitGroup
+	for range min(workers, parts) {
+		wg.Go(work)
+	}
+	wg.Wait()
+	return out
+}
+
+// comparePair is ComparePair that also gives the images' agreements in
+// image order (PerImage is worst first) and the index of each in images.
+func comparePair(images []ImageLabels, a, b int, opt Options) (PairReport, []ImageAgreement, []int) {
+	r := PairReport{A: a, B: b}
+	parts := matchParts(images, a, b, opt)
+	// The parts joined in order are what one pass over the images gives,
+	// so every sum below adds the same numbers in the same order.
+	var nImages, nPairs, nA, nB int
+	for _, p := range parts {
+		nImages += len(p.perImage)
+		nPairs += len(p.pairs)
+		nA += len(p.unA)
+		nB += len(p.unB)
+	}
+	byImage := make([]ImageAgreement, 0, nImages)
+	index := make([]int, 0, nImages)
+	pairs := make([]pairClass, 0, nPairs)
+	ious := make([]float64, 0, nPairs)
+	unA, unB := make([]int64, 0, nA), make([]int64, 0, nB)
+	seen := map[int64]bool{}
+	for _, p := range parts {
+		byImage = append(byImage, p.perImage...)
+		index = append(index, p.index...)
+		pairs = append(pairs, p.pairs...)
+		ious = append(ious, p.ious...)
+		unA = append(unA, p.unA...)
+		unB = append(unB, p.unB...)
+		for c := range p.seen {
+			seen[c] = true
+		}
+	}
+	for _, ia := range byImage {
 		r.NA += ia.A
 		r.NB += ia.B
 		r.Matched += ia.Matched
 		r.OnlyA += ia.OnlyA
 		r.OnlyB += ia.OnlyB
 	}
+	r.Images = len(byImage)
 	r.F1 = f1(r.Matched, r.NA, r.NB)
 	r.IoU = summarise(ious)
-	slices.SortStableFunc(r.PerImage, func(x, y ImageAgreement) int { return WorstFirst(x.dispute(), y.dispute()) })
+	r.PerImage = worstFirst(byImage)
 
 	r.Classes = classOrder(opt.Classes, seen)
 	idx := map[int64]int{}
@@ -201,7 +293,31 @@ func ComparePair(images []ImageLabels, a, b int, opt Options) PairReport {
 		ca.Kappa = kappaOrNote(t)
 		r.PerClass = append(r.PerClass, ca)
 	}
-	return r
+	return r, byImage, index
+}
+
+// worstFirst is a copy of the images' agreements sorted stably by
+// WorstFirst: an index is sorted rather than the large records, ties kept
+// in their order by the index itself.
+func worstFirst(ims []ImageAgreement) []ImageAgreement {
+	if len(ims) == 0 {
+		return nil
+	}
+	order := make([]int32, len(ims))
+	for i := range order {
+		order[i] = int32(i)
+	}
+	slices.SortFunc(order, func(x, y int32) int {
+		if c := WorstFirst(ims[x].dispute(), ims[y].dispute()); c != 0 {
+			return c
+		}
+		return cmp.Compare(x, y)
+	})
+	out := make([]ImageAgreement, len(ims))
+	for i, k := range order {
+		out[i] = ims[k]
+	}
+	return out
 }
 
 func labelsOf(im ImageLabels, i int) Labels {

@@ -116,3 +116,24 @@ func TestTwoAnnotatorObjectsMatchGrouping(t *testing.T) {
 		t.Errorf("%d objects from the pair, GroupObjects finds %d", r.Objects, want)
 	}
 }
+
+// Images are told apart by their place in the list, not by ImageID: a
+// caller that leaves the IDs zero gets every image's objects (the hand
+// scene has 3: one per box of A, B's two matched), as with IDs.
+func TestTwoAnnotatorObjectsWithoutImageIDs(t *testing.T) {
+	ims := scene()
+	for i := range ims {
+		ims[i].ImageID = 0
+	}
+	r, err := Compare(ims, 2, Options{}, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if r.Objects != 3 {
+		t.Errorf("%d objects on images without IDs, want 3", r.Objects)
+	}
+	withIDs, _ := Compare(scene(), 2, Options{}, nil)
+	if r.Alpha.Alpha != withIDs.Alpha.Alpha || r.Alpha.Units != withIDs.Alpha.Units {
+		t.Errorf("alpha %+v without image IDs, %+v with", r.Alpha, withIDs.Alpha)
+	}
+}
