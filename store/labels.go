@@ -306,6 +306,18 @@ func (s *Store) boxesIn(ctx context.Context, annotatorIDs []int64, from, to int6
 // boxRow reads image_id, annotator_id, class_id, x0, y0, x1, y1; the
 // error names the first column that is not what it should be.
 func boxRow(v []driver.Value) (img int64, b project.BoxRow, err error) {
+	var ok [7]bool
+	img, ok[0] = v[0].(int64)
+	b.AnnotatorID, ok[1] = v[1].(int64)
+	b.ClassID, ok[2] = v[2].(int64)
+	b.Box.X0, ok[3] = v[3].(float64)
+	b.Box.Y0, ok[4] = v[4].(float64)
+	b.Box.X1, ok[5] = v[5].(float64)
+	b.Box.Y1, ok[6] = v[6].(float64)
+	if ok == [7]bool{true, true, true, true, true, true, true} {
+		return img, b, nil
+	}
+	// Not the types the schema gives: convert as database/sql would.
 	ints := [...]*int64{&img, &b.AnnotatorID, &b.ClassID}
 	for i, name := range [...]string{"image_id", "annotator_id", "class_id"} {
 		if *ints[i], err = intValue(v[i], name); err != nil {

@@ -5,6 +5,7 @@ import (
 	"errors"
 	"fmt"
 	"path/filepath"
+	"slices"
 	"strings"
 
 	"boxwright/app/backend"
@@ -29,17 +30,15 @@ func LoadAgreement(ctx context.Context, st backend.Project, names []string) (Agr
 	if len(names) < 2 {
 		return d, errNoAnnotators
 	}
-	pos := map[int64]int{}
 	var ids []int64
-	for i, n := range names {
+	for _, n := range names {
 		a, err := st.AnnotatorByName(ctx, n)
 		if err != nil {
 			return d, err
 		}
-		if _, dup := pos[a.ID]; dup {
+		if slices.Contains(ids, a.ID) {
 			return d, fmt.Errorf("annotator %q is named twice", n)
 		}
-		pos[a.ID] = i
 		ids = append(ids, a.ID)
 		d.Annotators = append(d.Annotators, a)
 	}
@@ -51,23 +50,57 @@ func LoadAgreement(ctx context.Context, st backend.Project, names []string) (Agr
 	for _, c := range cs {
 		d.className[c.ID] = c.Name
 	}
-	ims, err := st.Images(ctx)
-	if err != nil {
-		return d, err
-	}
+	// The images' names are read while the boxes are.
 	names2 := map[int64]string{}
-	for _, im := range ims {
-		names2[im.ID] = filepath.ToSlash(im.Path)
-	}
+	imagesDone := make(chan error, 1)
+	go func() {
+		ims, err := st.Images(ctx)
+		for _, im := range ims {
+			names2[im.ID] = filepath.ToSlash(im.Path)
+		}
+		imagesDone <- err
+	}()
 	ibs, err := st.BoxesByImage(ctx, ids)
+	if err := <-imagesDone; err != nil {
+		return d, err
+	}
 	if err != nil {
 		return d, err
+	}
+	// Each image's boxes, annotator by annotator in the order stored, are
+	// carved from two arrays, each annotator's part sized beforehand.
+	total := 0
+	for _, ib := range ibs {
+		total += len(ib.Boxes)
+	}
+	n := len(names)
+	boxes, classes := make([]project.Box, total), make([]int64, total)
+	by := make([]agree.Labels, len(ibs)*n)
+	count := make([]int, n)
+	who := func(id int64) int {
+		for i, a := range ids {
+			if a == id {
+				return i
+			}
+		}
+		return 0
 	}
 	d.Images = make([]agree.ImageLabels, len(ibs))
+	off := 0
 	for i, ib := range ibs {
-		im := agree.ImageLabels{ImageID: ib.ImageID, Name: names2[ib.ImageID], By: make([]agree.Labels, len(names))}
+		clear(count)
 		for _, b := range ib.Boxes {
-			l := &im.By[pos[b.AnnotatorID]]
+			count[who(b.AnnotatorID)]++
+		}
+		im := agree.ImageLabels{ImageID: ib.ImageID, Name: names2[ib.ImageID], By: by[i*n : (i+1)*n : (i+1)*n]}
+		for k, c := range count {
+			if c > 0 {
+				im.By[k] = agree.Labels{Boxes: boxes[off : off : off+c], Classes: classes[off : off : off+c]}
+				off += c
+			}
+		}
+		for _, b := range ib.Boxes {
+			l := &im.By[who(b.AnnotatorID)]
 			l.Boxes = append(l.Boxes, b.Box)
 			l.Classes = append(l.Classes, b.ClassID)
 		}

@@ -121,5 +121,19 @@ func overlapIoU(a, b project.Box) float64 {
 	if a.X1 <= b.X0 || b.X1 <= a.X0 || a.Y1 <= b.Y0 || b.Y1 <= a.Y0 {
 		return 0
 	}
-	return a.IoU(b)
+	// a.IoU(b) written out, with the built-in max and min: the same as
+	// math.Max and math.Min, NaN and signed zeros included (Go
+	// specification, "Min and max"), without the calls.
+	in := project.Box{X0: max(a.X0, b.X0), Y0: max(a.Y0, b.Y0), X1: min(a.X1, b.X1), Y1: min(a.Y1, b.Y1)}
+	if in.Empty() {
+		return 0
+	}
+	inter := area(in)
+	if inter == 0 {
+		return 0
+	}
+	return inter / (area(a) + area(b) - inter)
 }
+
+// area is b.Area() with the built-in max.
+func area(b project.Box) float64 { return max(0, b.X1-b.X0) * max(0, b.Y1-b.Y0) }

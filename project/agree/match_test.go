@@ -2,6 +2,7 @@ package agree
 
 import (
 	"math"
+	"math/rand/v2"
 	"reflect"
 	"testing"
 
@@ -115,5 +116,29 @@ func TestMatchBoxesAccountsForEveryBox(t *testing.T) {
 	}
 	if len(m.Pairs) < 10 {
 		t.Errorf("only %d pairs in a scene of jittered copies", len(m.Pairs))
+	}
+}
+
+// overlapIoU is Box.IoU, bit for bit, on boxes that overlap, touch, nest,
+// miss each other or are empty, and with NaN and signed-zero coordinates.
+func TestOverlapIoUIsBoxIoU(t *testing.T) {
+	rng := rand.New(rand.NewPCG(5, 6))
+	odd := []float64{0, math.Copysign(0, -1), math.NaN(), math.Inf(1), math.Inf(-1), 1, 2}
+	coord := func() float64 {
+		if rng.IntN(8) == 0 {
+			return odd[rng.IntN(len(odd))]
+		}
+		return float64(rng.IntN(20)) + rng.Float64()*float64(rng.IntN(2))
+	}
+	for i := 0; i < 200000; i++ {
+		a := project.Box{X0: coord(), Y0: coord(), X1: coord(), Y1: coord()}
+		b := project.Box{X0: coord(), Y0: coord(), X1: coord(), Y1: coord()}
+		want, got := 0.0, overlapIoU(a, b)
+		if !(a.X1 <= b.X0 || b.X1 <= a.X0 || a.Y1 <= b.Y0 || b.Y1 <= a.Y0) {
+			want = a.IoU(b)
+		}
+		if math.Float64bits(got) != math.Float64bits(want) {
+			t.Fatalf("overlapIoU(%v, %v) = %v, Box.IoU gives %v", a, b, got, want)
+		}
 	}
 }
