@@ -71,8 +71,7 @@ const NoObjectCaveat = "Unmatched boxes are counted as a \"no object\" answer of
 
 // ComparePair matches annotators a and b on every image and sums up.
 func ComparePair(images []ImageLabels, a, b int, opt Options) PairReport {
-	r, _, _ := comparePair(images, a, b, opt)
-	return r
+	return comparePair(images, a, b, opt, nil)
 }
 
 type pairClass struct{ ca, cb int64 }
@@ -168,9 +167,11 @@ func matchParts(images []ImageLabels, a, b int, opt Options) []pairPart {
 	return out
 }
 
-// comparePair is ComparePair that also gives the images' agreements in
-// image order (PerImage is worst first) and the index of each in images.
-func comparePair(images []ImageLabels, a, b int, opt Options) (PairReport, []ImageAgreement, []int) {
+// comparePair is ComparePair; also, when not nil, is given the images'
+// agreements in image order (PerImage is worst first), the index of each
+// in images and the order of the classes, and runs beside the pair's
+// sums.
+func comparePair(images []ImageLabels, a, b int, opt Options, also func(byImage []ImageAgreement, index []int, classes []int64)) PairReport {
 	r := PairReport{A: a, B: b}
 	parts := matchParts(images, a, b, opt)
 	// The parts joined in order are what one pass over the images gives,
@@ -208,10 +209,17 @@ func comparePair(images []ImageLabels, a, b int, opt Options) (PairReport, []Ima
 	}
 	r.Images = len(byImage)
 	r.F1 = f1(r.Matched, r.NA, r.NB)
-	r.IoU = summarise(ious)
-	r.PerImage = worstFirst(byImage)
-
 	r.Classes = classOrder(opt.Classes, seen)
+	// The IoU summary (a sort), the ranking of images and whatever the
+	// caller wants of the images run beside the sums below.
+	var wg sync.WaitGroup
+	var perImage []ImageAgreement
+	var iou IoUSummary
+	wg.Go(func() { iou = summarise(ious) })
+	if also != nil {
+		wg.Go(func() { also(byImage, index, r.Classes) })
+	}
+	wg.Go(func() { perImage = worstFirst(byImage) })
 	idx := map[int64]int{}
 	for i, c := range r.Classes {
 		idx[c] = i
@@ -293,7 +301,9 @@ func comparePair(images []ImageLabels, a, b int, opt Options) (PairReport, []Ima
 		ca.Kappa = kappaOrNote(t)
 		r.PerClass = append(r.PerClass, ca)
 	}
-	return r, byImage, index
+	wg.Wait()
+	r.IoU, r.PerImage = iou, perImage
+	return r
 }
 
 // worstFirst is a copy of the images' agreements sorted stably by

@@ -94,8 +94,17 @@ func Compare(images []ImageLabels, n int, opt Options, progress func(done, total
 	}
 	r.Pairs = make([]PairReport, len(jobs))
 	var groups [][]Object
-	var first []ImageAgreement // pair 0's images, in image order
-	var firstAt []int
+	var many manyFigures
+	// Two annotators: the objects are the pair's matches and leftovers,
+	// exactly what GroupObjects would find, without matching twice; they
+	// are rated while the pair's sums are made.
+	var two func(byImage []ImageAgreement, index []int, classes []int64)
+	if n == 2 {
+		two = func(byImage []ImageAgreement, index []int, classes []int64) {
+			units, counts, complete := pairUnits(images, byImage, index, classIndex(classes), len(classes))
+			many = manyRaterFigures(units, counts, complete)
+		}
+	}
 	var mu sync.Mutex
 	done := 0
 	tick := func() {
@@ -110,11 +119,7 @@ func Compare(images []ImageLabels, n int, opt Options, progress func(done, total
 	work := make(chan func(), len(jobs)+1)
 	for _, j := range jobs {
 		work <- func() {
-			if j.i == 0 {
-				r.Pairs[0], first, firstAt = comparePair(images, j.a, j.b, opt)
-			} else {
-				r.Pairs[j.i] = ComparePair(images, j.a, j.b, opt)
-			}
+			r.Pairs[j.i] = comparePair(images, j.a, j.b, opt, two)
 			tick()
 		}
 	}
@@ -133,41 +138,58 @@ func Compare(images []ImageLabels, n int, opt Options, progress func(done, total
 		}()
 	}
 	wg.Wait()
-	// Objects across all annotators, their classes as ratings.
-	classIdx := map[int64]float64{}
-	order := r.Pairs[0].Classes
-	for _, p := range r.Pairs[1:] {
-		order = classOrder(order, setOf(p.Classes))
-	}
-	for i, c := range order {
-		classIdx[c] = float64(i)
-	}
-	var units, counts [][]float64
-	complete := true
-	if n == 2 {
-		// Two annotators: the objects are the pair's matches and leftovers,
-		// exactly what GroupObjects would find, without matching twice.
-		units, counts, complete = pairUnits(images, first, firstAt, classIdx, len(order))
-		tick()
+	if n > 2 {
+		// Objects across all annotators, their classes as ratings.
+		order := r.Pairs[0].Classes
+		for _, p := range r.Pairs[1:] {
+			order = classOrder(order, setOf(p.Classes))
+		}
+		units, counts, complete := groupUnits(images, groups, n, classIndex(order), len(order))
+		many = manyRaterFigures(units, counts, complete)
 	} else {
-		units, counts, complete = groupUnits(images, groups, n, classIdx, len(order))
+		tick()
 	}
-	r.Objects = len(units)
+	r.Objects, r.Fleiss, r.Alpha = many.objects, many.fleiss, many.alpha
+	r.Notes = append(r.Notes, many.notes...)
+	return r, nil
+}
+
+// manyFigures are the figures on objects rated by all annotators.
+type manyFigures struct {
+	objects int
+	fleiss  *Fleiss
+	alpha   Alpha
+	notes   []string
+}
+
+// manyRaterFigures are Fleiss' kappa (when every object was rated by
+// every annotator) and Krippendorff's alpha on the objects' classes.
+func manyRaterFigures(units, counts [][]float64, complete bool) manyFigures {
+	f := manyFigures{objects: len(units)}
 	if complete && len(counts) > 0 {
-		if f, err := FleissKappa(counts); err == nil {
-			r.Fleiss = &f
+		if fk, err := FleissKappa(counts); err == nil {
+			f.fleiss = &fk
 		} else {
-			r.Notes = append(r.Notes, "Fleiss' kappa: "+err.Error())
+			f.notes = append(f.notes, "Fleiss' kappa: "+err.Error())
 		}
 	} else {
-		r.Notes = append(r.Notes, "Fleiss' kappa needs a class from every annotator for every object; some objects were missed by someone, so only Krippendorff's alpha (which allows missing values) is given.")
+		f.notes = append(f.notes, "Fleiss' kappa needs a class from every annotator for every object; some objects were missed by someone, so only Krippendorff's alpha (which allows missing values) is given.")
 	}
 	if a, err := KrippendorffAlpha(units, Nominal); err == nil {
-		r.Alpha = a
+		f.alpha = a
 	} else {
-		r.Alpha = Alpha{Alpha: math.NaN(), Level: Nominal, Notes: []string{err.Error()}}
+		f.alpha = Alpha{Alpha: math.NaN(), Level: Nominal, Notes: []string{err.Error()}}
 	}
-	return r, nil
+	return f
+}
+
+// classIndex numbers classes in the order given, as ratings.
+func classIndex(order []int64) map[int64]float64 {
+	m := make(map[int64]float64, len(order))
+	for i, c := range order {
+		m[c] = float64(i)
+	}
+	return m
 }
 
 // ratingTable holds one row of ratings (a class index per annotator,
