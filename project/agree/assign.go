@@ -50,6 +50,7 @@ func assignWeights(w []float64, rows, cols int) [][2]int {
 // valid until its next call.
 type assigner struct {
 	parent, label, order, next, ri, ci []int
+	colSeen                            []bool
 	out                                [][2]int
 	cost                               []float64
 	h                                  hungarianMemory
@@ -83,19 +84,37 @@ func (as *assigner) assign(w []float64, rows, cols int) [][2]int {
 		}
 		return x
 	}
+	// While the parts are found, the edges are kept for the common case
+	// where no row and no column has more than one: every part is then a
+	// lone node or one pair, and the pairs are the edges, by row.
 	edges := 0
+	colSeen := bools(as.colSeen, cols)
+	as.colSeen = colSeen
+	simple := true
+	out := as.out[:0]
 	for i := 0; i < rows; i++ {
+		inRow := 0
 		for j := 0; j < cols; j++ {
 			if w[i*cols+j] > 0 {
 				edges++
+				inRow++
+				if simple {
+					simple = inRow == 1 && !colSeen[j]
+					colSeen[j] = true
+					out = append(out, [2]int{i, j})
+				}
 				if a, b := find(i), find(rows+j); a != b {
 					parent[max(a, b)] = min(a, b)
 				}
 			}
 		}
 	}
+	as.out = out
 	if edges == 0 {
 		return nil
+	}
+	if simple {
+		return out
 	}
 	// Lay the nodes out part by part, parts in order of their smallest node
 	// (a root is its part's smallest node) and ascending within a part, so
@@ -128,7 +147,7 @@ func (as *assigner) assign(w []float64, rows, cols int) [][2]int {
 		order[next[partOf[x]]] = x
 		next[partOf[x]]++
 	}
-	out := as.out[:0]
+	out = out[:0]
 	ri, ci := as.ri, as.ci
 	for p := 0; p < parts; p++ {
 		ri, ci = ri[:0], ci[:0]

@@ -72,12 +72,17 @@ func (m *matcher) match(a, b []project.Box, aClass, bClass []int64, threshold fl
 	w := floats(m.w, len(a)*len(b))
 	m.w = w
 	for i, ba := range a {
-		for j, bb := range b {
+		row := w[i*len(b) : (i+1)*len(b)]
+		for j := range b {
+			bb := &b[j]
+			if ba.X1 <= bb.X0 || bb.X1 <= ba.X0 || ba.Y1 <= bb.Y0 || bb.Y1 <= ba.Y0 {
+				continue // overlapIoU's early answer, 0: not a pair
+			}
 			if classAware && !sameClass(aClass, i, bClass, j) {
 				continue
 			}
-			if iou := overlapIoU(ba, bb); usable(iou, threshold) {
-				w[i*len(b)+j] = iou
+			if iou := overlapIoU(ba, *bb); usable(iou, threshold) {
+				row[j] = iou
 			}
 		}
 	}

@@ -85,11 +85,37 @@ type pairPart struct {
 	pairs    []pairClass
 	ious     []float64
 	unA, unB []int64
-	seen     map[int64]bool
+	seen     classSet
+}
+
+// classSet is a set of classes, in the order first added; there are few.
+type classSet struct {
+	list []int64
+	big  map[int64]bool // when the list is long
+}
+
+func (s *classSet) add(c int64) {
+	if s.big != nil {
+		if !s.big[c] {
+			s.big[c] = true
+			s.list = append(s.list, c)
+		}
+		return
+	}
+	if slices.Contains(s.list, c) {
+		return
+	}
+	s.list = append(s.list, c)
+	if len(s.list) > 32 {
+		s.big = map[int64]bool{}
+		for _, x := range s.list {
+			s.big[x] = true
+		}
+	}
 }
 
 func (m *matcher) comparePart(images []ImageLabels, offset, a, b int, opt Options) pairPart {
-	p := pairPart{seen: map[int64]bool{}}
+	var p pairPart
 	n := 0
 	for _, im := range images {
 		n += min(len(labelsOf(im, a).Boxes), len(labelsOf(im, b).Boxes))
@@ -107,7 +133,8 @@ func (m *matcher) comparePart(images []ImageLabels, offset, a, b int, opt Option
 		for _, pr := range mt.Pairs {
 			ca, cb := la.Classes[pr.A], lb.Classes[pr.B]
 			p.pairs = append(p.pairs, pairClass{ca, cb})
-			p.seen[ca], p.seen[cb] = true, true
+			p.seen.add(ca)
+			p.seen.add(cb)
 			p.ious = append(p.ious, pr.IoU)
 			sum += pr.IoU
 			if ca != cb {
@@ -116,11 +143,11 @@ func (m *matcher) comparePart(images []ImageLabels, offset, a, b int, opt Option
 		}
 		for _, i := range mt.OnlyA {
 			p.unA = append(p.unA, la.Classes[i])
-			p.seen[la.Classes[i]] = true
+			p.seen.add(la.Classes[i])
 		}
 		for _, j := range mt.OnlyB {
 			p.unB = append(p.unB, lb.Classes[j])
-			p.seen[lb.Classes[j]] = true
+			p.seen.add(lb.Classes[j])
 		}
 		ia.F1 = f1(ia.Matched, ia.A, ia.B)
 		ia.MeanIoU = math.NaN()
@@ -196,7 +223,7 @@ func comparePair(images []ImageLabels, a, b int, opt Options, also func(byImage 
 		ious = append(ious, p.ious...)
 		unA = append(unA, p.unA...)
 		unB = append(unB, p.unB...)
-		for c := range p.seen {
+		for _, c := range p.seen.list {
 			seen[c] = true
 		}
 	}

@@ -183,13 +183,42 @@ func manyRaterFigures(units, counts [][]float64, complete bool) manyFigures {
 	return f
 }
 
-// classIndex numbers classes in the order given, as ratings.
-func classIndex(order []int64) map[int64]float64 {
-	m := make(map[int64]float64, len(order))
-	for i, c := range order {
-		m[c] = float64(i)
+// ratings numbers classes in the order given, as ratings; a class not
+// given is rated 0.
+type ratings struct {
+	lo    int64
+	dense []float64 // by class ID - lo, when the IDs are close together
+	m     map[int64]float64
+}
+
+func classIndex(order []int64) ratings {
+	var r ratings
+	if len(order) == 0 {
+		return r
 	}
-	return m
+	lo, hi := slices.Min(order), slices.Max(order)
+	if hi-lo < 4096 {
+		r.lo, r.dense = lo, make([]float64, hi-lo+1)
+		for i, c := range order {
+			r.dense[c-lo] = float64(i)
+		}
+		return r
+	}
+	r.m = make(map[int64]float64, len(order))
+	for i, c := range order {
+		r.m[c] = float64(i)
+	}
+	return r
+}
+
+func (r ratings) of(class int64) float64 {
+	if r.m != nil {
+		return r.m[class]
+	}
+	if i := class - r.lo; i >= 0 && i < int64(len(r.dense)) {
+		return r.dense[i]
+	}
+	return 0
 }
 
 // ratingTable holds one row of ratings (a class index per annotator,
@@ -223,7 +252,7 @@ func (t *ratingTable) next() (u, cnt []float64) {
 // order: the matched pairs, then the boxes only the first drew, then those
 // only the second drew. ims are pair 0's images in image order, at[i] the
 // index of ims[i] in images.
-func pairUnits(images []ImageLabels, ims []ImageAgreement, at []int, classIdx map[int64]float64, k int) ([][]float64, [][]float64, bool) {
+func pairUnits(images []ImageLabels, ims []ImageAgreement, at []int, classIdx ratings, k int) ([][]float64, [][]float64, bool) {
 	objects := 0
 	for _, ia := range ims {
 		objects += len(ia.Match.Pairs) + len(ia.Match.OnlyA) + len(ia.Match.OnlyB)
@@ -234,18 +263,18 @@ func pairUnits(images []ImageLabels, ims []ImageAgreement, at []int, classIdx ma
 		m := ia.Match
 		for _, p := range m.Pairs {
 			u, cnt := t.next()
-			u[0], u[1] = classIdx[ca[p.A]], classIdx[cb[p.B]]
+			u[0], u[1] = classIdx.of(ca[p.A]), classIdx.of(cb[p.B])
 			cnt[int(u[0])]++
 			cnt[int(u[1])]++
 		}
 		for _, a := range m.OnlyA {
 			u, cnt := t.next()
-			u[0] = classIdx[ca[a]]
+			u[0] = classIdx.of(ca[a])
 			cnt[int(u[0])]++
 		}
 		for _, b := range m.OnlyB {
 			u, cnt := t.next()
-			u[1] = classIdx[cb[b]]
+			u[1] = classIdx.of(cb[b])
 			cnt[int(u[1])]++
 		}
 		if len(m.OnlyA)+len(m.OnlyB) > 0 {
@@ -257,7 +286,7 @@ func pairUnits(images []ImageLabels, ims []ImageAgreement, at []int, classIdx ma
 
 // groupUnits are the objects GroupObjects found on each image, in image
 // order.
-func groupUnits(images []ImageLabels, groups [][]Object, n int, classIdx map[int64]float64, k int) ([][]float64, [][]float64, bool) {
+func groupUnits(images []ImageLabels, groups [][]Object, n int, classIdx ratings, k int) ([][]float64, [][]float64, bool) {
 	objects := 0
 	for _, g := range groups {
 		objects += len(g)
@@ -271,7 +300,7 @@ func groupUnits(images []ImageLabels, groups [][]Object, n int, classIdx map[int
 		for _, o := range groups[ii] {
 			u, cnt := t.next()
 			for ann, bi := range o.Members {
-				ci := classIdx[classes[ann][bi]]
+				ci := classIdx.of(classes[ann][bi])
 				u[ann] = ci
 				cnt[int(ci)]++
 			}
