@@ -5,8 +5,10 @@ import (
 	"errors"
 	"fmt"
 	"path/filepath"
+	"runtime"
 	"slices"
 	"strings"
+	"sync"
 
 	"boxwright/app/backend"
 	"boxwright/project"
@@ -68,15 +70,15 @@ func LoadAgreement(ctx context.Context, st backend.Project, names []string) (Agr
 		return d, err
 	}
 	// Each image's boxes, annotator by annotator in the order stored, are
-	// carved from two arrays, each annotator's part sized beforehand.
-	total := 0
-	for _, ib := range ibs {
-		total += len(ib.Boxes)
+	// carved from two arrays, each annotator's part sized beforehand;
+	// runs of images are done side by side.
+	start := make([]int, len(ibs)+1)
+	for i, ib := range ibs {
+		start[i+1] = start[i] + len(ib.Boxes)
 	}
 	n := len(names)
-	boxes, classes := make([]project.Box, total), make([]int64, total)
+	boxes, classes := make([]project.Box, start[len(ibs)]), make([]int64, start[len(ibs)])
 	by := make([]agree.Labels, len(ibs)*n)
-	count := make([]int, n)
 	who := func(id int64) int {
 		for i, a := range ids {
 			if a == id {
@@ -86,26 +88,39 @@ func LoadAgreement(ctx context.Context, st backend.Project, names []string) (Agr
 		return 0
 	}
 	d.Images = make([]agree.ImageLabels, len(ibs))
-	off := 0
-	for i, ib := range ibs {
-		clear(count)
-		for _, b := range ib.Boxes {
-			count[who(b.AnnotatorID)]++
-		}
-		im := agree.ImageLabels{ImageID: ib.ImageID, Name: names2[ib.ImageID], By: by[i*n : (i+1)*n : (i+1)*n]}
-		for k, c := range count {
-			if c > 0 {
-				im.By[k] = agree.Labels{Boxes: boxes[off : off : off+c], Classes: classes[off : off : off+c]}
-				off += c
+	fill := func(lo, hi int) {
+		count := make([]int, n)
+		for i := lo; i < hi; i++ {
+			ib := ibs[i]
+			clear(count)
+			for _, b := range ib.Boxes {
+				count[who(b.AnnotatorID)]++
 			}
+			im := agree.ImageLabels{ImageID: ib.ImageID, Name: names2[ib.ImageID], By: by[i*n : (i+1)*n : (i+1)*n]}
+			off := start[i]
+			for k, c := range count {
+				if c > 0 {
+					im.By[k] = agree.Labels{Boxes: boxes[off : off : off+c], Classes: classes[off : off : off+c]}
+					off += c
+				}
+			}
+			for _, b := range ib.Boxes {
+				l := &im.By[who(b.AnnotatorID)]
+				l.Boxes = append(l.Boxes, b.Box)
+				l.Classes = append(l.Classes, b.ClassID)
+			}
+			d.Images[i] = im
 		}
-		for _, b := range ib.Boxes {
-			l := &im.By[who(b.AnnotatorID)]
-			l.Boxes = append(l.Boxes, b.Box)
-			l.Classes = append(l.Classes, b.ClassID)
-		}
-		d.Images[i] = im
 	}
+	workers := 1
+	if len(ibs) >= 4096 {
+		workers = runtime.GOMAXPROCS(0)
+	}
+	var wg sync.WaitGroup
+	for w := range workers {
+		wg.Go(func() { fill(w*len(ibs)/workers, (w+1)*len(ibs)/workers) })
+	}
+	wg.Wait()
 	return d, ctx.Err()
 }
 

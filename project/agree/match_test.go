@@ -4,6 +4,7 @@ import (
 	"math"
 	"math/rand/v2"
 	"reflect"
+	"sort"
 	"testing"
 
 	"boxwright/project"
@@ -139,6 +140,47 @@ func TestOverlapIoUIsBoxIoU(t *testing.T) {
 		}
 		if math.Float64bits(got) != math.Float64bits(want) {
 			t.Fatalf("overlapIoU(%v, %v) = %v, Box.IoU gives %v", a, b, got, want)
+		}
+	}
+}
+
+// sortedCopy sorts as sort.Float64s does, by radix for positive values
+// and by comparison otherwise, and leaves its input alone.
+func TestSortedCopy(t *testing.T) {
+	rng := rand.New(rand.NewPCG(7, 8))
+	for _, n := range []int{0, 1, 5, 1023, 1024, 5000, 70000} {
+		for _, kind := range []string{"iou", "ties", "tiny and huge", "with zero", "with NaN"} {
+			v := make([]float64, n)
+			for i := range v {
+				switch kind {
+				case "iou", "with zero", "with NaN":
+					v[i] = rng.Float64() + math.SmallestNonzeroFloat64
+				case "ties":
+					v[i] = float64(1+rng.IntN(5)) / 8
+				case "tiny and huge":
+					v[i] = math.Ldexp(1+rng.Float64(), rng.IntN(2000)-1000)
+				}
+			}
+			if n > 0 && kind == "with zero" {
+				v[rng.IntN(n)] = 0
+			}
+			if n > 0 && kind == "with NaN" {
+				v[rng.IntN(n)] = math.NaN()
+			}
+			in := append([]float64(nil), v...)
+			want := append([]float64(nil), v...)
+			sort.Float64s(want)
+			got := sortedCopy(v)
+			for i := range want {
+				if math.Float64bits(got[i]) != math.Float64bits(want[i]) {
+					t.Fatalf("%s, %d values: at %d got %v, want %v", kind, n, i, got[i], want[i])
+				}
+			}
+			for i := range in {
+				if math.Float64bits(v[i]) != math.Float64bits(in[i]) {
+					t.Fatalf("%s: the input changed", kind)
+				}
+			}
 		}
 	}
 }
