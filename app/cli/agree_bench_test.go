@@ -106,6 +106,7 @@ func TestAgreeChildProcess(t *testing.T) {
 	if err := cmdAgree(strings.Split(line, "\x1f"), io.Discard, io.Discard); err != nil {
 		t.Fatal(err)
 	}
+	reportPeakRSS()
 }
 
 func BenchmarkAgreeCommand10000Images2Annotators(b *testing.B) { benchmarkAgreeCommand(b, 2) }
