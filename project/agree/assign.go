@@ -71,6 +71,32 @@ func (as *assigner) assign(w []float64, rows, cols int) [][2]int {
 	// Rows and columns linked by no chain of usable pairs cannot affect each
 	// other, so each connected part is solved on its own: on the sparse IoU
 	// matrices of real images the parts are tiny and the cubic step cheap.
+	//
+	// First the common case: no row and no column with more than one
+	// usable pair. Every part is then a lone node or one pair, and the
+	// pairs are the usable entries, by row.
+	colSeen := bools(as.colSeen, cols)
+	as.colSeen = colSeen
+	simple := true
+	out := as.out[:0]
+	for i := 0; i < rows && simple; i++ {
+		inRow := 0
+		for j, x := range w[i*cols : (i+1)*cols] {
+			if x > 0 {
+				inRow++
+				simple = simple && inRow == 1 && !colSeen[j]
+				colSeen[j] = true
+				out = append(out, [2]int{i, j})
+			}
+		}
+	}
+	as.out = out
+	if simple {
+		if len(out) == 0 {
+			return nil
+		}
+		return out
+	}
 	// Nodes 0..rows-1 are rows, rows..rows+cols-1 columns.
 	parent := ints(as.parent, rows+cols)
 	as.parent = parent
@@ -84,37 +110,14 @@ func (as *assigner) assign(w []float64, rows, cols int) [][2]int {
 		}
 		return x
 	}
-	// While the parts are found, the edges are kept for the common case
-	// where no row and no column has more than one: every part is then a
-	// lone node or one pair, and the pairs are the edges, by row.
-	edges := 0
-	colSeen := bools(as.colSeen, cols)
-	as.colSeen = colSeen
-	simple := true
-	out := as.out[:0]
 	for i := 0; i < rows; i++ {
-		inRow := 0
 		for j := 0; j < cols; j++ {
 			if w[i*cols+j] > 0 {
-				edges++
-				inRow++
-				if simple {
-					simple = inRow == 1 && !colSeen[j]
-					colSeen[j] = true
-					out = append(out, [2]int{i, j})
-				}
 				if a, b := find(i), find(rows+j); a != b {
 					parent[max(a, b)] = min(a, b)
 				}
 			}
 		}
-	}
-	as.out = out
-	if edges == 0 {
-		return nil
-	}
-	if simple {
-		return out
 	}
 	// Lay the nodes out part by part, parts in order of their smallest node
 	// (a root is its part's smallest node) and ascending within a part, so

@@ -247,22 +247,20 @@ func comparePair(images []ImageLabels, a, b int, opt Options, also func(byImage 
 		wg.Go(func() { also(byImage, index, r.Classes) })
 	}
 	wg.Go(func() { perImage = worstFirst(byImage) })
-	idx := map[int64]int{}
-	for i, c := range r.Classes {
-		idx[c] = i
-	}
+	ci := classIndex(r.Classes)
+	idx := func(c int64) int { return int(ci.of(c)) }
 	k := len(r.Classes)
 	r.Confusion = square(k)
 	r.ConfusionWithNoObject = square(k + 1)
 	for _, p := range pairs {
-		r.Confusion[idx[p.ca]][idx[p.cb]]++
-		r.ConfusionWithNoObject[idx[p.ca]][idx[p.cb]]++
+		r.Confusion[idx(p.ca)][idx(p.cb)]++
+		r.ConfusionWithNoObject[idx(p.ca)][idx(p.cb)]++
 	}
 	for _, c := range unA {
-		r.ConfusionWithNoObject[idx[c]][k]++
+		r.ConfusionWithNoObject[idx(c)][k]++
 	}
 	for _, c := range unB {
-		r.ConfusionWithNoObject[k][idx[c]]++
+		r.ConfusionWithNoObject[k][idx(c)]++
 	}
 	r.Kappa = kappaOrNote(r.Confusion)
 	if opt.Weights != nil {
