@@ -3,11 +3,14 @@ package store
 import (
 	"context"
 	"database/sql"
+	"database/sql/driver"
 	"errors"
 	"fmt"
+	"io"
 	"math"
 	"runtime"
 	"sort"
+	"strconv"
 	"strings"
 	"sync"
 
@@ -182,7 +185,9 @@ func (s *Store) DeleteLabel(ctx context.Context, id int64) error {
 // parallel over ranges of rows, so that a million boxes stay quick.
 func (s *Store) BoxesByImage(ctx context.Context, annotatorIDs []int64) ([]project.ImageBoxes, error) {
 	var lo, hi sql.NullInt64
-	if err := s.db.QueryRowContext(ctx, "SELECT min(id), max(id) FROM labels").Scan(&lo, &hi); err != nil {
+	// Two subqueries: SQLite answers a lone min() or max() of the key
+	// from the end of the table, but both in one SELECT by reading every row.
+	if err := s.db.QueryRowContext(ctx, "SELECT (SELECT min(id) FROM labels), (SELECT max(id) FROM labels)").Scan(&lo, &hi); err != nil {
 		return nil, fmt.Errorf("read boxes: %w", s.translate(err))
 	}
 	if !lo.Valid {
@@ -227,30 +232,143 @@ func (s *Store) boxesIn(ctx context.Context, annotatorIDs []int64, from, to int6
 	// lookup per row at this size ("+annotator_id" keeps the annotator
 	// index out of it).
 	q := "SELECT image_id, annotator_id, class_id, x0, y0, x1, y1 FROM labels WHERE id BETWEEN ? AND ?"
-	args := []any{from, to}
+	args := []driver.NamedValue{{Ordinal: 1, Value: from}, {Ordinal: 2, Value: to}}
 	if len(annotatorIDs) > 0 {
 		q += " AND +annotator_id IN (?" + strings.Repeat(",?", len(annotatorIDs)-1) + ")"
 		for _, id := range annotatorIDs {
-			args = append(args, id)
+			args = append(args, driver.NamedValue{Ordinal: len(args) + 1, Value: id})
 		}
 	}
-	rows, err := s.db.QueryContext(ctx, q, args...)
+	conn, err := s.db.Conn(ctx)
 	if err != nil {
 		return nil, fmt.Errorf("read boxes: %w", s.translate(err))
 	}
-	defer rows.Close()
-	var out []project.ImageBoxes
-	for rows.Next() {
-		var img int64
-		var b project.BoxRow
-		if err := rows.Scan(&img, &b.AnnotatorID, &b.ClassID, &b.Box.X0, &b.Box.Y0, &b.Box.X1, &b.Box.Y1); err != nil {
-			return nil, fmt.Errorf("read boxes: %w", s.damaged(err))
+	defer conn.Close()
+	var rows []project.BoxRow
+	var images []int64 // image of each run of rows, and where it starts
+	var starts []int
+	err = conn.Raw(func(dc any) error {
+		qc, ok := dc.(driver.QueryerContext)
+		if !ok {
+			return fmt.Errorf("the SQLite driver (%T) cannot query", dc)
 		}
-		if len(out) == 0 || out[len(out)-1].ImageID != img {
-			out = append(out, project.ImageBoxes{ImageID: img})
+		// Rows are stepped through the driver itself: database/sql's
+		// locking and conversion per value cost more than SQLite's own
+		// reading. The query runs without the context's cancellation
+		// (which would cost a lock per row in the driver); it is looked at
+		// every few thousand rows instead.
+		rs, err := qc.QueryContext(context.WithoutCancel(ctx), q, args)
+		if err != nil {
+			return err
 		}
-		last := &out[len(out)-1]
-		last.Boxes = append(last.Boxes, b)
+		defer rs.Close()
+		rows = make([]project.BoxRow, 0, min(to-from+1, 1<<16))
+		dest := make([]driver.Value, 7)
+		last := int64(0)
+		for n := 0; ; n++ {
+			if n%4096 == 0 {
+				if err := ctx.Err(); err != nil {
+					return err
+				}
+			}
+			if err := rs.Next(dest); err != nil {
+				if err == io.EOF {
+					return nil
+				}
+				return err
+			}
+			img, b, err := boxRow(dest)
+			if err != nil {
+				return fmt.Errorf("a label of image %v: %w", dest[0], err)
+			}
+			if len(images) == 0 || img != last {
+				images, starts, last = append(images, img), append(starts, len(rows)), img
+			}
+			rows = append(rows, b)
+		}
+	})
+	if err != nil {
+		if ctx.Err() != nil {
+			return nil, ctx.Err()
+		}
+		return nil, fmt.Errorf("read boxes: %w", s.damaged(s.translate(err)))
 	}
-	return out, s.damaged(rows.Err())
+	// Each image's boxes share the one array, capped so that appending to
+	// one image's boxes cannot overwrite the next image's.
+	out := make([]project.ImageBoxes, len(images))
+	starts = append(starts, len(rows))
+	for i, img := range images {
+		out[i] = project.ImageBoxes{ImageID: img, Boxes: rows[starts[i]:starts[i+1]:starts[i+1]]}
+	}
+	return out, nil
+}
+
+// boxRow reads image_id, annotator_id, class_id, x0, y0, x1, y1; the
+// error names the first column that is not what it should be.
+func boxRow(v []driver.Value) (img int64, b project.BoxRow, err error) {
+	var ok [7]bool
+	img, ok[0] = v[0].(int64)
+	b.AnnotatorID, ok[1] = v[1].(int64)
+	b.ClassID, ok[2] = v[2].(int64)
+	b.Box.X0, ok[3] = v[3].(float64)
+	b.Box.Y0, ok[4] = v[4].(float64)
+	b.Box.X1, ok[5] = v[5].(float64)
+	b.Box.Y1, ok[6] = v[6].(float64)
+	if ok == [7]bool{true, true, true, true, true, true, true} {
+		return img, b, nil
+	}
+	// Not the types the schema gives: convert as database/sql would.
+	ints := [...]*int64{&img, &b.AnnotatorID, &b.ClassID}
+	for i, name := range [...]string{"image_id", "annotator_id", "class_id"} {
+		if *ints[i], err = intValue(v[i], name); err != nil {
+			return
+		}
+	}
+	floats := [...]*float64{&b.Box.X0, &b.Box.Y0, &b.Box.X1, &b.Box.Y1}
+	for i, name := range [...]string{"x0", "y0", "x1", "y1"} {
+		if *floats[i], err = floatValue(v[3+i], name); err != nil {
+			return
+		}
+	}
+	return
+}
+
+// intValue and floatValue read a column as database/sql's Scan would
+// into an int64 or a float64, refusing what it would refuse.
+func intValue(v driver.Value, col string) (int64, error) {
+	switch x := v.(type) {
+	case int64:
+		return x, nil
+	case float64:
+		if i := int64(x); float64(i) == x {
+			return i, nil
+		}
+	case string:
+		if i, err := strconv.ParseInt(x, 10, 64); err == nil {
+			return i, nil
+		}
+	case []byte:
+		if i, err := strconv.ParseInt(string(x), 10, 64); err == nil {
+			return i, nil
+		}
+	}
+	return 0, fmt.Errorf("%s is %#v, not a whole number: %w", col, v, project.ErrDamaged)
+}
+
+func floatValue(v driver.Value, col string) (float64, error) {
+	switch x := v.(type) {
+	case float64:
+		return x, nil
+	case int64:
+		return float64(x), nil
+	case string:
+		if f, err := strconv.ParseFloat(x, 64); err == nil {
+			return f, nil
+		}
+	case []byte:
+		if f, err := strconv.ParseFloat(string(x), 64); err == nil {
+			return f, nil
+		}
+	}
+	return 0, fmt.Errorf("%s is %#v, not a number: %w", col, v, project.ErrDamaged)
 }

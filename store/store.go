@@ -217,6 +217,11 @@ func openRO(abs string, extra url.Values) (*sql.DB, error) {
 			q[k] = v
 		}
 		q.Set("mode", "ro")
+		// database/sql hands a connection to one goroutine at a time, so
+		// SQLite's own lock around every call on it (every column of every
+		// row read) is not needed: about a fifth of the cost of reading
+		// many rows.
+		q.Set("_mutex", "no")
 		if immutable {
 			q.Set("immutable", "1")
 		}

@@ -5,6 +5,8 @@ import (
 	"fmt"
 	"io"
 	"math/rand/v2"
+	"os"
+	"os/exec"
 	"path/filepath"
 	"strings"
 	"testing"
@@ -60,19 +62,51 @@ func benchAgreeProject(b *testing.B, n int) string {
 	return path
 }
 
-// The whole "agree" command, reading the project file included.
+// The whole "agree" command, reading the project file included. Where
+// the system says, the peak resident memory of a process that runs the
+// command once is reported beside it (MiB-peak-rss).
 func benchmarkAgreeCommand(b *testing.B, n int) {
 	path := benchAgreeProject(b, n)
 	var names []string
 	for i := 0; i < n; i++ {
 		names = append(names, fmt.Sprintf("a%d", i))
 	}
+	args := []string{path, "--annotators", strings.Join(names, ","), "--json"}
 	b.ResetTimer()
 	for range b.N {
-		if err := cmdAgree([]string{path, "--annotators", strings.Join(names, ","), "--json"}, io.Discard, io.Discard); err != nil {
+		if err := cmdAgree(args, io.Discard, io.Discard); err != nil {
 			b.Fatal(err)
 		}
 	}
+	b.StopTimer()
+	if mib, ok, err := agreePeakRSS(args); err != nil {
+		b.Fatal(err)
+	} else if ok {
+		b.ReportMetric(mib, "MiB-peak-rss")
+	}
+}
+
+// agreeChildEnv carries the command line to the process agreePeakRSS
+// starts (this test binary again, running TestAgreeChildProcess).
+const agreeChildEnv = "BOXWRIGHT_AGREE_CHILD"
+
+func agreeChildCommand(args []string) *exec.Cmd {
+	cmd := exec.Command(os.Args[0], "-test.run=^TestAgreeChildProcess$", "-test.count=1")
+	cmd.Env = append(os.Environ(), agreeChildEnv+"="+strings.Join(args, "\x1f"))
+	return cmd
+}
+
+// TestAgreeChildProcess runs one agree command for the benchmarks' memory
+// figure; on its own it has nothing to do.
+func TestAgreeChildProcess(t *testing.T) {
+	line := os.Getenv(agreeChildEnv)
+	if line == "" {
+		t.Skip("run by the agree benchmarks, in a process of its own")
+	}
+	if err := cmdAgree(strings.Split(line, "\x1f"), io.Discard, io.Discard); err != nil {
+		t.Fatal(err)
+	}
+	reportPeakRSS()
 }
 
 func BenchmarkAgreeCommand10000Images2Annotators(b *testing.B) { benchmarkAgreeCommand(b, 2) }

@@ -5,7 +5,10 @@ import (
 	"errors"
 	"fmt"
 	"path/filepath"
+	"runtime"
+	"slices"
 	"strings"
+	"sync"
 
 	"boxwright/app/backend"
 	"boxwright/project"
@@ -29,17 +32,15 @@ func LoadAgreement(ctx context.Context, st backend.Project, names []string) (Agr
 	if len(names) < 2 {
 		return d, errNoAnnotators
 	}
-	pos := map[int64]int{}
 	var ids []int64
-	for i, n := range names {
+	for _, n := range names {
 		a, err := st.AnnotatorByName(ctx, n)
 		if err != nil {
 			return d, err
 		}
-		if _, dup := pos[a.ID]; dup {
+		if slices.Contains(ids, a.ID) {
 			return d, fmt.Errorf("annotator %q is named twice", n)
 		}
-		pos[a.ID] = i
 		ids = append(ids, a.ID)
 		d.Annotators = append(d.Annotators, a)
 	}
@@ -51,28 +52,75 @@ func LoadAgreement(ctx context.Context, st backend.Project, names []string) (Agr
 	for _, c := range cs {
 		d.className[c.ID] = c.Name
 	}
-	ims, err := st.Images(ctx)
-	if err != nil {
-		return d, err
-	}
+	// The images' names are read while the boxes are.
 	names2 := map[int64]string{}
-	for _, im := range ims {
-		names2[im.ID] = filepath.ToSlash(im.Path)
-	}
+	imagesDone := make(chan error, 1)
+	go func() {
+		ims, err := st.Images(ctx)
+		for _, im := range ims {
+			names2[im.ID] = filepath.ToSlash(im.Path)
+		}
+		imagesDone <- err
+	}()
 	ibs, err := st.BoxesByImage(ctx, ids)
+	if err := <-imagesDone; err != nil {
+		return d, err
+	}
 	if err != nil {
 		return d, err
+	}
+	// Each image's boxes, annotator by annotator in the order stored, are
+	// carved from two arrays, each annotator's part sized beforehand;
+	// runs of images are done side by side.
+	start := make([]int, len(ibs)+1)
+	for i, ib := range ibs {
+		start[i+1] = start[i] + len(ib.Boxes)
+	}
+	n := len(names)
+	boxes, classes := make([]project.Box, start[len(ibs)]), make([]int64, start[len(ibs)])
+	by := make([]agree.Labels, len(ibs)*n)
+	who := func(id int64) int {
+		for i, a := range ids {
+			if a == id {
+				return i
+			}
+		}
+		return 0
 	}
 	d.Images = make([]agree.ImageLabels, len(ibs))
-	for i, ib := range ibs {
-		im := agree.ImageLabels{ImageID: ib.ImageID, Name: names2[ib.ImageID], By: make([]agree.Labels, len(names))}
-		for _, b := range ib.Boxes {
-			l := &im.By[pos[b.AnnotatorID]]
-			l.Boxes = append(l.Boxes, b.Box)
-			l.Classes = append(l.Classes, b.ClassID)
+	fill := func(lo, hi int) {
+		count := make([]int, n)
+		for i := lo; i < hi; i++ {
+			ib := ibs[i]
+			clear(count)
+			for _, b := range ib.Boxes {
+				count[who(b.AnnotatorID)]++
+			}
+			im := agree.ImageLabels{ImageID: ib.ImageID, Name: names2[ib.ImageID], By: by[i*n : (i+1)*n : (i+1)*n]}
+			off := start[i]
+			for k, c := range count {
+				if c > 0 {
+					im.By[k] = agree.Labels{Boxes: boxes[off : off : off+c], Classes: classes[off : off : off+c]}
+					off += c
+				}
+			}
+			for _, b := range ib.Boxes {
+				l := &im.By[who(b.AnnotatorID)]
+				l.Boxes = append(l.Boxes, b.Box)
+				l.Classes = append(l.Classes, b.ClassID)
+			}
+			d.Images[i] = im
 		}
-		d.Images[i] = im
 	}
+	workers := 1
+	if len(ibs) >= 4096 {
+		workers = runtime.GOMAXPROCS(0)
+	}
+	var wg sync.WaitGroup
+	for w := range workers {
+		wg.Go(func() { fill(w*len(ibs)/workers, (w+1)*len(ibs)/workers) })
+	}
+	wg.Wait()
 	return d, ctx.Err()
 }
 

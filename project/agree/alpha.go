@@ -1,9 +1,10 @@
 package agree
 
 import (
+	"cmp"
 	"fmt"
 	"math"
-	"sort"
+	"slices"
 	"strings"
 )
 
@@ -71,9 +72,12 @@ func KrippendorffAlpha(units [][]float64, level Level) (Alpha, error) {
 		return Alpha{}, fmt.Errorf("krippendorff alpha: unknown level %v", level)
 	}
 	r := Alpha{Level: level}
-	var pairable [][]float64
+	// The values of the pairable units, one after another: unit i is
+	// vals[ends[i-1]:ends[i]].
+	var vals []float64
+	var ends []int
 	for u, row := range units {
-		var vals []float64
+		from := len(vals)
 		for j, v := range row {
 			if math.IsNaN(v) {
 				continue
@@ -86,52 +90,46 @@ func KrippendorffAlpha(units [][]float64, level Level) (Alpha, error) {
 			}
 			vals = append(vals, v)
 		}
-		if len(vals) >= 2 {
-			pairable = append(pairable, vals)
-			r.Values += len(vals)
+		if len(vals)-from >= 2 {
+			ends = append(ends, len(vals))
+			r.Values += len(vals) - from
+		} else {
+			vals = vals[:from]
 		}
 	}
-	r.Units = len(pairable)
+	r.Units = len(ends)
 	if r.Units == 0 {
 		r.Alpha = math.NaN()
 		r.Notes = append(r.Notes, "alpha is undefined: no unit has two or more values")
 		return r, nil
 	}
 
-	// Distinct values in numeric order index the coincidence matrix.
-	var distinct []float64
-	for _, vals := range pairable {
-		distinct = append(distinct, vals...)
-	}
-	sort.Float64s(distinct)
-	distinct = dedupSorted(distinct)
-	index := make(map[float64]int, len(distinct))
-	for i, v := range distinct {
-		index[v] = i
-	}
+	// Distinct values in numeric order index the coincidence matrix; at[i]
+	// is the index of vals[i].
+	distinct, at := distinctIndex(vals)
 	V := len(distinct)
 
-	// Coincidence matrix o_ck: each unit adds its ordered pairs of values
-	// from different raters, weighted 1/(m_u − 1).
-	o := make([][]float64, V)
-	for i := range o {
-		o[i] = make([]float64, V)
-	}
-	for _, vals := range pairable {
-		w := 1 / float64(len(vals)-1)
-		for a := range vals {
-			for b := range vals {
+	// Coincidence matrix o_ck (o[c*V+k]): each unit adds its ordered pairs
+	// of values from different raters, weighted 1/(m_u − 1).
+	o := make([]float64, V*V)
+	from := 0
+	for _, to := range ends {
+		unit := at[from:to]
+		w := 1 / float64(len(unit)-1)
+		for a := range unit {
+			for b := range unit {
 				if a != b {
-					o[index[vals[a]]][index[vals[b]]] += w
+					o[unit[a]*V+unit[b]] += w
 				}
 			}
 		}
+		from = to
 	}
 	nc := make([]float64, V)
 	n := 0.0
-	for c := range o {
-		for k := range o[c] {
-			nc[c] += o[c][k]
+	for c := range V {
+		for k := range V {
+			nc[c] += o[c*V+k]
 		}
 		n += nc[c]
 	}
@@ -167,7 +165,7 @@ func KrippendorffAlpha(units [][]float64, level Level) (Alpha, error) {
 	for c := 0; c < V; c++ {
 		for k := 0; k < V; k++ {
 			d := delta2(c, k)
-			do += o[c][k] * d
+			do += o[c*V+k] * d
 			de += nc[c] * nc[k] * d
 		}
 	}
@@ -184,15 +182,49 @@ func KrippendorffAlpha(units [][]float64, level Level) (Alpha, error) {
 	return r, nil
 }
 
-// dedupSorted removes adjacent duplicates from a sorted slice.
-func dedupSorted(s []float64) []float64 {
-	out := s[:0]
-	for i, v := range s {
-		if i == 0 || v != s[i-1] {
-			out = append(out, v)
+// distinctIndex returns the distinct values of vals in ascending order
+// and the index in them of each value. Small whole numbers (classes as
+// ratings) are looked up in a table, others in a map.
+func distinctIndex(vals []float64) ([]float64, []int) {
+	var small [256]int // 1 + index of the value, 0: not seen
+	other := map[float64]int{}
+	var distinct []float64
+	at := make([]int, len(vals))
+	for i, v := range vals {
+		var slot *int
+		if v >= 0 && v < float64(len(small)) && v == math.Trunc(v) {
+			slot = &small[int(v)]
+		} else {
+			k, ok := other[v]
+			if !ok {
+				distinct = append(distinct, v)
+				k = len(distinct)
+				other[v] = k
+			}
+			at[i] = k - 1
+			continue
 		}
+		if *slot == 0 {
+			distinct = append(distinct, v)
+			*slot = len(distinct)
+		}
+		at[i] = *slot - 1
 	}
-	return out
+	// Renumber in ascending order of value.
+	byValue := make([]int, len(distinct))
+	for i := range byValue {
+		byValue[i] = i
+	}
+	slices.SortFunc(byValue, func(x, y int) int { return cmp.Compare(distinct[x], distinct[y]) })
+	rank := make([]int, len(distinct))
+	sorted := make([]float64, len(distinct))
+	for r, i := range byValue {
+		rank[i], sorted[r] = r, distinct[i]
+	}
+	for i, k := range at {
+		at[i] = rank[k]
+	}
+	return sorted, at
 }
 
 // PercentAgreement is the raw agreement over pairable units (two or more

@@ -1,8 +1,9 @@
 package agree
 
 import (
+	"cmp"
 	"math"
-	"sort"
+	"slices"
 )
 
 // Assign finds a one-to-one assignment of rows to columns that maximises the
@@ -40,11 +41,65 @@ func usable(s, min float64) bool {
 // assignWeights solves the assignment for a row-major rows×cols matrix of
 // weights where 0 means "not a pair" and every other entry is positive.
 func assignWeights(w []float64, rows, cols int) [][2]int {
+	var a assigner
+	return a.assign(w, rows, cols)
+}
+
+// assigner is assignWeights' working memory, kept between calls so that
+// matching image after image allocates nothing; what assign returns is
+// valid until its next call.
+type assigner struct {
+	parent, label, order, next, ri, ci []int
+	colSeen                            []bool
+	out                                [][2]int
+	cost                               []float64
+	h                                  hungarianMemory
+}
+
+// ints returns s with length n and every element zero, reusing its array
+// when it is large enough.
+func ints(s []int, n int) []int {
+	if cap(s) < n {
+		return make([]int, n)
+	}
+	s = s[:n]
+	clear(s)
+	return s
+}
+
+func (as *assigner) assign(w []float64, rows, cols int) [][2]int {
 	// Rows and columns linked by no chain of usable pairs cannot affect each
 	// other, so each connected part is solved on its own: on the sparse IoU
 	// matrices of real images the parts are tiny and the cubic step cheap.
+	//
+	// First the common case: no row and no column with more than one
+	// usable pair. Every part is then a lone node or one pair, and the
+	// pairs are the usable entries, by row.
+	colSeen := bools(as.colSeen, cols)
+	as.colSeen = colSeen
+	simple := true
+	out := as.out[:0]
+	for i := 0; i < rows && simple; i++ {
+		inRow := 0
+		for j, x := range w[i*cols : (i+1)*cols] {
+			if x > 0 {
+				inRow++
+				simple = simple && inRow == 1 && !colSeen[j]
+				colSeen[j] = true
+				out = append(out, [2]int{i, j})
+			}
+		}
+	}
+	as.out = out
+	if simple {
+		if len(out) == 0 {
+			return nil
+		}
+		return out
+	}
 	// Nodes 0..rows-1 are rows, rows..rows+cols-1 columns.
-	parent := make([]int, rows+cols)
+	parent := ints(as.parent, rows+cols)
+	as.parent = parent
 	for i := range parent {
 		parent[i] = i
 	}
@@ -55,25 +110,21 @@ func assignWeights(w []float64, rows, cols int) [][2]int {
 		}
 		return x
 	}
-	edges := 0
 	for i := 0; i < rows; i++ {
 		for j := 0; j < cols; j++ {
 			if w[i*cols+j] > 0 {
-				edges++
 				if a, b := find(i), find(rows+j); a != b {
 					parent[max(a, b)] = min(a, b)
 				}
 			}
 		}
 	}
-	if edges == 0 {
-		return nil
-	}
 	// Lay the nodes out part by part, parts in order of their smallest node
 	// (a root is its part's smallest node) and ascending within a part, so
 	// each part's rows come before its columns.
 	nodes := rows + cols
-	label := make([]int, 3*nodes+1)
+	label := ints(as.label, 3*nodes+1)
+	as.label = label
 	partOf, start := label[nodes:2*nodes], label[2*nodes:]
 	for x := range label[:nodes] {
 		label[x] = -1
@@ -91,14 +142,16 @@ func assignWeights(w []float64, rows, cols int) [][2]int {
 	for p := 1; p <= parts; p++ {
 		start[p] += start[p-1]
 	}
-	order := make([]int, nodes)
-	next := append([]int(nil), start[:parts]...)
+	order := ints(as.order, nodes)
+	as.order = order
+	next := append(as.next[:0], start[:parts]...)
+	as.next = next
 	for x := 0; x < nodes; x++ {
 		order[next[partOf[x]]] = x
 		next[partOf[x]]++
 	}
-	var out [][2]int
-	var ri, ci []int
+	out = out[:0]
+	ri, ci := as.ri, as.ci
 	for p := 0; p < parts; p++ {
 		ri, ci = ri[:0], ci[:0]
 		for _, x := range order[start[p]:start[p+1]] {
@@ -114,27 +167,35 @@ func assignWeights(w []float64, rows, cols int) [][2]int {
 		case len(ri) == 1 && len(ci) == 1:
 			out = append(out, [2]int{ri[0], ci[0]})
 		default:
-			out = append(out, assignDense(w, cols, ri, ci)...)
+			out = as.assignDense(out, w, cols, ri, ci)
 		}
 	}
-	sort.Slice(out, func(x, y int) bool { return out[x][0] < out[y][0] })
+	as.out, as.ri, as.ci = out, ri, ci
+	if len(out) == 0 {
+		return nil
+	}
+	// Each row is in at most one pair, so the order by row is the only one.
+	slices.SortFunc(out, func(x, y [2]int) int { return cmp.Compare(x[0], y[0]) })
 	return out
 }
 
 // assignDense solves the assignment restricted to rows ri and columns ci of
-// the weight matrix w (cols wide).
-func assignDense(w []float64, cols int, ri, ci []int) [][2]int {
+// the weight matrix w (cols wide), appending its pairs to out.
+func (as *assigner) assignDense(out [][2]int, w []float64, cols int, ri, ci []int) [][2]int {
 	// Minimise cost = -weight on the n×n matrix padded with zeros; a pair
 	// that lands on a zero entry is a row or column left unassigned.
 	n := max(len(ri), len(ci))
-	cost := make([]float64, n*n)
+	if cap(as.cost) < n*n {
+		as.cost = make([]float64, n*n)
+	}
+	cost := as.cost[:n*n]
+	clear(cost)
 	for a, i := range ri {
 		for b, j := range ci {
 			cost[a*n+b] = -w[i*cols+j]
 		}
 	}
-	var out [][2]int
-	for a, b := range hungarian(cost, n) {
+	for a, b := range as.h.hungarian(cost, n) {
 		if a < len(ri) && b < len(ci) && cost[a*n+b] < 0 {
 			out = append(out, [2]int{ri[a], ci[b]})
 		}
@@ -142,18 +203,35 @@ func assignDense(w []float64, cols int, ri, ci []int) [][2]int {
 	return out
 }
 
+// hungarianMemory is hungarian's working memory, kept between calls.
+type hungarianMemory struct {
+	u, v, minv    []float64
+	p, way, colOf []int
+	used          []bool
+}
+
+func floats(s []float64, n int) []float64 {
+	if cap(s) < n {
+		return make([]float64, n)
+	}
+	s = s[:n]
+	clear(s)
+	return s
+}
+
 // hungarian returns, for each row of the n×n cost matrix, the column of a
 // minimum-cost perfect assignment. It is the shortest augmenting path form
-// with row and column potentials, adding one row at a time.
-func hungarian(cost []float64, n int) []int {
+// with row and column potentials, adding one row at a time. The answer is
+// valid until the next call.
+func (m *hungarianMemory) hungarian(cost []float64, n int) []int {
 	inf := math.Inf(1)
 	// Index 0 is a sentinel column; rows and columns are 1-based below.
-	u := make([]float64, n+1)
-	v := make([]float64, n+1)
-	p := make([]int, n+1) // p[j] = row assigned to column j
-	way := make([]int, n+1)
-	minv := make([]float64, n+1)
-	used := make([]bool, n+1)
+	m.u, m.v, m.minv = floats(m.u, n+1), floats(m.v, n+1), floats(m.minv, n+1)
+	m.p, m.way = ints(m.p, n+1), ints(m.way, n+1) // p[j] = row assigned to column j
+	if cap(m.used) < n+1 {
+		m.used = make([]bool, n+1)
+	}
+	u, v, minv, p, way, used := m.u, m.v, m.minv, m.p, m.way, m.used[:n+1]
 	for i := 1; i <= n; i++ {
 		p[0] = i
 		j0 := 0
@@ -199,7 +277,8 @@ func hungarian(cost []float64, n int) []int {
 			j0 = j1
 		}
 	}
-	colOf := make([]int, n)
+	m.colOf = ints(m.colOf, n)
+	colOf := m.colOf
 	for j := 1; j <= n; j++ {
 		colOf[p[j]-1] = j - 1
 	}

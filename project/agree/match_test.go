@@ -2,7 +2,9 @@ package agree
 
 import (
 	"math"
+	"math/rand/v2"
 	"reflect"
+	"sort"
 	"testing"
 
 	"boxwright/project"
@@ -115,5 +117,70 @@ func TestMatchBoxesAccountsForEveryBox(t *testing.T) {
 	}
 	if len(m.Pairs) < 10 {
 		t.Errorf("only %d pairs in a scene of jittered copies", len(m.Pairs))
+	}
+}
+
+// overlapIoU is Box.IoU, bit for bit, on boxes that overlap, touch, nest,
+// miss each other or are empty, and with NaN and signed-zero coordinates.
+func TestOverlapIoUIsBoxIoU(t *testing.T) {
+	rng := rand.New(rand.NewPCG(5, 6))
+	odd := []float64{0, math.Copysign(0, -1), math.NaN(), math.Inf(1), math.Inf(-1), 1, 2}
+	coord := func() float64 {
+		if rng.IntN(8) == 0 {
+			return odd[rng.IntN(len(odd))]
+		}
+		return float64(rng.IntN(20)) + rng.Float64()*float64(rng.IntN(2))
+	}
+	for i := 0; i < 200000; i++ {
+		a := project.Box{X0: coord(), Y0: coord(), X1: coord(), Y1: coord()}
+		b := project.Box{X0: coord(), Y0: coord(), X1: coord(), Y1: coord()}
+		want, got := 0.0, overlapIoU(a, b)
+		if !(a.X1 <= b.X0 || b.X1 <= a.X0 || a.Y1 <= b.Y0 || b.Y1 <= a.Y0) {
+			want = a.IoU(b)
+		}
+		if math.Float64bits(got) != math.Float64bits(want) {
+			t.Fatalf("overlapIoU(%v, %v) = %v, Box.IoU gives %v", a, b, got, want)
+		}
+	}
+}
+
+// sortedCopy sorts as sort.Float64s does, by radix for positive values
+// and by comparison otherwise, and leaves its input alone.
+func TestSortedCopy(t *testing.T) {
+	rng := rand.New(rand.NewPCG(7, 8))
+	for _, n := range []int{0, 1, 5, 1023, 1024, 5000, 70000} {
+		for _, kind := range []string{"iou", "ties", "tiny and huge", "with zero", "with NaN"} {
+			v := make([]float64, n)
+			for i := range v {
+				switch kind {
+				case "iou", "with zero", "with NaN":
+					v[i] = rng.Float64() + math.SmallestNonzeroFloat64
+				case "ties":
+					v[i] = float64(1+rng.IntN(5)) / 8
+				case "tiny and huge":
+					v[i] = math.Ldexp(1+rng.Float64(), rng.IntN(2000)-1000)
+				}
+			}
+			if n > 0 && kind == "with zero" {
+				v[rng.IntN(n)] = 0
+			}
+			if n > 0 && kind == "with NaN" {
+				v[rng.IntN(n)] = math.NaN()
+			}
+			in := append([]float64(nil), v...)
+			want := append([]float64(nil), v...)
+			sort.Float64s(want)
+			got := sortedCopy(v)
+			for i := range want {
+				if math.Float64bits(got[i]) != math.Float64bits(want[i]) {
+					t.Fatalf("%s, %d values: at %d got %v, want %v", kind, n, i, got[i], want[i])
+				}
+			}
+			for i := range in {
+				if math.Float64bits(v[i]) != math.Float64bits(in[i]) {
+					t.Fatalf("%s: the input changed", kind)
+				}
+			}
+		}
 	}
 }

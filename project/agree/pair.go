@@ -4,8 +4,11 @@ import (
 	"cmp"
 	"fmt"
 	"math"
+	"runtime"
 	"slices"
 	"sort"
+	"sync"
+	"sync/atomic"
 )
 
 // HistogramBins is the number of equal IoU bins over [0, 1].
@@ -68,39 +71,83 @@ const NoObjectCaveat = "Unmatched boxes are counted as a \"no object\" answer of
 
 // ComparePair matches annotators a and b on every image and sums up.
 func ComparePair(images []ImageLabels, a, b int, opt Options) PairReport {
-	r := PairReport{A: a, B: b}
-	var ious []float64
-	type pairClass struct{ ca, cb int64 }
-	var pairs []pairClass
-	var unA, unB []int64
-	seen := map[int64]bool{}
+	return comparePair(images, a, b, opt, nil)
+}
+
+type pairClass struct{ ca, cb int64 }
+
+// pairPart is the matching of a run of images, in image order: the
+// images where either annotator drew (at index[i] of the run), their
+// matched pairs' classes and IoUs and the classes of the boxes left over.
+type pairPart struct {
+	perImage []ImageAgreement
+	index    []int
+	pairs    []pairClass
+	ious     []float64
+	unA, unB []int64
+	seen     classSet
+}
+
+// classSet is a set of classes, in the order first added; there are few.
+type classSet struct {
+	list []int64
+	big  map[int64]bool // when the list is long
+}
+
+func (s *classSet) add(c int64) {
+	if s.big != nil {
+		if !s.big[c] {
+			s.big[c] = true
+			s.list = append(s.list, c)
+		}
+		return
+	}
+	if slices.Contains(s.list, c) {
+		return
+	}
+	s.list = append(s.list, c)
+	if len(s.list) > 32 {
+		s.big = map[int64]bool{}
+		for _, x := range s.list {
+			s.big[x] = true
+		}
+	}
+}
+
+func (m *matcher) comparePart(images []ImageLabels, offset, a, b int, opt Options) pairPart {
+	var p pairPart
+	n := 0
 	for _, im := range images {
+		n += min(len(labelsOf(im, a).Boxes), len(labelsOf(im, b).Boxes))
+	}
+	p.pairs, p.ious = make([]pairClass, 0, n), make([]float64, 0, n)
+	for ii, im := range images {
 		la, lb := labelsOf(im, a), labelsOf(im, b)
 		if len(la.Boxes)+len(lb.Boxes) == 0 {
 			continue
 		}
-		r.Images++
-		m := MatchBoxes(la.Boxes, lb.Boxes, la.Classes, lb.Classes, opt.threshold(), opt.ClassAware)
+		mt := m.match(la.Boxes, lb.Boxes, la.Classes, lb.Classes, opt.threshold(), opt.ClassAware)
 		ia := ImageAgreement{ImageID: im.ImageID, Name: im.Name, A: len(la.Boxes), B: len(lb.Boxes),
-			Matched: len(m.Pairs), OnlyA: len(m.OnlyA), OnlyB: len(m.OnlyB), Match: m}
+			Matched: len(mt.Pairs), OnlyA: len(mt.OnlyA), OnlyB: len(mt.OnlyB), Match: mt}
 		sum := 0.0
-		for _, p := range m.Pairs {
-			ca, cb := la.Classes[p.A], lb.Classes[p.B]
-			pairs = append(pairs, pairClass{ca, cb})
-			seen[ca], seen[cb] = true, true
-			ious = append(ious, p.IoU)
-			sum += p.IoU
+		for _, pr := range mt.Pairs {
+			ca, cb := la.Classes[pr.A], lb.Classes[pr.B]
+			p.pairs = append(p.pairs, pairClass{ca, cb})
+			p.seen.add(ca)
+			p.seen.add(cb)
+			p.ious = append(p.ious, pr.IoU)
+			sum += pr.IoU
 			if ca != cb {
 				ia.ClassDisagreements++
 			}
 		}
-		for _, i := range m.OnlyA {
-			unA = append(unA, la.Classes[i])
-			seen[la.Classes[i]] = true
+		for _, i := range mt.OnlyA {
+			p.unA = append(p.unA, la.Classes[i])
+			p.seen.add(la.Classes[i])
 		}
-		for _, j := range m.OnlyB {
-			unB = append(unB, lb.Classes[j])
-			seen[lb.Classes[j]] = true
+		for _, j := range mt.OnlyB {
+			p.unB = append(p.unB, lb.Classes[j])
+			p.seen.add(lb.Classes[j])
 		}
 		ia.F1 = f1(ia.Matched, ia.A, ia.B)
 		ia.MeanIoU = math.NaN()
@@ -108,34 +155,112 @@ func ComparePair(images []ImageLabels, a, b int, opt Options) PairReport {
 			ia.MeanIoU = sum / float64(ia.Matched)
 		}
 		ia.Errors = ia.OnlyA + ia.OnlyB + ia.ClassDisagreements
-		r.PerImage = append(r.PerImage, ia)
+		p.perImage = append(p.perImage, ia)
+		p.index = append(p.index, offset+ii)
+	}
+	return p
+}
+
+// matchParts matches a and b on runs of images, in parallel on the
+// available cores; the parts come back in image order.
+func matchParts(images []ImageLabels, a, b int, opt Options) []pairPart {
+	workers := runtime.GOMAXPROCS(0)
+	parts := 1
+	if workers > 1 && len(images) >= 128 {
+		parts = min(4*workers, len(images)/32)
+	}
+	out := make([]pairPart, parts)
+	var next atomic.Int64
+	work := func() {
+		m := matcher{pairs: arena[Pair]{chunk: 4096}, indices: arena[int]{chunk: 4096}}
+		for {
+			p := int(next.Add(1) - 1)
+			if p >= parts {
+				return
+			}
+			lo, hi := p*len(images)/parts, (p+1)*len(images)/parts
+			out[p] = m.comparePart(images[lo:hi], lo, a, b, opt)
+		}
+	}
+	if parts == 1 {
+		work()
+		return out
+	}
+	var wg sync.WaitGroup
+	for range min(workers, parts) {
+		wg.Go(work)
+	}
+	wg.Wait()
+	return out
+}
+
+// comparePair is ComparePair; also, when not nil, is given the images'
+// agreements in image order (PerImage is worst first), the index of each
+// in images and the order of the classes, and runs beside the pair's
+// sums.
+func comparePair(images []ImageLabels, a, b int, opt Options, also func(byImage []ImageAgreement, index []int, classes []int64)) PairReport {
+	r := PairReport{A: a, B: b}
+	parts := matchParts(images, a, b, opt)
+	// The parts joined in order are what one pass over the images gives,
+	// so every sum below adds the same numbers in the same order.
+	var nImages, nPairs, nA, nB int
+	for _, p := range parts {
+		nImages += len(p.perImage)
+		nPairs += len(p.pairs)
+		nA += len(p.unA)
+		nB += len(p.unB)
+	}
+	byImage := make([]ImageAgreement, 0, nImages)
+	index := make([]int, 0, nImages)
+	pairs := make([]pairClass, 0, nPairs)
+	ious := make([]float64, 0, nPairs)
+	unA, unB := make([]int64, 0, nA), make([]int64, 0, nB)
+	seen := map[int64]bool{}
+	for _, p := range parts {
+		byImage = append(byImage, p.perImage...)
+		index = append(index, p.index...)
+		pairs = append(pairs, p.pairs...)
+		ious = append(ious, p.ious...)
+		unA = append(unA, p.unA...)
+		unB = append(unB, p.unB...)
+		for _, c := range p.seen.list {
+			seen[c] = true
+		}
+	}
+	for _, ia := range byImage {
 		r.NA += ia.A
 		r.NB += ia.B
 		r.Matched += ia.Matched
 		r.OnlyA += ia.OnlyA
 		r.OnlyB += ia.OnlyB
 	}
+	r.Images = len(byImage)
 	r.F1 = f1(r.Matched, r.NA, r.NB)
-	r.IoU = summarise(ious)
-	slices.SortStableFunc(r.PerImage, func(x, y ImageAgreement) int { return WorstFirst(x.dispute(), y.dispute()) })
-
 	r.Classes = classOrder(opt.Classes, seen)
-	idx := map[int64]int{}
-	for i, c := range r.Classes {
-		idx[c] = i
+	// The IoU summary (a sort), the ranking of images and whatever the
+	// caller wants of the images run beside the sums below.
+	var wg sync.WaitGroup
+	var perImage []ImageAgreement
+	var iou IoUSummary
+	wg.Go(func() { iou = summarise(ious) })
+	if also != nil {
+		wg.Go(func() { also(byImage, index, r.Classes) })
 	}
+	wg.Go(func() { perImage = worstFirst(byImage) })
+	ci := classIndex(r.Classes)
+	idx := func(c int64) int { return int(ci.of(c)) }
 	k := len(r.Classes)
 	r.Confusion = square(k)
 	r.ConfusionWithNoObject = square(k + 1)
 	for _, p := range pairs {
-		r.Confusion[idx[p.ca]][idx[p.cb]]++
-		r.ConfusionWithNoObject[idx[p.ca]][idx[p.cb]]++
+		r.Confusion[idx(p.ca)][idx(p.cb)]++
+		r.ConfusionWithNoObject[idx(p.ca)][idx(p.cb)]++
 	}
 	for _, c := range unA {
-		r.ConfusionWithNoObject[idx[c]][k]++
+		r.ConfusionWithNoObject[idx(c)][k]++
 	}
 	for _, c := range unB {
-		r.ConfusionWithNoObject[k][idx[c]]++
+		r.ConfusionWithNoObject[k][idx(c)]++
 	}
 	r.Kappa = kappaOrNote(r.Confusion)
 	if opt.Weights != nil {
@@ -201,7 +326,33 @@ func ComparePair(images []ImageLabels, a, b int, opt Options) PairReport {
 		ca.Kappa = kappaOrNote(t)
 		r.PerClass = append(r.PerClass, ca)
 	}
+	wg.Wait()
+	r.IoU, r.PerImage = iou, perImage
 	return r
+}
+
+// worstFirst is a copy of the images' agreements sorted stably by
+// WorstFirst: an index is sorted rather than the large records, ties kept
+// in their order by the index itself.
+func worstFirst(ims []ImageAgreement) []ImageAgreement {
+	if len(ims) == 0 {
+		return nil
+	}
+	order := make([]int32, len(ims))
+	for i := range order {
+		order[i] = int32(i)
+	}
+	slices.SortFunc(order, func(x, y int32) int {
+		if c := WorstFirst(ims[x].dispute(), ims[y].dispute()); c != 0 {
+			return c
+		}
+		return cmp.Compare(x, y)
+	})
+	out := make([]ImageAgreement, len(ims))
+	for i, k := range order {
+		out[i] = ims[k]
+	}
+	return out
 }
 
 func labelsOf(im ImageLabels, i int) Labels {
@@ -268,8 +419,7 @@ func summarise(v []float64) IoUSummary {
 	if len(v) == 0 {
 		return s
 	}
-	x := append([]float64(nil), v...)
-	sort.Float64s(x)
+	x := sortedCopy(v)
 	sum := 0.0
 	for _, e := range x {
 		sum += e
@@ -285,6 +435,55 @@ func summarise(v []float64) IoUSummary {
 	s.Mean = sum / float64(len(x))
 	s.Median, s.P10, s.P90 = Quantile(x, 0.5), Quantile(x, 0.1), Quantile(x, 0.9)
 	return s
+}
+
+// sortedCopy is v sorted ascending. Positive finite values (IoUs are)
+// sort by their bits, by radix in four passes of 16 bits; anything else
+// by comparison. Either way the result is the one ascending order.
+func sortedCopy(v []float64) []float64 {
+	x := append([]float64(nil), v...)
+	for _, e := range x {
+		if !(e > 0 && e <= math.MaxFloat64) {
+			sort.Float64s(x)
+			return x
+		}
+	}
+	if len(x) < 1024 {
+		sort.Float64s(x)
+		return x
+	}
+	// For positive floats the order of the bit patterns, read as unsigned
+	// integers, is the order of the values (IEEE 754, sign bit 0).
+	a := make([]uint64, len(x))
+	for i, e := range x {
+		a[i] = math.Float64bits(e)
+	}
+	b := make([]uint64, len(x))
+	var count [1 << 16]int
+	for shift := uint(0); shift < 64; shift += 16 {
+		clear(count[:])
+		for _, k := range a {
+			count[(k>>shift)&0xffff]++
+		}
+		if count[(a[0]>>shift)&0xffff] == len(a) {
+			continue // every key has this digit
+		}
+		pos := 0
+		for d, c := range count {
+			count[d] = pos
+			pos += c
+		}
+		for _, k := range a {
+			d := (k >> shift) & 0xffff
+			b[count[d]] = k
+			count[d]++
+		}
+		a, b = b, a
+	}
+	for i, k := range a {
+		x[i] = math.Float64frombits(k)
+	}
+	return x
 }
 
 // Quantile is the p-quantile of sorted values by linear interpolation

@@ -94,6 +94,17 @@ func Compare(images []ImageLabels, n int, opt Options, progress func(done, total
 	}
 	r.Pairs = make([]PairReport, len(jobs))
 	var groups [][]Object
+	var many manyFigures
+	// Two annotators: the objects are the pair's matches and leftovers,
+	// exactly what GroupObjects would find, without matching twice; they
+	// are rated while the pair's sums are made.
+	var two func(byImage []ImageAgreement, index []int, classes []int64)
+	if n == 2 {
+		two = func(byImage []ImageAgreement, index []int, classes []int64) {
+			units, counts, complete := pairUnits(images, byImage, index, classIndex(classes), len(classes))
+			many = manyRaterFigures(units, counts, complete)
+		}
+	}
 	var mu sync.Mutex
 	done := 0
 	tick := func() {
@@ -107,7 +118,10 @@ func Compare(images []ImageLabels, n int, opt Options, progress func(done, total
 	}
 	work := make(chan func(), len(jobs)+1)
 	for _, j := range jobs {
-		work <- func() { r.Pairs[j.i] = ComparePair(images, j.a, j.b, opt); tick() }
+		work <- func() {
+			r.Pairs[j.i] = comparePair(images, j.a, j.b, opt, two)
+			tick()
+		}
 	}
 	if n > 2 {
 		work <- func() { groups = groupAll(images, n, r.Threshold, opt.ClassAware); tick() }
@@ -124,91 +138,178 @@ func Compare(images []ImageLabels, n int, opt Options, progress func(done, total
 		}()
 	}
 	wg.Wait()
-	if n == 2 {
-		// Two annotators: the objects are the pair's matches and leftovers,
-		// exactly what GroupObjects would find, without matching twice.
-		groups = objectsOfPair(images, r.Pairs[0])
+	if n > 2 {
+		// Objects across all annotators, their classes as ratings.
+		order := r.Pairs[0].Classes
+		for _, p := range r.Pairs[1:] {
+			order = classOrder(order, setOf(p.Classes))
+		}
+		units, counts, complete := groupUnits(images, groups, n, classIndex(order), len(order))
+		many = manyRaterFigures(units, counts, complete)
+	} else {
 		tick()
 	}
-	// Objects across all annotators, their classes as ratings.
-	classIdx := map[int64]float64{}
-	var units [][]float64
-	var counts [][]float64
-	complete := true
-	order := r.Pairs[0].Classes
-	for _, p := range r.Pairs[1:] {
-		order = classOrder(order, setOf(p.Classes))
+	r.Objects, r.Fleiss, r.Alpha = many.objects, many.fleiss, many.alpha
+	r.Notes = append(r.Notes, many.notes...)
+	return r, nil
+}
+
+// manyFigures are the figures on objects rated by all annotators.
+type manyFigures struct {
+	objects int
+	fleiss  *Fleiss
+	alpha   Alpha
+	notes   []string
+}
+
+// manyRaterFigures are Fleiss' kappa (when every object was rated by
+// every annotator) and Krippendorff's alpha on the objects' classes.
+func manyRaterFigures(units, counts [][]float64, complete bool) manyFigures {
+	f := manyFigures{objects: len(units)}
+	if complete && len(counts) > 0 {
+		if fk, err := FleissKappa(counts); err == nil {
+			f.fleiss = &fk
+		} else {
+			f.notes = append(f.notes, "Fleiss' kappa: "+err.Error())
+		}
+	} else {
+		f.notes = append(f.notes, "Fleiss' kappa needs a class from every annotator for every object; some objects were missed by someone, so only Krippendorff's alpha (which allows missing values) is given.")
 	}
+	if a, err := KrippendorffAlpha(units, Nominal); err == nil {
+		f.alpha = a
+	} else {
+		f.alpha = Alpha{Alpha: math.NaN(), Level: Nominal, Notes: []string{err.Error()}}
+	}
+	return f
+}
+
+// ratings numbers classes in the order given, as ratings; a class not
+// given is rated 0.
+type ratings struct {
+	lo    int64
+	dense []float64 // by class ID - lo, when the IDs are close together
+	m     map[int64]float64
+}
+
+func classIndex(order []int64) ratings {
+	var r ratings
+	if len(order) == 0 {
+		return r
+	}
+	lo, hi := slices.Min(order), slices.Max(order)
+	if hi-lo < 4096 {
+		r.lo, r.dense = lo, make([]float64, hi-lo+1)
+		for i, c := range order {
+			r.dense[c-lo] = float64(i)
+		}
+		return r
+	}
+	r.m = make(map[int64]float64, len(order))
 	for i, c := range order {
-		classIdx[c] = float64(i)
+		r.m[c] = float64(i)
 	}
+	return r
+}
+
+func (r ratings) of(class int64) float64 {
+	if r.m != nil {
+		return r.m[class]
+	}
+	if i := class - r.lo; i >= 0 && i < int64(len(r.dense)) {
+		return r.dense[i]
+	}
+	return 0
+}
+
+// ratingTable holds one row of ratings (a class index per annotator,
+// NaN for none) and one row of counts per class for each object, all rows
+// in two arrays.
+type ratingTable struct {
+	n, k          int
+	units, counts []float64
+	uRows, cRows  [][]float64
+	complete      bool
+}
+
+func newRatingTable(objects, n, k int) *ratingTable {
+	t := &ratingTable{n: n, k: k, units: make([]float64, objects*n), counts: make([]float64, objects*k),
+		uRows: make([][]float64, 0, objects), cRows: make([][]float64, 0, objects), complete: true}
+	for i := range t.units {
+		t.units[i] = math.NaN()
+	}
+	return t
+}
+
+// next starts the next object's rows.
+func (t *ratingTable) next() (u, cnt []float64) {
+	o := len(t.uRows)
+	u, cnt = t.units[o*t.n:(o+1)*t.n:(o+1)*t.n], t.counts[o*t.k:(o+1)*t.k:(o+1)*t.k]
+	t.uRows, t.cRows = append(t.uRows, u), append(t.cRows, cnt)
+	return u, cnt
+}
+
+// pairUnits are the objects of two annotators, image by image in image
+// order: the matched pairs, then the boxes only the first drew, then those
+// only the second drew. ims are pair 0's images in image order, at[i] the
+// index of ims[i] in images.
+func pairUnits(images []ImageLabels, ims []ImageAgreement, at []int, classIdx ratings, k int) ([][]float64, [][]float64, bool) {
+	objects := 0
+	for _, ia := range ims {
+		objects += len(ia.Match.Pairs) + len(ia.Match.OnlyA) + len(ia.Match.OnlyB)
+	}
+	t := newRatingTable(objects, 2, k)
+	for i, ia := range ims {
+		ca, cb := labelsOf(images[at[i]], 0).Classes, labelsOf(images[at[i]], 1).Classes
+		m := ia.Match
+		for _, p := range m.Pairs {
+			u, cnt := t.next()
+			u[0], u[1] = classIdx.of(ca[p.A]), classIdx.of(cb[p.B])
+			cnt[int(u[0])]++
+			cnt[int(u[1])]++
+		}
+		for _, a := range m.OnlyA {
+			u, cnt := t.next()
+			u[0] = classIdx.of(ca[a])
+			cnt[int(u[0])]++
+		}
+		for _, b := range m.OnlyB {
+			u, cnt := t.next()
+			u[1] = classIdx.of(cb[b])
+			cnt[int(u[1])]++
+		}
+		if len(m.OnlyA)+len(m.OnlyB) > 0 {
+			t.complete = false
+		}
+	}
+	return t.uRows, t.cRows, t.complete
+}
+
+// groupUnits are the objects GroupObjects found on each image, in image
+// order.
+func groupUnits(images []ImageLabels, groups [][]Object, n int, classIdx ratings, k int) ([][]float64, [][]float64, bool) {
+	objects := 0
+	for _, g := range groups {
+		objects += len(g)
+	}
+	t := newRatingTable(objects, n, k)
+	classes := make([][]int64, n)
 	for ii, im := range images {
-		classes := make([][]int64, n)
 		for i := 0; i < n; i++ {
 			classes[i] = labelsOf(im, i).Classes
 		}
 		for _, o := range groups[ii] {
-			r.Objects++
-			u := make([]float64, n)
-			cnt := make([]float64, len(order))
-			for i := range u {
-				u[i] = math.NaN()
-			}
+			u, cnt := t.next()
 			for ann, bi := range o.Members {
-				ci := classIdx[classes[ann][bi]]
+				ci := classIdx.of(classes[ann][bi])
 				u[ann] = ci
 				cnt[int(ci)]++
 			}
 			if len(o.Members) != n {
-				complete = false
+				t.complete = false
 			}
-			units = append(units, u)
-			counts = append(counts, cnt)
 		}
 	}
-	if complete && len(counts) > 0 {
-		if f, err := FleissKappa(counts); err == nil {
-			r.Fleiss = &f
-		} else {
-			r.Notes = append(r.Notes, "Fleiss' kappa: "+err.Error())
-		}
-	} else {
-		r.Notes = append(r.Notes, "Fleiss' kappa needs a class from every annotator for every object; some objects were missed by someone, so only Krippendorff's alpha (which allows missing values) is given.")
-	}
-	if a, err := KrippendorffAlpha(units, Nominal); err == nil {
-		r.Alpha = a
-	} else {
-		r.Alpha = Alpha{Alpha: math.NaN(), Level: Nominal, Notes: []string{err.Error()}}
-	}
-	return r, nil
-}
-
-// objectsOfPair turns a pair's matches into objects, image by image.
-func objectsOfPair(images []ImageLabels, p PairReport) [][]Object {
-	at := map[int64]int{}
-	for i, im := range images {
-		at[im.ImageID] = i
-	}
-	out := make([][]Object, len(images))
-	for _, im := range p.PerImage {
-		i, ok := at[im.ImageID]
-		if !ok {
-			continue
-		}
-		m := im.Match
-		objs := make([]Object, 0, len(m.Pairs)+len(m.OnlyA)+len(m.OnlyB))
-		for _, pr := range m.Pairs {
-			objs = append(objs, Object{Members: map[int]int{p.A: pr.A, p.B: pr.B}})
-		}
-		for _, a := range m.OnlyA {
-			objs = append(objs, Object{Members: map[int]int{p.A: a}})
-		}
-		for _, b := range m.OnlyB {
-			objs = append(objs, Object{Members: map[int]int{p.B: b}})
-		}
-		out[i] = objs
-	}
-	return out
+	return t.uRows, t.cRows, t.complete
 }
 
 // groupAll groups every image's boxes into objects.

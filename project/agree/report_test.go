@@ -116,3 +116,69 @@ func TestTwoAnnotatorObjectsMatchGrouping(t *testing.T) {
 		t.Errorf("%d objects from the pair, GroupObjects finds %d", r.Objects, want)
 	}
 }
+
+// Images are told apart by their place in the list, not by ImageID: a
+// caller that leaves the IDs zero gets every image's objects (the hand
+// scene has 3: one per box of A, B's two matched), as with IDs.
+func TestTwoAnnotatorObjectsWithoutImageIDs(t *testing.T) {
+	ims := scene()
+	for i := range ims {
+		ims[i].ImageID = 0
+	}
+	r, err := Compare(ims, 2, Options{}, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if r.Objects != 3 {
+		t.Errorf("%d objects on images without IDs, want 3", r.Objects)
+	}
+	withIDs, _ := Compare(scene(), 2, Options{}, nil)
+	if r.Alpha.Alpha != withIDs.Alpha.Alpha || r.Alpha.Units != withIDs.Alpha.Units {
+		t.Errorf("alpha %+v without image IDs, %+v with", r.Alpha, withIDs.Alpha)
+	}
+}
+
+// Class IDs far apart (rated through a map) and many classes (seen
+// through a map) give the figures of the same scene with small IDs:
+// agreement does not depend on how classes are numbered.
+func TestCompareClassNumbering(t *testing.T) {
+	relabel := func(ims []ImageLabels, f func(int64) int64) []ImageLabels {
+		for i := range ims {
+			for a := range ims[i].By {
+				cs := append([]int64(nil), ims[i].By[a].Classes...)
+				for k := range cs {
+					cs[k] = f(cs[k])
+				}
+				ims[i].By[a].Classes = cs
+			}
+		}
+		return ims
+	}
+	base := reportBenchImages(400, 2, 20)
+	many := reportBenchImages(400, 2, 20)
+	// 40 classes: each image's classes shifted by its index.
+	for i := range base {
+		shift := int64(i%10) * 4
+		for a := range base[i].By {
+			for k := range base[i].By[a].Classes {
+				base[i].By[a].Classes[k] += shift
+				many[i].By[a].Classes[k] += shift
+			}
+		}
+	}
+	want, err := Compare(base, 2, Options{}, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	got, err := Compare(relabel(many, func(c int64) int64 { return c * 1_000_000_007 }), 2, Options{}, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(want.Pairs[0].Classes) != 40 {
+		t.Fatalf("%d classes, want 40", len(want.Pairs[0].Classes))
+	}
+	if got.Alpha.Alpha != want.Alpha.Alpha || got.Objects != want.Objects || got.Pairs[0].Kappa.Kappa != want.Pairs[0].Kappa.Kappa {
+		t.Errorf("far-apart class IDs: alpha %v, %d objects, kappa %v; small IDs: %v, %d, %v",
+			got.Alpha.Alpha, got.Objects, got.Pairs[0].Kappa.Kappa, want.Alpha.Alpha, want.Objects, want.Pairs[0].Kappa.Kappa)
+	}
+}
