@@ -7,24 +7,45 @@ import "math"
 // number of ground-truth boxes (those never found lower the recall). It is
 // NaN when nTruth is 0.
 func AveragePrecision(tp []bool, nTruth int, interp Interpolation) float64 {
+	return averagePrecision(tp, nTruth, interp, false, nil)
+}
+
+// averagePrecision is AveragePrecision with the COCO evaluation tool's
+// recall levels for Point101 when cocoLevels is set; env, when not nil, is
+// scratch storage it reuses.
+func averagePrecision(tp []bool, nTruth int, interp Interpolation, cocoLevels bool, env *[]float64) float64 {
 	if nTruth <= 0 {
 		return math.NaN()
 	}
+	var buf []float64
+	if env != nil {
+		buf = *env
+	}
+	defer func() {
+		if env != nil {
+			*env = buf
+		}
+	}()
 	switch interp {
 	case Step:
 		return AveragePrecisionStep(tp, nTruth)
 	case ElevenPoint:
-		return levels(tp, nTruth, 10)
+		buf = envelope(tp, buf)
+		return levels(tp, buf, nTruth, 10)
 	case Point101:
-		return levels(tp, nTruth, 100)
+		buf = envelope(tp, buf)
+		if cocoLevels {
+			return levelsCOCO(tp, buf, nTruth)
+		}
+		return levels(tp, buf, nTruth, 100)
 	case AllPoint:
 		// Recall only rises at true positives, by 1/nTruth each; the area
 		// under the envelope is the envelope's precision there times 1/nTruth.
-		env := envelope(tp)
+		buf = envelope(tp, buf)
 		s := 0.0
 		for i, t := range tp {
 			if t {
-				s += env[i]
+				s += buf[i]
 			}
 		}
 		return s / float64(nTruth)
@@ -50,9 +71,10 @@ func AveragePrecisionStep(tp []bool, nTruth int) float64 {
 }
 
 // envelope returns, per rank, the best precision at that rank or any later
-// one (so at that recall or higher).
-func envelope(tp []bool) []float64 {
-	env := make([]float64, len(tp))
+// one (so at that recall or higher), in buf's storage when it is large
+// enough.
+func envelope(tp []bool, buf []float64) []float64 {
+	env := grow(buf, len(tp))
 	hits := 0
 	for i, t := range tp {
 		if t {
@@ -69,10 +91,10 @@ func envelope(tp []bool) []float64 {
 }
 
 // levels averages, over recall levels r = k/steps for k = 0…steps, the best
-// precision at recall ≥ r (0 when the list never reaches r). Recall ≥ k/steps
-// is tested as hits·steps ≥ k·nTruth so decimal levels are exact.
-func levels(tp []bool, nTruth, steps int) float64 {
-	env := envelope(tp)
+// precision at recall ≥ r (0 when the list never reaches r), env being tp's
+// envelope. Recall ≥ k/steps is tested as hits·steps ≥ k·nTruth so decimal
+// levels are exact.
+func levels(tp []bool, env []float64, nTruth, steps int) float64 {
 	s, hits, k := 0.0, 0, 0
 	// The envelope at the first rank reaching a level is the best precision
 	// at that recall or beyond; recall only rises at true positives.
@@ -91,4 +113,29 @@ func levels(tp []bool, nTruth, steps int) float64 {
 		}
 	}
 	return s / float64(steps+1)
+}
+
+// levelsCOCO is levels at the COCO evaluation tool's 101 recall levels
+// (cocoRecallLevels), with recall computed as it does, hits/nTruth in
+// float64, and a level reached when the recall is at or above it (its
+// searchsorted(side='left')).
+func levelsCOCO(tp []bool, env []float64, nTruth int) float64 {
+	s, hits, k := 0.0, 0, 1
+	if len(tp) > 0 {
+		s += env[0] // level 0
+	}
+	n := float64(nTruth)
+	last := len(cocoRecallLevels) - 1
+	for i, t := range tp {
+		if !t {
+			continue
+		}
+		hits++
+		rc := float64(hits) / n
+		for k <= last && rc >= cocoRecallLevels[k] {
+			s += env[i]
+			k++
+		}
+	}
+	return s / float64(last+1)
 }

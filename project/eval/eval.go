@@ -144,13 +144,13 @@ func ParseInterpolation(s string) (Interpolation, error) {
 type AreaRange int
 
 const (
-	// All keeps every size.
+	// All keeps every size up to 1e5² (as the COCO evaluation tool).
 	All AreaRange = iota
-	// Small keeps areas below 32².
+	// Small keeps areas up to 32² inclusive.
 	Small
 	// Medium keeps areas from 32² to 96² inclusive.
 	Medium
-	// Large keeps areas above 96².
+	// Large keeps areas from 96² (inclusive) to 1e5².
 	Large
 )
 
@@ -169,17 +169,20 @@ func (a AreaRange) String() string {
 	return fmt.Sprintf("AreaRange(%d)", int(a))
 }
 
-// contains reports whether an area lies in the range.
+// contains reports whether an area lies in the range. The bounds are the
+// COCO evaluation tool's, both inclusive: all [0, 1e5²], small [0, 32²],
+// medium [32², 96²], large [96², 1e5²].
 func (a AreaRange) contains(area float64) bool {
+	const top = 1e5 * 1e5
 	switch a {
 	case Small:
-		return area < 32*32
+		return area <= 32*32
 	case Medium:
 		return area >= 32*32 && area <= 96*96
 	case Large:
-		return area > 96*96
+		return area >= 96*96 && area <= top
 	}
-	return true
+	return area <= top
 }
 
 // Truth is one ground-truth box.
@@ -220,8 +223,9 @@ type Options struct {
 	// PlusOne uses pixel-inclusive areas (x1−x0+1)(y1−y0+1) as older
 	// toolkits did; otherwise areas are continuous.
 	PlusOne bool
-	// MaxDetections caps COCO predictions per image, highest scores kept;
-	// 0 means 100 and a negative value means no cap.
+	// MaxDetections caps COCO predictions per image and class, highest
+	// scores kept (as the COCO evaluation tool cuts them); 0 means 100 and
+	// a negative value means no cap.
 	MaxDetections int
 	// AreaRange limits COCO evaluation to one size of object.
 	AreaRange AreaRange
@@ -230,16 +234,32 @@ type Options struct {
 	ScoreThreshold float64
 }
 
-// COCOThresholds returns 0.50, 0.55, …, 0.95, each computed as k/100 so that
-// every value is the float64 nearest the decimal (0.80 is 0.8, not
-// 0.8000000000000002).
+// COCOThresholds returns the ten IoU thresholds 0.50:0.05:0.95 as the COCO
+// evaluation tool computes them, np.linspace(.5, .95, 10): start + k·step
+// with step = (0.95 − 0.5)/9 in float64 and the last exactly 0.95. So 0.9
+// is 0.8999999999999999; the others are the float64 nearest their decimal.
 func COCOThresholds() []float64 {
-	t := make([]float64, 0, 10)
-	for k := 50; k <= 95; k += 5 {
-		t = append(t, float64(k)/100)
-	}
-	return t
+	return linspace(0.5, 0.95, 10)
 }
+
+// linspace is numpy's linspace(start, stop, num) with endpoint: y_k =
+// k·step + start with step = (stop − start)/(num − 1), each operation
+// rounded to float64 (the conversions keep the compiler from fusing them),
+// and y_{num−1} = stop.
+func linspace(start, stop float64, num int) []float64 {
+	step := float64(stop-start) / float64(num-1)
+	y := make([]float64, num)
+	for k := range y {
+		y[k] = float64(float64(k)*step) + start
+	}
+	y[num-1] = stop
+	return y
+}
+
+// cocoRecallLevels are the COCO evaluation tool's recall levels
+// np.linspace(0, 1, 101): k·0.01 in float64, so ten of them (0.35, 0.41,
+// 0.47, 0.57, 0.69, 0.70, 0.82, 0.83, 0.94, 0.95) lie one ulp above k/100.
+var cocoRecallLevels = linspace(0, 1, 101)
 
 // area is the box area under the chosen convention.
 func area(b project.Box, plusOne bool) float64 {
@@ -367,6 +387,9 @@ func checkInputs(truths []Truth, preds []Prediction, opt Options) (first float64
 	if opt.Interpolation < AllPoint || opt.Interpolation > Step {
 		return 0, nil, fmt.Errorf("eval: unknown interpolation %d", int(opt.Interpolation))
 	}
+	if len(truths) > math.MaxInt32 || len(preds) > math.MaxInt32 {
+		return 0, nil, fmt.Errorf("eval: %d truths and %d predictions: at most %d of each", len(truths), len(preds), math.MaxInt32)
+	}
 	for i, t := range truths {
 		if !t.Box.Valid() {
 			return 0, nil, fmt.Errorf("eval: truth %d (ref %d): invalid box %v", i, t.Ref, t.Box)
@@ -418,23 +441,36 @@ type evaluation struct {
 	preds   []Prediction
 	opt     Options
 	coco    bool
-	truthIg []bool // truths that do not count
-	order   []int  // prediction indices by descending score, stable
-	dropped []bool // COCO predictions beyond MaxDetections on their image
+	maxDet  int     // COCO cap per image and class; 0 for none
+	truthIg []bool  // truths that do not count
+	order   []int32 // prediction indices in rank order
 
 	// Set by groupByImageClass.
-	groups      []*group        // by image, then class
-	classTruths map[int64]int   // counted truths, for every class with truths
-	classPreds  map[int64][]int // input indices in score order
+	classIDs    []int64 // ascending; dense class k is classIDs[k]
+	truthClass  []int32 // dense class of each truth
+	predClass   []int32 // dense class of each prediction
+	classTruths []int   // counted truths per dense class
+	classOff    []int32 // class k's predictions are classRanked[classOff[k]:classOff[k+1]]
+	classRanked []int32 // predictions by class, each class in rank order
+	gTruths     []int32 // truth indices by group
+	gPreds      []int32 // prediction indices by group
+	groups      []group
+	dropped     []int32 // COCO predictions beyond the cap of their group
 }
 
-// newEvaluation runs the stages that need no grouping: ignored truths,
-// the score ranking and the MaxDetections cut.
+// newEvaluation runs the stages that need no grouping: ignored truths and
+// the score ranking.
 func newEvaluation(truths []Truth, preds []Prediction, opt Options) *evaluation {
 	e := &evaluation{truths: truths, preds: preds, opt: opt, coco: opt.Protocol == COCO}
+	if e.coco {
+		e.maxDet = opt.MaxDetections
+		if e.maxDet == 0 {
+			e.maxDet = 100
+		}
+		e.maxDet = max(e.maxDet, 0)
+	}
 	e.truthIg = e.ignoredTruths()
-	e.order = rankByScore(preds)
-	e.dropped = e.overMaxDetections()
+	e.order = rankByScore(preds, e.coco)
 	return e
 }
 
@@ -448,40 +484,41 @@ func (e *evaluation) ignoredTruths() []bool {
 	return truthIg
 }
 
-// rankByScore ranks all predictions once; groups and classes inherit the
-// order.
-func rankByScore(preds []Prediction) []int {
-	order := make([]int, len(preds))
-	for i := range order {
-		order[i] = i
-	}
-	// Scores are finite (checkInputs), so cmp.Compare's NaN order never
-	// applies.
-	slices.SortStableFunc(order, func(a, b int) int { return cmp.Compare(preds[b].Score, preds[a].Score) })
-	return order
+// rankKey is what the ranking sorts.
+type rankKey struct {
+	score float64
+	image int64
+	index int32
 }
 
-// overMaxDetections marks, under COCO, the predictions that rank beyond
-// MaxDetections on their image.
-func (e *evaluation) overMaxDetections() []bool {
-	dropped := make([]bool, len(e.preds))
-	if e.coco {
-		maxDet := e.opt.MaxDetections
-		if maxDet == 0 {
-			maxDet = 100
-		}
-		if maxDet > 0 {
-			perImage := make(map[int64]int)
-			for _, i := range e.order {
-				n := perImage[e.preds[i].ImageID]
-				if n >= maxDet {
-					dropped[i] = true
-				}
-				perImage[e.preds[i].ImageID] = n + 1
-			}
+// rankByScore ranks all predictions once, by descending score, equal
+// scores by input order; under COCO equal scores go by image ID first,
+// then input order, as the COCO evaluation tool ranks them. Groups and
+// classes inherit the order. Every key is distinct, so an unstable sort
+// gives the one order.
+func rankByScore(preds []Prediction, coco bool) []int32 {
+	keys := make([]rankKey, len(preds))
+	for i, p := range preds {
+		keys[i] = rankKey{score: p.Score, index: int32(i)}
+		if coco {
+			keys[i].image = p.ImageID
 		}
 	}
-	return dropped
+	// Scores are finite (checkInputs), so plain comparisons order them.
+	slices.SortFunc(keys, func(a, b rankKey) int {
+		switch {
+		case a.score > b.score:
+			return -1
+		case a.score < b.score:
+			return 1
+		}
+		return cmp.Or(cmp.Compare(a.image, b.image), cmp.Compare(a.index, b.index))
+	})
+	order := make([]int32, len(preds))
+	for i, k := range keys {
+		order[i] = k.index
+	}
+	return order
 }
 
 // predictionResults starts the result with the per-prediction and
@@ -493,7 +530,7 @@ func (e *evaluation) predictionResults(outs outcomes) Result {
 		PredIgnored:  make([]bool, len(e.preds)),
 		TruthMatched: make([]bool, len(e.truths)),
 	}
-	for i, o := range outs.first {
+	for i, o := range outs.o[outs.first] {
 		res.PredTP[i] = o == outTP
 		res.PredIgnored[i] = o == outIgnored
 		if outs.match[i] >= 0 {
@@ -501,19 +538,4 @@ func (e *evaluation) predictionResults(outs outcomes) Result {
 		}
 	}
 	return res
-}
-
-// classIDs lists every class that has truths or predictions, ascending.
-func (e *evaluation) classIDs() []int64 {
-	ids := make([]int64, 0, len(e.classTruths)+len(e.classPreds))
-	for c := range e.classTruths {
-		ids = append(ids, c)
-	}
-	for c := range e.classPreds {
-		if _, ok := e.classTruths[c]; !ok {
-			ids = append(ids, c)
-		}
-	}
-	slices.Sort(ids)
-	return ids
 }

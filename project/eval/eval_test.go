@@ -1,7 +1,9 @@
 package eval
 
 import (
+	"encoding/json"
 	"math"
+	"os/exec"
 	"slices"
 	"testing"
 
@@ -79,12 +81,63 @@ func TestRecallLevelsExact(t *testing.T) {
 }
 
 // TestCOCOThresholds: the ten thresholds 0.50:0.05:0.95 of the COCO
-// detection evaluation (common practice), each the float64 nearest its
-// decimal.
+// detection evaluation (common practice) as the COCO evaluation tool makes
+// them, np.linspace(.5, .95, 10) (its Params, from memory); the values are
+// numpy 1.24.2's (Debian 12 python3-numpy), printed with repr: only .90
+// differs from its decimal. Where /usr/bin/python3 has numpy the test asks
+// it as well.
 func TestCOCOThresholds(t *testing.T) {
-	want := []float64{0.50, 0.55, 0.60, 0.65, 0.70, 0.75, 0.80, 0.85, 0.90, 0.95}
-	if got := COCOThresholds(); !slices.Equal(got, want) {
+	want := []float64{0.5, 0.55, 0.6, 0.65, 0.7, 0.75, 0.8, 0.85, 0.8999999999999999, 0.95}
+	got := COCOThresholds()
+	if !slices.Equal(got, want) {
 		t.Errorf("COCOThresholds() = %v, want %v", got, want)
+	}
+	// np.linspace(0, 1, 101): levels 35, 41, 47, 57, 69, 70, 82, 83, 94
+	// and 95 differ from k/100, each one ulp above (numpy 1.24.2).
+	var above []int
+	for k, r := range cocoRecallLevels {
+		if r != float64(k)/100 {
+			above = append(above, k)
+			if r != math.Nextafter(float64(k)/100, 2) {
+				t.Errorf("recall level %d = %v, not one ulp above %v", k, r, float64(k)/100)
+			}
+		}
+	}
+	if want := []int{35, 41, 47, 57, 69, 70, 82, 83, 94, 95}; !slices.Equal(above, want) || len(cocoRecallLevels) != 101 || cocoRecallLevels[100] != 1 {
+		t.Errorf("recall levels off k/100 at %v, want %v", above, want)
+	}
+	out, err := exec.Command("/usr/bin/python3", "-c",
+		"import numpy as np, json; print(json.dumps([np.linspace(.5, .95, 10).tolist(), np.linspace(0, 1, 101).tolist()]))").Output()
+	if err != nil {
+		t.Logf("numpy not at hand (%v): the hard-coded values only", err)
+		return
+	}
+	var np [2][]float64
+	if err := json.Unmarshal(out, &np); err != nil {
+		t.Fatalf("numpy printed %q: %v", out, err)
+	}
+	if !slices.Equal(np[0], got) || !slices.Equal(np[1], cocoRecallLevels) {
+		t.Errorf("numpy's linspace %v and %v, ours %v and %v", np[0], np[1], got, cocoRecallLevels)
+	}
+}
+
+// TestCOCOThresholdOne: COCOeval matches at min(t, 1−1e-10) (its
+// evaluateImg, from memory; testdata/coco_reference.py), so at threshold 1
+// a prediction whose IoU rounding left a hair below 1 still matches: truth
+// [0,10]², prediction [0,10]×[0,10+1e-12], IoU 100/(100+1e-11).
+func TestCOCOThresholdOne(t *testing.T) {
+	truths := []Truth{{ImageID: 1, ClassID: 1, Box: bx(0, 0, 10, 10)}}
+	preds := []Prediction{{ImageID: 1, ClassID: 1, Box: bx(0, 0, 10, 10+1e-12), Score: 1}}
+	if v := IoU(preds[0].Box, truths[0].Box, false); !(v < 1 && v >= 1-1e-10) {
+		t.Fatalf("IoU %v, want just below 1", v)
+	}
+	r := mustEval(t, truths, preds, Options{Protocol: COCO, IoUs: []float64{1}})
+	if !r.PredTP[0] || r.MAP != 1 {
+		t.Errorf("COCO at threshold 1: TP %v AP %v, want a match and AP 1", r.PredTP[0], r.MAP)
+	}
+	// VOC keeps the plain comparison: IoU < 1 misses threshold 1.
+	if r := mustEval(t, truths, preds, Options{Protocol: VOC, IoU: 1}); r.PredTP[0] {
+		t.Error("VOC at threshold 1 matched IoU below 1")
 	}
 }
 
@@ -250,28 +303,49 @@ func TestCOCOAreaRange(t *testing.T) {
 	if c := r.Classes[0]; c.Truths != 0 || c.TP != 0 || c.FP != 0 || !math.IsNaN(c.AP) || !math.IsNaN(r.MAP) {
 		t.Errorf("medium: truths %d TP %d FP %d AP %v mAP %v", c.Truths, c.TP, c.FP, c.AP, r.MAP)
 	}
-	// 32² is medium, not small.
-	if Small.contains(32*32) || !Medium.contains(32*32) || !Medium.contains(96*96) || !Large.contains(96*96+1) {
-		t.Error("area range bounds")
+	// COCOeval's ranges include both bounds (its Params.areaRng [0, 32²],
+	// [32², 96²], [96², 1e5²] and [0, 1e5²] for all, from memory): 32² is
+	// small and medium, 96² medium and large (TestCOCOevalDifferences
+	// checks this against the transcription). Before Evaluate followed the
+	// tool, small and large excluded the bounds.
+	for _, c := range []struct {
+		a    AreaRange
+		area float64
+		want bool
+	}{
+		{Small, 32 * 32, true}, {Small, 32*32 + 1e-9, false},
+		{Medium, 32*32 - 1e-9, false}, {Medium, 32 * 32, true}, {Medium, 96 * 96, true}, {Medium, 96*96 + 1e-9, false},
+		{Large, 96*96 - 1e-9, false}, {Large, 96 * 96, true}, {Large, 1e10, true}, {Large, 1e10 + 1e-3, false},
+		{All, 0, true}, {All, 1e10, true}, {All, 1e10 + 1e-3, false},
+	} {
+		if got := c.a.contains(c.area); got != c.want {
+			t.Errorf("%v contains %v: %v, want %v", c.a, c.area, got, c.want)
+		}
 	}
 }
 
-// TestCOCOMaxDetections: only the highest-scoring MaxDetections per image,
-// over all classes, are counted.
+// TestCOCOMaxDetections: only the highest-scoring MaxDetections per image
+// and class are counted, as COCOeval cuts them (maxDets per image and
+// category, from memory; TestCOCOevalDifferences checks it against the
+// transcription). Before Evaluate followed the tool, the cap was per image
+// over all classes, and the class-2 box here used up one of image 1's two
+// places.
 func TestCOCOMaxDetections(t *testing.T) {
 	truths := []Truth{{ImageID: 1, ClassID: 1, Box: bx(0, 0, 10, 10)}, {ImageID: 2, ClassID: 1, Box: bx(0, 0, 10, 10)}}
 	preds := []Prediction{
-		{ImageID: 1, ClassID: 1, Box: bx(0, 0, 10, 10), Score: 0.1}, // lowest on image 1: dropped
+		{ImageID: 1, ClassID: 1, Box: bx(0, 0, 10, 10), Score: 0.1}, // lowest of class 1 on image 1: dropped
 		{ImageID: 1, ClassID: 2, Box: bx(50, 50, 60, 60), Score: 0.9},
 		{ImageID: 1, ClassID: 1, Box: bx(80, 80, 90, 90), Score: 0.5},
+		{ImageID: 1, ClassID: 1, Box: bx(80, 0, 90, 10), Score: 0.3},
+		{ImageID: 1, ClassID: 2, Box: bx(50, 0, 60, 10), Score: 0.2}, // class 2's second: kept
 		{ImageID: 2, ClassID: 1, Box: bx(0, 0, 10, 10), Score: 0.05}, // own image: kept
 	}
 	r := mustEval(t, truths, preds, Options{Protocol: COCO, MaxDetections: 2})
-	if want := []bool{true, false, false, false}; !slices.Equal(r.PredIgnored, want) {
+	if want := []bool{true, false, false, false, false, false}; !slices.Equal(r.PredIgnored, want) {
 		t.Errorf("ignored %v, want %v", r.PredIgnored, want)
 	}
-	if r.Classes[0].TP != 1 || r.Classes[0].FP != 1 {
-		t.Errorf("class 1 TP %d FP %d, want 1 1", r.Classes[0].TP, r.Classes[0].FP)
+	if r.Classes[0].TP != 1 || r.Classes[0].FP != 2 || r.Classes[1].FP != 2 {
+		t.Errorf("class 1 TP %d FP %d, class 2 FP %d; want 1 2 2", r.Classes[0].TP, r.Classes[0].FP, r.Classes[1].FP)
 	}
 	r = mustEval(t, truths, preds, Options{Protocol: COCO, MaxDetections: -1})
 	if r.Classes[0].TP != 2 {

@@ -1,76 +1,107 @@
 package eval
 
 import (
-	"cmp"
 	"math"
-	"slices"
 )
 
-// apScorer computes AP from outcomes, reusing one buffer for all classes.
+// apScorer computes AP from outcomes, reusing its buffers.
 type apScorer struct {
-	interp Interpolation
-	tp     []bool
+	interp     Interpolation
+	cocoLevels bool // Point101 at the COCO evaluation tool's recall levels
+	tp         []bool
+	env        []float64
 }
 
 // at is the AP of the ranked predictions under outcomes o with n truths;
 // ignored predictions are left out of the ranking.
-func (a *apScorer) at(ranked []int, o []int8, n int) float64 {
+func (a *apScorer) at(ranked []int32, o []int8, n int) float64 {
+	if n <= 0 {
+		return math.NaN()
+	}
 	a.tp = a.tp[:0]
 	for _, i := range ranked {
 		if o[i] != outIgnored {
 			a.tp = append(a.tp, o[i] == outTP)
 		}
 	}
-	return AveragePrecision(a.tp, n, a.interp)
+	return averagePrecision(a.tp, n, a.interp, a.cocoLevels, &a.env)
 }
 
-// mean is the mean of at over several thresholds' outcomes.
-func (a *apScorer) mean(ranked []int, outs [][]int8, n int) float64 {
+// mean is the mean of the APs ap[u] over the thresholds us.
+func mean(ap []float64, us []int) float64 {
 	s := 0.0
-	for _, o := range outs {
-		s += a.at(ranked, o, n)
+	for _, u := range us {
+		s += ap[u]
 	}
-	return s / float64(len(outs))
+	return s / float64(len(us))
 }
 
 // pool gathers the counted predictions of all classes for the pooled
 // figures.
 type pool struct {
-	list      []scored // class after class, each in score order
+	list      []scored // in score order
 	tp, fp, n int      // tp and fp at Options.ScoreThreshold; n truths
 }
 
-// classResults computes each class's figures in classIDs order and pools
-// their predictions.
+// classResults computes each class's figures in classIDs order, classes
+// shared out over GOMAXPROCS goroutines, and pools their predictions.
 func (e *evaluation) classResults(outs outcomes) ([]ClassResult, pool) {
-	ap := &apScorer{interp: e.opt.Interpolation}
-	var classes []ClassResult
+	nc := len(e.classIDs)
+	classes := make([]ClassResult, nc)
+	tpAt, fpAt := make([]int, nc), make([]int, nc)
+	parallel(nc, len(e.preds), func(lo, hi int) {
+		ap := &apScorer{interp: e.opt.Interpolation, cocoLevels: e.coco}
+		var list []scored
+		for c := lo; c < hi; c++ {
+			classes[c], list, tpAt[c], fpAt[c] = e.classResult(c, outs, ap, list[:0])
+		}
+	})
 	var p pool
-	for _, c := range e.classIDs() {
-		cr, list, tpAt, fpAt := e.classResult(c, outs, ap)
-		p.tp += tpAt
-		p.fp += fpAt
-		p.n += cr.Truths
-		p.list = append(p.list, list...)
-		classes = append(classes, cr)
+	for c := range classes {
+		p.tp += tpAt[c]
+		p.fp += fpAt[c]
+		p.n += classes[c].Truths
+	}
+	// The ranking is in score order already; ties may come in any order,
+	// as bestF1 only cuts where the score changes.
+	first := outs.o[outs.first]
+	p.list = make([]scored, 0, len(e.order))
+	for _, i := range e.order {
+		if first[i] != outIgnored {
+			p.list = append(p.list, scored{e.preds[i].Score, first[i] == outTP})
+		}
 	}
 	return classes, p
 }
 
-// classResult computes the figures of class c. It also returns the class's
-// counted predictions in score order and its TP and FP at
-// Options.ScoreThreshold, for pooling.
-func (e *evaluation) classResult(c int64, outs outcomes, ap *apScorer) (cr ClassResult, list []scored, tpAt, fpAt int) {
-	ranked := e.classPreds[c]
+// classResult computes the figures of dense class c, using list as
+// scratch. It also returns its TP and FP at Options.ScoreThreshold, for
+// pooling.
+func (e *evaluation) classResult(c int, outs outcomes, ap *apScorer, list []scored) (cr ClassResult, _ []scored, tpAt, fpAt int) {
+	ranked := e.classRanked[e.classOff[c]:e.classOff[c+1]]
 	n := e.classTruths[c]
-	cr = ClassResult{ClassID: c, Truths: n, Predictions: len(ranked)}
-	cr.AP = ap.mean(ranked, outs.main, n)
-	cr.AP50 = ap.at(ranked, outs.at50, n)
-	cr.AP75 = ap.at(ranked, outs.at75, n)
-	cr.AP50_95 = ap.mean(ranked, outs.coco, n)
+	cr = ClassResult{ClassID: e.classIDs[c], Truths: n, Predictions: len(ranked)}
+	aps := make([]float64, len(outs.thr))
+	for u, o := range outs.o {
+		aps[u] = ap.at(ranked, o, n)
+	}
+	cr.AP = mean(aps, outs.main)
+	cr.AP50 = aps[outs.at50]
+	cr.AP75 = aps[outs.at75]
+	cr.AP50_95 = mean(aps, outs.coco)
 
+	first := outs.o[outs.first]
+	counted := 0
 	for _, i := range ranked {
-		switch outs.first[i] {
+		if first[i] != outIgnored {
+			counted++
+		}
+	}
+	if counted > 0 {
+		cr.Curve = make([]Point, 0, counted)
+	}
+	for _, i := range ranked {
+		switch first[i] {
 		case outIgnored:
 			continue
 		case outTP:
@@ -78,7 +109,7 @@ func (e *evaluation) classResult(c int64, outs outcomes, ap *apScorer) (cr Class
 		default:
 			cr.FP++
 		}
-		isTP := outs.first[i] == outTP
+		isTP := first[i] == outTP
 		list = append(list, scored{e.preds[i].Score, isTP})
 		cr.Curve = append(cr.Curve, Point{
 			Recall:    ratio(cr.TP, n),
@@ -119,7 +150,6 @@ func summarize(res *Result, p pool) {
 		res.MAP, res.AP50, res.AP75, res.AP50_95 = math.NaN(), math.NaN(), math.NaN(), math.NaN()
 	}
 	res.Precision, res.Recall, res.F1 = prf(p.tp, p.fp, p.n)
-	slices.SortStableFunc(p.list, func(a, b scored) int { return cmp.Compare(b.score, a.score) })
 	res.BestF1, res.BestF1Threshold = bestF1(p.list, p.n)
 }
 
