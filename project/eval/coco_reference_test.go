@@ -76,7 +76,8 @@ func needNumpy(t *testing.T) {
 // included. "over the cap" has about 150 predictions per image and class,
 // so COCOeval's cut at 100 per image and class applies; "ties" rounds the
 // scores to twentieths (equal scores within and across images) and repeats
-// every fifth truth box (equal IoU).
+// every fifth truth box (equal IoUs; identical truths are interchangeable,
+// so the rule for equal IoU itself is pinned by TestCOCOevalDifferences).
 func TestCOCOAgainstReference(t *testing.T) {
 	needNumpy(t)
 	cases := []struct {

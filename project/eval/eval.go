@@ -484,41 +484,86 @@ func (e *evaluation) ignoredTruths() []bool {
 	return truthIg
 }
 
-// rankKey is what the ranking sorts.
-type rankKey struct {
-	score float64
-	image int64
-	index int32
-}
-
 // rankByScore ranks all predictions once, by descending score, equal
 // scores by input order; under COCO equal scores go by image ID first,
 // then input order, as the COCO evaluation tool ranks them. Groups and
-// classes inherit the order. Every key is distinct, so an unstable sort
-// gives the one order.
+// classes inherit the order. A stable radix sort on the scores' bits keeps
+// input order among equal scores; runs of equal scores are then sorted by
+// image under COCO.
 func rankByScore(preds []Prediction, coco bool) []int32 {
-	keys := make([]rankKey, len(preds))
+	n := len(preds)
+	keys, order := make([]uint64, n), make([]int32, n)
 	for i, p := range preds {
-		keys[i] = rankKey{score: p.Score, index: int32(i)}
-		if coco {
-			keys[i].image = p.ImageID
-		}
+		keys[i], order[i] = descendingKey(p.Score), int32(i)
 	}
-	// Scores are finite (checkInputs), so plain comparisons order them.
-	slices.SortFunc(keys, func(a, b rankKey) int {
-		switch {
-		case a.score > b.score:
-			return -1
-		case a.score < b.score:
-			return 1
+	radixSort(keys, order)
+	if coco {
+		for lo := 0; lo < n; {
+			hi := lo + 1
+			for hi < n && keys[hi] == keys[lo] {
+				hi++
+			}
+			if hi-lo > 1 {
+				slices.SortFunc(order[lo:hi], func(a, b int32) int {
+					return cmp.Or(cmp.Compare(preds[a].ImageID, preds[b].ImageID), cmp.Compare(a, b))
+				})
+			}
+			lo = hi
 		}
-		return cmp.Or(cmp.Compare(a.image, b.image), cmp.Compare(a.index, b.index))
-	})
-	order := make([]int32, len(preds))
-	for i, k := range keys {
-		order[i] = k.index
 	}
 	return order
+}
+
+// descendingKey maps a finite score to a key whose ascending order is the
+// scores' descending order; 0 and −0 get the same key.
+func descendingKey(s float64) uint64 {
+	if s == 0 {
+		s = 0
+	}
+	b := math.Float64bits(s)
+	if b>>63 != 0 {
+		b = ^b // negative: larger magnitude sorts lower
+	} else {
+		b |= 1 << 63
+	}
+	return ^b
+}
+
+// radixSort sorts keys ascending, carrying vals along, stably: a
+// least-significant-digit radix sort on bytes that skips the bytes all keys
+// share.
+func radixSort(keys []uint64, vals []int32) {
+	n := len(keys)
+	var hist [8][256]int
+	for _, k := range keys {
+		for d := range 8 {
+			hist[d][byte(k>>(8*d))]++
+		}
+	}
+	srcK, srcV := keys, vals
+	dstK, dstV := make([]uint64, n), make([]int32, n)
+	for d := range 8 {
+		h := &hist[d]
+		if n == 0 || h[byte(srcK[0]>>(8*d))] == n {
+			continue // every key has this byte
+		}
+		pos := 0
+		for b := range h {
+			c := h[b]
+			h[b] = pos
+			pos += c
+		}
+		for i, k := range srcK {
+			b := byte(k >> (8 * d))
+			dstK[h[b]], dstV[h[b]] = k, srcV[i]
+			h[b]++
+		}
+		srcK, dstK, srcV, dstV = dstK, srcK, dstV, srcV
+	}
+	if n > 0 && &srcK[0] != &keys[0] {
+		copy(keys, srcK)
+		copy(vals, srcV)
+	}
 }
 
 // predictionResults starts the result with the per-prediction and
@@ -530,7 +575,9 @@ func (e *evaluation) predictionResults(outs outcomes) Result {
 		PredIgnored:  make([]bool, len(e.preds)),
 		TruthMatched: make([]bool, len(e.truths)),
 	}
-	for i, o := range outs.o[outs.first] {
+	nu := len(outs.thr)
+	for i := range e.preds {
+		o := outs.o[i*nu+outs.first]
 		res.PredTP[i] = o == outTP
 		res.PredIgnored[i] = o == outIgnored
 		if outs.match[i] >= 0 {

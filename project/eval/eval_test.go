@@ -1,8 +1,10 @@
 package eval
 
 import (
+	"cmp"
 	"encoding/json"
 	"math"
+	"math/rand/v2"
 	"os/exec"
 	"slices"
 	"testing"
@@ -189,6 +191,44 @@ func TestStableTies(t *testing.T) {
 			t.Errorf("%v reversed: TP flags %v, want the first listed", p, r.PredTP)
 		}
 		slices.Reverse(preds)
+	}
+}
+
+// TestRankByScore: the radix ranking equals a stable comparison sort by
+// descending score (COCO: then by image ID) on scores with ties, negative
+// values, ±0, tiny and huge magnitudes, for list lengths around the sort's
+// edge cases.
+func TestRankByScore(t *testing.T) {
+	r := rand.New(rand.NewPCG(9, 9))
+	pool := []float64{0, math.Copysign(0, -1), 1, -1, 0.5, -0.5, 1e-300, -1e-300, 1e300, -1e300,
+		math.SmallestNonzeroFloat64, -math.MaxFloat64, math.MaxFloat64, 0.25, 0.75}
+	for _, n := range []int{0, 1, 2, 3, 17, 300, 5000} {
+		preds := make([]Prediction, n)
+		for i := range preds {
+			s := r.Float64()*2 - 1
+			if r.IntN(3) == 0 {
+				s = pool[r.IntN(len(pool))]
+			}
+			preds[i] = Prediction{ImageID: int64(r.IntN(7)), Score: s}
+		}
+		for _, coco := range []bool{false, true} {
+			want := make([]int32, n)
+			for i := range want {
+				want[i] = int32(i)
+			}
+			slices.SortStableFunc(want, func(a, b int32) int {
+				if c := cmp.Compare(preds[b].Score, preds[a].Score); c != 0 {
+					return c
+				}
+				if coco {
+					return cmp.Compare(preds[a].ImageID, preds[b].ImageID)
+				}
+				return 0
+			})
+			if got := rankByScore(preds, coco); !slices.Equal(got, want) {
+				t.Errorf("n %d coco %v: order %v, want %v", n, coco, got, want)
+			}
+		}
 	}
 }
 

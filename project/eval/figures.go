@@ -4,27 +4,46 @@ import (
 	"math"
 )
 
-// apScorer computes AP from outcomes, reusing its buffers.
+// apScorer computes a class's AP at every threshold, reusing its buffers.
 type apScorer struct {
 	interp     Interpolation
-	cocoLevels bool // Point101 at the COCO evaluation tool's recall levels
-	tp         []bool
-	env        []float64
+	cocoLevels bool        // Point101 at the COCO evaluation tool's recall levels
+	counted    []int       // per threshold, predictions counted so far
+	prec       [][]float64 // per threshold, the precision at each true positive
 }
 
-// at is the AP of the ranked predictions under outcomes o with n truths;
-// ignored predictions are left out of the ranking.
-func (a *apScorer) at(ranked []int32, o []int8, n int) float64 {
+// all fills aps with the AP of the ranked predictions at each threshold
+// of outs, with n truths; ignored predictions are left out of the ranking.
+// One pass over the ranking serves every threshold.
+func (a *apScorer) all(ranked []int32, outs *outcomes, n int, aps []float64) {
+	nu := len(outs.thr)
 	if n <= 0 {
-		return math.NaN()
+		for u := range aps {
+			aps[u] = math.NaN()
+		}
+		return
 	}
-	a.tp = a.tp[:0]
+	a.counted = grow(a.counted, nu)
+	clear(a.counted)
+	a.prec = grow(a.prec, nu)
+	for u := range a.prec {
+		a.prec[u] = a.prec[u][:0]
+	}
 	for _, i := range ranked {
-		if o[i] != outIgnored {
-			a.tp = append(a.tp, o[i] == outTP)
+		row := outs.o[int(i)*nu : int(i)*nu+nu]
+		for u, o := range row {
+			if o == outIgnored {
+				continue
+			}
+			a.counted[u]++
+			if o == outTP {
+				a.prec[u] = append(a.prec[u], float64(len(a.prec[u])+1)/float64(a.counted[u]))
+			}
 		}
 	}
-	return averagePrecision(a.tp, n, a.interp, a.cocoLevels, &a.env)
+	for u := range aps {
+		aps[u] = apAtHits(a.prec[u], n, a.interp, a.cocoLevels)
+	}
 }
 
 // mean is the mean of the APs ap[u] over the thresholds us.
@@ -64,11 +83,11 @@ func (e *evaluation) classResults(outs outcomes) ([]ClassResult, pool) {
 	}
 	// The ranking is in score order already; ties may come in any order,
 	// as bestF1 only cuts where the score changes.
-	first := outs.o[outs.first]
+	nu := len(outs.thr)
 	p.list = make([]scored, 0, len(e.order))
 	for _, i := range e.order {
-		if first[i] != outIgnored {
-			p.list = append(p.list, scored{e.preds[i].Score, first[i] == outTP})
+		if o := outs.o[int(i)*nu+outs.first]; o != outIgnored {
+			p.list = append(p.list, scored{e.preds[i].Score, o == outTP})
 		}
 	}
 	return classes, p
@@ -82,18 +101,17 @@ func (e *evaluation) classResult(c int, outs outcomes, ap *apScorer, list []scor
 	n := e.classTruths[c]
 	cr = ClassResult{ClassID: e.classIDs[c], Truths: n, Predictions: len(ranked)}
 	aps := make([]float64, len(outs.thr))
-	for u, o := range outs.o {
-		aps[u] = ap.at(ranked, o, n)
-	}
+	ap.all(ranked, &outs, n, aps)
 	cr.AP = mean(aps, outs.main)
 	cr.AP50 = aps[outs.at50]
 	cr.AP75 = aps[outs.at75]
 	cr.AP50_95 = mean(aps, outs.coco)
 
-	first := outs.o[outs.first]
+	nu, fu := len(outs.thr), outs.first
+	first := func(i int32) int8 { return outs.o[int(i)*nu+fu] }
 	counted := 0
 	for _, i := range ranked {
-		if first[i] != outIgnored {
+		if first(i) != outIgnored {
 			counted++
 		}
 	}
@@ -101,7 +119,8 @@ func (e *evaluation) classResult(c int, outs outcomes, ap *apScorer, list []scor
 		cr.Curve = make([]Point, 0, counted)
 	}
 	for _, i := range ranked {
-		switch first[i] {
+		o := first(i)
+		switch o {
 		case outIgnored:
 			continue
 		case outTP:
@@ -109,7 +128,7 @@ func (e *evaluation) classResult(c int, outs outcomes, ap *apScorer, list []scor
 		default:
 			cr.FP++
 		}
-		isTP := first[i] == outTP
+		isTP := o == outTP
 		list = append(list, scored{e.preds[i].Score, isTP})
 		cr.Curve = append(cr.Curve, Point{
 			Recall:    ratio(cr.TP, n),

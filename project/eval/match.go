@@ -187,7 +187,7 @@ func countingSort(in []int32, bucket []int32, n int, off []int32) []int32 {
 // figures use.
 type outcomes struct {
 	thr   []float64 // distinct thresholds, in order of first use
-	o     [][]int8  // per threshold, per prediction
+	o     []int8    // prediction i at threshold u is o[i*len(thr)+u]
 	first int       // index of the first threshold: TP/FP, curve, matches
 	main  []int     // the thresholds AP averages over
 	at50  int
@@ -217,11 +217,7 @@ func newOutcomes(first float64, main []float64, n int) outcomes {
 	for _, t := range COCOThresholds() {
 		outs.coco = append(outs.coco, index(t))
 	}
-	buf := make([]int8, len(outs.thr)*n)
-	outs.o = make([][]int8, len(outs.thr))
-	for i := range outs.o {
-		outs.o[i] = buf[i*n : (i+1)*n : (i+1)*n]
-	}
+	outs.o = make([]int8, len(outs.thr)*n)
 	outs.match = make([]int, n)
 	for i := range outs.match {
 		outs.match[i] = -1
@@ -234,9 +230,10 @@ func newOutcomes(first float64, main []float64, n int) outcomes {
 // goroutines write disjoint entries.
 func (e *evaluation) matchAll(first float64, main []float64) outcomes {
 	outs := newOutcomes(first, main, len(e.preds))
+	nu := len(outs.thr)
 	for _, p := range e.dropped {
-		for u := range outs.o {
-			outs.o[u][p] = outIgnored
+		for u := range nu {
+			outs.o[int(p)*nu+u] = outIgnored
 		}
 	}
 	thr := make([]float64, len(outs.thr))
@@ -346,14 +343,15 @@ func (m *matcher) matchCOCO(e *evaluation, g group, thr []float64, outs *outcome
 	for pi, p := range ps {
 		m.predInRange[pi] = e.opt.AreaRange.contains(area(e.preds[p].Box, e.opt.PlusOne))
 	}
+	nu := len(thr)
 	if nt == 0 {
 		for pi, p := range ps {
 			o := outFP
 			if !m.predInRange[pi] {
 				o = outIgnored
 			}
-			for u := range thr {
-				outs.o[u][p] = o
+			for u := range nu {
+				outs.o[int(p)*nu+u] = o
 			}
 		}
 		return
@@ -366,8 +364,8 @@ func (m *matcher) matchCOCO(e *evaluation, g group, thr []float64, outs *outcome
 	taken, crowd, ig := m.taken, m.crowd, m.ig
 	for u, th := range thr {
 		clear(taken)
-		o := outs.o[u]
 		for pi, p := range ps {
+			o := &outs.o[int(p)*nu+u]
 			row := ious[pi*nt : (pi+1)*nt]
 			best, bi := th, -1
 			for ti, v := range row {
@@ -386,17 +384,17 @@ func (m *matcher) matchCOCO(e *evaluation, g group, thr []float64, outs *outcome
 			}
 			if bi < 0 {
 				if m.predInRange[pi] {
-					o[p] = outFP
+					*o = outFP
 				} else {
-					o[p] = outIgnored
+					*o = outIgnored
 				}
 				continue
 			}
 			taken[bi] = true
 			if ig[bi] {
-				o[p] = outIgnored
+				*o = outIgnored
 			} else {
-				o[p] = outTP
+				*o = outTP
 			}
 			if u == outs.first {
 				outs.match[p] = int(ts[bi])
@@ -410,11 +408,11 @@ func (m *matcher) matchCOCO(e *evaluation, g group, thr []float64, outs *outcome
 // ones), taken or not.
 func (m *matcher) matchVOC(e *evaluation, g group, thr []float64, outs *outcomes) {
 	ts, ps := e.gTruths[g.t0:g.t1], e.gPreds[g.p0:g.p1]
-	nt := len(ts)
+	nt, nu := len(ts), len(thr)
 	if nt == 0 {
 		for _, p := range ps {
-			for u := range thr {
-				outs.o[u][p] = outFP
+			for u := range nu {
+				outs.o[int(p)*nu+u] = outFP
 			}
 		}
 		return
@@ -434,22 +432,22 @@ func (m *matcher) matchVOC(e *evaluation, g group, thr []float64, outs *outcomes
 	taken := m.taken
 	for u, th := range thr {
 		clear(taken)
-		o := outs.o[u]
 		for pi, p := range ps {
+			o := &outs.o[int(p)*nu+u]
 			bi := m.best[pi]
 			if m.bestIoU[pi] < th {
-				o[p] = outFP
+				*o = outFP
 				continue
 			}
 			t := ts[bi]
 			switch {
 			case e.truthIg[t]:
-				o[p] = outIgnored
+				*o = outIgnored
 			case taken[bi]:
-				o[p] = outFP // duplicate
+				*o = outFP // duplicate
 				continue
 			default:
-				o[p] = outTP
+				*o = outTP
 				taken[bi] = true
 			}
 			if u == outs.first {
