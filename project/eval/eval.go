@@ -273,10 +273,24 @@ func area(b project.Box, plusOne bool) float64 {
 	return w * h
 }
 
-// intersection is the overlap area under the chosen convention.
+// intersection is the overlap area under the chosen convention. Boxes are
+// finite, so plain comparisons stand in for math.Min and math.Max (the sign
+// of a zero could differ, which the w, h ≤ 0 test makes moot).
 func intersection(a, b project.Box, plusOne bool) float64 {
-	w := math.Min(a.X1, b.X1) - math.Max(a.X0, b.X0)
-	h := math.Min(a.Y1, b.Y1) - math.Max(a.Y0, b.Y0)
+	x0, x1, y0, y1 := a.X0, a.X1, a.Y0, a.Y1
+	if b.X0 > x0 {
+		x0 = b.X0
+	}
+	if b.X1 < x1 {
+		x1 = b.X1
+	}
+	if b.Y0 > y0 {
+		y0 = b.Y0
+	}
+	if b.Y1 < y1 {
+		y1 = b.Y1
+	}
+	w, h := x1-x0, y1-y0
 	if plusOne {
 		w, h = w+1, h+1
 	}
@@ -372,7 +386,7 @@ func Evaluate(truths []Truth, preds []Prediction, opt Options) (Result, error) {
 	outs := e.matchAll(first, main)
 	res := e.predictionResults(outs)
 	var p pool
-	res.Classes, p = e.classResults(outs)
+	res.Classes, p = e.classResults(outs, &res)
 	summarize(&res, p)
 	return res, nil
 }
@@ -435,27 +449,35 @@ func thresholds(opt Options) (first float64, main []float64, err error) {
 	return main[0], main, nil
 }
 
-// evaluation is the state that Evaluate's stages share.
+// evaluation is the state that Evaluate's stages share; see
+// groupByImageClass for the rank (R), class (C) and group (G) orders.
 type evaluation struct {
-	truths  []Truth
-	preds   []Prediction
-	opt     Options
-	coco    bool
-	maxDet  int     // COCO cap per image and class; 0 for none
-	truthIg []bool  // truths that do not count
-	order   []int32 // prediction indices in rank order
+	truths    []Truth
+	preds     []Prediction
+	opt       Options
+	coco      bool
+	maxDet    int       // COCO cap per image and class; 0 for none
+	truthIg   []bool    // truths that do not count
+	order     []int32   // R → prediction index
+	rankScore []float64 // R → score
 
 	// Set by groupByImageClass.
 	classIDs    []int64 // ascending; dense class k is classIDs[k]
 	truthClass  []int32 // dense class of each truth
 	predClass   []int32 // dense class of each prediction
 	classTruths []int   // counted truths per dense class
-	classOff    []int32 // class k's predictions are classRanked[classOff[k]:classOff[k+1]]
-	classRanked []int32 // predictions by class, each class in rank order
-	gTruths     []int32 // truth indices by group
-	gPreds      []int32 // prediction indices by group
+	classOff    []int32 // class k is C positions classOff[k] to classOff[k+1]
+	classRanked []int32 // C → prediction index
+	classScore  []float64
+	gPreds      []int32 // G → prediction index
+	gClassPos   []int32 // G → C
+	gBox        []project.Box
+	gTruths     []int32 // truths in group order: truth index
+	gTBox       []project.Box
+	gTCrowd     []bool
+	gTIg        []bool
 	groups      []group
-	dropped     []int32 // COCO predictions beyond the cap of their group
+	dropped     []int32 // G positions of COCO predictions beyond the cap
 }
 
 // newEvaluation runs the stages that need no grouping: ignored truths and
@@ -470,7 +492,7 @@ func newEvaluation(truths []Truth, preds []Prediction, opt Options) *evaluation 
 		e.maxDet = max(e.maxDet, 0)
 	}
 	e.truthIg = e.ignoredTruths()
-	e.order = rankByScore(preds, e.coco)
+	e.order, e.rankScore = rankByScore(preds, e.coco)
 	return e
 }
 
@@ -490,11 +512,15 @@ func (e *evaluation) ignoredTruths() []bool {
 // classes inherit the order. A stable radix sort on the scores' bits keeps
 // input order among equal scores; runs of equal scores are then sorted by
 // image under COCO.
-func rankByScore(preds []Prediction, coco bool) []int32 {
+func rankByScore(preds []Prediction, coco bool) (order []int32, scores []float64) {
 	n := len(preds)
-	keys, order := make([]uint64, n), make([]int32, n)
-	for i, p := range preds {
-		keys[i], order[i] = descendingKey(p.Score), int32(i)
+	keys := make([]uint64, n)
+	order = make([]int32, n)
+	negZero := false
+	for i := range preds {
+		s := preds[i].Score
+		negZero = negZero || (s == 0 && math.Signbit(s))
+		keys[i], order[i] = descendingKey(s), int32(i)
 	}
 	radixSort(keys, order)
 	if coco {
@@ -511,7 +537,16 @@ func rankByScore(preds []Prediction, coco bool) []int32 {
 			lo = hi
 		}
 	}
-	return order
+	// The keys give back the scores, except that −0 became 0.
+	scores = make([]float64, n)
+	for r, k := range keys {
+		if negZero {
+			scores[r] = preds[order[r]].Score
+		} else {
+			scores[r] = scoreOfKey(k)
+		}
+	}
+	return order, scores
 }
 
 // descendingKey maps a finite score to a key whose ascending order is the
@@ -527,6 +562,17 @@ func descendingKey(s float64) uint64 {
 		b |= 1 << 63
 	}
 	return ^b
+}
+
+// scoreOfKey inverts descendingKey.
+func scoreOfKey(k uint64) float64 {
+	b := ^k
+	if b>>63 != 0 {
+		b &^= 1 << 63
+	} else {
+		b = ^b
+	}
+	return math.Float64frombits(b)
 }
 
 // radixSort sorts keys ascending, carrying vals along, stably: a
@@ -570,18 +616,20 @@ func radixSort(keys []uint64, vals []int32) {
 // per-truth figures at the first threshold.
 func (e *evaluation) predictionResults(outs outcomes) Result {
 	res := Result{
-		PredMatch:    outs.match,
+		PredMatch:    make([]int, len(e.preds)),
 		PredTP:       make([]bool, len(e.preds)),
 		PredIgnored:  make([]bool, len(e.preds)),
 		TruthMatched: make([]bool, len(e.truths)),
 	}
 	nu := len(outs.thr)
-	for i := range e.preds {
-		o := outs.o[i*nu+outs.first]
+	for g, i := range e.gPreds {
+		o := outs.o[int(e.gClassPos[g])*nu+outs.first]
 		res.PredTP[i] = o == outTP
 		res.PredIgnored[i] = o == outIgnored
-		if outs.match[i] >= 0 {
-			res.TruthMatched[outs.match[i]] = true
+		t := outs.match[g]
+		res.PredMatch[i] = int(t)
+		if t >= 0 {
+			res.TruthMatched[t] = true
 		}
 	}
 	return res

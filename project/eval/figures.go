@@ -12,10 +12,11 @@ type apScorer struct {
 	prec       [][]float64 // per threshold, the precision at each true positive
 }
 
-// all fills aps with the AP of the ranked predictions at each threshold
-// of outs, with n truths; ignored predictions are left out of the ranking.
-// One pass over the ranking serves every threshold.
-func (a *apScorer) all(ranked []int32, outs *outcomes, n int, aps []float64) {
+// all fills aps with the AP, at each threshold of outs, of the predictions
+// at class positions lo to hi (one class, in rank order) with n truths;
+// ignored predictions are left out of the ranking. One pass serves every
+// threshold.
+func (a *apScorer) all(lo, hi int, outs *outcomes, n int, aps []float64) {
 	nu := len(outs.thr)
 	if n <= 0 {
 		for u := range aps {
@@ -29,9 +30,8 @@ func (a *apScorer) all(ranked []int32, outs *outcomes, n int, aps []float64) {
 	for u := range a.prec {
 		a.prec[u] = a.prec[u][:0]
 	}
-	for _, i := range ranked {
-		row := outs.o[int(i)*nu : int(i)*nu+nu]
-		for u, o := range row {
+	for c := lo; c < hi; c++ {
+		for u, o := range outs.o[c*nu : c*nu+nu] {
 			if o == outIgnored {
 				continue
 			}
@@ -63,16 +63,16 @@ type pool struct {
 }
 
 // classResults computes each class's figures in classIDs order, classes
-// shared out over GOMAXPROCS goroutines, and pools their predictions.
-func (e *evaluation) classResults(outs outcomes) ([]ClassResult, pool) {
+// shared out over GOMAXPROCS goroutines, and pools their predictions (res
+// holds the per-prediction outcomes at the first threshold).
+func (e *evaluation) classResults(outs outcomes, res *Result) ([]ClassResult, pool) {
 	nc := len(e.classIDs)
 	classes := make([]ClassResult, nc)
 	tpAt, fpAt := make([]int, nc), make([]int, nc)
 	parallel(nc, len(e.preds), func(lo, hi int) {
 		ap := &apScorer{interp: e.opt.Interpolation, cocoLevels: e.coco}
-		var list []scored
 		for c := lo; c < hi; c++ {
-			classes[c], list, tpAt[c], fpAt[c] = e.classResult(c, outs, ap, list[:0])
+			classes[c], tpAt[c], fpAt[c] = e.classResult(c, &outs, ap)
 		}
 	})
 	var p pool
@@ -83,69 +83,88 @@ func (e *evaluation) classResults(outs outcomes) ([]ClassResult, pool) {
 	}
 	// The ranking is in score order already; ties may come in any order,
 	// as bestF1 only cuts where the score changes.
-	nu := len(outs.thr)
 	p.list = make([]scored, 0, len(e.order))
-	for _, i := range e.order {
-		if o := outs.o[int(i)*nu+outs.first]; o != outIgnored {
-			p.list = append(p.list, scored{e.preds[i].Score, o == outTP})
+	for r, i := range e.order {
+		if !res.PredIgnored[i] {
+			p.list = append(p.list, scored{e.rankScore[r], res.PredTP[i]})
 		}
 	}
 	return classes, p
 }
 
-// classResult computes the figures of dense class c, using list as
-// scratch. It also returns its TP and FP at Options.ScoreThreshold, for
-// pooling.
-func (e *evaluation) classResult(c int, outs outcomes, ap *apScorer, list []scored) (cr ClassResult, _ []scored, tpAt, fpAt int) {
-	ranked := e.classRanked[e.classOff[c]:e.classOff[c+1]]
+// classResult computes the figures of dense class c, and its TP and FP at
+// Options.ScoreThreshold for pooling.
+func (e *evaluation) classResult(c int, outs *outcomes, ap *apScorer) (cr ClassResult, tpAt, fpAt int) {
+	lo, hi := int(e.classOff[c]), int(e.classOff[c+1])
 	n := e.classTruths[c]
-	cr = ClassResult{ClassID: e.classIDs[c], Truths: n, Predictions: len(ranked)}
+	cr = ClassResult{ClassID: e.classIDs[c], Truths: n, Predictions: hi - lo}
 	aps := make([]float64, len(outs.thr))
-	ap.all(ranked, &outs, n, aps)
+	ap.all(lo, hi, outs, n, aps)
 	cr.AP = mean(aps, outs.main)
 	cr.AP50 = aps[outs.at50]
 	cr.AP75 = aps[outs.at75]
 	cr.AP50_95 = mean(aps, outs.coco)
 
 	nu, fu := len(outs.thr), outs.first
-	first := func(i int32) int8 { return outs.o[int(i)*nu+fu] }
 	counted := 0
-	for _, i := range ranked {
-		if first(i) != outIgnored {
+	for k := lo; k < hi; k++ {
+		if outs.o[k*nu+fu] != outIgnored {
 			counted++
 		}
 	}
 	if counted > 0 {
 		cr.Curve = make([]Point, 0, counted)
 	}
-	for _, i := range ranked {
-		o := first(i)
-		switch o {
-		case outIgnored:
+	// The best F1 is tried at the end of each run of equal scores (a
+	// threshold cannot split them), as bestF1 does.
+	var best bestF1Scan
+	for k := lo; k < hi; k++ {
+		o := outs.o[k*nu+fu]
+		if o == outIgnored {
 			continue
-		case outTP:
+		}
+		score := e.classScore[k]
+		best.next(score, cr.TP, cr.FP, n)
+		if o == outTP {
 			cr.TP++
-		default:
+		} else {
 			cr.FP++
 		}
-		isTP := o == outTP
-		list = append(list, scored{e.preds[i].Score, isTP})
 		cr.Curve = append(cr.Curve, Point{
 			Recall:    ratio(cr.TP, n),
 			Precision: ratio(cr.TP, cr.TP+cr.FP),
-			Score:     e.preds[i].Score,
+			Score:     score,
 		})
-		if e.preds[i].Score >= e.opt.ScoreThreshold {
-			if isTP {
+		if score >= e.opt.ScoreThreshold {
+			if o == outTP {
 				tpAt++
 			} else {
 				fpAt++
 			}
 		}
 	}
+	best.next(math.NaN(), cr.TP, cr.FP, n)
 	cr.Precision, cr.Recall, cr.F1 = prf(tpAt, fpAt, n)
-	cr.BestF1, cr.BestF1Threshold = bestF1(list, n)
-	return cr, list, tpAt, fpAt
+	cr.BestF1, cr.BestF1Threshold = best.f1, best.threshold
+	return cr, tpAt, fpAt
+}
+
+// bestF1Scan is bestF1 fed one counted prediction at a time, in score order.
+type bestF1Scan struct {
+	f1, threshold float64
+	last          float64
+	started       bool
+}
+
+// next tells the scan that a prediction with this score follows, tp and fp
+// counting the ones before it; NaN ends the list.
+func (b *bestF1Scan) next(score float64, tp, fp, n int) {
+	if b.started && score != b.last {
+		if _, _, f := prf(tp, fp, n); f > b.f1 {
+			b.f1, b.threshold = f, b.last
+		}
+	}
+	b.last, b.started = score, true
 }
 
 // summarize fills in the means over the classes with ground truth and the

@@ -3,6 +3,8 @@ package eval
 import (
 	"runtime"
 	"sync"
+
+	"boxwright/project"
 )
 
 // Prediction outcomes at one threshold.
@@ -17,17 +19,24 @@ const (
 // below 1.
 const cocoMaxIoU = 1 - 1e-10
 
-// group is the truths and predictions of one class on one image: ranges of
-// evaluation.gTruths (COCO: not-ignored truths first, each part in input
-// order) and evaluation.gPreds (in rank order, cut at the COCO cap).
+// group is the truths and predictions of one class on one image: ranges
+// of the group-ordered truths (COCO: not-ignored truths first, each part in
+// input order) and predictions (in rank order, cut at the COCO cap).
 type group struct {
 	t0, t1, p0, p1 int32
 }
 
+// Three orders of the predictions serve the stages, each read in sequence
+// where it is used: rank order (R, all predictions by score), class order
+// (C, class after class, each in rank order) and group order (G, group
+// after group). Data moves between them by scattering (reading one order
+// in sequence, writing the other at random), which costs far less than
+// reading the 64-byte predictions at random.
+
 // groupByImageClass gives every class a dense index (in ascending ID
-// order), lists each class's predictions in rank order, and sorts truths
-// and predictions into groups of one image and class with counting sorts.
-// Under COCO it drops the predictions beyond the cap of their group.
+// order), lays the predictions out in class and group order and the truths
+// in group order, with stable counting sorts, and finds the groups. Under
+// COCO it drops the predictions beyond the cap of their group.
 func (e *evaluation) groupByImageClass() {
 	nt, np := len(e.truths), len(e.preds)
 	e.truthClass, e.predClass = make([]int32, nt), make([]int32, np)
@@ -55,10 +64,12 @@ func (e *evaluation) groupByImageClass() {
 		}
 		return ci, ii
 	}
-	for i, t := range e.truths {
+	for i := range e.truths {
+		t := &e.truths[i]
 		e.truthClass[i], truthImg[i] = dense(t.ClassID, t.ImageID)
 	}
-	for i, p := range e.preds {
+	for i := range e.preds {
+		p := &e.preds[i]
 		e.predClass[i], predImg[i] = dense(p.ClassID, p.ImageID)
 	}
 	nc := len(classes)
@@ -88,12 +99,56 @@ func (e *evaluation) groupByImageClass() {
 		}
 	}
 
-	// Each class's predictions in rank order (all of them: Predictions
-	// counts them, dropped ones are ignored).
-	e.classOff = make([]int32, nc+1)
-	e.classRanked = countingSort(e.order, e.predClass, nc, e.classOff)
+	// Class order (all predictions: Predictions counts them, dropped ones
+	// are ignored).
+	bk := make([]int32, np)
+	for r, i := range e.order {
+		bk[r] = e.predClass[i]
+	}
+	cOfR, classOff := countingDest(bk, nc)
+	e.classOff = classOff
+	e.classRanked, e.classScore = make([]int32, np), make([]float64, np)
+	for r, c := range cOfR {
+		e.classRanked[c] = e.order[r]
+		e.classScore[c] = e.rankScore[r]
+	}
 
-	// Truths: not ignored first (COCO), then by class, then by image, each
+	// Group order: class after class as in class order, within a class by
+	// image (a stable sort by image, then one by class), so a class's
+	// outcomes, written at its class positions while matching, stay within
+	// its own part of the outcome table.
+	clsOfC := make([]int32, np)
+	for k := range nc {
+		for c := e.classOff[k]; c < e.classOff[k+1]; c++ {
+			clsOfC[c] = int32(k)
+		}
+	}
+	imgOfC := make([]int32, np)
+	for c, i := range e.classRanked {
+		imgOfC[c] = predImg[i]
+	}
+	byImage, _ := countingDest(imgOfC, int(nImg))
+	for c, j := range byImage {
+		bk[j] = clsOfC[c]
+	}
+	gOfImage, _ := countingDest(bk, nc)
+	e.gPreds, e.gClassPos = make([]int32, np), make([]int32, np)
+	predKey := make([]int64, np)
+	for c, j := range byImage {
+		g := gOfImage[j]
+		e.gPreds[g], e.gClassPos[g] = e.classRanked[c], int32(c)
+		predKey[g] = int64(clsOfC[c])<<32 | int64(imgOfC[c])
+	}
+	gOfInput := bk // reused: bk is no longer needed
+	for g, i := range e.gPreds {
+		gOfInput[i] = int32(g)
+	}
+	e.gBox = make([]project.Box, np)
+	for i := range e.preds {
+		e.gBox[gOfInput[i]] = e.preds[i].Box
+	}
+
+	// Truths: not ignored first (COCO), then by image, then by class, each
 	// pass stable, so within a group the input order is kept.
 	tIdx := make([]int32, nt)
 	for i := range tIdx {
@@ -114,37 +169,39 @@ func (e *evaluation) groupByImageClass() {
 			}
 		}
 	}
-	tIdx = countingSort(tIdx, e.truthClass, nc, nil)
-	e.gTruths = countingSort(tIdx, truthImg, int(nImg), nil)
-	// Predictions: by class (rank order kept), then by image.
-	e.gPreds = countingSort(e.classRanked, predImg, int(nImg), nil)
+	tIdx = countingSort(tIdx, truthImg, int(nImg))
+	e.gTruths = countingSort(tIdx, e.truthClass, nc)
+	truthKey := make([]int64, nt)
+	e.gTBox, e.gTCrowd, e.gTIg = make([]project.Box, nt), make([]bool, nt), make([]bool, nt)
+	for g, t := range e.gTruths {
+		truthKey[g] = int64(e.truthClass[t])<<32 | int64(truthImg[t])
+		e.gTBox[g], e.gTCrowd[g], e.gTIg[g] = e.truths[t].Box, e.truths[t].Crowd, e.truthIg[t]
+	}
 
-	// Runs of equal (image, class) in both lists make the groups.
+	// Runs of equal (class, image) in both lists make the groups.
 	ti, pi := 0, 0
-	key := func(img, class int32) int64 { return int64(img)<<32 | int64(class) }
 	for ti < nt || pi < np {
 		var k int64
 		switch {
 		case ti >= nt:
-			p := e.gPreds[pi]
-			k = key(predImg[p], e.predClass[p])
+			k = predKey[pi]
 		case pi >= np:
-			t := e.gTruths[ti]
-			k = key(truthImg[t], e.truthClass[t])
+			k = truthKey[ti]
 		default:
-			t, p := e.gTruths[ti], e.gPreds[pi]
-			k = min(key(truthImg[t], e.truthClass[t]), key(predImg[p], e.predClass[p]))
+			k = min(truthKey[ti], predKey[pi])
 		}
 		g := group{t0: int32(ti), p0: int32(pi)}
-		for ti < nt && key(truthImg[e.gTruths[ti]], e.truthClass[e.gTruths[ti]]) == k {
+		for ti < nt && truthKey[ti] == k {
 			ti++
 		}
-		for pi < np && key(predImg[e.gPreds[pi]], e.predClass[e.gPreds[pi]]) == k {
+		for pi < np && predKey[pi] == k {
 			pi++
 		}
 		g.t1, g.p1 = int32(ti), int32(pi)
 		if e.maxDet > 0 && int(g.p1-g.p0) > e.maxDet {
-			e.dropped = append(e.dropped, e.gPreds[int(g.p0)+e.maxDet:g.p1]...)
+			for j := int(g.p0) + e.maxDet; j < int(g.p1); j++ {
+				e.dropped = append(e.dropped, int32(j))
+			}
 			g.p1 = g.p0 + int32(e.maxDet)
 		}
 		e.groups = append(e.groups, g)
@@ -160,25 +217,37 @@ func sortInt32By(idx []int32, keys []int64) {
 	}
 }
 
-// countingSort returns in stably sorted by bucket[v] (values below n); off,
-// when not nil (length n+1), receives the bucket boundaries.
-func countingSort(in []int32, bucket []int32, n int, off []int32) []int32 {
-	if off == nil {
-		off = make([]int32, n+1)
-	}
-	for _, v := range in {
-		off[bucket[v]+1]++
+// countingDest is a stable counting sort by bucket (values below n): it
+// returns each source's position in bucket order and the bucket
+// boundaries (length n+1).
+func countingDest(bucket []int32, n int) (dest, off []int32) {
+	off = make([]int32, n+1)
+	for _, b := range bucket {
+		off[b+1]++
 	}
 	for b := 1; b <= n; b++ {
 		off[b] += off[b-1]
 	}
-	out := make([]int32, len(in))
 	pos := make([]int32, n)
 	copy(pos, off[:n])
-	for _, v := range in {
-		b := bucket[v]
-		out[pos[b]] = v
+	dest = make([]int32, len(bucket))
+	for s, b := range bucket {
+		dest[s] = pos[b]
 		pos[b]++
+	}
+	return dest, off
+}
+
+// countingSort returns in stably sorted by bucket[v] (values below n).
+func countingSort(in []int32, bucket []int32, n int) []int32 {
+	bk := make([]int32, len(in))
+	for s, v := range in {
+		bk[s] = bucket[v]
+	}
+	dest, _ := countingDest(bk, n)
+	out := make([]int32, len(in))
+	for s, v := range in {
+		out[dest[s]] = v
 	}
 	return out
 }
@@ -187,13 +256,13 @@ func countingSort(in []int32, bucket []int32, n int, off []int32) []int32 {
 // figures use.
 type outcomes struct {
 	thr   []float64 // distinct thresholds, in order of first use
-	o     []int8    // prediction i at threshold u is o[i*len(thr)+u]
+	o     []int8    // the prediction at class position c, threshold u: o[c*len(thr)+u]
 	first int       // index of the first threshold: TP/FP, curve, matches
 	main  []int     // the thresholds AP averages over
 	at50  int
 	at75  int
-	coco  []int // COCOThresholds
-	match []int // per prediction, the truth matched at first, or -1
+	coco  []int   // COCOThresholds
+	match []int32 // per group position, the truth matched at first, or -1
 }
 
 // newOutcomes lists the distinct thresholds and where each use finds its
@@ -218,7 +287,7 @@ func newOutcomes(first float64, main []float64, n int) outcomes {
 		outs.coco = append(outs.coco, index(t))
 	}
 	outs.o = make([]int8, len(outs.thr)*n)
-	outs.match = make([]int, n)
+	outs.match = make([]int32, n)
 	for i := range outs.match {
 		outs.match[i] = -1
 	}
@@ -231,12 +300,13 @@ func newOutcomes(first float64, main []float64, n int) outcomes {
 func (e *evaluation) matchAll(first float64, main []float64) outcomes {
 	outs := newOutcomes(first, main, len(e.preds))
 	nu := len(outs.thr)
-	for _, p := range e.dropped {
+	for _, g := range e.dropped {
+		c := int(e.gClassPos[g])
 		for u := range nu {
-			outs.o[int(p)*nu+u] = outIgnored
+			outs.o[c*nu+u] = outIgnored
 		}
 	}
-	thr := make([]float64, len(outs.thr))
+	thr := make([]float64, nu)
 	for i, t := range outs.thr {
 		thr[i] = t
 		if e.coco {
@@ -292,7 +362,6 @@ func parallel(n, cost int, work func(lo, hi int)) {
 type matcher struct {
 	ious        []float64
 	taken       []bool
-	crowd, ig   []bool
 	best        []int32
 	bestIoU     []float64
 	predInRange []bool
@@ -308,21 +377,20 @@ func grow[T any](s []T, n int) []T {
 
 // overlaps fills m.ious, one row of the group's truths per prediction; a
 // crowd truth's overlap (COCO) is the share of the prediction inside it.
-func (m *matcher) overlaps(e *evaluation, ts, ps []int32) []float64 {
-	nt := len(ts)
-	m.ious = grow(m.ious, len(ps)*nt)
+func (m *matcher) overlaps(e *evaluation, g group) []float64 {
+	nt := int(g.t1 - g.t0)
+	tboxes := e.gTBox[g.t0:g.t1]
+	m.ious = grow(m.ious, int(g.p1-g.p0)*nt)
 	plusOne := e.opt.PlusOne
-	for pi, p := range ps {
-		pb := e.preds[p].Box
+	for pi, pb := range e.gBox[g.p0:g.p1] {
 		pa := area(pb, plusOne)
 		row := m.ious[pi*nt : (pi+1)*nt]
-		for ti, t := range ts {
-			tb := e.truths[t].Box
+		for ti, tb := range tboxes {
 			inter := intersection(pb, tb, plusOne)
 			switch {
 			case inter == 0:
 				row[ti] = 0
-			case e.coco && e.truths[t].Crowd:
+			case e.coco && e.gTCrowd[int(g.t0)+ti]:
 				row[ti] = inter / pa
 			default:
 				row[ti] = inter / (pa + area(tb, plusOne) - inter)
@@ -337,35 +405,32 @@ func (m *matcher) overlaps(e *evaluation, ts, ps []int32) []float64 {
 // above the threshold, the last of equal ones, counted truths before
 // ignored ones (they are sorted first).
 func (m *matcher) matchCOCO(e *evaluation, g group, thr []float64, outs *outcomes) {
-	ts, ps := e.gTruths[g.t0:g.t1], e.gPreds[g.p0:g.p1]
-	nt := len(ts)
-	m.predInRange = grow(m.predInRange, len(ps))
-	for pi, p := range ps {
-		m.predInRange[pi] = e.opt.AreaRange.contains(area(e.preds[p].Box, e.opt.PlusOne))
+	nt, np, nu := int(g.t1-g.t0), int(g.p1-g.p0), len(thr)
+	cpos := e.gClassPos[g.p0:g.p1]
+	m.predInRange = grow(m.predInRange, np)
+	for pi, pb := range e.gBox[g.p0:g.p1] {
+		m.predInRange[pi] = e.opt.AreaRange.contains(area(pb, e.opt.PlusOne))
 	}
-	nu := len(thr)
 	if nt == 0 {
-		for pi, p := range ps {
+		for pi, c := range cpos {
 			o := outFP
 			if !m.predInRange[pi] {
 				o = outIgnored
 			}
 			for u := range nu {
-				outs.o[int(p)*nu+u] = o
+				outs.o[int(c)*nu+u] = o
 			}
 		}
 		return
 	}
-	ious := m.overlaps(e, ts, ps)
-	m.taken, m.crowd, m.ig = grow(m.taken, nt), grow(m.crowd, nt), grow(m.ig, nt)
-	for ti, t := range ts {
-		m.crowd[ti], m.ig[ti] = e.truths[t].Crowd, e.truthIg[t]
-	}
-	taken, crowd, ig := m.taken, m.crowd, m.ig
+	ious := m.overlaps(e, g)
+	crowd, ig := e.gTCrowd[g.t0:g.t1], e.gTIg[g.t0:g.t1]
+	m.taken = grow(m.taken, nt)
+	taken := m.taken
 	for u, th := range thr {
 		clear(taken)
-		for pi, p := range ps {
-			o := &outs.o[int(p)*nu+u]
+		for pi, c := range cpos {
+			o := &outs.o[int(c)*nu+u]
 			row := ious[pi*nt : (pi+1)*nt]
 			best, bi := th, -1
 			for ti, v := range row {
@@ -397,7 +462,7 @@ func (m *matcher) matchCOCO(e *evaluation, g group, thr []float64, outs *outcome
 				*o = outTP
 			}
 			if u == outs.first {
-				outs.match[p] = int(ts[bi])
+				outs.match[int(g.p0)+pi] = e.gTruths[int(g.t0)+bi]
 			}
 		}
 	}
@@ -407,19 +472,20 @@ func (m *matcher) matchCOCO(e *evaluation, g group, thr []float64, outs *outcome
 // score order, takes the truth with the highest IoU (the first of equal
 // ones), taken or not.
 func (m *matcher) matchVOC(e *evaluation, g group, thr []float64, outs *outcomes) {
-	ts, ps := e.gTruths[g.t0:g.t1], e.gPreds[g.p0:g.p1]
-	nt, nu := len(ts), len(thr)
+	nt, np, nu := int(g.t1-g.t0), int(g.p1-g.p0), len(thr)
+	cpos := e.gClassPos[g.p0:g.p1]
 	if nt == 0 {
-		for _, p := range ps {
+		for _, c := range cpos {
 			for u := range nu {
-				outs.o[int(p)*nu+u] = outFP
+				outs.o[int(c)*nu+u] = outFP
 			}
 		}
 		return
 	}
-	ious := m.overlaps(e, ts, ps)
-	m.best, m.bestIoU = grow(m.best, len(ps)), grow(m.bestIoU, len(ps))
-	for pi := range ps {
+	ious := m.overlaps(e, g)
+	ig := e.gTIg[g.t0:g.t1]
+	m.best, m.bestIoU = grow(m.best, np), grow(m.bestIoU, np)
+	for pi := range np {
 		best, bi := -1.0, int32(-1)
 		for ti, v := range ious[pi*nt : (pi+1)*nt] {
 			if v > best {
@@ -432,16 +498,15 @@ func (m *matcher) matchVOC(e *evaluation, g group, thr []float64, outs *outcomes
 	taken := m.taken
 	for u, th := range thr {
 		clear(taken)
-		for pi, p := range ps {
-			o := &outs.o[int(p)*nu+u]
+		for pi, c := range cpos {
+			o := &outs.o[int(c)*nu+u]
 			bi := m.best[pi]
 			if m.bestIoU[pi] < th {
 				*o = outFP
 				continue
 			}
-			t := ts[bi]
 			switch {
-			case e.truthIg[t]:
+			case ig[bi]:
 				*o = outIgnored
 			case taken[bi]:
 				*o = outFP // duplicate
@@ -451,7 +516,7 @@ func (m *matcher) matchVOC(e *evaluation, g group, thr []float64, outs *outcomes
 				taken[bi] = true
 			}
 			if u == outs.first {
-				outs.match[p] = int(t)
+				outs.match[int(g.p0)+pi] = e.gTruths[int(g.t0)+int(bi)]
 			}
 		}
 	}
