@@ -303,3 +303,18 @@ func TestCOCOevalDifferences(t *testing.T) {
 		})
 	}
 }
+
+// TestCOCOBenchmarkAgainstReference scores BenchmarkEvaluateCOCO's own
+// workload with Evaluate and with the transcription of COCOeval and
+// requires the same AP@[.50:.95] to 1e-9, overall, per class and per class
+// at each IoU threshold: the benchmark row compares like with like. The
+// transcription takes some seconds here, so the test runs only when
+// BENCH_DATA or EVAL_BENCH_REFERENCE is set.
+func TestCOCOBenchmarkAgainstReference(t *testing.T) {
+	if os.Getenv("BENCH_DATA") == "" && os.Getenv("EVAL_BENCH_REFERENCE") == "" {
+		t.Skip("set EVAL_BENCH_REFERENCE=1 (or BENCH_DATA) to compare the benchmark's workload with the reference")
+	}
+	needNumpy(t)
+	truths, preds := benchScene(5000, 40000, 200000, 10)
+	compareWithReference(t, truths, preds, All)
+}

@@ -3,47 +3,68 @@
 //
 // Conventions shared by everything in the package:
 //
-//   - Predictions are ranked by descending score with a stable sort, so
-//     predictions with equal scores keep their input order. The ranking is
-//     the same for matching (per image and class) and for the curves (per
-//     class over all images), so results never depend on map order.
+//   - Predictions are ranked by descending score; equal scores keep their
+//     input order (VOC) or, as the COCO evaluation tool ranks them, go by
+//     image ID and then input order (COCO). The ranking is the same for
+//     matching (per image and class) and for the curves (per class over all
+//     images), so results never depend on map order.
 //   - A prediction matches a truth when their IoU is greater than or equal
 //     to the threshold: an IoU exactly at the threshold counts.
 //   - VOC-style matching: each prediction, in score order, takes the truth of
-//     its class on its image with the highest IoU, whether or not that truth
-//     is taken. If the IoU reaches the threshold and the truth is free it is
-//     a true positive; if the truth is already taken it is a false positive
-//     (a duplicate); below the threshold it is a false positive. A match to
-//     a Difficult truth is neither (ignored), and Difficult truths are not
-//     counted. Under VOC a Crowd truth is treated as Difficult.
-//     AreaRange and MaxDetections do not apply to VOC.
-//   - COCO-style matching: predictions above MaxDetections per image (by
-//     score, over all classes of the image) are dropped. Each remaining
-//     prediction takes the best still-free truth with IoU at or above the
-//     threshold, preferring truths that are not ignored; truths are ignored
-//     when Crowd, Difficult or outside the AreaRange. A Crowd truth is never
-//     used up, so it can absorb many predictions, and its overlap is the
-//     intersection over the prediction's own area, as in the published
-//     protocol. A prediction matched to an ignored truth is ignored; an
-//     unmatched prediction outside the AreaRange is ignored too.
+//     its class on its image with the highest IoU (the first of equal ones),
+//     whether or not that truth is taken. If the IoU reaches the threshold
+//     and the truth is free it is a true positive; if the truth is already
+//     taken it is a false positive (a duplicate); below the threshold it is
+//     a false positive. A match to a Difficult truth is neither (ignored),
+//     and Difficult truths are not counted. Under VOC a Crowd truth is
+//     treated as Difficult. AreaRange and MaxDetections do not apply to VOC.
+//   - COCO-style matching: predictions above MaxDetections per image and
+//     class (by score) are dropped. Each remaining prediction takes the
+//     best still-free truth with IoU at or above the threshold, preferring
+//     truths that are not ignored; truths are ignored when Crowd, Difficult
+//     or outside the AreaRange. A Crowd truth is never used up, so it can
+//     absorb many predictions, and its overlap is the intersection over the
+//     prediction's own area, as in the published protocol. A prediction
+//     matched to an ignored truth is ignored; an unmatched prediction
+//     outside the AreaRange is ignored too.
 //   - Areas and IoU follow Options.PlusOne: either continuous (x1−x0)(y1−y0)
 //     or pixel-inclusive (x1−x0+1)(y1−y0+1) as older toolkits computed.
 //   - Recall levels for the 11- and 101-point interpolations are compared
 //     exactly as fractions (recall ≥ k/10 is tp·10 ≥ k·n), so recall 0.3 is
-//     never lost to 0.1+0.1+0.1 rounding.
+//     never lost to 0.1+0.1+0.1 rounding; except Point101 under COCO, below.
 //   - A class without ground truth has AP NaN and is left out of the means;
 //     precision is 0 when no prediction was counted and recall is 0 when
 //     there is no ground truth.
 //
-// COCO AP@[.50:.95] with Point101 equals the COCO API's COCOeval (as
-// transcribed in testdata/coco_reference.py) to 1e-9 except in these cases,
-// pinned by TestCOCOevalDifferences: COCOeval's recall levels come from
-// np.linspace and ten of them (0.35, 0.41, 0.47, 0.57, 0.69, 0.70, 0.82,
-// 0.83, 0.94, 0.95) lie one ulp above k/100, so a recall of exactly k/100
-// misses them; on equal IoU it takes the last truth, not the first; on
-// equal scores it ranks images by id, not by input order; it caps
-// MaxDetections per image and class, not per image; its area ranges
-// include both bounds (32² is small and medium, 96² medium and large).
+// The COCO protocol follows the COCO evaluation tool (the COCO API's
+// COCOeval, as transcribed in testdata/coco_reference.py) where it departs
+// from the protocol as usually stated, so that our COCO figures equal the
+// ones that tool gives (TestCOCOAgainstReference, to 1e-9; each case
+// pinned by TestCOCOevalDifferences):
+//
+//   - Point101 averages over the tool's recall levels np.linspace(0, 1, 101),
+//     i.e. k·0.01 in float64, with recall hits/n in float64, as the COCO
+//     evaluation tool does: ten levels (0.35, 0.41, 0.47, 0.57, 0.69, 0.70,
+//     0.82, 0.83, 0.94, 0.95) lie one ulp above k/100, so a recall of
+//     exactly 7/10 does not reach level 0.70.
+//   - COCOThresholds are np.linspace(.5, .95, 10), as the COCO evaluation
+//     tool computes them: the ninth is 0.8999999999999999.
+//   - Of several truths tied at the best IoU a prediction takes the last
+//     (in the order above: counted truths first, each part in input order),
+//     as the COCO evaluation tool does.
+//   - Equal scores are ranked by image ID, then input order, as the COCO
+//     evaluation tool does.
+//   - MaxDetections cuts per image and class, as the COCO evaluation tool
+//     does, not per image.
+//   - Area ranges include both bounds, as the COCO evaluation tool's do:
+//     small [0, 32²], medium [32², 96²], large [96², 1e5²], all [0, 1e5²];
+//     32² is small and medium, 96² medium and large.
+//   - A threshold t matches IoU ≥ min(t, 1−1e-10), as the COCO evaluation
+//     tool does, so a threshold of 1 accepts IoU that rounding left just
+//     below 1.
+//
+// AveragePrecision itself keeps exact recall levels for every
+// interpolation.
 package eval
 
 import (
