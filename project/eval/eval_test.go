@@ -6,6 +6,8 @@ import (
 	"math"
 	"math/rand/v2"
 	"os/exec"
+	"reflect"
+	"runtime"
 	"slices"
 	"testing"
 
@@ -539,5 +541,41 @@ func TestConfusionNoOverlap(t *testing.T) {
 		[]Prediction{{ImageID: 1, ClassID: 1, Box: bx(5, 5, 6, 6), Score: 1}}, []int64{1}, 0, false)
 	if cf.Counts[0][0] != 0 || cf.Counts[0][1] != 1 || cf.Counts[1][0] != 1 {
 		t.Errorf("counts %v, want one missed and one false alarm", cf.Counts)
+	}
+}
+
+// TestEvaluateEmpty: no input, only truths, or only predictions, under both
+// protocols: no panic, AP NaN without truths and 0 without predictions.
+func TestEvaluateEmpty(t *testing.T) {
+	truths := []Truth{{ImageID: 1, ClassID: 1, Box: bx(0, 0, 10, 10)}}
+	preds := []Prediction{{ImageID: 1, ClassID: 1, Box: bx(0, 0, 10, 10), Score: 1}}
+	for _, p := range []Protocol{VOC, COCO} {
+		r := mustEval(t, nil, nil, Options{Protocol: p})
+		if len(r.Classes) != 0 || !math.IsNaN(r.MAP) {
+			t.Errorf("%v, nothing: classes %v mAP %v", p, r.Classes, r.MAP)
+		}
+		if r := mustEval(t, truths, nil, Options{Protocol: p}); len(r.Classes) != 1 || r.MAP != 0 || r.TruthMatched[0] {
+			t.Errorf("%v, truths only: %+v", p, r)
+		}
+		if r := mustEval(t, nil, preds, Options{Protocol: p}); len(r.Classes) != 1 || !math.IsNaN(r.MAP) || r.Classes[0].FP != 1 || r.PredMatch[0] != -1 {
+			t.Errorf("%v, predictions only: %+v", p, r)
+		}
+	}
+}
+
+// TestParallelSameResult: the work shared out over goroutines gives the
+// same result, to the bit, as on one: a scene above the size where the
+// sharing starts, both protocols, GOMAXPROCS 1 and 4.
+func TestParallelSameResult(t *testing.T) {
+	truths, preds := scene(11, 300, 3000, 30000, 5, 20)
+	for _, opt := range []Options{{Protocol: COCO, Interpolation: Point101}, {Protocol: VOC, Interpolation: AllPoint}} {
+		prev := runtime.GOMAXPROCS(1)
+		one := mustEval(t, truths, preds, opt)
+		runtime.GOMAXPROCS(4)
+		four := mustEval(t, truths, preds, opt)
+		runtime.GOMAXPROCS(prev)
+		if math.IsNaN(one.MAP) || !reflect.DeepEqual(one, four) {
+			t.Errorf("%v: results differ between 1 and 4 goroutines (mAP %v, %v)", opt.Protocol, one.MAP, four.MAP)
+		}
 	}
 }
