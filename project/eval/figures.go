@@ -69,8 +69,11 @@ func (e *evaluation) classResults(outs outcomes, res *Result) ([]ClassResult, po
 	nc := len(e.classIDs)
 	classes := make([]ClassResult, nc)
 	tpAt, fpAt := make([]int, nc), make([]int, nc)
-	parallel(nc, len(e.preds), func(lo, hi int) {
-		ap := &apScorer{interp: e.opt.Interpolation, cocoLevels: e.coco}
+	workers := workersFor(nc, len(e.preds))
+	scorers := make([]apScorer, workers)
+	parallel(nc, workers, func(w, lo, hi int) {
+		ap := &scorers[w]
+		ap.interp, ap.cocoLevels = e.opt.Interpolation, e.coco
 		for c := lo; c < hi; c++ {
 			classes[c], tpAt[c], fpAt[c] = e.classResult(c, &outs, ap)
 		}

@@ -313,8 +313,10 @@ func (e *evaluation) matchAll(first float64, main []float64) outcomes {
 			thr[i] = min(t, cocoMaxIoU)
 		}
 	}
-	parallel(len(e.groups), len(e.preds), func(lo, hi int) {
-		var m matcher
+	workers := workersFor(len(e.groups), len(e.preds))
+	ms := make([]matcher, workers)
+	parallel(len(e.groups), workers, func(w, lo, hi int) {
+		m := &ms[w]
 		for _, g := range e.groups[lo:hi] {
 			if e.coco {
 				m.matchCOCO(e, g, thr, &outs)
@@ -326,16 +328,21 @@ func (e *evaluation) matchAll(first float64, main []float64) outcomes {
 	return outs
 }
 
-// parallel runs work over [0,n) in contiguous parts, on up to GOMAXPROCS
-// goroutines when cost (about the number of predictions) makes it pay.
-func parallel(n, cost int, work func(lo, hi int)) {
-	workers := runtime.GOMAXPROCS(0)
+// workersFor is how many goroutines parallel uses for n parts of work of
+// about cost predictions: up to GOMAXPROCS when the work makes it pay.
+func workersFor(n, cost int) int {
 	if cost < 20000 || n < 2 {
-		workers = 1
+		return 1
 	}
-	workers = min(workers, n)
-	if workers <= 1 {
-		work(0, n)
+	return min(runtime.GOMAXPROCS(0), n)
+}
+
+// parallel runs work over [0,n) in contiguous parts on the given number of
+// goroutines; work learns which goroutine (0 to workers−1) runs it, so
+// each can keep its own scratch.
+func parallel(n, workers int, work func(worker, lo, hi int)) {
+	if workers <= 1 || n < 2 {
+		work(0, 0, n)
 		return
 	}
 	// Several parts per goroutine even out uneven parts.
@@ -346,12 +353,12 @@ func parallel(n, cost int, work func(lo, hi int)) {
 		next <- i
 	}
 	close(next)
-	for range workers {
+	for w := range workers {
 		wg.Add(1)
 		go func() {
 			defer wg.Done()
 			for i := range next {
-				work(i*n/parts, (i+1)*n/parts)
+				work(w, i*n/parts, (i+1)*n/parts)
 			}
 		}()
 	}
