@@ -579,3 +579,31 @@ func TestParallelSameResult(t *testing.T) {
 		}
 	}
 }
+
+// TestBestF1Scan: the per-class scan gives what bestF1 gives on the whole
+// list, on random ranked lists with many tied scores.
+func TestBestF1Scan(t *testing.T) {
+	r := rand.New(rand.NewPCG(5, 5))
+	for c := 0; c < 300; c++ {
+		list := make([]scored, r.IntN(30))
+		for i := range list {
+			list[i] = scored{float64(r.IntN(6)) / 5, r.IntN(2) == 0}
+		}
+		slices.SortStableFunc(list, func(a, b scored) int { return cmp.Compare(b.score, a.score) })
+		n := 1 + r.IntN(20)
+		var b bestF1Scan
+		tp, fp := 0, 0
+		for _, s := range list {
+			b.next(s.score, tp, fp, n)
+			if s.tp {
+				tp++
+			} else {
+				fp++
+			}
+		}
+		b.next(math.NaN(), tp, fp, n)
+		if f, th := bestF1(list, n); f != b.f1 || th != b.threshold {
+			t.Fatalf("list %v, %d truths: scan %v at %v, bestF1 %v at %v", list, n, b.f1, b.threshold, f, th)
+		}
+	}
+}
