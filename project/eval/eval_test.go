@@ -174,8 +174,9 @@ func TestThresholdEqualityCounts(t *testing.T) {
 	}
 }
 
-// TestStableTies: equal scores keep input order, so the first listed of two
-// identical predictions takes the truth.
+// TestStableTies: equal scores on one image keep input order, so the first
+// listed of two identical predictions takes the truth (across images COCO
+// ranks equal scores by image ID: TestCOCOevalDifferences).
 func TestStableTies(t *testing.T) {
 	truths := []Truth{{ImageID: 1, ClassID: 1, Box: bx(0, 0, 10, 10)}}
 	preds := []Prediction{
