@@ -3,47 +3,68 @@
 //
 // Conventions shared by everything in the package:
 //
-//   - Predictions are ranked by descending score with a stable sort, so
-//     predictions with equal scores keep their input order. The ranking is
-//     the same for matching (per image and class) and for the curves (per
-//     class over all images), so results never depend on map order.
+//   - Predictions are ranked by descending score; equal scores keep their
+//     input order (VOC) or, as the COCO evaluation tool ranks them, go by
+//     image ID and then input order (COCO). The ranking is the same for
+//     matching (per image and class) and for the curves (per class over all
+//     images), so results never depend on map order.
 //   - A prediction matches a truth when their IoU is greater than or equal
 //     to the threshold: an IoU exactly at the threshold counts.
 //   - VOC-style matching: each prediction, in score order, takes the truth of
-//     its class on its image with the highest IoU, whether or not that truth
-//     is taken. If the IoU reaches the threshold and the truth is free it is
-//     a true positive; if the truth is already taken it is a false positive
-//     (a duplicate); below the threshold it is a false positive. A match to
-//     a Difficult truth is neither (ignored), and Difficult truths are not
-//     counted. Under VOC a Crowd truth is treated as Difficult.
-//     AreaRange and MaxDetections do not apply to VOC.
-//   - COCO-style matching: predictions above MaxDetections per image (by
-//     score, over all classes of the image) are dropped. Each remaining
-//     prediction takes the best still-free truth with IoU at or above the
-//     threshold, preferring truths that are not ignored; truths are ignored
-//     when Crowd, Difficult or outside the AreaRange. A Crowd truth is never
-//     used up, so it can absorb many predictions, and its overlap is the
-//     intersection over the prediction's own area, as in the published
-//     protocol. A prediction matched to an ignored truth is ignored; an
-//     unmatched prediction outside the AreaRange is ignored too.
+//     its class on its image with the highest IoU (the first of equal ones),
+//     whether or not that truth is taken. If the IoU reaches the threshold
+//     and the truth is free it is a true positive; if the truth is already
+//     taken it is a false positive (a duplicate); below the threshold it is
+//     a false positive. A match to a Difficult truth is neither (ignored),
+//     and Difficult truths are not counted. Under VOC a Crowd truth is
+//     treated as Difficult. AreaRange and MaxDetections do not apply to VOC.
+//   - COCO-style matching: predictions above MaxDetections per image and
+//     class (by score) are dropped. Each remaining prediction takes the
+//     best still-free truth with IoU at or above the threshold, preferring
+//     truths that are not ignored; truths are ignored when Crowd, Difficult
+//     or outside the AreaRange. A Crowd truth is never used up, so it can
+//     absorb many predictions, and its overlap is the intersection over the
+//     prediction's own area, as in the published protocol. A prediction
+//     matched to an ignored truth is ignored; an unmatched prediction
+//     outside the AreaRange is ignored too.
 //   - Areas and IoU follow Options.PlusOne: either continuous (x1−x0)(y1−y0)
 //     or pixel-inclusive (x1−x0+1)(y1−y0+1) as older toolkits computed.
 //   - Recall levels for the 11- and 101-point interpolations are compared
 //     exactly as fractions (recall ≥ k/10 is tp·10 ≥ k·n), so recall 0.3 is
-//     never lost to 0.1+0.1+0.1 rounding.
+//     never lost to 0.1+0.1+0.1 rounding; except Point101 under COCO, below.
 //   - A class without ground truth has AP NaN and is left out of the means;
 //     precision is 0 when no prediction was counted and recall is 0 when
 //     there is no ground truth.
 //
-// COCO AP@[.50:.95] with Point101 equals the COCO API's COCOeval (as
-// transcribed in testdata/coco_reference.py) to 1e-9 except in these cases,
-// pinned by TestCOCOevalDifferences: COCOeval's recall levels come from
-// np.linspace and ten of them (0.35, 0.41, 0.47, 0.57, 0.69, 0.70, 0.82,
-// 0.83, 0.94, 0.95) lie one ulp above k/100, so a recall of exactly k/100
-// misses them; on equal IoU it takes the last truth, not the first; on
-// equal scores it ranks images by id, not by input order; it caps
-// MaxDetections per image and class, not per image; its area ranges
-// include both bounds (32² is small and medium, 96² medium and large).
+// The COCO protocol follows the COCO evaluation tool (the COCO API's
+// COCOeval, as transcribed in testdata/coco_reference.py) where it departs
+// from the protocol as usually stated, so that our COCO figures equal the
+// ones that tool gives (TestCOCOAgainstReference, to 1e-9; each case
+// pinned by TestCOCOevalDifferences):
+//
+//   - Point101 averages over the tool's recall levels np.linspace(0, 1, 101),
+//     i.e. k·0.01 in float64, with recall hits/n in float64, as the COCO
+//     evaluation tool does: ten levels (0.35, 0.41, 0.47, 0.57, 0.69, 0.70,
+//     0.82, 0.83, 0.94, 0.95) lie one ulp above k/100, so a recall of
+//     exactly 7/10 does not reach level 0.70.
+//   - COCOThresholds are np.linspace(.5, .95, 10), as the COCO evaluation
+//     tool computes them: the ninth is 0.8999999999999999.
+//   - Of several truths tied at the best IoU a prediction takes the last
+//     (in the order above: counted truths first, each part in input order),
+//     as the COCO evaluation tool does.
+//   - Equal scores are ranked by image ID, then input order, as the COCO
+//     evaluation tool does.
+//   - MaxDetections cuts per image and class, as the COCO evaluation tool
+//     does, not per image.
+//   - Area ranges include both bounds, as the COCO evaluation tool's do:
+//     small [0, 32²], medium [32², 96²], large [96², 1e5²], all [0, 1e5²];
+//     32² is small and medium, 96² medium and large.
+//   - A threshold t matches IoU ≥ min(t, 1−1e-10), as the COCO evaluation
+//     tool does, so a threshold of 1 accepts IoU that rounding left just
+//     below 1.
+//
+// AveragePrecision itself keeps exact recall levels for every
+// interpolation.
 package eval
 
 import (
@@ -144,13 +165,13 @@ func ParseInterpolation(s string) (Interpolation, error) {
 type AreaRange int
 
 const (
-	// All keeps every size.
+	// All keeps every size up to 1e5² (as the COCO evaluation tool).
 	All AreaRange = iota
-	// Small keeps areas below 32².
+	// Small keeps areas up to 32² inclusive.
 	Small
 	// Medium keeps areas from 32² to 96² inclusive.
 	Medium
-	// Large keeps areas above 96².
+	// Large keeps areas from 96² (inclusive) to 1e5².
 	Large
 )
 
@@ -169,17 +190,20 @@ func (a AreaRange) String() string {
 	return fmt.Sprintf("AreaRange(%d)", int(a))
 }
 
-// contains reports whether an area lies in the range.
+// contains reports whether an area lies in the range. The bounds are the
+// COCO evaluation tool's, both inclusive: all [0, 1e5²], small [0, 32²],
+// medium [32², 96²], large [96², 1e5²].
 func (a AreaRange) contains(area float64) bool {
+	const top = 1e5 * 1e5
 	switch a {
 	case Small:
-		return area < 32*32
+		return area <= 32*32
 	case Medium:
 		return area >= 32*32 && area <= 96*96
 	case Large:
-		return area > 96*96
+		return area >= 96*96 && area <= top
 	}
-	return true
+	return area <= top
 }
 
 // Truth is one ground-truth box.
@@ -220,8 +244,9 @@ type Options struct {
 	// PlusOne uses pixel-inclusive areas (x1−x0+1)(y1−y0+1) as older
 	// toolkits did; otherwise areas are continuous.
 	PlusOne bool
-	// MaxDetections caps COCO predictions per image, highest scores kept;
-	// 0 means 100 and a negative value means no cap.
+	// MaxDetections caps COCO predictions per image and class, highest
+	// scores kept (as the COCO evaluation tool cuts them); 0 means 100 and
+	// a negative value means no cap.
 	MaxDetections int
 	// AreaRange limits COCO evaluation to one size of object.
 	AreaRange AreaRange
@@ -230,16 +255,32 @@ type Options struct {
 	ScoreThreshold float64
 }
 
-// COCOThresholds returns 0.50, 0.55, …, 0.95, each computed as k/100 so that
-// every value is the float64 nearest the decimal (0.80 is 0.8, not
-// 0.8000000000000002).
+// COCOThresholds returns the ten IoU thresholds 0.50:0.05:0.95 as the COCO
+// evaluation tool computes them, np.linspace(.5, .95, 10): start + k·step
+// with step = (0.95 − 0.5)/9 in float64 and the last exactly 0.95. So 0.9
+// is 0.8999999999999999; the others are the float64 nearest their decimal.
 func COCOThresholds() []float64 {
-	t := make([]float64, 0, 10)
-	for k := 50; k <= 95; k += 5 {
-		t = append(t, float64(k)/100)
-	}
-	return t
+	return linspace(0.5, 0.95, 10)
 }
+
+// linspace is numpy's linspace(start, stop, num) with endpoint: y_k =
+// k·step + start with step = (stop − start)/(num − 1), each operation
+// rounded to float64 (the conversions keep the compiler from fusing them),
+// and y_{num−1} = stop.
+func linspace(start, stop float64, num int) []float64 {
+	step := float64(stop-start) / float64(num-1)
+	y := make([]float64, num)
+	for k := range y {
+		y[k] = float64(float64(k)*step) + start
+	}
+	y[num-1] = stop
+	return y
+}
+
+// cocoRecallLevels are the COCO evaluation tool's recall levels
+// np.linspace(0, 1, 101): k·0.01 in float64, so ten of them (0.35, 0.41,
+// 0.47, 0.57, 0.69, 0.70, 0.82, 0.83, 0.94, 0.95) lie one ulp above k/100.
+var cocoRecallLevels = linspace(0, 1, 101)
 
 // area is the box area under the chosen convention.
 func area(b project.Box, plusOne bool) float64 {
@@ -253,10 +294,24 @@ func area(b project.Box, plusOne bool) float64 {
 	return w * h
 }
 
-// intersection is the overlap area under the chosen convention.
+// intersection is the overlap area under the chosen convention. Boxes are
+// finite, so plain comparisons stand in for math.Min and math.Max (the sign
+// of a zero could differ, which the w, h ≤ 0 test makes moot).
 func intersection(a, b project.Box, plusOne bool) float64 {
-	w := math.Min(a.X1, b.X1) - math.Max(a.X0, b.X0)
-	h := math.Min(a.Y1, b.Y1) - math.Max(a.Y0, b.Y0)
+	x0, x1, y0, y1 := a.X0, a.X1, a.Y0, a.Y1
+	if b.X0 > x0 {
+		x0 = b.X0
+	}
+	if b.X1 < x1 {
+		x1 = b.X1
+	}
+	if b.Y0 > y0 {
+		y0 = b.Y0
+	}
+	if b.Y1 < y1 {
+		y1 = b.Y1
+	}
+	w, h := x1-x0, y1-y0
 	if plusOne {
 		w, h = w+1, h+1
 	}
@@ -352,7 +407,7 @@ func Evaluate(truths []Truth, preds []Prediction, opt Options) (Result, error) {
 	outs := e.matchAll(first, main)
 	res := e.predictionResults(outs)
 	var p pool
-	res.Classes, p = e.classResults(outs)
+	res.Classes, p = e.classResults(outs, &res)
 	summarize(&res, p)
 	return res, nil
 }
@@ -366,6 +421,9 @@ func checkInputs(truths []Truth, preds []Prediction, opt Options) (first float64
 	}
 	if opt.Interpolation < AllPoint || opt.Interpolation > Step {
 		return 0, nil, fmt.Errorf("eval: unknown interpolation %d", int(opt.Interpolation))
+	}
+	if len(truths) > math.MaxInt32 || len(preds) > math.MaxInt32 {
+		return 0, nil, fmt.Errorf("eval: %d truths and %d predictions: at most %d of each", len(truths), len(preds), math.MaxInt32)
 	}
 	for i, t := range truths {
 		if !t.Box.Valid() {
@@ -412,29 +470,50 @@ func thresholds(opt Options) (first float64, main []float64, err error) {
 	return main[0], main, nil
 }
 
-// evaluation is the state that Evaluate's stages share.
+// evaluation is the state that Evaluate's stages share; see
+// groupByImageClass for the rank (R), class (C) and group (G) orders.
 type evaluation struct {
-	truths  []Truth
-	preds   []Prediction
-	opt     Options
-	coco    bool
-	truthIg []bool // truths that do not count
-	order   []int  // prediction indices by descending score, stable
-	dropped []bool // COCO predictions beyond MaxDetections on their image
+	truths    []Truth
+	preds     []Prediction
+	opt       Options
+	coco      bool
+	maxDet    int       // COCO cap per image and class; 0 for none
+	truthIg   []bool    // truths that do not count
+	order     []int32   // R → prediction index
+	rankScore []float64 // R → score
 
 	// Set by groupByImageClass.
-	groups      []*group        // by image, then class
-	classTruths map[int64]int   // counted truths, for every class with truths
-	classPreds  map[int64][]int // input indices in score order
+	classIDs    []int64 // ascending; dense class k is classIDs[k]
+	truthClass  []int32 // dense class of each truth
+	predClass   []int32 // dense class of each prediction
+	classTruths []int   // counted truths per dense class
+	classOff    []int32 // class k is C positions classOff[k] to classOff[k+1]
+	classRanked []int32 // C → prediction index
+	classScore  []float64
+	gPreds      []int32 // G → prediction index
+	gClassPos   []int32 // G → C
+	gBox        []project.Box
+	gTruths     []int32 // truths in group order: truth index
+	gTBox       []project.Box
+	gTCrowd     []bool
+	gTIg        []bool
+	groups      []group
+	dropped     []int32 // G positions of COCO predictions beyond the cap
 }
 
-// newEvaluation runs the stages that need no grouping: ignored truths,
-// the score ranking and the MaxDetections cut.
+// newEvaluation runs the stages that need no grouping: ignored truths and
+// the score ranking.
 func newEvaluation(truths []Truth, preds []Prediction, opt Options) *evaluation {
 	e := &evaluation{truths: truths, preds: preds, opt: opt, coco: opt.Protocol == COCO}
+	if e.coco {
+		e.maxDet = opt.MaxDetections
+		if e.maxDet == 0 {
+			e.maxDet = 100
+		}
+		e.maxDet = max(e.maxDet, 0)
+	}
 	e.truthIg = e.ignoredTruths()
-	e.order = rankByScore(preds)
-	e.dropped = e.overMaxDetections()
+	e.order, e.rankScore = rankByScore(preds, e.coco)
 	return e
 }
 
@@ -448,72 +527,131 @@ func (e *evaluation) ignoredTruths() []bool {
 	return truthIg
 }
 
-// rankByScore ranks all predictions once; groups and classes inherit the
-// order.
-func rankByScore(preds []Prediction) []int {
-	order := make([]int, len(preds))
-	for i := range order {
-		order[i] = i
+// rankByScore ranks all predictions once, by descending score, equal
+// scores by input order; under COCO equal scores go by image ID first,
+// then input order, as the COCO evaluation tool ranks them. Groups and
+// classes inherit the order. A stable radix sort on the scores' bits keeps
+// input order among equal scores; runs of equal scores are then sorted by
+// image under COCO.
+func rankByScore(preds []Prediction, coco bool) (order []int32, scores []float64) {
+	n := len(preds)
+	keys := make([]uint64, n)
+	order = make([]int32, n)
+	negZero := false
+	for i := range preds {
+		s := preds[i].Score
+		negZero = negZero || (s == 0 && math.Signbit(s))
+		keys[i], order[i] = descendingKey(s), int32(i)
 	}
-	// Scores are finite (checkInputs), so cmp.Compare's NaN order never
-	// applies.
-	slices.SortStableFunc(order, func(a, b int) int { return cmp.Compare(preds[b].Score, preds[a].Score) })
-	return order
+	radixSort(keys, order)
+	if coco {
+		for lo := 0; lo < n; {
+			hi := lo + 1
+			for hi < n && keys[hi] == keys[lo] {
+				hi++
+			}
+			if hi-lo > 1 {
+				slices.SortFunc(order[lo:hi], func(a, b int32) int {
+					return cmp.Or(cmp.Compare(preds[a].ImageID, preds[b].ImageID), cmp.Compare(a, b))
+				})
+			}
+			lo = hi
+		}
+	}
+	// The keys give back the scores, except that −0 became 0.
+	scores = make([]float64, n)
+	for r, k := range keys {
+		if negZero {
+			scores[r] = preds[order[r]].Score
+		} else {
+			scores[r] = scoreOfKey(k)
+		}
+	}
+	return order, scores
 }
 
-// overMaxDetections marks, under COCO, the predictions that rank beyond
-// MaxDetections on their image.
-func (e *evaluation) overMaxDetections() []bool {
-	dropped := make([]bool, len(e.preds))
-	if e.coco {
-		maxDet := e.opt.MaxDetections
-		if maxDet == 0 {
-			maxDet = 100
-		}
-		if maxDet > 0 {
-			perImage := make(map[int64]int)
-			for _, i := range e.order {
-				n := perImage[e.preds[i].ImageID]
-				if n >= maxDet {
-					dropped[i] = true
-				}
-				perImage[e.preds[i].ImageID] = n + 1
-			}
+// descendingKey maps a finite score to a key whose ascending order is the
+// scores' descending order; 0 and −0 get the same key.
+func descendingKey(s float64) uint64 {
+	if s == 0 {
+		s = 0
+	}
+	b := math.Float64bits(s)
+	if b>>63 != 0 {
+		b = ^b // negative: larger magnitude sorts lower
+	} else {
+		b |= 1 << 63
+	}
+	return ^b
+}
+
+// scoreOfKey inverts descendingKey.
+func scoreOfKey(k uint64) float64 {
+	b := ^k
+	if b>>63 != 0 {
+		b &^= 1 << 63
+	} else {
+		b = ^b
+	}
+	return math.Float64frombits(b)
+}
+
+// radixSort sorts keys ascending, carrying vals along, stably: a
+// least-significant-digit radix sort on bytes that skips the bytes all keys
+// share.
+func radixSort(keys []uint64, vals []int32) {
+	n := len(keys)
+	var hist [8][256]int
+	for _, k := range keys {
+		for d := range 8 {
+			hist[d][byte(k>>(8*d))]++
 		}
 	}
-	return dropped
+	srcK, srcV := keys, vals
+	dstK, dstV := make([]uint64, n), make([]int32, n)
+	for d := range 8 {
+		h := &hist[d]
+		if n == 0 || h[byte(srcK[0]>>(8*d))] == n {
+			continue // every key has this byte
+		}
+		pos := 0
+		for b := range h {
+			c := h[b]
+			h[b] = pos
+			pos += c
+		}
+		for i, k := range srcK {
+			b := byte(k >> (8 * d))
+			dstK[h[b]], dstV[h[b]] = k, srcV[i]
+			h[b]++
+		}
+		srcK, dstK, srcV, dstV = dstK, srcK, dstV, srcV
+	}
+	if n > 0 && &srcK[0] != &keys[0] {
+		copy(keys, srcK)
+		copy(vals, srcV)
+	}
 }
 
 // predictionResults starts the result with the per-prediction and
 // per-truth figures at the first threshold.
 func (e *evaluation) predictionResults(outs outcomes) Result {
 	res := Result{
-		PredMatch:    outs.match,
+		PredMatch:    make([]int, len(e.preds)),
 		PredTP:       make([]bool, len(e.preds)),
 		PredIgnored:  make([]bool, len(e.preds)),
 		TruthMatched: make([]bool, len(e.truths)),
 	}
-	for i, o := range outs.first {
+	nu := len(outs.thr)
+	for g, i := range e.gPreds {
+		o := outs.o[int(e.gClassPos[g])*nu+outs.first]
 		res.PredTP[i] = o == outTP
 		res.PredIgnored[i] = o == outIgnored
-		if outs.match[i] >= 0 {
-			res.TruthMatched[outs.match[i]] = true
+		t := outs.match[g]
+		res.PredMatch[i] = int(t)
+		if t >= 0 {
+			res.TruthMatched[t] = true
 		}
 	}
 	return res
-}
-
-// classIDs lists every class that has truths or predictions, ascending.
-func (e *evaluation) classIDs() []int64 {
-	ids := make([]int64, 0, len(e.classTruths)+len(e.classPreds))
-	for c := range e.classTruths {
-		ids = append(ids, c)
-	}
-	for c := range e.classPreds {
-		if _, ok := e.classTruths[c]; !ok {
-			ids = append(ids, c)
-		}
-	}
-	slices.Sort(ids)
-	return ids
 }

@@ -1,7 +1,13 @@
 package eval
 
 import (
+	"cmp"
+	"encoding/json"
 	"math"
+	"math/rand/v2"
+	"os/exec"
+	"reflect"
+	"runtime"
 	"slices"
 	"testing"
 
@@ -79,12 +85,63 @@ func TestRecallLevelsExact(t *testing.T) {
 }
 
 // TestCOCOThresholds: the ten thresholds 0.50:0.05:0.95 of the COCO
-// detection evaluation (common practice), each the float64 nearest its
-// decimal.
+// detection evaluation (common practice) as the COCO evaluation tool makes
+// them, np.linspace(.5, .95, 10) (its Params, from memory); the values are
+// numpy 1.24.2's (Debian 12 python3-numpy), printed with repr: only .90
+// differs from its decimal. Where /usr/bin/python3 has numpy the test asks
+// it as well.
 func TestCOCOThresholds(t *testing.T) {
-	want := []float64{0.50, 0.55, 0.60, 0.65, 0.70, 0.75, 0.80, 0.85, 0.90, 0.95}
-	if got := COCOThresholds(); !slices.Equal(got, want) {
+	want := []float64{0.5, 0.55, 0.6, 0.65, 0.7, 0.75, 0.8, 0.85, 0.8999999999999999, 0.95}
+	got := COCOThresholds()
+	if !slices.Equal(got, want) {
 		t.Errorf("COCOThresholds() = %v, want %v", got, want)
+	}
+	// np.linspace(0, 1, 101): levels 35, 41, 47, 57, 69, 70, 82, 83, 94
+	// and 95 differ from k/100, each one ulp above (numpy 1.24.2).
+	var above []int
+	for k, r := range cocoRecallLevels {
+		if r != float64(k)/100 {
+			above = append(above, k)
+			if r != math.Nextafter(float64(k)/100, 2) {
+				t.Errorf("recall level %d = %v, not one ulp above %v", k, r, float64(k)/100)
+			}
+		}
+	}
+	if want := []int{35, 41, 47, 57, 69, 70, 82, 83, 94, 95}; !slices.Equal(above, want) || len(cocoRecallLevels) != 101 || cocoRecallLevels[100] != 1 {
+		t.Errorf("recall levels off k/100 at %v, want %v", above, want)
+	}
+	out, err := exec.Command("/usr/bin/python3", "-c",
+		"import numpy as np, json; print(json.dumps([np.linspace(.5, .95, 10).tolist(), np.linspace(0, 1, 101).tolist()]))").Output()
+	if err != nil {
+		t.Logf("numpy not at hand (%v): the hard-coded values only", err)
+		return
+	}
+	var np [2][]float64
+	if err := json.Unmarshal(out, &np); err != nil {
+		t.Fatalf("numpy printed %q: %v", out, err)
+	}
+	if !slices.Equal(np[0], got) || !slices.Equal(np[1], cocoRecallLevels) {
+		t.Errorf("numpy's linspace %v and %v, ours %v and %v", np[0], np[1], got, cocoRecallLevels)
+	}
+}
+
+// TestCOCOThresholdOne: COCOeval matches at min(t, 1−1e-10) (its
+// evaluateImg, from memory; testdata/coco_reference.py), so at threshold 1
+// a prediction whose IoU rounding left a hair below 1 still matches: truth
+// [0,10]², prediction [0,10]×[0,10+1e-12], IoU 100/(100+1e-11).
+func TestCOCOThresholdOne(t *testing.T) {
+	truths := []Truth{{ImageID: 1, ClassID: 1, Box: bx(0, 0, 10, 10)}}
+	preds := []Prediction{{ImageID: 1, ClassID: 1, Box: bx(0, 0, 10, 10+1e-12), Score: 1}}
+	if v := IoU(preds[0].Box, truths[0].Box, false); !(v < 1 && v >= 1-1e-10) {
+		t.Fatalf("IoU %v, want just below 1", v)
+	}
+	r := mustEval(t, truths, preds, Options{Protocol: COCO, IoUs: []float64{1}})
+	if !r.PredTP[0] || r.MAP != 1 {
+		t.Errorf("COCO at threshold 1: TP %v AP %v, want a match and AP 1", r.PredTP[0], r.MAP)
+	}
+	// VOC keeps the plain comparison: IoU < 1 misses threshold 1.
+	if r := mustEval(t, truths, preds, Options{Protocol: VOC, IoU: 1}); r.PredTP[0] {
+		t.Error("VOC at threshold 1 matched IoU below 1")
 	}
 }
 
@@ -117,8 +174,9 @@ func TestThresholdEqualityCounts(t *testing.T) {
 	}
 }
 
-// TestStableTies: equal scores keep input order, so the first listed of two
-// identical predictions takes the truth.
+// TestStableTies: equal scores on one image keep input order, so the first
+// listed of two identical predictions takes the truth (across images COCO
+// ranks equal scores by image ID: TestCOCOevalDifferences).
 func TestStableTies(t *testing.T) {
 	truths := []Truth{{ImageID: 1, ClassID: 1, Box: bx(0, 0, 10, 10)}}
 	preds := []Prediction{
@@ -136,6 +194,54 @@ func TestStableTies(t *testing.T) {
 			t.Errorf("%v reversed: TP flags %v, want the first listed", p, r.PredTP)
 		}
 		slices.Reverse(preds)
+	}
+}
+
+// TestRankByScore: the radix ranking equals a stable comparison sort by
+// descending score (COCO: then by image ID) on scores with ties, negative
+// values, ±0, tiny and huge magnitudes, for list lengths around the sort's
+// edge cases; and the scores it hands on are the predictions' own, bit for
+// bit (−0 included).
+func TestRankByScore(t *testing.T) {
+	r := rand.New(rand.NewPCG(9, 9))
+	pool := []float64{0, math.Copysign(0, -1), 1, -1, 0.5, -0.5, 1e-300, -1e-300, 1e300, -1e300,
+		math.SmallestNonzeroFloat64, -math.MaxFloat64, math.MaxFloat64, 0.25, 0.75}
+	for run, n := range []int{0, 1, 2, 3, 17, 300, 5000, 300, 5000} {
+		preds := make([]Prediction, n)
+		for i := range preds {
+			s := r.Float64()*2 - 1
+			if r.IntN(3) == 0 {
+				s = pool[r.IntN(len(pool))]
+			}
+			if run < 7 && s == 0 {
+				s = 0 // −0 only in the last two runs: both ways of handing on scores
+			}
+			preds[i] = Prediction{ImageID: int64(r.IntN(7)), Score: s}
+		}
+		for _, coco := range []bool{false, true} {
+			want := make([]int32, n)
+			for i := range want {
+				want[i] = int32(i)
+			}
+			slices.SortStableFunc(want, func(a, b int32) int {
+				if c := cmp.Compare(preds[b].Score, preds[a].Score); c != 0 {
+					return c
+				}
+				if coco {
+					return cmp.Compare(preds[a].ImageID, preds[b].ImageID)
+				}
+				return 0
+			})
+			got, scores := rankByScore(preds, coco)
+			if !slices.Equal(got, want) {
+				t.Errorf("n %d coco %v: order %v, want %v", n, coco, got, want)
+			}
+			for r, i := range got {
+				if math.Float64bits(scores[r]) != math.Float64bits(preds[i].Score) {
+					t.Errorf("n %d coco %v: rank %d score %v, want %v", n, coco, r, scores[r], preds[i].Score)
+				}
+			}
+		}
 	}
 }
 
@@ -250,28 +356,49 @@ func TestCOCOAreaRange(t *testing.T) {
 	if c := r.Classes[0]; c.Truths != 0 || c.TP != 0 || c.FP != 0 || !math.IsNaN(c.AP) || !math.IsNaN(r.MAP) {
 		t.Errorf("medium: truths %d TP %d FP %d AP %v mAP %v", c.Truths, c.TP, c.FP, c.AP, r.MAP)
 	}
-	// 32² is medium, not small.
-	if Small.contains(32*32) || !Medium.contains(32*32) || !Medium.contains(96*96) || !Large.contains(96*96+1) {
-		t.Error("area range bounds")
+	// COCOeval's ranges include both bounds (its Params.areaRng [0, 32²],
+	// [32², 96²], [96², 1e5²] and [0, 1e5²] for all, from memory): 32² is
+	// small and medium, 96² medium and large (TestCOCOevalDifferences
+	// checks this against the transcription). Before Evaluate followed the
+	// tool, small and large excluded the bounds.
+	for _, c := range []struct {
+		a    AreaRange
+		area float64
+		want bool
+	}{
+		{Small, 32 * 32, true}, {Small, 32*32 + 1e-9, false},
+		{Medium, 32*32 - 1e-9, false}, {Medium, 32 * 32, true}, {Medium, 96 * 96, true}, {Medium, 96*96 + 1e-9, false},
+		{Large, 96*96 - 1e-9, false}, {Large, 96 * 96, true}, {Large, 1e10, true}, {Large, 1e10 + 1e-3, false},
+		{All, 0, true}, {All, 1e10, true}, {All, 1e10 + 1e-3, false},
+	} {
+		if got := c.a.contains(c.area); got != c.want {
+			t.Errorf("%v contains %v: %v, want %v", c.a, c.area, got, c.want)
+		}
 	}
 }
 
-// TestCOCOMaxDetections: only the highest-scoring MaxDetections per image,
-// over all classes, are counted.
+// TestCOCOMaxDetections: only the highest-scoring MaxDetections per image
+// and class are counted, as COCOeval cuts them (maxDets per image and
+// category, from memory; TestCOCOevalDifferences checks it against the
+// transcription). Before Evaluate followed the tool, the cap was per image
+// over all classes, and the class-2 box here used up one of image 1's two
+// places.
 func TestCOCOMaxDetections(t *testing.T) {
 	truths := []Truth{{ImageID: 1, ClassID: 1, Box: bx(0, 0, 10, 10)}, {ImageID: 2, ClassID: 1, Box: bx(0, 0, 10, 10)}}
 	preds := []Prediction{
-		{ImageID: 1, ClassID: 1, Box: bx(0, 0, 10, 10), Score: 0.1}, // lowest on image 1: dropped
+		{ImageID: 1, ClassID: 1, Box: bx(0, 0, 10, 10), Score: 0.1}, // lowest of class 1 on image 1: dropped
 		{ImageID: 1, ClassID: 2, Box: bx(50, 50, 60, 60), Score: 0.9},
 		{ImageID: 1, ClassID: 1, Box: bx(80, 80, 90, 90), Score: 0.5},
+		{ImageID: 1, ClassID: 1, Box: bx(80, 0, 90, 10), Score: 0.3},
+		{ImageID: 1, ClassID: 2, Box: bx(50, 0, 60, 10), Score: 0.2}, // class 2's second: kept
 		{ImageID: 2, ClassID: 1, Box: bx(0, 0, 10, 10), Score: 0.05}, // own image: kept
 	}
 	r := mustEval(t, truths, preds, Options{Protocol: COCO, MaxDetections: 2})
-	if want := []bool{true, false, false, false}; !slices.Equal(r.PredIgnored, want) {
+	if want := []bool{true, false, false, false, false, false}; !slices.Equal(r.PredIgnored, want) {
 		t.Errorf("ignored %v, want %v", r.PredIgnored, want)
 	}
-	if r.Classes[0].TP != 1 || r.Classes[0].FP != 1 {
-		t.Errorf("class 1 TP %d FP %d, want 1 1", r.Classes[0].TP, r.Classes[0].FP)
+	if r.Classes[0].TP != 1 || r.Classes[0].FP != 2 || r.Classes[1].FP != 2 {
+		t.Errorf("class 1 TP %d FP %d, class 2 FP %d; want 1 2 2", r.Classes[0].TP, r.Classes[0].FP, r.Classes[1].FP)
 	}
 	r = mustEval(t, truths, preds, Options{Protocol: COCO, MaxDetections: -1})
 	if r.Classes[0].TP != 2 {
@@ -415,5 +542,69 @@ func TestConfusionNoOverlap(t *testing.T) {
 		[]Prediction{{ImageID: 1, ClassID: 1, Box: bx(5, 5, 6, 6), Score: 1}}, []int64{1}, 0, false)
 	if cf.Counts[0][0] != 0 || cf.Counts[0][1] != 1 || cf.Counts[1][0] != 1 {
 		t.Errorf("counts %v, want one missed and one false alarm", cf.Counts)
+	}
+}
+
+// TestEvaluateEmpty: no input, only truths, or only predictions, under both
+// protocols: no panic, AP NaN without truths and 0 without predictions.
+func TestEvaluateEmpty(t *testing.T) {
+	truths := []Truth{{ImageID: 1, ClassID: 1, Box: bx(0, 0, 10, 10)}}
+	preds := []Prediction{{ImageID: 1, ClassID: 1, Box: bx(0, 0, 10, 10), Score: 1}}
+	for _, p := range []Protocol{VOC, COCO} {
+		r := mustEval(t, nil, nil, Options{Protocol: p})
+		if len(r.Classes) != 0 || !math.IsNaN(r.MAP) {
+			t.Errorf("%v, nothing: classes %v mAP %v", p, r.Classes, r.MAP)
+		}
+		if r := mustEval(t, truths, nil, Options{Protocol: p}); len(r.Classes) != 1 || r.MAP != 0 || r.TruthMatched[0] {
+			t.Errorf("%v, truths only: %+v", p, r)
+		}
+		if r := mustEval(t, nil, preds, Options{Protocol: p}); len(r.Classes) != 1 || !math.IsNaN(r.MAP) || r.Classes[0].FP != 1 || r.PredMatch[0] != -1 {
+			t.Errorf("%v, predictions only: %+v", p, r)
+		}
+	}
+}
+
+// TestParallelSameResult: the work shared out over goroutines gives the
+// same result, to the bit, as on one: a scene above the size where the
+// sharing starts, both protocols, GOMAXPROCS 1 and 4.
+func TestParallelSameResult(t *testing.T) {
+	truths, preds := scene(11, 300, 3000, 30000, 5, 20)
+	for _, opt := range []Options{{Protocol: COCO, Interpolation: Point101}, {Protocol: VOC, Interpolation: AllPoint}} {
+		prev := runtime.GOMAXPROCS(1)
+		one := mustEval(t, truths, preds, opt)
+		runtime.GOMAXPROCS(4)
+		four := mustEval(t, truths, preds, opt)
+		runtime.GOMAXPROCS(prev)
+		if math.IsNaN(one.MAP) || !reflect.DeepEqual(one, four) {
+			t.Errorf("%v: results differ between 1 and 4 goroutines (mAP %v, %v)", opt.Protocol, one.MAP, four.MAP)
+		}
+	}
+}
+
+// TestBestF1Scan: the per-class scan gives what bestF1 gives on the whole
+// list, on random ranked lists with many tied scores.
+func TestBestF1Scan(t *testing.T) {
+	r := rand.New(rand.NewPCG(5, 5))
+	for c := 0; c < 300; c++ {
+		list := make([]scored, r.IntN(30))
+		for i := range list {
+			list[i] = scored{float64(r.IntN(6)) / 5, r.IntN(2) == 0}
+		}
+		slices.SortStableFunc(list, func(a, b scored) int { return cmp.Compare(b.score, a.score) })
+		n := 1 + r.IntN(20)
+		var b bestF1Scan
+		tp, fp := 0, 0
+		for _, s := range list {
+			b.next(s.score, tp, fp, n)
+			if s.tp {
+				tp++
+			} else {
+				fp++
+			}
+		}
+		b.next(math.NaN(), tp, fp, n)
+		if f, th := bestF1(list, n); f != b.f1 || th != b.threshold {
+			t.Fatalf("list %v, %d truths: scan %v at %v, bestF1 %v at %v", list, n, b.f1, b.threshold, f, th)
+		}
 	}
 }

@@ -1,101 +1,173 @@
 package eval
 
 import (
-	"cmp"
 	"math"
-	"slices"
 )
 
-// apScorer computes AP from outcomes, reusing one buffer for all classes.
+// apScorer computes a class's AP at every threshold, reusing its buffers.
 type apScorer struct {
-	interp Interpolation
-	tp     []bool
+	interp     Interpolation
+	cocoLevels bool        // Point101 at the COCO evaluation tool's recall levels
+	counted    []int       // per threshold, predictions counted so far
+	prec       [][]float64 // per threshold, the precision at each true positive
 }
 
-// at is the AP of the ranked predictions under outcomes o with n truths;
-// ignored predictions are left out of the ranking.
-func (a *apScorer) at(ranked []int, o []int8, n int) float64 {
-	a.tp = a.tp[:0]
-	for _, i := range ranked {
-		if o[i] != outIgnored {
-			a.tp = append(a.tp, o[i] == outTP)
+// all fills aps with the AP, at each threshold of outs, of the predictions
+// at class positions lo to hi (one class, in rank order) with n truths;
+// ignored predictions are left out of the ranking. One pass serves every
+// threshold.
+func (a *apScorer) all(lo, hi int, outs *outcomes, n int, aps []float64) {
+	nu := len(outs.thr)
+	if n <= 0 {
+		for u := range aps {
+			aps[u] = math.NaN()
+		}
+		return
+	}
+	a.counted = grow(a.counted, nu)
+	clear(a.counted)
+	a.prec = grow(a.prec, nu)
+	for u := range a.prec {
+		a.prec[u] = a.prec[u][:0]
+	}
+	for c := lo; c < hi; c++ {
+		for u, o := range outs.o[c*nu : c*nu+nu] {
+			if o == outIgnored {
+				continue
+			}
+			a.counted[u]++
+			if o == outTP {
+				a.prec[u] = append(a.prec[u], float64(len(a.prec[u])+1)/float64(a.counted[u]))
+			}
 		}
 	}
-	return AveragePrecision(a.tp, n, a.interp)
+	for u := range aps {
+		aps[u] = apAtHits(a.prec[u], n, a.interp, a.cocoLevels)
+	}
 }
 
-// mean is the mean of at over several thresholds' outcomes.
-func (a *apScorer) mean(ranked []int, outs [][]int8, n int) float64 {
+// mean is the mean of the APs ap[u] over the thresholds us.
+func mean(ap []float64, us []int) float64 {
 	s := 0.0
-	for _, o := range outs {
-		s += a.at(ranked, o, n)
+	for _, u := range us {
+		s += ap[u]
 	}
-	return s / float64(len(outs))
+	return s / float64(len(us))
 }
 
 // pool gathers the counted predictions of all classes for the pooled
 // figures.
 type pool struct {
-	list      []scored // class after class, each in score order
+	list      []scored // in score order
 	tp, fp, n int      // tp and fp at Options.ScoreThreshold; n truths
 }
 
-// classResults computes each class's figures in classIDs order and pools
-// their predictions.
-func (e *evaluation) classResults(outs outcomes) ([]ClassResult, pool) {
-	ap := &apScorer{interp: e.opt.Interpolation}
-	var classes []ClassResult
+// classResults computes each class's figures in classIDs order, classes
+// shared out over GOMAXPROCS goroutines, and pools their predictions (res
+// holds the per-prediction outcomes at the first threshold).
+func (e *evaluation) classResults(outs outcomes, res *Result) ([]ClassResult, pool) {
+	nc := len(e.classIDs)
+	classes := make([]ClassResult, nc)
+	tpAt, fpAt := make([]int, nc), make([]int, nc)
+	workers := workersFor(nc, len(e.preds))
+	scorers := make([]apScorer, workers)
+	parallel(nc, workers, func(w, lo, hi int) {
+		ap := &scorers[w]
+		ap.interp, ap.cocoLevels = e.opt.Interpolation, e.coco
+		for c := lo; c < hi; c++ {
+			classes[c], tpAt[c], fpAt[c] = e.classResult(c, &outs, ap)
+		}
+	})
 	var p pool
-	for _, c := range e.classIDs() {
-		cr, list, tpAt, fpAt := e.classResult(c, outs, ap)
-		p.tp += tpAt
-		p.fp += fpAt
-		p.n += cr.Truths
-		p.list = append(p.list, list...)
-		classes = append(classes, cr)
+	for c := range classes {
+		p.tp += tpAt[c]
+		p.fp += fpAt[c]
+		p.n += classes[c].Truths
+	}
+	// The ranking is in score order already; ties may come in any order,
+	// as bestF1 only cuts where the score changes.
+	p.list = make([]scored, 0, len(e.order))
+	for r, i := range e.order {
+		if !res.PredIgnored[i] {
+			p.list = append(p.list, scored{e.rankScore[r], res.PredTP[i]})
+		}
 	}
 	return classes, p
 }
 
-// classResult computes the figures of class c. It also returns the class's
-// counted predictions in score order and its TP and FP at
-// Options.ScoreThreshold, for pooling.
-func (e *evaluation) classResult(c int64, outs outcomes, ap *apScorer) (cr ClassResult, list []scored, tpAt, fpAt int) {
-	ranked := e.classPreds[c]
+// classResult computes the figures of dense class c, and its TP and FP at
+// Options.ScoreThreshold for pooling.
+func (e *evaluation) classResult(c int, outs *outcomes, ap *apScorer) (cr ClassResult, tpAt, fpAt int) {
+	lo, hi := int(e.classOff[c]), int(e.classOff[c+1])
 	n := e.classTruths[c]
-	cr = ClassResult{ClassID: c, Truths: n, Predictions: len(ranked)}
-	cr.AP = ap.mean(ranked, outs.main, n)
-	cr.AP50 = ap.at(ranked, outs.at50, n)
-	cr.AP75 = ap.at(ranked, outs.at75, n)
-	cr.AP50_95 = ap.mean(ranked, outs.coco, n)
+	cr = ClassResult{ClassID: e.classIDs[c], Truths: n, Predictions: hi - lo}
+	aps := make([]float64, len(outs.thr))
+	ap.all(lo, hi, outs, n, aps)
+	cr.AP = mean(aps, outs.main)
+	cr.AP50 = aps[outs.at50]
+	cr.AP75 = aps[outs.at75]
+	cr.AP50_95 = mean(aps, outs.coco)
 
-	for _, i := range ranked {
-		switch outs.first[i] {
-		case outIgnored:
+	nu, fu := len(outs.thr), outs.first
+	counted := 0
+	for k := lo; k < hi; k++ {
+		if outs.o[k*nu+fu] != outIgnored {
+			counted++
+		}
+	}
+	if counted > 0 {
+		cr.Curve = make([]Point, 0, counted)
+	}
+	// The best F1 is tried at the end of each run of equal scores (a
+	// threshold cannot split them), as bestF1 does.
+	var best bestF1Scan
+	for k := lo; k < hi; k++ {
+		o := outs.o[k*nu+fu]
+		if o == outIgnored {
 			continue
-		case outTP:
+		}
+		score := e.classScore[k]
+		best.next(score, cr.TP, cr.FP, n)
+		if o == outTP {
 			cr.TP++
-		default:
+		} else {
 			cr.FP++
 		}
-		isTP := outs.first[i] == outTP
-		list = append(list, scored{e.preds[i].Score, isTP})
 		cr.Curve = append(cr.Curve, Point{
 			Recall:    ratio(cr.TP, n),
 			Precision: ratio(cr.TP, cr.TP+cr.FP),
-			Score:     e.preds[i].Score,
+			Score:     score,
 		})
-		if e.preds[i].Score >= e.opt.ScoreThreshold {
-			if isTP {
+		if score >= e.opt.ScoreThreshold {
+			if o == outTP {
 				tpAt++
 			} else {
 				fpAt++
 			}
 		}
 	}
+	best.next(math.NaN(), cr.TP, cr.FP, n)
 	cr.Precision, cr.Recall, cr.F1 = prf(tpAt, fpAt, n)
-	cr.BestF1, cr.BestF1Threshold = bestF1(list, n)
-	return cr, list, tpAt, fpAt
+	cr.BestF1, cr.BestF1Threshold = best.f1, best.threshold
+	return cr, tpAt, fpAt
+}
+
+// bestF1Scan is bestF1 fed one counted prediction at a time, in score order.
+type bestF1Scan struct {
+	f1, threshold float64
+	last          float64
+	started       bool
+}
+
+// next tells the scan that a prediction with this score follows, tp and fp
+// counting the ones before it; NaN ends the list.
+func (b *bestF1Scan) next(score float64, tp, fp, n int) {
+	if b.started && score != b.last {
+		if _, _, f := prf(tp, fp, n); f > b.f1 {
+			b.f1, b.threshold = f, b.last
+		}
+	}
+	b.last, b.started = score, true
 }
 
 // summarize fills in the means over the classes with ground truth and the
@@ -119,7 +191,6 @@ func summarize(res *Result, p pool) {
 		res.MAP, res.AP50, res.AP75, res.AP50_95 = math.NaN(), math.NaN(), math.NaN(), math.NaN()
 	}
 	res.Precision, res.Recall, res.F1 = prf(p.tp, p.fp, p.n)
-	slices.SortStableFunc(p.list, func(a, b scored) int { return cmp.Compare(b.score, a.score) })
 	res.BestF1, res.BestF1Threshold = bestF1(p.list, p.n)
 }
 

@@ -55,10 +55,9 @@ Usage:
       ignored (the tool is single-threaded).
   coco_reference.py --json [--area A] DIR
       one evaluation for the tests; prints JSON {"iou_thresholds",
-      "coco": {"ap", "classes": {id: {"ap", "ap_at": [per IoU threshold]}}},
-      "exact_levels": the same at recall levels exactly k/100 (not
-      COCOeval's; see main)}. --area all|small|medium|large picks the area
-      range (default all; also accepted with --runs).
+      "coco": {"ap", "classes": {id: {"ap", "ap_at": [per IoU threshold]}}}}.
+      --area all|small|medium|large picks the area range (default all; also
+      accepted with --runs).
   coco_reference.py --runs K --full DIR
       as --runs, with COCOeval's default parameters (evaluate, accumulate
       and the 12 summary stats: all four area ranges, maxDets 1, 10, 100),
@@ -550,14 +549,6 @@ def main():
         e, m = run_once(gt, dt, a.area)
         out = {'iou_thresholds': [float(t) for t in e.params.iouThrs],
                'coco': figures(e, m)}
-        # The same matches accumulated at the recall levels k/100 exactly,
-        # NOT what COCOeval does: np.linspace(0, 1, 101) puts 10 of its
-        # levels (0.35, 0.41, 0.47, 0.57, 0.69, 0.70, 0.82, 0.83, 0.94,
-        # 0.95) one ulp above k/100, so a recall of exactly k/100 misses
-        # them. The tests use it to tell that difference from any other.
-        e.params.recThrs = np.array([k / 100 for k in range(101)])
-        e.accumulate()
-        out['exact_levels'] = figures(e, e.summarize_ap())
         print(json.dumps(out))
         return
     if a.runs < 1:
