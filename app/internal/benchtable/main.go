@@ -52,14 +52,14 @@ func rows() []row {
 	return []row{
 		{
 			name:     "exact NCC, 4000×3000 gray, 64×64, one scale",
-			ours:     side{pkg: "./suggest/exemplar", bench: "BenchmarkNCC12MPOneScale", benchtime: "3x"},
+			ours:     side{pkg: "./suggest/exemplar", bench: "BenchmarkNCC12MPOneScale", benchtime: "5x"},
 			ref:      side{script: []string{"/usr/bin/python3", "suggest/exemplar/compare_ncc.py", "--mode", "one-scale"}, runs: 3, threads: true},
 			refName:  "OpenCV matchTemplate",
 			maxRatio: 1.0, goal: "≤ 1.0×",
 		},
 		{
 			name:     "coarse-to-fine search, 5 scales",
-			ours:     side{pkg: "./suggest/exemplar", bench: "BenchmarkSearch12MPFiveScales", benchtime: "3x"},
+			ours:     side{pkg: "./suggest/exemplar", bench: "BenchmarkSearch12MPFiveScales", benchtime: "10x"},
 			ref:      side{script: []string{"/usr/bin/python3", "suggest/exemplar/compare_ncc.py", "--mode", "five-scales"}, runs: 2, threads: true},
 			refName:  "OpenCV, 5 scales exhaustive",
 			maxRatio: 0.1, goal: "≥ 10× faster",
@@ -67,13 +67,13 @@ func rows() []row {
 		{
 			name:     "import 200,000 boxes (corner/size JSON)",
 			ours:     side{pkg: "./app/cli", bench: "BenchmarkImportCommand200k", benchtime: "3x"},
-			ref:      side{script: []string{"bash", "store/compare_import.sh"}, runs: 3},
+			ref:      side{script: []string{"sh", "store/compare_import.sh"}, runs: 3},
 			refName:  "sqlite3 .import, one transaction",
 			maxRatio: 1.5, maxSeconds: 0.5, goal: "≤ 1.5×, ≤ 0.5 s, < 200 MB",
 		},
 		{
 			name:       "agree, 10,000 images × 2 × 20 boxes",
-			ours:       side{pkg: "./app/cli", bench: "BenchmarkAgreeCommand10000Images2Annotators", benchtime: "3x"},
+			ours:       side{pkg: "./app/cli", bench: "BenchmarkAgreeCommand10000Images2Annotators", benchtime: "5x"},
 			maxSeconds: 0.3, goal: "≤ 0.3 s",
 		},
 		{
@@ -116,7 +116,7 @@ func rows() []row {
 		},
 		{
 			name:     "COCO-style AP@[.50:.95], 5,000 images / 200,000 predictions",
-			ours:     side{pkg: "./project/eval", bench: "BenchmarkEvaluateCOCO", benchtime: "3x"},
+			ours:     side{pkg: "./project/eval", bench: "BenchmarkEvaluateCOCO", benchtime: "10x"},
 			ref:      side{script: []string{"/usr/bin/python3", "project/eval/testdata/coco_reference.py"}, runs: 1},
 			refName:  "reference Python (COCO procedure)",
 			maxRatio: 1.0 / 40, goal: "≥ 40× faster",
