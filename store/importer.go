@@ -168,14 +168,7 @@ func (s *Store) bulkTx(ctx context.Context, fn func(*sql.Tx) error) error {
 	}
 	defer conn.ExecContext(context.WithoutCancel(ctx), "PRAGMA temp_store = DEFAULT")
 	tx, err := s.beginWith(ctx, conn.BeginTx)
-	if err != nil {
-		return s.damaged(err)
-	}
-	if err := fn(tx); err != nil {
-		tx.Rollback()
-		return s.damaged(err)
-	}
-	return s.damaged(tx.Commit())
+	return s.runTx(tx, err, fn)
 }
 
 // labelInserter writes the labels of one import in multi-row INSERTs:

@@ -415,6 +415,12 @@ func (s *Store) DB() *sql.DB { return s.db }
 // tx runs fn in one write transaction; any error rolls everything back.
 func (s *Store) tx(ctx context.Context, fn func(*sql.Tx) error) error {
 	tx, err := s.begin(ctx)
+	return s.runTx(tx, err, fn)
+}
+
+// runTx runs fn in tx, just begun (or failed to begin with err), and
+// commits; any error rolls everything back.
+func (s *Store) runTx(tx *sql.Tx, err error, fn func(*sql.Tx) error) error {
 	if err != nil {
 		return s.damaged(err)
 	}
