@@ -14,7 +14,7 @@ import (
 
 // cocoReference is the COCO-style evaluation written out in plain Python +
 // numpy after the COCO dataset API's COCOeval (pycocotools is not packaged
-// by Debian; the transcription is from memory, see its header).
+// by Debian; the re-implementation is from memory, see its header).
 const cocoReference = "testdata/coco_reference.py"
 
 // cocoRefFigures are the figures of one accumulation.
@@ -69,7 +69,7 @@ func needNumpy(t *testing.T) {
 // TestCOCOAgainstReference scores seeded workloads of BenchmarkEvaluateCOCO's
 // kind (jittered and random boxes, crowd truths, random scores, areas from
 // 8² to 158²; the last one a tenth of the benchmark) with Evaluate and with
-// the transcription of COCOeval, and requires the same AP@[.50:.95] to 1e-9:
+// the re-implementation of COCOeval, and requires the same AP@[.50:.95] to 1e-9:
 // overall, per class, and per class at each IoU threshold (Evaluate with
 // that one threshold). Our COCO protocol follows the tool's conventions
 // (package doc), so this is COCOeval's own figure, linspace recall levels
@@ -174,10 +174,10 @@ func compareWithReference(t *testing.T, truths []Truth, preds []Prediction, area
 }
 
 // TestCOCOevalDifferences pins, on hand cases, the conventions in which
-// COCOeval (as transcribed in testdata, from memory) departs from the
+// COCOeval (as re-implemented in testdata, from memory) departs from the
 // textbook statement of the COCO protocol, and which our COCO protocol
 // follows so that its figures equal the tool's (package doc). Each case has
-// the hand-worked COCOeval value, which both Evaluate and the transcription
+// the hand-worked COCOeval value, which both Evaluate and the re-implementation
 // must give, and, in its comment, what the textbook convention would give
 // instead (what Evaluate gave before it followed the tool). Every box here
 // is exact, so IoU is 1 (or 0) at every threshold unless said otherwise.
@@ -305,10 +305,10 @@ func TestCOCOevalDifferences(t *testing.T) {
 }
 
 // TestCOCOBenchmarkAgainstReference scores BenchmarkEvaluateCOCO's own
-// workload with Evaluate and with the transcription of COCOeval and
+// workload with Evaluate and with the re-implementation of COCOeval and
 // requires the same AP@[.50:.95] to 1e-9, overall, per class and per class
 // at each IoU threshold: the benchmark row compares like with like. The
-// transcription takes some seconds here, so the test runs only when
+// re-implementation takes some seconds here, so the test runs only when
 // BENCH_DATA or EVAL_BENCH_REFERENCE is set.
 func TestCOCOBenchmarkAgainstReference(t *testing.T) {
 	if os.Getenv("BENCH_DATA") == "" && os.Getenv("EVAL_BENCH_REFERENCE") == "" {

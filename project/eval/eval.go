@@ -37,7 +37,7 @@
 //     there is no ground truth.
 //
 // The COCO protocol follows the COCO evaluation tool (the COCO API's
-// COCOeval, as transcribed in testdata/coco_reference.py) where it departs
+// COCOeval, as re-implemented in testdata/coco_reference.py) where it departs
 // from the protocol as usually stated, so that our COCO figures equal the
 // ones that tool gives (TestCOCOAgainstReference, to 1e-9; each case
 // pinned by TestCOCOevalDifferences):

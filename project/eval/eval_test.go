@@ -359,7 +359,7 @@ func TestCOCOAreaRange(t *testing.T) {
 	// COCOeval's ranges include both bounds (its Params.areaRng [0, 32²],
 	// [32², 96²], [96², 1e5²] and [0, 1e5²] for all, from memory): 32² is
 	// small and medium, 96² medium and large (TestCOCOevalDifferences
-	// checks this against the transcription). Before Evaluate followed the
+	// checks this against the re-implementation). Before Evaluate followed the
 	// tool, small and large excluded the bounds.
 	for _, c := range []struct {
 		a    AreaRange
@@ -380,7 +380,7 @@ func TestCOCOAreaRange(t *testing.T) {
 // TestCOCOMaxDetections: only the highest-scoring MaxDetections per image
 // and class are counted, as COCOeval cuts them (maxDets per image and
 // category, from memory; TestCOCOevalDifferences checks it against the
-// transcription). Before Evaluate followed the tool, the cap was per image
+// re-implementation). Before Evaluate followed the tool, the cap was per image
 // over all classes, and the class-2 box here used up one of image 1's two
 // places.
 func TestCOCOMaxDetections(t *testing.T) {

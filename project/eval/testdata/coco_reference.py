@@ -5,7 +5,7 @@ BenchmarkEvaluateCOCO and of TestCOCOAgainstReference.
 The reference Python tool for this figure is the COCO dataset API's
 evaluation (pycocotools, COCOeval). It is not installable here (no Debian
 package; PyPI is not reachable), so this file is a straightforward
-transcription, FROM MEMORY, of how COCOeval computes box AP (pycocotools 2.0.x,
+re-implementation, FROM MEMORY, of how COCOeval computes box AP (pycocotools 2.0.x,
 cocoeval.py and the box branch of maskUtils.iou). It keeps COCOeval's
 structure, data layout and Python loops on purpose -- it stands for that
 tool, so nothing here is optimised beyond what COCOeval itself does:
